@@ -1,0 +1,1 @@
+//! Benchmark support (placeholder until the solver benchmarks land).

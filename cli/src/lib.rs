@@ -1,0 +1,30 @@
+//! The `fieldgrid` command-line tool: argument parsing, design-file reading, result writing.
+//!
+//! The library crate `fieldgrid_solver` does the numerics; this crate owns every file, format
+//! and message. Exit codes follow the contract: 0 done, 1 a change or margin beyond tolerance,
+//! 2 bad input or usage, 3 the solver did not converge.
+
+pub mod design_file;
+
+use std::ffi::OsString;
+use std::process::ExitCode;
+
+/// Exit code: done.
+pub const EXIT_OK: u8 = 0;
+/// Exit code: `compare` found a change beyond tolerance (or a margin below `--min-margin`).
+pub const EXIT_CHANGED: u8 = 1;
+/// Exit code: bad input or usage.
+pub const EXIT_BAD_INPUT: u8 = 2;
+/// Exit code: the solver did not converge (results written and flagged).
+pub const EXIT_NOT_CONVERGED: u8 = 3;
+
+/// Runs the tool on the given arguments (the first is the program name).
+pub fn main_with_args<I, T>(args: I) -> ExitCode
+where
+    I: IntoIterator<Item = T>,
+    T: Into<OsString> + Clone,
+{
+    let _ = args.into_iter().count();
+    eprintln!("fieldgrid: not yet implemented");
+    ExitCode::from(EXIT_BAD_INPUT)
+}

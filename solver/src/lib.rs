@@ -1,0 +1,27 @@
+//! fieldgrid: finite-difference solution of 2-D electrostatic fields around electrodes.
+//!
+//! The library takes a typed, SI [`design::Design`] and produces the solved field and every
+//! quantity derived from it. It does no I/O and prints nothing; reading design files and
+//! writing results belong to the command-line crate.
+//!
+//! Data flow: [`design`] (typed input) -> [`geometry`] (exact outlines and predicates) ->
+//! [`raster`] (node classification and cut edges on a [`grid::Grid`]) -> [`operator`]
+//! (one SPD five-point operator, [`stencil::Stencil5`]) -> [`solvers`] -> [`study`]
+//! (excitations, superposition) -> [`post`] (charges, capacitance, field, hot spots).
+#![deny(missing_docs)]
+
+pub mod design;
+pub mod geometry;
+pub mod grid;
+pub mod operator;
+pub mod parallel;
+pub mod post;
+pub mod raster;
+pub mod solvers;
+pub mod stencil;
+pub mod study;
+
+/// Permittivity of free space, F/m (CODATA 2018 recommended value).
+pub const EPS0: f64 = 8.854_187_8128e-12;
+/// Permeability of free space, H/m (CODATA 2018 recommended value).
+pub const MU0: f64 = 1.256_637_062_12e-6;

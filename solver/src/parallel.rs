@@ -1,0 +1,52 @@
+//! Deterministic parallel reductions: results are bit-identical whatever the thread count.
+//!
+//! Invariant: a reduction splits its input into fixed chunks of [`CHUNK`] elements (never a
+//! function of the thread count), reduces each chunk sequentially, and adds the chunk partial
+//! sums in chunk order.
+
+use rayon::prelude::*;
+
+/// Elements per reduction chunk. Fixed: changing it changes the last bits of every result.
+pub const CHUNK: usize = 8192;
+
+/// Sum of `f(i)` for i in 0..n, deterministic.
+pub fn sum_by(n: usize, f: impl Fn(usize) -> f64 + Sync) -> f64 {
+    let chunks = n.div_ceil(CHUNK);
+    let partial: Vec<f64> = (0..chunks)
+        .into_par_iter()
+        .map(|c| {
+            let mut s = 0.0;
+            for i in c * CHUNK..((c + 1) * CHUNK).min(n) {
+                s += f(i);
+            }
+            s
+        })
+        .collect();
+    partial.iter().sum()
+}
+
+/// Dot product, deterministic.
+pub fn dot(a: &[f64], b: &[f64]) -> f64 {
+    assert_eq!(a.len(), b.len());
+    sum_by(a.len(), |i| a[i] * b[i])
+}
+
+/// Euclidean norm, deterministic.
+pub fn norm2(a: &[f64]) -> f64 {
+    dot(a, a).sqrt()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn reductions_do_not_depend_on_thread_count() {
+        let a: Vec<f64> = (0..100_003).map(|i| ((i as f64) * 0.37).sin() * 1e3).collect();
+        let run = |t: usize| {
+            rayon::ThreadPoolBuilder::new().num_threads(t).build().unwrap().install(|| dot(&a, &a))
+        };
+        assert_eq!(run(1).to_bits(), run(2).to_bits());
+        assert_eq!(run(1).to_bits(), run(3).to_bits());
+    }
+}

@@ -1,0 +1,260 @@
+//! Linear solvers for the five-point operator: red-black SOR, Jacobi-preconditioned CG and
+//! multigrid-preconditioned CG. They know nothing of designs: a [`Stencil5`] and right-hand
+//! sides in, a solution and an [`Info`] (or a [`SolveError`] carrying one) out.
+//!
+//! Invariants: the relative residual is `||b - A x||_2 / ||b||_2` over the full lattice; every
+//! reduction goes through [`crate::parallel`], so results are bit-identical for any thread
+//! count; `x` holds the last iterate also when an error is returned.
+
+pub mod cg;
+pub mod multigrid;
+pub mod sor;
+
+use crate::stencil::Stencil5;
+use std::sync::Arc;
+
+/// Which solver to use.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Default)]
+pub enum Method {
+    /// Multigrid-preconditioned conjugate gradients (the default: fastest).
+    #[default]
+    Multigrid,
+    /// Jacobi-preconditioned conjugate gradients.
+    Cg,
+    /// Red-black successive over-relaxation.
+    Sor,
+}
+
+impl Method {
+    /// Every method, for cross-checks.
+    pub const ALL: [Method; 3] = [Method::Multigrid, Method::Cg, Method::Sor];
+
+    /// The name reported in results.
+    pub fn name(self) -> &'static str {
+        match self {
+            Method::Multigrid => "multigrid-cg",
+            Method::Cg => "jacobi-cg",
+            Method::Sor => "red-black-sor",
+        }
+    }
+}
+
+/// Called with (iteration, relative residual) as a solve proceeds.
+pub type Monitor = Arc<dyn Fn(usize, f64) + Send + Sync>;
+
+/// Solver settings.
+#[derive(Clone)]
+pub struct Params {
+    /// Stop when the relative residual falls to this value.
+    pub tol: f64,
+    /// Give up after this many iterations (0: the method's own default).
+    pub max_iter: usize,
+    /// SOR relaxation factor; `None` picks the optimum for the Laplacian on this lattice.
+    pub omega: Option<f64>,
+    /// Progress callback.
+    pub monitor: Option<Monitor>,
+}
+
+impl Default for Params {
+    fn default() -> Self {
+        Params { tol: 1e-8, max_iter: 0, omega: None, monitor: None }
+    }
+}
+
+impl std::fmt::Debug for Params {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.debug_struct("Params")
+            .field("tol", &self.tol)
+            .field("max_iter", &self.max_iter)
+            .field("omega", &self.omega)
+            .finish_non_exhaustive()
+    }
+}
+
+/// Why a solve stopped.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[non_exhaustive]
+pub enum StopReason {
+    /// The relative residual reached the tolerance.
+    Converged,
+    /// The right-hand side is zero; the solution is zero.
+    ZeroRhs,
+    /// The iteration limit was reached first.
+    MaxIterations,
+    /// The residual stopped decreasing.
+    Stagnated,
+    /// The residual grew without bound.
+    Diverged,
+    /// A NaN or infinity appeared.
+    NonFinite,
+}
+
+impl StopReason {
+    /// A short phrase for reports.
+    pub fn describe(self) -> &'static str {
+        match self {
+            StopReason::Converged => "converged",
+            StopReason::ZeroRhs => "zero right-hand side",
+            StopReason::MaxIterations => "iteration limit reached",
+            StopReason::Stagnated => "residual stagnated",
+            StopReason::Diverged => "residual diverged",
+            StopReason::NonFinite => "non-finite values appeared",
+        }
+    }
+}
+
+/// What a solve did.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Info {
+    /// The method's reported name.
+    pub method: &'static str,
+    /// Iterations performed.
+    pub iterations: usize,
+    /// Final relative residual.
+    pub relative_residual: f64,
+    /// Why it stopped.
+    pub reason: StopReason,
+}
+
+impl Info {
+    /// True when the result met the tolerance.
+    pub fn converged(&self) -> bool {
+        matches!(self.reason, StopReason::Converged | StopReason::ZeroRhs)
+    }
+}
+
+/// A solve that did not reach the tolerance. `x` holds the last iterate.
+#[derive(Clone, Debug, PartialEq, thiserror::Error)]
+#[non_exhaustive]
+pub enum SolveError {
+    /// Stopped before converging; the info says why.
+    #[error("{} did not converge: {} after {} iterations (relative residual {:.3e})",
+        .0.method, .0.reason.describe(), .0.iterations, .0.relative_residual)]
+    NotConverged(Info),
+}
+
+impl SolveError {
+    /// The diagnostics of the failed solve.
+    pub fn info(&self) -> &Info {
+        match self {
+            SolveError::NotConverged(i) => i,
+        }
+    }
+}
+
+/// A solver made ready for one operator: setup (such as a multigrid hierarchy) done once and
+/// shared by every right-hand side.
+#[derive(Debug)]
+pub enum Prepared {
+    /// Jacobi-preconditioned CG.
+    Cg,
+    /// Red-black SOR.
+    Sor,
+    /// Multigrid-preconditioned CG with its hierarchy.
+    Multigrid(Box<multigrid::Hierarchy>),
+}
+
+/// Does the setup of `method` for `stencil`.
+pub fn prepare(method: Method, stencil: &Stencil5) -> Prepared {
+    match method {
+        Method::Cg => Prepared::Cg,
+        Method::Sor => Prepared::Sor,
+        Method::Multigrid => Prepared::Multigrid(Box::new(multigrid::Hierarchy::new(stencil))),
+    }
+}
+
+impl Prepared {
+    /// Solves `A x = b`, starting from the given `x`.
+    pub fn solve(&self, stencil: &Stencil5, b: &[f64], x: &mut [f64], params: &Params) -> Result<Info, SolveError> {
+        match self {
+            Prepared::Cg => cg::solve(stencil, b, x, params),
+            Prepared::Sor => sor::solve(stencil, b, x, params),
+            Prepared::Multigrid(h) => h.solve(stencil, b, x, params),
+        }
+    }
+
+    /// Solves for several right-hand sides; `xs[k]` is the starting guess for `bs[k]`.
+    /// Returns one result per right-hand side, in order.
+    pub fn solve_many(
+        &self,
+        stencil: &Stencil5,
+        bs: &[Vec<f64>],
+        xs: &mut [Vec<f64>],
+        params: &Params,
+    ) -> Vec<Result<Info, SolveError>> {
+        match self {
+            Prepared::Multigrid(h) => h.solve_many(stencil, bs, xs, params),
+            _ => bs.iter().zip(xs.iter_mut()).map(|(b, x)| self.solve(stencil, b, x, params)).collect(),
+        }
+    }
+
+    /// The method this was prepared for.
+    pub fn method(&self) -> Method {
+        match self {
+            Prepared::Cg => Method::Cg,
+            Prepared::Sor => Method::Sor,
+            Prepared::Multigrid(_) => Method::Multigrid,
+        }
+    }
+}
+
+/// Prepares and solves in one call.
+pub fn solve(method: Method, stencil: &Stencil5, b: &[f64], x: &mut [f64], params: &Params) -> Result<Info, SolveError> {
+    prepare(method, stencil).solve(stencil, b, x, params)
+}
+
+/// Classifies the state of an iteration from its residual history. Shared by the iterative
+/// methods so that they stop for the same reasons.
+pub(crate) fn check_progress(rel: f64, initial_rel: f64, best_rel: f64, since_best: usize, window: usize) -> Option<StopReason> {
+    if !rel.is_finite() {
+        Some(StopReason::NonFinite)
+    } else if rel > 1e8 * initial_rel.max(1.0) {
+        Some(StopReason::Diverged)
+    } else if since_best > window && rel > 0.5 * best_rel {
+        Some(StopReason::Stagnated)
+    } else {
+        None
+    }
+}
+
+#[cfg(test)]
+pub(crate) mod testing {
+    //! Operators shared by the solver unit tests.
+    use crate::stencil::Stencil5;
+
+    /// A box with a dielectric jump and an interior fixed block; rhs from a smooth source.
+    pub fn jump_problem(n: usize, contrast: f64) -> (Stencil5, Vec<f64>) {
+        let mut s = Stencil5::dirichlet_box(n, n, |_, j| if j < n / 2 { contrast } else { 1.0 });
+        // Fix an interior block (a conductor): identity rows, couplings cut.
+        let (i0, i1, j0, j1) = (n / 3, n / 3 + n / 8 + 1, 2 * n / 3, 2 * n / 3 + 2);
+        let nx = n;
+        for j in j0..j1 {
+            for i in i0..i1 {
+                let p = i + j * nx;
+                s.unknown[p] = false;
+            }
+        }
+        for p in 0..s.len() {
+            if !s.unknown[p] {
+                s.diag[p] = 1.0;
+                let (i, j) = (p % nx, p / nx);
+                if i + 1 < nx {
+                    s.east[p] = 0.0;
+                }
+                if i > 0 {
+                    s.east[p - 1] = 0.0;
+                }
+                if j + 1 < n {
+                    s.north[p] = 0.0;
+                }
+                if j > 0 {
+                    s.north[p - nx] = 0.0;
+                }
+            }
+        }
+        let b = (0..s.len())
+            .map(|p| if s.unknown[p] { 1.0 + ((p % nx) as f64 * 0.1).sin() } else { 0.0 })
+            .collect();
+        (s, b)
+    }
+}

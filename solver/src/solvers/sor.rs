@@ -1,0 +1,136 @@
+//! Red-black successive over-relaxation on the five-point operator.
+//!
+//! Invariant: within one colour, every update reads only nodes of the other colour, so the
+//! rows of a colour can be updated in parallel with results independent of the thread count.
+
+use super::{check_progress, Info, Params, SolveError, StopReason};
+use crate::parallel;
+use crate::stencil::Stencil5;
+use rayon::prelude::*;
+
+/// Raw pointer that may be shared between threads updating disjoint entries.
+#[derive(Clone, Copy)]
+pub(crate) struct SharedMut(pub *mut f64);
+// SAFETY: users only write disjoint entries and read entries no thread writes concurrently.
+unsafe impl Send for SharedMut {}
+unsafe impl Sync for SharedMut {}
+
+/// The optimal SOR factor for the Laplacian on this lattice (a good default for the
+/// variable-coefficient operator too).
+pub fn default_omega(a: &Stencil5) -> f64 {
+    let n = a.nx.max(a.ny) as f64;
+    2.0 / (1.0 + (std::f64::consts::PI / n).sin())
+}
+
+/// One red-black sweep (red then black) with relaxation `omega`. With `reverse`, black then
+/// red (the adjoint sweep, used to make a symmetric smoother).
+pub(crate) fn sweep(a: &Stencil5, b: &[f64], x: &mut [f64], omega: f64, reverse: bool) {
+    let colours = if reverse { [1usize, 0] } else { [0usize, 1] };
+    for colour in colours {
+        colour_sweep(a, b, x, omega, colour);
+    }
+}
+
+fn colour_sweep(a: &Stencil5, b: &[f64], x: &mut [f64], omega: f64, colour: usize) {
+    let (nx, ny) = (a.nx, a.ny);
+    let ptr = SharedMut(x.as_mut_ptr());
+    (0..ny).into_par_iter().for_each(|j| {
+        let ptr = ptr;
+        let x = ptr.0;
+        let start = (colour + j) % 2;
+        for i in (start..nx).step_by(2) {
+            let p = i + j * nx;
+            if !a.unknown[p] {
+                continue;
+            }
+            // SAFETY: p has this colour; all reads below are of the other colour, which no
+            // thread writes during this colour's pass; writes are to distinct p.
+            unsafe {
+                let mut s = b[p];
+                if i + 1 < nx {
+                    s += a.east[p] * *x.add(p + 1);
+                }
+                if i > 0 {
+                    s += a.east[p - 1] * *x.add(p - 1);
+                }
+                if j + 1 < ny {
+                    s += a.north[p] * *x.add(p + nx);
+                }
+                if j > 0 {
+                    s += a.north[p - nx] * *x.add(p - nx);
+                }
+                let old = *x.add(p);
+                *x.add(p) = old + omega * (s / a.diag[p] - old);
+            }
+        }
+    });
+}
+
+/// Solves `A x = b` by red-black SOR from the starting guess in `x`.
+pub fn solve(a: &Stencil5, b: &[f64], x: &mut [f64], params: &Params) -> Result<Info, SolveError> {
+    const METHOD: &str = "red-black-sor";
+    let bnorm = parallel::norm2(b);
+    if bnorm == 0.0 {
+        x.par_iter_mut().for_each(|v| *v = 0.0);
+        return Ok(Info { method: METHOD, iterations: 0, relative_residual: 0.0, reason: StopReason::ZeroRhs });
+    }
+    let omega = params.omega.unwrap_or_else(|| default_omega(a));
+    let max_iter = if params.max_iter > 0 { params.max_iter } else { 50 * (a.nx + a.ny) + 2000 };
+    let check_every = 10;
+    let mut r = vec![0.0; a.len()];
+    let rel0 = a.residual(b, x, &mut r) / bnorm;
+    let (mut rel, mut best, mut since_best, mut iterations) = (rel0, rel0, 0, 0);
+    let reason = loop {
+        if rel <= params.tol {
+            break StopReason::Converged;
+        }
+        if iterations >= max_iter {
+            break StopReason::MaxIterations;
+        }
+        let steps = check_every.min(max_iter - iterations);
+        for _ in 0..steps {
+            sweep(a, b, x, omega, false);
+        }
+        iterations += steps;
+        rel = a.residual(b, x, &mut r) / bnorm;
+        if let Some(m) = &params.monitor {
+            m(iterations, rel);
+        }
+        if rel < best {
+            best = rel;
+            since_best = 0;
+        } else {
+            since_best += steps;
+        }
+        if rel > params.tol {
+            if let Some(stop) = check_progress(rel, rel0, best, since_best, 2000) {
+                break stop;
+            }
+        }
+    };
+    let info = Info { method: METHOD, iterations, relative_residual: rel, reason };
+    if info.converged() {
+        Ok(info)
+    } else {
+        Err(SolveError::NotConverged(info))
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::solvers::testing::jump_problem;
+
+    #[test]
+    fn sor_agrees_with_cg() {
+        let (a, b) = jump_problem(33, 20.0);
+        let mut xs = vec![0.0; a.len()];
+        let mut xc = vec![0.0; a.len()];
+        let p = Params { tol: 1e-10, ..Params::default() };
+        solve(&a, &b, &mut xs, &p).unwrap();
+        crate::solvers::cg::solve(&a, &b, &mut xc, &p).unwrap();
+        let scale = xc.iter().fold(0.0f64, |m, v| m.max(v.abs()));
+        let diff = xs.iter().zip(&xc).fold(0.0f64, |m, (a, b)| m.max((a - b).abs()));
+        assert!(diff < 1e-7 * scale, "diff {diff}");
+    }
+}
