@@ -137,6 +137,7 @@ pub fn read_design(
         text,
         file,
         scale: 1.0,
+        unit: LengthUnit::M,
         mode: Mode::Planar,
         params: Vec::new(),
     };
@@ -184,6 +185,8 @@ struct Reader<'a> {
     file: &'a str,
     /// Metres per file unit.
     scale: f64,
+    /// The file's unit, for messages.
+    unit: LengthUnit,
     mode: Mode,
     /// Parameters defined so far, in file order.
     params: Vec<(String, f64)>,
@@ -220,6 +223,15 @@ fn distance(a: &str, b: &str) -> usize {
         }
     }
     row[b.len()]
+}
+
+/// A number for a message: plain when moderate, else in exponent form.
+fn show(v: f64) -> String {
+    if v == 0.0 || (1e-4..1e6).contains(&v.abs()) {
+        format!("{v}")
+    } else {
+        format!("{v:e}")
+    }
 }
 
 fn list(keys: &[&str]) -> String {
@@ -352,16 +364,8 @@ impl Reader<'_> {
     }
 
     fn length(&self, node: &Node, key: &str) -> Res<f64> {
-        let v = self.number(node, key)? * self.scale;
-        if v.is_finite() {
-            Ok(v)
-        } else {
-            Err(self.err(
-                &node.span,
-                key,
-                "the length overflows when converted to metres",
-            ))
-        }
+        // Scales are at most 1: a finite number stays finite.
+        Ok(self.number(node, key)? * self.scale)
     }
 
     fn positive(&self, v: f64, node: &Node, key: &str, what: &str) -> Res<f64> {
@@ -371,21 +375,25 @@ impl Reader<'_> {
             Err(self.err(
                 &node.span,
                 key,
-                format!("{what} must be positive, found {v}"),
+                format!("{what} must be positive, found {}", show(v)),
             ))
         }
     }
 
-    fn non_negative(&self, v: f64, node: &Node, key: &str, what: &str) -> Res<f64> {
-        if v >= 0.0 {
-            Ok(v)
-        } else {
-            Err(self.err(
-                &node.span,
-                key,
-                format!("{what} must not be negative, found {v}"),
-            ))
+    /// A length that must be positive (or, with `zero_ok`, not negative), in metres. The
+    /// check is made on the value as written so the message speaks the file's unit.
+    fn size(&self, node: &Node, key: &str, what: &str, zero_ok: bool) -> Res<f64> {
+        let v = self.number(node, key)?;
+        let unit = self.unit.name();
+        if zero_ok && v < 0.0 {
+            let m = format!("{what} must not be negative, found {} {unit}", show(v));
+            return Err(self.err(&node.span, key, m));
         }
+        if !zero_ok && v <= 0.0 {
+            let m = format!("{what} must be positive, found {} {unit}", show(v));
+            return Err(self.err(&node.span, key, m));
+        }
+        Ok(v * self.scale)
     }
 
     fn array<'n>(&self, node: &'n Node, key: &str, expected: &str) -> Res<&'n [Node]> {
@@ -457,6 +465,7 @@ impl Reader<'_> {
                 )
             })?;
         }
+        self.unit = unit;
         self.scale = unit.scale();
         if let Some(e) = get(top, "mode") {
             self.mode = match self.string(&e.node, "mode")? {
@@ -484,8 +493,7 @@ impl Reader<'_> {
                     "`depth` is for planar designs only: an axisymmetric design is a whole body",
                 ));
             }
-            let v = self.length(&e.node, "depth")?;
-            d.depth = Some(self.positive(v, &e.node, "depth", "the depth")?);
+            d.depth = Some(self.size(&e.node, "depth", "the depth", false)?);
         }
         let grid = get(top, "grid").ok_or_else(|| {
             self.err(
@@ -635,8 +643,7 @@ impl Reader<'_> {
             ));
         }
         let ys = self.extent(&y.node, "grid.y")?;
-        let c = self.length(&cell.node, "grid.cell")?;
-        let c = self.positive(c, &cell.node, "grid.cell", "the cell size")?;
+        let c = self.size(&cell.node, "grid.cell", "the cell size", false)?;
         Ok(Domain {
             x: xs,
             y: ys,
@@ -976,8 +983,7 @@ impl Reader<'_> {
                 let r = self.required(s, n, &key, "radius", "the radius")?;
                 let center = self.point(&c.node, &join(&key, "center"))?;
                 let rk = join(&key, "radius");
-                let radius = self.length(&r.node, &rk)?;
-                let radius = self.positive(radius, &r.node, &rk, "the radius")?;
+                let radius = self.size(&r.node, &rk, "the radius", false)?;
                 Ok(Shape::Circle { center, radius })
             }
             "ring" => {
@@ -987,8 +993,7 @@ impl Reader<'_> {
                 let o = self.required(s, n, &key, "outer", "the outer radius")?;
                 let center = self.point(&c.node, &join(&key, "center"))?;
                 let ik = join(&key, "inner");
-                let inner = self.length(&i.node, &ik)?;
-                let inner = self.non_negative(inner, &i.node, &ik, "the inner radius")?;
+                let inner = self.size(&i.node, &ik, "the inner radius", true)?;
                 let ok = join(&key, "outer");
                 let outer = self.length(&o.node, &ok)?;
                 if outer <= inner {
@@ -1041,8 +1046,7 @@ impl Reader<'_> {
             return Ok(0.0);
         };
         let key = join(path, "round");
-        let r = self.length(&e.node, &key)?;
-        self.non_negative(r, &e.node, &key, "the fillet radius")
+        self.size(&e.node, &key, "the fillet radius", true)
     }
 }
 
