@@ -1,1 +1,479 @@
-//! (Work in progress.)
+//! Operator assembly: the one SPD five-point operator of a rasterised design, with the
+//! couplings to fixed potentials that build right-hand sides and reactions (charges).
+//!
+//! Discretisation (finite volumes on the node lattice): the flux across the control-volume
+//! face of a lattice edge is `eps0 * eps * area / distance * (phi_a - phi_b)`, where `eps` is
+//! the harmonic-mean relative permittivity along the edge and `area` is the face length
+//! (planar, per unit depth) or the face's surface of revolution `2*pi*r*length`
+//! (axisymmetric). Where a conductor surface cuts the edge at a fraction `theta` from a free
+//! node, the distance becomes `theta * h` and the far value is the conductor's potential
+//! (the symmetric boundary treatment of Gibou, Fedkiw, Cheng & Kang, J. Comput. Phys. 176
+//! (2002) 205-227). Symmetry sides close their control volumes with no flux; the axis
+//! carries none either, because the face area there is zero.
+//!
+//! Invariants:
+//! - `stencil` is symmetric with non-negative couplings; fixed nodes have identity rows.
+//! - For any node potentials `phi` that satisfy the fixed values, the reaction of target `t`
+//!   (the sum of the fluxes leaving it) is its charge, and the reactions of all targets plus
+//!   the free charge sum to zero (Gauss's law for the whole box).
+//! - Every connected region of unknowns touches at least one fixed potential, so the
+//!   operator is definite; assembly reports an error otherwise.
+
+use crate::design::{Design, Mode, Side};
+use crate::grid::Grid;
+use crate::raster::{Axis, HalfLink, Raster, NO_CONDUCTOR};
+use crate::stencil::Stencil5;
+use crate::EPS0;
+
+/// Smallest cut fraction used in a weight; closer surfaces are treated as this close (an
+/// error in the surface position of at most `THETA_MIN * h`, keeping the weights bounded).
+pub const THETA_MIN: f64 = 0.01;
+
+/// One side of the domain, as a fixed-potential target.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum SideId {
+    /// x = x0.
+    Left,
+    /// x = x1.
+    Right,
+    /// y = y0.
+    Bottom,
+    /// y = y1.
+    Top,
+}
+
+impl SideId {
+    /// All sides in target order.
+    pub const ALL: [SideId; 4] = [SideId::Left, SideId::Right, SideId::Bottom, SideId::Top];
+
+    /// The design key of the side.
+    pub fn name(self) -> &'static str {
+        match self {
+            SideId::Left => "left",
+            SideId::Right => "right",
+            SideId::Bottom => "bottom",
+            SideId::Top => "top",
+        }
+    }
+}
+
+/// Direction of a link from its node.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, PartialOrd, Ord)]
+pub enum Dir {
+    /// +x.
+    East,
+    /// -x.
+    West,
+    /// +y.
+    North,
+    /// -y.
+    South,
+}
+
+impl Dir {
+    /// Unit vector of the direction.
+    pub fn unit(self) -> [f64; 2] {
+        match self {
+            Dir::East => [1.0, 0.0],
+            Dir::West => [-1.0, 0.0],
+            Dir::North => [0.0, 1.0],
+            Dir::South => [0.0, -1.0],
+        }
+    }
+}
+
+/// A coupling of an unknown node to a fixed potential.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Link {
+    /// The unknown node.
+    pub node: u32,
+    /// Target index: conductor k is k, side s is `n_conductors + s`.
+    pub target: u32,
+    /// Weight (planar: dimensionless, axisymmetric: m); flux = eps0 * weight * (V_t - phi).
+    pub weight: f64,
+    /// Direction from the node towards the target.
+    pub dir: Dir,
+    /// Distance to the target's surface as a fraction of the spacing (clamped to THETA_MIN).
+    pub theta: f64,
+    /// Relative permittivity of the stretch.
+    pub eps: f64,
+}
+
+/// A coupling between two fixed targets (a conductor within one cell of another conductor or
+/// of a fixed side). It carries charge but no unknown.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct DirectCoupling {
+    /// First target.
+    pub a: u32,
+    /// Second target.
+    pub b: u32,
+    /// Weight, as in [`Link::weight`].
+    pub weight: f64,
+}
+
+/// A design that cannot be turned into a definite operator.
+#[derive(Clone, Debug, PartialEq, thiserror::Error)]
+#[non_exhaustive]
+pub enum OperatorError {
+    /// A region of free space has no fixed potential anywhere on its boundary (for example
+    /// every side a symmetry side and no conductor), so its potential is undetermined.
+    #[error("the region around ({x:.6e} m, {y:.6e} m) touches no fixed potential: ground a side or add a conductor")]
+    NoReference {
+        /// A point of the region, m.
+        x: f64,
+        /// A point of the region, m.
+        y: f64,
+    },
+    /// A side condition this build cannot discretise yet.
+    #[error("side `{side}`: {message}")]
+    UnsupportedSide {
+        /// The side's key.
+        side: &'static str,
+        /// Why.
+        message: String,
+    },
+}
+
+/// The assembled operator of one design on one lattice.
+#[derive(Clone, Debug)]
+pub struct Operator {
+    /// The lattice.
+    pub grid: Grid,
+    /// Planar or axisymmetric weights.
+    pub mode: Mode,
+    /// The matrix seen by the solvers.
+    pub stencil: Stencil5,
+    /// Number of conductors (targets 0..n_conductors).
+    pub n_conductors: usize,
+    /// Fixed potential of each side, `None` for symmetry, open or axis sides.
+    pub side_potential: [Option<f64>; 4],
+    /// Couplings of unknowns to fixed potentials, sorted by (node, dir).
+    pub links: Vec<Link>,
+    /// Couplings between fixed targets.
+    pub direct: Vec<DirectCoupling>,
+    /// Free charge of each unknown node divided by eps0 (planar V, axisymmetric V*m), sorted.
+    pub source: Vec<(u32, f64)>,
+    /// Free charge that fell on fixed nodes and so is absorbed by them, C/m or C.
+    pub absorbed_charge: f64,
+}
+
+impl Operator {
+    /// Number of fixed-potential targets (conductors, then the four sides).
+    pub fn n_targets(&self) -> usize {
+        self.n_conductors + 4
+    }
+
+    /// Target index of a side.
+    pub fn side_target(&self, s: SideId) -> u32 {
+        (self.n_conductors + s as usize) as u32
+    }
+
+    /// Potentials of every target for the given conductor potentials, with sides at their
+    /// design values when `with_sides` (otherwise 0).
+    pub fn target_values(&self, conductor: &[f64], with_sides: bool) -> Vec<f64> {
+        assert_eq!(conductor.len(), self.n_conductors);
+        let mut v = conductor.to_vec();
+        for s in self.side_potential {
+            v.push(if with_sides { s.unwrap_or(0.0) } else { 0.0 });
+        }
+        v
+    }
+
+    /// Right-hand side for the given target potentials, plus the free charge when `with_source`.
+    pub fn rhs(&self, values: &[f64], with_source: bool) -> Vec<f64> {
+        let mut b = vec![0.0; self.grid.len()];
+        for l in &self.links {
+            b[l.node as usize] += l.weight * values[l.target as usize];
+        }
+        if with_source {
+            for &(p, s) in &self.source {
+                b[p as usize] += s;
+            }
+        }
+        b
+    }
+
+    /// Charge of every target (C/m planar, C axisymmetric) for node potentials `phi` solved
+    /// with the target potentials `values`.
+    pub fn reactions(&self, phi: &[f64], values: &[f64]) -> Vec<f64> {
+        let mut q = vec![0.0; self.n_targets()];
+        for l in &self.links {
+            q[l.target as usize] += l.weight * (values[l.target as usize] - phi[l.node as usize]);
+        }
+        for d in &self.direct {
+            let f = d.weight * (values[d.a as usize] - values[d.b as usize]);
+            q[d.a as usize] += f;
+            q[d.b as usize] -= f;
+        }
+        q.iter_mut().for_each(|v| *v *= EPS0);
+        q
+    }
+
+    /// Total free charge in the unknowns, C/m or C.
+    pub fn free_charge(&self) -> f64 {
+        self.source.iter().map(|s| s.1).sum::<f64>() * EPS0
+    }
+
+    /// The links of node `p` (empty for most nodes).
+    pub fn links_of(&self, p: usize) -> &[Link] {
+        let lo = self.links.partition_point(|l| (l.node as usize) < p);
+        let hi = lo + self.links[lo..].partition_point(|l| l.node as usize == p);
+        &self.links[lo..hi]
+    }
+}
+
+/// Face area factor and its radius rule, per mode.
+struct Faces {
+    grid: Grid,
+    axisymmetric: bool,
+}
+
+impl Faces {
+    /// Extent of node i's control volume along x: [lo, hi].
+    fn span_x(&self, i: usize) -> (f64, f64) {
+        let g = &self.grid;
+        let x = g.x(i);
+        let lo = if i == 0 { x } else { x - 0.5 * g.hx };
+        let hi = if i + 1 == g.nx { x } else { x + 0.5 * g.hx };
+        (lo, hi)
+    }
+
+    fn len_y(&self, j: usize) -> f64 {
+        let g = &self.grid;
+        let mut l = g.hy;
+        if j == 0 || j + 1 == g.ny {
+            l *= 0.5;
+        }
+        l
+    }
+
+    /// Weight per unit permittivity of the x-edge stretch from node (i, j) of length
+    /// `theta * hx` towards +x (`sign` = 1) or -x (`sign` = -1).
+    fn wx(&self, i: usize, j: usize, theta: f64, sign: f64) -> f64 {
+        let g = &self.grid;
+        let d = theta * g.hx;
+        let area = if self.axisymmetric {
+            // Radius of the stretch midpoint: r * dphi/dr is nearly constant along the stretch.
+            let r = g.x(i) + sign * 0.5 * d;
+            2.0 * std::f64::consts::PI * r * self.len_y(j)
+        } else {
+            self.len_y(j)
+        };
+        area / d
+    }
+
+    /// Weight per unit permittivity of the y-edge stretch from node (i, j) of length theta*hy.
+    fn wy(&self, i: usize, _j: usize, theta: f64) -> f64 {
+        let g = &self.grid;
+        let (lo, hi) = self.span_x(i);
+        let area = if self.axisymmetric { std::f64::consts::PI * (hi * hi - lo * lo) } else { hi - lo };
+        area / (theta * g.hy)
+    }
+}
+
+/// Assembles the operator of `design` rasterised as `raster`.
+pub fn assemble(design: &Design, raster: &Raster) -> Result<Operator, OperatorError> {
+    let grid = raster.grid;
+    let (nx, ny) = (grid.nx, grid.ny);
+    let n = grid.len();
+    let nc = design.conductors.len();
+    let sides = [design.sides.left, design.sides.right, design.sides.bottom, design.sides.top];
+    for (s, side) in SideId::ALL.iter().zip(sides) {
+        if side == Side::Open {
+            return Err(OperatorError::UnsupportedSide {
+                side: s.name(),
+                message: "open sides are not supported by this operator yet".into(),
+            });
+        }
+    }
+    let side_potential = sides.map(Side::potential);
+    let axisymmetric = design.mode == Mode::Axisymmetric;
+    let faces = Faces { grid, axisymmetric };
+
+    // Fixed side of a node: Dirichlet sides own their nodes; the bottom and top sides take
+    // the corners they share with a fixed left or right side.
+    let side_of = |i: usize, j: usize| -> Option<SideId> {
+        if j == 0 && side_potential[2].is_some() {
+            Some(SideId::Bottom)
+        } else if j + 1 == ny && side_potential[3].is_some() {
+            Some(SideId::Top)
+        } else if i == 0 && side_potential[0].is_some() {
+            Some(SideId::Left)
+        } else if i + 1 == nx && side_potential[1].is_some() {
+            Some(SideId::Right)
+        } else {
+            None
+        }
+    };
+    let side_target = |s: SideId| (nc + s as usize) as u32;
+
+    let mut unknown = vec![false; n];
+    for j in 0..ny {
+        for i in 0..nx {
+            let p = grid.idx(i, j);
+            unknown[p] = raster.conductor[p] == NO_CONDUCTOR && side_of(i, j).is_none();
+        }
+    }
+
+    let mut diag = vec![0.0; n];
+    let mut east = vec![0.0; n];
+    let mut north = vec![0.0; n];
+    let mut links = Vec::new();
+    let mut direct = Vec::new();
+
+    let mut cut = raster.cut_edges.iter().peekable();
+    for j in 0..ny {
+        for i in 0..nx {
+            let a = grid.idx(i, j);
+            for axis in [Axis::X, Axis::Y] {
+                let (b, bi, bj) = match axis {
+                    Axis::X if i + 1 < nx => (a + 1, i + 1, j),
+                    Axis::Y if j + 1 < ny => (a + nx, i, j + 1),
+                    _ => continue,
+                };
+                while cut.peek().is_some_and(|c| ((c.node as usize), c.axis) < (a, axis)) {
+                    cut.next();
+                }
+                let record = cut.next_if(|c| c.node as usize == a && c.axis == axis);
+                let (ca, cb) = (raster.conductor[a], raster.conductor[b]);
+                let (from_a, from_b, direct_link) = match record {
+                    Some(c) => (c.from_a, c.from_b, c.direct),
+                    None if ca == NO_CONDUCTOR && cb == NO_CONDUCTOR => {
+                        let h = HalfLink { theta: 1.0, eps: Raster::permittivity(design, raster.material[a]), ends_on: None };
+                        (Some(h), Some(h), None)
+                    }
+                    None => (None, None, None),
+                };
+                if let Some(d) = direct_link {
+                    let w = d.eps * geometric_weight(&faces, axis, i, j, d.gap.max(THETA_MIN), 1.0);
+                    direct.push(DirectCoupling { a: d.a as u32, b: d.b as u32, weight: w });
+                }
+                // Each free end sees either the other node (None) or a conductor surface.
+                let ends = [(a, i, j, from_a, b, 1.0), (b, bi, bj, from_b, a, -1.0)];
+                for (p, pi, pj, half, other, sign) in ends {
+                    let Some(h) = half else { continue };
+                    let theta = h.theta.clamp(THETA_MIN, 1.0);
+                    let w = h.eps * geometric_weight(&faces, axis, pi, pj, theta, sign);
+                    let dir = match (axis, sign > 0.0) {
+                        (Axis::X, true) => Dir::East,
+                        (Axis::X, false) => Dir::West,
+                        (Axis::Y, true) => Dir::North,
+                        (Axis::Y, false) => Dir::South,
+                    };
+                    let target = match h.ends_on {
+                        Some(k) => Some(k as u32),
+                        None if unknown[other] => None,
+                        None => {
+                            let (oi, oj) = (other % nx, other / nx);
+                            match side_of(oi, oj) {
+                                Some(s) => Some(side_target(s)),
+                                // The other end is a conductor node reached without a
+                                // recorded surface: the surface is at that node.
+                                None => Some(raster.conductor[other] as u32),
+                            }
+                        }
+                    };
+                    if unknown[p] {
+                        diag[p] += w;
+                        match target {
+                            None => {
+                                // Free-free coupling: record once, from the lower end.
+                                if sign > 0.0 {
+                                    match axis {
+                                        Axis::X => east[p] = w,
+                                        Axis::Y => north[p] = w,
+                                    }
+                                }
+                            }
+                            Some(t) => links.push(Link { node: p as u32, target: t, weight: w, dir, theta, eps: h.eps }),
+                        }
+                    } else if let (Some(t), Some(s)) = (target, side_of(pi, pj)) {
+                        // A fixed side node facing a conductor surface.
+                        if (t as usize) < nc {
+                            direct.push(DirectCoupling { a: side_target(s), b: t, weight: w });
+                        }
+                    }
+                }
+            }
+        }
+    }
+    // Free-free couplings must be symmetric: the upper end added the same weight to its
+    // diagonal from its own half-link (equal by the raster invariant).
+    for p in 0..n {
+        if !unknown[p] {
+            diag[p] = 1.0;
+            east[p] = 0.0;
+            north[p] = 0.0;
+        }
+    }
+    for p in 0..n {
+        if p + 1 < n && !unknown[p + 1] {
+            east[p] = 0.0;
+        }
+        if p + nx < n && !unknown[p + nx] {
+            north[p] = 0.0;
+        }
+    }
+    links.sort_by_key(|l| (l.node, l.dir));
+
+    let mut source = Vec::new();
+    let mut absorbed = 0.0;
+    for &(p, q) in &raster.node_charge {
+        if unknown[p as usize] {
+            source.push((p, q / EPS0));
+        } else {
+            absorbed += q;
+        }
+    }
+
+    let stencil = Stencil5 { nx, ny, diag, east, north, unknown };
+    check_reference(&stencil, &links, &grid)?;
+    Ok(Operator { grid, mode: design.mode, stencil, n_conductors: nc, side_potential, links, direct, source, absorbed_charge: absorbed })
+}
+
+fn geometric_weight(faces: &Faces, axis: Axis, i: usize, j: usize, theta: f64, sign: f64) -> f64 {
+    match axis {
+        Axis::X => faces.wx(i, j, theta, sign),
+        Axis::Y => faces.wy(i, j, theta),
+    }
+}
+
+/// Every connected region of unknowns must touch a fixed potential.
+fn check_reference(s: &Stencil5, links: &[Link], grid: &Grid) -> Result<(), OperatorError> {
+    let n = s.len();
+    let nx = s.nx;
+    let mut anchored = vec![false; n];
+    let mut stack: Vec<usize> = Vec::new();
+    for l in links {
+        let p = l.node as usize;
+        if !anchored[p] {
+            anchored[p] = true;
+            stack.push(p);
+        }
+    }
+    while let Some(p) = stack.pop() {
+        let mut visit = |q: usize, c: f64| {
+            if c > 0.0 && s.unknown[q] && !anchored[q] {
+                anchored[q] = true;
+                stack.push(q);
+            }
+        };
+        let (i, j) = (p % nx, p / nx);
+        if i + 1 < nx {
+            visit(p + 1, s.east[p]);
+        }
+        if i > 0 {
+            visit(p - 1, s.east[p - 1]);
+        }
+        if j + 1 < s.ny {
+            visit(p + nx, s.north[p]);
+        }
+        if j > 0 {
+            visit(p - nx, s.north[p - nx]);
+        }
+    }
+    match (0..n).find(|&p| s.unknown[p] && !anchored[p]) {
+        Some(p) => Err(OperatorError::NoReference { x: grid.x(p % nx), y: grid.y(p / nx) }),
+        None => Ok(()),
+    }
+}

@@ -1,1 +1,394 @@
-//! (Work in progress.)
+//! Post-processing of a solved potential: field, forces, hot spots, probes, surface charge.
+//!
+//! The field at a free node is the second-order difference of the potential along each axis,
+//! using the cut-cell distance to a conductor surface where a link crosses one (so the field
+//! next to a curved electrode is not spoiled by the staircase). Forces come from the Maxwell
+//! stress tensor integrated over a closed lattice contour one layer of nodes outside each
+//! conductor.
+//!
+//! Invariants: field values exist only at unknown nodes (NaN elsewhere); everything is SI.
+
+use crate::design::{Design, Mode, Point, Probe, Shape};
+use crate::operator::{Dir, Operator};
+use crate::raster::{Raster, NO_CONDUCTOR};
+use crate::EPS0;
+
+/// A local maximum of the field magnitude.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Hotspot {
+    /// |E|, V/m.
+    pub magnitude: f64,
+    /// Position, m.
+    pub x: f64,
+    /// Position, m.
+    pub y: f64,
+    /// Material name ("background" or a dielectric's name).
+    pub material: String,
+    /// Breakdown strength of that material, V/m, when known.
+    pub strength: Option<f64>,
+    /// strength / magnitude, when the strength is known.
+    pub margin: Option<f64>,
+    /// True when the maximum sits at a sharp corner or edge: its value grows as the grid is
+    /// refined.
+    pub singular: bool,
+}
+
+/// Hot-spot search settings.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct HotspotParams {
+    /// At most this many hot spots are reported.
+    pub count: usize,
+    /// Two maxima closer than this many cells are one hot spot.
+    pub separation_cells: f64,
+    /// A maximum within this many cells of a sharp corner is flagged singular.
+    pub corner_cells: f64,
+}
+
+impl Default for HotspotParams {
+    fn default() -> Self {
+        HotspotParams { count: 10, separation_cells: 6.0, corner_cells: 2.5 }
+    }
+}
+
+/// A probe's reading.
+#[derive(Clone, Debug, PartialEq)]
+pub struct ProbeResult {
+    /// Name.
+    pub name: String,
+    /// Position, m.
+    pub x: f64,
+    /// Position, m.
+    pub y: f64,
+    /// Potential, V.
+    pub potential: f64,
+    /// Field (Ex, Ey), V/m; NaN where undefined (inside a conductor).
+    pub field: [f64; 2],
+}
+
+/// A surface-charge sample at a point where a lattice edge meets a conductor surface.
+#[derive(Clone, Debug, PartialEq)]
+pub struct SurfacePoint {
+    /// Conductor index.
+    pub conductor: usize,
+    /// Position on the surface, m.
+    pub x: f64,
+    /// Position on the surface, m.
+    pub y: f64,
+    /// Surface charge density, C/m^2.
+    pub density: f64,
+    /// Field magnitude just outside the surface, V/m.
+    pub field: f64,
+}
+
+/// Field evaluation on a solved operator.
+pub struct FieldEval<'a> {
+    /// The operator.
+    pub op: &'a Operator,
+    /// The raster.
+    pub raster: &'a Raster,
+    /// Node potentials, fixed nodes holding their values.
+    pub phi: &'a [f64],
+    /// Potential of every target (conductors, then sides), V.
+    pub values: Vec<f64>,
+}
+
+impl<'a> FieldEval<'a> {
+    /// Wraps a solved potential.
+    /// `conductor_potentials` are the conductors' potentials at the operating point.
+    pub fn new(op: &'a Operator, raster: &'a Raster, phi: &'a [f64], conductor_potentials: &[f64]) -> Self {
+        FieldEval { op, raster, phi, values: op.target_values(conductor_potentials, true) }
+    }
+
+    /// Potential of target t at the operating point.
+    fn target_value(&self, t: u32) -> f64 {
+        self.values[t as usize]
+    }
+
+    /// Electric field (Ex, Ey) at node p, V/m; NaN at fixed nodes.
+    pub fn at(&self, p: usize) -> [f64; 2] {
+        let s = &self.op.stencil;
+        if !s.unknown[p] {
+            return [f64::NAN; 2];
+        }
+        let g = &self.op.grid;
+        let (i, j) = (p % g.nx, p / g.nx);
+        let links = self.op.links_of(p);
+        let find = |d: Dir| links.iter().find(|l| l.dir == d);
+        let phi = self.phi;
+        // (distance, value) of the neighbour in a direction, or None beyond a no-flux side.
+        let side = |d: Dir, h: f64, q: Option<usize>| -> Option<(f64, f64)> {
+            if let Some(l) = find(d) {
+                return Some((l.theta * h, self.target_value(l.target)));
+            }
+            q.map(|q| (h, phi[q]))
+        };
+        let e = phi[p];
+        let ex = {
+            let w = side(Dir::West, g.hx, (i > 0).then(|| p - 1));
+            let east = side(Dir::East, g.hx, (i + 1 < g.nx).then(|| p + 1));
+            -derivative(w, e, east)
+        };
+        let ey = {
+            let south = side(Dir::South, g.hy, (j > 0).then(|| p - g.nx));
+            let north = side(Dir::North, g.hy, (j + 1 < g.ny).then(|| p + g.nx));
+            -derivative(south, e, north)
+        };
+        [ex, ey]
+    }
+
+    /// |E| at node p, NaN at fixed nodes.
+    pub fn magnitude(&self, p: usize) -> f64 {
+        let [x, y] = self.at(p);
+        x.hypot(y)
+    }
+}
+
+/// Second-order derivative at 0 from values at -a (f_m), 0 (f0) and +b (f_p); one-sided
+/// (first order) when a side is missing, zero when both are (a no-flux boundary).
+fn derivative(minus: Option<(f64, f64)>, f0: f64, plus: Option<(f64, f64)>) -> f64 {
+    match (minus, plus) {
+        (Some((a, fm)), Some((b, fp))) => (-b / (a * (a + b))) * fm + ((b - a) / (a * b)) * f0 + (a / (b * (a + b))) * fp,
+        // At a symmetry side or the axis the normal field vanishes.
+        (None, Some(_)) | (Some(_), None) | (None, None) => 0.0,
+    }
+}
+
+/// Sharp corners of the conductors (unfilleted polygon and rectangle vertices, polyline
+/// ends and kinks), where the field is singular.
+pub fn sharp_corners(design: &Design) -> Vec<Point> {
+    let mut out = Vec::new();
+    for c in &design.conductors {
+        match &c.shape {
+            Shape::Rect { x, y, round } if *round == 0.0 => {
+                out.extend([[x[0], y[0]], [x[1], y[0]], [x[1], y[1]], [x[0], y[1]]]);
+            }
+            Shape::Polygon { outer, holes, round } if *round == 0.0 => {
+                out.extend(outer.iter().copied());
+                holes.iter().for_each(|h| out.extend(h.iter().copied()));
+            }
+            Shape::Polyline(pts) => out.extend(pts.iter().copied()),
+            _ => {}
+        }
+    }
+    out
+}
+
+fn material_of(design: &Design, m: u16) -> (String, Option<f64>) {
+    if m == 0 {
+        ("background".to_string(), design.background.strength)
+    } else {
+        let d = &design.dielectrics[m as usize - 1];
+        (d.name.clone(), d.strength)
+    }
+}
+
+fn hotspot_at(field: &FieldEval, design: &Design, corners: &[Point], p: usize, mag: f64, corner_cells: f64) -> Hotspot {
+    let g = &field.op.grid;
+    let (x, y) = (g.x(p % g.nx), g.y(p / g.nx));
+    let (material, strength) = material_of(design, field.raster.material[p]);
+    let reach = corner_cells * g.hx.max(g.hy);
+    let singular = corners.iter().any(|c| (c[0] - x).hypot(c[1] - y) <= reach);
+    Hotspot { magnitude: mag, x, y, material, strength, margin: strength.map(|s| s / mag), singular }
+}
+
+/// The largest field magnitude outside conductors.
+pub fn peak(field: &FieldEval, design: &Design, corners: &[Point]) -> Option<Hotspot> {
+    let n = field.op.grid.len();
+    let mut best: Option<(usize, f64)> = None;
+    for p in 0..n {
+        let m = field.magnitude(p);
+        if m.is_finite() && best.is_none_or(|(_, b)| m > b) {
+            best = Some((p, m));
+        }
+    }
+    best.map(|(p, m)| hotspot_at(field, design, corners, p, m, HotspotParams::default().corner_cells))
+}
+
+/// Ranked distinct local maxima of |E|.
+pub fn hotspots(field: &FieldEval, design: &Design, corners: &[Point], params: &HotspotParams) -> Vec<Hotspot> {
+    let g = &field.op.grid;
+    let (nx, ny) = (g.nx, g.ny);
+    let mag: Vec<f64> = (0..g.len()).map(|p| field.magnitude(p)).collect();
+    let mut cand: Vec<(usize, f64)> = Vec::new();
+    for j in 0..ny {
+        for i in 0..nx {
+            let p = i + j * nx;
+            let m = mag[p];
+            if !(m.is_finite() && m > 0.0) {
+                continue;
+            }
+            let mut is_max = true;
+            'nb: for dj in -1i64..=1 {
+                for di in -1i64..=1 {
+                    let (qi, qj) = (i as i64 + di, j as i64 + dj);
+                    if (di, dj) == (0, 0) || qi < 0 || qj < 0 || qi >= nx as i64 || qj >= ny as i64 {
+                        continue;
+                    }
+                    let q = qi as usize + qj as usize * nx;
+                    let mq = mag[q];
+                    // Ties go to the lower index so a plateau yields one maximum.
+                    if mq > m || (mq == m && q < p) {
+                        is_max = false;
+                        break 'nb;
+                    }
+                }
+            }
+            if is_max {
+                cand.push((p, m));
+            }
+        }
+    }
+    cand.sort_by(|a, b| b.1.total_cmp(&a.1).then(a.0.cmp(&b.0)));
+    let sep = params.separation_cells * g.hx.max(g.hy);
+    let mut chosen: Vec<(usize, f64)> = Vec::new();
+    for (p, m) in cand {
+        if chosen.len() >= params.count {
+            break;
+        }
+        let (x, y) = (g.x(p % nx), g.y(p / nx));
+        if chosen.iter().all(|&(q, _)| (g.x(q % nx) - x).hypot(g.y(q / nx) - y) >= sep) {
+            chosen.push((p, m));
+        }
+    }
+    chosen.into_iter().map(|(p, m)| hotspot_at(field, design, corners, p, m, params.corner_cells)).collect()
+}
+
+/// Reading of a probe: bilinear interpolation of the potential and of the node fields.
+pub fn probe(field: &FieldEval, probe: &Probe) -> ProbeResult {
+    let g = &field.op.grid;
+    let fx = ((probe.at[0] - g.x0) / g.hx).clamp(0.0, (g.nx - 1) as f64);
+    let fy = ((probe.at[1] - g.y0) / g.hy).clamp(0.0, (g.ny - 1) as f64);
+    let i = (fx.floor() as usize).min(g.nx - 2);
+    let j = (fy.floor() as usize).min(g.ny - 2);
+    let (tx, ty) = (fx - i as f64, fy - j as f64);
+    let corners = [(i, j, (1.0 - tx) * (1.0 - ty)), (i + 1, j, tx * (1.0 - ty)), (i, j + 1, (1.0 - tx) * ty), (i + 1, j + 1, tx * ty)];
+    let mut v = 0.0;
+    let (mut ex, mut ey, mut wsum) = (0.0, 0.0, 0.0);
+    for (ci, cj, w) in corners {
+        let p = g.idx(ci, cj);
+        v += w * field.phi[p];
+        let e = field.at(p);
+        if e[0].is_finite() && w > 0.0 {
+            ex += w * e[0];
+            ey += w * e[1];
+            wsum += w;
+        }
+    }
+    let fieldv = if wsum > 0.0 { [ex / wsum, ey / wsum] } else { [f64::NAN; 2] };
+    ProbeResult { name: probe.name.clone(), x: probe.at[0], y: probe.at[1], potential: v, field: fieldv }
+}
+
+/// Surface charge where lattice edges meet conductor surfaces, ordered by conductor, then
+/// node, then direction.
+pub fn surface_charge(field: &FieldEval, _design: &Design) -> Vec<SurfacePoint> {
+    let op = field.op;
+    let g = &op.grid;
+    let mut out = Vec::new();
+    for l in &op.links {
+        if l.target as usize >= op.n_conductors {
+            continue;
+        }
+        let p = l.node as usize;
+        let (x, y) = (g.x(p % g.nx), g.y(p / g.nx));
+        let u = l.dir.unit();
+        let (px, py) = (x + u[0] * l.theta * g.hx, y + u[1] * l.theta * g.hy);
+        let e = field.magnitude(p);
+        let v = field.target_value(l.target);
+        let sign = (v - field.phi[p]).signum();
+        out.push(SurfacePoint { conductor: l.target as usize, x: px, y: py, density: sign * EPS0 * l.eps * e, field: e });
+    }
+    out.sort_by(|a, b| a.conductor.cmp(&b.conductor));
+    out
+}
+
+/// Electrostatic force on conductor k by the Maxwell stress tensor over the lattice contour
+/// that encloses the conductor's nodes and the free nodes linked to it. Planar: N/m.
+/// Axisymmetric: N, axial component only (the radial one vanishes by symmetry).
+pub fn force(field: &FieldEval, design: &Design, k: usize) -> [f64; 2] {
+    let op = field.op;
+    let g = &op.grid;
+    let (nx, ny) = (g.nx, g.ny);
+    let n = g.len();
+    let raster = field.raster;
+    let mut inside = vec![false; n];
+    for p in 0..n {
+        if raster.conductor[p] as usize == k && raster.conductor[p] != NO_CONDUCTOR {
+            inside[p] = true;
+        }
+    }
+    for l in &op.links {
+        if l.target as usize == k {
+            inside[l.node as usize] = true;
+        }
+    }
+    let axi = design.mode == Mode::Axisymmetric;
+    let eps_of = |p: usize| crate::raster::Raster::permittivity(design, raster.material[p]);
+    let mut f = [0.0f64; 2];
+    // E on the face between p (inside) and q (outside), from node fields on both sides and
+    // the potential difference across the face.
+    let node_e = |p: usize| {
+        let e = field.at(p);
+        if e[0].is_finite() {
+            e
+        } else {
+            [0.0, 0.0]
+        }
+    };
+    for j in 0..ny {
+        for i in 0..nx {
+            let p = i + j * nx;
+            if !inside[p] {
+                continue;
+            }
+            let nbrs = [
+                (i + 1 < nx, p.wrapping_add(1), [1.0, 0.0]),
+                (i > 0, p.wrapping_sub(1), [-1.0, 0.0]),
+                (j + 1 < ny, p.wrapping_add(nx), [0.0, 1.0]),
+                (j > 0, p.wrapping_sub(nx), [0.0, -1.0]),
+            ];
+            for (ok, q, nrm) in nbrs {
+                if !ok || inside[q] {
+                    continue;
+                }
+                if !op.stencil.unknown[q] && raster.conductor[q] == NO_CONDUCTOR && !op.stencil.unknown[p] {
+                    continue;
+                }
+                let along_x = nrm[0] != 0.0;
+                let h = if along_x { g.hx } else { g.hy };
+                let en = -(field.phi[q] - field.phi[p]) / h;
+                let (ep, eq) = (node_e(p), node_e(q));
+                let et = if along_x { 0.5 * (ep[1] + eq[1]) } else { 0.5 * (ep[0] + eq[0]) };
+                let e = if along_x { [en * nrm[0], et] } else { [et, en * nrm[1]] };
+                let eps = EPS0 * 0.5 * (eps_of(p) + eps_of(q));
+                let e2 = e[0] * e[0] + e[1] * e[1];
+                let enorm = e[0] * nrm[0] + e[1] * nrm[1];
+                let t = [eps * (enorm * e[0] - 0.5 * e2 * nrm[0]), eps * (enorm * e[1] - 0.5 * e2 * nrm[1])];
+                // Face size: the control-volume face between p and q.
+                let area = if along_x {
+                    let r = g.x(i) + 0.5 * nrm[0] * g.hx;
+                    let l = if j == 0 || j + 1 == ny { 0.5 * g.hy } else { g.hy };
+                    if axi {
+                        2.0 * std::f64::consts::PI * r * l
+                    } else {
+                        l
+                    }
+                } else {
+                    let x = g.x(i);
+                    let lo = if i == 0 { x } else { x - 0.5 * g.hx };
+                    let hi = if i + 1 == nx { x } else { x + 0.5 * g.hx };
+                    if axi {
+                        std::f64::consts::PI * (hi * hi - lo * lo)
+                    } else {
+                        hi - lo
+                    }
+                };
+                f[0] += t[0] * area;
+                f[1] += t[1] * area;
+            }
+        }
+    }
+    if axi {
+        f[0] = 0.0;
+    }
+    f
+}

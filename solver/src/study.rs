@@ -1,1 +1,393 @@
-//! (Work in progress.)
+//! The study: which solves to run for a design, and their superposition into the operating
+//! point and the capacitance matrix.
+//!
+//! One unit-potential solve per conductor gives one column of the charge response of every
+//! fixed target; one more solve carries the side potentials and the free charge. Floating
+//! conductors are then eliminated exactly (net charge zero) from that small dense system, and
+//! the operating point is the superposition of the solves. With an error estimate requested,
+//! the same study runs first on the lattice twice as coarse and the two capacitance matrices
+//! give a Richardson estimate of the discretisation error.
+//!
+//! Invariant: every number comes from the same operator that the solver saw, so charges,
+//! energy and capacitance agree with the solve to the solver tolerance.
+
+use crate::design::{Design, DesignError, Drive, Mode};
+use crate::grid::{Grid, GridError};
+use crate::operator::{self, Operator, OperatorError, SideId};
+use crate::post::{self, Hotspot, HotspotParams, ProbeResult, SurfacePoint};
+use crate::raster::{self, Raster, NO_CONDUCTOR};
+use crate::solvers::{self, Info, Method, Params};
+use crate::EPS0;
+
+/// What to run.
+#[derive(Clone, Debug)]
+pub struct StudyParams {
+    /// Linear solver.
+    pub method: Method,
+    /// Its settings.
+    pub solver: Params,
+    /// Also solve on the lattice twice as coarse and estimate discretisation errors.
+    pub error_estimate: bool,
+    /// Hot-spot search settings.
+    pub hotspots: HotspotParams,
+}
+
+impl Default for StudyParams {
+    fn default() -> Self {
+        StudyParams { method: Method::default(), solver: Params::default(), error_estimate: true, hotspots: HotspotParams::default() }
+    }
+}
+
+/// A study that could not run.
+#[derive(Debug, thiserror::Error)]
+#[non_exhaustive]
+pub enum StudyError {
+    /// The design breaks a rule.
+    #[error(transparent)]
+    Design(#[from] DesignError),
+    /// The lattice cannot be built.
+    #[error(transparent)]
+    Grid(#[from] GridError),
+    /// The operator cannot be built.
+    #[error(transparent)]
+    Operator(#[from] OperatorError),
+}
+
+/// Per-conductor results at the operating point.
+#[derive(Clone, Debug, PartialEq)]
+pub struct ConductorResult {
+    /// Name.
+    pub name: String,
+    /// Potential, V (found by the solve for a floating conductor).
+    pub potential: f64,
+    /// True for a floating conductor.
+    pub floating: bool,
+    /// Net charge, C/m (planar) or C (axisymmetric).
+    pub charge: f64,
+    /// Electrostatic force, N/m (planar) or N (axisymmetric: only the axial component, y).
+    pub force: [f64; 2],
+}
+
+/// The Maxwell capacitance matrix of the fixed-potential conductors.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Capacitance {
+    /// Conductor names in matrix order.
+    pub names: Vec<String>,
+    /// Entry (i, j): charge on i with j at 1 V and every other fixed conductor at 0 V
+    /// (F/m planar, F axisymmetric).
+    pub matrix: Vec<Vec<f64>>,
+    /// Estimated discretisation error of each entry, same units, when requested.
+    pub error_estimate: Option<Vec<Vec<f64>>>,
+}
+
+/// Summary of the linear solves of a study.
+#[derive(Clone, Debug, PartialEq)]
+pub struct SolveSummary {
+    /// Method name.
+    pub method: &'static str,
+    /// Number of solves on the fine lattice.
+    pub solves: usize,
+    /// Largest iteration count of one solve.
+    pub iterations: usize,
+    /// Sum of the iteration counts.
+    pub total_iterations: usize,
+    /// Largest final relative residual.
+    pub relative_residual: f64,
+    /// True when every solve converged.
+    pub converged: bool,
+    /// The reason of the first failed solve, if any.
+    pub failure: Option<String>,
+}
+
+/// Everything a study produces.
+#[derive(Clone, Debug)]
+pub struct Solution {
+    /// Planar or axisymmetric.
+    pub mode: Mode,
+    /// The lattice.
+    pub grid: Grid,
+    /// Node classification (kept for pictures and field tables).
+    pub raster: Raster,
+    /// The operator (kept for field evaluation).
+    pub operator: Operator,
+    /// Potential at every node at the operating point, V (fixed nodes hold their values).
+    pub potential: Vec<f64>,
+    /// Per-conductor results.
+    pub conductors: Vec<ConductorResult>,
+    /// Maxwell capacitance matrix of the fixed conductors.
+    pub capacitance: Capacitance,
+    /// Charge of each side (left, right, bottom, top), C/m or C; zero for sides without a
+    /// fixed potential.
+    pub side_charge: [f64; 4],
+    /// Stored energy, J/m (planar) or J.
+    pub energy: f64,
+    /// Largest field outside conductors.
+    pub peak_field: Option<Hotspot>,
+    /// Ranked distinct field maxima.
+    pub hotspots: Vec<Hotspot>,
+    /// Probe results.
+    pub probes: Vec<ProbeResult>,
+    /// Surface charge samples along the conductor outlines.
+    pub surface_charge: Vec<SurfacePoint>,
+    /// Linear-solve summary.
+    pub solve: SolveSummary,
+    /// Warnings for the user.
+    pub warnings: Vec<String>,
+}
+
+/// Core results of the solves on one lattice.
+struct Core {
+    raster: Raster,
+    op: Operator,
+    phi: Vec<f64>,
+    potentials: Vec<f64>,
+    /// Charge of every target per conductor at 1 V: `response[k][t]`.
+    response: Vec<Vec<f64>>,
+    /// Charge of every target from the sides and the free charge.
+    background: Vec<f64>,
+    maxwell: Vec<Vec<f64>>,
+    infos: Vec<Info>,
+}
+
+/// Runs the study of a validated design.
+pub fn run(design: &Design, params: &StudyParams) -> Result<Solution, StudyError> {
+    crate::design::validate(design)?;
+    let grid = Grid::fit(design.domain.x, design.domain.y, design.domain.cell)?;
+    let mut warnings = Vec::new();
+    let coarse = if params.error_estimate && grid.nx > 8 && grid.ny > 8 {
+        Some(solve_on(design, &grid.coarsened(), params)?)
+    } else {
+        None
+    };
+    let core = solve_on(design, &grid, params)?;
+    let fixed: Vec<usize> = (0..design.conductors.len()).filter(|&k| matches!(design.conductors[k].drive, Drive::Fixed(_))).collect();
+    let names: Vec<String> = fixed.iter().map(|&k| design.conductors[k].name.clone()).collect();
+    // Richardson: the fine error of a second-order method is about (C_h - C_2h) / (2^2 - 1).
+    let error_estimate = coarse.as_ref().map(|c| {
+        core.maxwell
+            .iter()
+            .zip(&c.maxwell)
+            .map(|(rf, rc)| rf.iter().zip(rc).map(|(f, c)| (f - c).abs() / 3.0).collect())
+            .collect::<Vec<Vec<f64>>>()
+    });
+    if let Some(err) = &error_estimate {
+        for (i, row) in err.iter().enumerate() {
+            for (j, e) in row.iter().enumerate() {
+                let c = core.maxwell[i][j];
+                if c != 0.0 && *e > 0.01 * c.abs() {
+                    warnings.push(format!(
+                        "capacitance ({}, {}) has an estimated discretisation error of {:.1} %: refine the cell",
+                        names[i], names[j], 100.0 * e / c.abs()
+                    ));
+                }
+            }
+        }
+    }
+    let solve = summarize(&core.infos);
+    if !solve.converged {
+        warnings.push(format!("the solver did not converge: {}", solve.failure.clone().unwrap_or_default()));
+    }
+
+    let nc = design.conductors.len();
+    let values = core.op.target_values(&core.potentials, true);
+    let charges = core.op.reactions_total(&core.response, &core.background, &core.potentials);
+    let corners = post::sharp_corners(design);
+    let field = post::FieldEval::new(&core.op, &core.raster, &core.phi, &core.potentials);
+    let conductors = (0..nc)
+        .map(|k| ConductorResult {
+            name: design.conductors[k].name.clone(),
+            potential: core.potentials[k],
+            floating: design.conductors[k].drive == Drive::Floating,
+            charge: charges[k],
+            force: post::force(&field, design, k),
+        })
+        .collect();
+    let mut side_charge = [0.0; 4];
+    for s in SideId::ALL {
+        side_charge[s as usize] = charges[core.op.side_target(s) as usize];
+    }
+    let free: f64 = core.op.source.iter().map(|&(p, s)| s * EPS0 * core.phi[p as usize]).sum();
+    let energy = 0.5 * (charges.iter().zip(&values).map(|(q, v)| q * v).sum::<f64>() + free);
+    let hotspots = post::hotspots(&field, design, &corners, &params.hotspots);
+    let peak_field = post::peak(&field, design, &corners);
+    let probes = design.probes.iter().map(|p| post::probe(&field, p)).collect();
+    let surface_charge = post::surface_charge(&field, design);
+
+    Ok(Solution {
+        mode: design.mode,
+        grid,
+        capacitance: Capacitance { names, matrix: core.maxwell.clone(), error_estimate },
+        conductors,
+        side_charge,
+        energy,
+        peak_field,
+        hotspots,
+        probes,
+        surface_charge,
+        solve,
+        warnings,
+        potential: core.phi,
+        raster: core.raster,
+        operator: core.op,
+    })
+}
+
+fn summarize(infos: &[Info]) -> SolveSummary {
+    let failed = infos.iter().find(|i| !i.converged());
+    SolveSummary {
+        method: infos.first().map(|i| i.method).unwrap_or("none"),
+        solves: infos.len(),
+        iterations: infos.iter().map(|i| i.iterations).max().unwrap_or(0),
+        total_iterations: infos.iter().map(|i| i.iterations).sum(),
+        relative_residual: infos.iter().map(|i| i.relative_residual).fold(0.0, f64::max),
+        converged: failed.is_none(),
+        failure: failed.map(|i| format!("{} after {} iterations (relative residual {:.3e})", i.reason.describe(), i.iterations, i.relative_residual)),
+    }
+}
+
+impl Operator {
+    /// Charge of every target at conductor potentials `v`: superposition of the unit
+    /// responses and the background solve.
+    fn reactions_total(&self, response: &[Vec<f64>], background: &[f64], v: &[f64]) -> Vec<f64> {
+        let mut q = background.to_vec();
+        for (k, col) in response.iter().enumerate() {
+            for (t, c) in col.iter().enumerate() {
+                q[t] += v[k] * c;
+            }
+        }
+        q
+    }
+}
+
+/// Runs every solve of the study on one lattice.
+fn solve_on(design: &Design, grid: &Grid, params: &StudyParams) -> Result<Core, StudyError> {
+    let raster = raster::rasterize(design, grid);
+    let op = operator::assemble(design, &raster)?;
+    let prepared = solvers::prepare(params.method, &op.stencil);
+    let n = grid.len();
+    let nc = design.conductors.len();
+    let floating: Vec<usize> = (0..nc).filter(|&k| design.conductors[k].drive == Drive::Floating).collect();
+    let fixed: Vec<usize> = (0..nc).filter(|&k| !floating.contains(&k)).collect();
+    let mut infos = Vec::new();
+    let mut phi = vec![0.0; n];
+    let mut response = vec![Vec::new(); nc];
+    let mut kept: Vec<(usize, Vec<f64>)> = Vec::new();
+    let record = |r: Result<Info, solvers::SolveError>, infos: &mut Vec<Info>| match r {
+        Ok(i) => infos.push(i),
+        Err(e) => infos.push(e.info().clone()),
+    };
+    for k in 0..nc {
+        let mut unit = vec![0.0; nc];
+        unit[k] = 1.0;
+        let values = op.target_values(&unit, false);
+        let b = op.rhs(&values, false);
+        let mut x = vec![0.0; n];
+        record(prepared.solve(&op.stencil, &b, &mut x, &params.solver), &mut infos);
+        response[k] = op.reactions(&x, &values);
+        match design.conductors[k].drive {
+            Drive::Fixed(v) => {
+                if v != 0.0 {
+                    phi.iter_mut().zip(&x).for_each(|(p, x)| *p += v * x);
+                }
+            }
+            Drive::Floating => kept.push((k, x)),
+        }
+    }
+    let zero = vec![0.0; nc];
+    let values0 = op.target_values(&zero, true);
+    let b0 = op.rhs(&values0, true);
+    let background = if b0.iter().any(|&v| v != 0.0) {
+        let mut x0 = vec![0.0; n];
+        record(prepared.solve(&op.stencil, &b0, &mut x0, &params.solver), &mut infos);
+        let q = op.reactions(&x0, &values0);
+        phi.iter_mut().zip(&x0).for_each(|(p, x)| *p += x);
+        q
+    } else {
+        vec![0.0; op.n_targets()]
+    };
+    drop(b0);
+
+    // Conductor-to-conductor charge response: cfull[i][k] = charge on i with k at 1 V.
+    let cfull: Vec<Vec<f64>> = (0..nc).map(|i| (0..nc).map(|k| response[k][i]).collect()).collect();
+    let mut potentials: Vec<f64> = design.conductors.iter().map(|c| if let Drive::Fixed(v) = c.drive { v } else { 0.0 }).collect();
+    let maxwell;
+    if floating.is_empty() {
+        maxwell = fixed.iter().map(|&i| fixed.iter().map(|&j| cfull[i][j]).collect()).collect();
+    } else {
+        // Net charge zero on floating conductors: C_FF V_F = -(C_FS V_S + Q0_F).
+        let cff: Vec<Vec<f64>> = floating.iter().map(|&i| floating.iter().map(|&j| cfull[i][j]).collect()).collect();
+        let rhs: Vec<f64> = floating
+            .iter()
+            .map(|&i| -(fixed.iter().map(|&j| cfull[i][j] * potentials[j]).sum::<f64>() + background[i]))
+            .collect();
+        let vf = dense_solve(&cff, &rhs);
+        for (f, &i) in floating.iter().enumerate() {
+            potentials[i] = vf[f];
+        }
+        for (k, x) in &kept {
+            let v = potentials[*k];
+            phi.iter_mut().zip(x).for_each(|(p, x)| *p += v * x);
+        }
+        // Reduced Maxwell matrix: C_SS - C_SF C_FF^-1 C_FS.
+        maxwell = fixed
+            .iter()
+            .map(|&i| {
+                fixed
+                    .iter()
+                    .map(|&j| {
+                        let col: Vec<f64> = floating.iter().map(|&f| cfull[f][j]).collect();
+                        let y = dense_solve(&cff, &col);
+                        cfull[i][j] - floating.iter().zip(&y).map(|(&f, y)| cfull[i][f] * y).sum::<f64>()
+                    })
+                    .collect()
+            })
+            .collect();
+    }
+    // Fixed nodes hold their own potentials.
+    let side_values = op.target_values(&potentials, true);
+    let (nx, ny) = (grid.nx, grid.ny);
+    for p in 0..n {
+        if op.stencil.unknown[p] {
+            continue;
+        }
+        let k = raster.conductor[p];
+        phi[p] = if k != NO_CONDUCTOR {
+            potentials[k as usize]
+        } else {
+            let (i, j) = (p % nx, p / nx);
+            let s = if j == 0 && op.side_potential[2].is_some() {
+                SideId::Bottom
+            } else if j + 1 == ny && op.side_potential[3].is_some() {
+                SideId::Top
+            } else if i == 0 {
+                SideId::Left
+            } else {
+                SideId::Right
+            };
+            side_values[op.side_target(s) as usize]
+        };
+    }
+    Ok(Core { raster, op, phi, potentials, response, background, maxwell, infos })
+}
+
+/// Solves a small dense SPD system by Gaussian elimination with partial pivoting.
+fn dense_solve(a: &[Vec<f64>], b: &[f64]) -> Vec<f64> {
+    let n = b.len();
+    let mut m: Vec<Vec<f64>> = a.iter().zip(b).map(|(r, &v)| r.iter().copied().chain(std::iter::once(v)).collect()).collect();
+    for c in 0..n {
+        let piv = (c..n).max_by(|&i, &j| m[i][c].abs().total_cmp(&m[j][c].abs())).unwrap();
+        m.swap(c, piv);
+        for r in c + 1..n {
+            let f = m[r][c] / m[c][c];
+            for k in c..=n {
+                m[r][k] -= f * m[c][k];
+            }
+        }
+    }
+    let mut x = vec![0.0; n];
+    for r in (0..n).rev() {
+        let s: f64 = (r + 1..n).map(|k| m[r][k] * x[k]).sum();
+        x[r] = (m[r][n] - s) / m[r][r];
+    }
+    x
+}
