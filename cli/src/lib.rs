@@ -4,8 +4,14 @@
 //! and message. Exit codes follow the contract: 0 done, 1 a change or margin beyond tolerance,
 //! 2 bad input or usage, 3 the solver did not converge.
 
+pub mod args;
+pub mod commands;
 pub mod design_file;
+pub mod error;
+pub mod outdir;
+pub mod summary;
 
+use clap::Parser;
 use std::ffi::OsString;
 use std::process::ExitCode;
 
@@ -24,7 +30,23 @@ where
     I: IntoIterator<Item = T>,
     T: Into<OsString> + Clone,
 {
-    let _ = args.into_iter().count();
-    eprintln!("fieldgrid: not yet implemented");
-    ExitCode::from(EXIT_BAD_INPUT)
+    let cli = match args::Cli::try_parse_from(args) {
+        Ok(c) => c,
+        Err(e) => {
+            let code = if e.use_stderr() { EXIT_BAD_INPUT } else { EXIT_OK };
+            let _ = e.print();
+            return ExitCode::from(code);
+        }
+    };
+    let result = match &cli.command {
+        args::Command::Solve(a) => commands::solve::run(a),
+        args::Command::Check(a) => commands::check::run(a),
+    };
+    match result {
+        Ok(code) => ExitCode::from(code),
+        Err(f) => {
+            eprintln!("fieldgrid: {}", f.message);
+            ExitCode::from(f.code)
+        }
+    }
 }

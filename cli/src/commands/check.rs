@@ -1,0 +1,39 @@
+//! `fieldgrid check DESIGN`: validate, report the grid and its memory, no solve.
+
+use super::{check_memory, load_design};
+use crate::args::CheckArgs;
+use crate::error::Failure;
+use crate::outdir::OutDir;
+use crate::EXIT_OK;
+
+/// Runs the command, returning the exit code.
+pub fn run(args: &CheckArgs) -> Result<u8, Failure> {
+    let src = load_design(&args.design, &[])?;
+    let (grid, mib) = check_memory(&src, &args.design, None)?;
+    let d = &src.design;
+    let report = serde_json::json!({
+        "version": 1,
+        "valid": true,
+        "grid": { "nx": grid.nx, "ny": grid.ny, "cell": grid.hx.max(grid.hy), "hx": grid.hx, "hy": grid.hy },
+        "unknowns_at_most": grid.len(),
+        "memory_mib": mib,
+        "conductors": d.conductors.iter().map(|c| c.name.clone()).collect::<Vec<_>>(),
+        "dielectrics": d.dielectrics.iter().map(|c| c.name.clone()).collect::<Vec<_>>(),
+    });
+    if let Some(dir) = &args.out {
+        let out = OutDir::prepare(dir)?;
+        out.write("check.json", &serde_json::to_vec_pretty(&report).map_err(|e| Failure::io("encoding check.json", e))?)?;
+    }
+    if !args.quiet {
+        println!(
+            "{}: valid; grid {} x {} nodes (cell {:.4e} m x {:.4e} m), about {:.0} MiB to solve",
+            args.design.display(),
+            grid.nx,
+            grid.ny,
+            grid.hx,
+            grid.hy,
+            mib
+        );
+    }
+    Ok(EXIT_OK)
+}

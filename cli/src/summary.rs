@@ -1,0 +1,238 @@
+//! `summary.json`: the contract's keys (version 1) and the extras we add. Serialisable and
+//! readable back, so `compare` can take earlier results.
+
+use serde::{Deserialize, Serialize};
+
+/// Summary file format version.
+pub const VERSION: u32 = 1;
+
+/// The whole summary.
+#[derive(Serialize, Deserialize, Debug, Clone, PartialEq)]
+pub struct Summary {
+    /// Format version.
+    pub version: u32,
+    /// fieldgrid version that wrote it.
+    #[serde(default)]
+    pub tool_version: String,
+    /// Hash of the design text.
+    #[serde(default)]
+    pub design_hash: String,
+    /// "planar" or "axisymmetric".
+    pub mode: String,
+    /// True in planar mode: charges C/m, capacitance F/m, energy J/m, force N/m.
+    pub per_length: bool,
+    /// Planar depth, m, when the design gives one.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub depth: Option<f64>,
+    /// The lattice.
+    pub grid: GridSummary,
+    /// The linear solves.
+    pub solver: SolverSummary,
+    /// Per-conductor results.
+    pub conductors: Vec<ConductorSummary>,
+    /// Maxwell capacitance matrix.
+    pub capacitance: CapacitanceSummary,
+    /// Stored energy.
+    pub energy: f64,
+    /// Largest field outside conductors.
+    pub peak_field: Option<PeakSummary>,
+    /// Ranked hot spots.
+    pub hotspots: Vec<HotspotSummary>,
+    /// Probe readings.
+    pub probes: Vec<ProbeSummary>,
+    /// Warnings.
+    pub warnings: Vec<String>,
+    /// Transmission-line parameters (the `impedance` command).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub line: Option<serde_json::Value>,
+}
+
+/// Grid size.
+#[derive(Serialize, Deserialize, Debug, Clone, PartialEq)]
+pub struct GridSummary {
+    /// Nodes along x.
+    pub nx: usize,
+    /// Nodes along y.
+    pub ny: usize,
+    /// Cell size, m (the larger of the two spacings).
+    pub cell: f64,
+    /// Spacing along x, m.
+    #[serde(default)]
+    pub hx: f64,
+    /// Spacing along y, m.
+    #[serde(default)]
+    pub hy: f64,
+}
+
+/// Solver report.
+#[derive(Serialize, Deserialize, Debug, Clone, PartialEq)]
+pub struct SolverSummary {
+    /// Method name.
+    pub method: String,
+    /// Largest iteration count of one solve.
+    pub iterations: usize,
+    /// Largest final relative residual.
+    pub relative_residual: f64,
+    /// Wall-clock seconds of the whole study.
+    pub seconds: f64,
+    /// True when every solve met the tolerance.
+    pub converged: bool,
+    /// Number of linear solves on the fine grid.
+    #[serde(default)]
+    pub solves: usize,
+    /// Why a solve failed, if one did.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub failure: Option<String>,
+}
+
+/// One conductor.
+#[derive(Serialize, Deserialize, Debug, Clone, PartialEq)]
+pub struct ConductorSummary {
+    /// Name.
+    pub name: String,
+    /// Potential, V.
+    pub potential: f64,
+    /// Net charge.
+    pub charge: f64,
+    /// Force (x, y).
+    pub force: [f64; 2],
+    /// True for a floating conductor.
+    #[serde(default)]
+    pub floating: bool,
+}
+
+/// The Maxwell matrix.
+#[derive(Serialize, Deserialize, Debug, Clone, PartialEq)]
+pub struct CapacitanceSummary {
+    /// "F/m" or "F".
+    pub unit: String,
+    /// Conductor names in matrix order.
+    pub names: Vec<String>,
+    /// Entries.
+    pub matrix: Vec<Vec<f64>>,
+    /// Estimated discretisation error per entry (absent with --no-error-estimate).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub error_estimate: Option<Vec<Vec<f64>>>,
+}
+
+/// The peak field.
+#[derive(Serialize, Deserialize, Debug, Clone, PartialEq)]
+pub struct PeakSummary {
+    /// |E|, V/m.
+    pub magnitude: f64,
+    /// Position, m.
+    pub x: f64,
+    /// Position, m.
+    pub y: f64,
+    /// Material name.
+    pub material: String,
+    /// At a sharp corner or edge (grows with refinement).
+    pub singular: bool,
+}
+
+/// One hot spot.
+#[derive(Serialize, Deserialize, Debug, Clone, PartialEq)]
+pub struct HotspotSummary {
+    /// |E|, V/m.
+    pub magnitude: f64,
+    /// Position, m.
+    pub x: f64,
+    /// Position, m.
+    pub y: f64,
+    /// Material name.
+    pub material: String,
+    /// Breakdown strength, V/m, when known.
+    pub strength: Option<f64>,
+    /// strength / magnitude, when known.
+    pub margin: Option<f64>,
+    /// At a sharp corner or edge.
+    #[serde(default)]
+    pub singular: bool,
+}
+
+/// One probe.
+#[derive(Serialize, Deserialize, Debug, Clone, PartialEq)]
+pub struct ProbeSummary {
+    /// Name.
+    pub name: String,
+    /// Position, m.
+    pub x: f64,
+    /// Position, m.
+    pub y: f64,
+    /// Potential, V.
+    pub potential: f64,
+    /// Field (Ex, Ey), V/m (null inside a conductor).
+    pub field: [Option<f64>; 2],
+}
+
+fn finite(v: f64) -> Option<f64> {
+    v.is_finite().then_some(v)
+}
+
+impl Summary {
+    /// Builds the summary of a solution.
+    pub fn from_solution(
+        sol: &fieldgrid_solver::study::Solution,
+        depth: Option<f64>,
+        seconds: f64,
+        design_hash: &str,
+    ) -> Summary {
+        use fieldgrid_solver::design::Mode;
+        let planar = sol.mode == Mode::Planar;
+        let g = &sol.grid;
+        Summary {
+            version: VERSION,
+            tool_version: env!("CARGO_PKG_VERSION").to_string(),
+            design_hash: design_hash.to_string(),
+            mode: if planar { "planar" } else { "axisymmetric" }.to_string(),
+            per_length: planar,
+            depth,
+            grid: GridSummary { nx: g.nx, ny: g.ny, cell: g.hx.max(g.hy), hx: g.hx, hy: g.hy },
+            solver: SolverSummary {
+                method: sol.solve.method.to_string(),
+                iterations: sol.solve.iterations,
+                relative_residual: sol.solve.relative_residual,
+                seconds,
+                converged: sol.solve.converged,
+                solves: sol.solve.solves,
+                failure: sol.solve.failure.clone(),
+            },
+            conductors: sol
+                .conductors
+                .iter()
+                .map(|c| ConductorSummary { name: c.name.clone(), potential: c.potential, charge: c.charge, force: c.force, floating: c.floating })
+                .collect(),
+            capacitance: CapacitanceSummary {
+                unit: if planar { "F/m" } else { "F" }.to_string(),
+                names: sol.capacitance.names.clone(),
+                matrix: sol.capacitance.matrix.clone(),
+                error_estimate: sol.capacitance.error_estimate.clone(),
+            },
+            energy: sol.energy,
+            peak_field: sol
+                .peak_field
+                .as_ref()
+                .map(|h| PeakSummary { magnitude: h.magnitude, x: h.x, y: h.y, material: h.material.clone(), singular: h.singular }),
+            hotspots: sol
+                .hotspots
+                .iter()
+                .map(|h| HotspotSummary {
+                    magnitude: h.magnitude,
+                    x: h.x,
+                    y: h.y,
+                    material: h.material.clone(),
+                    strength: h.strength,
+                    margin: h.margin,
+                    singular: h.singular,
+                })
+                .collect(),
+            probes: sol
+                .probes
+                .iter()
+                .map(|p| ProbeSummary { name: p.name.clone(), x: p.x, y: p.y, potential: p.potential, field: [finite(p.field[0]), finite(p.field[1])] })
+                .collect(),
+            warnings: sol.warnings.clone(),
+            line: None,
+        }
+    }
+}
