@@ -14,12 +14,18 @@ pub struct Failure {
 impl Failure {
     /// Bad input or usage (exit 2).
     pub fn input(message: impl Into<String>) -> Self {
-        Failure { code: crate::EXIT_BAD_INPUT, message: message.into() }
+        Failure {
+            code: crate::EXIT_BAD_INPUT,
+            message: message.into(),
+        }
     }
 
     /// An I/O or internal failure while writing results (exit 2: nothing usable was written).
     pub fn io(context: impl fmt::Display, err: impl fmt::Display) -> Self {
-        Failure { code: crate::EXIT_BAD_INPUT, message: format!("{context}: {err}") }
+        Failure {
+            code: crate::EXIT_BAD_INPUT,
+            message: format!("{context}: {err}"),
+        }
     }
 }
 

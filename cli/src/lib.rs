@@ -33,7 +33,11 @@ where
     let cli = match args::Cli::try_parse_from(args) {
         Ok(c) => c,
         Err(e) => {
-            let code = if e.use_stderr() { EXIT_BAD_INPUT } else { EXIT_OK };
+            let code = if e.use_stderr() {
+                EXIT_BAD_INPUT
+            } else {
+                EXIT_OK
+            };
             let _ = e.print();
             return ExitCode::from(code);
         }

@@ -19,13 +19,24 @@ impl OutDir {
     /// Checks that `path` is (or can be made) a writable directory. Creates it.
     pub fn prepare(path: &Path) -> Result<OutDir, Failure> {
         if path.exists() && !path.is_dir() {
-            return Err(Failure::input(format!("--out {}: exists and is not a directory", path.display())));
+            return Err(Failure::input(format!(
+                "--out {}: exists and is not a directory",
+                path.display()
+            )));
         }
-        fs::create_dir_all(path).map_err(|e| Failure::input(format!("--out {}: cannot create the directory: {e}", path.display())))?;
+        fs::create_dir_all(path).map_err(|e| {
+            Failure::input(format!(
+                "--out {}: cannot create the directory: {e}",
+                path.display()
+            ))
+        })?;
         let probe = path.join(format!(".fieldgrid-write-test-{}", std::process::id()));
-        fs::write(&probe, b"").map_err(|e| Failure::input(format!("--out {}: not writable: {e}", path.display())))?;
+        fs::write(&probe, b"")
+            .map_err(|e| Failure::input(format!("--out {}: not writable: {e}", path.display())))?;
         let _ = fs::remove_file(&probe);
-        Ok(OutDir { path: path.to_path_buf() })
+        Ok(OutDir {
+            path: path.to_path_buf(),
+        })
     }
 
     /// The directory.
@@ -36,7 +47,9 @@ impl OutDir {
     /// Writes `name` atomically.
     pub fn write(&self, name: &str, bytes: &[u8]) -> Result<PathBuf, Failure> {
         let final_path = self.path.join(name);
-        let tmp = self.path.join(format!(".{name}.partial-{}", std::process::id()));
+        let tmp = self
+            .path
+            .join(format!(".{name}.partial-{}", std::process::id()));
         let result = (|| -> std::io::Result<()> {
             let mut f = fs::File::create(&tmp)?;
             f.write_all(bytes)?;
@@ -53,8 +66,11 @@ impl OutDir {
     /// Writes a PNG atomically.
     pub fn write_png(&self, name: &str, img: &image::RgbImage) -> Result<PathBuf, Failure> {
         let mut bytes = Vec::new();
-        img.write_to(&mut std::io::Cursor::new(&mut bytes), image::ImageFormat::Png)
-            .map_err(|e| Failure::io(format!("encoding {name}"), e))?;
+        img.write_to(
+            &mut std::io::Cursor::new(&mut bytes),
+            image::ImageFormat::Png,
+        )
+        .map_err(|e| Failure::io(format!("encoding {name}"), e))?;
         self.write(name, &bytes)
     }
 }

@@ -187,7 +187,13 @@ impl Summary {
             mode: if planar { "planar" } else { "axisymmetric" }.to_string(),
             per_length: planar,
             depth,
-            grid: GridSummary { nx: g.nx, ny: g.ny, cell: g.hx.max(g.hy), hx: g.hx, hy: g.hy },
+            grid: GridSummary {
+                nx: g.nx,
+                ny: g.ny,
+                cell: g.hx.max(g.hy),
+                hx: g.hx,
+                hy: g.hy,
+            },
             solver: SolverSummary {
                 method: sol.solve.method.to_string(),
                 iterations: sol.solve.iterations,
@@ -200,7 +206,13 @@ impl Summary {
             conductors: sol
                 .conductors
                 .iter()
-                .map(|c| ConductorSummary { name: c.name.clone(), potential: c.potential, charge: c.charge, force: c.force, floating: c.floating })
+                .map(|c| ConductorSummary {
+                    name: c.name.clone(),
+                    potential: c.potential,
+                    charge: c.charge,
+                    force: c.force,
+                    floating: c.floating,
+                })
                 .collect(),
             capacitance: CapacitanceSummary {
                 unit: if planar { "F/m" } else { "F" }.to_string(),
@@ -209,10 +221,13 @@ impl Summary {
                 error_estimate: sol.capacitance.error_estimate.clone(),
             },
             energy: sol.energy,
-            peak_field: sol
-                .peak_field
-                .as_ref()
-                .map(|h| PeakSummary { magnitude: h.magnitude, x: h.x, y: h.y, material: h.material.clone(), singular: h.singular }),
+            peak_field: sol.peak_field.as_ref().map(|h| PeakSummary {
+                magnitude: h.magnitude,
+                x: h.x,
+                y: h.y,
+                material: h.material.clone(),
+                singular: h.singular,
+            }),
             hotspots: sol
                 .hotspots
                 .iter()
@@ -229,7 +244,13 @@ impl Summary {
             probes: sol
                 .probes
                 .iter()
-                .map(|p| ProbeSummary { name: p.name.clone(), x: p.x, y: p.y, potential: p.potential, field: [finite(p.field[0]), finite(p.field[1])] })
+                .map(|p| ProbeSummary {
+                    name: p.name.clone(),
+                    x: p.x,
+                    y: p.y,
+                    potential: p.potential,
+                    field: [finite(p.field[0]), finite(p.field[1])],
+                })
                 .collect(),
             warnings: sol.warnings.clone(),
             line: None,

@@ -153,8 +153,9 @@ pub struct Operator {
     pub direct: Vec<DirectCoupling>,
     /// Free charge of each unknown node divided by eps0 (planar V, axisymmetric V*m), sorted.
     pub source: Vec<(u32, f64)>,
-    /// Free charge that fell on fixed nodes and so is absorbed by them, C/m or C.
-    pub absorbed_charge: f64,
+    /// Free charge that falls in the control volumes of each target's fixed nodes, C/m or C.
+    /// It is part of what the target's reaction measures and is subtracted from it.
+    pub absorbed: Vec<f64>,
 }
 
 impl Operator {
@@ -194,8 +195,8 @@ impl Operator {
     }
 
     /// Charge of every target (C/m planar, C axisymmetric) for node potentials `phi` solved
-    /// with the target potentials `values`.
-    pub fn reactions(&self, phi: &[f64], values: &[f64]) -> Vec<f64> {
+    /// with the target potentials `values` and, when `with_source`, the free charge.
+    pub fn reactions(&self, phi: &[f64], values: &[f64], with_source: bool) -> Vec<f64> {
         let mut q = vec![0.0; self.n_targets()];
         for l in &self.links {
             q[l.target as usize] += l.weight * (values[l.target as usize] - phi[l.node as usize]);
@@ -206,6 +207,9 @@ impl Operator {
             q[d.b as usize] -= f;
         }
         q.iter_mut().for_each(|v| *v *= EPS0);
+        if with_source {
+            q.iter_mut().zip(&self.absorbed).for_each(|(q, a)| *q -= a);
+        }
         q
     }
 
@@ -266,7 +270,11 @@ impl Faces {
     fn wy(&self, i: usize, _j: usize, theta: f64) -> f64 {
         let g = &self.grid;
         let (lo, hi) = self.span_x(i);
-        let area = if self.axisymmetric { std::f64::consts::PI * (hi * hi - lo * lo) } else { hi - lo };
+        let area = if self.axisymmetric {
+            std::f64::consts::PI * (hi * hi - lo * lo)
+        } else {
+            hi - lo
+        };
         area / (theta * g.hy)
     }
 }
@@ -277,7 +285,12 @@ pub fn assemble(design: &Design, raster: &Raster) -> Result<Operator, OperatorEr
     let (nx, ny) = (grid.nx, grid.ny);
     let n = grid.len();
     let nc = design.conductors.len();
-    let sides = [design.sides.left, design.sides.right, design.sides.bottom, design.sides.top];
+    let sides = [
+        design.sides.left,
+        design.sides.right,
+        design.sides.bottom,
+        design.sides.top,
+    ];
     for (s, side) in SideId::ALL.iter().zip(sides) {
         if side == Side::Open {
             return Err(OperatorError::UnsupportedSide {
@@ -290,21 +303,7 @@ pub fn assemble(design: &Design, raster: &Raster) -> Result<Operator, OperatorEr
     let axisymmetric = design.mode == Mode::Axisymmetric;
     let faces = Faces { grid, axisymmetric };
 
-    // Fixed side of a node: Dirichlet sides own their nodes; the bottom and top sides take
-    // the corners they share with a fixed left or right side.
-    let side_of = |i: usize, j: usize| -> Option<SideId> {
-        if j == 0 && side_potential[2].is_some() {
-            Some(SideId::Bottom)
-        } else if j + 1 == ny && side_potential[3].is_some() {
-            Some(SideId::Top)
-        } else if i == 0 && side_potential[0].is_some() {
-            Some(SideId::Left)
-        } else if i + 1 == nx && side_potential[1].is_some() {
-            Some(SideId::Right)
-        } else {
-            None
-        }
-    };
+    let side_of = |i: usize, j: usize| fixed_side(&side_potential, nx, ny, i, j);
     let side_target = |s: SideId| (nc + s as usize) as u32;
 
     let mut unknown = vec![false; n];
@@ -331,7 +330,10 @@ pub fn assemble(design: &Design, raster: &Raster) -> Result<Operator, OperatorEr
                     Axis::Y if j + 1 < ny => (a + nx, i, j + 1),
                     _ => continue,
                 };
-                while cut.peek().is_some_and(|c| ((c.node as usize), c.axis) < (a, axis)) {
+                while cut
+                    .peek()
+                    .is_some_and(|c| ((c.node as usize), c.axis) < (a, axis))
+                {
                     cut.next();
                 }
                 let record = cut.next_if(|c| c.node as usize == a && c.axis == axis);
@@ -339,14 +341,22 @@ pub fn assemble(design: &Design, raster: &Raster) -> Result<Operator, OperatorEr
                 let (from_a, from_b, direct_link) = match record {
                     Some(c) => (c.from_a, c.from_b, c.direct),
                     None if ca == NO_CONDUCTOR && cb == NO_CONDUCTOR => {
-                        let h = HalfLink { theta: 1.0, eps: Raster::permittivity(design, raster.material[a]), ends_on: None };
+                        let h = HalfLink {
+                            theta: 1.0,
+                            eps: Raster::permittivity(design, raster.material[a]),
+                            ends_on: None,
+                        };
                         (Some(h), Some(h), None)
                     }
                     None => (None, None, None),
                 };
                 if let Some(d) = direct_link {
                     let w = d.eps * geometric_weight(&faces, axis, i, j, d.gap.max(THETA_MIN), 1.0);
-                    direct.push(DirectCoupling { a: d.a as u32, b: d.b as u32, weight: w });
+                    direct.push(DirectCoupling {
+                        a: d.a as u32,
+                        b: d.b as u32,
+                        weight: w,
+                    });
                 }
                 // Each free end sees either the other node (None) or a conductor surface.
                 let ends = [(a, i, j, from_a, b, 1.0), (b, bi, bj, from_b, a, -1.0)];
@@ -385,12 +395,23 @@ pub fn assemble(design: &Design, raster: &Raster) -> Result<Operator, OperatorEr
                                     }
                                 }
                             }
-                            Some(t) => links.push(Link { node: p as u32, target: t, weight: w, dir, theta, eps: h.eps }),
+                            Some(t) => links.push(Link {
+                                node: p as u32,
+                                target: t,
+                                weight: w,
+                                dir,
+                                theta,
+                                eps: h.eps,
+                            }),
                         }
                     } else if let (Some(t), Some(s)) = (target, side_of(pi, pj)) {
                         // A fixed side node facing a conductor surface.
                         if (t as usize) < nc {
-                            direct.push(DirectCoupling { a: side_target(s), b: t, weight: w });
+                            direct.push(DirectCoupling {
+                                a: side_target(s),
+                                b: t,
+                                weight: w,
+                            });
                         }
                     }
                 }
@@ -417,18 +438,60 @@ pub fn assemble(design: &Design, raster: &Raster) -> Result<Operator, OperatorEr
     links.sort_by_key(|l| (l.node, l.dir));
 
     let mut source = Vec::new();
-    let mut absorbed = 0.0;
+    let mut absorbed = vec![0.0; nc + 4];
     for &(p, q) in &raster.node_charge {
-        if unknown[p as usize] {
-            source.push((p, q / EPS0));
-        } else {
-            absorbed += q;
+        let p = p as usize;
+        if unknown[p] {
+            source.push((p as u32, q / EPS0));
+        } else if raster.conductor[p] != NO_CONDUCTOR {
+            absorbed[raster.conductor[p] as usize] += q;
+        } else if let Some(s) = side_of(p % nx, p / nx) {
+            absorbed[side_target(s) as usize] += q;
         }
     }
 
-    let stencil = Stencil5 { nx, ny, diag, east, north, unknown };
+    let stencil = Stencil5 {
+        nx,
+        ny,
+        diag,
+        east,
+        north,
+        unknown,
+    };
     check_reference(&stencil, &links, &grid)?;
-    Ok(Operator { grid, mode: design.mode, stencil, n_conductors: nc, side_potential, links, direct, source, absorbed_charge: absorbed })
+    Ok(Operator {
+        grid,
+        mode: design.mode,
+        stencil,
+        n_conductors: nc,
+        side_potential,
+        links,
+        direct,
+        source,
+        absorbed,
+    })
+}
+
+/// The fixed side that owns node (i, j), if any. Dirichlet sides own their nodes; the bottom
+/// and top sides take the corners they share with a fixed left or right side.
+pub fn fixed_side(
+    side_potential: &[Option<f64>; 4],
+    nx: usize,
+    ny: usize,
+    i: usize,
+    j: usize,
+) -> Option<SideId> {
+    if j == 0 && side_potential[2].is_some() {
+        Some(SideId::Bottom)
+    } else if j + 1 == ny && side_potential[3].is_some() {
+        Some(SideId::Top)
+    } else if i == 0 && side_potential[0].is_some() {
+        Some(SideId::Left)
+    } else if i + 1 == nx && side_potential[1].is_some() {
+        Some(SideId::Right)
+    } else {
+        None
+    }
 }
 
 fn geometric_weight(faces: &Faces, axis: Axis, i: usize, j: usize, theta: f64, sign: f64) -> f64 {
@@ -473,7 +536,10 @@ fn check_reference(s: &Stencil5, links: &[Link], grid: &Grid) -> Result<(), Oper
         }
     }
     match (0..n).find(|&p| s.unknown[p] && !anchored[p]) {
-        Some(p) => Err(OperatorError::NoReference { x: grid.x(p % nx), y: grid.y(p / nx) }),
+        Some(p) => Err(OperatorError::NoReference {
+            x: grid.x(p % nx),
+            y: grid.y(p / nx),
+        }),
         None => Ok(()),
     }
 }

@@ -46,7 +46,11 @@ pub struct HotspotParams {
 
 impl Default for HotspotParams {
     fn default() -> Self {
-        HotspotParams { count: 10, separation_cells: 6.0, corner_cells: 2.5 }
+        HotspotParams {
+            count: 10,
+            separation_cells: 6.0,
+            corner_cells: 2.5,
+        }
     }
 }
 
@@ -95,8 +99,18 @@ pub struct FieldEval<'a> {
 impl<'a> FieldEval<'a> {
     /// Wraps a solved potential.
     /// `conductor_potentials` are the conductors' potentials at the operating point.
-    pub fn new(op: &'a Operator, raster: &'a Raster, phi: &'a [f64], conductor_potentials: &[f64]) -> Self {
-        FieldEval { op, raster, phi, values: op.target_values(conductor_potentials, true) }
+    pub fn new(
+        op: &'a Operator,
+        raster: &'a Raster,
+        phi: &'a [f64],
+        conductor_potentials: &[f64],
+    ) -> Self {
+        FieldEval {
+            op,
+            raster,
+            phi,
+            values: op.target_values(conductor_potentials, true),
+        }
     }
 
     /// Potential of target t at the operating point.
@@ -147,7 +161,9 @@ impl<'a> FieldEval<'a> {
 /// (first order) when a side is missing, zero when both are (a no-flux boundary).
 fn derivative(minus: Option<(f64, f64)>, f0: f64, plus: Option<(f64, f64)>) -> f64 {
     match (minus, plus) {
-        (Some((a, fm)), Some((b, fp))) => (-b / (a * (a + b))) * fm + ((b - a) / (a * b)) * f0 + (a / (b * (a + b))) * fp,
+        (Some((a, fm)), Some((b, fp))) => {
+            (-b / (a * (a + b))) * fm + ((b - a) / (a * b)) * f0 + (a / (b * (a + b))) * fp
+        }
         // At a symmetry side or the axis the normal field vanishes.
         (None, Some(_)) | (Some(_), None) | (None, None) => 0.0,
     }
@@ -162,7 +178,11 @@ pub fn sharp_corners(design: &Design) -> Vec<Point> {
             Shape::Rect { x, y, round } if *round == 0.0 => {
                 out.extend([[x[0], y[0]], [x[1], y[0]], [x[1], y[1]], [x[0], y[1]]]);
             }
-            Shape::Polygon { outer, holes, round } if *round == 0.0 => {
+            Shape::Polygon {
+                outer,
+                holes,
+                round,
+            } if *round == 0.0 => {
                 out.extend(outer.iter().copied());
                 holes.iter().for_each(|h| out.extend(h.iter().copied()));
             }
@@ -182,13 +202,28 @@ fn material_of(design: &Design, m: u16) -> (String, Option<f64>) {
     }
 }
 
-fn hotspot_at(field: &FieldEval, design: &Design, corners: &[Point], p: usize, mag: f64, corner_cells: f64) -> Hotspot {
+fn hotspot_at(
+    field: &FieldEval,
+    design: &Design,
+    corners: &[Point],
+    p: usize,
+    mag: f64,
+    corner_cells: f64,
+) -> Hotspot {
     let g = &field.op.grid;
     let (x, y) = (g.x(p % g.nx), g.y(p / g.nx));
     let (material, strength) = material_of(design, field.raster.material[p]);
     let reach = corner_cells * g.hx.max(g.hy);
     let singular = corners.iter().any(|c| (c[0] - x).hypot(c[1] - y) <= reach);
-    Hotspot { magnitude: mag, x, y, material, strength, margin: strength.map(|s| s / mag), singular }
+    Hotspot {
+        magnitude: mag,
+        x,
+        y,
+        material,
+        strength,
+        margin: strength.map(|s| s / mag),
+        singular,
+    }
 }
 
 /// The largest field magnitude outside conductors.
@@ -201,11 +236,28 @@ pub fn peak(field: &FieldEval, design: &Design, corners: &[Point]) -> Option<Hot
             best = Some((p, m));
         }
     }
-    best.map(|(p, m)| hotspot_at(field, design, corners, p, m, HotspotParams::default().corner_cells))
+    best.map(|(p, m)| {
+        hotspot_at(
+            field,
+            design,
+            corners,
+            p,
+            m,
+            HotspotParams::default().corner_cells,
+        )
+    })
 }
 
+/// Relative amount by which a hot spot must exceed the field two cells around it.
+const PROMINENCE: f64 = 1e-3;
+
 /// Ranked distinct local maxima of |E|.
-pub fn hotspots(field: &FieldEval, design: &Design, corners: &[Point], params: &HotspotParams) -> Vec<Hotspot> {
+pub fn hotspots(
+    field: &FieldEval,
+    design: &Design,
+    corners: &[Point],
+    params: &HotspotParams,
+) -> Vec<Hotspot> {
     let g = &field.op.grid;
     let (nx, ny) = (g.nx, g.ny);
     let mag: Vec<f64> = (0..g.len()).map(|p| field.magnitude(p)).collect();
@@ -221,7 +273,8 @@ pub fn hotspots(field: &FieldEval, design: &Design, corners: &[Point], params: &
             'nb: for dj in -1i64..=1 {
                 for di in -1i64..=1 {
                     let (qi, qj) = (i as i64 + di, j as i64 + dj);
-                    if (di, dj) == (0, 0) || qi < 0 || qj < 0 || qi >= nx as i64 || qj >= ny as i64 {
+                    if (di, dj) == (0, 0) || qi < 0 || qj < 0 || qi >= nx as i64 || qj >= ny as i64
+                    {
                         continue;
                     }
                     let q = qi as usize + qj as usize * nx;
@@ -233,9 +286,38 @@ pub fn hotspots(field: &FieldEval, design: &Design, corners: &[Point], params: &
                     }
                 }
             }
-            if is_max {
+            // A hot spot stands out from its surroundings two cells away; the plateau of a
+            // uniform field has no hot spots beyond its single peak.
+            let mut ring_max = 0.0f64;
+            for dj in -2i64..=2 {
+                for di in -2i64..=2 {
+                    let (qi, qj) = (i as i64 + di, j as i64 + dj);
+                    if di.abs().max(dj.abs()) != 2
+                        || qi < 0
+                        || qj < 0
+                        || qi >= nx as i64
+                        || qj >= ny as i64
+                    {
+                        continue;
+                    }
+                    let mq = mag[qi as usize + qj as usize * nx];
+                    if mq.is_finite() {
+                        ring_max = ring_max.max(mq);
+                    }
+                }
+            }
+            if is_max && m > (1.0 + PROMINENCE) * ring_max {
                 cand.push((p, m));
             }
+        }
+    }
+    // The global peak always leads the list.
+    if let Some(top) = (0..mag.len())
+        .filter(|&p| mag[p].is_finite())
+        .max_by(|&a, &b| mag[a].total_cmp(&mag[b]).then(b.cmp(&a)))
+    {
+        if !cand.iter().any(|c| c.0 == top) {
+            cand.push((top, mag[top]));
         }
     }
     cand.sort_by(|a, b| b.1.total_cmp(&a.1).then(a.0.cmp(&b.0)));
@@ -246,11 +328,17 @@ pub fn hotspots(field: &FieldEval, design: &Design, corners: &[Point], params: &
             break;
         }
         let (x, y) = (g.x(p % nx), g.y(p / nx));
-        if chosen.iter().all(|&(q, _)| (g.x(q % nx) - x).hypot(g.y(q / nx) - y) >= sep) {
+        if chosen
+            .iter()
+            .all(|&(q, _)| (g.x(q % nx) - x).hypot(g.y(q / nx) - y) >= sep)
+        {
             chosen.push((p, m));
         }
     }
-    chosen.into_iter().map(|(p, m)| hotspot_at(field, design, corners, p, m, params.corner_cells)).collect()
+    chosen
+        .into_iter()
+        .map(|(p, m)| hotspot_at(field, design, corners, p, m, params.corner_cells))
+        .collect()
 }
 
 /// Reading of a probe: bilinear interpolation of the potential and of the node fields.
@@ -261,7 +349,12 @@ pub fn probe(field: &FieldEval, probe: &Probe) -> ProbeResult {
     let i = (fx.floor() as usize).min(g.nx - 2);
     let j = (fy.floor() as usize).min(g.ny - 2);
     let (tx, ty) = (fx - i as f64, fy - j as f64);
-    let corners = [(i, j, (1.0 - tx) * (1.0 - ty)), (i + 1, j, tx * (1.0 - ty)), (i, j + 1, (1.0 - tx) * ty), (i + 1, j + 1, tx * ty)];
+    let corners = [
+        (i, j, (1.0 - tx) * (1.0 - ty)),
+        (i + 1, j, tx * (1.0 - ty)),
+        (i, j + 1, (1.0 - tx) * ty),
+        (i + 1, j + 1, tx * ty),
+    ];
     let mut v = 0.0;
     let (mut ex, mut ey, mut wsum) = (0.0, 0.0, 0.0);
     for (ci, cj, w) in corners {
@@ -274,8 +367,18 @@ pub fn probe(field: &FieldEval, probe: &Probe) -> ProbeResult {
             wsum += w;
         }
     }
-    let fieldv = if wsum > 0.0 { [ex / wsum, ey / wsum] } else { [f64::NAN; 2] };
-    ProbeResult { name: probe.name.clone(), x: probe.at[0], y: probe.at[1], potential: v, field: fieldv }
+    let fieldv = if wsum > 0.0 {
+        [ex / wsum, ey / wsum]
+    } else {
+        [f64::NAN; 2]
+    };
+    ProbeResult {
+        name: probe.name.clone(),
+        x: probe.at[0],
+        y: probe.at[1],
+        potential: v,
+        field: fieldv,
+    }
 }
 
 /// Surface charge where lattice edges meet conductor surfaces, ordered by conductor, then
@@ -295,7 +398,13 @@ pub fn surface_charge(field: &FieldEval, _design: &Design) -> Vec<SurfacePoint> 
         let e = field.magnitude(p);
         let v = field.target_value(l.target);
         let sign = (v - field.phi[p]).signum();
-        out.push(SurfacePoint { conductor: l.target as usize, x: px, y: py, density: sign * EPS0 * l.eps * e, field: e });
+        out.push(SurfacePoint {
+            conductor: l.target as usize,
+            x: px,
+            y: py,
+            density: sign * EPS0 * l.eps * e,
+            field: e,
+        });
     }
     out.sort_by(|a, b| a.conductor.cmp(&b.conductor));
     out
@@ -350,23 +459,41 @@ pub fn force(field: &FieldEval, design: &Design, k: usize) -> [f64; 2] {
                 if !ok || inside[q] {
                     continue;
                 }
-                if !op.stencil.unknown[q] && raster.conductor[q] == NO_CONDUCTOR && !op.stencil.unknown[p] {
+                if !op.stencil.unknown[q]
+                    && raster.conductor[q] == NO_CONDUCTOR
+                    && !op.stencil.unknown[p]
+                {
                     continue;
                 }
                 let along_x = nrm[0] != 0.0;
                 let h = if along_x { g.hx } else { g.hy };
                 let en = -(field.phi[q] - field.phi[p]) / h;
                 let (ep, eq) = (node_e(p), node_e(q));
-                let et = if along_x { 0.5 * (ep[1] + eq[1]) } else { 0.5 * (ep[0] + eq[0]) };
-                let e = if along_x { [en * nrm[0], et] } else { [et, en * nrm[1]] };
+                let et = if along_x {
+                    0.5 * (ep[1] + eq[1])
+                } else {
+                    0.5 * (ep[0] + eq[0])
+                };
+                let e = if along_x {
+                    [en * nrm[0], et]
+                } else {
+                    [et, en * nrm[1]]
+                };
                 let eps = EPS0 * 0.5 * (eps_of(p) + eps_of(q));
                 let e2 = e[0] * e[0] + e[1] * e[1];
                 let enorm = e[0] * nrm[0] + e[1] * nrm[1];
-                let t = [eps * (enorm * e[0] - 0.5 * e2 * nrm[0]), eps * (enorm * e[1] - 0.5 * e2 * nrm[1])];
+                let t = [
+                    eps * (enorm * e[0] - 0.5 * e2 * nrm[0]),
+                    eps * (enorm * e[1] - 0.5 * e2 * nrm[1]),
+                ];
                 // Face size: the control-volume face between p and q.
                 let area = if along_x {
                     let r = g.x(i) + 0.5 * nrm[0] * g.hx;
-                    let l = if j == 0 || j + 1 == ny { 0.5 * g.hy } else { g.hy };
+                    let l = if j == 0 || j + 1 == ny {
+                        0.5 * g.hy
+                    } else {
+                        g.hy
+                    };
                     if axi {
                         2.0 * std::f64::consts::PI * r * l
                     } else {

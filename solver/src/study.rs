@@ -34,7 +34,12 @@ pub struct StudyParams {
 
 impl Default for StudyParams {
     fn default() -> Self {
-        StudyParams { method: Method::default(), solver: Params::default(), error_estimate: true, hotspots: HotspotParams::default() }
+        StudyParams {
+            method: Method::default(),
+            solver: Params::default(),
+            error_estimate: true,
+            hotspots: HotspotParams::default(),
+        }
     }
 }
 
@@ -160,14 +165,24 @@ pub fn run(design: &Design, params: &StudyParams) -> Result<Solution, StudyError
         None
     };
     let core = solve_on(design, &grid, params)?;
-    let fixed: Vec<usize> = (0..design.conductors.len()).filter(|&k| matches!(design.conductors[k].drive, Drive::Fixed(_))).collect();
-    let names: Vec<String> = fixed.iter().map(|&k| design.conductors[k].name.clone()).collect();
+    let fixed: Vec<usize> = (0..design.conductors.len())
+        .filter(|&k| matches!(design.conductors[k].drive, Drive::Fixed(_)))
+        .collect();
+    let names: Vec<String> = fixed
+        .iter()
+        .map(|&k| design.conductors[k].name.clone())
+        .collect();
     // Richardson: the fine error of a second-order method is about (C_h - C_2h) / (2^2 - 1).
     let error_estimate = coarse.as_ref().map(|c| {
         core.maxwell
             .iter()
             .zip(&c.maxwell)
-            .map(|(rf, rc)| rf.iter().zip(rc).map(|(f, c)| (f - c).abs() / 3.0).collect())
+            .map(|(rf, rc)| {
+                rf.iter()
+                    .zip(rc)
+                    .map(|(f, c)| (f - c).abs() / 3.0)
+                    .collect()
+            })
             .collect::<Vec<Vec<f64>>>()
     });
     if let Some(err) = &error_estimate {
@@ -185,12 +200,17 @@ pub fn run(design: &Design, params: &StudyParams) -> Result<Solution, StudyError
     }
     let solve = summarize(&core.infos);
     if !solve.converged {
-        warnings.push(format!("the solver did not converge: {}", solve.failure.clone().unwrap_or_default()));
+        warnings.push(format!(
+            "the solver did not converge: {}",
+            solve.failure.clone().unwrap_or_default()
+        ));
     }
 
     let nc = design.conductors.len();
     let values = core.op.target_values(&core.potentials, true);
-    let charges = core.op.reactions_total(&core.response, &core.background, &core.potentials);
+    let charges = core
+        .op
+        .reactions_total(&core.response, &core.background, &core.potentials);
     let corners = post::sharp_corners(design);
     let field = post::FieldEval::new(&core.op, &core.raster, &core.phi, &core.potentials);
     let conductors = (0..nc)
@@ -206,17 +226,30 @@ pub fn run(design: &Design, params: &StudyParams) -> Result<Solution, StudyError
     for s in SideId::ALL {
         side_charge[s as usize] = charges[core.op.side_target(s) as usize];
     }
-    let free: f64 = core.op.source.iter().map(|&(p, s)| s * EPS0 * core.phi[p as usize]).sum();
+    let free: f64 = core
+        .op
+        .source
+        .iter()
+        .map(|&(p, s)| s * EPS0 * core.phi[p as usize])
+        .sum();
     let energy = 0.5 * (charges.iter().zip(&values).map(|(q, v)| q * v).sum::<f64>() + free);
     let hotspots = post::hotspots(&field, design, &corners, &params.hotspots);
     let peak_field = post::peak(&field, design, &corners);
-    let probes = design.probes.iter().map(|p| post::probe(&field, p)).collect();
+    let probes = design
+        .probes
+        .iter()
+        .map(|p| post::probe(&field, p))
+        .collect();
     let surface_charge = post::surface_charge(&field, design);
 
     Ok(Solution {
         mode: design.mode,
         grid,
-        capacitance: Capacitance { names, matrix: core.maxwell.clone(), error_estimate },
+        capacitance: Capacitance {
+            names,
+            matrix: core.maxwell.clone(),
+            error_estimate,
+        },
         conductors,
         side_charge,
         energy,
@@ -239,9 +272,19 @@ fn summarize(infos: &[Info]) -> SolveSummary {
         solves: infos.len(),
         iterations: infos.iter().map(|i| i.iterations).max().unwrap_or(0),
         total_iterations: infos.iter().map(|i| i.iterations).sum(),
-        relative_residual: infos.iter().map(|i| i.relative_residual).fold(0.0, f64::max),
+        relative_residual: infos
+            .iter()
+            .map(|i| i.relative_residual)
+            .fold(0.0, f64::max),
         converged: failed.is_none(),
-        failure: failed.map(|i| format!("{} after {} iterations (relative residual {:.3e})", i.reason.describe(), i.iterations, i.relative_residual)),
+        failure: failed.map(|i| {
+            format!(
+                "{} after {} iterations (relative residual {:.3e})",
+                i.reason.describe(),
+                i.iterations,
+                i.relative_residual
+            )
+        }),
     }
 }
 
@@ -266,7 +309,9 @@ fn solve_on(design: &Design, grid: &Grid, params: &StudyParams) -> Result<Core, 
     let prepared = solvers::prepare(params.method, &op.stencil);
     let n = grid.len();
     let nc = design.conductors.len();
-    let floating: Vec<usize> = (0..nc).filter(|&k| design.conductors[k].drive == Drive::Floating).collect();
+    let floating: Vec<usize> = (0..nc)
+        .filter(|&k| design.conductors[k].drive == Drive::Floating)
+        .collect();
     let fixed: Vec<usize> = (0..nc).filter(|&k| !floating.contains(&k)).collect();
     let mut infos = Vec::new();
     let mut phi = vec![0.0; n];
@@ -282,8 +327,11 @@ fn solve_on(design: &Design, grid: &Grid, params: &StudyParams) -> Result<Core, 
         let values = op.target_values(&unit, false);
         let b = op.rhs(&values, false);
         let mut x = vec![0.0; n];
-        record(prepared.solve(&op.stencil, &b, &mut x, &params.solver), &mut infos);
-        response[k] = op.reactions(&x, &values);
+        record(
+            prepared.solve(&op.stencil, &b, &mut x, &params.solver),
+            &mut infos,
+        );
+        response[k] = op.reactions(&x, &values, false);
         match design.conductors[k].drive {
             Drive::Fixed(v) => {
                 if v != 0.0 {
@@ -298,8 +346,11 @@ fn solve_on(design: &Design, grid: &Grid, params: &StudyParams) -> Result<Core, 
     let b0 = op.rhs(&values0, true);
     let background = if b0.iter().any(|&v| v != 0.0) {
         let mut x0 = vec![0.0; n];
-        record(prepared.solve(&op.stencil, &b0, &mut x0, &params.solver), &mut infos);
-        let q = op.reactions(&x0, &values0);
+        record(
+            prepared.solve(&op.stencil, &b0, &mut x0, &params.solver),
+            &mut infos,
+        );
+        let q = op.reactions(&x0, &values0, true);
         phi.iter_mut().zip(&x0).for_each(|(p, x)| *p += x);
         q
     } else {
@@ -308,17 +359,41 @@ fn solve_on(design: &Design, grid: &Grid, params: &StudyParams) -> Result<Core, 
     drop(b0);
 
     // Conductor-to-conductor charge response: cfull[i][k] = charge on i with k at 1 V.
-    let cfull: Vec<Vec<f64>> = (0..nc).map(|i| (0..nc).map(|k| response[k][i]).collect()).collect();
-    let mut potentials: Vec<f64> = design.conductors.iter().map(|c| if let Drive::Fixed(v) = c.drive { v } else { 0.0 }).collect();
+    let cfull: Vec<Vec<f64>> = (0..nc)
+        .map(|i| (0..nc).map(|k| response[k][i]).collect())
+        .collect();
+    let mut potentials: Vec<f64> = design
+        .conductors
+        .iter()
+        .map(|c| {
+            if let Drive::Fixed(v) = c.drive {
+                v
+            } else {
+                0.0
+            }
+        })
+        .collect();
     let maxwell;
     if floating.is_empty() {
-        maxwell = fixed.iter().map(|&i| fixed.iter().map(|&j| cfull[i][j]).collect()).collect();
+        maxwell = fixed
+            .iter()
+            .map(|&i| fixed.iter().map(|&j| cfull[i][j]).collect())
+            .collect();
     } else {
         // Net charge zero on floating conductors: C_FF V_F = -(C_FS V_S + Q0_F).
-        let cff: Vec<Vec<f64>> = floating.iter().map(|&i| floating.iter().map(|&j| cfull[i][j]).collect()).collect();
+        let cff: Vec<Vec<f64>> = floating
+            .iter()
+            .map(|&i| floating.iter().map(|&j| cfull[i][j]).collect())
+            .collect();
         let rhs: Vec<f64> = floating
             .iter()
-            .map(|&i| -(fixed.iter().map(|&j| cfull[i][j] * potentials[j]).sum::<f64>() + background[i]))
+            .map(|&i| {
+                -(fixed
+                    .iter()
+                    .map(|&j| cfull[i][j] * potentials[j])
+                    .sum::<f64>()
+                    + background[i])
+            })
             .collect();
         let vf = dense_solve(&cff, &rhs);
         for (f, &i) in floating.iter().enumerate() {
@@ -337,7 +412,12 @@ fn solve_on(design: &Design, grid: &Grid, params: &StudyParams) -> Result<Core, 
                     .map(|&j| {
                         let col: Vec<f64> = floating.iter().map(|&f| cfull[f][j]).collect();
                         let y = dense_solve(&cff, &col);
-                        cfull[i][j] - floating.iter().zip(&y).map(|(&f, y)| cfull[i][f] * y).sum::<f64>()
+                        cfull[i][j]
+                            - floating
+                                .iter()
+                                .zip(&y)
+                                .map(|(&f, y)| cfull[i][f] * y)
+                                .sum::<f64>()
                     })
                     .collect()
             })
@@ -354,28 +434,35 @@ fn solve_on(design: &Design, grid: &Grid, params: &StudyParams) -> Result<Core, 
         phi[p] = if k != NO_CONDUCTOR {
             potentials[k as usize]
         } else {
-            let (i, j) = (p % nx, p / nx);
-            let s = if j == 0 && op.side_potential[2].is_some() {
-                SideId::Bottom
-            } else if j + 1 == ny && op.side_potential[3].is_some() {
-                SideId::Top
-            } else if i == 0 {
-                SideId::Left
-            } else {
-                SideId::Right
-            };
+            let s = operator::fixed_side(&op.side_potential, nx, ny, p % nx, p / nx)
+                .expect("a fixed free node lies on a fixed side");
             side_values[op.side_target(s) as usize]
         };
     }
-    Ok(Core { raster, op, phi, potentials, response, background, maxwell, infos })
+    Ok(Core {
+        raster,
+        op,
+        phi,
+        potentials,
+        response,
+        background,
+        maxwell,
+        infos,
+    })
 }
 
 /// Solves a small dense SPD system by Gaussian elimination with partial pivoting.
 fn dense_solve(a: &[Vec<f64>], b: &[f64]) -> Vec<f64> {
     let n = b.len();
-    let mut m: Vec<Vec<f64>> = a.iter().zip(b).map(|(r, &v)| r.iter().copied().chain(std::iter::once(v)).collect()).collect();
+    let mut m: Vec<Vec<f64>> = a
+        .iter()
+        .zip(b)
+        .map(|(r, &v)| r.iter().copied().chain(std::iter::once(v)).collect())
+        .collect();
     for c in 0..n {
-        let piv = (c..n).max_by(|&i, &j| m[i][c].abs().total_cmp(&m[j][c].abs())).unwrap();
+        let piv = (c..n)
+            .max_by(|&i, &j| m[i][c].abs().total_cmp(&m[j][c].abs()))
+            .unwrap();
         m.swap(c, piv);
         for r in c + 1..n {
             let f = m[r][c] / m[c][c];

@@ -1,1 +1,87 @@
-//! Shared helpers for the integration tests.
+//! Shared helpers for the integration tests: reading designs from text, solving them with
+//! every solver, and comparing numbers.
+
+use fieldgrid_solver::design::Design;
+use fieldgrid_solver::solvers::{Method, Params};
+use fieldgrid_solver::study::{self, Solution, StudyParams};
+
+/// Reads a design from TOML text (panics with the reader's message on error).
+pub fn design(text: &str) -> Design {
+    match fieldgrid_cli::design_file::read_design(text, "test.toml", &[]) {
+        Ok(src) => src.design,
+        Err(e) => panic!("test design does not read: {e}"),
+    }
+}
+
+/// Study settings for tests: given method, tolerance 1e-10, no error estimate.
+pub fn params(method: Method) -> StudyParams {
+    StudyParams {
+        method,
+        solver: Params {
+            tol: 1e-10,
+            ..Params::default()
+        },
+        error_estimate: false,
+        ..StudyParams::default()
+    }
+}
+
+/// Solves with the default solver and tight tolerance.
+pub fn solve(d: &Design) -> Solution {
+    solve_with(d, Method::default())
+}
+
+/// Solves with the given method and tight tolerance.
+pub fn solve_with(d: &Design, method: Method) -> Solution {
+    let s = study::run(d, &params(method)).expect("study runs");
+    assert!(
+        s.solve.converged,
+        "{method:?} did not converge: {:?}",
+        s.solve
+    );
+    s
+}
+
+/// Runs the design through every solver and checks that capacitance matrices, conductor
+/// charges and node potentials agree to `rel` (relative to the largest entry). Returns the
+/// solutions in `Method::ALL` order.
+pub fn solve_every_method(d: &Design, rel: f64) -> Vec<Solution> {
+    let sols: Vec<Solution> = Method::ALL.iter().map(|&m| solve_with(d, m)).collect();
+    let base = &sols[0];
+    let scale = base
+        .capacitance
+        .matrix
+        .iter()
+        .flatten()
+        .fold(0.0f64, |m, v| m.max(v.abs()));
+    let vscale = base
+        .potential
+        .iter()
+        .fold(0.0f64, |m, v| m.max(v.abs()))
+        .max(1e-300);
+    for (m, s) in Method::ALL.iter().zip(&sols).skip(1) {
+        for (ra, rb) in base.capacitance.matrix.iter().zip(&s.capacitance.matrix) {
+            for (a, b) in ra.iter().zip(rb) {
+                assert!(
+                    (a - b).abs() <= rel * scale,
+                    "{m:?}: capacitance {b} vs {a}"
+                );
+            }
+        }
+        let dv = base
+            .potential
+            .iter()
+            .zip(&s.potential)
+            .fold(0.0f64, |m, (a, b)| m.max((a - b).abs()));
+        assert!(
+            dv <= rel * vscale * 10.0,
+            "{m:?}: potentials differ by {dv}"
+        );
+    }
+    sols
+}
+
+/// Relative error of `got` against `want`.
+pub fn rel_err(got: f64, want: f64) -> f64 {
+    ((got - want) / want).abs()
+}

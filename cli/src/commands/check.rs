@@ -22,7 +22,11 @@ pub fn run(args: &CheckArgs) -> Result<u8, Failure> {
     });
     if let Some(dir) = &args.out {
         let out = OutDir::prepare(dir)?;
-        out.write("check.json", &serde_json::to_vec_pretty(&report).map_err(|e| Failure::io("encoding check.json", e))?)?;
+        out.write(
+            "check.json",
+            &serde_json::to_vec_pretty(&report)
+                .map_err(|e| Failure::io("encoding check.json", e))?,
+        )?;
     }
     if !args.quiet {
         println!(

@@ -7,6 +7,7 @@ pub mod solve;
 use crate::args::{SolveOptions, SolverChoice};
 use crate::design_file::{self, DesignSource};
 use crate::error::Failure;
+use fieldgrid_solver::design::Item;
 use fieldgrid_solver::grid::Grid;
 use fieldgrid_solver::solvers::{Method, Params};
 use fieldgrid_solver::study::StudyParams;
@@ -17,8 +18,13 @@ use std::time::Instant;
 
 /// Reads and validates a design file.
 pub fn load_design(path: &Path, overrides: &[(String, f64)]) -> Result<DesignSource, Failure> {
-    let text = std::fs::read_to_string(path).map_err(|e| Failure::input(format!("{}: cannot read the design: {e}", path.display())))?;
-    Ok(design_file::read_design(&text, &path.display().to_string(), overrides)?)
+    let text = std::fs::read_to_string(path)
+        .map_err(|e| Failure::input(format!("{}: cannot read the design: {e}", path.display())))?;
+    Ok(design_file::read_design(
+        &text,
+        &path.display().to_string(),
+        overrides,
+    )?)
 }
 
 /// Bytes per lattice node that a solve needs at most (operator, hierarchy, solver vectors,
@@ -26,20 +32,28 @@ pub fn load_design(path: &Path, overrides: &[(String, f64)]) -> Result<DesignSou
 pub const BYTES_PER_NODE: f64 = 160.0;
 
 /// Fits the grid and refuses designs whose estimated memory exceeds the limit.
-pub fn check_memory(src: &DesignSource, file: &Path, max_mib: Option<f64>) -> Result<(Grid, f64), Failure> {
+pub fn check_memory(
+    src: &DesignSource,
+    file: &Path,
+    max_mib: Option<f64>,
+) -> Result<(Grid, f64), Failure> {
     let d = &src.design.domain;
-    let grid = Grid::fit(d.x, d.y, d.cell).map_err(|e| Failure::input(format!("{}: `grid.cell`: {e}", file.display())))?;
+    let _ = file;
+    let grid = Grid::fit(d.x, d.y, d.cell)
+        .map_err(|e| Failure::from(src.error_at(Item::Grid, "cell", e.to_string())))?;
     let mib = grid.len() as f64 * BYTES_PER_NODE / (1024.0 * 1024.0);
     let limit = max_mib.unwrap_or_else(default_memory_limit_mib);
     if mib > limit {
-        return Err(Failure::input(format!(
-            "{}: `grid.cell`: a {} x {} grid needs about {:.0} MiB, more than the {:.0} MiB allowed (--max-memory): use a larger cell",
-            file.display(),
+        return Err(Failure::from(src.error_at(
+            Item::Grid,
+            "cell",
+            format!(
+            "a {} x {} grid needs about {:.0} MiB, more than the {:.0} MiB allowed (--max-memory): use a larger cell",
             grid.nx,
             grid.ny,
             mib,
             limit
-        )));
+        ))));
     }
     Ok((grid, mib))
 }
@@ -58,12 +72,18 @@ pub fn default_memory_limit_mib() -> f64 {
 }
 
 /// Runs `f` on a thread pool of the requested size.
-pub fn with_threads<T: Send>(threads: Option<usize>, f: impl FnOnce() -> T + Send) -> Result<T, Failure> {
+pub fn with_threads<T: Send>(
+    threads: Option<usize>,
+    f: impl FnOnce() -> T + Send,
+) -> Result<T, Failure> {
     match threads {
         None => Ok(f()),
         Some(0) => Err(Failure::input("--threads must be at least 1")),
         Some(n) => {
-            let pool = rayon::ThreadPoolBuilder::new().num_threads(n).build().map_err(|e| Failure::input(format!("--threads {n}: {e}")))?;
+            let pool = rayon::ThreadPoolBuilder::new()
+                .num_threads(n)
+                .build()
+                .map_err(|e| Failure::input(format!("--threads {n}: {e}")))?;
             Ok(pool.install(f))
         }
     }
@@ -72,14 +92,20 @@ pub fn with_threads<T: Send>(threads: Option<usize>, f: impl FnOnce() -> T + Sen
 /// Study settings from the command line, with a progress display on a terminal.
 pub fn study_params(opts: &SolveOptions) -> Result<StudyParams, Failure> {
     if !(opts.tol.is_finite() && opts.tol > 0.0 && opts.tol < 1.0) {
-        return Err(Failure::input(format!("--tol must lie between 0 and 1, got {}", opts.tol)));
+        return Err(Failure::input(format!(
+            "--tol must lie between 0 and 1, got {}",
+            opts.tol
+        )));
     }
     let method = match opts.solver {
         SolverChoice::Multigrid => Method::Multigrid,
         SolverChoice::Cg => Method::Cg,
         SolverChoice::Sor => Method::Sor,
     };
-    let mut solver = Params { tol: opts.tol, ..Params::default() };
+    let mut solver = Params {
+        tol: opts.tol,
+        ..Params::default()
+    };
     if !opts.quiet && std::io::stderr().is_terminal() {
         let start = Instant::now();
         solver.monitor = Some(Arc::new(move |it, rel| {
@@ -88,5 +114,10 @@ pub fn study_params(opts: &SolveOptions) -> Result<StudyParams, Failure> {
             }
         }));
     }
-    Ok(StudyParams { method, solver, error_estimate: !opts.no_error_estimate, ..StudyParams::default() })
+    Ok(StudyParams {
+        method,
+        solver,
+        error_estimate: !opts.no_error_estimate,
+        ..StudyParams::default()
+    })
 }

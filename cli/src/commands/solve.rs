@@ -16,7 +16,8 @@ pub fn run(args: &SolveArgs) -> Result<u8, Failure> {
     let params = study_params(&args.opts)?;
     let out = OutDir::prepare(&args.out)?;
     let start = Instant::now();
-    let sol = with_threads(args.opts.threads, || study::run(&src.design, &params))?.map_err(|e| study_failure(&args.design, e))?;
+    let sol = with_threads(args.opts.threads, || study::run(&src.design, &params))?
+        .map_err(|e| study_failure(&src, e))?;
     let seconds = start.elapsed().as_secs_f64();
     if !args.opts.quiet && std::io::IsTerminal::is_terminal(&std::io::stderr()) {
         eprint!("\r{:60}\r", "");
@@ -30,7 +31,11 @@ pub fn run(args: &SolveArgs) -> Result<u8, Failure> {
         return Ok(EXIT_NOT_CONVERGED);
     }
     if let Some(min) = args.min_margin {
-        if let Some(h) = sol.hotspots.iter().find(|h| h.margin.is_some_and(|m| m < min)) {
+        if let Some(h) = sol
+            .hotspots
+            .iter()
+            .find(|h| h.margin.is_some_and(|m| m < min))
+        {
             eprintln!(
                 "fieldgrid: hot spot at ({:.4e} m, {:.4e} m) has margin {:.3}, below --min-margin {min}",
                 h.x,
@@ -44,19 +49,31 @@ pub fn run(args: &SolveArgs) -> Result<u8, Failure> {
 }
 
 /// Maps a library failure to the user's message.
-pub fn study_failure(file: &std::path::Path, e: StudyError) -> Failure {
-    let key = match &e {
-        StudyError::Operator(fieldgrid_solver::operator::OperatorError::UnsupportedSide { side, .. }) => format!("sides.{side}"),
-        StudyError::Operator(_) => "sides".to_string(),
-        StudyError::Grid(_) => "grid".to_string(),
-        _ => "design".to_string(),
+pub fn study_failure(src: &crate::design_file::DesignSource, e: StudyError) -> Failure {
+    use fieldgrid_solver::design::Item;
+    use fieldgrid_solver::operator::OperatorError;
+    let err = match &e {
+        StudyError::Operator(OperatorError::UnsupportedSide { side, .. }) => {
+            src.error_at(Item::Sides, side, e.to_string())
+        }
+        StudyError::Operator(_) => src.error_at(Item::Sides, "", e.to_string()),
+        StudyError::Grid(_) => src.error_at(Item::Grid, "cell", e.to_string()),
+        StudyError::Design(d) => src.error_at(d.item, d.key, d.message.clone()),
+        _ => src.error_at(Item::Top, "", e.to_string()),
     };
-    Failure::input(format!("{}: `{key}`: {e}", file.display()))
+    Failure::from(err)
 }
 
 /// Writes every result file.
-pub fn write_results(out: &OutDir, sol: &Solution, summary: &Summary, design: &fieldgrid_solver::design::Design, field_table: bool) -> Result<(), Failure> {
-    let json = serde_json::to_vec_pretty(summary).map_err(|e| Failure::io("encoding summary.json", e))?;
+pub fn write_results(
+    out: &OutDir,
+    sol: &Solution,
+    summary: &Summary,
+    design: &fieldgrid_solver::design::Design,
+    field_table: bool,
+) -> Result<(), Failure> {
+    let json =
+        serde_json::to_vec_pretty(summary).map_err(|e| Failure::io("encoding summary.json", e))?;
     // Capacitance matrix: one row per conductor, one column per conductor, plus errors.
     let cap = &sol.capacitance;
     let unit = &summary.capacitance.unit;
@@ -76,7 +93,16 @@ pub fn write_results(out: &OutDir, sol: &Solution, summary: &Summary, design: &f
     let header_ref: Vec<&str> = header.iter().map(|s| s.as_str()).collect();
     let capacitance = csv_bytes(&header_ref, rows);
     let hotspots = csv_bytes(
-        &["rank", "x (m)", "y (m)", "field (V/m)", "material", "strength (V/m)", "margin", "singular"],
+        &[
+            "rank",
+            "x (m)",
+            "y (m)",
+            "field (V/m)",
+            "material",
+            "strength (V/m)",
+            "margin",
+            "singular",
+        ],
         sol.hotspots.iter().enumerate().map(|(k, h)| {
             vec![
                 (k + 1).to_string(),
@@ -91,8 +117,22 @@ pub fn write_results(out: &OutDir, sol: &Solution, summary: &Summary, design: &f
         }),
     );
     let surface = csv_bytes(
-        &["conductor", "x (m)", "y (m)", "surface charge (C/m^2)", "field (V/m)"],
-        sol.surface_charge.iter().map(|s| vec![design.conductors[s.conductor].name.clone(), num(s.x), num(s.y), num(s.density), num(s.field)]),
+        &[
+            "conductor",
+            "x (m)",
+            "y (m)",
+            "surface charge (C/m^2)",
+            "field (V/m)",
+        ],
+        sol.surface_charge.iter().map(|s| {
+            vec![
+                design.conductors[s.conductor].name.clone(),
+                num(s.x),
+                num(s.y),
+                num(s.density),
+                num(s.field),
+            ]
+        }),
     );
     out.write("summary.json", &json)?;
     out.write("capacitance.csv", &capacitance)?;
@@ -108,12 +148,31 @@ pub fn write_results(out: &OutDir, sol: &Solution, summary: &Summary, design: &f
 pub fn field_table_bytes(sol: &Solution) -> Vec<u8> {
     let g = &sol.grid;
     let potentials: Vec<f64> = sol.conductors.iter().map(|c| c.potential).collect();
-    let field = fieldgrid_solver::post::FieldEval::new(&sol.operator, &sol.raster, &sol.potential, &potentials);
+    let field = fieldgrid_solver::post::FieldEval::new(
+        &sol.operator,
+        &sol.raster,
+        &sol.potential,
+        &potentials,
+    );
     csv_bytes(
-        &["x (m)", "y (m)", "potential (V)", "Ex (V/m)", "Ey (V/m)", "|E| (V/m)"],
+        &[
+            "x (m)",
+            "y (m)",
+            "potential (V)",
+            "Ex (V/m)",
+            "Ey (V/m)",
+            "|E| (V/m)",
+        ],
         (0..g.len()).map(|p| {
             let e = field.at(p);
-            vec![num(g.x(p % g.nx)), num(g.y(p / g.nx)), num(sol.potential[p]), num(e[0]), num(e[1]), num(e[0].hypot(e[1]))]
+            vec![
+                num(g.x(p % g.nx)),
+                num(g.y(p / g.nx)),
+                num(sol.potential[p]),
+                num(e[0]),
+                num(e[1]),
+                num(e[0].hypot(e[1])),
+            ]
         }),
     )
 }
@@ -130,7 +189,10 @@ fn report(sol: &Solution, summary: &Summary, out: &OutDir) -> String {
     );
     let _ = writeln!(s, "capacitance matrix ({unit}):");
     for (i, name) in sol.capacitance.names.iter().enumerate() {
-        let row: Vec<String> = sol.capacitance.matrix[i].iter().map(|v| format!("{v:12.4e}")).collect();
+        let row: Vec<String> = sol.capacitance.matrix[i]
+            .iter()
+            .map(|v| format!("{v:12.4e}"))
+            .collect();
         let _ = writeln!(s, "  {name:>12} {}", row.join(" "));
     }
     if let Some(p) = &sol.peak_field {
@@ -141,7 +203,11 @@ fn report(sol: &Solution, summary: &Summary, out: &OutDir) -> String {
             p.x,
             p.y,
             p.material,
-            if p.singular { " (at a sharp corner: grows with refinement)" } else { "" }
+            if p.singular {
+                " (at a sharp corner: grows with refinement)"
+            } else {
+                ""
+            }
         );
     }
     for w in &sol.warnings {

@@ -1,0 +1,304 @@
+//! Reference checks of the planar solver against closed-form results.
+//! Each check names its source beside it.
+
+use fieldgrid_solver::solvers::Method;
+use fieldgrid_solver::EPS0;
+use fieldgrid_tests::{design, rel_err, solve, solve_every_method, solve_with};
+use std::f64::consts::PI;
+
+/// Two plates with two dielectric layers between them, interface and plate surface off the
+/// grid lines; plates span the width between symmetry sides, so the field is uniform.
+fn layered_plates(cell: f64) -> String {
+    format!(
+        r#"
+unit = "mm"
+[grid]
+x = [0.0, 2.0]
+y = [0.0, 1.5]
+cell = {cell}
+[sides]
+left = "symmetry"
+right = "symmetry"
+top = "symmetry"
+bottom = "ground"
+[[conductor]]
+name = "top"
+potential = 1.0
+rect = {{ x = [0.0, 2.0], y = [1.013, 1.5] }}
+[[dielectric]]
+name = "layer"
+permittivity = 4.4
+rect = {{ x = [0.0, 2.0], y = [0.0, 0.537] }}
+"#
+    )
+}
+
+#[test]
+fn layered_plates_match_series_capacitor_formula() {
+    // Series capacitors (elementary electrostatics, e.g. D. J. Griffiths, Introduction to
+    // Electrodynamics, 4th ed., 2017, sec. 4.4): C' = eps0 w / (d1/eps1 + d2/eps2).
+    let d = design(&layered_plates(0.1));
+    let s = solve(&d);
+    let (w, d1, d2) = (2e-3, 0.537e-3, 1.013e-3 - 0.537e-3);
+    let want = EPS0 * w / (d1 / 4.4 + d2 / 1.0);
+    let got = s.capacitance.matrix[0][0];
+    let err = rel_err(got, want);
+    assert!(err < 2e-3, "C' = {got:e}, want {want:e}, error {err:e}");
+}
+
+#[test]
+fn uniform_space_charge_between_grounded_plates_gives_gauss_surface_field() {
+    // Gauss's law for a slab of uniform charge between grounded plates (Griffiths 2017,
+    // sec. 2.2): the surface field is rho d / (2 eps0), so each plate carries -rho d w / 2.
+    let text = r#"
+unit = "mm"
+[grid]
+x = [0.0, 1.0]
+y = [0.0, 2.0]
+cell = 0.05
+[sides]
+left = "symmetry"
+right = "symmetry"
+[[charge]]
+name = "slab"
+density = 1.0e-3
+rect = { x = [0.0, 1.0], y = [0.0, 2.0] }
+"#;
+    let s = solve(&design(text));
+    let (rho, dgap, w) = (1.0e-3, 2e-3, 1e-3);
+    let want_field = rho * dgap / (2.0 * EPS0);
+    for side in [2, 3] {
+        let field = -s.side_charge[side] / (EPS0 * w);
+        let err = rel_err(field, want_field);
+        assert!(
+            err < 1e-2,
+            "side {side}: surface field {field:e}, want {want_field:e} ({err:e})"
+        );
+    }
+    // Gauss's law for the whole box: induced charge balances the free charge.
+    let total: f64 = s.side_charge.iter().sum();
+    assert!(
+        rel_err(-total, rho * dgap * w) < 1e-9,
+        "total induced {total:e}"
+    );
+}
+
+fn coax(cells_across_inner_radius: f64) -> String {
+    // Inner radius 1 mm, outer 2.5 mm; the outer conductor is a ring reaching the sides.
+    let cell = 1.0 / cells_across_inner_radius;
+    format!(
+        r#"
+unit = "mm"
+[grid]
+x = [-2.8, 2.8]
+y = [-2.8, 2.8]
+cell = {cell}
+[[conductor]]
+name = "inner"
+potential = 1.0
+circle = {{ center = [0.0, 0.0], radius = 1.0 }}
+[[conductor]]
+name = "outer"
+potential = 0.0
+ring = {{ center = [0.0, 0.0], inner = 2.5, outer = 2.8 }}
+"#
+    )
+}
+
+#[test]
+fn coaxial_line_capacitance_and_second_order_convergence() {
+    // Coaxial capacitor per unit length C' = 2 pi eps0 / ln(b/a) (Griffiths 2017, sec. 2.5,
+    // problem-independent closed form of the cylindrical capacitor).
+    let want = 2.0 * PI * EPS0 / (2.5f64).ln();
+    let errs: Vec<f64> = [10.0, 20.0, 40.0]
+        .iter()
+        .map(|&n| {
+            let s = solve(&design(&coax(n)));
+            rel_err(s.capacitance.matrix[0][0], want)
+        })
+        .collect();
+    assert!(
+        errs[0] < 1e-3,
+        "10 cells across the inner radius: error {:e}",
+        errs[0]
+    );
+    let p1 = (errs[0] / errs[1]).log2();
+    let p2 = (errs[1] / errs[2]).log2();
+    let order = 0.5 * (p1 + p2);
+    assert!(
+        order > 1.6 && order < 2.6,
+        "observed orders {p1:.2}, {p2:.2} (errors {errs:?})"
+    );
+}
+
+#[test]
+fn line_charge_in_grounded_cylinder_matches_coulomb_field_and_potential() {
+    // Field of a line charge E = lambda / (2 pi eps0 r) and potential
+    // phi = lambda / (2 pi eps0) ln(b / r) inside a grounded cylinder of radius b
+    // (Griffiths 2017, sec. 2.3, example of the infinite line charge).
+    let text = r#"
+unit = "mm"
+[grid]
+x = [-5.2, 5.2]
+y = [-5.2, 5.2]
+cell = 0.1
+[[conductor]]
+name = "shell"
+potential = 0.0
+ring = { center = [0.0, 0.0], inner = 5.0, outer = 5.2 }
+[[charge]]
+name = "wire"
+at = [0.0, 0.0]
+amount = 1.0e-9
+[[probe]]
+name = "p"
+at = [2.5, 0.0]
+"#;
+    let s = solve(&design(text));
+    let (lambda, b, r): (f64, f64, f64) = (1.0e-9, 5e-3, 2.5e-3);
+    let k = lambda / (2.0 * PI * EPS0);
+    let p = &s.probes[0];
+    let (want_v, want_e) = (k * (b / r).ln(), k / r);
+    assert!(
+        rel_err(p.potential, want_v) < 1e-2,
+        "potential {} vs {want_v}",
+        p.potential
+    );
+    assert!(
+        rel_err(p.field[0], want_e) < 1e-2,
+        "field {} vs {want_e}",
+        p.field[0]
+    );
+    assert!(p.field[1].abs() < 1e-2 * want_e);
+    // The shell carries the opposite charge.
+    assert!(rel_err(-s.conductors[0].charge, lambda) < 1e-6);
+}
+
+#[test]
+fn parallel_plate_force_matches_closed_form() {
+    // Force per unit length between parallel plates F' = eps0 w V^2 / (2 d^2) (Griffiths
+    // 2017, sec. 2.5.3, electrostatic pressure sigma^2 / (2 eps0)).
+    let text = r#"
+unit = "mm"
+[grid]
+x = [0.0, 4.0]
+y = [0.0, 3.0]
+cell = 0.1
+[sides]
+left = "symmetry"
+right = "symmetry"
+top = 100.0
+bottom = "ground"
+[[conductor]]
+name = "lower"
+potential = 0.0
+rect = { x = [0.0, 4.0], y = [0.0, 1.0] }
+[[conductor]]
+name = "upper"
+potential = 100.0
+rect = { x = [0.0, 4.0], y = [2.0, 3.0] }
+"#;
+    let s = solve(&design(text));
+    let (w, v, dgap) = (4e-3, 100.0, 1e-3);
+    let want = EPS0 * w * v * v / (2.0 * dgap * dgap);
+    let up = &s.conductors[1];
+    let low = &s.conductors[0];
+    assert!(
+        rel_err(-up.force[1], want) < 1e-2,
+        "upper plate force {:?}, want -{want:e}",
+        up.force
+    );
+    assert!(
+        rel_err(low.force[1], want) < 1e-2,
+        "lower plate force {:?}, want {want:e}",
+        low.force
+    );
+    assert!(up.force[0].abs() < 1e-6 * want);
+}
+
+fn three_conductors() -> String {
+    r#"
+unit = "mm"
+[grid]
+x = [0.0, 10.0]
+y = [0.0, 6.0]
+cell = 0.1
+[[dielectric]]
+name = "board"
+permittivity = 4.4
+rect = { x = [0.0, 10.0], y = [0.0, 2.0] }
+[[conductor]]
+name = "a"
+potential = 1.0
+rect = { x = [2.0, 3.5], y = [2.0, 2.2] }
+[[conductor]]
+name = "b"
+potential = -1.0
+circle = { center = [6.0, 3.0], radius = 0.6 }
+[[conductor]]
+name = "c"
+potential = 0.0
+polygon = [[4.0, 0.8], [8.0, 0.8], [8.0, 1.1], [4.0, 1.3]]
+"#
+    .to_string()
+}
+
+#[test]
+fn maxwell_matrix_of_three_conductors_has_the_physical_sign_pattern() {
+    // Properties of the Maxwell capacitance matrix (J. C. Maxwell, A Treatise on Electricity
+    // and Magnetism, 1873, vol. 1, arts. 86-87): symmetric (reciprocity), positive diagonal,
+    // non-positive off-diagonal, non-negative row sums (the rest is ground).
+    let s = solve(&design(&three_conductors()));
+    let c = &s.capacitance.matrix;
+    let scale = c[0][0].abs();
+    for i in 0..3 {
+        assert!(c[i][i] > 0.0);
+        let row: f64 = c[i].iter().sum();
+        assert!(row >= -1e-9 * scale, "row {i} sums to {row:e}");
+        for j in 0..3 {
+            if i != j {
+                assert!(c[i][j] <= 0.0, "C[{i}][{j}] = {:e}", c[i][j]);
+                assert!(
+                    (c[i][j] - c[j][i]).abs() <= 1e-7 * scale,
+                    "asymmetric {i} {j}"
+                );
+            }
+        }
+    }
+}
+
+#[test]
+fn every_solver_agrees_on_the_reference_designs() {
+    for text in [layered_plates(0.1), coax(10.0), three_conductors()] {
+        solve_every_method(&design(&text), 1e-7);
+    }
+}
+
+#[test]
+fn one_and_two_threads_give_identical_bits() {
+    let d = design(&three_conductors());
+    for method in Method::ALL {
+        let run = |t: usize| {
+            rayon::ThreadPoolBuilder::new()
+                .num_threads(t)
+                .build()
+                .unwrap()
+                .install(|| solve_with(&d, method))
+        };
+        let (a, b) = (run(1), run(2));
+        assert_eq!(a.potential.len(), b.potential.len());
+        assert!(
+            a.potential
+                .iter()
+                .zip(&b.potential)
+                .all(|(x, y)| x.to_bits() == y.to_bits()),
+            "{method:?}"
+        );
+        for (ra, rb) in a.capacitance.matrix.iter().zip(&b.capacitance.matrix) {
+            assert!(
+                ra.iter().zip(rb).all(|(x, y)| x.to_bits() == y.to_bits()),
+                "{method:?}"
+            );
+        }
+    }
+}
