@@ -45,6 +45,9 @@ pub struct SolveOptions {
     /// Worker threads (default: every core).
     #[arg(long)]
     pub threads: Option<usize>,
+    /// Stop a linear solve after this many iterations (default: the solver's own limit).
+    #[arg(long, value_name = "N")]
+    pub max_iterations: Option<usize>,
     /// Print nothing but errors.
     #[arg(long)]
     pub quiet: bool,

@@ -58,7 +58,12 @@ pub struct Sides {
 
 impl Default for Sides {
     fn default() -> Self {
-        Sides { left: Side::Ground, right: Side::Ground, bottom: Side::Ground, top: Side::Ground }
+        Sides {
+            left: Side::Ground,
+            right: Side::Ground,
+            bottom: Side::Ground,
+            top: Side::Ground,
+        }
     }
 }
 
@@ -194,7 +199,10 @@ pub struct Background {
 
 impl Default for Background {
     fn default() -> Self {
-        Background { permittivity: 1.0, strength: None }
+        Background {
+            permittivity: 1.0,
+            strength: None,
+        }
     }
 }
 
@@ -223,7 +231,11 @@ pub struct Design {
 
 impl Default for Domain {
     fn default() -> Self {
-        Domain { x: [0.0, 1.0], y: [0.0, 1.0], cell: 0.01 }
+        Domain {
+            x: [0.0, 1.0],
+            y: [0.0, 1.0],
+            cell: 0.01,
+        }
     }
 }
 
@@ -265,7 +277,11 @@ pub struct DesignError {
 impl DesignError {
     /// A new error about `key` of `item`.
     pub fn new(item: Item, key: &'static str, message: impl Into<String>) -> Self {
-        DesignError { item, key, message: message.into() }
+        DesignError {
+            item,
+            key,
+            message: message.into(),
+        }
     }
 }
 

@@ -30,12 +30,16 @@ impl Grid {
     /// allows along each axis (at least 2 cells per axis).
     pub fn fit(x: [f64; 2], y: [f64; 2], cell: f64) -> Result<Grid, GridError> {
         if !(cell.is_finite() && cell > 0.0) {
-            return Err(GridError(format!("cell size must be a positive number, got {cell}")));
+            return Err(GridError(format!(
+                "cell size must be a positive number, got {cell}"
+            )));
         }
         let lx = x[1] - x[0];
         let ly = y[1] - y[0];
         if !(lx.is_finite() && lx > 0.0 && ly.is_finite() && ly > 0.0) {
-            return Err(GridError("the domain must have positive width and height".into()));
+            return Err(GridError(
+                "the domain must have positive width and height".into(),
+            ));
         }
         let cx = (lx / cell).round().max(2.0);
         let cy = (ly / cell).round().max(2.0);
@@ -43,7 +47,14 @@ impl Grid {
             return Err(GridError(format!("{cx} x {cy} cells is far too many")));
         }
         let (cx, cy) = (cx as usize, cy as usize);
-        Ok(Grid { nx: cx + 1, ny: cy + 1, x0: x[0], y0: y[0], hx: lx / cx as f64, hy: ly / cy as f64 })
+        Ok(Grid {
+            nx: cx + 1,
+            ny: cy + 1,
+            x0: x[0],
+            y0: y[0],
+            hx: lx / cx as f64,
+            hy: ly / cy as f64,
+        })
     }
 
     /// Number of nodes.
@@ -91,7 +102,14 @@ impl Grid {
         let cy = ((self.ny - 1) as f64 / 2.0).ceil().max(2.0) as usize;
         let lx = self.x1() - self.x0;
         let ly = self.y1() - self.y0;
-        Grid { nx: cx + 1, ny: cy + 1, x0: self.x0, y0: self.y0, hx: lx / cx as f64, hy: ly / cy as f64 }
+        Grid {
+            nx: cx + 1,
+            ny: cy + 1,
+            x0: self.x0,
+            y0: self.y0,
+            hx: lx / cx as f64,
+            hy: ly / cy as f64,
+        }
     }
 }
 

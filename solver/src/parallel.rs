@@ -42,9 +42,15 @@ mod tests {
 
     #[test]
     fn reductions_do_not_depend_on_thread_count() {
-        let a: Vec<f64> = (0..100_003).map(|i| ((i as f64) * 0.37).sin() * 1e3).collect();
+        let a: Vec<f64> = (0..100_003)
+            .map(|i| ((i as f64) * 0.37).sin() * 1e3)
+            .collect();
         let run = |t: usize| {
-            rayon::ThreadPoolBuilder::new().num_threads(t).build().unwrap().install(|| dot(&a, &a))
+            rayon::ThreadPoolBuilder::new()
+                .num_threads(t)
+                .build()
+                .unwrap()
+                .install(|| dot(&a, &a))
         };
         assert_eq!(run(1).to_bits(), run(2).to_bits());
         assert_eq!(run(1).to_bits(), run(3).to_bits());

@@ -100,5 +100,11 @@ impl Raster {
 pub fn rasterize(design: &Design, grid: &Grid) -> Raster {
     let _ = design;
     let n = grid.len();
-    Raster { grid: *grid, conductor: vec![NO_CONDUCTOR; n], material: vec![0; n], cut_edges: Vec::new(), node_charge: Vec::new() }
+    Raster {
+        grid: *grid,
+        conductor: vec![NO_CONDUCTOR; n],
+        material: vec![0; n],
+        cut_edges: Vec::new(),
+        node_charge: Vec::new(),
+    }
 }

@@ -75,7 +75,9 @@ impl Stencil5 {
     /// `r = b - A x`, returning the Euclidean norm of r (deterministic).
     pub fn residual(&self, b: &[f64], x: &[f64], r: &mut [f64]) -> f64 {
         self.apply(x, r);
-        r.par_iter_mut().zip(b.par_iter()).for_each(|(ri, bi)| *ri = bi - *ri);
+        r.par_iter_mut()
+            .zip(b.par_iter())
+            .for_each(|(ri, bi)| *ri = bi - *ri);
         parallel::norm2(r)
     }
 
@@ -135,7 +137,12 @@ impl Stencil5 {
                 let p = i + j * nx;
                 s.unknown[p] = true;
                 let e = eps(i, j);
-                let w = [hm(e, eps(i - 1, j)), hm(e, eps(i + 1, j)), hm(e, eps(i, j - 1)), hm(e, eps(i, j + 1))];
+                let w = [
+                    hm(e, eps(i - 1, j)),
+                    hm(e, eps(i + 1, j)),
+                    hm(e, eps(i, j - 1)),
+                    hm(e, eps(i, j + 1)),
+                ];
                 s.diag[p] = w.iter().sum();
                 if i + 1 < nx - 1 {
                     s.east[p] = w[1];
@@ -157,7 +164,9 @@ mod tests {
     fn apply_matches_assembled_matrix() {
         let s = Stencil5::dirichlet_box(7, 6, |i, j| 1.0 + (i * j % 3) as f64);
         let (a, nodes) = s.to_csr();
-        let x: Vec<f64> = (0..s.len()).map(|p| if s.unknown[p] { (p as f64).sin() } else { 0.0 }).collect();
+        let x: Vec<f64> = (0..s.len())
+            .map(|p| if s.unknown[p] { (p as f64).sin() } else { 0.0 })
+            .collect();
         let mut y = vec![0.0; s.len()];
         s.apply(&x, &mut y);
         let xu: Vec<f64> = nodes.iter().map(|&p| x[p]).collect();

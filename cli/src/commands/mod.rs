@@ -104,6 +104,7 @@ pub fn study_params(opts: &SolveOptions) -> Result<StudyParams, Failure> {
     };
     let mut solver = Params {
         tol: opts.tol,
+        max_iter: opts.max_iterations.unwrap_or(0),
         ..Params::default()
     };
     if !opts.quiet && std::io::stderr().is_terminal() {

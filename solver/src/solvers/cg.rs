@@ -13,7 +13,10 @@ use rayon::prelude::*;
 pub fn solve(a: &Stencil5, b: &[f64], x: &mut [f64], params: &Params) -> Result<Info, SolveError> {
     let inv_diag: Vec<f64> = a.diag.par_iter().map(|d| 1.0 / d).collect();
     pcg(a, b, x, params, "jacobi-cg", |r, z| {
-        z.par_iter_mut().zip(r.par_iter()).zip(inv_diag.par_iter()).for_each(|((z, r), d)| *z = r * d);
+        z.par_iter_mut()
+            .zip(r.par_iter())
+            .zip(inv_diag.par_iter())
+            .for_each(|((z, r), d)| *z = r * d);
     })
 }
 
@@ -31,9 +34,18 @@ pub(crate) fn pcg(
     let bnorm = parallel::norm2(b);
     if bnorm == 0.0 {
         x.par_iter_mut().for_each(|v| *v = 0.0);
-        return Ok(Info { method, iterations: 0, relative_residual: 0.0, reason: StopReason::ZeroRhs });
+        return Ok(Info {
+            method,
+            iterations: 0,
+            relative_residual: 0.0,
+            reason: StopReason::ZeroRhs,
+        });
     }
-    let max_iter = if params.max_iter > 0 { params.max_iter } else { 20 * (a.nx + a.ny) + 1000 };
+    let max_iter = if params.max_iter > 0 {
+        params.max_iter
+    } else {
+        20 * (a.nx + a.ny) + 1000
+    };
     let mut r = vec![0.0; n];
     let rel0 = a.residual(b, x, &mut r) / bnorm;
     let mut z = vec![0.0; n];
@@ -43,7 +55,11 @@ pub(crate) fn pcg(
     let mut best = rel0;
     let mut since_best = 0;
     let mut iterations = 0;
-    let mut reason = if rel <= params.tol { Some(StopReason::Converged) } else { None };
+    let mut reason = if rel <= params.tol {
+        Some(StopReason::Converged)
+    } else {
+        None
+    };
     if reason.is_none() {
         precond(&r, &mut z);
         p.copy_from_slice(&z);
@@ -56,12 +72,20 @@ pub(crate) fn pcg(
             a.apply(&p, &mut ap);
             let pap = parallel::dot(&p, &ap);
             if !(pap > 0.0) {
-                reason = Some(if pap.is_finite() { StopReason::Stagnated } else { StopReason::NonFinite });
+                reason = Some(if pap.is_finite() {
+                    StopReason::Stagnated
+                } else {
+                    StopReason::NonFinite
+                });
                 break;
             }
             let alpha = rz / pap;
-            x.par_iter_mut().zip(p.par_iter()).for_each(|(x, p)| *x += alpha * p);
-            r.par_iter_mut().zip(ap.par_iter()).for_each(|(r, ap)| *r -= alpha * ap);
+            x.par_iter_mut()
+                .zip(p.par_iter())
+                .for_each(|(x, p)| *x += alpha * p);
+            r.par_iter_mut()
+                .zip(ap.par_iter())
+                .for_each(|(r, ap)| *r -= alpha * ap);
             iterations += 1;
             rel = parallel::norm2(&r) / bnorm;
             if let Some(m) = &params.monitor {
@@ -85,7 +109,9 @@ pub(crate) fn pcg(
             let rz_new = parallel::dot(&r, &z);
             let beta = rz_new / rz;
             rz = rz_new;
-            p.par_iter_mut().zip(z.par_iter()).for_each(|(p, z)| *p = z + beta * *p);
+            p.par_iter_mut()
+                .zip(z.par_iter())
+                .for_each(|(p, z)| *p = z + beta * *p);
         }
     }
     let true_rel = a.residual(b, x, &mut r) / bnorm;
@@ -97,7 +123,12 @@ pub(crate) fn pcg(
     if !true_rel.is_finite() {
         reason = StopReason::NonFinite;
     }
-    let info = Info { method, iterations, relative_residual: true_rel, reason };
+    let info = Info {
+        method,
+        iterations,
+        relative_residual: true_rel,
+        reason,
+    };
     if info.converged() {
         Ok(info)
     } else {
@@ -125,7 +156,16 @@ mod tests {
     fn iteration_limit_is_reported_as_error_with_last_iterate() {
         let (a, b) = jump_problem(33, 1.0);
         let mut x = vec![0.0; a.len()];
-        let err = solve(&a, &b, &mut x, &Params { max_iter: 3, ..Params::default() }).unwrap_err();
+        let err = solve(
+            &a,
+            &b,
+            &mut x,
+            &Params {
+                max_iter: 3,
+                ..Params::default()
+            },
+        )
+        .unwrap_err();
         assert_eq!(err.info().reason, StopReason::MaxIterations);
         assert_eq!(err.info().iterations, 3);
         assert!(x.iter().any(|&v| v != 0.0));

@@ -57,7 +57,12 @@ pub struct Params {
 
 impl Default for Params {
     fn default() -> Self {
-        Params { tol: 1e-8, max_iter: 0, omega: None, monitor: None }
+        Params {
+            tol: 1e-8,
+            max_iter: 0,
+            omega: None,
+            monitor: None,
+        }
     }
 }
 
@@ -165,7 +170,13 @@ pub fn prepare(method: Method, stencil: &Stencil5) -> Prepared {
 
 impl Prepared {
     /// Solves `A x = b`, starting from the given `x`.
-    pub fn solve(&self, stencil: &Stencil5, b: &[f64], x: &mut [f64], params: &Params) -> Result<Info, SolveError> {
+    pub fn solve(
+        &self,
+        stencil: &Stencil5,
+        b: &[f64],
+        x: &mut [f64],
+        params: &Params,
+    ) -> Result<Info, SolveError> {
         match self {
             Prepared::Cg => cg::solve(stencil, b, x, params),
             Prepared::Sor => sor::solve(stencil, b, x, params),
@@ -184,7 +195,11 @@ impl Prepared {
     ) -> Vec<Result<Info, SolveError>> {
         match self {
             Prepared::Multigrid(h) => h.solve_many(stencil, bs, xs, params),
-            _ => bs.iter().zip(xs.iter_mut()).map(|(b, x)| self.solve(stencil, b, x, params)).collect(),
+            _ => bs
+                .iter()
+                .zip(xs.iter_mut())
+                .map(|(b, x)| self.solve(stencil, b, x, params))
+                .collect(),
         }
     }
 
@@ -199,13 +214,25 @@ impl Prepared {
 }
 
 /// Prepares and solves in one call.
-pub fn solve(method: Method, stencil: &Stencil5, b: &[f64], x: &mut [f64], params: &Params) -> Result<Info, SolveError> {
+pub fn solve(
+    method: Method,
+    stencil: &Stencil5,
+    b: &[f64],
+    x: &mut [f64],
+    params: &Params,
+) -> Result<Info, SolveError> {
     prepare(method, stencil).solve(stencil, b, x, params)
 }
 
 /// Classifies the state of an iteration from its residual history. Shared by the iterative
 /// methods so that they stop for the same reasons.
-pub(crate) fn check_progress(rel: f64, initial_rel: f64, best_rel: f64, since_best: usize, window: usize) -> Option<StopReason> {
+pub(crate) fn check_progress(
+    rel: f64,
+    initial_rel: f64,
+    best_rel: f64,
+    since_best: usize,
+    window: usize,
+) -> Option<StopReason> {
     if !rel.is_finite() {
         Some(StopReason::NonFinite)
     } else if rel > 1e8 * initial_rel.max(1.0) {
@@ -253,7 +280,13 @@ pub(crate) mod testing {
             }
         }
         let b = (0..s.len())
-            .map(|p| if s.unknown[p] { 1.0 + ((p % nx) as f64 * 0.1).sin() } else { 0.0 })
+            .map(|p| {
+                if s.unknown[p] {
+                    1.0 + ((p % nx) as f64 * 0.1).sin()
+                } else {
+                    0.0
+                }
+            })
             .collect();
         (s, b)
     }

@@ -18,12 +18,27 @@ impl Hierarchy {
     }
 
     /// Solves `A x = b`.
-    pub fn solve(&self, a: &Stencil5, b: &[f64], x: &mut [f64], params: &Params) -> Result<Info, SolveError> {
+    pub fn solve(
+        &self,
+        a: &Stencil5,
+        b: &[f64],
+        x: &mut [f64],
+        params: &Params,
+    ) -> Result<Info, SolveError> {
         super::cg::solve(a, b, x, params)
     }
 
     /// Solves several right-hand sides.
-    pub fn solve_many(&self, a: &Stencil5, bs: &[Vec<f64>], xs: &mut [Vec<f64>], params: &Params) -> Vec<Result<Info, SolveError>> {
-        bs.iter().zip(xs.iter_mut()).map(|(b, x)| self.solve(a, b, x, params)).collect()
+    pub fn solve_many(
+        &self,
+        a: &Stencil5,
+        bs: &[Vec<f64>],
+        xs: &mut [Vec<f64>],
+        params: &Params,
+    ) -> Vec<Result<Info, SolveError>> {
+        bs.iter()
+            .zip(xs.iter_mut())
+            .map(|(b, x)| self.solve(a, b, x, params))
+            .collect()
     }
 }

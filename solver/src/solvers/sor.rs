@@ -72,10 +72,19 @@ pub fn solve(a: &Stencil5, b: &[f64], x: &mut [f64], params: &Params) -> Result<
     let bnorm = parallel::norm2(b);
     if bnorm == 0.0 {
         x.par_iter_mut().for_each(|v| *v = 0.0);
-        return Ok(Info { method: METHOD, iterations: 0, relative_residual: 0.0, reason: StopReason::ZeroRhs });
+        return Ok(Info {
+            method: METHOD,
+            iterations: 0,
+            relative_residual: 0.0,
+            reason: StopReason::ZeroRhs,
+        });
     }
     let omega = params.omega.unwrap_or_else(|| default_omega(a));
-    let max_iter = if params.max_iter > 0 { params.max_iter } else { 50 * (a.nx + a.ny) + 2000 };
+    let max_iter = if params.max_iter > 0 {
+        params.max_iter
+    } else {
+        50 * (a.nx + a.ny) + 2000
+    };
     let check_every = 10;
     let mut r = vec![0.0; a.len()];
     let rel0 = a.residual(b, x, &mut r) / bnorm;
@@ -108,7 +117,12 @@ pub fn solve(a: &Stencil5, b: &[f64], x: &mut [f64], params: &Params) -> Result<
             }
         }
     };
-    let info = Info { method: METHOD, iterations, relative_residual: rel, reason };
+    let info = Info {
+        method: METHOD,
+        iterations,
+        relative_residual: rel,
+        reason,
+    };
     if info.converged() {
         Ok(info)
     } else {
@@ -126,11 +140,17 @@ mod tests {
         let (a, b) = jump_problem(33, 20.0);
         let mut xs = vec![0.0; a.len()];
         let mut xc = vec![0.0; a.len()];
-        let p = Params { tol: 1e-10, ..Params::default() };
+        let p = Params {
+            tol: 1e-10,
+            ..Params::default()
+        };
         solve(&a, &b, &mut xs, &p).unwrap();
         crate::solvers::cg::solve(&a, &b, &mut xc, &p).unwrap();
         let scale = xc.iter().fold(0.0f64, |m, v| m.max(v.abs()));
-        let diff = xs.iter().zip(&xc).fold(0.0f64, |m, (a, b)| m.max((a - b).abs()));
+        let diff = xs
+            .iter()
+            .zip(&xc)
+            .fold(0.0f64, |m, (a, b)| m.max((a - b).abs()));
         assert!(diff < 1e-7 * scale, "diff {diff}");
     }
 }
