@@ -1,0 +1,110 @@
+//! The symmetric V-cycle used as the CG preconditioner, and the per-solve scratch it needs.
+//!
+//! Invariants: the cycle starts from a zero correction, smooths with a colour order on the way
+//! down and the reverse order on the way up, restricts with the exact transpose of the
+//! prolongation and solves the coarsest level directly, so `z = M^-1 r` is linear in r with M
+//! symmetric positive definite. Nothing in it depends on the thread count.
+
+use super::interpolation::{
+    interior_count, prolong_coarse, prolong_fine, restrict_coarse, restrict_fine,
+};
+use super::smoother::{four_colour_sweep, red_black_pass, residual};
+use super::Hierarchy;
+use crate::stencil::Stencil5;
+use rayon::prelude::*;
+
+/// Scratch vectors of one solve (one set serves any number of right-hand sides in turn).
+pub(super) struct Workspace {
+    /// Scaled fine residuals at interior points.
+    sbuf: Vec<f64>,
+    /// Per coarse level: iterate, right-hand side, residual (padded).
+    x: Vec<Vec<f64>>,
+    b: Vec<Vec<f64>>,
+    r: Vec<Vec<f64>>,
+}
+
+impl Workspace {
+    /// Scratch for `h`, whose fine level is nx x ny.
+    pub fn new(h: &Hierarchy) -> Workspace {
+        let (nx, ny) = h.fine;
+        let sbuf = if h.levels.is_empty() {
+            Vec::new()
+        } else {
+            vec![0.0; interior_count(nx) * interior_count(ny)]
+        };
+        let n = h.levels.len();
+        let x = h.levels.iter().map(|l| vec![0.0; l.padded_len()]).collect();
+        let b = h.levels.iter().map(|l| vec![0.0; l.padded_len()]).collect();
+        // The coarsest level needs no residual.
+        let r = h
+            .levels
+            .iter()
+            .enumerate()
+            .map(|(k, l)| {
+                if k + 1 < n {
+                    vec![0.0; l.padded_len()]
+                } else {
+                    Vec::new()
+                }
+            })
+            .collect();
+        Workspace { sbuf, x, b, r }
+    }
+
+    /// Bytes held.
+    pub fn bytes(&self) -> usize {
+        8 * (self.sbuf.len()
+            + [&self.x, &self.b, &self.r]
+                .iter()
+                .map(|v| v.iter().map(Vec::len).sum::<usize>())
+                .sum::<usize>())
+    }
+}
+
+/// `z = M^-1 r` by one V-cycle.
+pub(super) fn vcycle(h: &Hierarchy, a: &Stencil5, ws: &mut Workspace, r: &[f64], z: &mut [f64]) {
+    let nx = a.nx;
+    if h.levels.is_empty() {
+        h.coarsest.solve(r, z, |i, j| i + j * nx);
+        return;
+    }
+    z.par_iter_mut().for_each(|v| *v = 0.0);
+    let sweeps = h.options.fine_sweeps;
+    for _ in 0..sweeps {
+        red_black_pass(a, r, z, 0);
+        red_black_pass(a, r, z, 1);
+    }
+    restrict_fine(a, r, z, &mut ws.sbuf, &h.levels[0], &mut ws.b[0]);
+    let last = h.levels.len() - 1;
+    for k in 0..last {
+        let l = &h.levels[k];
+        let x = &mut ws.x[k];
+        x.par_iter_mut().for_each(|v| *v = 0.0);
+        for _ in 0..h.options.coarse_sweeps {
+            four_colour_sweep(l, &ws.b[k], x, false);
+        }
+        residual(l, &ws.b[k], x, &mut ws.r[k]);
+        let (lo, hi) = ws.b.split_at_mut(k + 1);
+        let _ = lo;
+        restrict_coarse(l, &mut ws.r[k], &h.levels[k + 1], &mut hi[0]);
+    }
+    {
+        let l = &h.levels[last];
+        let s = l.s;
+        h.coarsest
+            .solve(&ws.b[last], &mut ws.x[last], |i, j| (i + 1) + (j + 1) * s);
+    }
+    for k in (0..last).rev() {
+        let l = &h.levels[k];
+        let (lo, hi) = ws.x.split_at_mut(k + 1);
+        prolong_coarse(l, &mut lo[k], &mut ws.r[k], &h.levels[k + 1], &hi[0]);
+        for _ in 0..h.options.coarse_sweeps {
+            four_colour_sweep(l, &ws.b[k], &mut lo[k], true);
+        }
+    }
+    prolong_fine(a, z, &h.levels[0], &ws.x[0]);
+    for _ in 0..sweeps {
+        red_black_pass(a, r, z, 1);
+        red_black_pass(a, r, z, 0);
+    }
+}

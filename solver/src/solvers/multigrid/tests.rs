@@ -1,0 +1,486 @@
+//! Unit tests of the multigrid hierarchy and of multigrid-preconditioned CG.
+
+use super::interpolation::{prolong_coarse, prolong_fine, restrict_coarse, restrict_fine};
+use super::*;
+use crate::parallel;
+use crate::solvers::testing::jump_problem;
+
+fn rel_residual(a: &Stencil5, b: &[f64], x: &[f64]) -> f64 {
+    let mut r = vec![0.0; a.len()];
+    a.residual(b, x, &mut r) / parallel::norm2(b)
+}
+
+/// Seeded pseudo-random numbers in [-1, 1) (64-bit linear congruential generator).
+fn noise(n: usize, seed: u64) -> Vec<f64> {
+    let mut s = seed
+        .wrapping_mul(6364136223846793005)
+        .wrapping_add(1442695040888963407);
+    (0..n)
+        .map(|_| {
+            s = s
+                .wrapping_mul(6364136223846793005)
+                .wrapping_add(1442695040888963407);
+            ((s >> 11) as f64 / (1u64 << 53) as f64) * 2.0 - 1.0
+        })
+        .collect()
+}
+
+/// What a hard test operator contains.
+#[derive(Clone, Copy)]
+struct Hard {
+    nx: usize,
+    ny: usize,
+    /// Permittivity of the lower-left inclusion relative to the rest.
+    contrast: f64,
+    /// Smallest cut fraction next to the thin conductor (its couplings are weighted 1/theta).
+    theta: f64,
+    /// hx / hy.
+    aspect: f64,
+}
+
+impl Hard {
+    fn new(nx: usize, ny: usize) -> Hard {
+        Hard {
+            nx,
+            ny,
+            contrast: 1000.0,
+            theta: 0.01,
+            aspect: 1.07,
+        }
+    }
+}
+
+/// A cut-cell-like operator: an inclusion of high permittivity whose edges lie off the coarse
+/// lines, a thin conductor one node thick (at 1 V) ending inside the domain with boosted
+/// couplings next to it, a grounded block conductor, a symmetry (Neumann) left side, an open
+/// (Robin) right side, grounded bottom and top. Returns the operator and the right-hand side
+/// of the thin conductor at 1 V plus a small distributed source.
+fn hard_problem(h: Hard) -> (Stencil5, Vec<f64>) {
+    let (nx, ny) = (h.nx, h.ny);
+    let len = nx * ny;
+    let fx = |f: f64| ((f * (nx - 1) as f64).round() as usize) | 1;
+    let fy = |f: f64| ((f * (ny - 1) as f64).round() as usize) | 1;
+    // Cells (nx-1) x (ny-1); the inclusion covers x < 0.41, y < 0.37 (snapped to odd lines).
+    let (ix, iy) = (fx(0.41), fy(0.37));
+    let eps = |ci: usize, cj: usize| if ci < ix && cj < iy { h.contrast } else { 1.0 };
+    // 0 free, 1 thin conductor (1 V), 2 grounded.
+    let line_j = fy(0.63);
+    let (l0, l1) = (fx(0.22), fx(0.71));
+    let (b0, b1, c0, c1) = (fx(0.55), fx(0.80), fy(0.13), fy(0.30));
+    let owner = |i: usize, j: usize| -> u8 {
+        if j == 0 || j == ny - 1 {
+            2
+        } else if j == line_j && (l0..=l1).contains(&i) {
+            1
+        } else if (b0..=b1).contains(&i) && (c0..=c1).contains(&j) {
+            2
+        } else {
+            0
+        }
+    };
+    let cell = |ci: isize, cj: isize| -> Option<f64> {
+        (ci >= 0 && cj >= 0 && (ci as usize) < nx - 1 && (cj as usize) < ny - 1)
+            .then(|| eps(ci as usize, cj as usize))
+    };
+    // Coupling between (i, j) and its east / north neighbour: half-cell sums times aspect.
+    let east_c = |i: usize, j: usize| -> f64 {
+        let (i, j) = (i as isize, j as isize);
+        0.5 * (cell(i, j - 1).unwrap_or(0.0) + cell(i, j).unwrap_or(0.0)) / h.aspect
+    };
+    let north_c = |i: usize, j: usize| -> f64 {
+        let (i, j) = (i as isize, j as isize);
+        0.5 * (cell(i - 1, j).unwrap_or(0.0) + cell(i, j).unwrap_or(0.0)) * h.aspect
+    };
+    // Cut fraction of the edge from a free node to a conductor node: varies along the line.
+    let theta = |i: usize| h.theta + (1.0 - h.theta) * ((i * 7 % 5) as f64 / 4.0);
+    let mut s = Stencil5 {
+        nx,
+        ny,
+        diag: vec![1.0; len],
+        east: vec![0.0; len],
+        north: vec![0.0; len],
+        unknown: vec![false; len],
+    };
+    let mut b = vec![0.0; len];
+    let src = noise(len, 7);
+    for j in 0..ny {
+        for i in 0..nx {
+            let p = i + j * nx;
+            if owner(i, j) != 0 {
+                continue;
+            }
+            s.unknown[p] = true;
+            let mut nbs = Vec::new();
+            if i + 1 < nx {
+                nbs.push((i + 1, j, east_c(i, j), 0));
+            }
+            if i > 0 {
+                nbs.push((i - 1, j, east_c(i - 1, j), 1));
+            }
+            if j + 1 < ny {
+                nbs.push((i, j + 1, north_c(i, j), 2));
+            }
+            if j > 0 {
+                nbs.push((i, j - 1, north_c(i, j - 1), 3));
+            }
+            let mut d = 0.0;
+            for (qi, qj, c, dir) in nbs {
+                match owner(qi, qj) {
+                    0 => {
+                        d += c;
+                        if dir == 0 {
+                            s.east[p] = c;
+                        } else if dir == 2 {
+                            s.north[p] = c;
+                        }
+                    }
+                    o => {
+                        let w = c / theta(i + j);
+                        d += w;
+                        if o == 1 {
+                            b[p] += w;
+                        }
+                    }
+                }
+            }
+            if i == nx - 1 {
+                // Open side: a Robin term.
+                d += 0.3 * north_c(i, j.min(ny - 2));
+            }
+            s.diag[p] = d;
+            b[p] += 1e-3 * src[p].abs();
+        }
+    }
+    (s, b)
+}
+
+fn solve_mg(a: &Stencil5, b: &[f64], options: &Options, tol: f64) -> (Vec<f64>, Info) {
+    let h = Hierarchy::with_options(a, options);
+    let mut x = vec![0.0; a.len()];
+    let info = h
+        .solve(
+            a,
+            b,
+            &mut x,
+            &Params {
+                tol,
+                ..Params::default()
+            },
+        )
+        .unwrap();
+    assert!(rel_residual(a, b, &x) <= tol, "{info:?}");
+    (x, info)
+}
+
+/// Options that coarsen down to a few nodes, so small test lattices use several levels.
+fn deep() -> Options {
+    Options {
+        coarsest_nodes: 16,
+        ..Options::default()
+    }
+}
+
+#[test]
+fn v_cycle_alone_reduces_poisson_error_by_a_large_factor() {
+    let a = Stencil5::dirichlet_box(129, 129, |_, _| 1.0);
+    let h = Hierarchy::with_options(&a, &deep());
+    assert!(h.lattices().len() >= 5);
+    let mut ws = Workspace::new(&h);
+    // Stationary iteration x <- x + M^-1 (0 - A x): the iterate is the error.
+    let mut x: Vec<f64> = noise(a.len(), 3)
+        .iter()
+        .zip(&a.unknown)
+        .map(|(v, &u)| if u { *v } else { 0.0 })
+        .collect();
+    let energy = |x: &[f64]| {
+        let mut ax = vec![0.0; x.len()];
+        a.apply(x, &mut ax);
+        parallel::dot(x, &ax).sqrt()
+    };
+    let e0 = energy(&x);
+    let (mut r, mut z) = (vec![0.0; a.len()], vec![0.0; a.len()]);
+    let cycles = 6;
+    for _ in 0..cycles {
+        a.apply(&x, &mut r);
+        r.iter_mut().for_each(|v| *v = -*v);
+        cycle::vcycle(&h, &a, &mut ws, &r, &mut z);
+        x.iter_mut().zip(&z).for_each(|(x, z)| *x += z);
+    }
+    let factor = (energy(&x) / e0).powf(1.0 / cycles as f64);
+    assert!(factor < 0.2, "energy-norm reduction per V-cycle {factor}");
+}
+
+#[test]
+fn preconditioner_is_symmetric_and_keeps_fixed_nodes_at_zero() {
+    let (a, _) = hard_problem(Hard::new(61, 46));
+    let h = Hierarchy::with_options(&a, &deep());
+    let mut ws = Workspace::new(&h);
+    let free = |v: Vec<f64>| -> Vec<f64> {
+        v.iter()
+            .zip(&a.unknown)
+            .map(|(v, &u)| if u { *v } else { 0.0 })
+            .collect()
+    };
+    let (r1, r2) = (free(noise(a.len(), 11)), free(noise(a.len(), 12)));
+    let (mut z1, mut z2) = (vec![0.0; a.len()], vec![0.0; a.len()]);
+    cycle::vcycle(&h, &a, &mut ws, &r1, &mut z1);
+    cycle::vcycle(&h, &a, &mut ws, &r2, &mut z2);
+    let (d12, d21) = (parallel::dot(&z1, &r2), parallel::dot(&z2, &r1));
+    assert!(
+        (d12 - d21).abs() <= 1e-10 * d12.abs().max(d21.abs()),
+        "{d12} vs {d21}"
+    );
+    assert!(parallel::dot(&z1, &r1) > 0.0);
+    for p in 0..a.len() {
+        if !a.unknown[p] {
+            assert_eq!(z1[p], 0.0, "fixed node {p} moved");
+        }
+    }
+}
+
+#[test]
+fn restriction_is_the_transpose_of_prolongation_on_every_level() {
+    let (a, _) = hard_problem(Hard::new(38, 29));
+    let h = Hierarchy::with_options(&a, &deep());
+    assert!(h.levels.len() >= 3);
+    let c = &h.levels[0];
+    // Fine level: with z = 0 and zero residual on black nodes, restriction sees r exactly.
+    let r: Vec<f64> = noise(a.len(), 5)
+        .iter()
+        .enumerate()
+        .map(|(p, v)| {
+            if (p % a.nx + p / a.nx) % 2 == 0 && a.unknown[p] {
+                *v
+            } else {
+                0.0
+            }
+        })
+        .collect();
+    let ec: Vec<f64> = noise(c.padded_len(), 6)
+        .iter()
+        .zip(&c.unknown)
+        .map(|(v, &u)| if u { *v } else { 0.0 })
+        .collect();
+    let mut sbuf =
+        vec![0.0; interpolation::interior_count(a.nx) * interpolation::interior_count(a.ny)];
+    let mut bc = vec![0.0; c.padded_len()];
+    restrict_fine(&a, &r, &vec![0.0; a.len()], &mut sbuf, c, &mut bc);
+    let mut pe = vec![0.0; a.len()];
+    prolong_fine(&a, &mut pe, c, &ec);
+    let (lhs, rhs) = (parallel::dot(&pe, &r), parallel::dot(&ec, &bc));
+    assert!(
+        (lhs - rhs).abs() <= 1e-12 * lhs.abs().max(1.0),
+        "{lhs} vs {rhs}"
+    );
+    for k in 0..h.levels.len() - 1 {
+        let (l, c) = (&h.levels[k], &h.levels[k + 1]);
+        let masked = |v: Vec<f64>, lv: &Level| -> Vec<f64> {
+            v.iter()
+                .zip(&lv.unknown)
+                .map(|(v, &u)| if u { *v } else { 0.0 })
+                .collect()
+        };
+        let r = masked(noise(l.padded_len(), 20 + k as u64), l);
+        let ec = masked(noise(c.padded_len(), 40 + k as u64), c);
+        let mut rr = r.clone();
+        let mut bc = vec![0.0; c.padded_len()];
+        restrict_coarse(l, &mut rr, c, &mut bc);
+        let (mut pe, mut scratch) = (vec![0.0; l.padded_len()], vec![0.0; l.padded_len()]);
+        prolong_coarse(l, &mut pe, &mut scratch, c, &ec);
+        let (lhs, rhs) = (parallel::dot(&pe, &r), parallel::dot(&ec, &bc));
+        assert!(
+            (lhs - rhs).abs() <= 1e-12 * lhs.abs().max(1.0),
+            "level {k}: {lhs} vs {rhs}"
+        );
+    }
+}
+
+#[test]
+fn coarse_operator_is_the_galerkin_product() {
+    let (a, _) = hard_problem(Hard::new(21, 18));
+    let h = Hierarchy::with_options(&a, &deep());
+    let c = &h.levels[0];
+    // Basis functions of coarse nodes: P e_K.
+    let basis = |ic: usize, jc: usize| -> Vec<f64> {
+        let mut e = vec![0.0; c.padded_len()];
+        e[c.idx(ic, jc)] = 1.0;
+        let mut v = vec![0.0; a.len()];
+        prolong_fine(&a, &mut v, c, &e);
+        v
+    };
+    let mut checked = 0;
+    for jc in 0..c.ny {
+        for ic in 0..c.nx {
+            let p = c.idx(ic, jc);
+            if !c.unknown[p] {
+                assert_eq!(c.coef[p], [1.0, 0.0, 0.0, 0.0, 0.0]);
+                continue;
+            }
+            let phi = basis(ic, jc);
+            let mut aphi = vec![0.0; a.len()];
+            a.apply(&phi, &mut aphi);
+            let k = c.coef[p];
+            let mut check = |di: isize, dj: isize, stored: f64| {
+                let (qi, qj) = (ic as isize + di, jc as isize + dj);
+                if qi < 0 || qj < 0 || qi as usize >= c.nx || qj as usize >= c.ny {
+                    assert_eq!(stored, 0.0);
+                    return;
+                }
+                let exact = parallel::dot(&basis(qi as usize, qj as usize), &aphi);
+                let want = if di == 0 && dj == 0 { exact } else { -exact };
+                assert!(
+                    (stored - want).abs() <= 1e-12 * k[0].abs(),
+                    "({ic},{jc}) + ({di},{dj}): {stored} vs {want}"
+                );
+                checked += 1;
+            };
+            check(0, 0, k[0]);
+            check(1, 0, k[1]);
+            check(0, 1, k[2]);
+            check(1, 1, k[3]);
+            check(-1, 1, k[4]);
+        }
+    }
+    assert!(checked > 100);
+}
+
+#[test]
+fn converges_on_jump_problem_with_contrast_1000() {
+    let (a, b) = jump_problem(97, 1000.0);
+    let (_, info) = solve_mg(&a, &b, &Options::default(), 1e-8);
+    assert!(info.iterations <= 15, "{info:?}");
+}
+
+#[test]
+fn converges_with_a_thin_conductor_and_contrast_1000() {
+    let (a, b) = hard_problem(Hard::new(129, 101));
+    let (_, info) = solve_mg(&a, &b, &deep(), 1e-8);
+    assert!(info.iterations <= 20, "{info:?}");
+}
+
+#[test]
+fn iteration_count_stays_bounded_as_the_grid_is_refined() {
+    let counts: Vec<usize> = [33, 65, 129, 257]
+        .iter()
+        .map(|&n| {
+            let (a, b) = hard_problem(Hard::new(n, n));
+            solve_mg(&a, &b, &deep(), 1e-8).1.iterations
+        })
+        .collect();
+    let (lo, hi) = (counts.iter().min().unwrap(), counts.iter().max().unwrap());
+    assert!(hi - lo <= 2, "iterations {counts:?}");
+}
+
+#[test]
+fn odd_even_and_thin_lattices_converge() {
+    for (nx, ny) in [
+        (64, 47),
+        (50, 50),
+        (31, 80),
+        (120, 9),
+        (7, 90),
+        (3, 40),
+        (40, 3),
+    ] {
+        let (a, b) = hard_problem(Hard {
+            nx,
+            ny,
+            contrast: 50.0,
+            theta: 0.05,
+            aspect: 0.93,
+        });
+        let (_, info) = solve_mg(&a, &b, &deep(), 1e-8);
+        assert!(info.iterations <= 25, "{nx}x{ny}: {info:?}");
+    }
+}
+
+#[test]
+fn fixed_nodes_stay_exactly_zero() {
+    let (a, b) = hard_problem(Hard::new(70, 55));
+    let (x, _) = solve_mg(&a, &b, &deep(), 1e-10);
+    assert!(a.unknown.iter().any(|u| !u));
+    for p in 0..a.len() {
+        if !a.unknown[p] {
+            assert_eq!(x[p], 0.0, "fixed node {p}");
+        }
+    }
+}
+
+#[test]
+fn agrees_with_jacobi_cg() {
+    let (a, b) = hard_problem(Hard {
+        contrast: 100.0,
+        ..Hard::new(65, 57)
+    });
+    let tol = 1e-11;
+    let (x, _) = solve_mg(&a, &b, &deep(), tol);
+    let mut xc = vec![0.0; a.len()];
+    cg::solve(
+        &a,
+        &b,
+        &mut xc,
+        &Params {
+            tol,
+            max_iter: 100_000,
+            ..Params::default()
+        },
+    )
+    .unwrap();
+    let scale = xc.iter().fold(0.0f64, |m, v| m.max(v.abs()));
+    let diff = x
+        .iter()
+        .zip(&xc)
+        .fold(0.0f64, |m, (a, b)| m.max((a - b).abs()));
+    assert!(
+        diff <= 1e-7 * scale,
+        "max difference {diff} (scale {scale})"
+    );
+}
+
+#[test]
+fn results_are_bit_identical_for_any_thread_count() {
+    // Large enough that every fine pass and the first coarse level run in parallel.
+    let (a, b) = hard_problem(Hard::new(181, 170));
+    let run = |threads: usize| {
+        rayon::ThreadPoolBuilder::new()
+            .num_threads(threads)
+            .build()
+            .unwrap()
+            .install(|| {
+                let h = Hierarchy::new(&a);
+                let mut xs = vec![vec![0.0; a.len()]; 2];
+                let bs = vec![
+                    b.clone(),
+                    b.iter()
+                        .map(|v| 2.0 * v + 1e-4)
+                        .zip(&a.unknown)
+                        .map(|(v, &u)| if u { v } else { 0.0 })
+                        .collect(),
+                ];
+                let infos: Vec<Info> = h
+                    .solve_many(&a, &bs, &mut xs, &Params::default())
+                    .into_iter()
+                    .map(Result::unwrap)
+                    .collect();
+                (xs, infos)
+            })
+    };
+    let (x1, i1) = run(1);
+    for t in [2, 3] {
+        let (xt, it) = run(t);
+        assert_eq!(i1, it);
+        for (u, v) in x1.iter().zip(&xt) {
+            assert!(
+                u.iter().zip(v).all(|(a, b)| a.to_bits() == b.to_bits()),
+                "{t} threads differ"
+            );
+        }
+    }
+}
+
+#[test]
+fn a_lattice_at_most_the_coarsest_size_is_solved_directly() {
+    let (a, b) = hard_problem(Hard::new(20, 17));
+    let (_, info) = solve_mg(&a, &b, &Options::default(), 1e-10);
+    assert!(info.iterations <= 2, "{info:?}");
+}
