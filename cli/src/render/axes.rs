@@ -1,0 +1,199 @@
+//! Round numbers for axes, colour bars and contour levels, and how they are written.
+//!
+//! Invariants: steps are 1, 2 or 5 times a power of ten; ticks are whole multiples of the step
+//! inside the closed range (to a relative 1e-9); labels of one axis share one number of
+//! decimals; negative numbers use the minus sign U+2212; SI prefixes run from femto to peta.
+
+/// The 1-2-5 step nearest above `raw` (> 0).
+pub fn nice_step(raw: f64) -> f64 {
+    assert!(
+        raw > 0.0 && raw.is_finite(),
+        "step must be positive, got {raw}"
+    );
+    let e = raw.log10().floor();
+    let p = 10f64.powf(e);
+    let m = raw / p;
+    let k = if m <= 1.0 + 1e-9 {
+        1.0
+    } else if m <= 2.0 + 1e-9 {
+        2.0
+    } else if m <= 5.0 + 1e-9 {
+        5.0
+    } else {
+        10.0
+    };
+    k * p
+}
+
+/// Multiples of `step` inside [lo, hi] (ends included to a relative 1e-9).
+pub fn multiples(lo: f64, hi: f64, step: f64) -> Vec<f64> {
+    let slack = 1e-9 * (hi - lo).abs().max(step);
+    let k0 = ((lo - slack) / step).ceil() as i64;
+    let k1 = ((hi + slack) / step).floor() as i64;
+    (k0..=k1)
+        .map(|k| if k == 0 { 0.0 } else { k as f64 * step })
+        .collect()
+}
+
+/// Round ticks over [lo, hi], at most `max` of them (at least 2 when the range allows):
+/// returns the step and the ticks.
+pub fn ticks(lo: f64, hi: f64, max: usize) -> (f64, Vec<f64>) {
+    let span = (hi - lo).abs().max(f64::MIN_POSITIVE);
+    let mut step = nice_step(span / max.max(1) as f64);
+    loop {
+        let t = multiples(lo, hi, step);
+        if t.len() <= max.max(2) {
+            return (step, t);
+        }
+        step = nice_step(step * 1.5);
+    }
+}
+
+/// Decimals needed to write multiples of `step` exactly.
+pub fn decimals(step: f64) -> usize {
+    let d = (-step.log10() - 1e-9).ceil();
+    if d > 0.0 {
+        (d as usize).min(15)
+    } else {
+        0
+    }
+}
+
+/// Writes `v` with `dec` decimals, minus sign U+2212, no "-0".
+pub fn fixed(v: f64, dec: usize) -> String {
+    let s = format!("{:.*}", dec, v.abs());
+    let zero = s.bytes().all(|b| b == b'0' || b == b'.');
+    if v < 0.0 && !zero {
+        format!("\u{2212}{s}")
+    } else {
+        s
+    }
+}
+
+/// A tick label for `v` on an axis of step `step`: fixed decimals for everyday magnitudes,
+/// otherwise mantissa and exponent ("2.5e−7").
+pub fn tick_label(v: f64, step: f64) -> String {
+    let e = step.log10().floor();
+    if (-5.0..=6.0).contains(&e) {
+        fixed(v, decimals(step))
+    } else if v == 0.0 {
+        "0".to_string()
+    } else {
+        let ev = v.abs().log10().floor();
+        let mant = v / 10f64.powf(ev);
+        let dec = decimals(step / 10f64.powf(ev)).min(6);
+        format!("{}e{}", fixed(mant, dec), fixed(ev, 0))
+    }
+}
+
+const PREFIXES: [(i32, &str); 11] = [
+    (-15, "f"),
+    (-12, "p"),
+    (-9, "n"),
+    (-6, "µ"),
+    (-3, "m"),
+    (0, ""),
+    (3, "k"),
+    (6, "M"),
+    (9, "G"),
+    (12, "T"),
+    (15, "P"),
+];
+
+/// The SI prefix exponent (multiple of 3) for numbers up to `magnitude` in size.
+pub fn prefix_exponent(magnitude: f64) -> i32 {
+    if !(magnitude.is_finite() && magnitude > 0.0) {
+        return 0;
+    }
+    // A hair of slack so that 999.9999999 and 1000 pick the same prefix.
+    let e = ((magnitude * (1.0 + 1e-9)).log10() / 3.0).floor() as i32 * 3;
+    e.clamp(-15, 15)
+}
+
+/// The prefix symbol of a multiple-of-3 exponent in [-15, 15].
+pub fn prefix(exp3: i32) -> &'static str {
+    PREFIXES
+        .iter()
+        .find(|p| p.0 == exp3)
+        .map(|p| p.1)
+        .unwrap_or("")
+}
+
+/// `v` written with its own SI prefix and up to 3 significant digits: "250 k", "1.5 M", "3 m".
+pub fn si(v: f64) -> String {
+    if v == 0.0 {
+        return "0".to_string();
+    }
+    let e = prefix_exponent(v.abs());
+    let m = v / 10f64.powi(e);
+    let dec = if m.abs() >= 100.0 {
+        0
+    } else if m.abs() >= 10.0 {
+        1
+    } else {
+        2
+    };
+    let mut s = fixed(m, dec);
+    if s.contains('.') {
+        while s.ends_with('0') {
+            s.pop();
+        }
+        if s.ends_with('.') {
+            s.pop();
+        }
+    }
+    let p = prefix(e);
+    if p.is_empty() {
+        s
+    } else {
+        format!("{s} {p}")
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn steps_are_one_two_five() {
+        assert_eq!(nice_step(0.7), 1.0);
+        assert_eq!(nice_step(1.0), 1.0);
+        assert_eq!(nice_step(1.3), 2.0);
+        assert_eq!(nice_step(3.0), 5.0);
+        assert_eq!(nice_step(7.0), 10.0);
+        assert!((nice_step(0.013) - 0.02).abs() < 1e-15);
+        assert!((nice_step(2.4e5) - 5e5).abs() < 1e-6);
+    }
+
+    #[test]
+    fn ticks_stay_in_range_and_under_the_count() {
+        let (step, t) = ticks(0.0, 10.0, 6);
+        assert_eq!(step, 2.0);
+        assert_eq!(t, vec![0.0, 2.0, 4.0, 6.0, 8.0, 10.0]);
+        let (_, t) = ticks(-0.37, 0.52, 5);
+        assert!(t.len() <= 5 && t.len() >= 2);
+        assert!(t.iter().all(|&v| (-0.37..=0.52).contains(&v)));
+        // A range narrower than float noise must still end with few ticks, inside it.
+        let (_, t) = ticks(1.0, 1.0 + 1e-12, 5);
+        assert!(
+            t.len() <= 5 && t.iter().all(|&v| (1.0 - 1e-15..=1.0 + 2e-12).contains(&v)),
+            "{t:?}"
+        );
+    }
+
+    #[test]
+    fn labels_are_written_plainly() {
+        assert_eq!(tick_label(0.5, 0.5), "0.5");
+        assert_eq!(tick_label(-2.0, 1.0), "\u{2212}2");
+        assert_eq!(tick_label(-0.0, 0.1), "0.0");
+        assert_eq!(tick_label(1.25, 0.05), "1.25");
+        assert_eq!(tick_label(3.0e-7, 1.0e-7), "3e\u{2212}7");
+        assert_eq!(si(2.5e5), "250 k");
+        assert_eq!(si(1.0e6), "1 M");
+        assert_eq!(si(1.5e-3), "1.5 m");
+        assert_eq!(si(4.0), "4");
+        assert_eq!(prefix(prefix_exponent(1.2e6)), "M");
+        assert_eq!(prefix(prefix_exponent(999.0)), "");
+        assert_eq!(prefix(prefix_exponent(1000.0)), "k");
+    }
+}
