@@ -71,6 +71,9 @@ pub struct SolveArgs {
     /// Also write the full-grid table `field.csv` (one row per node).
     #[arg(long)]
     pub field_table: bool,
+    /// Draw field.png on a logarithmic scale.
+    #[arg(long)]
+    pub log_field: bool,
     /// Exit with code 1 when any hot spot's margin is below this value.
     #[arg(long)]
     pub min_margin: Option<f64>,

@@ -9,6 +9,7 @@ pub mod commands;
 pub mod design_file;
 pub mod error;
 pub mod outdir;
+pub mod pictures;
 pub mod render;
 pub mod summary;
 

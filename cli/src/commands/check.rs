@@ -22,6 +22,7 @@ pub fn run(args: &CheckArgs) -> Result<u8, Failure> {
     });
     if let Some(dir) = &args.out {
         let out = OutDir::prepare(dir)?;
+        out.write_png("preview.png", &crate::pictures::preview(&src))?;
         out.write(
             "check.json",
             &serde_json::to_vec_pretty(&report)

@@ -24,6 +24,9 @@ pub fn run(args: &SolveArgs) -> Result<u8, Failure> {
     }
     let summary = Summary::from_solution(&sol, src.design.depth, seconds, &src.text_hash);
     write_results(&out, &sol, &summary, &src.design, args.field_table)?;
+    let (potential_png, field_png) = crate::pictures::field_maps(&src, &sol, args.log_field);
+    out.write_png("potential.png", &potential_png)?;
+    out.write_png("field.png", &field_png)?;
     if !args.opts.quiet {
         print!("{}", report(&sol, &summary, &out));
     }
