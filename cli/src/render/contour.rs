@@ -123,7 +123,7 @@ fn split_off_frame(pts: &[P], w: f64, h: f64, out: &mut Vec<Vec<P>>) {
 /// The samples with every NaN replaced: three rounds of averaging the valued 8-neighbours grow
 /// the field smoothly into the holes, the rest take the smallest value. `None` if no sample
 /// has a value.
-fn fill_missing(s: &Samples) -> Option<Vec<f64>> {
+pub fn fill_missing(s: &Samples) -> Option<Vec<f64>> {
     let mut v = s.v.clone();
     let lo = v
         .iter()

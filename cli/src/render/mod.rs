@@ -3,9 +3,10 @@
 //!
 //! A map is the node values resampled to the plot's pixels ([`sample`]), coloured with one of
 //! our perceptually uniform maps ([`colormap`]), with equipotential lines at round values
-//! ([`contour`]), conductors filled grey, outlined and named, dielectric outlines dashed, hot
-//! spots marked and numbered, round axis ticks in the design's length unit ([`axes`]), a colour
-//! bar with values and the SI unit, and a title, in an embedded open font ([`text`]).
+//! ([`contour`]), optional field lines seeded by surface charge ([`fieldlines`]), conductors
+//! filled grey, outlined and named, dielectric outlines dashed, hot spots marked and numbered,
+//! round axis ticks in the design's length unit ([`axes`]), a colour bar with values and the
+//! SI unit, and a title, in an embedded open font ([`text`]).
 //!
 //! Invariants:
 //! - The output is a pure function of the input: same input, same pixels.
@@ -21,6 +22,7 @@ pub mod axes;
 pub mod canvas;
 pub mod colormap;
 pub mod contour;
+pub mod fieldlines;
 pub mod outline;
 pub mod sample;
 pub mod text;
@@ -104,6 +106,15 @@ pub enum Palette {
     Diverging,
 }
 
+/// Field lines over a map, seeded on the conductors in proportion to their surface charge.
+#[derive(Clone, Copy, Debug)]
+pub struct FieldLines<'a> {
+    /// Potential per node (index i + j*nx), V; NaN inside conductors is fine.
+    pub potential: &'a [f64],
+    /// About how many lines (all conductors together).
+    pub count: usize,
+}
+
 /// A field map to draw.
 #[derive(Clone, Copy, Debug)]
 pub struct MapInput<'a> {
@@ -135,6 +146,8 @@ pub struct MapInput<'a> {
     pub palette: Palette,
     /// Value range of the colour bar (SI); `None` for the range of the values.
     pub range: Option<[f64; 2]>,
+    /// Field lines, if wanted.
+    pub field_lines: Option<FieldLines<'a>>,
 }
 
 impl<'a> MapInput<'a> {
@@ -156,6 +169,7 @@ impl<'a> MapInput<'a> {
             scale: Scale::Linear,
             palette: Palette::Auto,
             range: None,
+            field_lines: None,
         }
     }
 }
@@ -1019,10 +1033,10 @@ fn draw_contours(
                 .iter()
                 .map(|p| [p[0] + off[0], p[1] + off[1]])
                 .collect();
-            layer.polyline(&pts, 1.1, false);
+            layer.polyline(&pts, 1.3, false);
         }
     }
-    layer.composite_with(img, 0.8, mask, contrast_ink);
+    layer.composite_with(img, 0.85, mask, contrast_ink);
     // Labels: up to two per level, on the longest pieces, clear of everything placed so far.
     let st = Style::new(11.0, INK);
     for (iso, (_, label)) in lines.iter().zip(levels) {
@@ -1053,6 +1067,99 @@ fn draw_contours(
             }
         }
     }
+}
+
+/// Traces and draws field lines with an arrowhead half-way along each.
+fn draw_field_lines(
+    img: &mut RgbImage,
+    plot: &Plot,
+    input: &MapInput,
+    fl: &FieldLines,
+    map_samples: &sample::Samples,
+    masked: &dyn Fn(usize, usize) -> bool,
+) {
+    let grid = input.grid;
+    assert_eq!(
+        fl.potential.len(),
+        grid.len(),
+        "one potential per grid node"
+    );
+    let own;
+    let phi = if std::ptr::eq(fl.potential, input.values) {
+        map_samples
+    } else {
+        own = sample::resample(grid, fl.potential, plot.xr, plot.yr, plot.w, plot.h);
+        &own
+    };
+    let Some(filled) = contour::fill_missing(phi) else {
+        return;
+    };
+    let filled = sample::Samples {
+        w: phi.w,
+        h: phi.h,
+        v: filled,
+    };
+    let k = [
+        plot.w as f64 / (plot.xr[1] - plot.xr[0]),
+        plot.h as f64 / (plot.yr[1] - plot.yr[0]),
+    ];
+    let pot = fieldlines::Potential { s: &filled, k };
+    let (ox, oy) = (plot.x0 as f64, plot.y0 as f64);
+    // A point counts as inside a conductor as soon as one of the four samples its field is
+    // interpolated from is: the filled values there carry no normal field, and a line would
+    // creep along the surface instead of ending on it.
+    let inside = |p: P| {
+        fieldlines::stencil_blocked(phi.w, phi.h, p, |x, y| {
+            masked(x + plot.x0 as usize, y + plot.y0 as usize) || phi.at(x, y).is_nan()
+        })
+    };
+    let local = |pts: &[Point]| -> Vec<P> {
+        pts.iter()
+            .map(|&q| plot.px(q))
+            .map(|q| [q[0] - ox, q[1] - oy])
+            .collect()
+    };
+    let rings: Vec<Vec<P>> = input
+        .conductors
+        .iter()
+        .flat_map(|c| c.rings.iter().map(|r| local(r)))
+        .collect();
+    let lines: Vec<Vec<P>> = input
+        .conductors
+        .iter()
+        .flat_map(|c| c.lines.iter().map(|l| local(l)))
+        .collect();
+    // Seeds sit just clear of the value-less band round a conductor on coarse grids.
+    let cell_px = (grid.hx * k[0]).max(grid.hy * k[1]);
+    let offset = (0.75 * cell_px + 1.0).max(2.5);
+    let seeds = fieldlines::seeds(&pot, &rings, &lines, fl.count, offset, &inside);
+    let (w, h) = img.dimensions();
+    let mut layer = Layer::new(w, h);
+    for seed in seeds {
+        let line = fieldlines::trace(&pot, seed, &inside);
+        let pts: Vec<P> = line.points.iter().map(|p| [p[0] + ox, p[1] + oy]).collect();
+        layer.polyline(&pts, 0.9, false);
+        let len = length(&pts);
+        if len > 40.0 {
+            // Arrowhead pointing along E at the middle.
+            let tip = point_at(&pts, 0.5 * len + 4.0);
+            let back = point_at(&pts, 0.5 * len - 4.0);
+            let d = [tip[0] - back[0], tip[1] - back[1]];
+            let n = d[0].hypot(d[1]);
+            if n > 0.0 {
+                let u = [d[0] / n, d[1] / n];
+                for side in [1.0, -1.0] {
+                    let (c, s) = (0.45f64.cos(), side * 0.45f64.sin());
+                    let wing = [
+                        tip[0] - 7.0 * (u[0] * c - u[1] * s),
+                        tip[1] - 7.0 * (u[1] * c + u[0] * s),
+                    ];
+                    layer.segment(tip, wing, 1.2);
+                }
+            }
+        }
+    }
+    layer.composite_with(img, 0.55, masked, contrast_ink);
 }
 
 fn length(p: &[P]) -> f64 {
@@ -1167,6 +1274,9 @@ fn draw_map(input: &MapInput, opts: &RenderOptions) -> (RgbImage, Plot) {
     };
     let mut taken = mark_boxes(&plot, input.markers);
     let names = place_names(&plot, input.conductors, input.dielectrics, &mut taken);
+    if let Some(fl) = input.field_lines {
+        draw_field_lines(&mut img, &plot, input, &fl, &samples, &masked);
+    }
     let levels = cs.levels(input.contours, input.unit);
     if !levels.is_empty() {
         draw_contours(&mut img, &plot, &samples, &levels, &masked, &mut taken);

@@ -1,0 +1,369 @@
+//! Field lines: seeded on the conductors' surfaces in proportion to their surface charge and
+//! traced along the electric field of the potential samples.
+//!
+//! Construction: just outside every conductor outline the normal field E_n (proportional to
+//! the surface charge density, sigma = eps E_n) is integrated along the outline; the lines are
+//! spread so that each carries the same share of that flux (Faraday's picture: line density
+//! follows charge). Lines start on the positive charge, unless the negative carries more than
+//! twice the flux (a design driven negative), and run along E (or against it, for negative
+//! seeds) until they reach a conductor, the domain's edge or a point without field.
+//!
+//! Invariants: all work is in plot pixel coordinates (x right, y down, sample (i, j) at
+//! (i + 0.5, j + 0.5)); directions are physical even when the axes are not to scale (the
+//! pixel gradient is converted with the pixels-per-metre of each axis); the potential never
+//! rises along a line traced with E from a positive seed (up to the tracer's step error); the
+//! output depends only on the inputs.
+
+use super::canvas::P;
+use super::sample::Samples;
+
+/// Pixel-space potential with the conversion to physical directions.
+pub struct Potential<'a> {
+    /// Potential at pixel centres, no NaN (holes filled).
+    pub s: &'a Samples,
+    /// Pixels per metre along x and along y.
+    pub k: [f64; 2],
+}
+
+impl Potential<'_> {
+    /// Gradient of the bilinear potential in pixel coordinates, volts per pixel.
+    fn grad(&self, p: P) -> [f64; 2] {
+        let (w, h) = (self.s.w, self.s.h);
+        if w < 2 || h < 2 {
+            return [0.0, 0.0];
+        }
+        let u = (p[0] - 0.5).clamp(0.0, (w - 1) as f64);
+        let v = (p[1] - 0.5).clamp(0.0, (h - 1) as f64);
+        let i = (u.floor() as usize).min(w - 2);
+        let j = (v.floor() as usize).min(h - 2);
+        let (fx, fy) = (u - i as f64, v - j as f64);
+        let a = |x: usize, y: usize| self.s.v[x + y * w];
+        let (v00, v10, v01, v11) = (a(i, j), a(i + 1, j), a(i, j + 1), a(i + 1, j + 1));
+        [
+            (v10 - v00) * (1.0 - fy) + (v11 - v01) * fy,
+            (v01 - v00) * (1.0 - fx) + (v11 - v10) * fx,
+        ]
+    }
+
+    /// Bilinear potential at pixel point `p`.
+    fn value(&self, p: P) -> f64 {
+        let (w, h) = (self.s.w, self.s.h);
+        let u = (p[0] - 0.5).clamp(0.0, (w - 1) as f64);
+        let v = (p[1] - 0.5).clamp(0.0, (h - 1) as f64);
+        let i = (u.floor() as usize).min(w.saturating_sub(2));
+        let j = (v.floor() as usize).min(h.saturating_sub(2));
+        let (fx, fy) = (u - i as f64, v - j as f64);
+        let a = |x: usize, y: usize| self.s.v[x.min(w - 1) + y.min(h - 1) * w];
+        (a(i, j) * (1.0 - fx) + a(i + 1, j) * fx) * (1.0 - fy)
+            + (a(i, j + 1) * (1.0 - fx) + a(i + 1, j + 1) * fx) * fy
+    }
+
+    /// Physical field (Ex, Ey) in volts per metre at pixel point `p`.
+    pub fn field(&self, p: P) -> [f64; 2] {
+        let g = self.grad(p);
+        // x = X / kx, y = y1 - Y / ky: Ex = -kx dphi/dX, Ey = +ky dphi/dY.
+        [-self.k[0] * g[0], self.k[1] * g[1]]
+    }
+
+    /// Unit pixel-space direction of the field at `p` (None where it vanishes).
+    fn direction(&self, p: P, floor: f64) -> Option<P> {
+        let e = self.field(p);
+        // A physical displacement (dx, dy) is (kx dx, -ky dy) in pixels.
+        let d = [self.k[0] * e[0], -self.k[1] * e[1]];
+        let n = d[0].hypot(d[1]);
+        (n > floor && n.is_finite()).then(|| [d[0] / n, d[1] / n])
+    }
+}
+
+/// True when any of the four samples the field at `p` is interpolated from (on a `w` x `h`
+/// raster) is `blocked`; points outside the raster are blocked.
+pub fn stencil_blocked(w: usize, h: usize, p: P, blocked: impl Fn(usize, usize) -> bool) -> bool {
+    if !(p[0] >= 0.0 && p[1] >= 0.0 && p[0] <= w as f64 && p[1] <= h as f64) {
+        return true;
+    }
+    let (i, j) = ((p[0] - 0.5).floor() as i64, (p[1] - 0.5).floor() as i64);
+    let cx = |i: i64| i.clamp(0, w as i64 - 1) as usize;
+    let cy = |j: i64| j.clamp(0, h as i64 - 1) as usize;
+    blocked(cx(i), cy(j))
+        || blocked(cx(i + 1), cy(j))
+        || blocked(cx(i), cy(j + 1))
+        || blocked(cx(i + 1), cy(j + 1))
+}
+
+/// A traced line: points in plot pixels, in the direction of the field.
+#[derive(Clone, Debug, PartialEq)]
+pub struct FieldLine {
+    /// Points from the start (positive end) to the finish, along E.
+    pub points: Vec<P>,
+}
+
+/// Where a line starts: a pixel point just outside a conductor and whether it runs with the
+/// field (+1) or against it (-1).
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Seed {
+    /// Start, plot pixels.
+    pub at: P,
+    /// +1 along E, -1 against.
+    pub sign: f64,
+}
+
+/// Places about `count` seeds `offset` px outside the outlines (closed rings and open lines,
+/// plot pixels), spaced by equal normal flux. `inside(p)` tells points inside a conductor.
+pub fn seeds(
+    pot: &Potential,
+    rings: &[Vec<P>],
+    lines: &[Vec<P>],
+    count: usize,
+    offset: f64,
+    inside: &dyn Fn(P) -> bool,
+) -> Vec<Seed> {
+    // (seed point, signed flux through this piece)
+    let mut pieces: Vec<(P, f64)> = Vec::new();
+    let mut walk = |path: &[P], closed: bool, both_sides: bool| {
+        let n = path.len();
+        let segs = if closed { n } else { n.saturating_sub(1) };
+        for k in 0..segs {
+            let (a, b) = (path[k], path[(k + 1) % n]);
+            let len = (b[0] - a[0]).hypot(b[1] - a[1]);
+            if len == 0.0 {
+                continue;
+            }
+            let t = [(b[0] - a[0]) / len, (b[1] - a[1]) / len];
+            let steps = len.ceil() as usize;
+            for s in 0..steps {
+                let f = (s as f64 + 0.5) / steps as f64;
+                let m = [a[0] + (b[0] - a[0]) * f, a[1] + (b[1] - a[1]) * f];
+                for side in [1.0, -1.0] {
+                    let nrm = [side * t[1], -side * t[0]];
+                    let q = [m[0] + offset * nrm[0], m[1] + offset * nrm[1]];
+                    if inside(q)
+                        || (!both_sides
+                            && inside([m[0] - offset * nrm[0], m[1] - offset * nrm[1]])
+                                == inside(q))
+                    {
+                        continue;
+                    }
+                    // Physical piece: tangent (tX / kx, -tY / ky) per pixel, normal outward.
+                    let tp = [t[0] / pot.k[0], -t[1] / pot.k[1]];
+                    let ds = tp[0].hypot(tp[1]) * len / steps as f64;
+                    let mut np = [tp[1], -tp[0]];
+                    let out = [nrm[0] / pot.k[0], -nrm[1] / pot.k[1]];
+                    if np[0] * out[0] + np[1] * out[1] < 0.0 {
+                        np = [-np[0], -np[1]];
+                    }
+                    let nl = np[0].hypot(np[1]);
+                    let e = pot.field(q);
+                    let flux = (e[0] * np[0] + e[1] * np[1]) / nl * ds;
+                    if flux.is_finite() {
+                        pieces.push((q, flux));
+                    }
+                }
+            }
+        }
+    };
+    for r in rings {
+        walk(r, true, false);
+    }
+    for l in lines {
+        walk(l, false, true);
+    }
+    let pos: f64 = pieces.iter().map(|p| p.1.max(0.0)).sum();
+    let neg: f64 = pieces.iter().map(|p| (-p.1).max(0.0)).sum();
+    let sign = if pos >= 0.5 * neg { 1.0 } else { -1.0 };
+    let total = if sign > 0.0 { pos } else { neg };
+    if count == 0 || total.is_nan() || total <= 0.0 {
+        return Vec::new();
+    }
+    let spacing = total / count as f64;
+    let mut out = Vec::new();
+    let mut acc = 0.0;
+    let mut next = 0.5 * spacing;
+    for (q, flux) in pieces {
+        let f = sign * flux;
+        if f <= 0.0 {
+            continue;
+        }
+        acc += f;
+        while acc >= next && out.len() < count {
+            out.push(Seed { at: q, sign });
+            next += spacing;
+        }
+    }
+    out
+}
+
+/// Traces a line from `seed` with steps of half a pixel (midpoint rule) until it enters a
+/// conductor, leaves the plot, reaches a point without field, would climb the potential
+/// (going with E it must fall: a rise means the line has met the interpolation's ridge just
+/// outside a conductor, or a saddle) or has taken a bounded number of steps. The points run
+/// along E whatever the seed's sign.
+pub fn trace(pot: &Potential, seed: Seed, inside: &dyn Fn(P) -> bool) -> FieldLine {
+    const H: f64 = 0.5;
+    let (w, h) = (pot.s.w as f64, pot.s.h as f64);
+    let max_steps = (3.0 * (w + h) / H) as usize;
+    // Field below this (per pixel of travel) counts as none: a millionth of the typical one.
+    let span = pot
+        .s
+        .v
+        .iter()
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &v| {
+            (a.min(v), b.max(v))
+        });
+    let floor = 1e-9 * (span.1 - span.0).abs() * pot.k[0].max(pot.k[1]) / (w + h);
+    let mut pts = vec![seed.at];
+    let mut p = seed.at;
+    let mut level = seed.sign * pot.value(p);
+    for _ in 0..max_steps {
+        let Some(d1) = pot.direction(p, floor) else {
+            break;
+        };
+        let mid = [
+            p[0] + seed.sign * d1[0] * H / 2.0,
+            p[1] + seed.sign * d1[1] * H / 2.0,
+        ];
+        let Some(d2) = pot.direction(mid, floor) else {
+            break;
+        };
+        let q = [p[0] + seed.sign * d2[0] * H, p[1] + seed.sign * d2[1] * H];
+        if !(q[0] >= 0.0 && q[1] >= 0.0 && q[0] <= w && q[1] <= h) {
+            break;
+        }
+        let next = seed.sign * pot.value(q);
+        if next > level {
+            break;
+        }
+        level = next;
+        pts.push(q);
+        p = q;
+        if inside(q) {
+            break;
+        }
+    }
+    if seed.sign < 0.0 {
+        pts.reverse();
+    }
+    FieldLine { points: pts }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// A coaxial pair: inner conductor radius a at 1 V, potential ln(R/r)/ln(R/a) between
+    /// (the coaxial line's closed form, common practice), on a 200 x 200 pixel raster.
+    fn coax() -> (Samples, P, f64) {
+        let (w, h) = (200, 200);
+        let c = [100.0, 100.0];
+        let (a, rr) = (20.0, 400.0);
+        let v = (0..w * h)
+            .map(|k| {
+                let r = ((k % w) as f64 + 0.5 - c[0])
+                    .hypot((k / w) as f64 + 0.5 - c[1])
+                    .max(a);
+                (rr / r).ln() / (rr / a).ln()
+            })
+            .collect();
+        (Samples { w, h, v }, c, a)
+    }
+
+    fn circle(c: P, r: f64, n: usize) -> Vec<P> {
+        (0..n)
+            .map(|k| {
+                let t = std::f64::consts::TAU * k as f64 / n as f64;
+                [c[0] + r * t.cos(), c[1] + r * t.sin()]
+            })
+            .collect()
+    }
+
+    #[test]
+    fn seeds_on_a_uniformly_charged_circle_are_evenly_spaced() {
+        let (s, c, a) = coax();
+        let pot = Potential {
+            s: &s,
+            k: [1000.0, 1000.0],
+        };
+        let inside = |p: P| (p[0] - c[0]).hypot(p[1] - c[1]) < a;
+        let seeds = seeds(&pot, &[circle(c, a, 256)], &[], 12, 2.5, &inside);
+        assert_eq!(seeds.len(), 12);
+        let mut ang: Vec<f64> = seeds
+            .iter()
+            .map(|s| (s.at[1] - c[1]).atan2(s.at[0] - c[0]))
+            .collect();
+        ang.sort_by(|x, y| x.total_cmp(y));
+        for w in ang.windows(2) {
+            let gap = (w[1] - w[0]).to_degrees();
+            assert!((gap - 30.0).abs() < 2.0, "gap {gap} deg");
+        }
+        assert!(seeds.iter().all(|s| s.sign == 1.0));
+    }
+
+    #[test]
+    fn lines_run_radially_and_downhill() {
+        let (s, c, a) = coax();
+        let pot = Potential {
+            s: &s,
+            k: [1000.0, 1000.0],
+        };
+        let inside = |p: P| (p[0] - c[0]).hypot(p[1] - c[1]) < a;
+        for seed in seeds(&pot, &[circle(c, a, 256)], &[], 8, 2.5, &inside) {
+            let line = trace(&pot, seed, &inside);
+            assert!(line.points.len() > 100, "the line reaches the edge");
+            let first = line.points[0];
+            let ang0 = (first[1] - c[1]).atan2(first[0] - c[0]);
+            let mut last = f64::INFINITY;
+            for p in &line.points {
+                // Radial: the angle stays that of the seed.
+                let ang = (p[1] - c[1]).atan2(p[0] - c[0]);
+                assert!((ang - ang0).abs() < 0.02, "{ang} vs {ang0}");
+                let r = (p[0] - c[0]).hypot(p[1] - c[1]);
+                let phi = (400.0 / r).ln();
+                assert!(phi <= last + 1e-12, "potential rose along the line");
+                last = phi;
+            }
+        }
+    }
+
+    #[test]
+    fn negative_conductors_seed_lines_that_run_into_them() {
+        let (mut s, c, a) = coax();
+        for v in &mut s.v {
+            *v = -*v;
+        }
+        let pot = Potential {
+            s: &s,
+            k: [1000.0, 1000.0],
+        };
+        let inside = |p: P| (p[0] - c[0]).hypot(p[1] - c[1]) < a;
+        let seeds = seeds(&pot, &[circle(c, a, 256)], &[], 6, 2.5, &inside);
+        assert!(seeds.len() == 6 && seeds.iter().all(|s| s.sign == -1.0));
+        let line = trace(&pot, seeds[0], &inside);
+        // Points run along E: from the edge inwards, ending at the conductor.
+        let end = *line.points.last().unwrap();
+        assert!(((end[0] - c[0]).hypot(end[1] - c[1]) - a).abs() < 4.0);
+    }
+
+    #[test]
+    fn lines_stop_in_a_valley_instead_of_zigzagging() {
+        // v = |x - 50.3|: the field drives both sides into the valley at x = 50.3.
+        let (w, h) = (100, 20);
+        let v = (0..w * h)
+            .map(|k| ((k % w) as f64 + 0.5 - 50.3).abs())
+            .collect();
+        let s = Samples { w, h, v };
+        let pot = Potential {
+            s: &s,
+            k: [1.0, 1.0],
+        };
+        let line = trace(
+            &pot,
+            Seed {
+                at: [10.0, 10.0],
+                sign: 1.0,
+            },
+            &|_| false,
+        );
+        let end = *line.points.last().unwrap();
+        assert!((end[0] - 50.3).abs() < 1.0, "{end:?}");
+        assert!(line.points.len() < 90, "{} points", line.points.len());
+    }
+}
