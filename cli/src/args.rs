@@ -20,6 +20,9 @@ pub enum Command {
     Solve(SolveArgs),
     /// Validate a design and report its grid and memory needs, without solving.
     Check(CheckArgs),
+    /// Line parameters of a planar cross-section: capacitance and inductance matrices,
+    /// characteristic impedance, effective permittivity, odd/even/differential impedances.
+    Impedance(ImpedanceArgs),
 }
 
 /// Linear solver choice on the command line.
@@ -93,4 +96,25 @@ pub struct CheckArgs {
     /// Print nothing but errors.
     #[arg(long)]
     pub quiet: bool,
+}
+
+/// `fieldgrid impedance`.
+#[derive(Args, Debug)]
+pub struct ImpedanceArgs {
+    /// The design file (TOML), a planar cross-section.
+    pub design: PathBuf,
+    /// The signal conductors, comma-separated; every other conductor is grounded.
+    #[arg(
+        long,
+        value_delimiter = ',',
+        required = true,
+        value_name = "NAME[,NAME...]"
+    )]
+    pub signal: Vec<String>,
+    /// Directory for the results (created if missing).
+    #[arg(long)]
+    pub out: PathBuf,
+    /// Solver options.
+    #[command(flatten)]
+    pub opts: SolveOptions,
 }

@@ -47,6 +47,7 @@ where
     let result = match &cli.command {
         args::Command::Solve(a) => commands::solve::run(a),
         args::Command::Check(a) => commands::check::run(a),
+        args::Command::Impedance(a) => commands::impedance::run(a),
     };
     match result {
         Ok(code) => ExitCode::from(code),

@@ -94,6 +94,9 @@ pub struct ConductorSummary {
     pub potential: f64,
     /// Net charge.
     pub charge: f64,
+    /// Estimated discretisation error of the charge (absent with --no-error-estimate).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub charge_error: Option<f64>,
     /// Force (x, y).
     pub force: [f64; 2],
     /// True for a floating conductor.
@@ -113,6 +116,9 @@ pub struct CapacitanceSummary {
     /// Estimated discretisation error per entry (absent with --no-error-estimate).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub error_estimate: Option<Vec<Vec<f64>>>,
+    /// Convergence order used for the error estimate.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub error_order: Option<f64>,
 }
 
 /// The peak field.
@@ -210,6 +216,7 @@ impl Summary {
                     name: c.name.clone(),
                     potential: c.potential,
                     charge: c.charge,
+                    charge_error: c.charge_error,
                     force: c.force,
                     floating: c.floating,
                 })
@@ -219,6 +226,7 @@ impl Summary {
                 names: sol.capacitance.names.clone(),
                 matrix: sol.capacitance.matrix.clone(),
                 error_estimate: sol.capacitance.error_estimate.clone(),
+                error_order: sol.capacitance.error_model.as_ref().map(|m| m.order),
             },
             energy: sol.energy,
             peak_field: sol.peak_field.as_ref().map(|h| PeakSummary {

@@ -13,6 +13,8 @@
 pub mod design;
 pub mod geometry;
 pub mod grid;
+pub mod line;
+pub mod open;
 pub mod operator;
 pub mod parallel;
 pub mod post;

@@ -9,7 +9,9 @@
 //! node, the distance becomes `theta * h` and the far value is the conductor's potential
 //! (the symmetric boundary treatment of Gibou, Fedkiw, Cheng & Kang, J. Comput. Phys. 176
 //! (2002) 205-227). Symmetry sides close their control volumes with no flux; the axis
-//! carries none either, because the face area there is zero.
+//! carries none either, because the face area there is zero. Open sides add the far-field
+//! (Robin) term of [`crate::open`] to the diagonal of their nodes, recorded as links to the
+//! side's target at 0 V.
 //!
 //! Invariants:
 //! - `stencil` is symmetric with non-negative couplings; fixed nodes have identity rows.
@@ -21,6 +23,7 @@
 
 use crate::design::{Design, Mode, Side};
 use crate::grid::Grid;
+use crate::open;
 use crate::raster::{Axis, HalfLink, Raster, NO_CONDUCTOR};
 use crate::stencil::Stencil5;
 use crate::EPS0;
@@ -266,6 +269,29 @@ impl Faces {
         area / d
     }
 
+    /// Area of node (i, j)'s control-volume face on side `s` (planar: length per unit depth,
+    /// m; axisymmetric: surface of revolution, m^2).
+    fn boundary_area(&self, s: SideId, i: usize, j: usize) -> f64 {
+        let g = &self.grid;
+        match s {
+            SideId::Left | SideId::Right => {
+                if self.axisymmetric {
+                    2.0 * std::f64::consts::PI * g.x(i) * self.len_y(j)
+                } else {
+                    self.len_y(j)
+                }
+            }
+            SideId::Bottom | SideId::Top => {
+                let (lo, hi) = self.span_x(i);
+                if self.axisymmetric {
+                    std::f64::consts::PI * (hi * hi - lo * lo)
+                } else {
+                    hi - lo
+                }
+            }
+        }
+    }
+
     /// Weight per unit permittivity of the y-edge stretch from node (i, j) of length theta*hy.
     fn wy(&self, i: usize, _j: usize, theta: f64) -> f64 {
         let g = &self.grid;
@@ -291,14 +317,6 @@ pub fn assemble(design: &Design, raster: &Raster) -> Result<Operator, OperatorEr
         design.sides.bottom,
         design.sides.top,
     ];
-    for (s, side) in SideId::ALL.iter().zip(sides) {
-        if side == Side::Open {
-            return Err(OperatorError::UnsupportedSide {
-                side: s.name(),
-                message: "open sides are not supported by this operator yet".into(),
-            });
-        }
-    }
     let side_potential = sides.map(Side::potential);
     let axisymmetric = design.mode == Mode::Axisymmetric;
     let faces = Faces { grid, axisymmetric };
@@ -434,6 +452,23 @@ pub fn assemble(design: &Design, raster: &Raster) -> Result<Operator, OperatorEr
         if p + nx < n && !unknown[p + nx] {
             north[p] = 0.0;
         }
+    }
+    // Open sides: far-field (Robin) terms on the diagonal, as links to the side at 0 V.
+    if sides.contains(&Side::Open) {
+        let model = open::far_field(design);
+        let robin = open::links(
+            &grid,
+            &sides,
+            &model,
+            &unknown,
+            side_target,
+            |p| Raster::permittivity(design, raster.material[p]),
+            |s, i, j| faces.boundary_area(s, i, j),
+        );
+        for l in &robin {
+            diag[l.node as usize] += l.weight;
+        }
+        links.extend(robin);
     }
     links.sort_by_key(|l| (l.node, l.dir));
 

@@ -69,6 +69,8 @@ pub struct ConductorResult {
     pub floating: bool,
     /// Net charge, C/m (planar) or C (axisymmetric).
     pub charge: f64,
+    /// Estimated discretisation error of the charge, same units, when requested.
+    pub charge_error: Option<f64>,
     /// Electrostatic force, N/m (planar) or N (axisymmetric: only the axial component, y).
     pub force: [f64; 2],
 }
@@ -83,6 +85,37 @@ pub struct Capacitance {
     pub matrix: Vec<Vec<f64>>,
     /// Estimated discretisation error of each entry, same units, when requested.
     pub error_estimate: Option<Vec<Vec<f64>>>,
+    /// How the estimate was made, when it was.
+    pub error_model: Option<ErrorModel>,
+}
+
+/// How discretisation errors are estimated: Richardson's extrapolation from the fine lattice
+/// and one with about twice the spacing. With the error of a result behaving like `K h^p`,
+/// the fine result's error is about `|R_h - R_coarse| / (ratio^p - 1)`.
+///
+/// The order `p`: observed from a third, twice coarser lattice when the three results
+/// converge monotonically (clamped to [1, 2]: the five-point scheme is second order, and
+/// sharp corners and thin conductors lower it towards 1); otherwise 2 for designs without
+/// sharp corners or thin conductors and 1 for the rest.
+#[derive(Clone, Debug, PartialEq)]
+pub struct ErrorModel {
+    /// Maxwell matrix on the coarse lattice, same order and units as the fine one.
+    pub coarse: Vec<Vec<f64>>,
+    /// Conductor charges at the operating point on the coarse lattice.
+    pub coarse_charges: Vec<f64>,
+    /// Coarse over fine spacing (the smaller of the two axes'), about 2.
+    pub ratio: f64,
+    /// The convergence order used.
+    pub order: f64,
+    /// The order observed from three lattices, when a third one was solved.
+    pub observed_order: Option<f64>,
+}
+
+impl ErrorModel {
+    /// Estimated error of a fine-lattice result from its coarse-lattice counterpart.
+    pub fn estimate(&self, fine: f64, coarse: f64) -> f64 {
+        (fine - coarse).abs() / (self.ratio.powf(self.order) - 1.0)
+    }
 }
 
 /// Summary of the linear solves of a study.
@@ -159,8 +192,16 @@ pub fn run(design: &Design, params: &StudyParams) -> Result<Solution, StudyError
     crate::design::validate(design)?;
     let grid = Grid::fit(design.domain.x, design.domain.y, design.domain.cell)?;
     let mut warnings = Vec::new();
+    // Lattices twice and four times as coarse, for the error estimate and its order.
+    let coarse_grid = grid.coarsened();
+    let coarser_grid = coarse_grid.coarsened();
     let coarse = if params.error_estimate && grid.nx > 8 && grid.ny > 8 {
-        Some(solve_on(design, &grid.coarsened(), params)?)
+        Some(solve_on(design, &coarse_grid, params)?)
+    } else {
+        None
+    };
+    let coarser = if coarse.is_some() && coarse_grid.nx > 8 && coarse_grid.ny > 8 {
+        Some(solve_on(design, &coarser_grid, params)?)
     } else {
         None
     };
@@ -172,17 +213,35 @@ pub fn run(design: &Design, params: &StudyParams) -> Result<Solution, StudyError
         .iter()
         .map(|&k| design.conductors[k].name.clone())
         .collect();
-    // Richardson: the fine error of a second-order method is about (C_h - C_2h) / (2^2 - 1).
-    let error_estimate = coarse.as_ref().map(|c| {
+    let error_model = coarse.as_ref().map(|c| {
+        let ratio = (coarse_grid.hx / grid.hx).min(coarse_grid.hy / grid.hy);
+        let observed_order = coarser.as_ref().and_then(|cc| {
+            let ratio2 = (coarser_grid.hx / coarse_grid.hx).min(coarser_grid.hy / coarse_grid.hy);
+            observed_order(&core.maxwell, &c.maxwell, &cc.maxwell, ratio.min(ratio2))
+        });
+        let singular = !post::sharp_corners(design).is_empty();
+        let order = match observed_order {
+            Some(p) => p.clamp(1.0, 2.0),
+            None if singular => 1.0,
+            None => 2.0,
+        };
+        ErrorModel {
+            coarse: c.maxwell.clone(),
+            coarse_charges: c
+                .op
+                .reactions_total(&c.response, &c.background, &c.potentials)
+                [..design.conductors.len()]
+                .to_vec(),
+            ratio,
+            order,
+            observed_order,
+        }
+    });
+    let error_estimate = error_model.as_ref().map(|m| {
         core.maxwell
             .iter()
-            .zip(&c.maxwell)
-            .map(|(rf, rc)| {
-                rf.iter()
-                    .zip(rc)
-                    .map(|(f, c)| (f - c).abs() / 3.0)
-                    .collect()
-            })
+            .zip(&m.coarse)
+            .map(|(rf, rc)| rf.iter().zip(rc).map(|(f, c)| m.estimate(*f, *c)).collect())
             .collect::<Vec<Vec<f64>>>()
     });
     if let Some(err) = &error_estimate {
@@ -219,9 +278,13 @@ pub fn run(design: &Design, params: &StudyParams) -> Result<Solution, StudyError
             potential: core.potentials[k],
             floating: design.conductors[k].drive == Drive::Floating,
             charge: charges[k],
+            charge_error: error_model
+                .as_ref()
+                .map(|m| m.estimate(charges[k], m.coarse_charges[k])),
             force: post::force(&field, design, k),
         })
-        .collect();
+        .collect::<Vec<ConductorResult>>();
+    warnings.extend(open_side_warnings(design, &core, &conductors));
     let mut side_charge = [0.0; 4];
     for s in SideId::ALL {
         side_charge[s as usize] = charges[core.op.side_target(s) as usize];
@@ -249,6 +312,7 @@ pub fn run(design: &Design, params: &StudyParams) -> Result<Solution, StudyError
             names,
             matrix: core.maxwell.clone(),
             error_estimate,
+            error_model,
         },
         conductors,
         side_charge,
@@ -263,6 +327,72 @@ pub fn run(design: &Design, params: &StudyParams) -> Result<Solution, StudyError
         raster: core.raster,
         operator: core.op,
     })
+}
+
+/// The order observed from results on three lattices with spacings h, r h, r^2 h:
+/// `log(|R_rh - R_r2h| / |R_h - R_rh|) / log(r)`, with the differences measured over the
+/// whole matrix. `None` when the differences vanish or change direction (no monotone
+/// convergence to read an order from).
+fn observed_order(
+    fine: &[Vec<f64>],
+    coarse: &[Vec<f64>],
+    coarser: &[Vec<f64>],
+    r: f64,
+) -> Option<f64> {
+    let (mut d1, mut d2, mut cross) = (0.0, 0.0, 0.0);
+    for ((rf, rc), rcc) in fine.iter().zip(coarse).zip(coarser) {
+        for ((f, c), cc) in rf.iter().zip(rc).zip(rcc) {
+            let (a, b) = (f - c, c - cc);
+            d1 += a * a;
+            d2 += b * b;
+            cross += a * b;
+        }
+    }
+    if !(d1 > 0.0 && d2 > 0.0 && cross > 0.0 && r > 1.0) {
+        return None;
+    }
+    let p = (d2.sqrt() / d1.sqrt()).ln() / r.ln();
+    p.is_finite().then_some(p)
+}
+
+/// Warnings about what open sides cannot settle in a planar design with no fixed side: the
+/// potential of a net line charge grows logarithmically, so the charge that such a design
+/// sends to infinity (beyond the open sides) depends on how far away they are.
+fn open_side_warnings(design: &Design, core: &Core, conductors: &[ConductorResult]) -> Vec<String> {
+    let s = &design.sides;
+    let sides = [s.left, s.right, s.bottom, s.top];
+    let open = sides.contains(&crate::design::Side::Open);
+    if design.mode != Mode::Planar || !open || sides.iter().any(|s| s.potential().is_some()) {
+        return Vec::new();
+    }
+    let mut out = Vec::new();
+    let to_infinity: Vec<usize> = (0..core.maxwell.len())
+        .filter(|&i| {
+            let row: f64 = core.maxwell[i].iter().sum();
+            row.abs() > 0.01 * core.maxwell[i][i].abs()
+        })
+        .collect();
+    if !to_infinity.is_empty() {
+        out.push(format!(
+            "no side is grounded: the capacitance matrix refers to infinity beyond the open sides, and \
+             its row sums (charge to infinity) shrink like 1/ln(box size) in a planar design; only \
+             excitations with zero net charge are independent of the box ({} of {} rows have row sums \
+             above 1 % of their diagonal)",
+            to_infinity.len(),
+            core.maxwell.len()
+        ));
+    }
+    let net: f64 = conductors.iter().map(|c| c.charge).sum::<f64>() + core.op.free_charge();
+    let scale: f64 =
+        conductors.iter().map(|c| c.charge.abs()).sum::<f64>() + core.op.free_charge().abs();
+    if scale > 0.0 && net.abs() > 1e-3 * scale {
+        out.push(format!(
+            "no side is grounded and the design carries a net charge of {net:.3e} C/m: its potential \
+             grows logarithmically with distance, so the charges at this operating point depend on how \
+             far the open sides are"
+        ));
+    }
+    out
 }
 
 fn summarize(infos: &[Info]) -> SolveSummary {

@@ -2,6 +2,7 @@
 //! library, and writes results through [`crate::outdir::OutDir`].
 
 pub mod check;
+pub mod impedance;
 pub mod solve;
 
 use crate::args::{SolveOptions, SolverChoice};

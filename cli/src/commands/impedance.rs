@@ -1,0 +1,295 @@
+//! `fieldgrid impedance DESIGN --signal NAME[,NAME] --out DIR`: transmission-line parameters
+//! of a planar cross-section.
+//!
+//! Two studies on the same lattice: the design as drawn (capacitance matrix C) and the design
+//! with every permittivity set to 1 (C0). The matrices over the signal conductors, every
+//! other conductor grounded, go to [`fieldgrid_solver::line::parameters`]. Everything the
+//! `solve` command writes is written too (for the design as drawn), with the line parameters
+//! under `line` in `summary.json` and in `line.csv`.
+
+use super::solve::{study_failure, write_results};
+use super::{check_memory, load_design, study_params, with_threads};
+use crate::args::ImpedanceArgs;
+use crate::error::Failure;
+use crate::outdir::{csv_bytes, num, OutDir};
+use crate::summary::Summary;
+use crate::{EXIT_NOT_CONVERGED, EXIT_OK};
+use fieldgrid_solver::design::{Design, Drive, Mode};
+use fieldgrid_solver::line::{self, LineParams};
+use fieldgrid_solver::study::{self, Solution};
+use serde_json::{json, Value};
+use std::time::Instant;
+
+/// Runs the command, returning the exit code.
+pub fn run(args: &ImpedanceArgs) -> Result<u8, Failure> {
+    let src = load_design(&args.design, &[])?;
+    let design = &src.design;
+    if design.mode != Mode::Planar {
+        return Err(Failure::input(format!(
+            "{}: `impedance` needs a planar cross-section (mode = \"planar\")",
+            args.design.display()
+        )));
+    }
+    check_signals(design, &args.signal)?;
+    check_memory(&src, &args.design, args.opts.max_memory)?;
+    let params = study_params(&args.opts)?;
+    let out = OutDir::prepare(&args.out)?;
+    let vacuum = without_dielectrics(design);
+    let start = Instant::now();
+    let (sol, sol0) = with_threads(args.opts.threads, || {
+        let a = study::run(design, &params);
+        let b = study::run(&vacuum, &params);
+        (a, b)
+    })?;
+    let sol = sol.map_err(|e| study_failure(&src, e))?;
+    let sol0 = sol0.map_err(|e| study_failure(&src, e))?;
+    let seconds = start.elapsed().as_secs_f64();
+    if !args.opts.quiet && std::io::IsTerminal::is_terminal(&std::io::stderr()) {
+        eprint!("\r{:60}\r", "");
+    }
+
+    let pick = |sol: &Solution, m: &[Vec<f64>]| submatrix(sol, m, &args.signal);
+    let lp = line::parameters(
+        &pick(&sol, &sol.capacitance.matrix),
+        &pick(&sol0, &sol0.capacitance.matrix),
+    )
+    .map_err(|e| Failure::input(format!("--signal {}: {e}", args.signal.join(","))))?;
+    let errors = line_errors(&sol, &sol0, &lp, &args.signal);
+
+    let mut warnings = line_warnings(&lp);
+    for w in &sol0.warnings {
+        if !sol.warnings.contains(w) {
+            warnings.push(format!("study with every permittivity 1: {w}"));
+        }
+    }
+    let mut summary = Summary::from_solution(&sol, design.depth, seconds, &src.text_hash);
+    summary.warnings.extend(warnings.iter().cloned());
+    summary.solver.converged &= sol0.solve.converged;
+    summary.solver.solves += sol0.solve.solves;
+    summary.solver.iterations = summary.solver.iterations.max(sol0.solve.iterations);
+    summary.solver.relative_residual = summary
+        .solver
+        .relative_residual
+        .max(sol0.solve.relative_residual);
+    if summary.solver.failure.is_none() {
+        summary.solver.failure = sol0.solve.failure.clone();
+    }
+    summary.line = Some(line_json(&args.signal, &lp, &errors));
+    write_results(&out, &sol, &summary, design, false)?;
+    out.write("line.csv", &line_csv(&lp, &errors))?;
+    if !args.opts.quiet {
+        print!("{}", report(&args.signal, &lp, &errors, &summary, &out));
+    }
+    if !summary.solver.converged {
+        return Ok(EXIT_NOT_CONVERGED);
+    }
+    Ok(EXIT_OK)
+}
+
+/// Every signal names a distinct conductor with a fixed potential.
+fn check_signals(design: &Design, signals: &[String]) -> Result<(), Failure> {
+    let names: Vec<&str> = design.conductors.iter().map(|c| c.name.as_str()).collect();
+    for (k, s) in signals.iter().enumerate() {
+        match design.conductors.iter().find(|c| &c.name == s) {
+            None => {
+                return Err(Failure::input(format!(
+                    "--signal {s}: the design has no conductor of that name (its conductors: {})",
+                    if names.is_empty() {
+                        "none".to_string()
+                    } else {
+                        names.join(", ")
+                    }
+                )))
+            }
+            Some(c) if c.drive == Drive::Floating => {
+                return Err(Failure::input(format!(
+                    "--signal {s}: the conductor is floating; a signal needs a fixed potential"
+                )))
+            }
+            Some(_) if signals[..k].contains(s) => {
+                return Err(Failure::input(format!("--signal {s}: named twice")))
+            }
+            Some(_) => {}
+        }
+    }
+    Ok(())
+}
+
+/// The design with the background and every dielectric at relative permittivity 1.
+pub fn without_dielectrics(design: &Design) -> Design {
+    let mut d = design.clone();
+    d.background.permittivity = 1.0;
+    for m in &mut d.dielectrics {
+        m.permittivity = 1.0;
+    }
+    d
+}
+
+/// Rows and columns of the signals in a study's Maxwell matrix `m`.
+fn submatrix(sol: &Solution, m: &[Vec<f64>], signals: &[String]) -> Vec<Vec<f64>> {
+    let index: Vec<usize> = signals
+        .iter()
+        .map(|s| {
+            sol.capacitance
+                .names
+                .iter()
+                .position(|n| n == s)
+                .expect("signals are fixed conductors, checked before the study")
+        })
+        .collect();
+    index
+        .iter()
+        .map(|&i| index.iter().map(|&j| m[i][j]).collect())
+        .collect()
+}
+
+/// Estimated discretisation errors of the scalar line parameters, by key: the same
+/// Richardson estimate as for the capacitance entries, applied to the parameters computed
+/// from the coarse-lattice matrices (the more cautious of the two studies' orders).
+fn line_errors(
+    sol: &Solution,
+    sol0: &Solution,
+    lp: &LineParams,
+    signals: &[String],
+) -> Vec<(&'static str, f64)> {
+    let (Some(m), Some(m0)) = (&sol.capacitance.error_model, &sol0.capacitance.error_model) else {
+        return Vec::new();
+    };
+    let Ok(coarse) = line::parameters(
+        &submatrix(sol, &m.coarse, signals),
+        &submatrix(sol0, &m0.coarse, signals),
+    ) else {
+        return Vec::new();
+    };
+    let model = if m0.order < m.order { m0 } else { m };
+    let coarse = line::scalars(&coarse);
+    line::scalars(lp)
+        .into_iter()
+        .zip(coarse)
+        .map(|((k, f), (_, c))| (k, model.estimate(f, c)))
+        .collect()
+}
+
+fn line_warnings(lp: &LineParams) -> Vec<String> {
+    let mut out = Vec::new();
+    if let Some(p) = &lp.pair {
+        if !p.symmetric {
+            out.push(
+                "the pair is not symmetric: z_odd and z_even are half the impedance seen by a \
+                 differential current (I, -I) and twice that seen by a common current (I, I); \
+                 they are not propagation modes (see eps_eff_modes)"
+                    .to_string(),
+            );
+        }
+    }
+    out
+}
+
+fn line_json(signals: &[String], lp: &LineParams, errors: &[(&str, f64)]) -> Value {
+    let mut v = json!({
+        "signals": signals,
+        "c": lp.c,
+        "c0": lp.c0,
+        "l": lp.l,
+        "z": lp.z,
+        "eps_eff_modes": lp.eps_eff_modes,
+        "units": { "c": "F/m", "l": "H/m", "z": "ohm" },
+    });
+    let obj = v.as_object_mut().expect("a JSON object");
+    for (k, x) in line::scalars(lp) {
+        obj.insert(k.to_string(), json!(x));
+    }
+    if let Some(p) = &lp.pair {
+        obj.insert("symmetric".into(), json!(p.symmetric));
+    }
+    if !errors.is_empty() {
+        let e: serde_json::Map<String, Value> = errors
+            .iter()
+            .map(|(k, x)| (k.to_string(), json!(x)))
+            .collect();
+        obj.insert("error_estimate".into(), Value::Object(e));
+    }
+    v
+}
+
+fn line_csv(lp: &LineParams, errors: &[(&str, f64)]) -> Vec<u8> {
+    let unit = |k: &str| if k.starts_with("eps") { "" } else { "ohm" };
+    csv_bytes(
+        &["quantity", "value", "error estimate", "unit"],
+        line::scalars(lp).into_iter().map(|(k, v)| {
+            let e = errors.iter().find(|e| e.0 == k).map(|e| num(e.1));
+            vec![
+                k.to_string(),
+                num(v),
+                e.unwrap_or_default(),
+                unit(k).to_string(),
+            ]
+        }),
+    )
+}
+
+/// The short table printed after the studies.
+fn report(
+    signals: &[String],
+    lp: &LineParams,
+    errors: &[(&str, f64)],
+    summary: &Summary,
+    out: &OutDir,
+) -> String {
+    use std::fmt::Write;
+    let mut s = String::new();
+    let _ = writeln!(
+        s,
+        "line parameters of {} ({} x {} nodes, {} solves in {:.2} s):",
+        signals.join(", "),
+        summary.grid.nx,
+        summary.grid.ny,
+        summary.solver.solves,
+        summary.solver.seconds
+    );
+    let err = |k: &str| {
+        errors
+            .iter()
+            .find(|e| e.0 == k)
+            .map(|e| format!("  (+/- {:.2e})", e.1))
+            .unwrap_or_default()
+    };
+    let label = |k: &'static str| match k {
+        "z0" => "characteristic impedance",
+        "eps_eff" => "effective permittivity",
+        "z_odd" => "odd-mode impedance",
+        "z_even" => "even-mode impedance",
+        "z_diff" => "differential impedance",
+        "z_common" => "common-mode impedance",
+        "eps_eff_odd" => "odd-mode effective permittivity",
+        "eps_eff_even" => "even-mode effective permittivity",
+        _ => k,
+    };
+    for (k, v) in line::scalars(lp) {
+        let unit = if k.starts_with("eps") { "" } else { " ohm" };
+        let _ = writeln!(s, "  {:34} {v:10.4}{unit}{}", label(k), err(k));
+    }
+    let matrix = |s: &mut String, name: &str, m: &[Vec<f64>], unit: &str| {
+        let _ = writeln!(s, "  {name} ({unit}):");
+        for (i, row) in m.iter().enumerate() {
+            let r: Vec<String> = row.iter().map(|v| format!("{v:12.4e}")).collect();
+            let _ = writeln!(s, "    {:>12} {}", signals[i], r.join(" "));
+        }
+    };
+    matrix(&mut s, "capacitance C", &lp.c, "F/m");
+    matrix(
+        &mut s,
+        "capacitance C0, every permittivity 1",
+        &lp.c0,
+        "F/m",
+    );
+    matrix(&mut s, "inductance L", &lp.l, "H/m");
+    if signals.len() > 1 {
+        matrix(&mut s, "characteristic impedance Z", &lp.z, "ohm");
+    }
+    for w in &summary.warnings {
+        let _ = writeln!(s, "warning: {w}");
+    }
+    let _ = writeln!(s, "results in {}", out.path().display());
+    s
+}
