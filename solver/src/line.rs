@@ -88,10 +88,10 @@ pub fn parameters(c: &[Vec<f64>], c0: &[Vec<f64>]) -> Result<LineParams, LineErr
     let c0 = symmetrize(c0);
     let (wc, vc) = eigen(&c);
     let (w0, v0) = eigen(&c0);
-    if wc.iter().any(|&w| !(w > 0.0)) {
+    if wc.iter().any(|&w| w.is_nan() || w <= 0.0) {
         return Err(LineError::NotPositiveDefinite("dielectric"));
     }
-    if w0.iter().any(|&w| !(w > 0.0)) {
+    if w0.iter().any(|&w| w.is_nan() || w <= 0.0) {
         return Err(LineError::NotPositiveDefinite("vacuum"));
     }
     let c0_inv = compose(&v0, &w0.iter().map(|w| 1.0 / w).collect::<Vec<_>>());
@@ -256,15 +256,15 @@ fn eigen(a: &Mat) -> (Vec<f64>, Mat) {
                 let t = if theta == 0.0 { 1.0 } else { t };
                 let cs = 1.0 / (t * t + 1.0).sqrt();
                 let sn = t * cs;
-                for k in 0..n {
-                    let (akp, akq) = (a[k][p], a[k][q]);
-                    a[k][p] = cs * akp - sn * akq;
-                    a[k][q] = sn * akp + cs * akq;
+                for row in a.iter_mut() {
+                    let (akp, akq) = (row[p], row[q]);
+                    row[p] = cs * akp - sn * akq;
+                    row[q] = sn * akp + cs * akq;
                 }
+                let (rp, rq) = (a[p].clone(), a[q].clone());
                 for k in 0..n {
-                    let (apk, aqk) = (a[p][k], a[q][k]);
-                    a[p][k] = cs * apk - sn * aqk;
-                    a[q][k] = sn * apk + cs * aqk;
+                    a[p][k] = cs * rp[k] - sn * rq[k];
+                    a[q][k] = sn * rp[k] + cs * rq[k];
                 }
                 for row in v.iter_mut() {
                     let (vkp, vkq) = (row[p], row[q]);
