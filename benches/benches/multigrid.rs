@@ -50,6 +50,23 @@ fn parse() -> Args {
     a
 }
 
+/// CPU seconds used by the process so far (all threads), from /proc (0 elsewhere).
+fn cpu_seconds() -> f64 {
+    let stat = std::fs::read_to_string("/proc/self/stat").unwrap_or_default();
+    // Fields after the parenthesised command name; utime and stime are fields 14 and 15,
+    // in clock ticks of 1/100 s (the Linux default).
+    let rest = stat.rsplit(')').next().unwrap_or("");
+    let f: Vec<f64> = rest
+        .split_whitespace()
+        .map(|v| v.parse().unwrap_or(0.0))
+        .collect();
+    if f.len() > 13 {
+        (f[11] + f[12]) / 100.0
+    } else {
+        0.0
+    }
+}
+
 fn median(mut v: Vec<f64>) -> f64 {
     v.sort_by(f64::total_cmp);
     let n = v.len();
@@ -64,6 +81,7 @@ fn median(mut v: Vec<f64>) -> f64 {
 struct Run {
     setup: f64,
     solve3: f64,
+    cpu3: f64,
     iterations: Vec<usize>,
     bytes: usize,
     levels: usize,
@@ -72,7 +90,7 @@ struct Run {
 fn run(p: &Problem, repeats: usize) -> Run {
     let a = &p.stencil;
     let params = Params::default();
-    let (mut setup, mut solve3) = (Vec::new(), Vec::new());
+    let (mut setup, mut solve3, mut cpu3) = (Vec::new(), Vec::new(), Vec::new());
     let mut iterations = Vec::new();
     let (mut bytes, mut levels) = (0, 0);
     for _ in 0..repeats {
@@ -82,9 +100,10 @@ fn run(p: &Problem, repeats: usize) -> Run {
         bytes = h.bytes();
         levels = h.lattices().len();
         let mut xs = vec![vec![0.0; a.len()]; p.rhs.len()];
-        let t = Instant::now();
+        let (t, c) = (Instant::now(), cpu_seconds());
         let infos = h.solve_many(a, &p.rhs, &mut xs, &params);
         solve3.push(t.elapsed().as_secs_f64());
+        cpu3.push(cpu_seconds() - c);
         iterations = infos
             .into_iter()
             .map(|r| r.expect("benchmark solve converges").iterations)
@@ -93,6 +112,7 @@ fn run(p: &Problem, repeats: usize) -> Run {
     Run {
         setup: median(setup),
         solve3: median(solve3),
+        cpu3: median(cpu3),
         iterations,
         bytes,
         levels,
@@ -121,7 +141,7 @@ fn main() {
     }
     let mut json = Vec::new();
     println!(
-        "{:>5} {:>9} {:>3} {:>7} | {:>8} {:>10} {:>9} {:>9} {:>9} | {:>7} {:>8}",
+        "{:>5} {:>9} {:>3} {:>6} | {:>8} {:>10} {:>8} {:>9} {:>8} {:>8} | {:>6} {:>7}",
         "N",
         "unknowns",
         "thr",
@@ -130,6 +150,7 @@ fn main() {
         "iters",
         "solve s",
         "3 solves",
+        "cpu s",
         "total s",
         "B/unk",
         "speedup"
@@ -156,7 +177,7 @@ fn main() {
                 Some(s1) => s1 / r.solve3,
             };
             println!(
-                "{:>5} {:>9} {:>3} {:>7} | {:>8.3} {:>10} {:>9.3} {:>9.3} {:>9.3} | {:>7.1} {:>8.2}",
+                "{:>5} {:>9} {:>3} {:>6} | {:>8.3} {:>10} {:>8.3} {:>9.3} {:>8.2} {:>8.3} | {:>6.1} {:>7.2}",
                 n,
                 unknowns,
                 t,
@@ -165,14 +186,16 @@ fn main() {
                 format!("{:?}", r.iterations),
                 r.solve3 / p.rhs.len() as f64,
                 r.solve3,
+                r.cpu3,
                 r.setup + r.solve3,
                 r.bytes as f64 / unknowns as f64,
                 speedup
             );
             json.push(format!(
-                "{{\"n\": {n}, \"unknowns\": {unknowns}, \"threads\": {t}, \"setup\": {}, \"solve3\": {}, \"iterations\": {:?}, \"bytes_per_unknown\": {}}}",
+                "{{\"n\": {n}, \"unknowns\": {unknowns}, \"threads\": {t}, \"setup\": {}, \"solve3\": {}, \"cpu3\": {}, \"iterations\": {:?}, \"bytes_per_unknown\": {}}}",
                 r.setup,
                 r.solve3,
+                r.cpu3,
                 r.iterations,
                 r.bytes as f64 / unknowns as f64
             ));

@@ -5,13 +5,11 @@
 //! prolongation and solves the coarsest level directly, so `z = M^-1 r` is linear in r with M
 //! symmetric positive definite. Nothing in it depends on the thread count.
 
-use super::interpolation::{
-    interior_count, prolong_coarse, prolong_fine, restrict_coarse, restrict_fine,
-};
-use super::smoother::{four_colour_sweep, red_black_pass, residual};
+use super::interpolation::interior_count;
+use super::smoother::{four_colour_sweep, red_black_sweep};
+use super::transfer::{prolong_coarse, prolong_fine, restrict_coarse, restrict_fine};
 use super::Hierarchy;
 use crate::stencil::Stencil5;
-use rayon::prelude::*;
 
 /// Scratch vectors of one solve (one set serves any number of right-hand sides in turn).
 pub(super) struct Workspace {
@@ -68,43 +66,53 @@ pub(super) fn vcycle(h: &Hierarchy, a: &Stencil5, ws: &mut Workspace, r: &[f64],
         h.coarsest.solve(r, z, |i, j| i + j * nx);
         return;
     }
-    z.par_iter_mut().for_each(|v| *v = 0.0);
-    let sweeps = h.options.fine_sweeps;
-    for _ in 0..sweeps {
-        red_black_pass(a, r, z, 0);
-        red_black_pass(a, r, z, 1);
+    let sweeps = h.options.fine_sweeps.max(1);
+    for sweep in 0..sweeps {
+        red_black_sweep(a, r, z, 0, sweep == 0);
     }
-    restrict_fine(a, r, z, &mut ws.sbuf, &h.levels[0], &mut ws.b[0]);
+    restrict_fine(
+        a,
+        &h.weights[0],
+        r,
+        z,
+        &mut ws.sbuf,
+        &h.levels[0],
+        &mut ws.b[0],
+    );
     let last = h.levels.len() - 1;
+    let coarse_sweeps = h.options.coarse_sweeps.max(1);
     for k in 0..last {
         let l = &h.levels[k];
         let x = &mut ws.x[k];
-        x.par_iter_mut().for_each(|v| *v = 0.0);
-        for _ in 0..h.options.coarse_sweeps {
-            four_colour_sweep(l, &ws.b[k], x, false);
+        for sweep in 0..coarse_sweeps {
+            four_colour_sweep(l, &ws.b[k], x, false, sweep == 0);
         }
-        residual(l, &ws.b[k], x, &mut ws.r[k]);
         let (lo, hi) = ws.b.split_at_mut(k + 1);
-        let _ = lo;
-        restrict_coarse(l, &mut ws.r[k], &h.levels[k + 1], &mut hi[0]);
+        restrict_coarse(
+            l,
+            &h.weights[k + 1],
+            &lo[k],
+            x,
+            &mut ws.r[k],
+            &h.levels[k + 1],
+            &mut hi[0],
+        );
     }
     {
-        let l = &h.levels[last];
-        let s = l.s;
+        let s = h.levels[last].s;
         h.coarsest
             .solve(&ws.b[last], &mut ws.x[last], |i, j| (i + 1) + (j + 1) * s);
     }
     for k in (0..last).rev() {
         let l = &h.levels[k];
         let (lo, hi) = ws.x.split_at_mut(k + 1);
-        prolong_coarse(l, &mut lo[k], &mut ws.r[k], &h.levels[k + 1], &hi[0]);
-        for _ in 0..h.options.coarse_sweeps {
-            four_colour_sweep(l, &ws.b[k], &mut lo[k], true);
+        prolong_coarse(l, &h.weights[k + 1], &mut lo[k], &h.levels[k + 1], &hi[0]);
+        for _ in 0..coarse_sweeps {
+            four_colour_sweep(l, &ws.b[k], &mut lo[k], true, false);
         }
     }
-    prolong_fine(a, z, &h.levels[0], &ws.x[0]);
+    prolong_fine(a, &h.weights[0], z, &h.levels[0], &ws.x[0]);
     for _ in 0..sweeps {
-        red_black_pass(a, r, z, 1);
-        red_black_pass(a, r, z, 0);
+        red_black_sweep(a, r, z, 1, false);
     }
 }

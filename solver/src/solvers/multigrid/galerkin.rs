@@ -6,7 +6,7 @@
 //! so the stored operator is exactly symmetric. A coarse node is fixed exactly when the fine
 //! node it sits on is fixed; it then gets an identity row and no couplings.
 
-use super::interpolation::{coarse_len, fine_of, prow, PRow};
+use super::interpolation::{coarse_len, fine_of, prow, LineWeights, PRow};
 use super::level::{Couplings, Level, Real};
 use rayon::prelude::*;
 
@@ -24,7 +24,7 @@ const OFFSETS: [(isize, isize); 9] = [
 ];
 
 /// The coarse operator of `a`.
-pub(super) fn coarse_operator(a: &impl Couplings) -> Level {
+pub(super) fn coarse_operator(a: &impl Couplings, lw: &LineWeights) -> Level {
     let (nx, ny) = a.dims();
     let (cx, cy) = (coarse_len(nx), coarse_len(ny));
     let mut level = Level::identity(cx, cy);
@@ -45,14 +45,14 @@ pub(super) fn coarse_operator(a: &impl Couplings) -> Level {
             if row == 0 || row > cy {
                 return;
             }
-            coarse_row(a, row - 1, out);
+            coarse_row(a, lw, row - 1, out);
         });
     level.unknown = unknown;
     level
 }
 
 /// Computes padded row `jc` of the coarse operator into `out`.
-fn coarse_row(a: &impl Couplings, jc: usize, out: &mut [[Real; 5]]) {
+fn coarse_row(a: &impl Couplings, lw: &LineWeights, jc: usize, out: &mut [[Real; 5]]) {
     let (nx, ny) = a.dims();
     let cx = coarse_len(nx);
     let fj = fine_of(jc, ny);
@@ -62,7 +62,7 @@ fn coarse_row(a: &impl Couplings, jc: usize, out: &mut [[Real; 5]]) {
     let mut rows = Vec::with_capacity((r1 - r0 + 1) * nx);
     for j in r0..=r1 {
         for i in 0..nx {
-            rows.push(prow(a, i, j));
+            rows.push(prow(a, lw, i, j));
         }
     }
     let at = |i: usize, j: usize| -> &PRow { &rows[(j - r0) * nx + i] };

@@ -12,8 +12,7 @@
 //! fixed coarse node a zero column (its weights are masked to zero), so corrections never
 //! move a fixed node; restriction is exactly the transpose of prolongation.
 
-use super::level::{Couplings, Level, Shared};
-use crate::stencil::Stencil5;
+use super::level::Couplings;
 use rayon::prelude::*;
 
 /// Where a fine index lies on the coarse axis.
@@ -64,6 +63,21 @@ fn mask(a: &impl Couplings, i: usize, j: usize) -> f64 {
     }
 }
 
+/// Coarse index of a fine index known to be coarse.
+#[inline]
+pub(super) fn coarse_index(i: usize, n: usize) -> usize {
+    match kind(i, n) {
+        Kind::Coarse(ic) => ic,
+        Kind::Between(_) => unreachable!("index {i} lies between coarse indices"),
+    }
+}
+
+/// Interior points per row (and per column) of an axis of `n` nodes.
+#[inline]
+pub(super) fn interior_count(n: usize) -> usize {
+    n.saturating_sub(1) / 2
+}
+
 /// Weights of an x-line point (i, j) to its west and east coarse neighbours.
 #[inline]
 pub(super) fn xline_weights(a: &impl Couplings, i: usize, j: usize) -> (f64, f64) {
@@ -96,17 +110,99 @@ pub(super) fn yline_weights(a: &impl Couplings, i: usize, j: usize) -> (f64, f64
     (s / den * mask(a, i, j - 1), n / den * mask(a, i, j + 1))
 }
 
-/// Weights of an interior point (i, j) to its corners `[sw, se, nw, ne]`.
-pub(super) fn interior_weights(a: &impl Couplings, i: usize, j: usize) -> [f64; 4] {
+/// The line-point weights of one level, computed once and stored in single precision (they
+/// are the same numbers in prolongation, restriction and the Galerkin product, so rounding
+/// them keeps P^T exact and the coarse operator exactly P^T A P).
+pub(super) struct LineWeights {
+    nx: usize,
+    ny: usize,
+    /// Between-indices per row (x) and per column (y).
+    mx: usize,
+    cx: usize,
+    /// x-line points: `[west, east]` at `jc * mx + i / 2`.
+    x: Vec<[f32; 2]>,
+    /// y-line points: `[south, north]` at `(j / 2) * cx + ic`.
+    y: Vec<[f32; 2]>,
+}
+
+impl LineWeights {
+    /// The weights of the operator `a`.
+    pub fn new(a: &impl Couplings) -> LineWeights {
+        let (nx, ny) = a.dims();
+        let (mx, my, cx, cy) = (
+            interior_count(nx),
+            interior_count(ny),
+            coarse_len(nx),
+            coarse_len(ny),
+        );
+        let round = |(u, v): (f64, f64)| [u as f32, v as f32];
+        let x = (0..cy * mx)
+            .into_par_iter()
+            .map(|k| round(xline_weights(a, 2 * (k % mx) + 1, fine_of(k / mx, ny))))
+            .collect();
+        let y = (0..my * cx)
+            .into_par_iter()
+            .map(|k| round(yline_weights(a, fine_of(k % cx, nx), 2 * (k / cx) + 1)))
+            .collect();
+        LineWeights {
+            nx,
+            ny,
+            mx,
+            cx,
+            x,
+            y,
+        }
+    }
+
+    /// Bytes held.
+    pub fn bytes(&self) -> usize {
+        8 * (self.x.len() + self.y.len())
+    }
+
+    /// `[west, east]` of x-line point (i, j) (i between, j coarse).
+    #[inline]
+    pub fn xw(&self, i: usize, j: usize) -> [f64; 2] {
+        let w = self.x[coarse_index(j, self.ny) * self.mx + i / 2];
+        [w[0] as f64, w[1] as f64]
+    }
+
+    /// `[west, east]` of the x-line point at between-index `i` on coarse row `jc`.
+    #[inline]
+    pub fn xw_row(&self, jc: usize) -> &[[f32; 2]] {
+        &self.x[jc * self.mx..(jc + 1) * self.mx]
+    }
+
+    /// `[south, north]` of y-line point (i, j) (i coarse, j between).
+    #[inline]
+    pub fn yw(&self, i: usize, j: usize) -> [f64; 2] {
+        let w = self.y[(j / 2) * self.cx + coarse_index(i, self.nx)];
+        [w[0] as f64, w[1] as f64]
+    }
+
+    /// `[south, north]` of the y-line points of between-row `j`, by coarse column.
+    #[inline]
+    pub fn yw_row(&self, j: usize) -> &[[f32; 2]] {
+        &self.y[(j / 2) * self.cx..(j / 2 + 1) * self.cx]
+    }
+}
+
+/// Weights of an interior point (i, j) to its corners `[sw, se, nw, ne]`: its couplings
+/// applied to the interpolated values of its eight neighbours, over its diagonal.
+pub(super) fn interior_weights(
+    a: &impl Couplings,
+    lw: &LineWeights,
+    i: usize,
+    j: usize,
+) -> [f64; 4] {
     if !a.is_unknown(i, j) {
         return [0.0; 4];
     }
     let d = a.diag_at(i, j);
     let c = |di, dj| a.coupling(i, j, di, dj);
-    let (xs_w, xs_e) = xline_weights(a, i, j - 1);
-    let (xn_w, xn_e) = xline_weights(a, i, j + 1);
-    let (yw_s, yw_n) = yline_weights(a, i - 1, j);
-    let (ye_s, ye_n) = yline_weights(a, i + 1, j);
+    let [xs_w, xs_e] = lw.xw(i, j - 1);
+    let [xn_w, xn_e] = lw.xw(i, j + 1);
+    let [yw_s, yw_n] = lw.yw(i - 1, j);
+    let [ye_s, ye_n] = lw.yw(i + 1, j);
     [
         (c(-1, -1) + c(0, -1) * xs_w + c(-1, 0) * yw_s) / d * mask(a, i - 1, j - 1),
         (c(1, -1) + c(0, -1) * xs_e + c(1, 0) * ye_s) / d * mask(a, i + 1, j - 1),
@@ -125,7 +221,7 @@ pub(super) struct PRow {
 }
 
 /// The row of P for fine node (i, j).
-pub(super) fn prow(a: &impl Couplings, i: usize, j: usize) -> PRow {
+pub(super) fn prow(a: &impl Couplings, lw: &LineWeights, i: usize, j: usize) -> PRow {
     let (nx, ny) = a.dims();
     let mut row = PRow::default();
     match (kind(i, nx), kind(j, ny)) {
@@ -135,338 +231,19 @@ pub(super) fn prow(a: &impl Couplings, i: usize, j: usize) -> PRow {
         }
         (Kind::Between(i0), Kind::Coarse(jc)) => {
             row.base = (i0, jc);
-            let (w, e) = xline_weights(a, i, j);
-            row.w[0] = [w, e];
+            row.w[0] = lw.xw(i, j);
         }
         (Kind::Coarse(ic), Kind::Between(j0)) => {
             row.base = (ic, j0);
-            let (s, n) = yline_weights(a, i, j);
+            let [s, n] = lw.yw(i, j);
             row.w[0][0] = s;
             row.w[1][0] = n;
         }
         (Kind::Between(i0), Kind::Between(j0)) => {
             row.base = (i0, j0);
-            let [sw, se, nw, ne] = interior_weights(a, i, j);
+            let [sw, se, nw, ne] = interior_weights(a, lw, i, j);
             row.w = [[sw, se], [nw, ne]];
         }
     }
     row
-}
-
-/// Residual `r - A z` of the fine stencil at node (i, j).
-#[inline]
-fn fine_residual(a: &Stencil5, r: &[f64], z: &[f64], i: usize, j: usize) -> f64 {
-    let nx = a.nx;
-    let p = i + j * nx;
-    let mut s = r[p] - a.diag[p] * z[p];
-    if i + 1 < nx {
-        s += a.east[p] * z[p + 1];
-    }
-    if i > 0 {
-        s += a.east[p - 1] * z[p - 1];
-    }
-    if j + 1 < a.ny {
-        s += a.north[p] * z[p + nx];
-    }
-    if j > 0 {
-        s += a.north[p - nx] * z[p - nx];
-    }
-    s
-}
-
-/// Interior points per row (and per column) of an axis of `n` nodes.
-#[inline]
-pub(super) fn interior_count(n: usize) -> usize {
-    n.saturating_sub(1) / 2
-}
-
-/// Restricts the fine residual `r - A z` to the coarse right-hand side `bc`, right after a
-/// red-black sweep that ended on black: black residuals are zero and are not recomputed.
-/// `sbuf` (interior points only) holds the scaled interior residuals.
-pub(super) fn restrict_fine(
-    a: &Stencil5,
-    r: &[f64],
-    z: &[f64],
-    sbuf: &mut [f64],
-    coarse: &Level,
-    bc: &mut [f64],
-) {
-    let (nx, ny) = (a.nx, a.ny);
-    let mx = interior_count(nx);
-    if mx > 0 {
-        sbuf.par_chunks_mut(mx).enumerate().for_each(|(m, row)| {
-            let j = 2 * m + 1;
-            for (k, s) in row.iter_mut().enumerate() {
-                let i = 2 * k + 1;
-                *s = fine_residual(a, r, z, i, j) / a.diag[i + j * nx];
-            }
-        });
-    }
-    let sbuf = &*sbuf;
-    // Scaled residual of an interior point; zero for any other node.
-    let sv = |i: isize, j: isize| -> f64 {
-        if between(i, nx) && between(j, ny) {
-            sbuf[(j as usize / 2) * mx + i as usize / 2]
-        } else {
-            0.0
-        }
-    };
-    // Residual where it is not known to vanish (red nodes).
-    let known = |i: usize, j: usize| -> f64 {
-        if (i + j) % 2 == 1 {
-            0.0
-        } else {
-            fine_residual(a, r, z, i, j)
-        }
-    };
-    let cs = coarse.s;
-    bc.par_chunks_mut(cs).enumerate().for_each(|(row, out)| {
-        if row == 0 || row > coarse.ny {
-            return;
-        }
-        let jc = row - 1;
-        let fj = fine_of(jc, ny);
-        let jj = fj as isize;
-        for ic in 0..coarse.nx {
-            let fi = fine_of(ic, nx);
-            let ii = fi as isize;
-            if !a.unknown[fi + fj * nx] {
-                out[ic + 1] = 0.0;
-                continue;
-            }
-            let mut v = known(fi, fj);
-            // x-line neighbours east and west: t = r + couplings to interior points * s.
-            if between(ii + 1, nx) {
-                let l = fi + 1;
-                let t = known(l, fj)
-                    + a.coupling(l, fj, 0, 1) * sv(ii + 1, jj + 1)
-                    + a.coupling(l, fj, 0, -1) * sv(ii + 1, jj - 1);
-                v += xline_weights(a, l, fj).0 * t;
-            }
-            if between(ii - 1, nx) {
-                let l = fi - 1;
-                let t = known(l, fj)
-                    + a.coupling(l, fj, 0, 1) * sv(ii - 1, jj + 1)
-                    + a.coupling(l, fj, 0, -1) * sv(ii - 1, jj - 1);
-                v += xline_weights(a, l, fj).1 * t;
-            }
-            if between(jj + 1, ny) {
-                let l = fj + 1;
-                let t = known(fi, l)
-                    + a.coupling(fi, l, 1, 0) * sv(ii + 1, jj + 1)
-                    + a.coupling(fi, l, -1, 0) * sv(ii - 1, jj + 1);
-                v += yline_weights(a, fi, l).0 * t;
-            }
-            if between(jj - 1, ny) {
-                let l = fj - 1;
-                let t = known(fi, l)
-                    + a.coupling(fi, l, 1, 0) * sv(ii + 1, jj - 1)
-                    + a.coupling(fi, l, -1, 0) * sv(ii - 1, jj - 1);
-                v += yline_weights(a, fi, l).1 * t;
-            }
-            out[ic + 1] = v;
-        }
-    });
-}
-
-/// Adds the interpolated coarse correction `xc` to the fine iterate `z`.
-pub(super) fn prolong_fine(a: &Stencil5, z: &mut [f64], coarse: &Level, xc: &[f64]) {
-    let (nx, ny) = (a.nx, a.ny);
-    let ec = |ic: usize, jc: usize| xc[coarse.idx(ic, jc)];
-    // Interpolated value at a line point.
-    let eline = |i: usize, j: usize| -> f64 {
-        match (kind(i, nx), kind(j, ny)) {
-            (Kind::Between(i0), Kind::Coarse(jc)) => {
-                let (w, e) = xline_weights(a, i, j);
-                w * ec(i0, jc) + e * ec(i0 + 1, jc)
-            }
-            (Kind::Coarse(ic), Kind::Between(j0)) => {
-                let (s, n) = yline_weights(a, i, j);
-                s * ec(ic, j0) + n * ec(ic, j0 + 1)
-            }
-            _ => unreachable!("not a line point"),
-        }
-    };
-    z.par_chunks_mut(nx)
-        .enumerate()
-        .for_each(|(j, row)| match kind(j, ny) {
-            Kind::Coarse(jc) => {
-                for (i, zi) in row.iter_mut().enumerate() {
-                    match kind(i, nx) {
-                        Kind::Coarse(ic) => *zi += ec(ic, jc),
-                        Kind::Between(_) => *zi += eline(i, j),
-                    }
-                }
-            }
-            Kind::Between(_) => {
-                for (i, zi) in row.iter_mut().enumerate() {
-                    match kind(i, nx) {
-                        Kind::Coarse(_) => *zi += eline(i, j),
-                        Kind::Between(_) => {
-                            let p = i + j * nx;
-                            let s = a.east[p - 1] * eline(i - 1, j)
-                                + a.east[p] * eline(i + 1, j)
-                                + a.north[p - nx] * eline(i, j - 1)
-                                + a.north[p] * eline(i, j + 1);
-                            *zi += s / a.diag[p];
-                        }
-                    }
-                }
-            }
-        });
-}
-
-/// Restricts the residual `r` of coarse level `l` to the right-hand side `bc` of level
-/// `c`. `r` is overwritten (scaled interior values, then line values).
-pub(super) fn restrict_coarse(l: &Level, r: &mut [f64], c: &Level, bc: &mut [f64]) {
-    let (nx, ny, s) = (l.nx, l.ny, l.s);
-    // Interior points: r / diag.
-    r.par_chunks_mut(s).enumerate().for_each(|(row, rr)| {
-        if row == 0 || !between(row as isize - 1, ny) {
-            return;
-        }
-        let base = row * s;
-        for i in (1..nx).step_by(2) {
-            if between(i as isize, nx) {
-                rr[i + 1] /= l.coef[base + i + 1][0] as f64;
-            }
-        }
-    });
-    // Line points: add couplings to the interior points times their scaled residuals.
-    let ptr = Shared::new(r);
-    (0..ny).into_par_iter().for_each(|j| {
-        let r = ptr.get();
-        let jb = between(j as isize, ny);
-        let up = between(j as isize + 1, ny);
-        let down = between(j as isize - 1, ny);
-        for i in 0..nx {
-            let ib = between(i as isize, nx);
-            let p = l.idx(i, j);
-            // SAFETY: this pass writes only line points of row j and reads only interior
-            // points, which it never writes.
-            unsafe {
-                if ib && !jb {
-                    let mut t = *r.add(p);
-                    if up {
-                        t += l.coef[p][2] as f64 * *r.add(p + s);
-                    }
-                    if down {
-                        t += l.coef[p - s][2] as f64 * *r.add(p - s);
-                    }
-                    *r.add(p) = t;
-                } else if jb && !ib {
-                    let mut t = *r.add(p);
-                    if between(i as isize + 1, nx) {
-                        t += l.coef[p][1] as f64 * *r.add(p + 1);
-                    }
-                    if between(i as isize - 1, nx) {
-                        t += l.coef[p - 1][1] as f64 * *r.add(p - 1);
-                    }
-                    *r.add(p) = t;
-                }
-            }
-        }
-    });
-    let r = &*r;
-    bc.par_chunks_mut(c.s).enumerate().for_each(|(row, out)| {
-        if row == 0 || row > c.ny {
-            return;
-        }
-        let jc = row - 1;
-        let fj = fine_of(jc, ny);
-        let jj = fj as isize;
-        for ic in 0..c.nx {
-            let fi = fine_of(ic, nx);
-            let ii = fi as isize;
-            let f = l.idx(fi, fj);
-            if !l.unknown[f] {
-                out[ic + 1] = 0.0;
-                continue;
-            }
-            let k = &l.coef;
-            let mut v = r[f];
-            let (e, w) = (between(ii + 1, nx), between(ii - 1, nx));
-            let (n, so) = (between(jj + 1, ny), between(jj - 1, ny));
-            if e && n {
-                v += k[f][3] as f64 * r[f + s + 1];
-            }
-            if w && so {
-                v += k[f - s - 1][3] as f64 * r[f - s - 1];
-            }
-            if w && n {
-                v += k[f][4] as f64 * r[f + s - 1];
-            }
-            if e && so {
-                v += k[f - s + 1][4] as f64 * r[f - s + 1];
-            }
-            if e {
-                v += xline_weights(l, fi + 1, fj).0 * r[f + 1];
-            }
-            if w {
-                v += xline_weights(l, fi - 1, fj).1 * r[f - 1];
-            }
-            if n {
-                v += yline_weights(l, fi, fj + 1).0 * r[f + s];
-            }
-            if so {
-                v += yline_weights(l, fi, fj - 1).1 * r[f - s];
-            }
-            out[ic + 1] = v;
-        }
-    });
-}
-
-/// Adds the interpolated correction `xc` of level `c` to the iterate `x` of level `l`;
-/// `e` is scratch of the size of `x`.
-pub(super) fn prolong_coarse(l: &Level, x: &mut [f64], e: &mut [f64], c: &Level, xc: &[f64]) {
-    let (nx, ny, s) = (l.nx, l.ny, l.s);
-    let ec = |ic: usize, jc: usize| xc[c.idx(ic, jc)];
-    x.par_chunks_mut(s)
-        .zip(e.par_chunks_mut(s))
-        .enumerate()
-        .for_each(|(row, (xr, er))| {
-            if row == 0 || row > ny {
-                return;
-            }
-            let j = row - 1;
-            let kj = kind(j, ny);
-            for i in 0..nx {
-                let v = match (kind(i, nx), kj) {
-                    (Kind::Coarse(ic), Kind::Coarse(jc)) => ec(ic, jc),
-                    (Kind::Between(i0), Kind::Coarse(jc)) => {
-                        let (w, e) = xline_weights(l, i, j);
-                        w * ec(i0, jc) + e * ec(i0 + 1, jc)
-                    }
-                    (Kind::Coarse(ic), Kind::Between(j0)) => {
-                        let (s, n) = yline_weights(l, i, j);
-                        s * ec(ic, j0) + n * ec(ic, j0 + 1)
-                    }
-                    (Kind::Between(_), Kind::Between(_)) => continue,
-                };
-                er[i + 1] = v;
-                xr[i + 1] += v;
-            }
-        });
-    let e = &*e;
-    x.par_chunks_mut(s).enumerate().for_each(|(row, xr)| {
-        if row == 0 || !between(row as isize - 1, ny) {
-            return;
-        }
-        let k = &l.coef;
-        for i in 0..nx {
-            if !between(i as isize, nx) {
-                continue;
-            }
-            let p = row * s + i + 1;
-            let v = k[p][1] as f64 * e[p + 1]
-                + k[p - 1][1] as f64 * e[p - 1]
-                + k[p][2] as f64 * e[p + s]
-                + k[p - s][2] as f64 * e[p - s]
-                + k[p][3] as f64 * e[p + s + 1]
-                + k[p - s - 1][3] as f64 * e[p - s - 1]
-                + k[p][4] as f64 * e[p + s - 1]
-                + k[p - s + 1][4] as f64 * e[p - s + 1];
-            xr[i + 1] += v / k[p][0] as f64;
-        }
-    });
 }

@@ -10,7 +10,7 @@
 use crate::stencil::Stencil5;
 
 /// Storage type of coarse-level coefficients.
-pub(super) type Real = f64;
+pub(super) type Real = f32;
 
 /// A raw pointer shared by threads that write disjoint entries of one vector.
 #[derive(Clone, Copy)]

@@ -16,7 +16,11 @@
 
 // Coarse coefficients are stored as `level::Real`, which need not be f64.
 // Lattice kernels index several arrays by node number at once.
-#![allow(clippy::unnecessary_cast, clippy::needless_range_loop)]
+#![allow(
+    clippy::unnecessary_cast,
+    clippy::needless_range_loop,
+    clippy::manual_div_ceil
+)]
 
 mod coarsest;
 mod cycle;
@@ -24,12 +28,13 @@ mod galerkin;
 mod interpolation;
 mod level;
 mod smoother;
+mod transfer;
 
 use super::{cg, Info, Params, SolveError};
 use crate::stencil::Stencil5;
 use coarsest::BandCholesky;
 use cycle::Workspace;
-use interpolation::coarse_len;
+use interpolation::{coarse_len, LineWeights};
 use level::Level;
 
 /// Settings of the hierarchy and its cycle.
@@ -61,6 +66,8 @@ pub struct Hierarchy {
     fine: (usize, usize),
     /// Coarse levels, finest first; the last is solved directly.
     levels: Vec<Level>,
+    /// `weights[k]`: line weights from level k (0 = fine) to level k + 1.
+    weights: Vec<LineWeights>,
     /// Factor of the last level (of the fine level when there is no coarse level).
     coarsest: BandCholesky,
     options: Options,
@@ -89,16 +96,26 @@ impl Hierarchy {
             "stencil arrays must cover the lattice"
         );
         let mut levels: Vec<Level> = Vec::new();
+        let mut weights: Vec<LineWeights> = Vec::new();
         let mut dims = (a.nx, a.ny);
         loop {
             let next = (coarse_len(dims.0), coarse_len(dims.1));
             if dims.0 * dims.1 <= options.coarsest_nodes.max(1) || next == dims {
                 break;
             }
-            let level = match levels.last() {
-                None => galerkin::coarse_operator(a),
-                Some(l) => galerkin::coarse_operator(l),
+            let (w, level) = match levels.last() {
+                None => {
+                    let w = LineWeights::new(a);
+                    let c = galerkin::coarse_operator(a, &w);
+                    (w, c)
+                }
+                Some(l) => {
+                    let w = LineWeights::new(l);
+                    let c = galerkin::coarse_operator(l, &w);
+                    (w, c)
+                }
             };
+            weights.push(w);
             levels.push(level);
             dims = next;
         }
@@ -109,6 +126,7 @@ impl Hierarchy {
         Hierarchy {
             fine: (a.nx, a.ny),
             levels,
+            weights,
             coarsest,
             options: options.clone(),
         }
@@ -125,6 +143,7 @@ impl Hierarchy {
     /// operator and CG's own vectors).
     pub fn bytes(&self) -> usize {
         self.levels.iter().map(Level::bytes).sum::<usize>()
+            + self.weights.iter().map(LineWeights::bytes).sum::<usize>()
             + self.coarsest.bytes()
             + Workspace::new(self).bytes()
     }
