@@ -3,7 +3,9 @@
 //!
 //! Two studies on the same lattice: the design as drawn (capacitance matrix C) and the design
 //! with every permittivity set to 1 (C0). The matrices over the signal conductors, every
-//! other conductor grounded, go to [`fieldgrid_solver::line::parameters`]. Everything the
+//! other conductor grounded, go to [`fieldgrid_solver::line::parameters`]. A symmetry side
+//! that every signal touches is unfolded: the line is the design and its mirror image, so
+//! each such side doubles the matrices (a half model reports the whole line). Everything the
 //! `solve` command writes is written too (for the design as drawn), with the line parameters
 //! under `line` in `summary.json` and in `line.csv`.
 
@@ -14,9 +16,9 @@ use crate::error::Failure;
 use crate::outdir::{csv_bytes, num, OutDir};
 use crate::summary::Summary;
 use crate::{EXIT_NOT_CONVERGED, EXIT_OK};
-use fieldgrid_solver::design::{Design, Drive, Mode};
+use fieldgrid_solver::design::{Design, Drive, Mode, Shape, Side};
 use fieldgrid_solver::line::{self, LineParams};
-use fieldgrid_solver::study::{self, Solution};
+use fieldgrid_solver::study::{self, Solution, StudyError, StudyParams};
 use serde_json::{json, Value};
 use std::time::Instant;
 
@@ -34,35 +36,29 @@ pub fn run(args: &ImpedanceArgs) -> Result<u8, Failure> {
     check_memory(&src, &args.design, args.opts.max_memory)?;
     let params = study_params(&args.opts)?;
     let out = OutDir::prepare(&args.out)?;
-    let vacuum = without_dielectrics(design);
     let start = Instant::now();
-    let (sol, sol0) = with_threads(args.opts.threads, || {
-        let a = study::run(design, &params);
-        let b = study::run(&vacuum, &params);
-        (a, b)
+    let ls = with_threads(args.opts.threads, || {
+        line_study(design, &args.signal, &params)
+    })?
+    .map_err(|e| match e {
+        LineStudyError::Study(e) => study_failure(&src, e),
+        LineStudyError::Line(e) => {
+            Failure::input(format!("--signal {}: {e}", args.signal.join(",")))
+        }
     })?;
-    let sol = sol.map_err(|e| study_failure(&src, e))?;
-    let sol0 = sol0.map_err(|e| study_failure(&src, e))?;
     let seconds = start.elapsed().as_secs_f64();
     if !args.opts.quiet && std::io::IsTerminal::is_terminal(&std::io::stderr()) {
         eprint!("\r{:60}\r", "");
     }
+    let (sol, sol0, lp, errors) = (&ls.solution, &ls.vacuum, &ls.line, &ls.errors);
 
-    let pick = |sol: &Solution, m: &[Vec<f64>]| submatrix(sol, m, &args.signal);
-    let lp = line::parameters(
-        &pick(&sol, &sol.capacitance.matrix),
-        &pick(&sol0, &sol0.capacitance.matrix),
-    )
-    .map_err(|e| Failure::input(format!("--signal {}: {e}", args.signal.join(","))))?;
-    let errors = line_errors(&sol, &sol0, &lp, &args.signal);
-
-    let mut warnings = line_warnings(&lp);
+    let mut warnings = ls.warnings.clone();
     for w in &sol0.warnings {
         if !sol.warnings.contains(w) {
             warnings.push(format!("study with every permittivity 1: {w}"));
         }
     }
-    let mut summary = Summary::from_solution(&sol, design.depth, seconds, &src.text_hash);
+    let mut summary = Summary::from_solution(sol, design.depth, seconds, &src.text_hash);
     summary.warnings.extend(warnings.iter().cloned());
     summary.solver.converged &= sol0.solve.converged;
     summary.solver.solves += sol0.solve.solves;
@@ -74,11 +70,14 @@ pub fn run(args: &ImpedanceArgs) -> Result<u8, Failure> {
     if summary.solver.failure.is_none() {
         summary.solver.failure = sol0.solve.failure.clone();
     }
-    summary.line = Some(line_json(&args.signal, &lp, &errors));
-    write_results(&out, &sol, &summary, design, false)?;
-    out.write("line.csv", &line_csv(&lp, &errors))?;
+    summary.line = Some(line_json(&args.signal, &ls.mirrored, lp, errors));
+    write_results(&out, sol, &summary, design, false)?;
+    out.write("line.csv", &line_csv(lp, errors))?;
     if !args.opts.quiet {
-        print!("{}", report(&args.signal, &lp, &errors, &summary, &out));
+        print!(
+            "{}",
+            report(&args.signal, &ls.mirrored, lp, errors, &summary, &out)
+        );
     }
     if !summary.solver.converged {
         return Ok(EXIT_NOT_CONVERGED);
@@ -86,8 +85,160 @@ pub fn run(args: &ImpedanceArgs) -> Result<u8, Failure> {
     Ok(EXIT_OK)
 }
 
+/// The two studies of a line and what follows from them.
+#[derive(Debug)]
+pub struct LineStudy {
+    /// The study of the design as drawn.
+    pub solution: Solution,
+    /// The study with every permittivity 1.
+    pub vacuum: Solution,
+    /// Line parameters of the signals.
+    pub line: LineParams,
+    /// Estimated discretisation errors of the scalar parameters, by key (empty without the
+    /// error estimate).
+    pub errors: Vec<(&'static str, f64)>,
+    /// Symmetry sides the line was unfolded across (each doubles every signal conductor).
+    pub mirrored: Vec<&'static str>,
+    /// Warnings about the line parameters.
+    pub warnings: Vec<String>,
+}
+
+/// A line study that could not run.
+#[derive(Debug)]
+pub enum LineStudyError {
+    /// One of the two studies failed.
+    Study(StudyError),
+    /// The matrices do not describe a line.
+    Line(line::LineError),
+}
+
+/// Runs both studies of a planar design and derives the line parameters of `signals`
+/// (fixed-potential conductors of the design, checked by the caller).
+pub fn line_study(
+    design: &Design,
+    signals: &[String],
+    params: &StudyParams,
+) -> Result<LineStudy, LineStudyError> {
+    let solution = study::run(design, params).map_err(LineStudyError::Study)?;
+    let vacuum = study::run(&without_dielectrics(design), params).map_err(LineStudyError::Study)?;
+    let (mirrored, mut warnings) = mirrors(design, signals);
+    let factor = 2f64.powi(mirrored.len() as i32);
+    let pick = |sol: &Solution, m: &[Vec<f64>]| {
+        let mut c = submatrix(sol, m, signals);
+        c.iter_mut().flatten().for_each(|v| *v *= factor);
+        c
+    };
+    let line = line::parameters(
+        &pick(&solution, &solution.capacitance.matrix),
+        &pick(&vacuum, &vacuum.capacitance.matrix),
+    )
+    .map_err(LineStudyError::Line)?;
+    let errors = match (
+        &solution.capacitance.error_model,
+        &vacuum.capacitance.error_model,
+    ) {
+        (Some(m), Some(m0)) => {
+            match line::parameters(&pick(&solution, &m.coarse), &pick(&vacuum, &m0.coarse)) {
+                Ok(coarse) => {
+                    // The more cautious of the two studies' orders.
+                    let model = if m0.order < m.order { m0 } else { m };
+                    line::scalars(&line)
+                        .into_iter()
+                        .zip(line::scalars(&coarse))
+                        .map(|((k, f), (_, c))| (k, model.estimate(f, c)))
+                        .collect()
+                }
+                Err(_) => Vec::new(),
+            }
+        }
+        _ => Vec::new(),
+    };
+    warnings.extend(line_warnings(&line));
+    Ok(LineStudy {
+        solution,
+        vacuum,
+        line,
+        errors,
+        mirrored,
+        warnings,
+    })
+}
+
+/// The symmetry sides that every signal touches: the line is the design unfolded across
+/// them, each doubling every signal conductor (and so its capacitances). A symmetry side
+/// that some signal does not touch mirrors that signal into a second conductor driven in
+/// phase; that is said in a warning.
+fn mirrors(design: &Design, signals: &[String]) -> (Vec<&'static str>, Vec<String>) {
+    let d = &design.domain;
+    let tol = 1e-9 * (d.x[1] - d.x[0]).abs().max((d.y[1] - d.y[0]).abs());
+    let s = &design.sides;
+    let sides = [
+        ("left", s.left, 0usize, d.x[0]),
+        ("right", s.right, 0, d.x[1]),
+        ("bottom", s.bottom, 1, d.y[0]),
+        ("top", s.top, 1, d.y[1]),
+    ];
+    let mut mirrored = Vec::new();
+    let mut warnings = Vec::new();
+    for (name, side, axis, at) in sides {
+        if side != Side::Symmetry {
+            continue;
+        }
+        let touching: Vec<bool> = signals
+            .iter()
+            .map(|sig| {
+                let c = design
+                    .conductors
+                    .iter()
+                    .find(|c| &c.name == sig)
+                    .expect("signals checked before the study");
+                let (lo, hi) = extent(&c.shape, axis);
+                (lo - at).abs() <= tol || (hi - at).abs() <= tol
+            })
+            .collect();
+        if touching.iter().all(|&t| t) {
+            mirrored.push(name);
+        } else {
+            let apart: Vec<&str> = signals
+                .iter()
+                .zip(&touching)
+                .filter(|(_, &t)| !t)
+                .map(|(s, _)| s.as_str())
+                .collect();
+            warnings.push(format!(
+                "the symmetry side `{name}` mirrors {} into a second conductor driven in phase: \
+                 the results describe the line together with that image",
+                apart.join(", ")
+            ));
+        }
+    }
+    (mirrored, warnings)
+}
+
+/// Extent of a shape along an axis (0: x, 1: y), m.
+fn extent(shape: &Shape, axis: usize) -> (f64, f64) {
+    let points: Vec<[f64; 2]> = match shape {
+        Shape::Rect { x, y, .. } => vec![[x[0], y[0]], [x[1], y[1]]],
+        Shape::Circle { center, radius } => vec![
+            [center[0] - radius, center[1] - radius],
+            [center[0] + radius, center[1] + radius],
+        ],
+        Shape::Ring { center, outer, .. } => vec![
+            [center[0] - outer, center[1] - outer],
+            [center[0] + outer, center[1] + outer],
+        ],
+        Shape::Polygon { outer, .. } => outer.clone(),
+        Shape::Polyline(p) => p.clone(),
+    };
+    points
+        .iter()
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), p| {
+            (lo.min(p[axis]), hi.max(p[axis]))
+        })
+}
+
 /// Every signal names a distinct conductor with a fixed potential.
-fn check_signals(design: &Design, signals: &[String]) -> Result<(), Failure> {
+pub fn check_signals(design: &Design, signals: &[String]) -> Result<(), Failure> {
     let names: Vec<&str> = design.conductors.iter().map(|c| c.name.as_str()).collect();
     for (k, s) in signals.iter().enumerate() {
         match design.conductors.iter().find(|c| &c.name == s) {
@@ -143,33 +294,6 @@ fn submatrix(sol: &Solution, m: &[Vec<f64>], signals: &[String]) -> Vec<Vec<f64>
         .collect()
 }
 
-/// Estimated discretisation errors of the scalar line parameters, by key: the same
-/// Richardson estimate as for the capacitance entries, applied to the parameters computed
-/// from the coarse-lattice matrices (the more cautious of the two studies' orders).
-fn line_errors(
-    sol: &Solution,
-    sol0: &Solution,
-    lp: &LineParams,
-    signals: &[String],
-) -> Vec<(&'static str, f64)> {
-    let (Some(m), Some(m0)) = (&sol.capacitance.error_model, &sol0.capacitance.error_model) else {
-        return Vec::new();
-    };
-    let Ok(coarse) = line::parameters(
-        &submatrix(sol, &m.coarse, signals),
-        &submatrix(sol0, &m0.coarse, signals),
-    ) else {
-        return Vec::new();
-    };
-    let model = if m0.order < m.order { m0 } else { m };
-    let coarse = line::scalars(&coarse);
-    line::scalars(lp)
-        .into_iter()
-        .zip(coarse)
-        .map(|((k, f), (_, c))| (k, model.estimate(f, c)))
-        .collect()
-}
-
 fn line_warnings(lp: &LineParams) -> Vec<String> {
     let mut out = Vec::new();
     if let Some(p) = &lp.pair {
@@ -185,9 +309,15 @@ fn line_warnings(lp: &LineParams) -> Vec<String> {
     out
 }
 
-fn line_json(signals: &[String], lp: &LineParams, errors: &[(&str, f64)]) -> Value {
+fn line_json(
+    signals: &[String],
+    mirrored: &[&str],
+    lp: &LineParams,
+    errors: &[(&str, f64)],
+) -> Value {
     let mut v = json!({
         "signals": signals,
+        "unfolded_across": mirrored,
         "c": lp.c,
         "c0": lp.c0,
         "l": lp.l,
@@ -231,6 +361,7 @@ fn line_csv(lp: &LineParams, errors: &[(&str, f64)]) -> Vec<u8> {
 /// The short table printed after the studies.
 fn report(
     signals: &[String],
+    mirrored: &[&str],
     lp: &LineParams,
     errors: &[(&str, f64)],
     summary: &Summary,
@@ -247,6 +378,13 @@ fn report(
         summary.solver.solves,
         summary.solver.seconds
     );
+    if !mirrored.is_empty() {
+        let _ = writeln!(
+            s,
+            "  (the whole line: the design unfolded across its symmetry side {})",
+            mirrored.join(" and ")
+        );
+    }
     let err = |k: &str| {
         errors
             .iter()
