@@ -550,8 +550,13 @@ impl ColorScale {
             (lo, hi) = (-m, m);
         }
         if hi.partial_cmp(&lo) != Some(std::cmp::Ordering::Greater) {
-            let d = if lo == 0.0 { 1.0 } else { lo.abs() * 0.05 };
-            (lo, hi) = (lo - d, hi + d);
+            // A constant field: zero shows on 0..1 (never a negative magnitude), anything
+            // else on +-5 % around it.
+            (lo, hi) = if lo == 0.0 {
+                (0.0, 1.0)
+            } else {
+                (lo - lo.abs() * 0.05, hi + hi.abs() * 0.05)
+            };
         }
         let table = if diverging {
             colormap::diverging()
@@ -685,15 +690,14 @@ fn bar_label_style() -> Style {
     Style::new(12.0, INK)
 }
 
-/// Width of the colour bar block right of the plot.
-fn bar_block_width(cs: &ColorScale, h: usize) -> (usize, Vec<(f64, String)>) {
-    let ticks = cs.ticks((h / 40).clamp(2, 10));
-    let widest = ticks
-        .iter()
-        .map(|t| text::measure(&t.1, bar_label_style()).width)
-        .fold(0.0f32, f32::max);
-    let w = BAR_GAP as usize + BAR_W as usize + 8 + widest.ceil() as usize + 10 + 18 + 8;
-    (w, ticks)
+/// Width of the colour bar block right of the plot: gap, bar, ticks, labels up to 56 px (wider
+/// ones spill into the margin) and the bar's title. Fixed, so that a map's layout depends on
+/// its grid and options only, never on its values.
+const BAR_BLOCK: usize = BAR_GAP as usize + BAR_W as usize + 8 + 56 + 10 + 18 + 8;
+
+/// The colour bar's ticks for a bar `h` px tall.
+fn bar_ticks(cs: &ColorScale, h: usize) -> Vec<(f64, String)> {
+    cs.ticks((h / 40).clamp(2, 10))
 }
 
 fn draw_bar(
@@ -1187,28 +1191,96 @@ fn point_at(p: &[P], s: f64) -> P {
 // ---------------------------------------------------------------------------------------------
 // Entry points
 
-/// The placement of everything in a map picture.
-struct MapLayout {
+/// Where a picture put its plot and its colour bar or legend, for probing pictures (in tests,
+/// say) at known places.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Frame {
+    /// Picture width and height, px.
+    pub size: [u32; 2],
+    /// Plot area: left, top, width, height, px.
+    pub plot: [u32; 4],
+    /// A map's colour bar (left, top, width, height, px; top row is the high end), or a
+    /// preview's first legend swatch (the next ones follow [`LEGEND_PITCH`] px lower).
+    pub side: [u32; 4],
+    /// Domain shown, m.
+    pub x: [f64; 2],
+    /// Domain shown, m.
+    pub y: [f64; 2],
+    /// True when the axes are not to scale.
+    pub distorted: bool,
+}
+
+impl Frame {
+    /// Picture pixel coordinates (x right, y down, fractional) of a point in metres.
+    pub fn pixel(&self, p: Point) -> [f64; 2] {
+        let [x0, y0, w, h] = self.plot.map(f64::from);
+        [
+            x0 + (p[0] - self.x[0]) / (self.x[1] - self.x[0]) * w,
+            y0 + (self.y[1] - p[1]) / (self.y[1] - self.y[0]) * h,
+        ]
+    }
+
+    fn of(plot: &Plot, size: [u32; 2], side: [i64; 4]) -> Frame {
+        Frame {
+            size,
+            plot: [plot.x0 as u32, plot.y0 as u32, plot.w as u32, plot.h as u32],
+            side: side.map(|v| v.max(0) as u32),
+            x: plot.xr,
+            y: plot.yr,
+            distorted: plot.distorted,
+        }
+    }
+}
+
+/// Vertical distance between legend swatches of the preview, px.
+pub const LEGEND_PITCH: u32 = 20;
+
+/// The frame [`render_map`] uses for a grid: it depends on the grid, the length unit and the
+/// options only, not on the values.
+pub fn map_frame(grid: &Grid, length_unit: LengthUnit, opts: &RenderOptions) -> Frame {
+    let l = map_layout(grid, length_unit, opts);
+    Frame::of(
+        &l.plot,
+        [l.width as u32, l.height as u32],
+        bar_rect(&l.plot),
+    )
+}
+
+/// The frame [`render_preview`] uses for this input.
+pub fn preview_frame(input: &PreviewInput, opts: &RenderOptions) -> Frame {
+    let (l, _) = preview_layout(input, opts);
+    Frame::of(
+        &l.plot,
+        [l.width as u32, l.height as u32],
+        swatch_rect(&l.plot, 0),
+    )
+}
+
+fn bar_rect(plot: &Plot) -> [i64; 4] {
+    [plot.right() + BAR_GAP, plot.y0, BAR_W, plot.h as i64]
+}
+
+/// The placement of everything in a picture.
+struct Layout {
     plot: Plot,
     axes: Axes,
-    scale: ColorScale,
-    bar_ticks: Vec<(f64, String)>,
-    /// Left edge of the group (axes, plot, bar), px.
+    /// Left edge of the group (axes, plot, bar or legend), px.
     left: usize,
     width: usize,
     height: usize,
 }
 
-fn map_layout(input: &MapInput, opts: &RenderOptions) -> MapLayout {
-    let grid = input.grid;
+/// Lays out a picture of the domain `xr` by `yr` with a block `right` px wide beside the plot.
+fn layout(
+    xr: [f64; 2],
+    yr: [f64; 2],
+    unit: LengthUnit,
+    right: usize,
+    opts: &RenderOptions,
+) -> Layout {
     let width = opts.width.clamp(400, 8000) as usize;
-    let xr = [grid.x0, grid.x1()];
-    let yr = [grid.y0, grid.y1()];
-    let scale = ColorScale::new(input);
-    // Size the plot for a typical bar block, then measure the real one.
-    let (pw, ph, distorted) = plot_size(width, xr, yr, 170);
-    let (right, bar_ticks) = bar_block_width(&scale, ph);
-    let axes = make_axes(xr, yr, pw, ph, input.length_unit);
+    let (pw, ph, distorted) = plot_size(width, xr, yr, right + 30);
+    let axes = make_axes(xr, yr, pw, ph, unit);
     let (width, left) = place_group(width, axes.left + pw + right);
     let plot = Plot {
         x0: (left + axes.left) as i64,
@@ -1219,15 +1291,23 @@ fn map_layout(input: &MapInput, opts: &RenderOptions) -> MapLayout {
         yr,
         distorted,
     };
-    MapLayout {
+    Layout {
         plot,
         axes,
-        scale,
-        bar_ticks,
         left,
         width,
         height: TOP + ph + BOTTOM,
     }
+}
+
+fn map_layout(grid: &Grid, unit: LengthUnit, opts: &RenderOptions) -> Layout {
+    layout(
+        [grid.x0, grid.x1()],
+        [grid.y0, grid.y1()],
+        unit,
+        BAR_BLOCK,
+        opts,
+    )
 }
 
 /// Draws a field map.
@@ -1238,15 +1318,15 @@ pub fn render_map(input: &MapInput, opts: &RenderOptions) -> RgbImage {
 fn draw_map(input: &MapInput, opts: &RenderOptions) -> (RgbImage, Plot) {
     let grid = input.grid;
     assert_eq!(input.values.len(), grid.len(), "one value per grid node");
-    let MapLayout {
+    let Layout {
         plot,
         axes: ax,
-        scale: cs,
-        bar_ticks,
         left,
         width,
         height,
-    } = map_layout(input, opts);
+    } = map_layout(grid, input.length_unit, opts);
+    let cs = ColorScale::new(input);
+    let bar_ticks = bar_ticks(&cs, plot.h);
     let (xr, yr, pw, ph) = (plot.xr, plot.yr, plot.w, plot.h);
     let mut img = RgbImage::from_pixel(width as u32, height as u32, PAPER);
 
@@ -1318,68 +1398,102 @@ pub fn render_preview(input: &PreviewInput, opts: &RenderOptions) -> RgbImage {
     draw_preview(input, opts).0
 }
 
-fn draw_preview(input: &PreviewInput, opts: &RenderOptions) -> (RgbImage, Plot) {
-    let width = opts.width.clamp(400, 8000) as usize;
-    let (xr, yr) = (input.x, input.y);
-    // Legend entries: background, each dielectric, conductors.
-    let eps: Vec<f64> = std::iter::once(input.background_permittivity)
-        .chain(input.dielectrics.iter().map(|d| d.permittivity))
-        .filter(|e| e.is_finite() && *e > 0.0)
-        .collect();
-    let (emin, emax) = eps
-        .iter()
-        .fold((f64::INFINITY, 0.0f64), |(a, b), &e| (a.min(e), b.max(e)));
-    let color_of = |e: f64| {
-        let u = if emax > emin && e > 0.0 {
-            ((e / emin).ln() / (emax / emin).ln()).clamp(0.0, 1.0)
+/// The preview's legend: swatch colour and text per entry.
+struct Legend {
+    entries: Vec<(Rgb<u8>, String)>,
+    /// Permittivity range, for colouring.
+    eps: [f64; 2],
+}
+
+impl Legend {
+    fn new(input: &PreviewInput) -> Legend {
+        let (emin, emax) = std::iter::once(input.background_permittivity)
+            .chain(input.dielectrics.iter().map(|d| d.permittivity))
+            .filter(|e| e.is_finite() && *e > 0.0)
+            .fold((f64::INFINITY, 0.0f64), |(a, b), e| (a.min(e), b.max(e)));
+        let mut l = Legend {
+            entries: Vec::new(),
+            eps: [emin, emax],
+        };
+        let bg = input.background_permittivity;
+        l.entries.push((
+            l.color(bg),
+            format!("background, {}", permittivity_text(bg)),
+        ));
+        for d in input.dielectrics {
+            let name = if d.outline.name.is_empty() {
+                "dielectric"
+            } else {
+                &d.outline.name
+            };
+            l.entries.push((
+                l.color(d.permittivity),
+                format!("{name}, {}", permittivity_text(d.permittivity)),
+            ));
+        }
+        if !input.conductors.is_empty() {
+            l.entries.push((NO_VALUE, "conductor".to_string()));
+        }
+        l
+    }
+
+    /// The colour of a permittivity: the light end of the sequential map, palest for the
+    /// lowest, on a logarithmic scale between the design's extremes.
+    fn color(&self, e: f64) -> Rgb<u8> {
+        let [lo, hi] = self.eps;
+        let u = if hi > lo && e > 0.0 {
+            ((e / lo).ln() / (hi / lo).ln()).clamp(0.0, 1.0)
         } else {
             0.0
         };
-        // The light end of the sequential map: low permittivity palest.
         colormap::sequential().at_or_fill(0.97 - 0.6 * u)
-    };
-    let mut legend: Vec<(Rgb<u8>, String)> = vec![(
-        color_of(input.background_permittivity),
-        format!(
-            "background, {}",
-            permittivity_text(input.background_permittivity)
-        ),
-    )];
-    for d in input.dielectrics {
-        let name = if d.outline.name.is_empty() {
-            "dielectric"
-        } else {
-            &d.outline.name
-        };
-        legend.push((
-            color_of(d.permittivity),
-            format!("{name}, {}", permittivity_text(d.permittivity)),
-        ));
     }
-    if !input.conductors.is_empty() {
-        legend.push((NO_VALUE, "conductor".to_string()));
-    }
-    let st = Style::new(12.0, INK);
-    let widest = legend
-        .iter()
-        .map(|l| text::measure(&l.1, st).width)
-        .fold(0.0f32, f32::max)
-        .min(260.0);
-    let right = 22 + 16 + 8 + widest.ceil() as usize + 10;
 
-    let (pw, ph, distorted) = plot_size(width, xr, yr, right);
-    let ax = make_axes(xr, yr, pw, ph, input.length_unit);
-    let (width, ox) = place_group(width, ax.left + pw + right);
-    let plot = Plot {
-        x0: (ox + ax.left) as i64,
-        y0: TOP as i64,
-        w: pw,
-        h: ph,
-        xr,
-        yr,
-        distorted,
-    };
-    let mut img = RgbImage::from_pixel(width as u32, (TOP + ph + BOTTOM) as u32, PAPER);
+    fn width(&self) -> usize {
+        let widest = self
+            .entries
+            .iter()
+            .map(|l| text::measure(&l.1, legend_style()).width)
+            .fold(0.0f32, f32::max);
+        22 + 16 + 8 + widest.min(260.0).ceil() as usize + 10
+    }
+}
+
+fn legend_style() -> Style {
+    Style::new(12.0, INK)
+}
+
+fn swatch_rect(plot: &Plot, k: usize) -> [i64; 4] {
+    [
+        plot.right() + 22,
+        plot.y0 + 2 + k as i64 * LEGEND_PITCH as i64,
+        16,
+        14,
+    ]
+}
+
+fn preview_layout(input: &PreviewInput, opts: &RenderOptions) -> (Layout, Legend) {
+    let legend = Legend::new(input);
+    (
+        layout(input.x, input.y, input.length_unit, legend.width(), opts),
+        legend,
+    )
+}
+
+fn draw_preview(input: &PreviewInput, opts: &RenderOptions) -> (RgbImage, Plot) {
+    let (
+        Layout {
+            plot,
+            axes: ax,
+            left: ox,
+            width,
+            height,
+        },
+        legend,
+    ) = preview_layout(input, opts);
+    let color_of = |e: f64| legend.color(e);
+    let distorted = plot.distorted;
+    let mut img = RgbImage::from_pixel(width as u32, height as u32, PAPER);
 
     // Materials, painted in order.
     fill_rect(
@@ -1427,37 +1541,33 @@ fn draw_preview(input: &PreviewInput, opts: &RenderOptions) -> (RgbImage, Plot) 
     draw_axes(&mut img, &plot, &ax, input.length_unit, input.axis_names);
 
     // Legend, top-aligned beside the plot; what does not fit is counted.
-    let lx = plot.right() + 22;
-    let row = 20i64;
-    let fits = ((ph as i64 - 4) / row).max(1) as usize;
-    let shown = if legend.len() > fits {
-        fits - 1
-    } else {
-        legend.len()
-    };
-    for (k, (c, s)) in legend.iter().take(shown).enumerate() {
-        let y = plot.y0 + 2 + k as i64 * row;
-        fill_rect(&mut img, lx, y, lx + 16, y + 14, *c, 1.0);
-        rect_outline(&mut img, lx, y, lx + 16, y + 14, GREY_INK);
+    let st = legend_style();
+    let fits = ((plot.h as i64 - 4) / LEGEND_PITCH as i64).max(1) as usize;
+    let n = legend.entries.len();
+    let shown = if n > fits { fits - 1 } else { n };
+    for (k, (c, s)) in legend.entries.iter().take(shown).enumerate() {
+        let [x, y, w, h] = swatch_rect(&plot, k);
+        fill_rect(&mut img, x, y, x + w, y + h, *c, 1.0);
+        rect_outline(&mut img, x, y, x + w, y + h, GREY_INK);
         let t = ellipsize(s, st, 260.0);
         text::draw(
             &mut img,
             &t,
             st,
-            (lx + 24) as f32,
+            (x + w + 8) as f32,
             y as f32 + 7.0,
             HAlign::Left,
             VAlign::Middle,
         );
     }
-    if shown < legend.len() {
-        let y = plot.y0 + 2 + shown as i64 * row;
-        let more = format!("… {} more", legend.len() - shown);
+    if shown < n {
+        let [x, y, w, _] = swatch_rect(&plot, shown);
+        let more = format!("… {} more", n - shown);
         text::draw(
             &mut img,
             &more,
             st,
-            (lx + 24) as f32,
+            (x + w + 8) as f32,
             y as f32 + 7.0,
             HAlign::Left,
             VAlign::Middle,

@@ -622,3 +622,58 @@ fn field_lines_leave_the_positive_wire_and_cross_equipotentials() {
         }
     }
 }
+
+#[test]
+fn frames_tell_where_the_plot_bar_and_legend_are() {
+    let s = scene();
+    let unit = LengthUnit {
+        label: "mm",
+        metres: MM,
+    };
+    let opts = RenderOptions::default();
+    let f = map_frame(&s.grid, unit, &opts);
+    let (img, plot) = draw_map(&input(&s), &opts);
+    assert_eq!(f.size, [img.width(), img.height()]);
+    assert_eq!(
+        f.plot,
+        [plot.x0 as u32, plot.y0 as u32, plot.w as u32, plot.h as u32]
+    );
+    // The layout does not depend on the values: a field a million times larger, same frame.
+    let big: Vec<f64> = s.values.iter().map(|v| v * 1e6 - 3e5).collect();
+    let (_, plot2) = draw_map(
+        &MapInput {
+            values: &big,
+            ..input(&s)
+        },
+        &opts,
+    );
+    assert_eq!(plot2.x0, plot.x0);
+    // Probes through the frame: bar ends and a conductor's inside.
+    let [bx, by, bw, bh] = f.side;
+    assert_eq!(*img.get_pixel(bx + bw / 2, by), sequential().rgb[LEN - 1]);
+    assert_eq!(
+        *img.get_pixel(bx + bw / 2, by + bh - 1),
+        sequential().rgb[0]
+    );
+    let q = f.pixel([12.4 * MM, 3.4 * MM]);
+    assert_eq!(*img.get_pixel(q[0] as u32, q[1] as u32), NO_VALUE);
+
+    let mats = [Material {
+        outline: Outline::polygon("slab", vec![[0.0, 0.0], [1.0, 0.0], [1.0, 0.2], [0.0, 0.2]]),
+        permittivity: 9.8,
+    }];
+    let inp = PreviewInput {
+        dielectrics: &mats,
+        ..PreviewInput::new([0.0, 1.0], [0.0, 1.0])
+    };
+    let pf = preview_frame(&inp, &opts);
+    let img = render_preview(&inp, &opts);
+    let [sx, sy, sw, sh] = pf.side;
+    let bg = *img.get_pixel(sx + sw / 2, sy + sh / 2);
+    let slab = *img.get_pixel(sx + sw / 2, sy + LEGEND_PITCH + sh / 2);
+    let inside = pf.pixel([0.5, 0.1]);
+    let outside = pf.pixel([0.5, 0.7]);
+    assert_eq!(*img.get_pixel(inside[0] as u32, inside[1] as u32), slab);
+    assert_eq!(*img.get_pixel(outside[0] as u32, outside[1] as u32), bg);
+    assert_ne!(bg, slab);
+}
