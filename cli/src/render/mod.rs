@@ -98,7 +98,8 @@ pub enum Scale {
 /// Which colour map.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub enum Palette {
-    /// Diverging when the values take both signs on a linear scale, sequential otherwise.
+    /// Diverging when the values take both signs on a linear scale (the smaller side beyond
+    /// 1 % of the larger), sequential otherwise.
     Auto,
     /// [`colormap::sequential`].
     Sequential,
@@ -543,7 +544,11 @@ impl ColorScale {
         let diverging = match input.palette {
             Palette::Diverging => true,
             Palette::Sequential => false,
-            Palette::Auto => !log && lo < 0.0 && hi > 0.0,
+            Palette::Auto => {
+                // Both signs, each beyond 1 % of the other: round-off below zero in a
+                // one-signed field does not count.
+                !log && lo < 0.0 && hi > 0.0 && lo.abs().min(hi) > 0.01 * lo.abs().max(hi)
+            }
         } && !log;
         if diverging {
             let m = lo.abs().max(hi.abs());

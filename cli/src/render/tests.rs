@@ -353,6 +353,15 @@ fn signed_values_use_the_diverging_map_centred_on_zero() {
     assert!(c.l > 0.95 && c.a.abs() < 0.02 && c.b.abs() < 0.02, "{c:?}");
     let bx = (plot.right() + BAR_GAP + BAR_W / 2) as u32;
     assert_eq!(*img.get_pixel(bx, plot.y0 as u32), diverging().rgb[LEN - 1]);
+    // Round-off below zero in a one-signed field keeps the sequential map.
+    let noisy: Vec<f64> = (0..grid.len())
+        .map(|k| (k % grid.nx) as f64 / 80.0 - 1e-12)
+        .collect();
+    let cs = ColorScale::new(&MapInput {
+        values: &noisy,
+        ..inp
+    });
+    assert!(std::ptr::eq(cs.table, sequential()) && cs.lo < 0.0 && cs.lo > -1e-11);
 }
 
 #[test]
