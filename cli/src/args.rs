@@ -23,6 +23,11 @@ pub enum Command {
     /// Line parameters of a planar cross-section: capacitance and inductance matrices,
     /// characteristic impedance, effective permittivity, odd/even/differential impedances.
     Impedance(ImpedanceArgs),
+    /// Compare two revisions (design files or earlier summary.json files); exit 1 when a
+    /// result moved beyond the tolerance.
+    Compare(CompareArgs),
+    /// Solve a design over a grid of parameter values, optionally one shard of it.
+    Sweep(SweepArgs),
 }
 
 /// Linear solver choice on the command line.
@@ -80,6 +85,10 @@ pub struct SolveArgs {
     /// Exit with code 1 when any hot spot's margin is below this value.
     #[arg(long)]
     pub min_margin: Option<f64>,
+    /// Require the circuit export `capacitance.cir` (refused for a planar design without
+    /// `depth`; without this option it is written whenever it can be).
+    #[arg(long)]
+    pub circuit: bool,
     /// Solver options.
     #[command(flatten)]
     pub opts: SolveOptions,
@@ -114,6 +123,54 @@ pub struct ImpedanceArgs {
     /// Directory for the results (created if missing).
     #[arg(long)]
     pub out: PathBuf,
+    /// Solver options.
+    #[command(flatten)]
+    pub opts: SolveOptions,
+}
+
+/// `fieldgrid compare`.
+#[derive(Args, Debug)]
+pub struct CompareArgs {
+    /// The base revision: a design file (solved now) or a summary.json (or a results
+    /// directory holding one).
+    pub base: PathBuf,
+    /// The new revision, as BASE.
+    pub new: PathBuf,
+    /// Relative change beyond which a quantity counts as changed.
+    #[arg(long, default_value_t = 0.01, value_name = "X")]
+    pub rel_tol: f64,
+    /// Write compare.csv and compare.json here.
+    #[arg(long)]
+    pub out: Option<PathBuf>,
+    /// Solver options (for design files).
+    #[command(flatten)]
+    pub opts: SolveOptions,
+}
+
+/// `fieldgrid sweep`.
+#[derive(Args, Debug)]
+pub struct SweepArgs {
+    /// The design file (TOML) whose parameters are varied.
+    #[arg(required_unless_present = "merge")]
+    pub design: Option<PathBuf>,
+    /// NAME=START:STOP:COUNT: COUNT evenly spaced values of parameter NAME from START to STOP
+    /// (in the design's own units). Repeat for a cartesian product; the first varies slowest.
+    #[arg(
+        long,
+        value_name = "NAME=START:STOP:COUNT",
+        required_unless_present = "merge"
+    )]
+    pub vary: Vec<String>,
+    /// Directory for sweep.csv and sweep.json (created if missing; a re-run resumes).
+    #[arg(long)]
+    pub out: PathBuf,
+    /// Run only the points whose index (counted from 0) leaves remainder I when divided by N;
+    /// I counts from 0, so I/N runs from 0/N to (N-1)/N.
+    #[arg(long, value_name = "I/N", conflicts_with = "merge")]
+    pub shard: Option<String>,
+    /// Join the results directories of the shards of one sweep into --out, in point order.
+    #[arg(long, value_name = "DIR", num_args = 1.., conflicts_with_all = ["design", "vary"])]
+    pub merge: Vec<PathBuf>,
     /// Solver options.
     #[command(flatten)]
     pub opts: SolveOptions,

@@ -11,6 +11,7 @@ pub mod error;
 pub mod outdir;
 pub mod pictures;
 pub mod render;
+pub mod spice;
 pub mod summary;
 
 use clap::Parser;
@@ -48,6 +49,8 @@ where
         args::Command::Solve(a) => commands::solve::run(a),
         args::Command::Check(a) => commands::check::run(a),
         args::Command::Impedance(a) => commands::impedance::run(a),
+        args::Command::Compare(a) => commands::compare::run(a),
+        args::Command::Sweep(a) => commands::sweep::run(a),
     };
     match result {
         Ok(code) => ExitCode::from(code),

@@ -2,8 +2,10 @@
 //! library, and writes results through [`crate::outdir::OutDir`].
 
 pub mod check;
+pub mod compare;
 pub mod impedance;
 pub mod solve;
+pub mod sweep;
 
 use crate::args::{SolveOptions, SolverChoice};
 use crate::design_file::{self, DesignSource};

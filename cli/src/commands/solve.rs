@@ -14,6 +14,18 @@ pub fn run(args: &SolveArgs) -> Result<u8, Failure> {
     let src = load_design(&args.design, &[])?;
     let (_grid, _mib) = check_memory(&src, &args.design, args.opts.max_memory)?;
     let params = study_params(&args.opts)?;
+    if args.circuit {
+        if let Err(why) = crate::spice::exportable(src.design.mode, src.design.depth) {
+            return Err(Failure::input(format!(
+                "{}: --circuit: {}",
+                args.design.display(),
+                why.describe()
+            )));
+        }
+    }
+    if let Some(min) = args.min_margin {
+        check_min_margin(&src.design, min, &args.design)?;
+    }
     let out = OutDir::prepare(&args.out)?;
     let start = Instant::now();
     let sol = with_threads(args.opts.threads, || study::run(&src.design, &params))?
@@ -27,29 +39,166 @@ pub fn run(args: &SolveArgs) -> Result<u8, Failure> {
     let (potential_png, field_png) = crate::pictures::field_maps(&src, &sol, args.log_field);
     out.write_png("potential.png", &potential_png)?;
     out.write_png("field.png", &field_png)?;
+    let circuit = crate::spice::for_solution(
+        &sol,
+        src.design.depth,
+        &subcircuit_name(&args.design),
+        &args.design.display().to_string(),
+    );
+    if let Ok(net) = &circuit {
+        out.write("capacitance.cir", net.text.as_bytes())?;
+    }
     if !args.opts.quiet {
         print!("{}", report(&sol, &summary, &out));
+        match &circuit {
+            Ok(net) => net.warnings.iter().for_each(|w| println!("warning: {w}")),
+            Err(why) => println!("note: {}", why.describe()),
+        }
     }
     if !sol.solve.converged {
         return Ok(EXIT_NOT_CONVERGED);
     }
     if let Some(min) = args.min_margin {
-        if let Some(h) = sol
-            .hotspots
-            .iter()
-            .find(|h| h.margin.is_some_and(|m| m < min))
-        {
-            eprintln!(
-                "fieldgrid: hot spot at ({:.4e} m, {:.4e} m) has margin {:.3}, below --min-margin {min}",
-                h.x,
-                h.y,
-                h.margin.unwrap_or(f64::NAN)
-            );
-            return Ok(EXIT_CHANGED);
+        if let Some(w) = worst_margin(&sol, &src.design) {
+            if w.margin < min {
+                eprintln!(
+                    "fieldgrid: the margin at ({:.4e} m, {:.4e} m) in {} is {:.3} \
+                     ({:.3e} V/m against a strength of {:.3e} V/m), below --min-margin {min}{}",
+                    w.x,
+                    w.y,
+                    w.material,
+                    w.margin,
+                    w.field,
+                    w.strength,
+                    if w.singular {
+                        "; it sits at a sharp corner, where the value grows with refinement: \
+                         evaluate with the corner rounded (`round = r`)"
+                    } else {
+                        ""
+                    }
+                );
+                return Ok(EXIT_CHANGED);
+            }
         }
     }
     Ok(EXIT_OK)
 }
+
+/// The subcircuit name: the design file's stem.
+pub fn subcircuit_name(design: &std::path::Path) -> String {
+    design
+        .file_stem()
+        .map(|s| s.to_string_lossy().into_owned())
+        .unwrap_or_else(|| "fieldgrid".into())
+}
+
+/// Refuses `--min-margin` values that are not positive numbers, and designs that give no
+/// breakdown strength at all (the check would pass without looking at anything).
+fn check_min_margin(
+    design: &fieldgrid_solver::design::Design,
+    min: f64,
+    file: &std::path::Path,
+) -> Result<(), Failure> {
+    if !(min.is_finite() && min > 0.0) {
+        return Err(Failure::input(format!(
+            "--min-margin must be a positive number, got {min}"
+        )));
+    }
+    if design.background.strength.is_none()
+        && design.dielectrics.iter().all(|d| d.strength.is_none())
+    {
+        return Err(Failure::input(format!(
+            "{}: --min-margin needs a breakdown strength: give `strength` (V/m) in \
+             [background] or in a [[dielectric]]",
+            file.display()
+        )));
+    }
+    Ok(())
+}
+
+/// The lowest margin (strength / field) over every free node whose material has a strength.
+#[derive(Clone, Debug, PartialEq)]
+pub struct WorstMargin {
+    /// strength / field.
+    pub margin: f64,
+    /// Field there, V/m.
+    pub field: f64,
+    /// Strength of the material there, V/m.
+    pub strength: f64,
+    /// Position, m.
+    pub x: f64,
+    /// Position, m.
+    pub y: f64,
+    /// Material name.
+    pub material: String,
+    /// Within the singular reach of a sharp corner.
+    pub singular: bool,
+}
+
+/// Scans every free node (not only the ranked hot spots, which are ordered by field and
+/// may miss a weaker material at a lower field).
+pub fn worst_margin(
+    sol: &Solution,
+    design: &fieldgrid_solver::design::Design,
+) -> Option<WorstMargin> {
+    let potentials: Vec<f64> = sol.conductors.iter().map(|c| c.potential).collect();
+    let field = fieldgrid_solver::post::FieldEval::new(
+        &sol.operator,
+        &sol.raster,
+        &sol.potential,
+        &potentials,
+    );
+    let strength = |m: u16| {
+        if m == 0 {
+            design.background.strength
+        } else {
+            design.dielectrics[m as usize - 1].strength
+        }
+    };
+    let g = &sol.grid;
+    let mut best: Option<(usize, f64, f64, f64)> = None;
+    for p in 0..g.len() {
+        let Some(s) = strength(sol.raster.material[p]) else {
+            continue;
+        };
+        let e = field.magnitude(p);
+        if !(e.is_finite() && e > 0.0) {
+            continue;
+        }
+        let m = s / e;
+        if best.is_none_or(|b| m < b.1) {
+            best = Some((p, m, e, s));
+        }
+    }
+    let corners = fieldgrid_solver::post::sharp_corners(design);
+    let reach = fieldgrid_solver::post::HotspotParams::default().corner_cells * g.hx.max(g.hy);
+    best.map(|(p, margin, e, s)| {
+        let (x, y) = (g.x(p % g.nx), g.y(p / g.nx));
+        let m = sol.raster.material[p];
+        WorstMargin {
+            margin,
+            field: e,
+            strength: s,
+            x,
+            y,
+            material: if m == 0 {
+                "background".to_string()
+            } else {
+                design.dielectrics[m as usize - 1].name.clone()
+            },
+            singular: corners.iter().any(|c| (c[0] - x).hypot(c[1] - y) <= reach),
+        }
+    })
+}
+
+/// What the report and hotspots.csv say about a singular hot spot.
+pub const SINGULAR_NOTE: &str = "sharp corner or thin edge: the value grows as the cell \
+     shrinks; round the corner (round = r) and solve again to evaluate it";
+
+/// The caution printed with margins.
+pub const MARGIN_CAUTION: &str = "caution: margins are estimates from a discretised field. \
+     Clearances and creepage distances follow the applicable standards and licensed \
+     engineering practice.";
 
 /// Maps a library failure to the user's message.
 pub fn study_failure(src: &crate::design_file::DesignSource, e: StudyError) -> Failure {
@@ -105,6 +254,7 @@ pub fn write_results(
             "strength (V/m)",
             "margin",
             "singular",
+            "note",
         ],
         sol.hotspots.iter().enumerate().map(|(k, h)| {
             vec![
@@ -116,6 +266,11 @@ pub fn write_results(
                 h.strength.map(num).unwrap_or_default(),
                 h.margin.map(num).unwrap_or_default(),
                 h.singular.to_string(),
+                if h.singular {
+                    SINGULAR_NOTE.to_string()
+                } else {
+                    String::new()
+                },
             ]
         }),
     );
@@ -213,9 +368,46 @@ fn report(sol: &Solution, summary: &Summary, out: &OutDir) -> String {
             }
         );
     }
+    s += &hotspot_report(&sol.hotspots, 5);
     for w in &sol.warnings {
         let _ = writeln!(s, "warning: {w}");
     }
     let _ = writeln!(s, "results in {}", out.path().display());
+    s
+}
+
+/// The ranked hot spots (at most `shown` of them), the singular note and the caution.
+pub fn hotspot_report(hotspots: &[fieldgrid_solver::post::Hotspot], shown: usize) -> String {
+    use std::fmt::Write;
+    let mut s = String::new();
+    if hotspots.is_empty() {
+        return s;
+    }
+    let _ = writeln!(s, "hot spots (largest field first):");
+    for (k, h) in hotspots.iter().take(shown).enumerate() {
+        let margin = match (h.strength, h.margin) {
+            (Some(st), Some(m)) => format!(", strength {st:.3e} V/m, margin {m:.2}"),
+            _ => String::new(),
+        };
+        let _ = writeln!(
+            s,
+            "  {:2}. {:.3e} V/m at ({:.4e} m, {:.4e} m) in {}{margin}{}",
+            k + 1,
+            h.magnitude,
+            h.x,
+            h.y,
+            h.material,
+            if h.singular { "  [singular]" } else { "" }
+        );
+    }
+    if hotspots.len() > shown {
+        let _ = writeln!(s, "  ({} more in hotspots.csv)", hotspots.len() - shown);
+    }
+    if hotspots.iter().take(shown).any(|h| h.singular) {
+        let _ = writeln!(s, "  [singular]: {SINGULAR_NOTE}");
+    }
+    if hotspots.iter().any(|h| h.margin.is_some()) {
+        let _ = writeln!(s, "{MARGIN_CAUTION}");
+    }
     s
 }

@@ -1,0 +1,501 @@
+//! `fieldgrid compare BASE NEW`: the change between two revisions, quantity by quantity.
+//!
+//! BASE and NEW are each a design file (solved now, with the common solve options), a
+//! `summary.json` written by `solve`, or a results directory holding one. Both become a
+//! [`Summary`]; the compared quantities are every capacitance entry `C[a,b]`, every
+//! conductor's charge `Q[a]`, the potential `V[a]` of every floating conductor, the energy
+//! and the peak field. A quantity present on one side only is reported and counts as a
+//! change.
+//!
+//! Invariants: the relative change is (new - base) / |base| (zero when both are zero, infinite
+//! when only the base is zero); a quantity is beyond tolerance when |relative change| >
+//! `--rel-tol`. Exit 0: nothing beyond tolerance; 1: something is; 2: bad input; 3: a solve
+//! (now, or recorded in a summary) did not converge.
+
+use super::{check_memory, load_design, study_params, with_threads};
+use crate::args::CompareArgs;
+use crate::error::Failure;
+use crate::outdir::{csv_bytes, num, OutDir};
+use crate::summary::{Summary, VERSION};
+use crate::{EXIT_CHANGED, EXIT_NOT_CONVERGED, EXIT_OK};
+use fieldgrid_solver::study::{self, Solution};
+use serde::Serialize;
+use std::path::{Path, PathBuf};
+use std::time::Instant;
+
+/// One side of the comparison.
+pub struct Revision {
+    /// The path as given.
+    pub path: PathBuf,
+    /// Its results.
+    pub summary: Summary,
+    /// The solution, when the input was a design file (for the change picture).
+    pub solution: Option<Solution>,
+}
+
+/// What kind of file an input is.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum InputKind {
+    /// A design file (TOML).
+    Design,
+    /// A summary.json.
+    Summary,
+}
+
+/// One compared quantity.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct Change {
+    /// `C[a,b]`, `Q[a]`, `V[a]`, `energy` or `peak_field`.
+    pub quantity: String,
+    /// SI unit.
+    pub unit: String,
+    /// Value in BASE, if present there.
+    pub base: Option<f64>,
+    /// Value in NEW, if present there.
+    pub new: Option<f64>,
+    /// new - base.
+    pub change: Option<f64>,
+    /// (new - base) / |base|; `None` (JSON null) when it is infinite or a side is missing.
+    pub relative_change: Option<f64>,
+    /// Beyond tolerance (or present on one side only).
+    pub beyond_tolerance: bool,
+    /// Remarks: "only in BASE", "singular peak", ...
+    pub note: String,
+}
+
+/// Decides whether a path is a summary (a `.json` file, a directory with `summary.json`, or
+/// a file whose text opens with `{`) or a design.
+pub fn classify(path: &Path) -> Result<(InputKind, PathBuf), Failure> {
+    if path.is_dir() {
+        let s = path.join("summary.json");
+        if s.is_file() {
+            return Ok((InputKind::Summary, s));
+        }
+        return Err(Failure::input(format!(
+            "{}: a directory without summary.json (give a design file, a summary.json, or a \
+             results directory of `fieldgrid solve`)",
+            path.display()
+        )));
+    }
+    let ext = path
+        .extension()
+        .map(|e| e.to_string_lossy().to_ascii_lowercase());
+    match ext.as_deref() {
+        Some("json") => Ok((InputKind::Summary, path.to_path_buf())),
+        Some("toml") => Ok((InputKind::Design, path.to_path_buf())),
+        _ => {
+            let text = std::fs::read_to_string(path)
+                .map_err(|e| Failure::input(format!("{}: cannot read: {e}", path.display())))?;
+            if text.trim_start().starts_with('{') {
+                Ok((InputKind::Summary, path.to_path_buf()))
+            } else {
+                Ok((InputKind::Design, path.to_path_buf()))
+            }
+        }
+    }
+}
+
+/// Reads a summary.json.
+pub fn read_summary(path: &Path) -> Result<Summary, Failure> {
+    let text = std::fs::read_to_string(path)
+        .map_err(|e| Failure::input(format!("{}: cannot read: {e}", path.display())))?;
+    let s: Summary = serde_json::from_str(&text).map_err(|e| {
+        Failure::input(format!(
+            "{}: not a fieldgrid summary.json: {e}",
+            path.display()
+        ))
+    })?;
+    if s.version != VERSION {
+        return Err(Failure::input(format!(
+            "{}: summary version {} is not supported (this fieldgrid reads version {VERSION})",
+            path.display(),
+            s.version
+        )));
+    }
+    let n = s.capacitance.names.len();
+    if s.capacitance.matrix.len() != n || s.capacitance.matrix.iter().any(|r| r.len() != n) {
+        return Err(Failure::input(format!(
+            "{}: capacitance.matrix is not {n} x {n} (one row and column per name)",
+            path.display()
+        )));
+    }
+    Ok(s)
+}
+
+/// Loads one side: reads a summary, or reads and solves a design.
+fn load(path: &Path, args: &CompareArgs, role: &str) -> Result<Revision, Failure> {
+    let (kind, file) = classify(path)?;
+    match kind {
+        InputKind::Summary => Ok(Revision {
+            path: path.to_path_buf(),
+            summary: read_summary(&file)?,
+            solution: None,
+        }),
+        InputKind::Design => {
+            let src = load_design(&file, &[])?;
+            check_memory(&src, &file, args.opts.max_memory)?;
+            let params = study_params(&args.opts)?;
+            if !args.opts.quiet && std::io::IsTerminal::is_terminal(&std::io::stderr()) {
+                eprint!("\rsolving {role} {} ...", file.display());
+            }
+            let start = Instant::now();
+            let sol = with_threads(args.opts.threads, || study::run(&src.design, &params))?
+                .map_err(|e| super::solve::study_failure(&src, e))?;
+            if !args.opts.quiet && std::io::IsTerminal::is_terminal(&std::io::stderr()) {
+                eprint!("\r{:70}\r", "");
+            }
+            let summary = Summary::from_solution(
+                &sol,
+                src.design.depth,
+                start.elapsed().as_secs_f64(),
+                &src.text_hash,
+            );
+            Ok(Revision {
+                path: path.to_path_buf(),
+                summary,
+                solution: Some(sol),
+            })
+        }
+    }
+}
+
+/// The named quantities of a summary, in report order: (name, unit, value, note).
+pub fn quantities(s: &Summary) -> Vec<(String, String, f64, String)> {
+    let per = s.per_length;
+    let unit = |planar: &str, axi: &str| if per { planar } else { axi }.to_string();
+    let mut out = Vec::new();
+    let cap = &s.capacitance;
+    for (i, a) in cap.names.iter().enumerate() {
+        for (j, b) in cap.names.iter().enumerate() {
+            out.push((
+                format!("C[{a},{b}]"),
+                cap.unit.clone(),
+                cap.matrix[i][j],
+                String::new(),
+            ));
+        }
+    }
+    for c in &s.conductors {
+        out.push((
+            format!("Q[{}]", c.name),
+            unit("C/m", "C"),
+            c.charge,
+            String::new(),
+        ));
+    }
+    for c in s.conductors.iter().filter(|c| c.floating) {
+        out.push((
+            format!("V[{}]", c.name),
+            "V".into(),
+            c.potential,
+            String::new(),
+        ));
+    }
+    out.push(("energy".into(), unit("J/m", "J"), s.energy, String::new()));
+    if let Some(p) = &s.peak_field {
+        out.push((
+            "peak_field".into(),
+            "V/m".into(),
+            p.magnitude,
+            if p.singular {
+                "singular peak: grows with refinement".into()
+            } else {
+                String::new()
+            },
+        ));
+    }
+    out
+}
+
+/// Relative change (new - base) / |base|: 0 when equal, infinite when only base is zero.
+pub fn relative_change(base: f64, new: f64) -> f64 {
+    let d = new - base;
+    if d == 0.0 {
+        0.0
+    } else if base == 0.0 {
+        f64::INFINITY.copysign(d)
+    } else {
+        d / base.abs()
+    }
+}
+
+/// Every quantity of either side, base order first, then those only in NEW.
+pub fn changes(base: &Summary, new: &Summary, rel_tol: f64) -> Vec<Change> {
+    let qb = quantities(base);
+    let qn = quantities(new);
+    let mut out = Vec::new();
+    for (name, unit, vb, note_b) in &qb {
+        let found = qn.iter().find(|q| &q.0 == name);
+        let (new_v, note) = match found {
+            Some((_, _, vn, note_n)) => {
+                let note = if note_n.is_empty() { note_b } else { note_n };
+                (Some(*vn), note.clone())
+            }
+            None => (None, "only in BASE".to_string()),
+        };
+        out.push(change(name, unit, Some(*vb), new_v, rel_tol, note));
+    }
+    for (name, unit, vn, note_n) in &qn {
+        if !qb.iter().any(|q| &q.0 == name) {
+            let note = if note_n.is_empty() {
+                "only in NEW".to_string()
+            } else {
+                format!("only in NEW; {note_n}")
+            };
+            out.push(change(name, unit, None, Some(*vn), rel_tol, note));
+        }
+    }
+    out
+}
+
+fn change(
+    name: &str,
+    unit: &str,
+    base: Option<f64>,
+    new: Option<f64>,
+    rel_tol: f64,
+    note: String,
+) -> Change {
+    let (change, rel, beyond) = match (base, new) {
+        (Some(b), Some(n)) => {
+            let r = relative_change(b, n);
+            (Some(n - b), r, r.abs() > rel_tol)
+        }
+        _ => (None, f64::NAN, true),
+    };
+    Change {
+        quantity: name.to_string(),
+        unit: unit.to_string(),
+        base,
+        new,
+        change,
+        relative_change: rel.is_finite().then_some(rel),
+        beyond_tolerance: beyond,
+        note,
+    }
+}
+
+/// Runs the command, returning the exit code.
+pub fn run(args: &CompareArgs) -> Result<u8, Failure> {
+    if !(args.rel_tol.is_finite() && args.rel_tol >= 0.0) {
+        return Err(Failure::input(format!(
+            "--rel-tol must be a number >= 0, got {}",
+            args.rel_tol
+        )));
+    }
+    // Classify both before solving either, so a bad NEW costs no solve of BASE.
+    classify(&args.base)?;
+    classify(&args.new)?;
+    let out = args.out.as_deref().map(OutDir::prepare).transpose()?;
+    let base = load(&args.base, args, "BASE")?;
+    let new = load(&args.new, args, "NEW")?;
+    if base.summary.mode != new.summary.mode || base.summary.per_length != new.summary.per_length {
+        return Err(Failure::input(format!(
+            "{} is {} and {} is {}: their results have different units and cannot be compared",
+            args.base.display(),
+            base.summary.mode,
+            args.new.display(),
+            new.summary.mode
+        )));
+    }
+    let table = changes(&base.summary, &new.summary, args.rel_tol);
+    let beyond = table.iter().filter(|c| c.beyond_tolerance).count();
+    let mut remarks = Vec::new();
+    let (gb, gn) = (&base.summary.grid, &new.summary.grid);
+    if (gb.nx, gb.ny) != (gn.nx, gn.ny) || gb.cell != gn.cell {
+        remarks.push(format!(
+            "the grids differ (BASE {} x {} nodes, cell {:.4e} m; NEW {} x {}, cell {:.4e} m): \
+             part of each change is discretisation",
+            gb.nx, gb.ny, gb.cell, gn.nx, gn.ny, gn.cell
+        ));
+    }
+    let unconverged: Vec<String> = [(&base, "BASE"), (&new, "NEW")]
+        .iter()
+        .filter(|(r, _)| !r.summary.solver.converged)
+        .map(|(r, role)| format!("{role} ({})", r.path.display()))
+        .collect();
+    if !unconverged.is_empty() {
+        remarks.push(format!(
+            "the solve of {} did not converge: its numbers are not reliable",
+            unconverged.join(" and ")
+        ));
+    }
+    if base.solution.is_some() && new.solution.is_some() && out.is_some() {
+        remarks.push(
+            "the picture of the change in field magnitude is not written yet: it comes with the \
+             pictures module"
+                .to_string(),
+        );
+    }
+    if let Some(out) = &out {
+        write_outputs(out, args, &table, beyond, &remarks)?;
+    }
+    if !args.opts.quiet {
+        print!("{}", render_table(args, &table, beyond, &remarks));
+    }
+    Ok(if !unconverged.is_empty() {
+        EXIT_NOT_CONVERGED
+    } else if beyond > 0 {
+        EXIT_CHANGED
+    } else {
+        EXIT_OK
+    })
+}
+
+fn opt_num(v: Option<f64>) -> String {
+    v.map(num).unwrap_or_default()
+}
+
+fn relative_text(c: &Change) -> String {
+    match (c.relative_change, c.change) {
+        (Some(r), _) => num(r),
+        (None, Some(d)) => {
+            if d > 0.0 {
+                "inf".into()
+            } else {
+                "-inf".into()
+            }
+        }
+        _ => String::new(),
+    }
+}
+
+fn write_outputs(
+    out: &OutDir,
+    args: &CompareArgs,
+    table: &[Change],
+    beyond: usize,
+    remarks: &[String],
+) -> Result<(), Failure> {
+    let csv = csv_bytes(
+        &[
+            "quantity",
+            "unit",
+            "base",
+            "new",
+            "change",
+            "relative change",
+            "beyond tolerance",
+            "note",
+        ],
+        table.iter().map(|c| {
+            vec![
+                c.quantity.clone(),
+                c.unit.clone(),
+                opt_num(c.base),
+                opt_num(c.new),
+                opt_num(c.change),
+                relative_text(c),
+                c.beyond_tolerance.to_string(),
+                c.note.clone(),
+            ]
+        }),
+    );
+    let json = serde_json::json!({
+        "version": 1,
+        "base": args.base.display().to_string(),
+        "new": args.new.display().to_string(),
+        "rel_tol": args.rel_tol,
+        "changed": beyond,
+        "quantities": table,
+        "remarks": remarks,
+    });
+    let json =
+        serde_json::to_vec_pretty(&json).map_err(|e| Failure::io("encoding compare.json", e))?;
+    out.write("compare.csv", &csv)?;
+    out.write("compare.json", &json)?;
+    Ok(())
+}
+
+/// The table printed on standard output.
+pub fn render_table(
+    args: &CompareArgs,
+    table: &[Change],
+    beyond: usize,
+    remarks: &[String],
+) -> String {
+    use std::fmt::Write;
+    let mut s = String::new();
+    let _ = writeln!(s, "BASE {}", args.base.display());
+    let _ = writeln!(s, "NEW  {}", args.new.display());
+    let w = table
+        .iter()
+        .map(|c| c.quantity.len())
+        .max()
+        .unwrap_or(8)
+        .max(8);
+    let _ = writeln!(
+        s,
+        "{:w$}  {:>4}  {:>12}  {:>12}  {:>11}  {:>9}",
+        "quantity", "unit", "base", "new", "change", "relative"
+    );
+    let cell = |v: Option<f64>| v.map(|v| format!("{v:.5e}")).unwrap_or_else(|| "-".into());
+    for c in table {
+        let rel = match (c.relative_change, c.change) {
+            (Some(r), _) => format!("{:+.3} %", 100.0 * r),
+            (None, Some(_)) => "from 0".into(),
+            _ => "-".into(),
+        };
+        let mut flag = String::new();
+        if c.beyond_tolerance {
+            flag.push_str("  CHANGED");
+        }
+        if !c.note.is_empty() {
+            let _ = write!(flag, "  ({})", c.note);
+        }
+        let _ = writeln!(
+            s,
+            "{:w$}  {:>4}  {:>12}  {:>12}  {:>11}  {:>9}{flag}",
+            c.quantity,
+            c.unit,
+            cell(c.base),
+            cell(c.new),
+            c.change
+                .map(|v| format!("{v:+.3e}"))
+                .unwrap_or_else(|| "-".into()),
+            rel
+        );
+    }
+    for r in remarks {
+        let _ = writeln!(s, "note: {r}");
+    }
+    if beyond == 0 {
+        let _ = writeln!(
+            s,
+            "no change beyond {} % in {} quantities",
+            100.0 * args.rel_tol,
+            table.len()
+        );
+    } else {
+        let _ = writeln!(
+            s,
+            "{beyond} of {} quantities changed beyond {} %",
+            table.len(),
+            100.0 * args.rel_tol
+        );
+    }
+    s
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn relative_change_cases() {
+        assert_eq!(relative_change(2.0, 2.0), 0.0);
+        assert_eq!(relative_change(0.0, 0.0), 0.0);
+        assert_eq!(relative_change(-2.0, -3.0), -0.5);
+        assert_eq!(relative_change(0.0, -1.0), f64::NEG_INFINITY);
+    }
+
+    #[test]
+    fn one_sided_quantities_count_as_changes() {
+        let c = change("Q[a]", "C/m", None, Some(1.0), 0.01, "only in NEW".into());
+        assert!(c.beyond_tolerance && c.relative_change.is_none());
+        let c = change("Q[a]", "C/m", Some(1.0), Some(1.005), 0.01, String::new());
+        assert!(!c.beyond_tolerance);
+        let c = change("Q[a]", "C/m", Some(1.0), Some(1.02), 0.01, String::new());
+        assert!(c.beyond_tolerance);
+    }
+}

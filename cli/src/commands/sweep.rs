@@ -1,0 +1,654 @@
+//! `fieldgrid sweep DESIGN --vary NAME=START:STOP:COUNT ... --out DIR [--shard I/N]` and
+//! `fieldgrid sweep --merge DIR... --out DIR`.
+//!
+//! The points are the cartesian product of the varied parameters, numbered from 0 with the
+//! first `--vary` varying slowest. `sweep.csv` holds one row per point: the point index, the
+//! varied parameters (in the design's own units), every capacitance entry `C[a,b]` (F/m planar,
+//! F axisymmetric), the peak field and whether every solve converged. `sweep.json` holds the
+//! sweep's definition (design hash, varied parameters, solver and tolerance) and the shard.
+//!
+//! Invariants:
+//! - `--shard I/N` runs the points with index % N == I, with 0 <= I < N (I counts from 0,
+//!   like a scheduler's array index from 0).
+//! - Every point's design is read and checked before the first solve, so bad input costs
+//!   no solve and leaves no rows.
+//! - After each point the whole `sweep.csv` is rewritten atomically, rows in point order, so
+//!   an interrupted run leaves a valid table and a re-run with the same arguments resumes by
+//!   skipping the points already there. A results directory of a different sweep is refused.
+//! - A merge checks that every part belongs to the same sweep, that points given twice agree
+//!   exactly, and that together they cover every point.
+
+use super::{check_memory, load_design, study_params, with_threads};
+use crate::args::{SolverChoice, SweepArgs};
+use crate::design_file::DesignSource;
+use crate::error::Failure;
+use crate::outdir::{csv_bytes, num, OutDir};
+use crate::{EXIT_NOT_CONVERGED, EXIT_OK};
+use fieldgrid_solver::design::Drive;
+use fieldgrid_solver::study;
+use serde::{Deserialize, Serialize};
+use std::collections::BTreeMap;
+use std::io::IsTerminal;
+use std::path::Path;
+
+/// Most points one sweep may have.
+pub const MAX_POINTS: usize = 1_000_000;
+
+/// One varied parameter.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct Vary {
+    /// Parameter name.
+    pub name: String,
+    /// First value.
+    pub start: f64,
+    /// Last value.
+    pub stop: f64,
+    /// Number of values, >= 1.
+    pub count: usize,
+}
+
+impl Vary {
+    /// Parses `NAME=START:STOP:COUNT`.
+    pub fn parse(s: &str) -> Result<Vary, String> {
+        let form = "write --vary NAME=START:STOP:COUNT, for example gap=0.2:1.0:5";
+        let (name, range) = s
+            .split_once('=')
+            .ok_or_else(|| format!("--vary {s}: no `=`: {form}"))?;
+        let name = name.trim();
+        if name.is_empty() {
+            return Err(format!("--vary {s}: no parameter name: {form}"));
+        }
+        let parts: Vec<&str> = range.split(':').map(str::trim).collect();
+        let [a, b, c] = parts[..] else {
+            return Err(format!(
+                "--vary {s}: `{range}` has {} part(s), not three: {form}",
+                parts.len()
+            ));
+        };
+        let number = |t: &str, what: &str| -> Result<f64, String> {
+            match t.parse::<f64>() {
+                Ok(v) if v.is_finite() => Ok(v),
+                _ => Err(format!("--vary {s}: {what} `{t}` is not a finite number")),
+            }
+        };
+        let start = number(a, "START")?;
+        let stop = number(b, "STOP")?;
+        let count: usize = c
+            .parse()
+            .ok()
+            .filter(|&n| n >= 1)
+            .ok_or_else(|| format!("--vary {s}: COUNT `{c}` must be a whole number >= 1"))?;
+        if count == 1 && start != stop {
+            return Err(format!(
+                "--vary {s}: with COUNT 1 there is one value: write {name}={start}:{start}:1"
+            ));
+        }
+        Ok(Vary {
+            name: name.to_string(),
+            start,
+            stop,
+            count,
+        })
+    }
+
+    /// Value number k (0-based): evenly spaced, the last exactly STOP.
+    pub fn value(&self, k: usize) -> f64 {
+        if self.count == 1 || k == 0 {
+            self.start
+        } else if k + 1 == self.count {
+            self.stop
+        } else {
+            self.start + (self.stop - self.start) * k as f64 / (self.count - 1) as f64
+        }
+    }
+}
+
+/// Total number of points of the cartesian product.
+pub fn point_count(vary: &[Vary]) -> Result<usize, String> {
+    vary.iter().try_fold(1usize, |n, v| {
+        n.checked_mul(v.count)
+            .filter(|&n| n <= MAX_POINTS)
+            .ok_or_else(|| format!("the sweep has more than {MAX_POINTS} points"))
+    })
+}
+
+/// The parameter values of point `index`: the first parameter varies slowest.
+pub fn point_values(vary: &[Vary], index: usize) -> Vec<f64> {
+    let mut rest = index;
+    let mut ks = vec![0; vary.len()];
+    for (k, v) in ks.iter_mut().zip(vary).rev() {
+        *k = rest % v.count;
+        rest /= v.count;
+    }
+    ks.iter().zip(vary).map(|(&k, v)| v.value(k)).collect()
+}
+
+/// A shard: points with index % count == index.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]
+pub struct Shard {
+    /// I, 0-based.
+    pub index: usize,
+    /// N.
+    pub count: usize,
+}
+
+impl Shard {
+    /// Parses `I/N` (0 <= I < N).
+    pub fn parse(s: &str) -> Result<Shard, String> {
+        let bad = || {
+            format!(
+                "--shard {s}: write I/N with 0 <= I < N, for example 0/4 .. 3/4 (I counts from 0)"
+            )
+        };
+        let (i, n) = s.split_once('/').ok_or_else(bad)?;
+        let index: usize = i.trim().parse().map_err(|_| bad())?;
+        let count: usize = n.trim().parse().map_err(|_| bad())?;
+        if count == 0 {
+            return Err(format!("--shard {s}: N must be at least 1"));
+        }
+        if index >= count {
+            return Err(format!(
+                "--shard {s}: I counts from 0, so it must be below N ({}/{count} is the last shard)",
+                count - 1
+            ));
+        }
+        Ok(Shard { index, count })
+    }
+
+    /// True when this shard runs point `p`.
+    pub fn runs(&self, p: usize) -> bool {
+        p % self.count == self.index
+    }
+}
+
+/// `sweep.json`: what identifies a sweep, and which part of it a directory holds.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct SweepFile {
+    /// Format version.
+    pub version: u32,
+    /// The design file as given (for information).
+    pub design: String,
+    /// Hash of the design text.
+    pub design_hash: String,
+    /// The varied parameters, slowest first.
+    pub vary: Vec<Vary>,
+    /// Number of points of the whole sweep.
+    pub points: usize,
+    /// Solver method name.
+    pub solver: String,
+    /// Relative residual tolerance.
+    pub tol: f64,
+    /// The columns of sweep.csv.
+    pub columns: Vec<String>,
+    /// The shard this directory holds; absent for a whole (or merged) sweep.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub shard: Option<Shard>,
+}
+
+impl SweepFile {
+    /// True when two files describe the same sweep (shards and file names aside).
+    pub fn same_sweep(&self, other: &SweepFile) -> bool {
+        self.version == other.version
+            && self.design_hash == other.design_hash
+            && self.vary == other.vary
+            && self.points == other.points
+            && self.solver == other.solver
+            && self.tol == other.tol
+            && self.columns == other.columns
+    }
+
+    /// What differs between two sweeps, for messages.
+    fn difference(&self, other: &SweepFile) -> String {
+        if self.design_hash != other.design_hash {
+            "the design text differs".into()
+        } else if self.vary != other.vary || self.points != other.points {
+            "the varied parameters differ".into()
+        } else if self.solver != other.solver || self.tol != other.tol {
+            "the solver or its tolerance differs".into()
+        } else if self.columns != other.columns {
+            "the columns differ".into()
+        } else if self.shard != other.shard {
+            "the shard differs".into()
+        } else {
+            "nothing".into()
+        }
+    }
+}
+
+/// The rows of a sweep.csv, keyed by point index.
+type Rows = BTreeMap<usize, Vec<String>>;
+
+fn solver_name(c: SolverChoice) -> &'static str {
+    use fieldgrid_solver::solvers::Method;
+    match c {
+        SolverChoice::Multigrid => Method::Multigrid.name(),
+        SolverChoice::Cg => Method::Cg.name(),
+        SolverChoice::Sor => Method::Sor.name(),
+    }
+}
+
+/// Runs the command, returning the exit code.
+pub fn run(args: &SweepArgs) -> Result<u8, Failure> {
+    if !args.merge.is_empty() {
+        return merge(&args.merge, &args.out, args.opts.quiet);
+    }
+    let design = args
+        .design
+        .as_deref()
+        .ok_or_else(|| Failure::input("sweep needs a DESIGN (or --merge DIR...)"))?;
+    let mut vary = Vec::new();
+    for v in &args.vary {
+        let v = Vary::parse(v).map_err(Failure::input)?;
+        if vary.iter().any(|w: &Vary| w.name == v.name) {
+            return Err(Failure::input(format!(
+                "--vary {}: the parameter is varied twice",
+                v.name
+            )));
+        }
+        vary.push(v);
+    }
+    if vary.is_empty() {
+        return Err(Failure::input(
+            "sweep needs at least one --vary NAME=START:STOP:COUNT",
+        ));
+    }
+    let points = point_count(&vary).map_err(Failure::input)?;
+    let shard = args
+        .shard
+        .as_deref()
+        .map(Shard::parse)
+        .transpose()
+        .map_err(Failure::input)?;
+    let params = study_params(&args.opts)?;
+    let mine: Vec<usize> = (0..points)
+        .filter(|&p| shard.is_none_or(|s| s.runs(p)))
+        .collect();
+
+    // Every point of this shard is read and checked before anything is solved.
+    let mut sources: Vec<(usize, Vec<f64>, DesignSource)> = Vec::new();
+    for &p in &mine {
+        let values = point_values(&vary, p);
+        let overrides: Vec<(String, f64)> = vary
+            .iter()
+            .zip(&values)
+            .map(|(v, &x)| (v.name.clone(), x))
+            .collect();
+        let src =
+            load_design(design, &overrides).map_err(|f| point_failure(p, &vary, &values, f))?;
+        check_memory(&src, design, args.opts.max_memory)
+            .map_err(|f| point_failure(p, &vary, &values, f))?;
+        sources.push((p, values, src));
+    }
+    let hash = match sources.first() {
+        Some((_, _, s)) => s.text_hash.clone(),
+        // A shard with no points (N larger than the sweep): still read the design once.
+        None => load_design(design, &[])?.text_hash,
+    };
+    let names: Vec<String> = match sources.first() {
+        Some((_, _, s)) => fixed_names(s),
+        None => fixed_names(&load_design(design, &[])?),
+    };
+    for (p, values, s) in &sources {
+        if fixed_names(s) != names {
+            return Err(point_failure(
+                *p,
+                &vary,
+                values,
+                Failure::input("the fixed-potential conductors differ from the first point's"),
+            ));
+        }
+    }
+    let mut columns = vec!["point".to_string()];
+    columns.extend(vary.iter().map(|v| v.name.clone()));
+    let unit = match sources.first().map(|s| s.2.design.mode) {
+        Some(fieldgrid_solver::design::Mode::Axisymmetric) => "F",
+        _ => "F/m",
+    };
+    for a in &names {
+        for b in &names {
+            columns.push(format!("C[{a},{b}] ({unit})"));
+        }
+    }
+    columns.push("peak_field (V/m)".into());
+    columns.push("converged".into());
+    let def = SweepFile {
+        version: 1,
+        design: design.display().to_string(),
+        design_hash: hash,
+        vary: vary.clone(),
+        points,
+        solver: solver_name(args.opts.solver).to_string(),
+        tol: args.opts.tol,
+        columns: columns.clone(),
+        shard,
+    };
+
+    let out = OutDir::prepare(&args.out)?;
+    let mut rows = resume(&out, &def)?;
+    if let Some(p) = rows.keys().find(|p| !mine.contains(p)) {
+        return Err(Failure::input(format!(
+            "{}: sweep.csv holds point {p}, which is not in this shard: remove it or use \
+             another --out",
+            out.path().display()
+        )));
+    }
+    let def_json =
+        serde_json::to_vec_pretty(&def).map_err(|e| Failure::io("encoding sweep.json", e))?;
+    out.write("sweep.json", &def_json)?;
+
+    let progress = !args.opts.quiet && std::io::stderr().is_terminal();
+    let todo: Vec<&(usize, Vec<f64>, DesignSource)> = sources
+        .iter()
+        .filter(|(p, _, _)| !rows.contains_key(p))
+        .collect();
+    let skipped = mine.len() - todo.len();
+    for (done, (p, values, src)) in todo.iter().enumerate() {
+        if progress {
+            eprint!(
+                "\r{}",
+                progress_bar(skipped + done, mine.len(), *p, &vary, values)
+            );
+        }
+        let sol = with_threads(args.opts.threads, || study::run(&src.design, &params))?
+            .map_err(|e| super::solve::study_failure(src, e))?;
+        let mut row = vec![p.to_string()];
+        row.extend(values.iter().map(|v| format!("{v}")));
+        for r in &sol.capacitance.matrix {
+            row.extend(r.iter().map(|&v| num(v)));
+        }
+        row.push(
+            sol.peak_field
+                .as_ref()
+                .map(|h| num(h.magnitude))
+                .unwrap_or_default(),
+        );
+        row.push(sol.solve.converged.to_string());
+        rows.insert(*p, row);
+        out.write("sweep.csv", &table_bytes(&columns, &rows))?;
+    }
+    if progress {
+        eprint!("\r{:78}\r", "");
+    }
+    if todo.is_empty() {
+        // Nothing new: still leave a table (possibly empty) in the directory.
+        out.write("sweep.csv", &table_bytes(&columns, &rows))?;
+    }
+    let unconverged = rows
+        .values()
+        .filter(|r| r.last().is_some_and(|c| c == "false"))
+        .count();
+    if !args.opts.quiet {
+        let part = shard
+            .map(|s| format!(" (shard {}/{})", s.index, s.count))
+            .unwrap_or_default();
+        println!(
+            "sweep{part}: {} of {} points solved now, {skipped} already in {}",
+            todo.len(),
+            mine.len(),
+            out.path().join("sweep.csv").display()
+        );
+        if unconverged > 0 {
+            println!("warning: {unconverged} point(s) did not converge (column `converged`)");
+        }
+    }
+    Ok(if unconverged > 0 {
+        EXIT_NOT_CONVERGED
+    } else {
+        EXIT_OK
+    })
+}
+
+fn fixed_names(s: &DesignSource) -> Vec<String> {
+    s.design
+        .conductors
+        .iter()
+        .filter(|c| matches!(c.drive, Drive::Fixed(_)))
+        .map(|c| c.name.clone())
+        .collect()
+}
+
+fn point_failure(p: usize, vary: &[Vary], values: &[f64], f: Failure) -> Failure {
+    let at: Vec<String> = vary
+        .iter()
+        .zip(values)
+        .map(|(v, x)| format!("{} = {x}", v.name))
+        .collect();
+    Failure {
+        code: f.code,
+        message: format!("sweep point {p} ({}): {}", at.join(", "), f.message),
+    }
+}
+
+fn progress_bar(done: usize, total: usize, p: usize, vary: &[Vary], values: &[f64]) -> String {
+    const WIDTH: usize = 24;
+    let filled = (done * WIDTH).checked_div(total).unwrap_or(WIDTH);
+    let at: Vec<String> = vary
+        .iter()
+        .zip(values)
+        .map(|(v, x)| format!("{}={x}", v.name))
+        .collect();
+    let mut line = format!(
+        "[{}{}] {done}/{total}  point {p}: {}",
+        "#".repeat(filled),
+        "-".repeat(WIDTH - filled),
+        at.join(" ")
+    );
+    line.truncate(78);
+    format!("{line:78}")
+}
+
+fn table_bytes(columns: &[String], rows: &Rows) -> Vec<u8> {
+    let header: Vec<&str> = columns.iter().map(|s| s.as_str()).collect();
+    csv_bytes(&header, rows.values().cloned())
+}
+
+/// Reads `sweep.json` and `sweep.csv` of a directory, if present.
+fn read_dir(dir: &Path) -> Result<Option<(SweepFile, Rows)>, Failure> {
+    let json = dir.join("sweep.json");
+    let csv = dir.join("sweep.csv");
+    if !json.exists() {
+        if csv.exists() {
+            return Err(Failure::input(format!(
+                "{}: sweep.csv without sweep.json: not a fieldgrid sweep directory",
+                dir.display()
+            )));
+        }
+        return Ok(None);
+    }
+    let text = std::fs::read_to_string(&json)
+        .map_err(|e| Failure::input(format!("{}: cannot read: {e}", json.display())))?;
+    let def: SweepFile = serde_json::from_str(&text).map_err(|e| {
+        Failure::input(format!(
+            "{}: not a fieldgrid sweep.json: {e}",
+            json.display()
+        ))
+    })?;
+    let mut rows = Rows::new();
+    if csv.exists() {
+        let mut r = csv::Reader::from_path(&csv)
+            .map_err(|e| Failure::input(format!("{}: {e}", csv.display())))?;
+        let header: Vec<String> = r
+            .headers()
+            .map_err(|e| Failure::input(format!("{}: {e}", csv.display())))?
+            .iter()
+            .map(str::to_string)
+            .collect();
+        if header != def.columns {
+            return Err(Failure::input(format!(
+                "{}: the columns do not match sweep.json",
+                csv.display()
+            )));
+        }
+        for rec in r.records() {
+            let rec = rec.map_err(|e| Failure::input(format!("{}: {e}", csv.display())))?;
+            let row: Vec<String> = rec.iter().map(str::to_string).collect();
+            let p: usize = row
+                .first()
+                .and_then(|s| s.parse().ok())
+                .filter(|&p| p < def.points)
+                .ok_or_else(|| {
+                    Failure::input(format!(
+                        "{}: a row without a valid point index (0 to {})",
+                        csv.display(),
+                        def.points.saturating_sub(1)
+                    ))
+                })?;
+            if rows.insert(p, row).is_some() {
+                return Err(Failure::input(format!(
+                    "{}: point {p} appears twice",
+                    csv.display()
+                )));
+            }
+        }
+    }
+    Ok(Some((def, rows)))
+}
+
+/// The rows already in `out` when it holds this very sweep (and shard); an error when it
+/// holds another one.
+fn resume(out: &OutDir, def: &SweepFile) -> Result<Rows, Failure> {
+    match read_dir(out.path())? {
+        None => Ok(Rows::new()),
+        Some((old, rows)) => {
+            if old.same_sweep(def) && old.shard == def.shard {
+                Ok(rows)
+            } else {
+                Err(Failure::input(format!(
+                    "{} holds another sweep ({}): use another --out, or remove sweep.json and \
+                     sweep.csv there to start over",
+                    out.path().display(),
+                    old.difference(def)
+                )))
+            }
+        }
+    }
+}
+
+/// Joins the directories of one sweep's shards into `out`.
+fn merge(dirs: &[std::path::PathBuf], out: &Path, quiet: bool) -> Result<u8, Failure> {
+    let mut first: Option<SweepFile> = None;
+    let mut rows = Rows::new();
+    for d in dirs {
+        let (def, part) = read_dir(d)?.ok_or_else(|| {
+            Failure::input(format!(
+                "{}: no sweep.json: not a sweep directory",
+                d.display()
+            ))
+        })?;
+        if let Some(f) = &first {
+            if !f.same_sweep(&def) {
+                return Err(Failure::input(format!(
+                    "{} belongs to another sweep than {} ({})",
+                    d.display(),
+                    dirs[0].display(),
+                    f.difference(&def)
+                )));
+            }
+        } else {
+            first = Some(def);
+        }
+        for (p, row) in part {
+            if let Some(old) = rows.get(&p) {
+                if *old != row {
+                    return Err(Failure::input(format!(
+                        "point {p} is in two directories with different values (the second is {})",
+                        d.display()
+                    )));
+                }
+            } else {
+                rows.insert(p, row);
+            }
+        }
+    }
+    let mut def = first.ok_or_else(|| Failure::input("--merge needs at least one directory"))?;
+    let missing: Vec<usize> = (0..def.points).filter(|p| !rows.contains_key(p)).collect();
+    if !missing.is_empty() {
+        let shown: Vec<String> = missing.iter().take(10).map(|p| p.to_string()).collect();
+        return Err(Failure::input(format!(
+            "the merged sweep lacks {} of {} points ({}{}): run the missing shards (a re-run \
+             resumes where it stopped) and merge again",
+            missing.len(),
+            def.points,
+            shown.join(", "),
+            if missing.len() > 10 { ", ..." } else { "" }
+        )));
+    }
+    def.shard = None;
+    let outdir = OutDir::prepare(out)?;
+    let json =
+        serde_json::to_vec_pretty(&def).map_err(|e| Failure::io("encoding sweep.json", e))?;
+    outdir.write("sweep.csv", &table_bytes(&def.columns, &rows))?;
+    outdir.write("sweep.json", &json)?;
+    let unconverged = rows
+        .values()
+        .filter(|r| r.last().is_some_and(|c| c == "false"))
+        .count();
+    if !quiet {
+        println!(
+            "merged {} points from {} directories into {}",
+            rows.len(),
+            dirs.len(),
+            outdir.path().join("sweep.csv").display()
+        );
+        if unconverged > 0 {
+            println!("warning: {unconverged} point(s) did not converge (column `converged`)");
+        }
+    }
+    Ok(if unconverged > 0 {
+        EXIT_NOT_CONVERGED
+    } else {
+        EXIT_OK
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn vary_parses_and_spaces_values() {
+        let v = Vary::parse("gap=0.2:1.0:5").unwrap();
+        assert_eq!((v.name.as_str(), v.count), ("gap", 5));
+        let vals: Vec<f64> = (0..5).map(|k| v.value(k)).collect();
+        assert_eq!(vals[0], 0.2);
+        assert_eq!(vals[4], 1.0);
+        assert!((vals[2] - 0.6).abs() < 1e-15);
+        assert!(Vary::parse("gap=0.2:1.0").is_err());
+        assert!(Vary::parse("gap=0.2:1.0:0").is_err());
+        assert!(Vary::parse("gap=a:1.0:2").is_err());
+        assert!(Vary::parse("=0:1:2").is_err());
+        assert!(Vary::parse("gap=0:1:1").is_err());
+        assert!(Vary::parse("gap=1:1:1").is_ok());
+    }
+
+    #[test]
+    fn first_parameter_varies_slowest() {
+        let vary = vec![
+            Vary::parse("a=0:1:2").unwrap(),
+            Vary::parse("b=10:30:3").unwrap(),
+        ];
+        assert_eq!(point_count(&vary).unwrap(), 6);
+        let pts: Vec<Vec<f64>> = (0..6).map(|p| point_values(&vary, p)).collect();
+        assert_eq!(pts[0], vec![0.0, 10.0]);
+        assert_eq!(pts[1], vec![0.0, 20.0]);
+        assert_eq!(pts[2], vec![0.0, 30.0]);
+        assert_eq!(pts[3], vec![1.0, 10.0]);
+        assert_eq!(pts[5], vec![1.0, 30.0]);
+    }
+
+    #[test]
+    fn shard_is_zero_based_and_validated() {
+        let s = Shard::parse("1/3").unwrap();
+        assert!(s.runs(1) && s.runs(4) && !s.runs(0) && !s.runs(2));
+        assert!(Shard::parse("3/3").is_err());
+        assert!(Shard::parse("0/0").is_err());
+        assert!(Shard::parse("-1/3").is_err());
+        assert!(Shard::parse("1").is_err());
+    }
+
+    #[test]
+    fn point_count_refuses_huge_sweeps() {
+        let v = Vary::parse("a=0:1:1001").unwrap();
+        assert!(point_count(&[v.clone(), v]).is_err());
+    }
+}
