@@ -169,8 +169,10 @@ fn derivative(minus: Option<(f64, f64)>, f0: f64, plus: Option<(f64, f64)>) -> f
     }
 }
 
-/// Sharp corners of the conductors (unfilleted polygon and rectangle vertices, polyline
-/// ends and kinks), where the field is singular.
+/// Sharp corners of the conductors, where the field is singular: unfilleted rectangle
+/// corners, the convex vertices of unfilleted polygon outlines (and the reflex vertices of
+/// their holes, which are convex as seen from the conductor), polyline ends and polyline kinks.
+/// Straight-through vertices and re-entrant corners (where the field tends to zero) are not.
 pub fn sharp_corners(design: &Design) -> Vec<Point> {
     let mut out = Vec::new();
     for c in &design.conductors {
@@ -183,14 +185,51 @@ pub fn sharp_corners(design: &Design) -> Vec<Point> {
                 holes,
                 round,
             } if *round == 0.0 => {
-                out.extend(outer.iter().copied());
-                holes.iter().for_each(|h| out.extend(h.iter().copied()));
+                out.extend(convex_vertices(outer, true));
+                holes
+                    .iter()
+                    .for_each(|h| out.extend(convex_vertices(h, false)));
             }
-            Shape::Polyline(pts) => out.extend(pts.iter().copied()),
+            Shape::Polyline(pts) => {
+                let n = pts.len();
+                for (k, p) in pts.iter().enumerate() {
+                    if k == 0 || k + 1 == n || turn(pts[k - 1], *p, pts[k + 1]) != 0.0 {
+                        out.push(*p);
+                    }
+                }
+            }
             _ => {}
         }
     }
     out
+}
+
+/// Cross product of the edges into and out of `b`, zero when they are collinear to rounding.
+fn turn(a: Point, b: Point, c: Point) -> f64 {
+    let (u, v) = ([b[0] - a[0], b[1] - a[1]], [c[0] - b[0], c[1] - b[1]]);
+    let cross = u[0] * v[1] - u[1] * v[0];
+    if cross.abs() <= 1e-12 * u[0].hypot(u[1]) * v[0].hypot(v[1]) {
+        0.0
+    } else {
+        cross
+    }
+}
+
+/// Vertices of a closed ring that are convex as seen from the conductor: the material lies
+/// inside the ring (`solid_inside`, an outer boundary) or outside it (a hole).
+fn convex_vertices(ring: &[Point], solid_inside: bool) -> Vec<Point> {
+    let n = ring.len();
+    let area2: f64 = (0..n)
+        .map(|k| {
+            let (a, b) = (ring[k], ring[(k + 1) % n]);
+            a[0] * b[1] - b[0] * a[1]
+        })
+        .sum();
+    let orient = if solid_inside { area2 } else { -area2 };
+    (0..n)
+        .filter(|&k| turn(ring[(k + n - 1) % n], ring[k], ring[(k + 1) % n]) * orient > 0.0)
+        .map(|k| ring[k])
+        .collect()
 }
 
 fn material_of(design: &Design, m: u16) -> (String, Option<f64>) {
@@ -518,4 +557,77 @@ pub fn force(field: &FieldEval, design: &Design, k: usize) -> [f64; 2] {
         f[0] = 0.0;
     }
     f
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::design::{Conductor, Drive};
+
+    fn with(shape: Shape) -> Design {
+        Design {
+            conductors: vec![Conductor {
+                name: "c".into(),
+                drive: Drive::Fixed(1.0),
+                shape,
+            }],
+            ..Design::default()
+        }
+    }
+
+    #[test]
+    fn sharp_corners_skip_reentrant_and_straight_vertices() {
+        // An L with a collinear extra vertex on its bottom edge, written clockwise.
+        let l = vec![
+            [0.0, 0.0],
+            [0.0, 2.0],
+            [1.0, 2.0],
+            [1.0, 1.0],
+            [2.0, 1.0],
+            [2.0, 0.0],
+            [1.0, 0.0],
+        ];
+        let got = sharp_corners(&with(Shape::Polygon {
+            outer: l,
+            holes: vec![],
+            round: 0.0,
+        }));
+        let want = vec![[0.0, 0.0], [0.0, 2.0], [1.0, 2.0], [2.0, 1.0], [2.0, 0.0]];
+        assert_eq!(got, want);
+    }
+
+    #[test]
+    fn sharp_corners_of_a_square_hole_are_none() {
+        // Inside a square hole the corners are re-entrant for the conductor around it.
+        let outer = vec![[0.0, 0.0], [4.0, 0.0], [4.0, 4.0], [0.0, 4.0]];
+        let hole = vec![[1.0, 1.0], [3.0, 1.0], [3.0, 3.0], [1.0, 3.0]];
+        let got = sharp_corners(&with(Shape::Polygon {
+            outer: outer.clone(),
+            holes: vec![hole],
+            round: 0.0,
+        }));
+        assert_eq!(got, outer);
+    }
+
+    #[test]
+    fn sharp_corners_of_polylines_are_ends_and_kinks() {
+        let got = sharp_corners(&with(Shape::Polyline(vec![
+            [0.0, 0.0],
+            [1.0, 0.0],
+            [2.0, 0.0],
+            [2.0, 1.0],
+        ])));
+        assert_eq!(got, vec![[0.0, 0.0], [2.0, 0.0], [2.0, 1.0]]);
+    }
+
+    #[test]
+    fn filleted_shapes_have_no_sharp_corners() {
+        let tri = vec![[0.0, 0.0], [1.0, 0.0], [0.5, 2.0]];
+        let got = sharp_corners(&with(Shape::Polygon {
+            outer: tri,
+            holes: vec![],
+            round: 0.1,
+        }));
+        assert!(got.is_empty());
+    }
 }

@@ -9,11 +9,13 @@
 //!
 //! Invariants: the relative change is (new - base) / |base| (zero when both are zero, infinite
 //! when only the base is zero); a quantity is beyond tolerance when |relative change| >
-//! `--rel-tol`. Exit 0: nothing beyond tolerance; 1: something is; 2: bad input; 3: a solve
+//! `--rel-tol`. With `--out`, and both sides design files on the same grid, the picture
+//! `field_change.png` maps |E|(NEW) - |E|(BASE). Exit 0: nothing beyond tolerance; 1: something is; 2: bad input; 3: a solve
 //! (now, or recorded in a summary) did not converge.
 
 use super::{check_memory, load_design, study_params, with_threads};
 use crate::args::CompareArgs;
+use crate::design_file::DesignSource;
 use crate::error::Failure;
 use crate::outdir::{csv_bytes, num, OutDir};
 use crate::summary::{Summary, VERSION};
@@ -29,8 +31,9 @@ pub struct Revision {
     pub path: PathBuf,
     /// Its results.
     pub summary: Summary,
-    /// The solution, when the input was a design file (for the change picture).
-    pub solution: Option<Solution>,
+    /// The solution and its design, when the input was a design file (for the change
+    /// picture).
+    pub solution: Option<(Solution, DesignSource)>,
 }
 
 /// What kind of file an input is.
@@ -153,7 +156,7 @@ fn load(path: &Path, args: &CompareArgs, role: &str) -> Result<Revision, Failure
             Ok(Revision {
                 path: path.to_path_buf(),
                 summary,
-                solution: Some(sol),
+                solution: Some((sol, src)),
             })
         }
     }
@@ -320,15 +323,23 @@ pub fn run(args: &CompareArgs) -> Result<u8, Failure> {
             unconverged.join(" and ")
         ));
     }
-    if base.solution.is_some() && new.solution.is_some() && out.is_some() {
-        remarks.push(
-            "the picture of the change in field magnitude is not written yet: it comes with the \
-             pictures module"
-                .to_string(),
-        );
-    }
+    let picture = match (&base.solution, &new.solution, &out) {
+        (Some((sb, _)), Some((sn, src)), Some(_)) => {
+            if sb.grid == sn.grid {
+                Some(change_picture(sb, sn, src))
+            } else {
+                remarks
+                    .push("no field_change.png: the two designs have different grids".to_string());
+                None
+            }
+        }
+        _ => None,
+    };
     if let Some(out) = &out {
         write_outputs(out, args, &table, beyond, &remarks)?;
+        if let Some(img) = &picture {
+            out.write_png("field_change.png", img)?;
+        }
     }
     if !args.opts.quiet {
         print!("{}", render_table(args, &table, beyond, &remarks));
@@ -340,6 +351,59 @@ pub fn run(args: &CompareArgs) -> Result<u8, Failure> {
     } else {
         EXIT_OK
     })
+}
+
+/// |E| at every node of a solution (NaN inside conductors and at fixed nodes).
+pub fn field_magnitude(sol: &Solution) -> Vec<f64> {
+    let potentials: Vec<f64> = sol.conductors.iter().map(|c| c.potential).collect();
+    let field = fieldgrid_solver::post::FieldEval::new(
+        &sol.operator,
+        &sol.raster,
+        &sol.potential,
+        &potentials,
+    );
+    (0..sol.grid.len()).map(|p| field.magnitude(p)).collect()
+}
+
+/// The map of |E|(NEW) - |E|(BASE) on their common grid, NEW's outlines drawn.
+fn change_picture(base: &Solution, new: &Solution, src: &DesignSource) -> image::RgbImage {
+    use crate::render::{self, MapInput, Outline, Palette, RenderOptions};
+    let eb = field_magnitude(base);
+    let en = field_magnitude(new);
+    let diff: Vec<f64> = eb.iter().zip(&en).map(|(b, n)| n - b).collect();
+    let top = diff
+        .iter()
+        .filter(|v| v.is_finite())
+        .fold(0.0f64, |m, v| m.max(v.abs()));
+    let d = &src.design;
+    let tol = Outline::picture_tolerance(d.domain.x, d.domain.y);
+    let conductors: Vec<Outline> = d
+        .conductors
+        .iter()
+        .map(|c| Outline::from_shape(c.name.clone(), &c.shape, tol))
+        .collect();
+    let dielectrics: Vec<Outline> = d
+        .dielectrics
+        .iter()
+        .map(|c| Outline::from_shape(c.name.clone(), &c.shape, tol))
+        .collect();
+    let axi = d.mode == fieldgrid_solver::design::Mode::Axisymmetric;
+    let input = MapInput {
+        title: "change in field magnitude, NEW minus BASE",
+        quantity: "change of |E|",
+        unit: "V/m",
+        length_unit: render::LengthUnit {
+            label: src.unit.name(),
+            metres: src.unit.scale(),
+        },
+        axis_names: if axi { ["r", "z"] } else { ["x", "y"] },
+        conductors: &conductors,
+        dielectrics: &dielectrics,
+        palette: Palette::Diverging,
+        range: (top > 0.0).then_some([-top, top]),
+        ..MapInput::new(&new.grid, &diff)
+    };
+    render::render_map(&input, &RenderOptions::default())
 }
 
 fn opt_num(v: Option<f64>) -> String {
