@@ -1,0 +1,174 @@
+//! What post-processing and pictures need from a shape: its sharp corners (where the field
+//! is singular and keeps growing under refinement) and its outline as polylines.
+
+use super::outline::{outline, signed_area2};
+use crate::design::{Point, Shape};
+
+/// Turns of less than this (rad) are not corners.
+const STRAIGHT: f64 = 1e-12;
+
+/// Turn angle at `v` between the edges p -> v and v -> n, rad in [0, pi].
+fn turn(p: Point, v: Point, n: Point) -> f64 {
+    let d1 = [v[0] - p[0], v[1] - p[1]];
+    let d2 = [n[0] - v[0], n[1] - v[1]];
+    (d1[0] * d2[1] - d1[1] * d2[0])
+        .abs()
+        .atan2(d1[0] * d2[0] + d1[1] * d2[1])
+}
+
+/// Vertices of a closed vertex loop that are corners (turn not zero), repeated vertices
+/// ignored.
+fn loop_corners(v: &[Point], out: &mut Vec<Point>) {
+    let mut w: Vec<Point> = Vec::with_capacity(v.len());
+    for &p in v {
+        if w.last() != Some(&p) {
+            w.push(p);
+        }
+    }
+    while w.len() > 1 && w.first() == w.last() {
+        w.pop();
+    }
+    let n = w.len();
+    if n < 3 || signed_area2(&w) == 0.0 {
+        return;
+    }
+    for k in 0..n {
+        if turn(w[(k + n - 1) % n], w[k], w[(k + 1) % n]) > STRAIGHT {
+            out.push(w[k]);
+        }
+    }
+}
+
+/// The sharp corners of a shape: unrounded rectangle and polygon vertices (holes included)
+/// where the outline turns, and a polyline's end points and kinks. Circles, rings and
+/// rounded shapes have none. Points are in metres, in outline order; in axisymmetric mode
+/// the caller drops those with x < 0.
+pub fn sharp_corners(shape: &Shape) -> Vec<Point> {
+    let mut out = Vec::new();
+    match shape {
+        Shape::Rect { x, y, round } if *round <= 0.0 => {
+            out.extend([[x[0], y[0]], [x[1], y[0]], [x[1], y[1]], [x[0], y[1]]]);
+        }
+        Shape::Polygon {
+            outer,
+            holes,
+            round,
+        } if *round <= 0.0 => {
+            loop_corners(outer, &mut out);
+            for h in holes {
+                loop_corners(h, &mut out);
+            }
+        }
+        Shape::Polyline(pts) => {
+            let mut w: Vec<Point> = Vec::with_capacity(pts.len());
+            for &p in pts {
+                if w.last() != Some(&p) {
+                    w.push(p);
+                }
+            }
+            if let (Some(&first), Some(&last)) = (w.first(), w.last()) {
+                out.push(first);
+                for k in 1..w.len().saturating_sub(1) {
+                    if turn(w[k - 1], w[k], w[k + 1]) > STRAIGHT {
+                        out.push(w[k]);
+                    }
+                }
+                if w.len() > 1 {
+                    out.push(last);
+                }
+            }
+        }
+        _ => {}
+    }
+    out
+}
+
+/// The outline of a shape as polylines for drawing: each closed loop as a closed polyline
+/// (its first point repeated at the end), a polyline as itself; arcs are replaced by chords
+/// within `tol` (m, > 0) of them. Empty for a shape that has no outline (one that fails
+/// validation).
+pub fn outline_polylines(shape: &Shape, tol: f64) -> Vec<Vec<Point>> {
+    let Ok(o) = outline(shape) else {
+        return Vec::new();
+    };
+    let tol = if tol > 0.0 {
+        tol
+    } else {
+        f64::EPSILON * o.bbox().max[0].abs().max(1.0)
+    };
+    o.loops
+        .iter()
+        .filter(|l| !l.is_empty())
+        .map(|l| {
+            let mut pts = vec![l[0].start()];
+            for p in l {
+                p.flatten_into(tol, &mut pts);
+            }
+            pts
+        })
+        .collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn rect_and_polygon_corners() {
+        assert_eq!(
+            sharp_corners(&Shape::Rect {
+                x: [0.0, 1.0],
+                y: [0.0, 2.0],
+                round: 0.0
+            })
+            .len(),
+            4
+        );
+        assert!(sharp_corners(&Shape::Rect {
+            x: [0.0, 1.0],
+            y: [0.0, 2.0],
+            round: 0.1
+        })
+        .is_empty());
+        // A collinear vertex is no corner.
+        let p = Shape::Polygon {
+            outer: vec![[0.0, 0.0], [1.0, 0.0], [2.0, 0.0], [2.0, 1.0], [0.0, 1.0]],
+            holes: vec![vec![[0.5, 0.25], [0.75, 0.25], [0.75, 0.5]]],
+            round: 0.0,
+        };
+        let c = sharp_corners(&p);
+        assert_eq!(c.len(), 7);
+        assert!(!c.contains(&[1.0, 0.0]));
+        assert!(sharp_corners(&Shape::Circle {
+            center: [0.0, 0.0],
+            radius: 1.0
+        })
+        .is_empty());
+    }
+
+    #[test]
+    fn polyline_ends_and_kinks() {
+        let s = Shape::Polyline(vec![[0.0, 0.0], [1.0, 0.0], [2.0, 0.0], [2.0, 1.0]]);
+        assert_eq!(sharp_corners(&s), vec![[0.0, 0.0], [2.0, 0.0], [2.0, 1.0]]);
+    }
+
+    #[test]
+    fn drawing_polylines_close_and_follow_arcs() {
+        let s = Shape::Ring {
+            center: [1.0, 1.0],
+            inner: 0.5,
+            outer: 1.0,
+        };
+        let l = outline_polylines(&s, 1e-4);
+        assert_eq!(l.len(), 2);
+        for (poly, r) in l.iter().zip([1.0, 0.5]) {
+            assert_eq!(poly.first(), poly.last());
+            assert!(poly.len() > 20);
+            for p in poly {
+                assert!(((p[0] - 1.0).hypot(p[1] - 1.0) - r).abs() < 1e-12);
+            }
+        }
+        let open = outline_polylines(&Shape::Polyline(vec![[0.0, 0.0], [1.0, 1.0]]), 1e-3);
+        assert_eq!(open, vec![vec![[0.0, 0.0], [1.0, 1.0]]]);
+    }
+}

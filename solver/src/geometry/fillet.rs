@@ -1,0 +1,164 @@
+//! Vertex loops to pieces, with every corner optionally rounded.
+//!
+//! A fillet of radius r at a corner is the arc of radius r tangent to both edges; it cuts a
+//! convex corner and fills a concave one alike. Its tangent points lie `r * tan(turn/2)`
+//! from the vertex along each edge, so an edge holds the fillets at both its ends only when
+//! the two distances add up to no more than its length. Vertices where the outline goes
+//! straight on (turn below 1e-12 rad) are left as they are.
+
+use super::outline::{push_arc, Piece};
+use crate::design::Point;
+
+/// Turns below this (rad) count as straight on.
+const STRAIGHT: f64 = 1e-12;
+
+/// The loop through `v` (closed implicitly) as segments, dropping zero-length edges.
+pub(crate) fn plain_loop(v: &[Point]) -> Vec<Piece> {
+    let n = v.len();
+    (0..n)
+        .filter(|&k| v[k] != v[(k + 1) % n])
+        .map(|k| Piece::Line {
+            a: v[k],
+            b: v[(k + 1) % n],
+        })
+        .collect()
+}
+
+/// The loop through `v` (closed implicitly, no zero-length edges) with every corner rounded
+/// with radius `r` > 0. The message of an error names the edge that cannot hold its fillets.
+pub(crate) fn rounded_loop(v: &[Point], r: f64) -> Result<Vec<Piece>, String> {
+    let n = v.len();
+    let edge = |k: usize| {
+        let (a, b) = (v[k], v[(k + 1) % n]);
+        let d = [b[0] - a[0], b[1] - a[1]];
+        let len = d[0].hypot(d[1]);
+        (len, [d[0] / len, d[1] / len])
+    };
+    let edges: Vec<(f64, Point)> = (0..n).map(edge).collect();
+    if edges.iter().any(|e| e.0.is_nan() || e.0 <= 0.0) {
+        return Err("a polygon edge has zero length".into());
+    }
+    // Per vertex k: tangent distance, tangent points and arc (centre, ccw).
+    struct Corner {
+        t: f64,
+        t1: Point,
+        t2: Point,
+        center: Point,
+        ccw: bool,
+    }
+    let mut corners = Vec::with_capacity(n);
+    for k in 0..n {
+        let d1 = edges[(k + n - 1) % n].1;
+        let d2 = edges[k].1;
+        let cross = d1[0] * d2[1] - d1[1] * d2[0];
+        let dot = d1[0] * d2[0] + d1[1] * d2[1];
+        let turn = cross.abs().atan2(dot);
+        let p = v[k];
+        if turn < STRAIGHT {
+            corners.push(Corner {
+                t: 0.0,
+                t1: p,
+                t2: p,
+                center: p,
+                ccw: true,
+            });
+            continue;
+        }
+        if turn > std::f64::consts::PI - STRAIGHT {
+            return Err(format!(
+                "the outline folds back on itself at vertex {}",
+                k + 1
+            ));
+        }
+        let t = r * (0.5 * turn).tan();
+        let t1 = [p[0] - d1[0] * t, p[1] - d1[1] * t];
+        let t2 = [p[0] + d2[0] * t, p[1] + d2[1] * t];
+        let ccw = cross > 0.0;
+        let s = if ccw { r } else { -r };
+        let center = [t1[0] - d1[1] * s, t1[1] + d1[0] * s];
+        corners.push(Corner {
+            t,
+            t1,
+            t2,
+            center,
+            ccw,
+        });
+    }
+    // Each edge must hold the tangent lengths of both its ends.
+    for k in 0..n {
+        let need = corners[k].t + corners[(k + 1) % n].t;
+        let len = edges[k].0;
+        if need > len * (1.0 + 1e-12) {
+            return Err(format!(
+                "round = {r} is too large for edge {} of length {len} (its corners need {need})",
+                k + 1
+            ));
+        }
+    }
+    // Where two fillets meet on an edge, both use the same point.
+    for k in 0..n {
+        let next = (k + 1) % n;
+        let need = corners[k].t + corners[next].t;
+        if need >= edges[k].0 * (1.0 - 1e-12) && corners[next].t > 0.0 && corners[k].t > 0.0 {
+            corners[next].t1 = corners[k].t2;
+        }
+    }
+    let mut out = Vec::new();
+    for k in 0..n {
+        let c = &corners[k];
+        if c.t > 0.0 {
+            push_arc(&mut out, c.center, r, c.t1, c.t2, c.ccw);
+        }
+        let from = if c.t > 0.0 { c.t2 } else { v[k] };
+        let nc = &corners[(k + 1) % n];
+        let to = if nc.t > 0.0 { nc.t1 } else { v[(k + 1) % n] };
+        if from != to {
+            out.push(Piece::Line { a: from, b: to });
+        }
+    }
+    Ok(out)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn fillet_arcs_are_tangent_and_on_radius() {
+        let v = vec![[0.0, 0.0], [3.0, 0.0], [3.0, 1.0], [1.5, 2.5], [0.0, 1.0]];
+        let r = 0.25;
+        let l = rounded_loop(&v, r).unwrap();
+        for (k, p) in l.iter().enumerate() {
+            assert_eq!(p.end(), l[(k + 1) % l.len()].start());
+            if let Piece::Arc {
+                a,
+                b,
+                center,
+                radius,
+                ..
+            } = *p
+            {
+                assert_eq!(radius, r);
+                for q in [a, b] {
+                    assert!(((q[0] - center[0]).hypot(q[1] - center[1]) - r).abs() < 1e-15);
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn straight_vertex_gets_no_fillet() {
+        let v = vec![[0.0, 0.0], [1.0, 0.0], [2.0, 0.0], [2.0, 2.0], [0.0, 2.0]];
+        let l = rounded_loop(&v, 0.1).unwrap();
+        let arcs = l.iter().filter(|p| matches!(p, Piece::Arc { .. })).count();
+        // Four rounded right angles, one quadrant piece each.
+        assert_eq!(arcs, 4);
+    }
+
+    #[test]
+    fn radius_too_large_names_the_edge() {
+        let v = vec![[0.0, 0.0], [1.0, 0.0], [1.0, 5.0], [0.0, 5.0]];
+        let e = rounded_loop(&v, 0.6).unwrap_err();
+        assert!(e.contains("edge 1"), "{e}");
+    }
+}

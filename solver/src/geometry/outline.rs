@@ -1,0 +1,858 @@
+//! Pieces and outlines: the exact boundary of a shape, its area, bounding box, inside test
+//! and crossings with vertical and horizontal lines.
+//!
+//! Invariants: a [`Piece::Arc`] never leaves one quadrant of its circle (it is monotone in x
+//! and y, and its bounding box is that of its end points); its end points are stored, not
+//! recomputed from angles, so neighbouring pieces share them exactly. Crossing rules: a line
+//! x = c is crossed by a non-vertical piece spanning `[x_min, x_max]` when
+//! `x_min < c <= x_max` (the half-open rule, equal to crossing the line just left of c).
+
+use crate::design::{Point, Shape};
+use std::f64::consts::{FRAC_PI_2, PI, TAU};
+
+use super::fillet;
+use super::lines::{hits, HIT_A};
+
+/// One piece of an outline, monotone in x and in y.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum Piece {
+    /// Straight segment from `a` to `b`.
+    Line {
+        /// Start, m.
+        a: Point,
+        /// End, m.
+        b: Point,
+    },
+    /// Circular arc from `a` to `b` around `center`, within one quadrant of its circle.
+    Arc {
+        /// Start, m (on the circle up to rounding).
+        a: Point,
+        /// End, m.
+        b: Point,
+        /// Centre of the circle, m.
+        center: Point,
+        /// Radius, m, > 0.
+        radius: f64,
+        /// True when the arc turns counter-clockwise about its centre.
+        ccw: bool,
+    },
+}
+
+/// An axis-aligned bounding box, m.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct BBox {
+    /// Smallest x and y.
+    pub min: Point,
+    /// Largest x and y.
+    pub max: Point,
+}
+
+impl BBox {
+    /// The empty box (min > max), neutral for [`BBox::union`].
+    pub const EMPTY: BBox = BBox {
+        min: [f64::INFINITY; 2],
+        max: [f64::NEG_INFINITY; 2],
+    };
+
+    /// The smallest box holding both.
+    pub fn union(self, o: BBox) -> BBox {
+        BBox {
+            min: [self.min[0].min(o.min[0]), self.min[1].min(o.min[1])],
+            max: [self.max[0].max(o.max[0]), self.max[1].max(o.max[1])],
+        }
+    }
+
+    /// True when the boxes overlap or touch, each grown by `tol`.
+    pub fn meets(&self, o: &BBox, tol: f64) -> bool {
+        self.min[0] <= o.max[0] + tol
+            && o.min[0] <= self.max[0] + tol
+            && self.min[1] <= o.max[1] + tol
+            && o.min[1] <= self.max[1] + tol
+    }
+
+    /// True when `p` lies in the box grown by `tol`.
+    pub fn holds(&self, p: Point, tol: f64) -> bool {
+        p[0] >= self.min[0] - tol
+            && p[0] <= self.max[0] + tol
+            && p[1] >= self.min[1] - tol
+            && p[1] <= self.max[1] + tol
+    }
+}
+
+/// `phi - sin(phi)` without cancellation for small angles.
+pub(crate) fn phi_minus_sin(phi: f64) -> f64 {
+    if phi < 0.1 {
+        let p2 = phi * phi;
+        phi * p2 / 6.0
+            * (1.0 - p2 / 20.0 * (1.0 - p2 / 42.0 * (1.0 - p2 / 72.0 * (1.0 - p2 / 110.0))))
+    } else {
+        phi - phi.sin()
+    }
+}
+
+fn sub(p: Point, q: Point) -> Point {
+    [p[0] - q[0], p[1] - q[1]]
+}
+
+fn norm(v: Point) -> f64 {
+    v[0].hypot(v[1])
+}
+
+/// Sign of the offset of a quadrant arc from its centre along one axis (+1 or -1).
+fn side(a: f64, b: f64, c: f64) -> f64 {
+    if 0.5 * (a + b) - c < 0.0 {
+        -1.0
+    } else {
+        1.0
+    }
+}
+
+impl Piece {
+    /// Start point.
+    pub fn start(&self) -> Point {
+        match *self {
+            Piece::Line { a, .. } | Piece::Arc { a, .. } => a,
+        }
+    }
+
+    /// End point.
+    pub fn end(&self) -> Point {
+        match *self {
+            Piece::Line { b, .. } | Piece::Arc { b, .. } => b,
+        }
+    }
+
+    /// `[min, max]` of x over the piece (those of its end points, by monotonicity).
+    pub fn x_range(&self) -> [f64; 2] {
+        let (a, b) = (self.start(), self.end());
+        [a[0].min(b[0]), a[0].max(b[0])]
+    }
+
+    /// `[min, max]` of y over the piece.
+    pub fn y_range(&self) -> [f64; 2] {
+        let (a, b) = (self.start(), self.end());
+        [a[1].min(b[1]), a[1].max(b[1])]
+    }
+
+    /// Bounding box of the piece.
+    pub fn bbox(&self) -> BBox {
+        let (x, y) = (self.x_range(), self.y_range());
+        BBox {
+            min: [x[0], y[0]],
+            max: [x[1], y[1]],
+        }
+    }
+
+    /// The y at which the piece meets the line x = c, for c in its x range (for a vertical
+    /// piece: its start). End points are returned exactly; the value is clamped to the
+    /// piece's y range.
+    pub fn y_at(&self, c: f64) -> f64 {
+        let (a, b) = (self.start(), self.end());
+        if c == a[0] {
+            return a[1];
+        }
+        if c == b[0] {
+            return b[1];
+        }
+        let [lo, hi] = self.y_range();
+        let y = match *self {
+            Piece::Line { a, b } => a[1] + (c - a[0]) * ((b[1] - a[1]) / (b[0] - a[0])),
+            Piece::Arc {
+                a,
+                b,
+                center,
+                radius,
+                ..
+            } => {
+                let dx = c - center[0];
+                let s = ((radius - dx) * (radius + dx)).max(0.0).sqrt();
+                center[1] + side(a[1], b[1], center[1]) * s
+            }
+        };
+        y.clamp(lo, hi)
+    }
+
+    /// The x at which the piece meets the line y = c, for c in its y range.
+    pub fn x_at(&self, c: f64) -> f64 {
+        self.transposed().y_at(c)
+    }
+
+    /// The piece mirrored in the line x = y (x and y swapped; arcs change their sense).
+    pub fn transposed(&self) -> Piece {
+        let t = |p: Point| [p[1], p[0]];
+        match *self {
+            Piece::Line { a, b } => Piece::Line { a: t(a), b: t(b) },
+            Piece::Arc {
+                a,
+                b,
+                center,
+                radius,
+                ccw,
+            } => Piece::Arc {
+                a: t(a),
+                b: t(b),
+                center: t(center),
+                radius,
+                ccw: !ccw,
+            },
+        }
+    }
+
+    /// The same piece traversed backwards.
+    pub fn reversed(&self) -> Piece {
+        match *self {
+            Piece::Line { a, b } => Piece::Line { a: b, b: a },
+            Piece::Arc {
+                a,
+                b,
+                center,
+                radius,
+                ccw,
+            } => Piece::Arc {
+                a: b,
+                b: a,
+                center,
+                radius,
+                ccw: !ccw,
+            },
+        }
+    }
+
+    /// The part of this piece's carrier (line or circle) from `p` to `q`, both on the piece.
+    pub fn between(&self, p: Point, q: Point) -> Piece {
+        match *self {
+            Piece::Line { .. } => Piece::Line { a: p, b: q },
+            Piece::Arc {
+                center,
+                radius,
+                ccw,
+                ..
+            } => Piece::Arc {
+                a: p,
+                b: q,
+                center,
+                radius,
+                ccw,
+            },
+        }
+    }
+
+    /// Angle subtended by an arc piece at its centre (0 for a segment), from its chord.
+    pub fn sweep(&self) -> f64 {
+        match *self {
+            Piece::Line { .. } => 0.0,
+            Piece::Arc { a, b, radius, .. } => {
+                2.0 * (0.5 * norm(sub(b, a)) / radius).min(1.0).asin()
+            }
+        }
+    }
+
+    /// Length of the piece, m.
+    pub fn length(&self) -> f64 {
+        match *self {
+            Piece::Line { a, b } => norm(sub(b, a)),
+            Piece::Arc { radius, .. } => radius * self.sweep(),
+        }
+    }
+
+    /// `∫ (x - xr) dy` along the piece, m^2: summed over a closed loop with its filled side
+    /// on the left it is the enclosed area, whatever `xr`.
+    pub fn moment_area(&self, xr: f64) -> f64 {
+        let (a, b) = (self.start(), self.end());
+        let chord = 0.5 * ((a[0] - xr) + (b[0] - xr)) * (b[1] - a[1]);
+        match *self {
+            Piece::Line { .. } => chord,
+            Piece::Arc { radius, ccw, .. } => {
+                let seg = 0.5 * radius * radius * phi_minus_sin(self.sweep());
+                if ccw {
+                    chord + seg
+                } else {
+                    chord - seg
+                }
+            }
+        }
+    }
+
+    /// `∫ (x^2 - xr^2)/2 dy` along the piece, m^3: summed over a closed loop it is the
+    /// first moment `∫∫ x dA` of the enclosed region.
+    pub fn moment_radial(&self, xr: f64) -> f64 {
+        let (a, b) = (self.start(), self.end());
+        let (ua, ub) = (a[0] - xr, b[0] - xr);
+        let chord = 0.5 * (b[1] - a[1]) * ((ua * ua + ua * ub + ub * ub) / 3.0 + xr * (ua + ub));
+        match *self {
+            Piece::Line { .. } => chord,
+            Piece::Arc {
+                radius,
+                ccw,
+                center,
+                ..
+            } => {
+                let half = 0.5 * norm(sub(b, a));
+                if half == 0.0 {
+                    return chord;
+                }
+                let phi = 2.0 * (half / radius).min(1.0).asin();
+                let area = 0.5 * radius * radius * phi_minus_sin(phi);
+                // Unit vector from the centre towards the arc's middle (the chord's middle
+                // lies on it, the arc being less than a half turn).
+                let m = sub([0.5 * (a[0] + b[0]), 0.5 * (a[1] + b[1])], center);
+                let bx = m[0] / norm(m);
+                // First moment of the circular segment: area * centroid x, the centroid
+                // being 4 r sin^3(phi/2) / (3 (phi - sin phi)) from the centre.
+                let s = half / radius;
+                let seg = area * center[0] + 2.0 / 3.0 * radius * radius * radius * s * s * s * bx;
+                if ccw {
+                    chord + seg
+                } else {
+                    chord - seg
+                }
+            }
+        }
+    }
+
+    /// Appends points along the piece after its start, up to and including its end, so that
+    /// the chords stay within `tol` of an arc (tol > 0).
+    pub fn flatten_into(&self, tol: f64, out: &mut Vec<Point>) {
+        if let Piece::Arc {
+            a,
+            center,
+            radius,
+            ccw,
+            b,
+        } = *self
+        {
+            let sweep = self.sweep();
+            let max_step = if tol >= radius {
+                PI
+            } else {
+                2.0 * (1.0 - tol / radius).acos()
+            };
+            let n = ((sweep / max_step.max(1e-6)).ceil() as usize).clamp(1, 1 << 16);
+            let t0 = (a[1] - center[1]).atan2(a[0] - center[0]);
+            let dir = if ccw { 1.0 } else { -1.0 };
+            for k in 1..n {
+                let t = t0 + dir * sweep * k as f64 / n as f64;
+                out.push([center[0] + radius * t.cos(), center[1] + radius * t.sin()]);
+            }
+            out.push(b);
+        } else {
+            out.push(self.end());
+        }
+    }
+}
+
+/// The exact boundary of a shape.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Outline {
+    /// Closed loops (each ending where it starts), filled by the even-odd rule; for an open
+    /// outline, one open path.
+    pub loops: Vec<Vec<Piece>>,
+    /// True for a polyline: the path is open and nothing is filled.
+    pub open: bool,
+}
+
+/// A shape that cannot be turned into an outline (for example a fillet radius too large for
+/// an edge). `key` names the shape key at fault.
+#[derive(Clone, Debug, PartialEq, thiserror::Error)]
+#[error("{message}")]
+#[non_exhaustive]
+pub struct ShapeError {
+    /// The shape key at fault: `"rect"`, `"circle"`, `"ring"`, `"polygon"`, `"holes"`,
+    /// `"round"` or `"polyline"`.
+    pub key: &'static str,
+    /// What is wrong.
+    pub message: String,
+}
+
+impl ShapeError {
+    pub(crate) fn new(key: &'static str, message: impl Into<String>) -> Self {
+        ShapeError {
+            key,
+            message: message.into(),
+        }
+    }
+}
+
+/// The design key of a shape kind.
+pub(crate) fn shape_key(shape: &Shape) -> &'static str {
+    match shape {
+        Shape::Rect { .. } => "rect",
+        Shape::Circle { .. } => "circle",
+        Shape::Ring { .. } => "ring",
+        Shape::Polygon { .. } => "polygon",
+        Shape::Polyline(_) => "polyline",
+    }
+}
+
+/// Twice the signed area of a vertex loop (positive counter-clockwise).
+pub(crate) fn signed_area2(v: &[Point]) -> f64 {
+    let o = v[0];
+    let mut s = 0.0;
+    for k in 1..v.len().saturating_sub(1) {
+        let p = sub(v[k], o);
+        let q = sub(v[k + 1], o);
+        s += p[0] * q[1] - p[1] * q[0];
+    }
+    s
+}
+
+/// A full circle as four quadrant arcs, counter-clockwise when `ccw`.
+pub(crate) fn circle_loop(center: Point, r: f64, ccw: bool) -> Vec<Piece> {
+    let [cx, cy] = center;
+    let pts = [[cx + r, cy], [cx, cy + r], [cx - r, cy], [cx, cy - r]];
+    let mut l: Vec<Piece> = (0..4)
+        .map(|k| Piece::Arc {
+            a: pts[k],
+            b: pts[(k + 1) % 4],
+            center,
+            radius: r,
+            ccw: true,
+        })
+        .collect();
+    if !ccw {
+        l = l.iter().rev().map(Piece::reversed).collect();
+    }
+    l
+}
+
+/// Appends the arc from `a` to `b` about `center` (less than a full turn), split into
+/// quadrant pieces. Split points closer than 1e-12 rad to an end are not made.
+pub(crate) fn push_arc(out: &mut Vec<Piece>, center: Point, r: f64, a: Point, b: Point, ccw: bool) {
+    let [cx, cy] = center;
+    let ta = (a[1] - cy).atan2(a[0] - cx);
+    let tb = (b[1] - cy).atan2(b[0] - cx);
+    let dir = if ccw { 1.0 } else { -1.0 };
+    let sweep = (dir * (tb - ta)).rem_euclid(TAU);
+    let extremes = [[cx + r, cy], [cx, cy + r], [cx - r, cy], [cx, cy - r]];
+    let mut splits: Vec<(f64, Point)> = (0..4)
+        .filter_map(|k| {
+            let o = (dir * (k as f64 * FRAC_PI_2 - ta)).rem_euclid(TAU);
+            (o > 1e-12 && o < sweep - 1e-12).then_some((o, extremes[k]))
+        })
+        .collect();
+    splits.sort_by(|p, q| p.0.total_cmp(&q.0));
+    let mut from = a;
+    for (_, p) in splits {
+        out.push(Piece::Arc {
+            a: from,
+            b: p,
+            center,
+            radius: r,
+            ccw,
+        });
+        from = p;
+    }
+    out.push(Piece::Arc {
+        a: from,
+        b,
+        center,
+        radius: r,
+        ccw,
+    });
+}
+
+/// A vertex loop oriented counter-clockwise (`ccw`) or clockwise, corners filleted with
+/// radius `round` (0: sharp).
+fn polygon_loop(
+    v: &[Point],
+    round: f64,
+    ccw: bool,
+    key: &'static str,
+) -> Result<Vec<Piece>, ShapeError> {
+    let mut v = v.to_vec();
+    if (signed_area2(&v) > 0.0) != ccw {
+        v.reverse();
+    }
+    if round > 0.0 {
+        fillet::rounded_loop(&v, round).map_err(|m| ShapeError::new("round", m))
+    } else {
+        let l = fillet::plain_loop(&v);
+        if l.len() < 3 {
+            return Err(ShapeError::new(
+                key,
+                "a polygon needs at least 3 distinct vertices",
+            ));
+        }
+        Ok(l)
+    }
+}
+
+/// The outline of a shape. Errors only for shapes that break the shape rules (sizes not
+/// positive, fillet radius too large, fewer than 3 distinct polygon vertices); the full set
+/// of rules is checked by [`validate_design`](super::validate_design).
+pub fn outline(shape: &Shape) -> Result<Outline, ShapeError> {
+    match shape {
+        Shape::Rect { x, y, round } => {
+            if !(x[1] > x[0] && y[1] > y[0]) {
+                return Err(ShapeError::new(
+                    "rect",
+                    "a rectangle needs x0 < x1 and y0 < y1",
+                ));
+            }
+            let v = [[x[0], y[0]], [x[1], y[0]], [x[1], y[1]], [x[0], y[1]]];
+            Ok(Outline {
+                loops: vec![polygon_loop(&v, *round, true, "rect")?],
+                open: false,
+            })
+        }
+        Shape::Circle { center, radius } => {
+            if radius.is_nan() || *radius <= 0.0 {
+                return Err(ShapeError::new("circle", "the radius must be positive"));
+            }
+            Ok(Outline {
+                loops: vec![circle_loop(*center, *radius, true)],
+                open: false,
+            })
+        }
+        Shape::Ring {
+            center,
+            inner,
+            outer,
+        } => {
+            if !(*inner >= 0.0 && inner < outer) {
+                return Err(ShapeError::new("ring", "a ring needs 0 <= inner < outer"));
+            }
+            let mut loops = vec![circle_loop(*center, *outer, true)];
+            if *inner > 0.0 {
+                loops.push(circle_loop(*center, *inner, false));
+            }
+            Ok(Outline { loops, open: false })
+        }
+        Shape::Polygon {
+            outer,
+            holes,
+            round,
+        } => {
+            if outer.len() < 3 {
+                return Err(ShapeError::new(
+                    "polygon",
+                    "a polygon needs at least 3 vertices",
+                ));
+            }
+            let mut loops = vec![polygon_loop(outer, *round, true, "polygon")?];
+            for h in holes {
+                if h.len() < 3 {
+                    return Err(ShapeError::new("holes", "a hole needs at least 3 vertices"));
+                }
+                loops.push(polygon_loop(h, *round, false, "holes")?);
+            }
+            Ok(Outline { loops, open: false })
+        }
+        Shape::Polyline(pts) => {
+            let path: Vec<Piece> = pts
+                .windows(2)
+                .filter(|w| w[0] != w[1])
+                .map(|w| Piece::Line { a: w[0], b: w[1] })
+                .collect();
+            if path.is_empty() {
+                return Err(ShapeError::new(
+                    "polyline",
+                    "a polyline needs at least 2 distinct points",
+                ));
+            }
+            Ok(Outline {
+                loops: vec![path],
+                open: true,
+            })
+        }
+    }
+}
+
+impl Outline {
+    /// Every piece of every loop.
+    pub fn pieces(&self) -> impl Iterator<Item = &Piece> + '_ {
+        self.loops.iter().flatten()
+    }
+
+    /// Bounding box of the outline.
+    pub fn bbox(&self) -> BBox {
+        self.pieces().fold(BBox::EMPTY, |b, p| b.union(p.bbox()))
+    }
+
+    /// Filled area, m^2 (0 for an open outline). Exact for segments and arcs up to rounding.
+    pub fn area(&self) -> f64 {
+        if self.open {
+            return 0.0;
+        }
+        let xr = self.bbox().min[0];
+        self.pieces().map(|p| p.moment_area(xr)).sum()
+    }
+
+    /// First moment `∫∫ x dA` of the filled region, m^3 (0 for an open outline).
+    pub fn moment_x(&self) -> f64 {
+        if self.open {
+            return 0.0;
+        }
+        self.pieces().map(|p| p.moment_radial(0.0)).sum()
+    }
+
+    /// The outline with x and y swapped (loop orientation reverses).
+    pub fn transposed(&self) -> Outline {
+        Outline {
+            loops: self
+                .loops
+                .iter()
+                .map(|l| l.iter().map(Piece::transposed).collect())
+                .collect(),
+            open: self.open,
+        }
+    }
+
+    /// Sorted y of the crossings with the vertical line x = c under the half-open rule
+    /// (`x_min < c <= x_max`), so a vertex on the line is counted once; pieces lying on the
+    /// line are not crossings. For a closed outline the count is even.
+    pub fn vertical_crossings(&self, c: f64) -> Vec<f64> {
+        hits(self.pieces(), &[c])
+            .into_iter()
+            .filter(|h| h.flags & HIT_A != 0)
+            .map(|h| h.at)
+            .collect()
+    }
+
+    /// Sorted x of the crossings with the horizontal line y = c (half-open in y).
+    pub fn horizontal_crossings(&self, c: f64) -> Vec<f64> {
+        self.transposed().vertical_crossings(c)
+    }
+
+    /// True when `p` is inside the filled region (even-odd rule); points on the boundary may
+    /// go either way. Always false for an open outline.
+    pub fn contains(&self, p: Point) -> bool {
+        !self.open
+            && self
+                .vertical_crossings(p[0])
+                .iter()
+                .filter(|&&y| y > p[1])
+                .count()
+                % 2
+                == 1
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn rect(x: [f64; 2], y: [f64; 2], round: f64) -> Shape {
+        Shape::Rect { x, y, round }
+    }
+
+    fn closes(o: &Outline) -> bool {
+        o.loops.iter().all(|l| {
+            l.windows(2).all(|w| w[0].end() == w[1].start())
+                && (o.open || l.last().unwrap().end() == l[0].start())
+        })
+    }
+
+    fn monotone_arcs(o: &Outline) -> bool {
+        // Each arc stays in one quadrant: its end points lie on the same side of the
+        // centre along both axes (up to the split tolerance).
+        o.pieces().all(|p| match *p {
+            Piece::Line { .. } => true,
+            Piece::Arc {
+                a,
+                b,
+                center,
+                radius,
+                ..
+            } => {
+                let t = 1e-9 * radius * radius;
+                (a[0] - center[0]) * (b[0] - center[0]) >= -t
+                    && (a[1] - center[1]) * (b[1] - center[1]) >= -t
+            }
+        })
+    }
+
+    #[test]
+    fn rect_area_and_bbox() {
+        let o = outline(&rect([1.0, 3.0], [-1.0, 0.5], 0.0)).unwrap();
+        assert!(closes(&o));
+        assert!((o.area() - 3.0).abs() < 1e-15);
+        assert_eq!(
+            o.bbox(),
+            BBox {
+                min: [1.0, -1.0],
+                max: [3.0, 0.5]
+            }
+        );
+    }
+
+    #[test]
+    fn rounded_rect_area_is_wh_minus_4_minus_pi_r2() {
+        // Closed form: a rectangle with every corner rounded loses (4 - pi) r^2 (four
+        // squares r x r less four quarter discs), common practice.
+        let (w, h, r) = (3.0, 2.0, 0.4);
+        let o = outline(&rect([0.5, 0.5 + w], [1.0, 1.0 + h], r)).unwrap();
+        assert!(closes(&o) && monotone_arcs(&o));
+        let exact = w * h - (4.0 - PI) * r * r;
+        assert!(
+            (o.area() - exact).abs() < 1e-14,
+            "{} vs {}",
+            o.area(),
+            exact
+        );
+        // A stadium: 2r equal to the height.
+        let o = outline(&rect([0.0, 3.0], [0.0, 1.0], 0.5)).unwrap();
+        assert!(closes(&o));
+        assert!((o.area() - (3.0 - (4.0 - PI) * 0.25)).abs() < 1e-14);
+    }
+
+    #[test]
+    fn circle_and_ring_areas() {
+        let o = outline(&Shape::Circle {
+            center: [0.3, -0.2],
+            radius: 1.7,
+        })
+        .unwrap();
+        assert!(closes(&o) && monotone_arcs(&o));
+        assert!((o.area() - PI * 1.7 * 1.7).abs() < 1e-14);
+        let o = outline(&Shape::Ring {
+            center: [5.0, 5.0],
+            inner: 0.5,
+            outer: 2.0,
+        })
+        .unwrap();
+        assert!(closes(&o));
+        assert!((o.area() - PI * (4.0 - 0.25)).abs() < 1e-13);
+    }
+
+    #[test]
+    fn polygon_with_hole_area_either_orientation() {
+        let outer = vec![[0.0, 0.0], [4.0, 0.0], [4.0, 3.0], [0.0, 3.0]];
+        let hole = vec![[1.0, 1.0], [1.0, 2.0], [2.0, 2.0], [2.0, 1.0]]; // clockwise already
+        let mut hole_ccw = hole.clone();
+        hole_ccw.reverse();
+        for h in [hole, hole_ccw] {
+            let o = outline(&Shape::Polygon {
+                outer: outer.clone(),
+                holes: vec![h],
+                round: 0.0,
+            })
+            .unwrap();
+            assert!((o.area() - 11.0).abs() < 1e-14);
+            assert!(o.contains([0.5, 0.5]) && !o.contains([1.5, 1.5]) && !o.contains([5.0, 1.0]));
+        }
+    }
+
+    #[test]
+    fn rounded_polygon_with_concave_corner_area() {
+        // An L-shape: 5 convex corners of 90 degrees and one concave. Rounding a convex right
+        // angle removes (1 - pi/4) r^2, rounding a concave one adds the same (common practice).
+        let l = vec![
+            [0.0, 0.0],
+            [2.0, 0.0],
+            [2.0, 1.0],
+            [1.0, 1.0],
+            [1.0, 2.0],
+            [0.0, 2.0],
+        ];
+        let r = 0.2;
+        let o = outline(&Shape::Polygon {
+            outer: l,
+            holes: vec![],
+            round: r,
+        })
+        .unwrap();
+        assert!(closes(&o) && monotone_arcs(&o));
+        let exact = 3.0 - 4.0 * (1.0 - PI / 4.0) * r * r;
+        assert!((o.area() - exact).abs() < 1e-14, "{} vs {exact}", o.area());
+    }
+
+    #[test]
+    fn rounded_triangle_area() {
+        // A fillet of radius r in a corner of interior angle alpha removes
+        // r^2 (cot(alpha/2) - (pi - alpha)/2) (the kite minus the sector, common practice).
+        let v = vec![[0.0, 0.0], [4.0, 0.0], [1.0, 3.0]];
+        let r = 0.3;
+        let o = outline(&Shape::Polygon {
+            outer: v.clone(),
+            holes: vec![],
+            round: r,
+        })
+        .unwrap();
+        assert!(closes(&o) && monotone_arcs(&o));
+        let mut exact = 6.0;
+        for k in 0..3 {
+            let p = v[(k + 2) % 3];
+            let q = v[k];
+            let s = v[(k + 1) % 3];
+            let (d1, d2) = (sub(p, q), sub(s, q));
+            let alpha = (d1[0] * d2[1] - d1[1] * d2[0])
+                .abs()
+                .atan2(d1[0] * d2[0] + d1[1] * d2[1]);
+            exact -= r * r * (1.0 / (alpha / 2.0).tan() - (PI - alpha) / 2.0);
+        }
+        assert!((o.area() - exact).abs() < 1e-13, "{} vs {exact}", o.area());
+    }
+
+    #[test]
+    fn crossings_count_a_vertex_on_the_line_once() {
+        let o = outline(&Shape::Polygon {
+            outer: vec![[0.0, 0.0], [2.0, 1.0], [0.0, 2.0], [1.0, 1.0]],
+            holes: vec![],
+            round: 0.0,
+        })
+        .unwrap();
+        // x = 1 passes through the vertex (1, 1) and crosses two edges.
+        assert_eq!(o.vertical_crossings(1.0), vec![0.5, 1.0, 1.0, 1.5]);
+        assert_eq!(o.vertical_crossings(2.0), vec![1.0, 1.0]);
+        assert!(o.vertical_crossings(0.0).is_empty());
+        let c = o.horizontal_crossings(1.0);
+        assert_eq!(c, vec![1.0, 2.0]);
+    }
+
+    #[test]
+    fn circle_crossings_lie_on_the_circle() {
+        let (c, r) = ([0.1, 0.2], 0.7);
+        let o = outline(&Shape::Circle {
+            center: c,
+            radius: r,
+        })
+        .unwrap();
+        for k in 0..50 {
+            let x = c[0] - r + 1.4 * r * (k as f64 + 0.37) / 50.0;
+            let ys = o.vertical_crossings(x);
+            assert_eq!(ys.len(), 2);
+            for y in ys {
+                assert!(((x - c[0]).hypot(y - c[1]) - r).abs() < 1e-15);
+            }
+        }
+    }
+
+    #[test]
+    fn moment_of_disc_and_segment_formula() {
+        // ∫∫ x dA of a disc is area * centre x.
+        let o = outline(&Shape::Circle {
+            center: [2.0, 1.0],
+            radius: 0.5,
+        })
+        .unwrap();
+        assert!((o.moment_x() - 2.0 * PI * 0.25).abs() < 1e-14);
+        let o = outline(&rect([1.0, 3.0], [0.0, 1.0], 0.3)).unwrap();
+        assert!((o.moment_x() - 2.0 * o.area()).abs() < 1e-13);
+    }
+
+    #[test]
+    fn phi_minus_sin_is_continuous_at_the_switch() {
+        let p = 0.1 - 1e-12;
+        let (a, b) = (phi_minus_sin(p), p - p.sin());
+        assert!((a - b).abs() < 1e-12 * a, "{a} {b}");
+    }
+
+    #[test]
+    fn flatten_stays_within_tolerance() {
+        let o = outline(&Shape::Circle {
+            center: [0.0, 0.0],
+            radius: 1.0,
+        })
+        .unwrap();
+        let mut pts = vec![o.loops[0][0].start()];
+        for p in &o.loops[0] {
+            p.flatten_into(1e-3, &mut pts);
+        }
+        assert_eq!(pts.first(), pts.last());
+        for w in pts.windows(2) {
+            let m = [(w[0][0] + w[1][0]) / 2.0, (w[0][1] + w[1][1]) / 2.0];
+            assert!(1.0 - norm(m) <= 1e-3 + 1e-12);
+        }
+    }
+}
