@@ -3,14 +3,16 @@
 //! `benches/pyamg_compare.py`.
 //!
 //! `cargo bench -p fieldgrid-benches --bench multigrid -- [--sizes 256,512] [--repeats 3]
-//!  [--threads 1,2] [--export DIR] [--json FILE] [--memory N]`
+//!  [--threads 1,2] [--export DIR] [--json FILE] [--memory N] [--fine-sweeps K]
+//!  [--coarse-sweeps K] [--coarsest-nodes M]`
 
 use fieldgrid_benches::{issue3, write_csr, Problem};
-use fieldgrid_solver::solvers::multigrid::Hierarchy;
+use fieldgrid_solver::solvers::multigrid::{Hierarchy, Options};
 use fieldgrid_solver::solvers::Params;
 use std::time::Instant;
 
 struct Args {
+    options: Options,
     sizes: Vec<usize>,
     repeats: usize,
     threads: Vec<usize>,
@@ -27,6 +29,7 @@ fn parse() -> Args {
         export: None,
         json: None,
         memory: None,
+        options: Options::default(),
     };
     let mut it = std::env::args().skip(1);
     let list = |s: Option<String>| -> Vec<usize> {
@@ -43,6 +46,9 @@ fn parse() -> Args {
             "--export" => a.export = it.next().map(Into::into),
             "--json" => a.json = it.next().map(Into::into),
             "--memory" => a.memory = Some(list(it.next())[0]),
+            "--fine-sweeps" => a.options.fine_sweeps = list(it.next())[0],
+            "--coarse-sweeps" => a.options.coarse_sweeps = list(it.next())[0],
+            "--coarsest-nodes" => a.options.coarsest_nodes = list(it.next())[0],
             "--bench" => {}
             other => panic!("unknown argument {other}"),
         }
@@ -80,6 +86,7 @@ fn median(mut v: Vec<f64>) -> f64 {
 /// Median timings of one size on one thread count.
 struct Run {
     setup: f64,
+    setup_cpu: f64,
     solve3: f64,
     cpu3: f64,
     iterations: Vec<usize>,
@@ -87,16 +94,18 @@ struct Run {
     levels: usize,
 }
 
-fn run(p: &Problem, repeats: usize) -> Run {
+fn run(p: &Problem, repeats: usize, options: &Options) -> Run {
     let a = &p.stencil;
     let params = Params::default();
     let (mut setup, mut solve3, mut cpu3) = (Vec::new(), Vec::new(), Vec::new());
+    let mut setup_cpu = Vec::new();
     let mut iterations = Vec::new();
     let (mut bytes, mut levels) = (0, 0);
     for _ in 0..repeats {
-        let t = Instant::now();
-        let h = Hierarchy::new(a);
+        let (t, c) = (Instant::now(), cpu_seconds());
+        let h = Hierarchy::with_options(a, options);
         setup.push(t.elapsed().as_secs_f64());
+        setup_cpu.push(cpu_seconds() - c);
         bytes = h.bytes();
         levels = h.lattices().len();
         let mut xs = vec![vec![0.0; a.len()]; p.rhs.len()];
@@ -111,6 +120,7 @@ fn run(p: &Problem, repeats: usize) -> Run {
     }
     Run {
         setup: median(setup),
+        setup_cpu: median(setup_cpu),
         solve3: median(solve3),
         cpu3: median(cpu3),
         iterations,
@@ -125,7 +135,7 @@ fn main() {
         // One setup and three solves, keeping every solution, as a whole solve would; run
         // under `/usr/bin/time -v` to read the peak resident set.
         let p = issue3(n);
-        let h = Hierarchy::new(&p.stencil);
+        let h = Hierarchy::with_options(&p.stencil, &args.options);
         let mut xs = vec![vec![0.0; p.stencil.len()]; p.rhs.len()];
         let infos = h.solve_many(&p.stencil, &p.rhs, &mut xs, &Params::default());
         println!(
@@ -141,13 +151,14 @@ fn main() {
     }
     let mut json = Vec::new();
     println!(
-        "{:>5} {:>9} {:>3} {:>6} | {:>8} {:>10} {:>8} {:>9} {:>8} {:>8} | {:>6} {:>7}",
+        "{:>5} {:>9} {:>3} {:>6} | {:>7} {:>7} | {:>10} {:>8} {:>8} {:>8} | {:>8} | {:>6} {:>7}",
         "N",
         "unknowns",
         "thr",
         "levels",
         "setup s",
-        "iters",
+        "cpu s",
+        "iterations",
         "solve s",
         "3 solves",
         "cpu s",
@@ -168,7 +179,7 @@ fn main() {
                 .num_threads(t)
                 .build()
                 .expect("thread pool");
-            let r = pool.install(|| run(&p, args.repeats));
+            let r = pool.install(|| run(&p, args.repeats, &args.options));
             let speedup = match first_solve {
                 None => {
                     first_solve = Some(r.solve3);
@@ -177,12 +188,13 @@ fn main() {
                 Some(s1) => s1 / r.solve3,
             };
             println!(
-                "{:>5} {:>9} {:>3} {:>6} | {:>8.3} {:>10} {:>8.3} {:>9.3} {:>8.2} {:>8.3} | {:>6.1} {:>7.2}",
+                "{:>5} {:>9} {:>3} {:>6} | {:>7.3} {:>7.2} | {:>10} {:>8.3} {:>8.3} {:>8.2} | {:>8.3} | {:>6.1} {:>7.2}",
                 n,
                 unknowns,
                 t,
                 r.levels,
                 r.setup,
+                r.setup_cpu,
                 format!("{:?}", r.iterations),
                 r.solve3 / p.rhs.len() as f64,
                 r.solve3,

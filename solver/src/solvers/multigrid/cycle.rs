@@ -6,19 +6,22 @@
 //! symmetric positive definite. Nothing in it depends on the thread count.
 
 use super::interpolation::interior_count;
-use super::smoother::{four_colour_sweep, red_black_sweep};
-use super::transfer::{prolong_coarse, prolong_fine, restrict_coarse, restrict_fine};
+use super::level::Shared;
+use super::smoother::{four_colour_sweep, red_black_stages, wavefront, Stage};
+use super::transfer::{
+    check_fine, prolong_coarse, prolong_fine_row, restrict_coarse, FineRestrict, PARALLEL_MIN,
+};
 use super::Hierarchy;
 use crate::stencil::Stencil5;
 
 /// Scratch vectors of one solve (one set serves any number of right-hand sides in turn).
 pub(super) struct Workspace {
     /// Scaled fine residuals at interior points.
-    sbuf: Vec<f64>,
+    pub(super) sbuf: Vec<f64>,
     /// Per coarse level: iterate, right-hand side, residual (padded).
-    x: Vec<Vec<f64>>,
-    b: Vec<Vec<f64>>,
-    r: Vec<Vec<f64>>,
+    pub(super) x: Vec<Vec<f64>>,
+    pub(super) b: Vec<Vec<f64>>,
+    pub(super) r: Vec<Vec<f64>>,
 }
 
 impl Workspace {
@@ -66,19 +69,31 @@ pub(super) fn vcycle(h: &Hierarchy, a: &Stencil5, ws: &mut Workspace, r: &[f64],
         h.coarsest.solve(r, z, |i, j| i + j * nx);
         return;
     }
+    check_fine(a, &[r.len(), z.len()]);
+    assert_eq!(ws.sbuf.len(), interior_count(a.nx) * interior_count(a.ny));
+    assert_eq!(ws.b[0].len(), h.levels[0].padded_len());
+    let big = a.len() >= PARALLEL_MIN;
     let sweeps = h.options.fine_sweeps.max(1);
-    for sweep in 0..sweeps {
-        red_black_sweep(a, r, z, 0, sweep == 0);
+    {
+        // Pre-smoothing from zero and restriction, interleaved by rows.
+        let zp = Shared::new(z);
+        let fr = FineRestrict {
+            a,
+            lw: &h.weights[0],
+            r,
+            z: zp,
+            sbuf: Shared::new(&mut ws.sbuf),
+            c: &h.levels[0],
+            bc: Shared::new(&mut ws.b[0]),
+        };
+        let mut stages = red_black_stages(a, r, zp, 0, sweeps, true);
+        // SAFETY: lengths checked above; `wavefront` keeps the stage-by-stage order of every
+        // access, each stage writing only its own row.
+        stages.push(Box::new(|j| unsafe { fr.interior_row(j) }));
+        stages.push(Box::new(|j| unsafe { fr.coarse_row(j) }));
+        let refs: Vec<Stage> = stages.iter().map(|s| &**s as Stage).collect();
+        wavefront(a.ny, big, &refs);
     }
-    restrict_fine(
-        a,
-        &h.weights[0],
-        r,
-        z,
-        &mut ws.sbuf,
-        &h.levels[0],
-        &mut ws.b[0],
-    );
     let last = h.levels.len() - 1;
     let coarse_sweeps = h.options.coarse_sweeps.max(1);
     for k in 0..last {
@@ -111,8 +126,18 @@ pub(super) fn vcycle(h: &Hierarchy, a: &Stencil5, ws: &mut Workspace, r: &[f64],
             four_colour_sweep(l, &ws.b[k], &mut lo[k], true, false);
         }
     }
-    prolong_fine(a, &h.weights[0], z, &h.levels[0], &ws.x[0]);
-    for _ in 0..sweeps {
-        red_black_sweep(a, r, z, 1, false);
+    {
+        // Prolongation and post-smoothing (black first), interleaved by rows.
+        let zp = Shared::new(z);
+        let (lw, c, xc) = (&h.weights[0], &h.levels[0], &ws.x[0][..]);
+        assert_eq!(xc.len(), c.padded_len());
+        let mut stages: Vec<Box<dyn Fn(usize) + Sync>> = Vec::new();
+        // SAFETY: as above.
+        stages.push(Box::new(move |j| unsafe {
+            prolong_fine_row(a, lw, zp.get(), c, xc, j)
+        }));
+        stages.extend(red_black_stages(a, r, zp, 1, sweeps, false));
+        let refs: Vec<Stage> = stages.iter().map(|s| &**s as Stage).collect();
+        wavefront(a.ny, big, &refs);
     }
 }

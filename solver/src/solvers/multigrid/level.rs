@@ -24,6 +24,11 @@ impl Shared {
     pub fn new(v: &mut [f64]) -> Shared {
         Shared(v.as_mut_ptr())
     }
+    /// Wraps a vector that will only be read through the pointer.
+    #[cfg(test)]
+    pub fn new_const(v: &[f64]) -> Shared {
+        Shared(v.as_ptr() as *mut f64)
+    }
     /// The raw pointer (a method, so closures capture the wrapper, not the pointer).
     #[inline]
     pub fn get(self) -> *mut f64 {

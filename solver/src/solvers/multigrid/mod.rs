@@ -53,7 +53,7 @@ pub struct Options {
 impl Default for Options {
     fn default() -> Self {
         Options {
-            fine_sweeps: 1,
+            fine_sweeps: 2,
             coarse_sweeps: 1,
             coarsest_nodes: 1600,
         }

@@ -9,42 +9,53 @@
 //! row-interleaved ([`two_stage`]) but compute exactly what colour-by-colour passes compute.
 
 use super::level::{Level, Shared};
+#[cfg(test)]
+use super::transfer::check_fine;
 use super::transfer::{chunks_mut, PARALLEL_MIN};
 use crate::stencil::Stencil5;
 use rayon::prelude::*;
 
-/// Runs `first(j)` for every row and then `second(j)` for every row, with the result of two
-/// separate passes, but interleaved in blocks of rows so that each row is loaded once.
+/// A row stage of [`wavefront`].
+pub(super) type Stage<'a> = &'a (dyn Fn(usize) + Sync);
+
+/// Runs every stage over every row with the result of running the stages one after the
+/// other, each over all rows in turn, but interleaved so that the rows a step needs are
+/// still in cache: step t runs stage s on row t - s, for s = 0, 1, ... .
 ///
-/// Requires: `second(j)` reads only what `first` leaves in rows j-1..=j+1, and `first(j)`
-/// reads rows j-1..=j+1 only where `second` has not written yet. Within a block the order is
-/// first(j+1), second(j); the second stage of the rows on each side of a block boundary
-/// waits for a final parallel step, after every first stage is done.
-pub(super) fn two_stage(
-    rows: usize,
-    big: bool,
-    first: impl Fn(usize) + Sync,
-    second: impl Fn(usize) + Sync,
-) {
-    if rows == 0 {
+/// Requires: stage s on row j reads and writes only rows j-1..=j+1. Then every access
+/// happens in the same order relative to the others as in the stage-by-stage order, so the
+/// results are identical bit for bit. Rows are split into blocks run in parallel; the stages
+/// that would need a neighbouring block's rows are deferred to a second parallel step over the
+/// block boundaries.
+pub(super) fn wavefront(rows: usize, big: bool, stages: &[Stage]) {
+    let k = stages.len();
+    if rows == 0 || k == 0 {
         return;
     }
+    // Boundary regions (2k rows) must be at least two rows apart.
+    let min_block = 2 * k + 2;
     let blocks = if big {
-        (4 * rayon::current_num_threads()).min(rows / 8).max(1)
+        (4 * rayon::current_num_threads())
+            .min(rows / (2 * min_block))
+            .max(1)
     } else {
         1
     };
-    let bound = |k: usize| k * rows / blocks;
-    let run = |k: usize| {
-        let (b, e) = (bound(k), bound(k + 1));
-        first(b);
-        for j in b..e {
-            if j + 1 < e {
-                first(j + 1);
-            }
-            let deferred = (j == b && k > 0) || (j + 1 == e && k + 1 < blocks);
-            if !deferred {
-                second(j);
+    let bound = |b: usize| b * rows / blocks;
+    let run = |b: usize| {
+        let (lo, hi) = (bound(b), bound(b + 1));
+        for t in lo..hi + k {
+            for (s, stage) in stages.iter().enumerate() {
+                let Some(j) = t.checked_sub(s) else { continue };
+                let lo_s = if b == 0 { 0 } else { lo + s };
+                let hi_s = if b + 1 == blocks {
+                    rows
+                } else {
+                    hi.saturating_sub(s)
+                };
+                if j >= lo_s && j < hi_s {
+                    stage(j);
+                }
             }
         }
     };
@@ -53,13 +64,28 @@ pub(super) fn two_stage(
         return;
     }
     (0..blocks).into_par_iter().for_each(run);
-    (1..blocks).into_par_iter().for_each(|k| {
-        let b = bound(k);
-        second(b - 1);
-        if b + 1 < bound(k + 1) || k + 1 == blocks {
-            second(b);
+    // Deferred: stage s on rows e - s .. e + s around each inner boundary e.
+    (1..blocks).into_par_iter().for_each(|b| {
+        let e = bound(b);
+        for t in e.saturating_sub(k)..e + 2 * k {
+            for (s, stage) in stages.iter().enumerate() {
+                let Some(j) = t.checked_sub(s) else { continue };
+                if j + s >= e && j < e + s {
+                    stage(j);
+                }
+            }
         }
     });
+}
+
+/// Runs `first` over every row and then `second` over every row (see [`wavefront`]).
+pub(super) fn two_stage(
+    rows: usize,
+    big: bool,
+    first: impl Fn(usize) + Sync,
+    second: impl Fn(usize) + Sync,
+) {
+    wavefront(rows, big, &[&first, &second]);
 }
 
 /// Gauss–Seidel update of the nodes of `colour` ((i + j) % 2) in row j of the fine lattice.
@@ -68,7 +94,7 @@ pub(super) fn two_stage(
 /// `x` points to a vector of the lattice's length; no other thread writes row j's nodes of
 /// this colour or reads them, nor writes their neighbours, during the call.
 #[inline]
-unsafe fn rb_row(a: &Stencil5, b: &[f64], x: *mut f64, j: usize, colour: usize) {
+pub(super) unsafe fn rb_row(a: &Stencil5, b: &[f64], x: *mut f64, j: usize, colour: usize) {
     let (nx, ny) = (a.nx, a.ny);
     let (diag, east, north) = (&a.diag[..], &a.east[..], &a.north[..]);
     let base = j * nx;
@@ -117,8 +143,60 @@ unsafe fn rb_row(a: &Stencil5, b: &[f64], x: *mut f64, j: usize, colour: usize) 
     }
 }
 
+/// Row j of the first red pass from a zero iterate: `x = b / diag` on nodes of `colour`,
+/// zero on the others (it reads no neighbour).
+///
+/// # Safety
+/// `x` points to a lattice vector; no one else reads or writes row j meanwhile.
+#[inline]
+pub(super) unsafe fn from_zero_row(a: &Stencil5, b: &[f64], x: *mut f64, j: usize, colour: usize) {
+    let nx = a.nx;
+    let base = j * nx;
+    for i in 0..nx {
+        let p = base + i;
+        *x.add(p) = if (i + j) % 2 == colour {
+            b.get_unchecked(p) / a.diag.get_unchecked(p)
+        } else {
+            0.0
+        };
+    }
+}
+
+/// Row stages of `sweeps` red-black sweeps on the fine lattice, each colour `first` then the
+/// other, for [`wavefront`]; with `from_zero` the iterate is taken as zero on entry.
+///
+/// # Safety
+/// Lengths are checked by the caller (`transfer::check_fine`); the stages must run through
+/// [`wavefront`] (or in stage order) with nothing else touching `x`.
+pub(super) fn red_black_stages<'a>(
+    a: &'a Stencil5,
+    b: &'a [f64],
+    x: Shared,
+    first: usize,
+    sweeps: usize,
+    from_zero: bool,
+) -> Vec<Box<dyn Fn(usize) + Sync + 'a>> {
+    let mut stages: Vec<Box<dyn Fn(usize) + Sync + 'a>> = Vec::new();
+    for sweep in 0..sweeps {
+        if sweep == 0 && from_zero {
+            stages.push(Box::new(move |j| unsafe {
+                from_zero_row(a, b, x.get(), j, first)
+            }));
+        } else {
+            stages.push(Box::new(move |j| unsafe {
+                rb_row(a, b, x.get(), j, first)
+            }));
+        }
+        stages.push(Box::new(move |j| unsafe {
+            rb_row(a, b, x.get(), j, 1 - first)
+        }));
+    }
+    stages
+}
+
 /// One red-black Gauss–Seidel sweep on the fine lattice: colour `first` ((i + j) % 2), then
 /// the other. With `from_zero` the iterate is taken as zero on entry (and overwritten).
+#[cfg(test)]
 pub(super) fn red_black_sweep(
     a: &Stencil5,
     b: &[f64],
@@ -126,37 +204,10 @@ pub(super) fn red_black_sweep(
     first: usize,
     from_zero: bool,
 ) {
-    let n = a.len();
-    assert!(
-        b.len() == n
-            && x.len() == n
-            && a.diag.len() == n
-            && a.east.len() == n
-            && a.north.len() == n
-    );
-    let nx = a.nx;
-    let ptr = Shared::new(x);
-    // SAFETY (both stages): lengths are checked above; `two_stage` orders the rows so that
-    // each update sees exactly the values of a colour-by-colour sweep and no two threads
-    // touch the same row's colour at once.
-    let stage0 = |j: usize| unsafe {
-        let x = ptr.get();
-        if from_zero {
-            let base = j * nx;
-            for i in 0..nx {
-                let p = base + i;
-                *x.add(p) = if (i + j) % 2 == first {
-                    b.get_unchecked(p) / a.diag.get_unchecked(p)
-                } else {
-                    0.0
-                };
-            }
-        } else {
-            rb_row(a, b, x, j, first);
-        }
-    };
-    let stage1 = |j: usize| unsafe { rb_row(a, b, ptr.get(), j, 1 - first) };
-    two_stage(a.ny, n >= PARALLEL_MIN, stage0, stage1);
+    check_fine(a, &[b.len(), x.len()]);
+    let stages = red_black_stages(a, b, Shared::new(x), first, 1, from_zero);
+    let refs: Vec<Stage> = stages.iter().map(|s| &**s as Stage).collect();
+    wavefront(a.ny, a.len() >= PARALLEL_MIN, &refs);
 }
 
 /// Gauss–Seidel update of the nodes of colour (ci, j % 2) in row j of a coarse level.

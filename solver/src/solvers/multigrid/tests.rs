@@ -210,6 +210,101 @@ fn v_cycle_alone_reduces_poisson_error_by_a_large_factor() {
     assert!(factor < 0.2, "energy-norm reduction per V-cycle {factor}");
 }
 
+/// The V-cycle with every fine-level step as a separate whole-lattice pass.
+fn separate_pass_vcycle(h: &Hierarchy, a: &Stencil5, ws: &mut Workspace, r: &[f64], z: &mut [f64]) {
+    use super::smoother::{four_colour_sweep, red_black_sweep};
+    let nu = h.options.fine_sweeps;
+    for sweep in 0..nu {
+        red_black_sweep(a, r, z, 0, sweep == 0);
+    }
+    let mut sbuf = vec![0.0; ws.sbuf.len()];
+    restrict_fine(
+        a,
+        &h.weights[0],
+        r,
+        z,
+        &mut sbuf,
+        &h.levels[0],
+        &mut ws.b[0],
+    );
+    let last = h.levels.len() - 1;
+    for k in 0..last {
+        let l = &h.levels[k];
+        for sweep in 0..h.options.coarse_sweeps {
+            four_colour_sweep(l, &ws.b[k], &mut ws.x[k], false, sweep == 0);
+        }
+        let (lo, hi) = ws.b.split_at_mut(k + 1);
+        restrict_coarse(
+            l,
+            &h.weights[k + 1],
+            &lo[k],
+            &ws.x[k],
+            &mut ws.r[k],
+            &h.levels[k + 1],
+            &mut hi[0],
+        );
+    }
+    let s = h.levels[last].s;
+    h.coarsest
+        .solve(&ws.b[last], &mut ws.x[last], |i, j| (i + 1) + (j + 1) * s);
+    for k in (0..last).rev() {
+        let (lo, hi) = ws.x.split_at_mut(k + 1);
+        prolong_coarse(
+            &h.levels[k],
+            &h.weights[k + 1],
+            &mut lo[k],
+            &h.levels[k + 1],
+            &hi[0],
+        );
+        for _ in 0..h.options.coarse_sweeps {
+            four_colour_sweep(&h.levels[k], &ws.b[k], &mut lo[k], true, false);
+        }
+    }
+    prolong_fine(a, &h.weights[0], z, &h.levels[0], &ws.x[0]);
+    for _ in 0..nu {
+        red_black_sweep(a, r, z, 1, false);
+    }
+}
+
+#[test]
+fn row_interleaved_cycle_equals_separate_passes_for_any_thread_count() {
+    let (a, _) = hard_problem(Hard::new(203, 171));
+    let r: Vec<f64> = noise(a.len(), 9)
+        .iter()
+        .zip(&a.unknown)
+        .map(|(v, &u)| if u { *v } else { 0.0 })
+        .collect();
+    for sweeps in [1, 2] {
+        let h = Hierarchy::with_options(
+            &a,
+            &Options {
+                fine_sweeps: sweeps,
+                coarse_sweeps: sweeps,
+                ..deep()
+            },
+        );
+        let mut ws = Workspace::new(&h);
+        let mut want = vec![0.0; a.len()];
+        rayon::ThreadPoolBuilder::new()
+            .num_threads(1)
+            .build()
+            .unwrap()
+            .install(|| separate_pass_vcycle(&h, &a, &mut ws, &r, &mut want));
+        for threads in [1, 2, 3] {
+            let mut z = vec![1.0; a.len()];
+            rayon::ThreadPoolBuilder::new()
+                .num_threads(threads)
+                .build()
+                .unwrap()
+                .install(|| cycle::vcycle(&h, &a, &mut ws, &r, &mut z));
+            assert!(
+                z.iter().zip(&want).all(|(u, v)| u.to_bits() == v.to_bits()),
+                "{sweeps} sweeps, {threads} threads"
+            );
+        }
+    }
+}
+
 #[test]
 fn preconditioner_is_symmetric_and_keeps_fixed_nodes_at_zero() {
     let (a, _) = hard_problem(Hard::new(61, 46));

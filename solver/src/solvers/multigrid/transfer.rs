@@ -7,7 +7,7 @@
 //! fixed fine node a zero correction.
 
 use super::interpolation::{between, fine_of, interior_count, kind, Kind, LineWeights};
-use super::level::Level;
+use super::level::{Level, Shared};
 use crate::stencil::Stencil5;
 use rayon::prelude::*;
 
@@ -32,102 +32,127 @@ pub(super) fn chunks_mut<T: Send>(
     }
 }
 
-/// Residual `r - A z` of the fine stencil at node (i, j).
-#[inline]
-fn fine_residual(a: &Stencil5, r: &[f64], z: &[f64], i: usize, j: usize) -> f64 {
-    let nx = a.nx;
-    let p = i + j * nx;
-    let mut s = r[p] - a.diag[p] * z[p];
-    if i + 1 < nx {
-        s += a.east[p] * z[p + 1];
-    }
-    if i > 0 {
-        s += a.east[p - 1] * z[p - 1];
-    }
-    if j + 1 < a.ny {
-        s += a.north[p] * z[p + nx];
-    }
-    if j > 0 {
-        s += a.north[p - nx] * z[p - nx];
-    }
-    s
+/// The fine-level restriction as two row stages: [`FineRestrict::interior_row`] (scaled
+/// residuals of the interior points of a row) and [`FineRestrict::coarse_row`] (the coarse
+/// right-hand side of a coarse row, from the interior values of the rows beside it). It runs
+/// right after a red-black sweep that ended on black: black residuals are zero and are not
+/// recomputed. Vectors are shared raw pointers so that the stages can run interleaved with
+/// the smoother (see `smoother::wavefront`).
+pub(super) struct FineRestrict<'a> {
+    /// Fine operator.
+    pub a: &'a Stencil5,
+    /// Its line weights.
+    pub lw: &'a LineWeights,
+    /// Right-hand side of the fine smoothing.
+    pub r: &'a [f64],
+    /// The smoothed iterate (read only here).
+    pub z: Shared,
+    /// Scaled interior residuals, `interior_count(nx) * interior_count(ny)`.
+    pub sbuf: Shared,
+    /// The coarse level.
+    pub c: &'a Level,
+    /// Its right-hand side (padded).
+    pub bc: Shared,
 }
 
-/// Restricts the fine residual `r - A z` to the coarse right-hand side `bc`, right after a
-/// red-black sweep that ended on black: black residuals are zero and are not recomputed.
-/// `sbuf` (interior points only) receives the interior residuals over their diagonals.
-#[allow(clippy::too_many_arguments)]
-pub(super) fn restrict_fine(
-    a: &Stencil5,
-    lw: &LineWeights,
-    r: &[f64],
-    z: &[f64],
-    sbuf: &mut [f64],
-    c: &Level,
-    bc: &mut [f64],
-) {
-    let (nx, ny) = (a.nx, a.ny);
-    let len = a.len();
-    assert!(
-        r.len() == len
-            && z.len() == len
-            && a.diag.len() == len
-            && a.east.len() == len
-            && a.north.len() == len
-    );
-    let big = len >= PARALLEL_MIN;
-    let mx = interior_count(nx);
-    let (d, e, n) = (&a.diag[..], &a.east[..], &a.north[..]);
-    // Residual at a node with all four neighbours inside the lattice.
-    // SAFETY: callers pass such nodes only, so every index is below `len`.
-    let inner = |p: usize| unsafe {
-        r.get_unchecked(p) - d.get_unchecked(p) * z.get_unchecked(p)
-            + e.get_unchecked(p) * z.get_unchecked(p + 1)
-            + e.get_unchecked(p - 1) * z.get_unchecked(p - 1)
-            + n.get_unchecked(p) * z.get_unchecked(p + nx)
-            + n.get_unchecked(p - nx) * z.get_unchecked(p - nx)
-    };
-    chunks_mut(big, sbuf, mx, |m, row| {
-        let base = (2 * m + 1) * nx;
-        for (k, sv) in row.iter_mut().enumerate() {
-            // Interior points are never on the lattice edge.
-            let p = base + 2 * k + 1;
-            *sv = inner(p) / d[p];
+impl FineRestrict<'_> {
+    /// Residual `r - A z` at node (i, j).
+    ///
+    /// # Safety
+    /// `z` points to a lattice vector whose entries around (i, j) are not being written.
+    #[inline]
+    unsafe fn residual(&self, i: usize, j: usize) -> f64 {
+        let (a, z) = (self.a, self.z.get());
+        let nx = a.nx;
+        let p = i + j * nx;
+        let mut s = self.r[p] - a.diag[p] * *z.add(p);
+        if i + 1 < nx {
+            s += a.east[p] * *z.add(p + 1);
         }
-    });
-    let sbuf = &*sbuf;
-    let known = |i: usize, j: usize| -> f64 {
-        if (i + j) % 2 == 1 {
-            0.0
-        } else {
-            fine_residual(a, r, z, i, j)
+        if i > 0 {
+            s += a.east[p - 1] * *z.add(p - 1);
         }
-    };
-    let cx = c.nx;
-    // Coarse columns whose fine node and both x-line neighbours are regular: 2ic +- 1 lie
-    // between coarse indices (so the line points are black and inside).
-    let (reg0, reg1) = (1, nx.saturating_sub(1) / 2);
-    chunks_mut(big, bc, c.s, |row, out| {
-        if row == 0 || row > c.ny {
+        if j + 1 < a.ny {
+            s += a.north[p] * *z.add(p + nx);
+        }
+        if j > 0 {
+            s += a.north[p - nx] * *z.add(p - nx);
+        }
+        s
+    }
+
+    /// Residual at a node with all four neighbours inside the lattice.
+    ///
+    /// # Safety
+    /// As for `residual`, and p must not be on the lattice edge.
+    #[inline]
+    unsafe fn inner(&self, p: usize) -> f64 {
+        let (a, z, nx) = (self.a, self.z.get(), self.a.nx);
+        let (d, e, n, r) = (&a.diag, &a.east, &a.north, self.r);
+        r.get_unchecked(p) - d.get_unchecked(p) * *z.add(p)
+            + e.get_unchecked(p) * *z.add(p + 1)
+            + e.get_unchecked(p - 1) * *z.add(p - 1)
+            + n.get_unchecked(p) * *z.add(p + nx)
+            + n.get_unchecked(p - nx) * *z.add(p - nx)
+    }
+
+    /// Stage 1: scaled residuals of the interior points of fine row j (other rows: nothing).
+    ///
+    /// # Safety
+    /// Vectors have their documented lengths; rows j-1..=j+1 of z are final and not being
+    /// written; no one else writes this row of `sbuf`.
+    pub unsafe fn interior_row(&self, j: usize) {
+        let (nx, ny) = (self.a.nx, self.a.ny);
+        if !between(j as isize, ny) {
             return;
         }
-        let jc = row - 1;
-        let fj = fine_of(jc, ny);
+        let mx = interior_count(nx);
+        let out = self.sbuf.get().add((j / 2) * mx);
+        let base = j * nx;
+        for k in 0..mx {
+            let p = base + 2 * k + 1;
+            *out.add(k) = self.inner(p) / self.a.diag.get_unchecked(p);
+        }
+    }
+
+    /// Stage 2: the coarse right-hand side of the coarse row lying on fine row j (other
+    /// rows: nothing).
+    ///
+    /// # Safety
+    /// As for `interior_row`, with `sbuf` rows j +- 1 complete; no one else writes this row
+    /// of `bc`.
+    pub unsafe fn coarse_row(&self, j: usize) {
+        let (a, lw, c) = (self.a, self.lw, self.c);
+        let (nx, ny) = (a.nx, a.ny);
+        let jc = match kind(j, ny) {
+            Kind::Coarse(jc) => jc,
+            Kind::Between(_) => return,
+        };
+        let fj = j;
+        let mx = interior_count(nx);
+        let (e, n) = (&a.east[..], &a.north[..]);
         let up = between(fj as isize + 1, ny);
         let down = between(fj as isize - 1, ny);
-        let s_up = if up {
-            &sbuf[(fj / 2) * mx..(fj / 2 + 1) * mx]
-        } else {
-            &[][..]
-        };
+        let sb = self.sbuf.get();
+        let s_up = if up { sb.add((fj / 2) * mx) } else { sb };
         let s_dn = if down {
-            &sbuf[((fj - 1) / 2) * mx..((fj - 1) / 2 + 1) * mx]
+            sb.add(((fj - 1) / 2) * mx)
         } else {
-            &[][..]
+            sb
         };
+        let su = |k: usize| *s_up.add(k);
+        let sd = |k: usize| *s_dn.add(k);
         let yw_up = if up { lw.yw_row(fj + 1) } else { &[][..] };
         let yw_dn = if down { lw.yw_row(fj - 1) } else { &[][..] };
         let xw = lw.xw_row(jc);
+        let out = self.bc.get().add(c.idx(0, jc));
+        let known = |i: usize, j: usize| -> f64 {
+            if (i + j) % 2 == 1 {
+                0.0
+            } else {
+                self.residual(i, j)
+            }
+        };
         let general = |ic: usize| -> f64 {
             let fi = fine_of(ic, nx);
             let p = fi + fj * nx;
@@ -141,10 +166,10 @@ pub(super) fn restrict_fine(
                 let (l, k) = (p + 1, (fi + 1) / 2);
                 let mut t = known(fi + 1, fj);
                 if up {
-                    t += n[l] * s_up[k];
+                    t += n[l] * su(k);
                 }
                 if down {
-                    t += n[l - nx] * s_dn[k];
+                    t += n[l - nx] * sd(k);
                 }
                 v += xw[k][0] as f64 * t;
             }
@@ -152,10 +177,10 @@ pub(super) fn restrict_fine(
                 let (l, k) = (p - 1, (fi - 1) / 2);
                 let mut t = known(fi - 1, fj);
                 if up {
-                    t += n[l] * s_up[k];
+                    t += n[l] * su(k);
                 }
                 if down {
-                    t += n[l - nx] * s_dn[k];
+                    t += n[l - nx] * sd(k);
                 }
                 v += xw[k][1] as f64 * t;
             }
@@ -163,10 +188,10 @@ pub(super) fn restrict_fine(
                 let l = p + nx;
                 let mut t = known(fi, fj + 1);
                 if east {
-                    t += e[l] * s_up[(fi + 1) / 2];
+                    t += e[l] * su((fi + 1) / 2);
                 }
                 if west {
-                    t += e[l - 1] * s_up[(fi - 1) / 2];
+                    t += e[l - 1] * su((fi - 1) / 2);
                 }
                 v += yw_up[ic][0] as f64 * t;
             }
@@ -174,59 +199,115 @@ pub(super) fn restrict_fine(
                 let l = p - nx;
                 let mut t = known(fi, fj - 1);
                 if east {
-                    t += e[l] * s_dn[(fi + 1) / 2];
+                    t += e[l] * sd((fi + 1) / 2);
                 }
                 if west {
-                    t += e[l - 1] * s_dn[(fi - 1) / 2];
+                    t += e[l - 1] * sd((fi - 1) / 2);
                 }
                 v += yw_dn[ic][1] as f64 * t;
             }
             v
         };
+        let cx = c.nx;
+        // Coarse columns whose fine node is inside and whose x-line neighbours 2ic +- 1 lie
+        // between coarse indices: those line points are black and inside.
+        let (reg0, reg1) = (1, nx.saturating_sub(1) / 2);
         if !(up && down && fj % 2 == 0) || reg1 <= reg0 {
             for ic in 0..cx {
-                out[ic + 1] = general(ic);
+                *out.add(ic) = general(ic);
             }
             return;
         }
-        out[1] = general(0);
+        *out = general(0);
         for ic in reg0..reg1 {
             let p = 2 * ic + fj * nx;
             if !a.unknown[p] {
-                out[ic + 1] = 0.0;
+                *out.add(ic) = 0.0;
                 continue;
             }
             let (ke, kw) = (ic, ic - 1);
-            let (su_e, su_w, sd_e, sd_w) = (s_up[ke], s_up[kw], s_dn[ke], s_dn[kw]);
-            let v = inner(p)
+            let (su_e, su_w, sd_e, sd_w) = (su(ke), su(kw), sd(ke), sd(kw));
+            let v = self.inner(p)
                 + xw[ke][0] as f64 * (n[p + 1] * su_e + n[p + 1 - nx] * sd_e)
                 + xw[kw][1] as f64 * (n[p - 1] * su_w + n[p - 1 - nx] * sd_w)
                 + yw_up[ic][0] as f64 * (e[p + nx] * su_e + e[p + nx - 1] * su_w)
                 + yw_dn[ic][1] as f64 * (e[p - nx] * sd_e + e[p - nx - 1] * sd_w);
-            out[ic + 1] = v;
+            *out.add(ic) = v;
         }
         for ic in reg1.max(1)..cx {
-            out[ic + 1] = general(ic);
+            *out.add(ic) = general(ic);
         }
-    });
+    }
 }
 
-/// Adds the interpolated coarse correction `xc` to the fine iterate `z`.
-pub(super) fn prolong_fine(a: &Stencil5, lw: &LineWeights, z: &mut [f64], c: &Level, xc: &[f64]) {
-    let (nx, ny) = (a.nx, a.ny);
+/// Checks the lengths the fine row kernels rely on.
+pub(super) fn check_fine(a: &Stencil5, vectors: &[usize]) {
+    let n = a.len();
+    assert!(a.diag.len() == n && a.east.len() == n && a.north.len() == n && a.unknown.len() == n);
+    assert!(
+        vectors.iter().all(|&l| l == n),
+        "vector length differs from the lattice"
+    );
+}
+
+#[cfg(test)]
+/// Restricts the fine residual `r - A z` to the coarse right-hand side `bc` (both stages of
+/// [`FineRestrict`] one after the other), right after a sweep that ended on black.
+pub(super) fn restrict_fine(
+    a: &Stencil5,
+    lw: &LineWeights,
+    r: &[f64],
+    z: &[f64],
+    sbuf: &mut [f64],
+    c: &Level,
+    bc: &mut [f64],
+) {
+    check_fine(a, &[r.len(), z.len()]);
+    assert!(
+        sbuf.len() == interior_count(a.nx) * interior_count(a.ny) && bc.len() == c.padded_len()
+    );
     let big = a.len() >= PARALLEL_MIN;
+    let fr = FineRestrict {
+        a,
+        lw,
+        r,
+        z: Shared::new_const(z),
+        sbuf: Shared::new(sbuf),
+        c,
+        bc: Shared::new(bc),
+    };
+    // SAFETY: lengths checked; each stage writes only its own row; the second stage runs
+    // after the first is complete.
+    each(big, a.ny, |j| unsafe { fr.interior_row(j) });
+    each(big, a.ny, |j| unsafe { fr.coarse_row(j) });
+}
+
+/// Adds the interpolated coarse correction `xc` to row j of the fine iterate `z`.
+///
+/// # Safety
+/// `z` points to a lattice vector; no one else reads or writes its row j meanwhile.
+pub(super) unsafe fn prolong_fine_row(
+    a: &Stencil5,
+    lw: &LineWeights,
+    z: *mut f64,
+    c: &Level,
+    xc: &[f64],
+    j: usize,
+) {
+    let (nx, ny) = (a.nx, a.ny);
     let (d, e, n) = (&a.diag[..], &a.east[..], &a.north[..]);
     let (cx, mx) = (c.nx, interior_count(nx));
     let crow = |jc: usize| &xc[c.idx(0, jc)..c.idx(0, jc) + cx];
-    chunks_mut(big, z, nx, |j, row| match kind(j, ny) {
+    let row = z.add(j * nx);
+    match kind(j, ny) {
         Kind::Coarse(jc) => {
             let (ec, xw) = (crow(jc), lw.xw_row(jc));
             for ic in 0..cx {
-                row[fine_of(ic, nx)] += ec[ic];
+                *row.add(fine_of(ic, nx)) += ec[ic];
             }
             for i0 in 0..mx {
                 let w = xw[i0];
-                row[2 * i0 + 1] += w[0] as f64 * ec[i0] + w[1] as f64 * ec[i0 + 1];
+                *row.add(2 * i0 + 1) += w[0] as f64 * ec[i0] + w[1] as f64 * ec[i0 + 1];
             }
         }
         Kind::Between(j0) => {
@@ -234,7 +315,7 @@ pub(super) fn prolong_fine(a: &Stencil5, lw: &LineWeights, z: &mut [f64], c: &Le
             let (xs, xn, yw) = (lw.xw_row(j0), lw.xw_row(j0 + 1), lw.yw_row(j));
             let ey = |ic: usize| yw[ic][0] as f64 * es[ic] + yw[ic][1] as f64 * en[ic];
             for ic in 0..cx {
-                row[fine_of(ic, nx)] += ey(ic);
+                *row.add(fine_of(ic, nx)) += ey(ic);
             }
             let base = j * nx;
             for i0 in 0..mx {
@@ -242,11 +323,33 @@ pub(super) fn prolong_fine(a: &Stencil5, lw: &LineWeights, z: &mut [f64], c: &Le
                 let p = base + i;
                 let ex_s = xs[i0][0] as f64 * es[i0] + xs[i0][1] as f64 * es[i0 + 1];
                 let ex_n = xn[i0][0] as f64 * en[i0] + xn[i0][1] as f64 * en[i0 + 1];
-                row[i] +=
+                *row.add(i) +=
                     (e[p - 1] * ey(i0) + e[p] * ey(i0 + 1) + n[p - nx] * ex_s + n[p] * ex_n) / d[p];
             }
         }
+    }
+}
+
+/// Adds the interpolated coarse correction `xc` to the fine iterate `z`.
+#[cfg(test)]
+pub(super) fn prolong_fine(a: &Stencil5, lw: &LineWeights, z: &mut [f64], c: &Level, xc: &[f64]) {
+    check_fine(a, &[z.len()]);
+    let big = a.len() >= PARALLEL_MIN;
+    let zp = Shared::new(z);
+    // SAFETY: length checked; each call writes only its own row.
+    each(big, a.ny, |j| unsafe {
+        prolong_fine_row(a, lw, zp.get(), c, xc, j)
     });
+}
+
+/// Runs `f(j)` for j in 0..n, in parallel when `big`.
+#[cfg(test)]
+pub(super) fn each(big: bool, n: usize, f: impl Fn(usize) + Sync + Send) {
+    if big {
+        (0..n).into_par_iter().for_each(f);
+    } else {
+        (0..n).for_each(f);
+    }
 }
 
 /// Restricts the residual `b - A x` of coarse level `l` to the right-hand side `bc` of level
