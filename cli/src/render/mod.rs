@@ -968,6 +968,13 @@ fn place_names(
             let Some(pb) = pixel_bounds(o, plot) else {
                 continue;
             };
+            // Only the part on the plot counts (a sphere centred on the axis is half shown).
+            let (l, t) = (plot.x0 as f64, plot.y0 as f64);
+            let (r, b) = (plot.right() as f64, plot.bottom() as f64);
+            let pb = [pb[0].max(l), pb[1].max(t), pb[2].min(r), pb[3].min(b)];
+            if pb[0] > pb[2] || pb[1] > pb[3] {
+                continue;
+            }
             // A thin conductor has no inside: its name goes beside it.
             let pb = if o.rings.is_empty() {
                 [pb[0], pb[1], pb[2], pb[1]]
@@ -1351,8 +1358,10 @@ fn draw_map(input: &MapInput, opts: &RenderOptions) -> (RgbImage, Plot) {
     // Conductor fill, then lines (kept off conductors and value-less pixels), then outlines,
     // names and marks on top. Marks and names are placed before contour labels so that the
     // labels give way to them.
+    // Shapes may reach past the domain (a sphere centred on the axis): clip to the plot.
+    let off_plot = |x: usize, y: usize| plot.local(x, y).is_none();
     let cl = conductor_layers(&img, &plot, input.conductors);
-    cl.fill.composite(&mut img, NO_VALUE, 1.0, |_, _| false);
+    cl.fill.composite(&mut img, NO_VALUE, 1.0, off_plot);
     let masked = |x: usize, y: usize| match plot.local(x, y) {
         Some((lx, ly)) => samples.at(lx, ly).is_nan() || cl.fill.get(x, y) > 0.0,
         None => true,
@@ -1367,8 +1376,8 @@ fn draw_map(input: &MapInput, opts: &RenderOptions) -> (RgbImage, Plot) {
         draw_contours(&mut img, &plot, &samples, &levels, &masked, &mut taken);
     }
     outline_dielectrics(&mut img, &plot, input.dielectrics, &masked);
-    cl.edge.composite(&mut img, INK, 1.0, |_, _| false);
-    cl.thin.composite(&mut img, INK, 1.0, |_, _| false);
+    cl.edge.composite(&mut img, INK, 1.0, off_plot);
+    cl.thin.composite(&mut img, INK, 1.0, off_plot);
     draw_names(&mut img, &names);
     draw_markers(&mut img, &plot, input.markers, &mut taken);
 
@@ -1532,13 +1541,15 @@ fn draw_preview(input: &PreviewInput, opts: &RenderOptions) -> (RgbImage, Plot) 
         .iter()
         .map(|d| d.outline.clone())
         .collect();
+    // Shapes may reach past the domain (a sphere centred on the axis): clip to the plot.
+    let off_plot = |x: usize, y: usize| plot.local(x, y).is_none();
     let cl = conductor_layers(&img, &plot, input.conductors);
-    cl.fill.composite(&mut img, NO_VALUE, 1.0, |_, _| false);
+    cl.fill.composite(&mut img, NO_VALUE, 1.0, off_plot);
     outline_dielectrics(&mut img, &plot, &outlines, &|x, y| {
         plot.local(x, y).is_none() || cl.fill.get(x, y) > 0.0
     });
-    cl.edge.composite(&mut img, INK, 1.0, |_, _| false);
-    cl.thin.composite(&mut img, INK, 1.0, |_, _| false);
+    cl.edge.composite(&mut img, INK, 1.0, off_plot);
+    cl.thin.composite(&mut img, INK, 1.0, off_plot);
     let mut taken = mark_boxes(&plot, input.markers);
     let names = place_names(&plot, input.conductors, &outlines, &mut taken);
     draw_names(&mut img, &names);

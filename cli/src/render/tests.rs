@@ -686,3 +686,52 @@ fn frames_tell_where_the_plot_bar_and_legend_are() {
     assert_eq!(*img.get_pixel(outside[0] as u32, outside[1] as u32), bg);
     assert_ne!(bg, slab);
 }
+
+#[test]
+fn shapes_reaching_past_the_axis_are_clipped_to_the_plot() {
+    use fieldgrid_solver::design::Shape;
+    // Axisymmetric: a sphere centred on the axis is a circle crossing r = 0.
+    let grid = Grid {
+        nx: 101,
+        ny: 101,
+        x0: 0.0,
+        y0: 0.0,
+        hx: 0.1 * MM,
+        hy: 0.1 * MM,
+    };
+    let v = vec![0.5; grid.len()];
+    let tol = Outline::picture_tolerance([0.0, 10.0 * MM], [0.0, 10.0 * MM]);
+    let sphere = [Outline::from_shape(
+        "sphere",
+        &Shape::Circle {
+            center: [0.0, 5.0 * MM],
+            radius: 3.0 * MM,
+        },
+        tol,
+    )];
+    let mats = [Material {
+        outline: sphere[0].clone(),
+        permittivity: 3.0,
+    }];
+    let inp = MapInput {
+        conductors: &sphere,
+        axis_names: ["r", "z"],
+        ..MapInput::new(&grid, &v)
+    };
+    let (img, plot) = draw_map(&inp, &RenderOptions::default());
+    let pre = PreviewInput {
+        conductors: &sphere,
+        dielectrics: &mats,
+        ..PreviewInput::new([0.0, 10.0 * MM], [0.0, 10.0 * MM])
+    };
+    let (pimg, pplot) = draw_preview(&pre, &RenderOptions::default());
+    keep("axis-sphere", &img);
+    for (img, plot) in [(&img, &plot), (&pimg, &pplot)] {
+        let y = plot.px([0.0, 5.0 * MM])[1] as u32;
+        // Left of the plot's frame: paper, tick ink and label ink only, never the fill grey.
+        for x in 0..(plot.x0 - 2) as u32 {
+            assert_ne!(*img.get_pixel(x, y), NO_VALUE, "fill leaked to x = {x}");
+        }
+        assert_eq!(px(img, plot.px([0.3 * MM, 5.5 * MM])), NO_VALUE);
+    }
+}
