@@ -233,11 +233,24 @@ fn classify(
     (conductor, material)
 }
 
-/// Indices i where the node pairs (a[i], b[i]) or (c[i], d[i]) differ.
+/// Indices i where the node pairs (a[i], b[i]) or (c[i], d[i]) differ. Blocks without a
+/// difference (most of them) are passed over with a branch-free test.
 fn differences(a: &[u16], b: &[u16], c: &[u16], d: &[u16], out: &mut Vec<u32>) {
-    for (i, (((a, b), c), d)) in a.iter().zip(b).zip(c).zip(d).enumerate() {
-        if (a ^ b) | (c ^ d) != 0 {
-            out.push(i as u32);
+    const BLOCK: usize = 64;
+    for s in (0..a.len()).step_by(BLOCK) {
+        let e = (s + BLOCK).min(a.len());
+        let (a, b, c, d) = (&a[s..e], &b[s..e], &c[s..e], &d[s..e]);
+        let any = a
+            .iter()
+            .zip(b)
+            .zip(c.iter().zip(d))
+            .fold(0u16, |acc, ((a, b), (c, d))| acc | (a ^ b) | (c ^ d));
+        if any != 0 {
+            for i in 0..a.len() {
+                if (a[i] ^ b[i]) | (c[i] ^ d[i]) != 0 {
+                    out.push((s + i) as u32);
+                }
+            }
         }
     }
 }

@@ -110,7 +110,27 @@ pub(super) fn region(o: &Outline, grid: &Grid, axisymmetric: bool) -> Vec<(u32, 
         .par_iter()
         .map(|&lb| {
             let le = (lb + BAND).min(l1);
-            let mut side = Vec::new();
+            // Piece terms of this band's rows (all rows before the first band go to it, all
+            // after the last to the last, so none is lost).
+            let lo = if lb == l0 {
+                0
+            } else {
+                terms.partition_point(|e| (e.0 as usize) < lb * nx)
+            };
+            let hi = if le == l1 {
+                terms.len()
+            } else {
+                terms.partition_point(|e| (e.0 as usize) < le * nx)
+            };
+            let band_terms = &terms[lo..hi];
+            let mut out: Vec<(u32, f64)> =
+                Vec::with_capacity((le - lb) * cols.len() + band_terms.len());
+            let mut t = 0;
+            // Appends one entry, adding it to the last when both are of the same node.
+            let put = |out: &mut Vec<(u32, f64)>, e: (u32, f64)| match out.last_mut() {
+                Some(last) if last.0 == e.0 => last.1 += e.1,
+                _ => out.push(e),
+            };
             let mut cur: Vec<usize> = cols
                 .iter()
                 .map(|c| c.0.partition_point(|iv| iv[1] <= cy[lb]))
@@ -127,23 +147,19 @@ pub(super) fn region(o: &Outline, grid: &Grid, axisymmetric: bool) -> Vec<(u32, 
                         len += (iv[1].min(yb) - iv[0].max(ya)).max(0.0);
                     }
                     if len > 0.0 {
-                        side.push(((m0 + k + l * nx) as u32, w * len));
+                        let node = (m0 + k + l * nx) as u32;
+                        while t < band_terms.len() && band_terms[t].0 < node {
+                            put(&mut out, band_terms[t]);
+                            t += 1;
+                        }
+                        put(&mut out, (node, w * len));
                     }
                 }
             }
-            // Piece terms of this band's rows (all rows before the first band go to it, all
-            // after the last to the last, so none is lost).
-            let lo = if lb == l0 {
-                0
-            } else {
-                terms.partition_point(|e| (e.0 as usize) < lb * nx)
-            };
-            let hi = if le == l1 {
-                terms.len()
-            } else {
-                terms.partition_point(|e| (e.0 as usize) < le * nx)
-            };
-            merge_sum(&side, &terms[lo..hi])
+            for &e in &band_terms[t..] {
+                put(&mut out, e);
+            }
+            out
         })
         .collect();
     if parts.is_empty() {
