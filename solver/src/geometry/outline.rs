@@ -694,6 +694,11 @@ mod tests {
         let o = outline(&rect([0.0, 3.0], [0.0, 1.0], 0.5)).unwrap();
         assert!(closes(&o));
         assert!((o.area() - (3.0 - (4.0 - PI) * 0.25)).abs() < 1e-14);
+        // A square rounded with half its side is a disc: the four fillets meet.
+        let o = outline(&rect([-1.0, 1.0], [2.0, 4.0], 1.0)).unwrap();
+        assert!(closes(&o) && monotone_arcs(&o));
+        assert!(o.pieces().all(|p| matches!(p, Piece::Arc { .. })));
+        assert!((o.area() - PI).abs() < 1e-14);
     }
 
     #[test]
