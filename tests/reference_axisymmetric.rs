@@ -34,7 +34,11 @@ fn concentric_spheres_match_spherical_capacitor() {
     let s = solve(&design(&concentric_spheres(20.0)));
     let want = 4.0 * PI * EPS0 / (1.0 / 1e-3 - 1.0 / 2e-3);
     let got = s.capacitance.matrix[0][0];
-    assert!(rel_err(got, want) < 1e-3, "C = {got:e} F, want {want:e} F ({:e})", rel_err(got, want));
+    assert!(
+        rel_err(got, want) < 1e-3,
+        "C = {got:e} F, want {want:e} F ({:e})",
+        rel_err(got, want)
+    );
     assert!(rel_err(-s.capacitance.matrix[0][1], want) < 1e-3);
 }
 
@@ -69,9 +73,17 @@ at = [1.5, 2.0]
     let want_v = k * (1.0 / r - 1.0 / b);
     let want_e = k / (r * r);
     let e = p.field[0].hypot(p.field[1]);
-    assert!(rel_err(p.potential, want_v) < 1e-2, "potential {} vs {want_v}", p.potential);
+    assert!(
+        rel_err(p.potential, want_v) < 1e-2,
+        "potential {} vs {want_v}",
+        p.potential
+    );
     assert!(rel_err(e, want_e) < 1e-2, "field {e} vs {want_e}");
-    assert!(rel_err(-s.conductors[0].charge, q) < 1e-6, "induced {}", s.conductors[0].charge);
+    assert!(
+        rel_err(-s.conductors[0].charge, q) < 1e-6,
+        "induced {}",
+        s.conductors[0].charge
+    );
 }
 
 #[test]

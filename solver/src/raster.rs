@@ -346,6 +346,7 @@ pub fn rasterize(design: &Design, grid: &Grid) -> Raster {
                 cond.iter().map(|s| &s.cols),
                 diel.iter().map(|s| &s.cols),
                 &eps_of,
+                edges::Banks::of(i, nx),
             );
             line.cut_edges(&nodes, &col_changes[i])
         })
@@ -362,6 +363,7 @@ pub fn rasterize(design: &Design, grid: &Grid) -> Raster {
                 cond.iter().map(|s| &s.rows),
                 diel.iter().map(|s| &s.rows),
                 &eps_of,
+                edges::Banks::of(j, ny),
             );
             line.cut_edges(&nodes, &row_changes[j])
         })

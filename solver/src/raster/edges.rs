@@ -37,6 +37,31 @@ pub(super) struct Line<'a> {
     profile: Vec<(f64, f64, bool)>,
 }
 
+/// Which sides of a node line lie inside the domain: both for interior lines, one for the
+/// lines on the domain's sides (whose control-volume faces extend to one side only).
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub(super) enum Banks {
+    /// An interior line.
+    Both,
+    /// The first line (x = x0 or y = y0): only the upper side is in the domain.
+    Upper,
+    /// The last line: only the lower side is in the domain.
+    Lower,
+}
+
+impl Banks {
+    /// For line `m` of `count`.
+    pub(super) fn of(m: usize, count: usize) -> Banks {
+        if m == 0 {
+            Banks::Upper
+        } else if m + 1 == count {
+            Banks::Lower
+        } else {
+            Banks::Both
+        }
+    }
+}
+
 /// A sorted list of closed intervals on a line.
 type Section<'s> = &'s [[f64; 2]];
 
@@ -57,6 +82,7 @@ impl<'a> Line<'a> {
         cond: impl Iterator<Item = &'s LineSets>,
         diel: impl Iterator<Item = &'s LineSets>,
         eps_of: &[f64],
+        banks: Banks,
     ) -> Line<'a> {
         let mut conductors: Vec<(f64, f64, u16)> = Vec::new();
         for (k, s) in cond.enumerate() {
@@ -86,6 +112,13 @@ impl<'a> Line<'a> {
                         if contains(u, mid) {
                             up = eps_of[d + 1];
                         }
+                    }
+                    // A line on a domain side runs along an interface only if the
+                    // material inside the domain changes there.
+                    match banks {
+                        Banks::Both => {}
+                        Banks::Upper => lo = up,
+                        Banks::Lower => up = lo,
                     }
                     if lo == up {
                         (s, lo, false)

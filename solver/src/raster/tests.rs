@@ -172,6 +172,31 @@ fn edge_along_an_interface_takes_the_mean_of_both_sides() {
 }
 
 #[test]
+fn edge_along_a_domain_side_takes_the_material_inside_the_domain() {
+    // A dielectric reaching the domain's left side: the control-volume faces of the edges on
+    // x = x0 lie wholly inside it, so those edges take its permittivity, not a mean with the
+    // (non-existent) outside.
+    let mut d = design([0.0, 8.0], [0.0, 8.0], 1.0);
+    d.dielectrics
+        .push(dielectric(5.0, rect([0.0, 4.0], [0.0, 8.0])));
+    let g = grid_of(&d);
+    let r = rasterize(&d, &g);
+    let eps_on = |i: usize| {
+        r.cut_edges
+            .iter()
+            .find(|c| c.axis == Axis::Y && c.node as usize == g.idx(i, 3))
+            .map(|c| c.from_a.unwrap().eps)
+            .unwrap_or(if r.material[g.idx(i, 3)] == 1 {
+                5.0
+            } else {
+                1.0
+            })
+    };
+    assert_eq!(eps_on(0), 5.0);
+    assert_eq!(eps_on(4), 3.0);
+}
+
+#[test]
 fn polyline_gives_theta_and_one_minus_theta() {
     let y = 0.503;
     let mut d = design([0.0, 1.0], [0.0, 1.0], 0.01);
