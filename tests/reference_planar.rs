@@ -1,5 +1,6 @@
 //! Reference checks of the planar solver against closed-form results.
 //! Each check names its source beside it.
+#![allow(clippy::needless_range_loop)]
 
 use fieldgrid_solver::solvers::Method;
 use fieldgrid_solver::EPS0;

@@ -53,7 +53,7 @@ pub fn identifier(name: &str) -> String {
         })
         .collect();
     if s.is_empty() || s.chars().all(|c| c.is_ascii_digit()) {
-        s.insert_str(0, "n");
+        s.insert(0, 'n');
     }
     s
 }

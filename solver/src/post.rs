@@ -445,7 +445,7 @@ pub fn surface_charge(field: &FieldEval, _design: &Design) -> Vec<SurfacePoint> 
             field: e,
         });
     }
-    out.sort_by(|a, b| a.conductor.cmp(&b.conductor));
+    out.sort_by_key(|a| a.conductor);
     out
 }
 

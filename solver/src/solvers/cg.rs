@@ -71,7 +71,7 @@ pub(crate) fn pcg(
             }
             a.apply(&p, &mut ap);
             let pap = parallel::dot(&p, &ap);
-            if !(pap > 0.0) {
+            if pap.is_nan() || pap <= 0.0 {
                 reason = Some(if pap.is_finite() {
                     StopReason::Stagnated
                 } else {

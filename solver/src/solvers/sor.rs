@@ -15,6 +15,14 @@ pub(crate) struct SharedMut(pub *mut f64);
 unsafe impl Send for SharedMut {}
 unsafe impl Sync for SharedMut {}
 
+impl SharedMut {
+    /// The pointer (a method, so closures capture the whole `Send` wrapper).
+    #[inline]
+    pub(crate) fn get(self) -> *mut f64 {
+        self.0
+    }
+}
+
 /// The optimal SOR factor for the Laplacian on this lattice (a good default for the
 /// variable-coefficient operator too).
 pub fn default_omega(a: &Stencil5) -> f64 {
@@ -35,8 +43,7 @@ fn colour_sweep(a: &Stencil5, b: &[f64], x: &mut [f64], omega: f64, colour: usiz
     let (nx, ny) = (a.nx, a.ny);
     let ptr = SharedMut(x.as_mut_ptr());
     (0..ny).into_par_iter().for_each(|j| {
-        let ptr = ptr;
-        let x = ptr.0;
+        let x = ptr.get();
         let start = (colour + j) % 2;
         for i in (start..nx).step_by(2) {
             let p = i + j * nx;
