@@ -34,6 +34,7 @@ fn concentric_spheres_match_spherical_capacitor() {
     let s = solve(&design(&concentric_spheres(20.0)));
     let want = 4.0 * PI * EPS0 / (1.0 / 1e-3 - 1.0 / 2e-3);
     let got = s.capacitance.matrix[0][0];
+    eprintln!("concentric spheres: error {:e}", rel_err(got, want));
     assert!(
         rel_err(got, want) < 1e-3,
         "C = {got:e} F, want {want:e} F ({:e})",
@@ -73,6 +74,11 @@ at = [1.5, 2.0]
     let want_v = k * (1.0 / r - 1.0 / b);
     let want_e = k / (r * r);
     let e = p.field[0].hypot(p.field[1]);
+    eprintln!(
+        "point charge in sphere: potential error {:e}, field error {:e}",
+        rel_err(p.potential, want_v),
+        rel_err(e, want_e)
+    );
     assert!(
         rel_err(p.potential, want_v) < 1e-2,
         "potential {} vs {want_v}",
@@ -110,5 +116,6 @@ ring = { center = [20.0, 0.0], inner = 2.5, outer = 3.0 }
     let s = solve(&design(text));
     let want = 2.0 * PI * 20e-3 * 2.0 * PI * EPS0 / (2.5f64).ln();
     let got = s.capacitance.matrix[0][0];
+    eprintln!("torus vs planar coax: error {:e}", rel_err(got, want));
     assert!(rel_err(got, want) < 1e-2, "C = {got:e} F, want {want:e} F");
 }

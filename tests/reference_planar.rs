@@ -44,6 +44,7 @@ fn layered_plates_match_series_capacitor_formula() {
     let want = EPS0 * w / (d1 / 4.4 + d2 / 1.0);
     let got = s.capacitance.matrix[0][0];
     let err = rel_err(got, want);
+    eprintln!("layered plates: C' = {got:e} F/m, want {want:e}, relative error {err:e}");
     assert!(err < 2e-3, "C' = {got:e}, want {want:e}, error {err:e}");
 }
 
@@ -71,6 +72,7 @@ rect = { x = [0.0, 1.0], y = [0.0, 2.0] }
     for side in [2, 3] {
         let field = -s.side_charge[side] / (EPS0 * w);
         let err = rel_err(field, want_field);
+        eprintln!("space charge: side {side} surface field {field:e} V/m, want {want_field:e}, error {err:e}");
         assert!(
             err < 1e-2,
             "side {side}: surface field {field:e}, want {want_field:e} ({err:e})"
@@ -118,6 +120,7 @@ fn coaxial_line_capacitance_and_second_order_convergence() {
             rel_err(s.capacitance.matrix[0][0], want)
         })
         .collect();
+    eprintln!("coax: errors at 10/20/40 cells across the inner radius {errs:?}");
     assert!(
         errs[0] < 1e-3,
         "10 cells across the inner radius: error {:e}",
@@ -126,6 +129,7 @@ fn coaxial_line_capacitance_and_second_order_convergence() {
     let p1 = (errs[0] / errs[1]).log2();
     let p2 = (errs[1] / errs[2]).log2();
     let order = 0.5 * (p1 + p2);
+    eprintln!("coax: observed orders {p1:.3}, {p2:.3}");
     assert!(
         order > 1.6 && order < 2.6,
         "observed orders {p1:.2}, {p2:.2} (errors {errs:?})"
@@ -160,6 +164,11 @@ at = [2.5, 0.0]
     let k = lambda / (2.0 * PI * EPS0);
     let p = &s.probes[0];
     let (want_v, want_e) = (k * (b / r).ln(), k / r);
+    eprintln!(
+        "line charge: potential error {:e}, field error {:e}",
+        rel_err(p.potential, want_v),
+        rel_err(p.field[0], want_e)
+    );
     assert!(
         rel_err(p.potential, want_v) < 1e-2,
         "potential {} vs {want_v}",
@@ -204,6 +213,13 @@ rect = { x = [0.0, 4.0], y = [2.0, 3.0] }
     let want = EPS0 * w * v * v / (2.0 * dgap * dgap);
     let up = &s.conductors[1];
     let low = &s.conductors[0];
+    eprintln!(
+        "plate force: upper {:e} N/m, lower {:e} N/m, want {want:e} (errors {:e}, {:e})",
+        up.force[1],
+        low.force[1],
+        rel_err(-up.force[1], want),
+        rel_err(low.force[1], want)
+    );
     assert!(
         rel_err(-up.force[1], want) < 1e-2,
         "upper plate force {:?}, want -{want:e}",
