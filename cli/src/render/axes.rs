@@ -110,6 +110,16 @@ pub fn prefix_exponent(magnitude: f64) -> i32 {
     e.clamp(-15, 15)
 }
 
+/// `v` (> 0) rounded up to one significant digit: 0.993 -> 1, 0.85 -> 0.9, 1.2e6 -> 2e6.
+pub fn round_up(v: f64) -> f64 {
+    if !(v.is_finite() && v > 0.0) {
+        return v;
+    }
+    let p = 10f64.powf(v.log10().floor());
+    // Slack so that an exact 0.3 is not pushed to 0.4 by representation error.
+    (v / p * (1.0 - 1e-12)).ceil() * p
+}
+
 /// The prefix symbol of a multiple-of-3 exponent in [-15, 15].
 pub fn prefix(exp3: i32) -> &'static str {
     PREFIXES
@@ -195,5 +205,9 @@ mod tests {
         assert_eq!(prefix(prefix_exponent(1.2e6)), "M");
         assert_eq!(prefix(prefix_exponent(999.0)), "");
         assert_eq!(prefix(prefix_exponent(1000.0)), "k");
+        assert_eq!(round_up(0.993), 1.0);
+        assert!((round_up(0.85) - 0.9).abs() < 1e-15 && (round_up(0.3) - 0.3).abs() < 1e-15);
+        assert_eq!(prefix(prefix_exponent(round_up(0.999))), "");
+        assert_eq!(prefix(prefix_exponent(round_up(999.7))), "k");
     }
 }

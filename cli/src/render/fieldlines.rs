@@ -20,12 +20,26 @@ use super::sample::Samples;
 /// Pixel-space potential with the conversion to physical directions.
 pub struct Potential<'a> {
     /// Potential at pixel centres, no NaN (holes filled).
-    pub s: &'a Samples,
+    s: &'a Samples,
     /// Pixels per metre along x and along y.
-    pub k: [f64; 2],
+    k: [f64; 2],
+    /// Field (pixel measure) below which a point counts as field-free: 1e-9 of the typical.
+    floor: f64,
 }
 
-impl Potential<'_> {
+impl<'a> Potential<'a> {
+    /// The potential `s` (pixel centres, no NaN) of a plot with `k` pixels per metre along x
+    /// and y.
+    pub fn new(s: &'a Samples, k: [f64; 2]) -> Potential<'a> {
+        let span =
+            s.v.iter()
+                .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &v| {
+                    (a.min(v), b.max(v))
+                });
+        let floor = 1e-9 * (span.1 - span.0).abs() * k[0].max(k[1]) / (s.w + s.h) as f64;
+        Potential { s, k, floor }
+    }
+
     /// Gradient of the bilinear potential in pixel coordinates, volts per pixel.
     fn grad(&self, p: P) -> [f64; 2] {
         let (w, h) = (self.s.w, self.s.h);
@@ -66,7 +80,8 @@ impl Potential<'_> {
     }
 
     /// Unit pixel-space direction of the field at `p` (None where it vanishes).
-    fn direction(&self, p: P, floor: f64) -> Option<P> {
+    fn direction(&self, p: P) -> Option<P> {
+        let floor = self.floor;
         let e = self.field(p);
         // A physical displacement (dx, dy) is (kx dx, -ky dy) in pixels.
         let d = [self.k[0] * e[0], -self.k[1] * e[1]];
@@ -201,27 +216,18 @@ pub fn trace(pot: &Potential, seed: Seed, inside: &dyn Fn(P) -> bool) -> FieldLi
     const H: f64 = 0.5;
     let (w, h) = (pot.s.w as f64, pot.s.h as f64);
     let max_steps = (3.0 * (w + h) / H) as usize;
-    // Field below this (per pixel of travel) counts as none: a millionth of the typical one.
-    let span = pot
-        .s
-        .v
-        .iter()
-        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &v| {
-            (a.min(v), b.max(v))
-        });
-    let floor = 1e-9 * (span.1 - span.0).abs() * pot.k[0].max(pot.k[1]) / (w + h);
     let mut pts = vec![seed.at];
     let mut p = seed.at;
     let mut level = seed.sign * pot.value(p);
     for _ in 0..max_steps {
-        let Some(d1) = pot.direction(p, floor) else {
+        let Some(d1) = pot.direction(p) else {
             break;
         };
         let mid = [
             p[0] + seed.sign * d1[0] * H / 2.0,
             p[1] + seed.sign * d1[1] * H / 2.0,
         ];
-        let Some(d2) = pot.direction(mid, floor) else {
+        let Some(d2) = pot.direction(mid) else {
             break;
         };
         let q = [p[0] + seed.sign * d2[0] * H, p[1] + seed.sign * d2[1] * H];
@@ -278,10 +284,7 @@ mod tests {
     #[test]
     fn seeds_on_a_uniformly_charged_circle_are_evenly_spaced() {
         let (s, c, a) = coax();
-        let pot = Potential {
-            s: &s,
-            k: [1000.0, 1000.0],
-        };
+        let pot = Potential::new(&s, [1000.0, 1000.0]);
         let inside = |p: P| (p[0] - c[0]).hypot(p[1] - c[1]) < a;
         let seeds = seeds(&pot, &[circle(c, a, 256)], &[], 12, 2.5, &inside);
         assert_eq!(seeds.len(), 12);
@@ -300,10 +303,7 @@ mod tests {
     #[test]
     fn lines_run_radially_and_downhill() {
         let (s, c, a) = coax();
-        let pot = Potential {
-            s: &s,
-            k: [1000.0, 1000.0],
-        };
+        let pot = Potential::new(&s, [1000.0, 1000.0]);
         let inside = |p: P| (p[0] - c[0]).hypot(p[1] - c[1]) < a;
         for seed in seeds(&pot, &[circle(c, a, 256)], &[], 8, 2.5, &inside) {
             let line = trace(&pot, seed, &inside);
@@ -329,10 +329,7 @@ mod tests {
         for v in &mut s.v {
             *v = -*v;
         }
-        let pot = Potential {
-            s: &s,
-            k: [1000.0, 1000.0],
-        };
+        let pot = Potential::new(&s, [1000.0, 1000.0]);
         let inside = |p: P| (p[0] - c[0]).hypot(p[1] - c[1]) < a;
         let seeds = seeds(&pot, &[circle(c, a, 256)], &[], 6, 2.5, &inside);
         assert!(seeds.len() == 6 && seeds.iter().all(|s| s.sign == -1.0));
@@ -350,10 +347,7 @@ mod tests {
             .map(|k| ((k % w) as f64 + 0.5 - 50.3).abs())
             .collect();
         let s = Samples { w, h, v };
-        let pot = Potential {
-            s: &s,
-            k: [1.0, 1.0],
-        };
+        let pot = Potential::new(&s, [1.0, 1.0]);
         let line = trace(
             &pot,
             Seed {

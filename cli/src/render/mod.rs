@@ -571,7 +571,8 @@ impl ColorScale {
         let exp3 = if input.unit.is_empty() {
             0
         } else {
-            axes::prefix_exponent(lo.abs().max(hi.abs()))
+            // Rounded up to one digit first, so 0.999 V reads as volts, not 999 mV.
+            axes::prefix_exponent(axes::round_up(lo.abs().max(hi.abs())))
         };
         ColorScale {
             lo,
@@ -1119,7 +1120,7 @@ fn draw_field_lines(
         plot.w as f64 / (plot.xr[1] - plot.xr[0]),
         plot.h as f64 / (plot.yr[1] - plot.yr[0]),
     ];
-    let pot = fieldlines::Potential { s: &filled, k };
+    let pot = fieldlines::Potential::new(&filled, k);
     let (ox, oy) = (plot.x0 as f64, plot.y0 as f64);
     // A point counts as inside a conductor as soon as one of the four samples its field is
     // interpolated from is: the filled values there carry no normal field, and a line would

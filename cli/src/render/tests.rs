@@ -589,7 +589,7 @@ fn field_lines_leave_the_positive_wire_and_cross_equipotentials() {
         plot.w as f64 / (plot.xr[1] - plot.xr[0]),
         plot.h as f64 / (plot.yr[1] - plot.yr[0]),
     ];
-    let pot = fieldlines::Potential { s: &filled, k };
+    let pot = fieldlines::Potential::new(&filled, k);
     let local = |q: Point| {
         let p = plot.px(q);
         [p[0] - plot.x0 as f64, p[1] - plot.y0 as f64]
