@@ -6,7 +6,8 @@ The Rust bench binary builds each operator, times its own setup and three unit-p
 solves (medians over --repeats), and exports the assembled matrix over the unknowns with the
 three right-hand sides (format: see `write_csr` in benches/lib.rs). This script then solves
 each exported system with PyAMG (Ruge-Stuben hierarchy, CG acceleration, relative residual
-1e-8) and compares setup + three solves.
+1e-8) and compares setup + three solves: wall time, and CPU time (all threads), which stays
+comparable when other work shares the machine.
 
     pip install pyamg          # PyAMG 5.x, SciPy, NumPy
     python3 benches/pyamg_compare.py --sizes 256,512,1024,2048 [--repeats 3] [--threads 2]
@@ -39,8 +40,9 @@ def read_problem(path):
 
 
 def pyamg_run(a, rhs, repeats):
-    setups, solves, iters = [], [], []
+    setups, solves, cpus, iters = [], [], [], []
     for _ in range(repeats):
+        c0 = time.process_time()
         t0 = time.perf_counter()
         ml = pyamg.ruge_stuben_solver(a)
         t1 = time.perf_counter()
@@ -53,10 +55,11 @@ def pyamg_run(a, rhs, repeats):
                 sys.exit(f"PyAMG did not converge: relative residual {rel:.2e}")
             its.append(len(res) - 1)
         t2 = time.perf_counter()
+        cpus.append(time.process_time() - c0)
         setups.append(t1 - t0)
         solves.append(t2 - t1)
         iters = its
-    return float(np.median(setups)), float(np.median(solves)), iters, ml
+    return float(np.median(setups)), float(np.median(solves)), float(np.median(cpus)), iters
 
 
 def main():
@@ -77,16 +80,18 @@ def main():
         with open(out) as f:
             rust = json.load(f)
         print()
-        print(f"{'N':>5} {'unknowns':>9} | {'PyAMG setup':>11} {'3 solves':>9} {'iters':>12} {'total':>8} |"
-              f" {'fieldgrid thr':>13} {'total':>8} | {'ratio':>6}")
+        print(f"{'N':>5} {'unknowns':>9} | {'PyAMG setup':>11} {'3 solves':>9} {'iters':>12} {'total':>8}"
+              f" {'cpu':>8} | {'fieldgrid thr':>13} {'total':>8} {'cpu':>8} | {'ratio':>6} {'cpu ratio':>9}")
         for n in [int(s) for s in args.sizes.split(",")]:
             a, rhs = read_problem(os.path.join(tmp, f"issue3_{n}.bin"))
-            setup, solve3, iters, _ = pyamg_run(a, rhs, args.pyamg_repeats)
+            setup, solve3, cpu, iters = pyamg_run(a, rhs, args.pyamg_repeats)
             total = setup + solve3
             for r in [r for r in rust if r["n"] == n]:
                 mine = r["setup"] + r["solve3"]
-                print(f"{n:>5} {a.shape[0]:>9} | {setup:>11.3f} {solve3:>9.3f} {str(iters):>12} {total:>8.3f} |"
-                      f" {r['threads']:>13} {mine:>8.3f} | {mine / total:>6.3f}", flush=True)
+                mine_cpu = r["setup_cpu"] + r["cpu3"]
+                print(f"{n:>5} {a.shape[0]:>9} | {setup:>11.3f} {solve3:>9.3f} {str(iters):>12} {total:>8.3f}"
+                      f" {cpu:>8.2f} | {r['threads']:>13} {mine:>8.3f} {mine_cpu:>8.2f} |"
+                      f" {mine / total:>6.3f} {mine_cpu / cpu:>9.3f}", flush=True)
 
 
 if __name__ == "__main__":

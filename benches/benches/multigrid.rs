@@ -204,8 +204,9 @@ fn main() {
                 speedup
             );
             json.push(format!(
-                "{{\"n\": {n}, \"unknowns\": {unknowns}, \"threads\": {t}, \"setup\": {}, \"solve3\": {}, \"cpu3\": {}, \"iterations\": {:?}, \"bytes_per_unknown\": {}}}",
+                "{{\"n\": {n}, \"unknowns\": {unknowns}, \"threads\": {t}, \"setup\": {}, \"setup_cpu\": {}, \"solve3\": {}, \"cpu3\": {}, \"iterations\": {:?}, \"bytes_per_unknown\": {}}}",
                 r.setup,
+                r.setup_cpu,
                 r.solve3,
                 r.cpu3,
                 r.iterations,

@@ -6,6 +6,7 @@
 //! symmetric positive definite. Nothing in it depends on the thread count.
 
 use super::interpolation::interior_count;
+use super::krylov::total;
 use super::level::Shared;
 use super::smoother::{four_colour_sweep, red_black_stages, wavefront, Stage};
 use super::transfer::{
@@ -62,14 +63,36 @@ impl Workspace {
     }
 }
 
-/// `z = M^-1 r` by one V-cycle.
-pub(super) fn vcycle(h: &Hierarchy, a: &Stencil5, ws: &mut Workspace, r: &[f64], z: &mut [f64]) {
+/// Row j's sum of `r . z`, left to right.
+fn row_dot(nx: usize, r: &[f64], z: *const f64, j: usize) -> f64 {
+    let mut s = 0.0;
+    for q in j * nx..(j + 1) * nx {
+        // SAFETY: the caller guarantees z has the lattice length and row j is final.
+        s += r[q] * unsafe { *z.add(q) };
+    }
+    s
+}
+
+/// `z = M^-1 r` by one V-cycle, returning `r . z` (summed per row into `partial`, then in
+/// row order).
+pub(super) fn vcycle(
+    h: &Hierarchy,
+    a: &Stencil5,
+    ws: &mut Workspace,
+    r: &[f64],
+    z: &mut [f64],
+    partial: &mut [f64],
+) -> f64 {
     let nx = a.nx;
+    check_fine(a, &[r.len(), z.len()]);
+    assert_eq!(partial.len(), a.ny);
     if h.levels.is_empty() {
         h.coarsest.solve(r, z, |i, j| i + j * nx);
-        return;
+        for (j, s) in partial.iter_mut().enumerate() {
+            *s = row_dot(nx, r, z.as_ptr(), j);
+        }
+        return total(partial);
     }
-    check_fine(a, &[r.len(), z.len()]);
     assert_eq!(ws.sbuf.len(), interior_count(a.nx) * interior_count(a.ny));
     assert_eq!(ws.b[0].len(), h.levels[0].padded_len());
     let big = a.len() >= PARALLEL_MIN;
@@ -137,7 +160,13 @@ pub(super) fn vcycle(h: &Hierarchy, a: &Stencil5, ws: &mut Workspace, r: &[f64],
             prolong_fine_row(a, lw, zp.get(), c, xc, j)
         }));
         stages.extend(red_black_stages(a, r, zp, 1, sweeps, false));
+        let sp = Shared::new(partial);
+        // SAFETY: row j of z is final once the last smoothing stage has passed it.
+        stages.push(Box::new(move |j| unsafe {
+            *sp.get().add(j) = row_dot(nx, r, zp.get(), j)
+        }));
         let refs: Vec<Stage> = stages.iter().map(|s| &**s as Stage).collect();
         wavefront(a.ny, big, &refs);
     }
+    total(partial)
 }

@@ -10,19 +10,6 @@ use super::interpolation::{coarse_len, fine_of, prow, LineWeights, PRow};
 use super::level::{Couplings, Level, Real};
 use rayon::prelude::*;
 
-/// Offsets of a nine-point neighbourhood, centre first.
-const OFFSETS: [(isize, isize); 9] = [
-    (0, 0),
-    (1, 0),
-    (-1, 0),
-    (0, 1),
-    (0, -1),
-    (1, 1),
-    (-1, -1),
-    (-1, 1),
-    (1, -1),
-];
-
 /// The coarse operator of `a`.
 pub(super) fn coarse_operator(a: &impl Couplings, lw: &LineWeights) -> Level {
     let (nx, ny) = a.dims();
@@ -70,7 +57,7 @@ pub(super) fn coarse_operator(a: &impl Couplings, lw: &LineWeights) -> Level {
 
 /// Computes padded row `jc` of the coarse operator into `out`; `rows` holds the rows of P
 /// of fine rows `r0..` (at least those within two rows of the coarse row's fine row).
-fn coarse_row(a: &impl Couplings, rows: &[PRow], r0: usize, jc: usize, out: &mut [[Real; 5]]) {
+fn coarse_row<A: Couplings>(a: &A, rows: &[PRow], r0: usize, jc: usize, out: &mut [[Real; 5]]) {
     let (nx, ny) = a.dims();
     let cx = coarse_len(nx);
     let fj = fine_of(jc, ny);
@@ -93,7 +80,7 @@ fn coarse_row(a: &impl Couplings, rows: &[PRow], r0: usize, jc: usize, out: &mut
                 if phi == 0.0 {
                     continue;
                 }
-                for &(di, dj) in &OFFSETS {
+                for &(di, dj) in A::OFFSETS {
                     let (qi, qj) = (pi as isize + di, pj as isize + dj);
                     if qi < 0 || qj < 0 || qi as usize >= nx || qj as usize >= ny {
                         continue;

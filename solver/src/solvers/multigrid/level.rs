@@ -91,6 +91,8 @@ impl Level {
 /// Read access to a symmetric operator on a node lattice, common to the fine five-point
 /// stencil and the coarse nine-point levels (used by the setup and the transfer operators).
 pub(super) trait Couplings: Sync {
+    /// Offsets (di, dj) of the possibly non-zero couplings, centre first.
+    const OFFSETS: &'static [(isize, isize)];
     /// Nodes along x and y.
     fn dims(&self) -> (usize, usize);
     /// True when node (i, j) is an unknown.
@@ -103,6 +105,7 @@ pub(super) trait Couplings: Sync {
 }
 
 impl Couplings for Stencil5 {
+    const OFFSETS: &'static [(isize, isize)] = &[(0, 0), (1, 0), (-1, 0), (0, 1), (0, -1)];
     #[inline]
     fn dims(&self) -> (usize, usize) {
         (self.nx, self.ny)
@@ -130,6 +133,17 @@ impl Couplings for Stencil5 {
 }
 
 impl Couplings for Level {
+    const OFFSETS: &'static [(isize, isize)] = &[
+        (0, 0),
+        (1, 0),
+        (-1, 0),
+        (0, 1),
+        (0, -1),
+        (1, 1),
+        (-1, -1),
+        (-1, 1),
+        (1, -1),
+    ];
     #[inline]
     fn dims(&self) -> (usize, usize) {
         (self.nx, self.ny)

@@ -6,7 +6,7 @@
 //! surfaces and thin conductors are seen by every level), and coarse operators are Galerkin
 //! products `P^T A P` (nine-point). One symmetric V-cycle — red-black Gauss–Seidel on the fine
 //! level, four-colour Gauss–Seidel on coarse levels, a banded Cholesky solve on the coarsest —
-//! preconditions CG.
+//! preconditions CG (the loop of `cg::pcg`, with its vector work fused into fewer passes).
 //!
 //! Invariants: fixed nodes keep zero corrections on every level; the preconditioner is
 //! symmetric positive definite and a fixed linear map, so CG's convergence theory holds; the
@@ -26,11 +26,12 @@ mod coarsest;
 mod cycle;
 mod galerkin;
 mod interpolation;
+mod krylov;
 mod level;
 mod smoother;
 mod transfer;
 
-use super::{cg, Info, Params, SolveError};
+use super::{Info, Params, SolveError};
 use crate::stencil::Stencil5;
 use coarsest::BandCholesky;
 use cycle::Workspace;
@@ -177,9 +178,7 @@ impl Hierarchy {
         params: &Params,
         ws: &mut Workspace,
     ) -> Result<Info, SolveError> {
-        cg::pcg(a, b, x, params, "multigrid-cg", |r, z| {
-            cycle::vcycle(self, a, ws, r, z)
-        })
+        krylov::pcg(self, a, b, x, params, ws)
     }
 
     /// Solves several right-hand sides with one hierarchy and one set of scratch vectors;

@@ -203,7 +203,7 @@ fn v_cycle_alone_reduces_poisson_error_by_a_large_factor() {
     for _ in 0..cycles {
         a.apply(&x, &mut r);
         r.iter_mut().for_each(|v| *v = -*v);
-        cycle::vcycle(&h, &a, &mut ws, &r, &mut z);
+        cycle::vcycle(&h, &a, &mut ws, &r, &mut z, &mut vec![0.0; a.ny]);
         x.iter_mut().zip(&z).for_each(|(x, z)| *x += z);
     }
     let factor = (energy(&x) / e0).powf(1.0 / cycles as f64);
@@ -296,7 +296,7 @@ fn row_interleaved_cycle_equals_separate_passes_for_any_thread_count() {
                 .num_threads(threads)
                 .build()
                 .unwrap()
-                .install(|| cycle::vcycle(&h, &a, &mut ws, &r, &mut z));
+                .install(|| cycle::vcycle(&h, &a, &mut ws, &r, &mut z, &mut vec![0.0; a.ny]));
             assert!(
                 z.iter().zip(&want).all(|(u, v)| u.to_bits() == v.to_bits()),
                 "{sweeps} sweeps, {threads} threads"
@@ -318,8 +318,8 @@ fn preconditioner_is_symmetric_and_keeps_fixed_nodes_at_zero() {
     };
     let (r1, r2) = (free(noise(a.len(), 11)), free(noise(a.len(), 12)));
     let (mut z1, mut z2) = (vec![0.0; a.len()], vec![0.0; a.len()]);
-    cycle::vcycle(&h, &a, &mut ws, &r1, &mut z1);
-    cycle::vcycle(&h, &a, &mut ws, &r2, &mut z2);
+    cycle::vcycle(&h, &a, &mut ws, &r1, &mut z1, &mut vec![0.0; a.ny]);
+    cycle::vcycle(&h, &a, &mut ws, &r2, &mut z2, &mut vec![0.0; a.ny]);
     let (d12, d21) = (parallel::dot(&z1, &r2), parallel::dot(&z2, &r1));
     assert!(
         (d12 - d21).abs() <= 1e-10 * d12.abs().max(d21.abs()),
@@ -529,7 +529,7 @@ fn agrees_with_jacobi_cg() {
     let tol = 1e-11;
     let (x, _) = solve_mg(&a, &b, &deep(), tol);
     let mut xc = vec![0.0; a.len()];
-    cg::solve(
+    crate::solvers::cg::solve(
         &a,
         &b,
         &mut xc,
@@ -597,4 +597,68 @@ fn a_lattice_at_most_the_coarsest_size_is_solved_directly() {
     let (a, b) = hard_problem(Hard::new(20, 17));
     let (_, info) = solve_mg(&a, &b, &Options::default(), 1e-10);
     assert!(info.iterations <= 2, "{info:?}");
+}
+
+#[test]
+fn iteration_limit_is_reported_as_error_with_last_iterate() {
+    let (a, b) = hard_problem(Hard::new(65, 65));
+    let h = Hierarchy::with_options(&a, &deep());
+    let mut x = vec![0.0; a.len()];
+    let err = h
+        .solve(
+            &a,
+            &b,
+            &mut x,
+            &Params {
+                max_iter: 2,
+                ..Params::default()
+            },
+        )
+        .unwrap_err();
+    assert_eq!(err.info().reason, crate::solvers::StopReason::MaxIterations);
+    assert_eq!(err.info().iterations, 2);
+    assert!(err.info().relative_residual < 1.0 && x.iter().any(|&v| v != 0.0));
+}
+
+#[test]
+fn zero_right_hand_side_gives_zero_solution() {
+    let (a, _) = hard_problem(Hard::new(40, 33));
+    let h = Hierarchy::new(&a);
+    let mut x = vec![1.0; a.len()];
+    let info = h
+        .solve(&a, &vec![0.0; a.len()], &mut x, &Params::default())
+        .unwrap();
+    assert_eq!(info.reason, crate::solvers::StopReason::ZeroRhs);
+    assert!(x.iter().all(|&v| v == 0.0));
+}
+
+#[test]
+fn starting_guess_is_used_and_monitor_sees_every_iteration() {
+    let (a, b) = hard_problem(Hard::new(65, 50));
+    let h = Hierarchy::with_options(&a, &deep());
+    let mut x = vec![0.0; a.len()];
+    let cold = h
+        .solve(
+            &a,
+            &b,
+            &mut x,
+            &Params {
+                tol: 1e-6,
+                ..Params::default()
+            },
+        )
+        .unwrap();
+    let seen = std::sync::Arc::new(std::sync::Mutex::new(Vec::new()));
+    let log = seen.clone();
+    let params = Params {
+        monitor: Some(std::sync::Arc::new(move |k, rel| {
+            log.lock().unwrap().push((k, rel))
+        })),
+        ..Params::default()
+    };
+    let warm = h.solve(&a, &b, &mut x, &params).unwrap();
+    assert!(warm.iterations < cold.iterations + 6 && warm.iterations >= 1);
+    let seen = seen.lock().unwrap();
+    assert_eq!(seen.len(), warm.iterations);
+    assert!(seen.iter().enumerate().all(|(k, &(it, _))| it == k + 1));
 }

@@ -343,7 +343,6 @@ pub(super) fn prolong_fine(a: &Stencil5, lw: &LineWeights, z: &mut [f64], c: &Le
 }
 
 /// Runs `f(j)` for j in 0..n, in parallel when `big`.
-#[cfg(test)]
 pub(super) fn each(big: bool, n: usize, f: impl Fn(usize) + Sync + Send) {
     if big {
         (0..n).into_par_iter().for_each(f);

@@ -1,0 +1,242 @@
+//! Conjugate gradients preconditioned by the V-cycle, with its vector work fused into as few
+//! passes over the lattice as possible.
+//!
+//! The iteration is that of `cg::pcg` (same recurrences, stopping rules and final check of
+//! the true residual) but: the search-direction update `p = z + beta p` runs row-interleaved
+//! with `A p`, whose result overwrites z (no longer needed); `x` and `r` are updated in one
+//! pass that also sums `r . r`; `r . z` is summed by the V-cycle's last stage. So one
+//! iteration reads the fine operator three times (V-cycle twice, `A p` once) and needs three
+//! work vectors. Invariant: every dot product is a sum of per-row partial sums (each row
+//! summed left to right) added in row order through [`crate::parallel`], so results do not
+//! depend on the thread count.
+
+use super::cycle::{vcycle, Workspace};
+use super::level::Shared;
+use super::smoother::{wavefront, Stage};
+use super::transfer::{each, PARALLEL_MIN};
+use super::Hierarchy;
+use crate::parallel;
+use crate::solvers::{check_progress, Info, Params, SolveError, StopReason};
+use crate::stencil::Stencil5;
+
+/// Row j of `y = A x` (five-point stencil), returning the row's sum of `x . y`.
+///
+/// # Safety
+/// `x` and `y` point to lattice vectors; rows j-1..=j+1 of x are not being written and row j
+/// of y is written by no one else.
+#[inline]
+unsafe fn apply_row(a: &Stencil5, x: *const f64, y: *mut f64, j: usize) -> f64 {
+    let (nx, ny) = (a.nx, a.ny);
+    let (d, e, n) = (&a.diag[..], &a.east[..], &a.north[..]);
+    let base = j * nx;
+    let mut dot = 0.0;
+    let edge = |i: usize| -> f64 {
+        let p = base + i;
+        let mut s = d.get_unchecked(p) * *x.add(p);
+        if i + 1 < nx {
+            s -= e.get_unchecked(p) * *x.add(p + 1);
+        }
+        if i > 0 {
+            s -= e.get_unchecked(p - 1) * *x.add(p - 1);
+        }
+        if j + 1 < ny {
+            s -= n.get_unchecked(p) * *x.add(p + nx);
+        }
+        if j > 0 {
+            s -= n.get_unchecked(p - nx) * *x.add(p - nx);
+        }
+        s
+    };
+    if j == 0 || j + 1 == ny || nx < 3 {
+        for i in 0..nx {
+            let v = edge(i);
+            *y.add(base + i) = v;
+            dot += *x.add(base + i) * v;
+        }
+        return dot;
+    }
+    let v = edge(0);
+    *y.add(base) = v;
+    dot += *x.add(base) * v;
+    for i in 1..nx - 1 {
+        let p = base + i;
+        let v = d.get_unchecked(p) * *x.add(p)
+            - e.get_unchecked(p) * *x.add(p + 1)
+            - e.get_unchecked(p - 1) * *x.add(p - 1)
+            - n.get_unchecked(p) * *x.add(p + nx)
+            - n.get_unchecked(p - nx) * *x.add(p - nx);
+        *y.add(p) = v;
+        dot += *x.add(p) * v;
+    }
+    let v = edge(nx - 1);
+    *y.add(base + nx - 1) = v;
+    dot += *x.add(base + nx - 1) * v;
+    dot
+}
+
+/// Sum of per-row partial sums, in row order.
+pub(super) fn total(rows: &[f64]) -> f64 {
+    parallel::sum_by(rows.len(), |j| rows[j])
+}
+
+/// `p = z + beta p` and then `w = A p` (w shares its storage with z), returning `p . A p`.
+fn direction_and_apply(
+    a: &Stencil5,
+    zw: &mut [f64],
+    p: &mut [f64],
+    beta: f64,
+    partial: &mut [f64],
+) -> f64 {
+    let nx = a.nx;
+    let (zp, pp, sp) = (Shared::new(zw), Shared::new(p), Shared::new(partial));
+    // SAFETY: the caller checked the lengths; stage 0 touches row j of p and z only, stage 1
+    // reads rows j-1..=j+1 of p and writes row j of w and one partial sum; `wavefront` keeps
+    // the stage-by-stage order, in which z is read before w overwrites it.
+    let update = |j: usize| unsafe {
+        let (z, p) = (zp.get(), pp.get());
+        for q in j * nx..(j + 1) * nx {
+            *p.add(q) = *z.add(q) + beta * *p.add(q);
+        }
+    };
+    let apply = |j: usize| unsafe {
+        *sp.get().add(j) = apply_row(a, pp.get(), zp.get(), j);
+    };
+    let stages: [Stage; 2] = [&update, &apply];
+    wavefront(a.ny, a.len() >= PARALLEL_MIN, &stages);
+    total(partial)
+}
+
+/// `x += alpha p`, `r -= alpha w`, returning `r . r`.
+fn step(
+    a: &Stencil5,
+    x: &mut [f64],
+    r: &mut [f64],
+    p: &[f64],
+    w: &[f64],
+    alpha: f64,
+    partial: &mut [f64],
+) -> f64 {
+    let nx = a.nx;
+    let big = a.len() >= PARALLEL_MIN;
+    let (xp, rp, sp) = (Shared::new(x), Shared::new(r), Shared::new(partial));
+    each(big, a.ny, |j| {
+        let (x, r) = (xp.get(), rp.get());
+        let mut s = 0.0;
+        // SAFETY: lengths checked by the caller; each call touches row j only.
+        unsafe {
+            for q in j * nx..(j + 1) * nx {
+                *x.add(q) += alpha * p[q];
+                let v = *r.add(q) - alpha * w[q];
+                *r.add(q) = v;
+                s += v * v;
+            }
+            *sp.get().add(j) = s;
+        }
+    });
+    total(partial)
+}
+
+/// Solves `A x = b` by CG preconditioned with one V-cycle of `h` per iteration.
+pub(super) fn pcg(
+    h: &Hierarchy,
+    a: &Stencil5,
+    b: &[f64],
+    x: &mut [f64],
+    params: &Params,
+    ws: &mut Workspace,
+) -> Result<Info, SolveError> {
+    const METHOD: &str = "multigrid-cg";
+    let n = a.len();
+    assert!(
+        b.len() == n && x.len() == n,
+        "vector length differs from the lattice"
+    );
+    let bnorm = parallel::norm2(b);
+    if bnorm == 0.0 {
+        x.iter_mut().for_each(|v| *v = 0.0);
+        return Ok(Info {
+            method: METHOD,
+            iterations: 0,
+            relative_residual: 0.0,
+            reason: StopReason::ZeroRhs,
+        });
+    }
+    let max_iter = if params.max_iter > 0 {
+        params.max_iter
+    } else {
+        20 * (a.nx + a.ny) + 1000
+    };
+    let mut r = vec![0.0; n];
+    let rel0 = a.residual(b, x, &mut r) / bnorm;
+    let mut zw = vec![0.0; n];
+    let mut p = vec![0.0; n];
+    let mut partial = vec![0.0; a.ny];
+    let (mut rel, mut best, mut since_best, mut iterations) = (rel0, rel0, 0usize, 0usize);
+    let mut reason = if rel <= params.tol {
+        Some(StopReason::Converged)
+    } else {
+        None
+    };
+    if reason.is_none() {
+        let mut rz = vcycle(h, a, ws, &r, &mut zw, &mut partial);
+        let mut beta = 0.0;
+        loop {
+            if iterations >= max_iter {
+                reason = Some(StopReason::MaxIterations);
+                break;
+            }
+            let pap = direction_and_apply(a, &mut zw, &mut p, beta, &mut partial);
+            if pap.is_nan() || pap <= 0.0 {
+                reason = Some(if pap.is_finite() {
+                    StopReason::Stagnated
+                } else {
+                    StopReason::NonFinite
+                });
+                break;
+            }
+            let alpha = rz / pap;
+            rel = step(a, x, &mut r, &p, &zw, alpha, &mut partial).sqrt() / bnorm;
+            iterations += 1;
+            if let Some(m) = &params.monitor {
+                m(iterations, rel);
+            }
+            if rel <= params.tol {
+                reason = Some(StopReason::Converged);
+                break;
+            }
+            if rel < best {
+                best = rel;
+                since_best = 0;
+            } else {
+                since_best += 1;
+            }
+            if let Some(stop) = check_progress(rel, rel0, best, since_best, 200) {
+                reason = Some(stop);
+                break;
+            }
+            let rz_new = vcycle(h, a, ws, &r, &mut zw, &mut partial);
+            beta = rz_new / rz;
+            rz = rz_new;
+        }
+    }
+    let true_rel = a.residual(b, x, &mut r) / bnorm;
+    let mut reason = reason.unwrap_or(StopReason::MaxIterations);
+    // The recurrence can drift from the true residual; only the true one may claim success.
+    if reason == StopReason::Converged && true_rel > 10.0 * params.tol {
+        reason = StopReason::Stagnated;
+    }
+    if !true_rel.is_finite() {
+        reason = StopReason::NonFinite;
+    }
+    let info = Info {
+        method: METHOD,
+        iterations,
+        relative_residual: true_rel,
+        reason,
+    };
+    if info.converged() {
+        Ok(info)
+    } else {
+        Err(SolveError::NotConverged(info))
+    }
+}
