@@ -158,7 +158,8 @@ impl NoExport {
     pub fn describe(&self) -> &'static str {
         match self {
             NoExport::NeedsDepth => {
-                "capacitance.cir needs `depth`: a planar result is per metre of depth, so add                  `depth = ...` (the out-of-plane length, in the design's unit) to the design"
+                "capacitance.cir needs `depth`: a planar result is per metre of depth, so add \
+                 `depth = ...` (the out-of-plane length, in the design's unit) to the design"
             }
             NoExport::NoConductors => {
                 "capacitance.cir not written: no conductor has a fixed potential"

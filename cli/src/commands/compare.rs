@@ -367,14 +367,23 @@ pub fn field_magnitude(sol: &Solution) -> Vec<f64> {
 
 /// The map of |E|(NEW) - |E|(BASE) on their common grid, NEW's outlines drawn.
 fn change_picture(base: &Solution, new: &Solution, src: &DesignSource) -> image::RgbImage {
-    use crate::render::{self, MapInput, Outline, Palette, RenderOptions};
+    use crate::render::{self, ContourStyle, MapInput, Outline, Palette, RenderOptions};
     let eb = field_magnitude(base);
     let en = field_magnitude(new);
     let diff: Vec<f64> = eb.iter().zip(&en).map(|(b, n)| n - b).collect();
-    let top = diff
+    // Colour range: the 99th percentile of |change|, so that the few nodes at sharp edges
+    // (whose values are singular) saturate instead of washing out the rest of the map.
+    let mut mags: Vec<f64> = diff
         .iter()
         .filter(|v| v.is_finite())
-        .fold(0.0f64, |m, v| m.max(v.abs()));
+        .map(|v| v.abs())
+        .collect();
+    mags.sort_by(f64::total_cmp);
+    let top = mags
+        .get((mags.len() as f64 * 0.99) as usize)
+        .or(mags.last())
+        .copied()
+        .unwrap_or(0.0);
     let d = &src.design;
     let tol = Outline::picture_tolerance(d.domain.x, d.domain.y);
     let conductors: Vec<Outline> = d
@@ -389,7 +398,7 @@ fn change_picture(base: &Solution, new: &Solution, src: &DesignSource) -> image:
         .collect();
     let axi = d.mode == fieldgrid_solver::design::Mode::Axisymmetric;
     let input = MapInput {
-        title: "change in field magnitude, NEW minus BASE",
+        title: "change in field magnitude, NEW minus BASE (colours saturate at the largest 1 %)",
         quantity: "change of |E|",
         unit: "V/m",
         length_unit: render::LengthUnit {
@@ -400,6 +409,7 @@ fn change_picture(base: &Solution, new: &Solution, src: &DesignSource) -> image:
         conductors: &conductors,
         dielectrics: &dielectrics,
         palette: Palette::Diverging,
+        contours: ContourStyle::None,
         range: (top > 0.0).then_some([-top, top]),
         ..MapInput::new(&new.grid, &diff)
     };

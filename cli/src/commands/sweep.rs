@@ -91,14 +91,17 @@ impl Vary {
         })
     }
 
-    /// Value number k (0-based): evenly spaced, the last exactly STOP.
+    /// Value number k (0-based): evenly spaced, the last exactly STOP; inner values rounded
+    /// to 15 significant digits, so that 0.3 + 0.3 is written and used as 0.6, not
+    /// 0.6000000000000001.
     pub fn value(&self, k: usize) -> f64 {
         if self.count == 1 || k == 0 {
             self.start
         } else if k + 1 == self.count {
             self.stop
         } else {
-            self.start + (self.stop - self.start) * k as f64 / (self.count - 1) as f64
+            let v = self.start + (self.stop - self.start) * k as f64 / (self.count - 1) as f64;
+            format!("{v:.14e}").parse().unwrap_or(v)
         }
     }
 }
@@ -259,7 +262,9 @@ pub fn run(args: &SweepArgs) -> Result<u8, Failure> {
         .map(Shard::parse)
         .transpose()
         .map_err(Failure::input)?;
-    let params = study_params(&args.opts)?;
+    let mut params = study_params(&args.opts)?;
+    // The sweep's own progress bar replaces the per-solve residual display.
+    params.solver.monitor = None;
     let mine: Vec<usize> = (0..points)
         .filter(|&p| shard.is_none_or(|s| s.runs(p)))
         .collect();
@@ -413,9 +418,10 @@ fn point_failure(p: usize, vary: &[Vary], values: &[f64], f: Failure) -> Failure
         .zip(values)
         .map(|(v, x)| format!("{} = {x}", v.name))
         .collect();
+    let message = f.message.strip_prefix("error: ").unwrap_or(&f.message);
     Failure {
         code: f.code,
-        message: format!("sweep point {p} ({}): {}", at.join(", "), f.message),
+        message: format!("sweep point {p} ({}): {message}", at.join(", ")),
     }
 }
 
@@ -612,7 +618,8 @@ mod tests {
         let vals: Vec<f64> = (0..5).map(|k| v.value(k)).collect();
         assert_eq!(vals[0], 0.2);
         assert_eq!(vals[4], 1.0);
-        assert!((vals[2] - 0.6).abs() < 1e-15);
+        assert_eq!(vals[2], 0.6);
+        assert_eq!(Vary::parse("g=0.3:0.9:3").unwrap().value(1), 0.6);
         assert!(Vary::parse("gap=0.2:1.0").is_err());
         assert!(Vary::parse("gap=0.2:1.0:0").is_err());
         assert!(Vary::parse("gap=a:1.0:2").is_err());

@@ -1,0 +1,255 @@
+//! `fieldgrid compare`: exit 0 when nothing moved beyond the tolerance, 1 when something did,
+//! 2 on bad input; on design files and on summary.json files. The revisions are the demo
+//! designs `geometries/touch_pad_rev_a.toml` and `touch_pad_rev_b.toml` (the neighbour pad
+//! moved 0.3 mm closer).
+
+use std::path::{Path, PathBuf};
+use std::process::ExitCode;
+
+fn run(args: &[&str]) -> ExitCode {
+    let mut full = vec!["fieldgrid"];
+    full.extend_from_slice(args);
+    fieldgrid_cli::main_with_args(full)
+}
+
+fn expect(c: ExitCode, want: u8, what: &str) {
+    assert_eq!(
+        format!("{c:?}"),
+        format!("{:?}", ExitCode::from(want)),
+        "{what}"
+    );
+}
+
+fn scratch(name: &str) -> PathBuf {
+    let d = Path::new(env!("CARGO_TARGET_TMPDIR")).join(format!("compare-{name}"));
+    let _ = std::fs::remove_dir_all(&d);
+    std::fs::create_dir_all(&d).unwrap();
+    d
+}
+
+fn demo(name: &str) -> String {
+    Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("../geometries")
+        .join(name)
+        .display()
+        .to_string()
+}
+
+fn s(p: &Path) -> &str {
+    p.to_str().unwrap()
+}
+
+/// compare.csv as (quantity -> row).
+fn table(dir: &Path) -> Vec<csv::StringRecord> {
+    let mut r = csv::Reader::from_path(dir.join("compare.csv")).unwrap();
+    r.records().map(|x| x.unwrap()).collect()
+}
+
+fn row<'a>(t: &'a [csv::StringRecord], q: &str) -> &'a csv::StringRecord {
+    t.iter()
+        .find(|r| &r[0] == q)
+        .unwrap_or_else(|| panic!("no row {q}"))
+}
+
+#[test]
+fn compare_designs_and_summaries_of_two_revisions() {
+    let dir = scratch("revisions");
+    let (a, b) = (demo("touch_pad_rev_a.toml"), demo("touch_pad_rev_b.toml"));
+    let q = ["--quiet", "--no-error-estimate"];
+
+    // Identical designs: nothing changes (results are a pure function of the input).
+    let same = dir.join("same");
+    let mut args = vec!["compare", &a, &a, "--out", s(&same)];
+    args.extend(q);
+    expect(run(&args), 0, "identical designs");
+    assert!(table(&same).iter().all(|r| &r[6] == "false"));
+    assert!(
+        same.join("field_change.png").is_file(),
+        "same grids: a change picture"
+    );
+
+    // The revision: the coupling moves by far more than 1 %.
+    let rev = dir.join("rev");
+    let mut args = vec!["compare", &a, &b, "--out", s(&rev)];
+    args.extend(q);
+    expect(run(&args), 1, "revision B moves the neighbour");
+    let t = table(&rev);
+    let coupling = row(&t, "C[pad,neighbour]");
+    let rel: f64 = coupling[5].parse().unwrap();
+    println!(
+        "C[pad,neighbour]: base {} new {} relative change {rel}",
+        &coupling[2], &coupling[3]
+    );
+    assert!(rel.abs() > 0.01 && &coupling[6] == "true");
+    // Closer means stronger coupling: the mutual entry grows in magnitude (it is negative).
+    let (cb, cn): (f64, f64) = (coupling[2].parse().unwrap(), coupling[3].parse().unwrap());
+    assert!(cb < 0.0 && cn < cb);
+    for qn in ["C[pad,pad]", "Q[pad]", "energy", "peak_field"] {
+        row(&t, qn);
+    }
+    let json: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(rev.join("compare.json")).unwrap()).unwrap();
+    assert!(json["changed"].as_u64().unwrap() >= 1);
+    assert_eq!(json["rel_tol"].as_f64(), Some(0.01));
+
+    // A looser tolerance that covers the change lets it pass.
+    let rel_tol = format!(
+        "{}",
+        2.0 * t
+            .iter()
+            .filter_map(|r| r[5].parse::<f64>().ok())
+            .fold(0.0, |m: f64, v| m.max(v.abs()))
+    );
+    let mut args = vec!["compare", &a, &b, "--rel-tol", &rel_tol];
+    args.extend(q);
+    expect(run(&args), 0, "tolerance above every change");
+
+    // The same on summary.json files written by `solve`.
+    let (sa, sb) = (dir.join("a"), dir.join("b"));
+    expect(
+        run(&[
+            "solve",
+            &a,
+            "--out",
+            s(&sa),
+            "--quiet",
+            "--no-error-estimate",
+        ]),
+        0,
+        "solve A",
+    );
+    expect(
+        run(&[
+            "solve",
+            &b,
+            "--out",
+            s(&sb),
+            "--quiet",
+            "--no-error-estimate",
+        ]),
+        0,
+        "solve B",
+    );
+    let (ja, jb) = (sa.join("summary.json"), sb.join("summary.json"));
+    expect(
+        run(&["compare", s(&ja), s(&ja), "--quiet"]),
+        0,
+        "same summary",
+    );
+    expect(
+        run(&["compare", s(&ja), s(&jb), "--quiet"]),
+        1,
+        "two revisions' summaries",
+    );
+    // A results directory stands for its summary.json, and a design for its solve.
+    expect(
+        run(&["compare", s(&sa), &a, "--quiet", "--no-error-estimate"]),
+        0,
+        "dir vs design",
+    );
+    let mixed = dir.join("mixed");
+    expect(
+        run(&[
+            "compare",
+            s(&ja),
+            &b,
+            "--out",
+            s(&mixed),
+            "--quiet",
+            "--no-error-estimate",
+        ]),
+        1,
+        "summary vs design",
+    );
+    assert!(
+        !mixed.join("field_change.png").exists(),
+        "no picture without two solutions"
+    );
+}
+
+#[test]
+fn compare_reports_quantities_on_one_side_only_as_changes() {
+    let dir = scratch("one-sided");
+    let base = serde_json::json!({
+        "version": 1, "mode": "planar", "per_length": true,
+        "grid": { "nx": 11, "ny": 11, "cell": 1e-4 },
+        "solver": { "method": "jacobi-cg", "iterations": 10, "relative_residual": 1e-9,
+                    "seconds": 0.1, "converged": true },
+        "conductors": [ { "name": "pad", "potential": 1.0, "charge": 2e-11, "force": [0.0, 0.0] } ],
+        "capacitance": { "unit": "F/m", "names": ["pad"], "matrix": [[2e-11]] },
+        "energy": 1e-11,
+        "peak_field": { "magnitude": 1e4, "x": 0.0, "y": 0.0, "material": "background", "singular": false },
+        "hotspots": [], "probes": [], "warnings": []
+    });
+    let mut new = base.clone();
+    new["conductors"][0]["name"] = "sense".into();
+    new["capacitance"]["names"][0] = "sense".into();
+    let (pb, pn) = (dir.join("base.json"), dir.join("new.json"));
+    std::fs::write(&pb, serde_json::to_vec(&base).unwrap()).unwrap();
+    std::fs::write(&pn, serde_json::to_vec(&new).unwrap()).unwrap();
+    let out = dir.join("out");
+    expect(
+        run(&["compare", s(&pb), s(&pn), "--out", s(&out), "--quiet"]),
+        1,
+        "renamed conductor",
+    );
+    let t = table(&out);
+    assert_eq!(&row(&t, "C[pad,pad]")[7], "only in BASE");
+    assert_eq!(&row(&t, "C[sense,sense]")[7], "only in NEW");
+    assert_eq!(&row(&t, "C[sense,sense]")[6], "true");
+    assert_eq!(&row(&t, "energy")[6], "false");
+
+    // A change just inside and just outside the default 1 %.
+    let mut inside = base.clone();
+    inside["energy"] = (1e-11 * 1.009).into();
+    std::fs::write(&pn, serde_json::to_vec(&inside).unwrap()).unwrap();
+    expect(
+        run(&["compare", s(&pb), s(&pn), "--quiet"]),
+        0,
+        "0.9 % change",
+    );
+    let mut outside = base.clone();
+    outside["energy"] = (1e-11 * 1.011).into();
+    std::fs::write(&pn, serde_json::to_vec(&outside).unwrap()).unwrap();
+    expect(
+        run(&["compare", s(&pb), s(&pn), "--quiet"]),
+        1,
+        "1.1 % change",
+    );
+}
+
+#[test]
+fn compare_refuses_bad_input_with_exit_2() {
+    let dir = scratch("bad");
+    let junk = dir.join("junk.json");
+    std::fs::write(&junk, "{ \"version\": 1 ").unwrap();
+    let missing = dir.join("missing.toml");
+    let good = dir.join("good.json");
+    std::fs::write(&good, "{}").unwrap();
+    expect(
+        run(&["compare", s(&junk), s(&junk), "--quiet"]),
+        2,
+        "broken JSON",
+    );
+    expect(
+        run(&["compare", s(&missing), s(&missing), "--quiet"]),
+        2,
+        "missing file",
+    );
+    expect(
+        run(&["compare", s(&good), s(&good), "--quiet"]),
+        2,
+        "JSON that is not a summary",
+    );
+    expect(
+        run(&["compare", s(&dir), s(&dir), "--quiet"]),
+        2,
+        "directory without summary",
+    );
+    expect(
+        run(&["compare", s(&junk), s(&junk), "--rel-tol=-1", "--quiet"]),
+        2,
+        "negative tolerance",
+    );
+    expect(run(&["compare", s(&junk)]), 2, "one input only");
+}

@@ -1,0 +1,253 @@
+//! Circuit export: `capacitance.cir` read back as a circuit reproduces the Maxwell matrix.
+//! The reader here is written from the SPICE netlist conventions (element lines
+//! `Cname node1 node2 value`, `.SUBCKT name ports...`, `*` comments, node `0` the ground)
+//! independently of the writer.
+
+use std::collections::HashMap;
+use std::path::{Path, PathBuf};
+use std::process::ExitCode;
+
+fn run(args: &[&str]) -> ExitCode {
+    let mut full = vec!["fieldgrid"];
+    full.extend_from_slice(args);
+    fieldgrid_cli::main_with_args(full)
+}
+
+fn expect(c: ExitCode, want: u8, what: &str) {
+    assert_eq!(
+        format!("{c:?}"),
+        format!("{:?}", ExitCode::from(want)),
+        "{what}"
+    );
+}
+
+fn scratch(name: &str) -> PathBuf {
+    let d = Path::new(env!("CARGO_TARGET_TMPDIR")).join(format!("spice-{name}"));
+    let _ = std::fs::remove_dir_all(&d);
+    std::fs::create_dir_all(&d).unwrap();
+    d
+}
+
+fn s(p: &Path) -> &str {
+    p.to_str().unwrap()
+}
+
+/// Reads a subcircuit: its port names and the nodal capacitance matrix of the ports, built
+/// by stamping every capacitor (C between a and b adds C to (a, a) and (b, b) and -C to (a, b)
+/// and (b, a); a capacitor to node 0 only to the diagonal). That nodal matrix is the Maxwell
+/// matrix of the conductors.
+fn read_back(text: &str) -> (Vec<String>, Vec<Vec<f64>>) {
+    let mut ports: Vec<String> = Vec::new();
+    let mut caps: Vec<(String, String, f64)> = Vec::new();
+    for line in text.lines().map(str::trim) {
+        if line.is_empty() || line.starts_with('*') {
+            continue;
+        }
+        let f: Vec<&str> = line.split_whitespace().collect();
+        let head = f[0].to_ascii_uppercase();
+        if head == ".SUBCKT" {
+            ports = f[2..].iter().map(|p| p.to_ascii_lowercase()).collect();
+        } else if head.starts_with('C') {
+            assert_eq!(f.len(), 4, "capacitor line {line}");
+            caps.push((
+                f[1].to_ascii_lowercase(),
+                f[2].to_ascii_lowercase(),
+                f[3].parse().unwrap(),
+            ));
+        } else {
+            assert!(head == ".ENDS", "unexpected line {line}");
+        }
+    }
+    let index: HashMap<&str, usize> = ports
+        .iter()
+        .enumerate()
+        .map(|(k, p)| (p.as_str(), k))
+        .collect();
+    let n = ports.len();
+    let mut m = vec![vec![0.0; n]; n];
+    for (a, b, c) in caps {
+        let ia = index.get(a.as_str()).copied();
+        let ib = index.get(b.as_str()).copied();
+        assert!(ia.is_some() || a == "0", "unknown node {a}");
+        assert!(ib.is_some() || b == "0", "unknown node {b}");
+        if let Some(i) = ia {
+            m[i][i] += c;
+        }
+        if let Some(j) = ib {
+            m[j][j] += c;
+        }
+        if let (Some(i), Some(j)) = (ia, ib) {
+            m[i][j] -= c;
+            m[j][i] -= c;
+        }
+    }
+    (ports, m)
+}
+
+const THREE: &str = r#"
+unit = "mm"
+depth = 25.0
+[grid]
+x = [0.0, 8.0]
+y = [0.0, 4.0]
+cell = 0.1
+[sides]
+left = "symmetry"
+right = "ground"
+[[dielectric]]
+name = "board"
+permittivity = 4.0
+rect = { x = [0.0, 8.0], y = [0.0, 1.0] }
+[[conductor]]
+name = "Sense pad"
+potential = 1.0
+rect = { x = [1.0, 3.0], y = [1.0, 1.2] }
+[[conductor]]
+name = "neighbour"
+potential = 0.0
+rect = { x = [3.5, 5.5], y = [1.0, 1.2] }
+[[conductor]]
+name = "ring"
+potential = 0.0
+circle = { center = [6.5, 2.5], radius = 0.6 }
+[[conductor]]
+name = "shield"
+floating = true
+rect = { x = [1.0, 5.5], y = [3.0, 3.3] }
+"#;
+
+#[test]
+fn exported_subcircuit_reproduces_the_maxwell_matrix() {
+    let dir = scratch("three");
+    let design = dir.join("three.toml");
+    std::fs::write(&design, THREE).unwrap();
+    let out = dir.join("out");
+    expect(
+        run(&[
+            "solve",
+            s(&design),
+            "--out",
+            s(&out),
+            "--quiet",
+            "--circuit",
+        ]),
+        0,
+        "solve",
+    );
+    let summary: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(out.join("summary.json")).unwrap()).unwrap();
+    let names: Vec<String> = summary["capacitance"]["names"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|v| v.as_str().unwrap().to_string())
+        .collect();
+    // The floating shield is folded into the matrix and gets no node.
+    assert_eq!(names, ["Sense pad", "neighbour", "ring"]);
+    let matrix: Vec<Vec<f64>> = summary["capacitance"]["matrix"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|r| {
+            r.as_array()
+                .unwrap()
+                .iter()
+                .map(|v| v.as_f64().unwrap())
+                .collect()
+        })
+        .collect();
+    let text = std::fs::read_to_string(out.join("capacitance.cir")).unwrap();
+    let (ports, rebuilt) = read_back(&text);
+    assert_eq!(ports, ["sense_pad", "neighbour", "ring"]);
+    // Planar F/m times depth 25 mm gives whole-part farads. The circuit is reciprocal, so it
+    // holds the symmetric part of the matrix; the asymmetry is at the solver tolerance.
+    let depth = 25e-3;
+    let scale = matrix.iter().flatten().fold(0.0f64, |m, v| m.max(v.abs())) * depth;
+    let mut worst = 0.0f64;
+    for i in 0..3 {
+        for j in 0..3 {
+            let want = matrix[i][j] * depth;
+            worst = worst.max((rebuilt[i][j] - want).abs() / scale);
+        }
+        // The diagonal is rebuilt exactly, up to rounding.
+        let want = matrix[i][i] * depth;
+        assert!(
+            (rebuilt[i][i] - want).abs() <= 1e-12 * scale,
+            "diagonal {i}"
+        );
+    }
+    println!("largest deviation of the rebuilt matrix: {worst:e} of the largest entry");
+    assert!(worst < 1e-6, "rebuilt matrix deviates by {worst:e}");
+}
+
+#[test]
+fn planar_export_without_depth_is_skipped_or_refused() {
+    let dir = scratch("nodepth");
+    let design = dir.join("nodepth.toml");
+    std::fs::write(&design, THREE.replace("depth = 25.0\n", "")).unwrap();
+    let out = dir.join("out");
+    expect(
+        run(&["solve", s(&design), "--out", s(&out), "--quiet"]),
+        0,
+        "solve without depth",
+    );
+    assert!(out.join("summary.json").is_file());
+    assert!(
+        !out.join("capacitance.cir").exists(),
+        "no per-metre subcircuit"
+    );
+    // Asked for explicitly: refused before solving, nothing written.
+    let out2 = dir.join("out2");
+    expect(
+        run(&[
+            "solve",
+            s(&design),
+            "--out",
+            s(&out2),
+            "--quiet",
+            "--circuit",
+        ]),
+        2,
+        "--circuit without depth",
+    );
+    assert!(!out2.exists());
+}
+
+#[test]
+fn axisymmetric_export_is_whole_body_already() {
+    // A sphere inside a grounded cylindrical can: the matrix is already in farads.
+    let text = r#"
+mode = "axisymmetric"
+unit = "mm"
+[grid]
+x = [0.0, 10.0]
+y = [-10.0, 10.0]
+cell = 0.2
+[[conductor]]
+name = "ball"
+potential = 1.0
+circle = { center = [0.0, 0.0], radius = 3.0 }
+"#;
+    let dir = scratch("axi");
+    let design = dir.join("ball.toml");
+    std::fs::write(&design, text).unwrap();
+    let out = dir.join("out");
+    expect(
+        run(&[
+            "solve",
+            s(&design),
+            "--out",
+            s(&out),
+            "--quiet",
+            "--circuit",
+        ]),
+        0,
+        "solve",
+    );
+    let summary: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(out.join("summary.json")).unwrap()).unwrap();
+    let c = summary["capacitance"]["matrix"][0][0].as_f64().unwrap();
+    assert_eq!(summary["capacitance"]["unit"], "F");
+    let (_, m) = read_back(&std::fs::read_to_string(out.join("capacitance.cir")).unwrap());
+    assert_eq!(m[0][0], c);
+}

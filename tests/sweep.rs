@@ -1,0 +1,294 @@
+//! `fieldgrid sweep`: the cartesian product in point order, shards that merge into exactly the
+//! unsharded table, resuming, and refusing to mix sweeps.
+
+use std::path::{Path, PathBuf};
+use std::process::ExitCode;
+
+fn run(args: &[&str]) -> ExitCode {
+    let mut full = vec!["fieldgrid"];
+    full.extend_from_slice(args);
+    fieldgrid_cli::main_with_args(full)
+}
+
+fn expect(c: ExitCode, want: u8, what: &str) {
+    assert_eq!(
+        format!("{c:?}"),
+        format!("{:?}", ExitCode::from(want)),
+        "{what}"
+    );
+}
+
+fn scratch(name: &str) -> PathBuf {
+    let d = Path::new(env!("CARGO_TARGET_TMPDIR")).join(format!("sweep-{name}"));
+    let _ = std::fs::remove_dir_all(&d);
+    std::fs::create_dir_all(&d).unwrap();
+    d
+}
+
+fn s(p: &Path) -> &str {
+    p.to_str().unwrap()
+}
+
+/// Two strips over a ground plane; the gap between them and the width of the second vary.
+const STRIPS: &str = r#"
+unit = "mm"
+[parameters]
+gap = 0.5
+w = 1.0
+[grid]
+x = [0.0, 6.0]
+y = [0.0, 3.0]
+cell = 0.1
+[sides]
+left = "symmetry"
+right = "symmetry"
+[[conductor]]
+name = "a"
+potential = 1.0
+rect = { x = [1.0, 2.0], y = [1.0, 1.3] }
+[[conductor]]
+name = "b"
+potential = 0.0
+rect = { x = ["2 + gap", "2 + gap + w"], y = [1.0, 1.3] }
+"#;
+
+const VARY: [&str; 4] = ["--vary", "gap=0.4:1.2:3", "--vary", "w=1.0:2.0:2"];
+
+fn sweep(design: &str, out: &Path, extra: &[&str]) -> ExitCode {
+    let mut args = vec!["sweep", design];
+    args.extend(VARY);
+    args.extend(["--out", s(out), "--quiet", "--no-error-estimate"]);
+    args.extend(extra);
+    run(&args)
+}
+
+fn rows(dir: &Path) -> (Vec<String>, Vec<Vec<String>>) {
+    let mut r = csv::Reader::from_path(dir.join("sweep.csv")).unwrap();
+    let h = r.headers().unwrap().iter().map(str::to_string).collect();
+    let rows = r
+        .records()
+        .map(|x| x.unwrap().iter().map(str::to_string).collect())
+        .collect();
+    (h, rows)
+}
+
+#[test]
+fn sharded_sweep_merges_into_the_unsharded_table_row_for_row() {
+    let dir = scratch("shards");
+    let design = dir.join("strips.toml");
+    std::fs::write(&design, STRIPS).unwrap();
+    let design = s(&design).to_string();
+
+    let whole = dir.join("whole");
+    expect(sweep(&design, &whole, &[]), 0, "unsharded sweep");
+    let (header, table) = rows(&whole);
+    assert_eq!(
+        header,
+        [
+            "point",
+            "gap",
+            "w",
+            "C[a,a] (F/m)",
+            "C[a,b] (F/m)",
+            "C[b,a] (F/m)",
+            "C[b,b] (F/m)",
+            "peak_field (V/m)",
+            "converged"
+        ]
+    );
+    // Six points, the first parameter slowest.
+    let params: Vec<(String, String)> =
+        table.iter().map(|r| (r[1].clone(), r[2].clone())).collect();
+    let want: Vec<(String, String)> = [
+        ("0.4", "1"),
+        ("0.4", "2"),
+        ("0.8", "1"),
+        ("0.8", "2"),
+        ("1.2", "1"),
+        ("1.2", "2"),
+    ]
+    .iter()
+    .map(|(a, b)| (a.to_string(), b.to_string()))
+    .collect();
+    assert_eq!(params, want);
+    assert!(table
+        .iter()
+        .enumerate()
+        .all(|(k, r)| r[0] == k.to_string() && &r[8] == "true"));
+    // Physics sanity: a wider gap weakens the coupling (C[a,b] is negative and shrinks).
+    let cab = |k: usize| table[k][4].parse::<f64>().unwrap();
+    assert!(cab(0) < cab(2) && cab(2) < cab(4) && cab(4) < 0.0);
+
+    // Three shards, merged.
+    let shards: Vec<PathBuf> = (0..3).map(|i| dir.join(format!("shard{i}"))).collect();
+    for (i, d) in shards.iter().enumerate() {
+        let spec = format!("{i}/3");
+        expect(sweep(&design, d, &["--shard", &spec]), 0, "one shard");
+        let (_, part) = rows(d);
+        let idx: Vec<usize> = part.iter().map(|r| r[0].parse().unwrap()).collect();
+        assert_eq!(
+            idx,
+            vec![i, i + 3],
+            "shard {i} runs points with index % 3 == {i}"
+        );
+    }
+    let merged = dir.join("merged");
+    // Shards given in any order.
+    expect(
+        run(&[
+            "sweep",
+            "--merge",
+            s(&shards[2]),
+            s(&shards[0]),
+            s(&shards[1]),
+            "--out",
+            s(&merged),
+            "--quiet",
+        ]),
+        0,
+        "merge",
+    );
+    let a = std::fs::read_to_string(whole.join("sweep.csv")).unwrap();
+    let b = std::fs::read_to_string(merged.join("sweep.csv")).unwrap();
+    assert_eq!(a, b, "merged shards differ from the unsharded sweep");
+
+    // Missing shard: refused.
+    let partial = dir.join("partial");
+    expect(
+        run(&[
+            "sweep",
+            "--merge",
+            s(&shards[0]),
+            s(&shards[1]),
+            "--out",
+            s(&partial),
+            "--quiet",
+        ]),
+        2,
+        "merge without shard 2",
+    );
+    assert!(!partial.join("sweep.csv").exists());
+
+    // A shard of another sweep (other design text): refused.
+    let other_design = dir.join("other.toml");
+    std::fs::write(&other_design, STRIPS.replace("cell = 0.1", "cell = 0.12")).unwrap();
+    let other = dir.join("other");
+    expect(
+        sweep(s(&other_design), &other, &["--shard", "2/3"]),
+        0,
+        "other sweep's shard",
+    );
+    expect(
+        run(&[
+            "sweep",
+            "--merge",
+            s(&shards[0]),
+            s(&shards[1]),
+            s(&other),
+            "--out",
+            s(&partial),
+            "--quiet",
+        ]),
+        2,
+        "merge across sweeps",
+    );
+}
+
+#[test]
+fn sweep_resumes_and_refuses_another_sweep_in_its_directory() {
+    let dir = scratch("resume");
+    let design = dir.join("strips.toml");
+    std::fs::write(&design, STRIPS).unwrap();
+    let design = s(&design).to_string();
+    let out = dir.join("out");
+    expect(sweep(&design, &out, &["--shard", "1/2"]), 0, "first run");
+    // Mark a finished row; a re-run with the same arguments must keep it (skip the point).
+    let path = out.join("sweep.csv");
+    let text = std::fs::read_to_string(&path).unwrap();
+    let (_, table) = rows(&out);
+    let marked = text.replacen(&table[0][7], "1e99", 1);
+    std::fs::write(&path, &marked).unwrap();
+    expect(
+        sweep(&design, &out, &["--shard", "1/2"]),
+        0,
+        "re-run resumes",
+    );
+    assert_eq!(std::fs::read_to_string(&path).unwrap(), marked);
+    // Drop the last row: the re-run solves just that point again, and gets the same numbers.
+    let (h, mut t) = rows(&out);
+    let last = t.pop().unwrap();
+    let mut w = csv::Writer::from_path(&path).unwrap();
+    w.write_record(&h).unwrap();
+    for r in &t {
+        w.write_record(r).unwrap();
+    }
+    w.flush().unwrap();
+    drop(w);
+    expect(
+        sweep(&design, &out, &["--shard", "1/2"]),
+        0,
+        "re-run completes",
+    );
+    let (_, t2) = rows(&out);
+    assert_eq!(t2.last().unwrap(), &last);
+    assert_eq!(t2.len(), 3);
+
+    // Other arguments into the same directory: refused, nothing touched.
+    let before = std::fs::read_to_string(&path).unwrap();
+    expect(
+        sweep(&design, &out, &["--shard", "0/2"]),
+        2,
+        "another shard",
+    );
+    let mut args = vec![
+        "sweep",
+        &design,
+        "--vary",
+        "gap=0.4:1.2:4",
+        "--out",
+        s(&out),
+        "--quiet",
+    ];
+    args.push("--no-error-estimate");
+    expect(run(&args), 2, "another range");
+    assert_eq!(std::fs::read_to_string(&path).unwrap(), before);
+}
+
+#[test]
+fn sweep_refuses_bad_arguments_before_solving() {
+    let dir = scratch("bad");
+    let design = dir.join("strips.toml");
+    std::fs::write(&design, STRIPS).unwrap();
+    let design = s(&design).to_string();
+    let out = dir.join("out");
+    let o = s(&out);
+    for (args, what) in [
+        (vec!["--vary", "gap=0.4:1.2"], "two parts"),
+        (vec!["--vary", "gap=0.4:1.2:0"], "count 0"),
+        (vec!["--vary", "nope=0.4:1.2:2"], "unknown parameter"),
+        (
+            vec!["--vary", "gap=0.4:1.2:2", "--vary", "gap=1:2:2"],
+            "varied twice",
+        ),
+        (
+            vec!["--vary", "gap=0.4:1.2:2", "--shard", "2/2"],
+            "shard index from 0",
+        ),
+        (
+            vec!["--vary", "gap=0.4:1.2:2", "--shard", "1/0"],
+            "zero shards",
+        ),
+        // The second point makes the strips overlap... or leave the domain.
+        (
+            vec!["--vary", "gap=0.5:9.0:2"],
+            "a point outside the domain",
+        ),
+    ] {
+        let mut a = vec!["sweep", design.as_str()];
+        a.extend(args);
+        a.extend(["--out", o, "--quiet"]);
+        expect(run(&a), 2, what);
+        assert!(!out.join("sweep.csv").exists(), "{what}: no rows");
+    }
+    expect(run(&["sweep", "--out", o]), 2, "no design");
+}
