@@ -1,8 +1,9 @@
 //! Field lines: seeded on the conductors' surfaces in proportion to their surface charge and
 //! traced along the electric field of the potential samples.
 //!
-//! Construction: just outside every conductor outline the normal field E_n (proportional to
-//! the surface charge density, sigma = eps E_n) is integrated along the outline; the lines are
+//! Construction: just outside every conductor outline the surface charge density
+//! sigma = eps0 eps_r E_n (the normal field times the permittivity there, when it is given) is
+//! integrated along the outline; the lines are
 //! spread so that each carries the same share of that flux (Faraday's picture: line density
 //! follows charge). Lines start on the positive charge, unless the negative carries more than
 //! twice the flux (a design driven negative), and run along E (or against it, for negative
@@ -25,6 +26,8 @@ pub struct Potential<'a> {
     k: [f64; 2],
     /// Field (pixel measure) below which a point counts as field-free: 1e-9 of the typical.
     floor: f64,
+    /// Relative permittivity at pixel centres, if known (otherwise 1 everywhere).
+    eps: Option<&'a Samples>,
 }
 
 impl<'a> Potential<'a> {
@@ -37,7 +40,42 @@ impl<'a> Potential<'a> {
                     (a.min(v), b.max(v))
                 });
         let floor = 1e-9 * (span.1 - span.0).abs() * k[0].max(k[1]) / (s.w + s.h) as f64;
-        Potential { s, k, floor }
+        Potential {
+            s,
+            k,
+            floor,
+            eps: None,
+        }
+    }
+
+    /// The same with the relative permittivity at pixel centres, so that seeds follow the
+    /// surface charge eps0 eps_r E_n rather than E_n alone.
+    pub fn with_permittivity(self, eps: &'a Samples) -> Potential<'a> {
+        assert_eq!(
+            (eps.w, eps.h),
+            (self.s.w, self.s.h),
+            "permittivity on the same raster"
+        );
+        Potential {
+            eps: Some(eps),
+            ..self
+        }
+    }
+
+    fn permittivity(&self, p: P) -> f64 {
+        match self.eps {
+            None => 1.0,
+            Some(e) => {
+                let x = (p[0].max(0.0) as usize).min(e.w - 1);
+                let y = (p[1].max(0.0) as usize).min(e.h - 1);
+                let v = e.at(x, y);
+                if v.is_finite() && v > 0.0 {
+                    v
+                } else {
+                    1.0
+                }
+            }
+        }
     }
 
     /// Gradient of the bilinear potential in pixel coordinates, volts per pixel.
@@ -134,53 +172,59 @@ pub fn seeds(
 ) -> Vec<Seed> {
     // (seed point, signed flux through this piece)
     let mut pieces: Vec<(P, f64)> = Vec::new();
-    let mut walk = |path: &[P], closed: bool, both_sides: bool| {
+    // A closed ring seeds on its outer side only (the side away from the conductor); an open
+    // line (a thin conductor) on both.
+    let mut walk = |path: &[P], closed: bool| {
         let n = path.len();
         let segs = if closed { n } else { n.saturating_sub(1) };
-        for k in 0..segs {
-            let (a, b) = (path[k], path[(k + 1) % n]);
-            let len = (b[0] - a[0]).hypot(b[1] - a[1]);
-            if len == 0.0 {
-                continue;
-            }
-            let t = [(b[0] - a[0]) / len, (b[1] - a[1]) / len];
-            let steps = len.ceil() as usize;
-            for s in 0..steps {
-                let f = (s as f64 + 0.5) / steps as f64;
-                let m = [a[0] + (b[0] - a[0]) * f, a[1] + (b[1] - a[1]) * f];
-                for side in [1.0, -1.0] {
-                    let nrm = [side * t[1], -side * t[0]];
-                    let q = [m[0] + offset * nrm[0], m[1] + offset * nrm[1]];
-                    if inside(q)
-                        || (!both_sides
-                            && inside([m[0] - offset * nrm[0], m[1] - offset * nrm[1]])
-                                == inside(q))
+        // One side at a time, so that seeds spaced along the cumulative flux are not drawn
+        // to one side by the order in which the two sides' pieces would interleave.
+        for side in [1.0, -1.0] {
+            for k in 0..segs {
+                let (a, b) = (path[k], path[(k + 1) % n]);
+                let len = (b[0] - a[0]).hypot(b[1] - a[1]);
+                if len == 0.0 {
+                    continue;
+                }
+                let t = [(b[0] - a[0]) / len, (b[1] - a[1]) / len];
+                let steps = len.ceil() as usize;
+                for s in 0..steps {
+                    let f = (s as f64 + 0.5) / steps as f64;
+                    let m = [a[0] + (b[0] - a[0]) * f, a[1] + (b[1] - a[1]) * f];
                     {
-                        continue;
-                    }
-                    // Physical piece: tangent (tX / kx, -tY / ky) per pixel, normal outward.
-                    let tp = [t[0] / pot.k[0], -t[1] / pot.k[1]];
-                    let ds = tp[0].hypot(tp[1]) * len / steps as f64;
-                    let mut np = [tp[1], -tp[0]];
-                    let out = [nrm[0] / pot.k[0], -nrm[1] / pot.k[1]];
-                    if np[0] * out[0] + np[1] * out[1] < 0.0 {
-                        np = [-np[0], -np[1]];
-                    }
-                    let nl = np[0].hypot(np[1]);
-                    let e = pot.field(q);
-                    let flux = (e[0] * np[0] + e[1] * np[1]) / nl * ds;
-                    if flux.is_finite() {
-                        pieces.push((q, flux));
+                        let nrm = [side * t[1], -side * t[0]];
+                        let q = [m[0] + offset * nrm[0], m[1] + offset * nrm[1]];
+                        if inside(q)
+                            || (closed
+                                && inside([m[0] - offset * nrm[0], m[1] - offset * nrm[1]])
+                                    == inside(q))
+                        {
+                            continue;
+                        }
+                        // Physical piece: tangent (tX / kx, -tY / ky) per pixel, normal outward.
+                        let tp = [t[0] / pot.k[0], -t[1] / pot.k[1]];
+                        let ds = tp[0].hypot(tp[1]) * len / steps as f64;
+                        let mut np = [tp[1], -tp[0]];
+                        let out = [nrm[0] / pot.k[0], -nrm[1] / pot.k[1]];
+                        if np[0] * out[0] + np[1] * out[1] < 0.0 {
+                            np = [-np[0], -np[1]];
+                        }
+                        let nl = np[0].hypot(np[1]);
+                        let e = pot.field(q);
+                        let flux = pot.permittivity(q) * (e[0] * np[0] + e[1] * np[1]) / nl * ds;
+                        if flux.is_finite() {
+                            pieces.push((q, flux));
+                        }
                     }
                 }
             }
         }
     };
     for r in rings {
-        walk(r, true, false);
+        walk(r, true);
     }
     for l in lines {
-        walk(l, false, true);
+        walk(l, false);
     }
     let pos: f64 = pieces.iter().map(|p| p.1.max(0.0)).sum();
     let neg: f64 = pieces.iter().map(|p| (-p.1).max(0.0)).sum();
@@ -359,5 +403,31 @@ mod tests {
         let end = *line.points.last().unwrap();
         assert!((end[0] - 50.3).abs() < 1.0, "{end:?}");
         assert!(line.points.len() < 90, "{} points", line.points.len());
+    }
+
+    #[test]
+    fn seeds_follow_charge_not_field_across_a_dielectric() {
+        // A thin conductor along y = 50 at 1 V between grounds at y = 0 and y = 100: the same
+        // |E_n| on both faces, but permittivity 4 below it, so four times the charge there
+        // (sigma = eps0 eps_r E_n, Gauss's law at a conductor surface).
+        let (w, h) = (100, 100);
+        let v = (0..w * h)
+            .map(|k| 1.0 - (((k / w) as f64 + 0.5) - 50.0).abs() / 50.0)
+            .collect();
+        let e = (0..w * h)
+            .map(|k| if (k / w) >= 50 { 4.0 } else { 1.0 })
+            .collect();
+        let (s, eps) = (Samples { w, h, v }, Samples { w, h, v: e });
+        let line = vec![[0.0, 50.0], [100.0, 50.0]];
+        let count = |pot: &Potential| {
+            let seeds = seeds(pot, &[], std::slice::from_ref(&line), 10, 2.5, &|_| false);
+            assert_eq!(seeds.len(), 10);
+            seeds.iter().filter(|s| s.at[1] > 50.0).count()
+        };
+        assert_eq!(count(&Potential::new(&s, [1.0, 1.0])), 5);
+        assert_eq!(
+            count(&Potential::new(&s, [1.0, 1.0]).with_permittivity(&eps)),
+            8
+        );
     }
 }

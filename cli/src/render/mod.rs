@@ -114,6 +114,9 @@ pub struct FieldLines<'a> {
     pub potential: &'a [f64],
     /// About how many lines (all conductors together).
     pub count: usize,
+    /// Relative permittivity per node, if the lines should follow the surface charge in
+    /// dielectrics too (otherwise they follow the normal field alone).
+    pub permittivity: Option<&'a [f64]>,
 }
 
 /// A field map to draw.
@@ -1120,7 +1123,15 @@ fn draw_field_lines(
         plot.w as f64 / (plot.xr[1] - plot.xr[0]),
         plot.h as f64 / (plot.yr[1] - plot.yr[0]),
     ];
+    let eps_samples = fl.permittivity.map(|e| {
+        assert_eq!(e.len(), grid.len(), "one permittivity per grid node");
+        sample::resample(grid, e, plot.xr, plot.yr, plot.w, plot.h)
+    });
     let pot = fieldlines::Potential::new(&filled, k);
+    let pot = match &eps_samples {
+        Some(e) => pot.with_permittivity(e),
+        None => pot,
+    };
     let (ox, oy) = (plot.x0 as f64, plot.y0 as f64);
     // A point counts as inside a conductor as soon as one of the four samples its field is
     // interpolated from is: the filled values there carry no normal field, and a line would

@@ -553,6 +553,7 @@ fn field_lines_leave_the_positive_wire_and_cross_equipotentials() {
         field_lines: Some(FieldLines {
             potential: &v,
             count: 24,
+            permittivity: None,
         }),
         ..MapInput::new(&g, &v)
     };
