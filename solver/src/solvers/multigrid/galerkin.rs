@@ -55,6 +55,10 @@ pub(super) fn coarse_operator(a: &impl Couplings, lw: &LineWeights) -> Level {
     level
 }
 
+/// Slot in `[diag, e, n, ne, nw, sink]` of the coarse offset (dx, dy), dx, dy in -1..=2, at
+/// index (dx + 1) + 4 (dy + 1).
+const SLOT: [usize; 16] = [5, 5, 5, 5, 5, 0, 1, 5, 4, 2, 3, 5, 5, 5, 5, 5];
+
 /// Computes padded row `jc` of the coarse operator into `out`; `rows` holds the rows of P
 /// of fine rows `r0..` (at least those within two rows of the coarse row's fine row).
 fn coarse_row<A: Couplings>(a: &A, rows: &[PRow], r0: usize, jc: usize, out: &mut [[Real; 5]]) {
@@ -68,7 +72,8 @@ fn coarse_row<A: Couplings>(a: &A, rows: &[PRow], r0: usize, jc: usize, out: &mu
             out[ic + 1] = [1.0, 0.0, 0.0, 0.0, 0.0];
             continue;
         }
-        let mut acc = [0.0f64; 5];
+        // Slots [diag, e, n, ne, nw] and a sink for the lower half.
+        let mut acc = [0.0f64; 6];
         for pj in fj.saturating_sub(1)..=(fj + 1).min(ny - 1) {
             for pi in fi.saturating_sub(1)..=(fi + 1).min(nx - 1) {
                 let pr = at(pi, pj);
@@ -80,40 +85,24 @@ fn coarse_row<A: Couplings>(a: &A, rows: &[PRow], r0: usize, jc: usize, out: &mu
                 if phi == 0.0 {
                     continue;
                 }
-                for &(di, dj) in A::OFFSETS {
-                    let (qi, qj) = (pi as isize + di, pj as isize + dj);
-                    if qi < 0 || qj < 0 || qi as usize >= nx || qj as usize >= ny {
-                        continue;
-                    }
-                    let apq = if di == 0 && dj == 0 {
-                        a.diag_at(pi, pj)
-                    } else {
-                        -a.coupling(pi, pj, di, dj)
-                    };
+                let arow = a.row(pi, pj);
+                for (o, &(di, dj)) in A::OFFSETS.iter().enumerate() {
+                    let apq = arow[o];
                     if apq == 0.0 {
                         continue;
                     }
-                    let qr = at(qi as usize, qj as usize);
-                    for (b, wrow) in qr.w.iter().enumerate() {
-                        for (aa, &w) in wrow.iter().enumerate() {
-                            if w == 0.0 {
-                                continue;
-                            }
-                            let dk = (
-                                (qr.base.0 + aa) as isize - ic as isize,
-                                (qr.base.1 + b) as isize - jc as isize,
-                            );
-                            let slot = match dk {
-                                (0, 0) => 0,
-                                (1, 0) => 1,
-                                (0, 1) => 2,
-                                (1, 1) => 3,
-                                (-1, 1) => 4,
-                                _ => continue,
-                            };
-                            acc[slot] += phi * apq * w;
-                        }
-                    }
+                    // A non-zero entry couples to a node inside the lattice.
+                    let qr = at((pi as isize + di) as usize, (pj as isize + dj) as usize);
+                    // The parents of q lie within one coarse index of (ic, jc).
+                    let ox = (qr.base.0 + 1).wrapping_sub(ic);
+                    let oy = (qr.base.1 + 1).wrapping_sub(jc);
+                    debug_assert!(ox <= 2 && oy <= 2);
+                    let k = ox + 4 * oy;
+                    let f = phi * apq;
+                    acc[SLOT[k]] += f * qr.w[0][0];
+                    acc[SLOT[k + 1]] += f * qr.w[0][1];
+                    acc[SLOT[k + 4]] += f * qr.w[1][0];
+                    acc[SLOT[k + 5]] += f * qr.w[1][1];
                 }
             }
         }

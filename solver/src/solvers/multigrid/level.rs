@@ -102,6 +102,17 @@ pub(super) trait Couplings: Sync {
     /// Coupling of (i, j) to (i + di, j + dj), di, dj in {-1, 0, 1}, not both 0; zero when
     /// the neighbour lies outside the lattice.
     fn coupling(&self, i: usize, j: usize, di: isize, dj: isize) -> f64;
+    /// Matrix entries of row (i, j) towards `OFFSETS` (diagonal first, then the negated
+    /// couplings), padded with zeros to nine.
+    #[inline]
+    fn row(&self, i: usize, j: usize) -> [f64; 9] {
+        let mut r = [0.0; 9];
+        r[0] = self.diag_at(i, j);
+        for (k, &(di, dj)) in Self::OFFSETS.iter().enumerate().skip(1) {
+            r[k] = -self.coupling(i, j, di, dj);
+        }
+        r
+    }
 }
 
 impl Couplings for Stencil5 {
