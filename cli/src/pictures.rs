@@ -2,7 +2,7 @@
 
 use crate::design_file::DesignSource;
 use crate::render::{
-    self, ContourStyle, LengthUnit, MapInput, Marker, Material, Outline, PreviewInput,
+    self, ContourStyle, FieldLines, LengthUnit, MapInput, Marker, Material, Outline, PreviewInput,
     RenderOptions, Scale,
 };
 use fieldgrid_solver::design::{Design, Mode};
@@ -78,6 +78,17 @@ pub fn field_maps(src: &DesignSource, sol: &Solution, log_field: bool) -> (RgbIm
     map.dielectrics = &dielectrics;
     map.markers = &markers;
     map.contours = ContourStyle::Auto;
+    let eps: Vec<f64> = sol
+        .raster
+        .material
+        .iter()
+        .map(|&m| fieldgrid_solver::raster::Raster::permittivity(design, m))
+        .collect();
+    map.field_lines = Some(FieldLines {
+        potential: &potential,
+        count: 24,
+        permittivity: Some(&eps),
+    });
     let pot_img = render::render_map(&map, &opts);
 
     let v: Vec<f64> = sol.conductors.iter().map(|c| c.potential).collect();
