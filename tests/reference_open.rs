@@ -11,14 +11,9 @@ const A: f64 = 0.5;
 const H: f64 = 1.5;
 
 /// A wire over a grounded bottom side, the other sides open `reach * H` beyond the wire.
-/// With `half`, only x >= 0 is modelled, with a symmetry side through the wire.
-fn wire_over_ground(reach: f64, cell: f64, half: bool) -> String {
+fn wire_over_ground(reach: f64, cell: f64) -> String {
     let w = reach * H;
-    let (x0, left) = if half {
-        (0.0, "symmetry")
-    } else {
-        (-w, "open")
-    };
+    let (x0, left) = (-w, "open");
     format!(
         r#"
 unit = "mm"
@@ -51,32 +46,23 @@ fn wire_over_ground_closed_form() -> f64 {
 #[test]
 fn wire_over_ground_plane_with_open_sides_matches_image_solution() {
     let want = wire_over_ground_closed_form();
-    let s = solve(&design(&wire_over_ground(2.0, 0.05, false)));
+    let s = solve(&design(&wire_over_ground(2.0, 0.05)));
     let got = s.capacitance.matrix[0][0];
     let err = rel_err(got, want);
     println!("wire over ground, open sides 2h away: C' = {got:.6e}, closed form {want:.6e}, error {err:.2e}");
     assert!(err < 1e-2, "error {err:e}");
-    // The half model with a symmetry side gives the same answer.
-    let half = solve(&design(&wire_over_ground(2.0, 0.05, true)));
-    let c_half = 2.0 * half.capacitance.matrix[0][0];
-    assert!(
-        rel_err(c_half, got) < 1e-3,
-        "half model {c_half:e} vs full {got:e}"
-    );
 }
 
 #[test]
 fn moving_open_sides_out_twice_changes_wire_capacitance_little() {
     // The far-field condition is exact for the field of the wire and its image (a dipole on
     // the plane), so the answer hardly depends on where the open sides are.
-    let near = 2.0
-        * solve(&design(&wire_over_ground(2.0, 0.05, true)))
-            .capacitance
-            .matrix[0][0];
-    let far = 2.0
-        * solve(&design(&wire_over_ground(4.0, 0.05, true)))
-            .capacitance
-            .matrix[0][0];
+    let near = solve(&design(&wire_over_ground(2.0, 0.05)))
+        .capacitance
+        .matrix[0][0];
+    let far = solve(&design(&wire_over_ground(4.0, 0.05)))
+        .capacitance
+        .matrix[0][0];
     let moved = rel_err(far, near);
     println!(
         "wire over ground: open sides 2h -> 4h away changes C' by {moved:.2e}; far error {:.2e}",
@@ -121,7 +107,9 @@ fn two_wire_line_in_open_space_matches_closed_form() {
     // Two parallel wires of radius a, centres D apart: C' = pi eps0 / acosh(D / (2a))
     // (Ramo, Whinnery & Van Duzer 1994, table of common transmission lines; from memory).
     let want = PI * EPS0 / (2.0 * H / (2.0 * A)).acosh();
-    let s = solve(&design(&two_wire_line(2.0, 0.05)));
+    // With no mirror side the far-field condition assumes a 1/r fall-off about the middle,
+    // exact along the pair's axis but not across it: the sides go 4 spacings out.
+    let s = solve(&design(&two_wire_line(4.0, 0.05)));
     // Charge on the +V/2 wire per volt between the wires.
     let got = s.conductors[0].charge / 1.0;
     let err = rel_err(got, want);
@@ -131,19 +119,24 @@ fn two_wire_line_in_open_space_matches_closed_form() {
     assert!(err < 1e-2, "error {err:e}");
     // Balanced: no net charge, so nothing at this operating point depends on the box; but
     // the matrix refers to infinity, which the study says.
-    assert!((s.conductors[0].charge + s.conductors[1].charge).abs() < 1e-6 * got);
+    // (To rounding of the mirrored outlines on the lattice: 2e-6 of the charge.)
+    let net = s.conductors[0].charge + s.conductors[1].charge;
+    assert!(net.abs() < 1e-4 * got, "net {net:e}");
     assert!(
         s.warnings.iter().any(|w| w.contains("refers to infinity")),
         "{:?}",
         s.warnings
     );
-    assert!(!s.warnings.iter().any(|w| w.contains("net charge")));
+    assert!(!s
+        .warnings
+        .iter()
+        .any(|w| w.contains("carries a net charge")));
 }
 
 #[test]
 fn open_sides_keep_gauss_law_over_the_box() {
     // The charge beyond the open sides balances the wire and the plane (Gauss's law).
-    let s = solve(&design(&wire_over_ground(2.0, 0.05, false)));
+    let s = solve(&design(&wire_over_ground(2.0, 0.05)));
     let total: f64 = s.side_charge.iter().sum::<f64>() + s.conductors[0].charge;
     assert!(total.abs() < 1e-8 * s.conductors[0].charge, "net {total:e}");
     // Sides: left, right, bottom, top; the open ones carry the charge at infinity beyond.
@@ -174,7 +167,9 @@ circle = { center = [0.0, 0.0], radius = 0.5 }
     let s = solve(&design(text));
     assert!(s.conductors[0].charge > 0.0);
     assert!(
-        s.warnings.iter().any(|w| w.contains("net charge")),
+        s.warnings
+            .iter()
+            .any(|w| w.contains("carries a net charge")),
         "{:?}",
         s.warnings
     );
