@@ -71,7 +71,8 @@ fn moving_open_sides_out_twice_changes_wire_capacitance_little() {
     assert!(moved < 5e-3, "moved {moved:e}");
 }
 
-/// Two wires of radius A with centres D = 2H apart, at +V/2 and -V/2, every side open.
+/// Two wires of radius A with centres D = 2H apart, at +V/2 and -V/2, every side open
+/// `reach * H` beyond the wires.
 fn two_wire_line(reach: f64, cell: f64) -> String {
     let w = H + reach * H;
     format!(
@@ -107,9 +108,9 @@ fn two_wire_line_in_open_space_matches_closed_form() {
     // Two parallel wires of radius a, centres D apart: C' = pi eps0 / acosh(D / (2a))
     // (Ramo, Whinnery & Van Duzer 1994, table of common transmission lines; from memory).
     let want = PI * EPS0 / (2.0 * H / (2.0 * A)).acosh();
-    // With no mirror side the far-field condition assumes a 1/r fall-off about the middle,
-    // exact along the pair's axis but not across it: the sides go 4 spacings out.
-    let s = solve(&design(&two_wire_line(4.0, 0.05)));
+    // With every side open the far-field condition is exact for a dipole of any direction,
+    // so the sides can be close: one wire spacing beyond the wires.
+    let s = solve(&design(&two_wire_line(2.0, 0.05)));
     // Charge on the +V/2 wire per volt between the wires.
     let got = s.conductors[0].charge / 1.0;
     let err = rel_err(got, want);
@@ -131,6 +132,15 @@ fn two_wire_line_in_open_space_matches_closed_form() {
         .warnings
         .iter()
         .any(|w| w.contains("carries a net charge")));
+    // Closer still, and twice as far.
+    for reach in [1.0, 4.0] {
+        let c = solve(&design(&two_wire_line(reach, 0.05))).conductors[0].charge;
+        println!(
+            "two-wire line, open sides {reach} x D/2 beyond the wires: error {:.2e}",
+            rel_err(c, want)
+        );
+        assert!(rel_err(c, got) < 5e-3, "reach {reach}: {c:e} vs {got:e}");
+    }
 }
 
 #[test]
@@ -197,4 +207,47 @@ amount = 1.0e-10
         study::run(&design(&closed), &p),
         Err(StudyError::Operator(_))
     ));
+}
+
+fn isolated_sphere(reach: f64) -> String {
+    // Sphere of radius 1 mm on the axis, the open sides `reach` mm from its centre.
+    format!(
+        r#"
+unit = "mm"
+mode = "axisymmetric"
+[grid]
+x = [0.0, {reach}]
+y = [-{reach}, {reach}]
+cell = 0.05
+[sides]
+right = "open"
+top = "open"
+bottom = "open"
+[[conductor]]
+name = "ball"
+potential = 1.0
+circle = {{ center = [0.0, 0.0], radius = 1.0 }}
+"#
+    )
+}
+
+#[test]
+fn isolated_sphere_with_open_sides_matches_capacitance_to_infinity() {
+    // Isolated sphere of radius a: C = 4 pi eps0 a (Griffiths 2017, sec. 2.5.4, the
+    // spherical capacitor with the outer radius at infinity). In a body of revolution the
+    // far field of a net charge falls off as 1/r, which the open condition takes exactly.
+    let want = 4.0 * PI * EPS0 * 1e-3;
+    let near = solve(&design(&isolated_sphere(3.0))).capacitance.matrix[0][0];
+    let far = solve(&design(&isolated_sphere(6.0))).capacitance.matrix[0][0];
+    let (err, moved) = (rel_err(near, want), rel_err(far, near));
+    println!(
+        "isolated sphere, open sides 3 radii away: C = {near:.6e} F, closed form {want:.6e} F, \
+         error {err:.2e}; 6 radii: error {:.2e}",
+        rel_err(far, want)
+    );
+    assert!(err < 1e-2, "error {err:e}");
+    assert!(
+        moved < 5e-3,
+        "moving the open sides out changed C by {moved:e}"
+    );
 }

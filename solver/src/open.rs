@@ -19,6 +19,13 @@
 //! beyond it, minus the flux that leaves through it) and Gauss's law over the box keeps
 //! holding. The same links make a region touching an open side anchored.
 //!
+//! Which far field: the lowest harmonic the mirror sides allow (see [`far_field`]); where a
+//! planar design is open on all four sides the dipole's direction is not known, and each side
+//! instead takes a condition with a tangential term, `d(phi)/dn + kappa phi -
+//! d/dt(beta d(phi)/dt) = 0`, exact for 2-D dipoles of every direction (see
+//! [`tangential_couplings`]); its tangential term is a symmetric coupling between neighbouring
+//! boundary nodes, so the operator stays symmetric and definite there too.
+//!
 //! The centre: the middle of the bounding box of the conductors and charges. Along an axis
 //! with one open side and a mirror opposite (ground, fixed, symmetry or the axis), the centre
 //! moves onto the mirror: the images there (odd in a grounded plane, even in a symmetry
@@ -53,6 +60,10 @@ pub struct FarField {
     pub odd: [bool; 2],
     /// Decay exponent of |r| in the model's denominator.
     pub m: f64,
+    /// Planar design open on all four sides: the far field is a dipole of unknown direction,
+    /// and each side takes the condition with a tangential term that is exact for every
+    /// direction (see [`tangential_couplings`]) instead of the radial model.
+    pub any_direction: bool,
 }
 
 /// How a pair of opposite sides constrains the far field along their axis.
@@ -104,7 +115,15 @@ pub fn far_field(design: &Design) -> FarField {
             _ => ([false, false], 1.0),
         }
     };
-    FarField { centre, odd, m }
+    let all_open = [s.left, s.right, s.bottom, s.top]
+        .iter()
+        .all(|&side| side == Side::Open);
+    FarField {
+        centre,
+        odd,
+        m,
+        any_direction: design.mode == Mode::Planar && all_open,
+    }
 }
 
 /// The far-field centre of a design, m: the middle of the bounding box of the conductors and
@@ -221,7 +240,13 @@ pub fn links(
             return;
         }
         let dir = outward(s);
-        let kappa = model.coefficient([grid.x(i), grid.y(j)], dir.unit());
+        let at = [grid.x(i), grid.y(j)];
+        let kappa = if model.any_direction {
+            let side = SideLine::new(grid, model.centre, s);
+            side.kappa(side.tangent(at))
+        } else {
+            model.coefficient(at, dir.unit())
+        };
         if kappa <= 0.0 {
             return;
         }
@@ -252,6 +277,116 @@ pub fn links(
             }
             if i + 1 == nx {
                 face(SideId::Right, i, j);
+            }
+        }
+    }
+    out
+}
+
+/// One straight open side seen from the far-field centre, for the condition exact for
+/// 2-D dipoles of every direction:
+///
+/// `d(phi)/dn + kappa phi - d/dt (beta d(phi)/dt) = 0`,
+/// `beta = r^2 (1 - 2 c r^2) / (2 d)`, `kappa = 2 c r^2 / d`,
+///
+/// with `d` the distance from the centre to the side's line, `t` the coordinate along it
+/// (0 at the foot of the perpendicular), `r^2 = d^2 + t^2`. Both `x/r^2` and `y/r^2` satisfy
+/// it for any constant `c` (direct substitution); `c = 1 / (2 r_max^2)`, with `r_max` the
+/// distance to the side's farther corner, keeps `beta >= 0` on the side and makes it vanish
+/// at that corner, and `kappa > 0` anchors the potential. The conservative form of the
+/// tangential term makes it a symmetric, non-negative coupling between neighbouring
+/// boundary nodes.
+struct SideLine {
+    /// Distance from the centre to the side's line, m.
+    d: f64,
+    /// The centre's coordinate along the side, m.
+    t0: f64,
+    /// Along x (bottom, top) rather than y.
+    along_x: bool,
+    /// `2 c = 1 / r_max^2`, 1/m^2.
+    two_c: f64,
+}
+
+impl SideLine {
+    fn new(grid: &Grid, centre: Point, s: SideId) -> SideLine {
+        let (x1, y1) = (grid.x1(), grid.y1());
+        let (d, t0, ends, along_x) = match s {
+            SideId::Left => (centre[0] - grid.x0, centre[1], [grid.y0, y1], false),
+            SideId::Right => (x1 - centre[0], centre[1], [grid.y0, y1], false),
+            SideId::Bottom => (centre[1] - grid.y0, centre[0], [grid.x0, x1], true),
+            SideId::Top => (y1 - centre[1], centre[0], [grid.x0, x1], true),
+        };
+        let d = d.abs();
+        let far = (ends[0] - t0).abs().max((ends[1] - t0).abs());
+        SideLine {
+            d,
+            t0,
+            along_x,
+            two_c: 1.0 / (d * d + far * far),
+        }
+    }
+
+    /// Coordinate along the side of a point on it, relative to the centre's foot, m.
+    fn tangent(&self, at: Point) -> f64 {
+        (if self.along_x { at[0] } else { at[1] }) - self.t0
+    }
+
+    fn r2(&self, t: f64) -> f64 {
+        self.d * self.d + t * t
+    }
+
+    fn kappa(&self, t: f64) -> f64 {
+        if self.d > 0.0 {
+            self.two_c * self.r2(t) / self.d
+        } else {
+            0.0
+        }
+    }
+
+    fn beta(&self, t: f64) -> f64 {
+        if self.d > 0.0 {
+            let r2 = self.r2(t);
+            (r2 * (1.0 - self.two_c * r2) / (2.0 * self.d)).max(0.0)
+        } else {
+            0.0
+        }
+    }
+}
+
+/// The tangential couplings of the any-direction far-field condition (planar designs open on
+/// every side): `(p, q, weight)` for neighbouring unknown nodes p < q on an open side, with
+/// weight `eps * beta(t_mid) / h_t` (dimensionless, like the operator's planar weights), where
+/// `eps(p, q)` is the relative permittivity between the two nodes. Empty for other models.
+pub fn tangential_couplings(
+    grid: &Grid,
+    model: &FarField,
+    unknown: &[bool],
+    eps: impl Fn(usize, usize) -> f64,
+) -> Vec<(usize, usize, f64)> {
+    let mut out = Vec::new();
+    if !model.any_direction {
+        return out;
+    }
+    let (nx, ny) = (grid.nx, grid.ny);
+    for s in SideId::ALL {
+        let line = SideLine::new(grid, model.centre, s);
+        let nodes: Vec<usize> = match s {
+            SideId::Left => (0..ny).map(|j| grid.idx(0, j)).collect(),
+            SideId::Right => (0..ny).map(|j| grid.idx(nx - 1, j)).collect(),
+            SideId::Bottom => (0..nx).map(|i| grid.idx(i, 0)).collect(),
+            SideId::Top => (0..nx).map(|i| grid.idx(i, ny - 1)).collect(),
+        };
+        let h = if line.along_x { grid.hx } else { grid.hy };
+        for w in nodes.windows(2) {
+            let (p, q) = (w[0], w[1]);
+            if !(unknown[p] && unknown[q]) {
+                continue;
+            }
+            let at = |n: usize| [grid.x(n % nx), grid.y(n / nx)];
+            let t = 0.5 * (line.tangent(at(p)) + line.tangent(at(q)));
+            let weight = eps(p, q) * line.beta(t) / h;
+            if weight > 0.0 {
+                out.push((p, q, weight));
             }
         }
     }
@@ -514,7 +649,12 @@ mod tests {
             ([false, true], 3.0),
         ];
         for (odd, m) in models {
-            let f = FarField { centre: c, odd, m };
+            let f = FarField {
+                centre: c,
+                odd,
+                m,
+                any_direction: false,
+            };
             let phi = |p: Point| {
                 let r = [p[0] - c[0], p[1] - c[1]];
                 let mut v = (r[0] * r[0] + r[1] * r[1]).powf(-0.5 * m);
@@ -550,8 +690,46 @@ mod tests {
             centre: c,
             odd: [false; 2],
             m: 1.0,
+            any_direction: false,
         };
         assert_eq!(radial.coefficient([2.0, 1.1], [-1.0, 0.0]), 0.0);
         assert_eq!(radial.coefficient(c, [1.0, 0.0]), 0.0);
+    }
+
+    #[test]
+    fn any_direction_condition_is_exact_for_dipoles_of_every_direction() {
+        // d(phi)/dn + kappa phi - d/dt(beta d(phi)/dt) = 0 on the right side of a box for
+        // phi = x/r^2 and y/r^2 about the centre, checked by central differences.
+        let grid = Grid::fit([-1.0, 3.0], [-2.0, 1.5], 0.5).unwrap();
+        let c = [0.2, -0.1];
+        let line = SideLine::new(&grid, c, SideId::Right);
+        let x = grid.x1();
+        for phi in [
+            Box::new(move |p: Point| {
+                (p[0] - c[0]) / ((p[0] - c[0]).powi(2) + (p[1] - c[1]).powi(2))
+            }) as Box<dyn Fn(Point) -> f64>,
+            Box::new(move |p: Point| {
+                (p[1] - c[1]) / ((p[0] - c[0]).powi(2) + (p[1] - c[1]).powi(2))
+            }),
+        ] {
+            for y in [-1.7, -0.4, 0.3, 1.2] {
+                let d = 1e-4;
+                let dn = (phi([x + d, y]) - phi([x - d, y])) / (2.0 * d);
+                let flux = |y: f64| {
+                    let t = line.tangent([x, y]);
+                    line.beta(t) * (phi([x, y + d]) - phi([x, y - d])) / (2.0 * d)
+                };
+                let dt = (flux(y + d) - flux(y - d)) / (2.0 * d);
+                let k = line.kappa(line.tangent([x, y]));
+                let residual = dn + k * phi([x, y]) - dt;
+                assert!(
+                    residual.abs() < 1e-5 * dn.abs().max(1e-3),
+                    "y {y}: {residual:e} vs {dn:e}"
+                );
+            }
+        }
+        // beta vanishes at the side's farther corner and is positive inside.
+        assert!(line.beta(line.tangent([x, grid.y0])).abs() < 1e-12);
+        assert!(line.beta(line.tangent([x, 0.0])) > 0.0);
     }
 }

@@ -469,6 +469,17 @@ pub fn assemble(design: &Design, raster: &Raster) -> Result<Operator, OperatorEr
             diag[l.node as usize] += l.weight;
         }
         links.extend(robin);
+        let eps = |p: usize| Raster::permittivity(design, raster.material[p]);
+        let pair_eps = |p: usize, q: usize| 2.0 * eps(p) * eps(q) / (eps(p) + eps(q));
+        for (p, q, w) in open::tangential_couplings(&grid, &model, &unknown, pair_eps) {
+            diag[p] += w;
+            diag[q] += w;
+            if q == p + 1 {
+                east[p] += w;
+            } else {
+                north[p] += w;
+            }
+        }
     }
     links.sort_by_key(|l| (l.node, l.dir));
 
