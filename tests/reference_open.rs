@@ -3,7 +3,7 @@
 
 use fieldgrid_solver::study::{self, StudyError};
 use fieldgrid_solver::EPS0;
-use fieldgrid_tests::{design, params, rel_err, solve};
+use fieldgrid_tests::{design, params, rel_err, solve, solve_every_method};
 use std::f64::consts::PI;
 
 /// Wire radius and height of its centre above the ground plane, mm.
@@ -250,4 +250,12 @@ fn isolated_sphere_with_open_sides_matches_capacitance_to_infinity() {
         moved < 5e-3,
         "moving the open sides out changed C by {moved:e}"
     );
+}
+
+#[test]
+fn every_solver_agrees_with_open_sides() {
+    // The far-field terms are part of the one operator every solver sees.
+    for text in [wire_over_ground(1.0, 0.1), two_wire_line(1.0, 0.1)] {
+        solve_every_method(&design(&text), 1e-7);
+    }
 }
