@@ -1,14 +1,16 @@
 //! Benchmark problems for the solvers, and a plain binary format to hand the same matrices to
 //! outside solvers (see `benches/README.md`).
 //!
-//! Until the design -> raster -> operator pipeline is in place, the benchmark problem of issue
-//! 3 is built here by a staircase builder: nodes inside a conductor rectangle (or on the
-//! grounded sides) are fixed; every cell has the permittivity of its centre, and the coupling
-//! across a dual face is the face-length-weighted mean of the two cells it crosses, times
-//! EPS0 (the finite-volume five-point operator in SI units).
+//! The benchmark problem of issue 3 is the design file `problem.toml`, taken through the real
+//! pipeline (design reader -> grid -> rasteriser -> operator) by [`issue3`]. [`issue3_staircase`]
+//! builds a comparable operator by hand (nodes inside a conductor rectangle or on the grounded
+//! sides fixed, each cell with the permittivity of its centre, the coupling across a dual face
+//! the face-length-weighted mean of the two cells it crosses, times EPS0), which needs no
+//! rasteriser and serves as a cross-check.
 
+use fieldgrid_solver::grid::Grid;
 use fieldgrid_solver::stencil::Stencil5;
-use fieldgrid_solver::EPS0;
+use fieldgrid_solver::{operator, raster, EPS0};
 use std::io::Write;
 
 /// An operator with the right-hand sides of its unit-potential solves.
@@ -18,7 +20,7 @@ pub struct Problem {
     /// One right-hand side per conductor: that conductor at 1 V, everything else at 0 V.
     pub rhs: Vec<Vec<f64>>,
     /// Conductor names, in `rhs` order.
-    pub names: Vec<&'static str>,
+    pub names: Vec<String>,
 }
 
 /// A conductor rectangle `[x0, x1] x [y0, y1]` in units of the domain side.
@@ -28,9 +30,42 @@ struct Rect {
     y: [f64; 2],
 }
 
-/// The benchmark problem of issue 3 on the unit square with cell 1/n: grounded sides,
-/// relative permittivity 4.4 below y = 0.5 and 1 above, conductors `a`, `b` and `pad`.
+/// The design file of the benchmark problem.
+pub const PROBLEM_TOML: &str = include_str!("problem.toml");
+
+/// The benchmark problem of issue 3 (`problem.toml`) with cell 1/n, through the design
+/// reader, rasteriser and operator assembly; one right-hand side per conductor at 1 V.
 pub fn issue3(n: usize) -> Problem {
+    let src = fieldgrid_cli::design_file::read_design(
+        PROBLEM_TOML,
+        "problem.toml",
+        &[("n".to_string(), n as f64)],
+    )
+    .expect("benchmark design is valid");
+    let d = &src.design;
+    let grid = Grid::fit(d.domain.x, d.domain.y, d.domain.cell).expect("benchmark grid");
+    let raster = raster::rasterize(d, &grid);
+    let op = operator::assemble(d, &raster).expect("benchmark operator");
+    let nc = d.conductors.len();
+    let rhs = (0..nc)
+        .map(|k| {
+            let mut unit = vec![0.0; nc];
+            unit[k] = 1.0;
+            op.rhs(&op.target_values(&unit, false), false)
+        })
+        .collect();
+    let names = d.conductors.iter().map(|c| c.name.clone()).collect();
+    Problem {
+        stencil: op.stencil,
+        rhs,
+        names,
+    }
+}
+
+/// The benchmark problem of issue 3 on the unit square with cell 1/n: grounded sides,
+/// relative permittivity 4.4 below y = 0.5 and 1 above, conductors `a`, `b` and `pad`, built
+/// by the staircase builder.
+pub fn issue3_staircase(n: usize) -> Problem {
     let conductors = [
         Rect {
             name: "a",
@@ -125,7 +160,7 @@ fn staircase(n: usize, conductors: &[Rect], eps: impl Fn(f64, f64) -> f64) -> Pr
     Problem {
         stencil: s,
         rhs,
-        names: conductors.iter().map(|r| r.name).collect(),
+        names: conductors.iter().map(|r| r.name.to_string()).collect(),
     }
 }
 
@@ -162,8 +197,20 @@ mod tests {
     use super::*;
 
     #[test]
-    fn issue3_problem_has_three_conductors_and_a_symmetric_operator() {
+    fn pipeline_problem_has_three_conductors_and_the_lattice_of_cell_one_over_n() {
         let p = issue3(40);
+        assert_eq!(p.names, ["a", "b", "pad"]);
+        assert_eq!((p.stencil.nx, p.stencil.ny), (41, 41));
+        // Conductor a covers x 0.30..0.45, y 0.55..0.60: node (15, 23) is inside it.
+        assert!(!p.stencil.unknown[15 + 23 * 41] && p.stencil.unknown[15 + 30 * 41]);
+        for b in &p.rhs {
+            assert!(b.iter().any(|&v| v != 0.0));
+        }
+    }
+
+    #[test]
+    fn staircase_problem_has_three_conductors_and_a_symmetric_operator() {
+        let p = issue3_staircase(40);
         assert_eq!(p.names, ["a", "b", "pad"]);
         let s = &p.stencil;
         // Conductor a covers x 0.30..0.45 (nodes 12..18), y 0.55..0.60 (22..24).
