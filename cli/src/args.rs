@@ -79,6 +79,10 @@ pub struct SolveArgs {
     /// Also write the full-grid table `field.csv` (one row per node).
     #[arg(long)]
     pub field_table: bool,
+    /// Also write `field.vti` (VTK image data: potential, field, permittivity, conductor
+    /// index per node) for general-purpose 3-D viewers.
+    #[arg(long)]
+    pub vtk: bool,
     /// Draw field.png on a logarithmic scale.
     #[arg(long)]
     pub log_field: bool,

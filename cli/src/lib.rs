@@ -13,6 +13,7 @@ pub mod pictures;
 pub mod render;
 pub mod spice;
 pub mod summary;
+pub mod vtk;
 
 use clap::Parser;
 use std::ffi::OsString;

@@ -36,6 +36,11 @@ pub fn run(args: &SolveArgs) -> Result<u8, Failure> {
     }
     let summary = Summary::from_solution(&sol, src.design.depth, seconds, &src.text_hash);
     write_results(&out, &sol, &summary, &src.design, args.field_table)?;
+    if args.vtk {
+        let bytes = crate::vtk::vti_bytes(&sol, &src.design)
+            .map_err(|e| Failure::io("encoding field.vti", e))?;
+        out.write("field.vti", &bytes)?;
+    }
     let (potential_png, field_png) = crate::pictures::field_maps(&src, &sol, args.log_field);
     out.write_png("potential.png", &potential_png)?;
     out.write_png("field.png", &field_png)?;

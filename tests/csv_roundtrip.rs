@@ -1,0 +1,151 @@
+//! Every CSV of a solve reads back with the `csv` crate's default reader: a header row that
+//! names units, the same number of fields on every row, numbers that parse.
+
+use std::path::PathBuf;
+use std::process::ExitCode;
+
+fn scratch(name: &str) -> PathBuf {
+    let d = std::env::temp_dir().join(format!("fieldgrid-csv-{}-{name}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&d);
+    std::fs::create_dir_all(&d).unwrap();
+    d
+}
+
+// A strip over a dielectric layer with a strength, so every table has rows.
+const STRIP: &str = r#"
+unit = "mm"
+[grid]
+x = [0.0, 4.0]
+y = [0.0, 2.0]
+cell = 0.1
+[sides]
+left = "symmetry"
+right = "symmetry"
+top = "open"
+[background]
+strength = 3.0e6
+[[dielectric]]
+name = "board"
+permittivity = 4.0
+strength = 2.0e7
+rect = { x = [0.0, 4.0], y = [0.0, 0.5] }
+[[conductor]]
+name = "strip"
+potential = 1.0
+rect = { x = [1.5, 2.5], y = [0.5, 0.6] }
+"#;
+
+/// Reads a CSV with default options; returns the header and the rows.
+fn read(path: &std::path::Path) -> (Vec<String>, Vec<csv::StringRecord>) {
+    let mut r = csv::Reader::from_path(path).unwrap_or_else(|e| panic!("{path:?}: {e}"));
+    let header: Vec<String> = r.headers().unwrap().iter().map(String::from).collect();
+    let rows: Vec<_> = r
+        .records()
+        .map(|x| x.unwrap_or_else(|e| panic!("{path:?}: {e}")))
+        .collect();
+    (header, rows)
+}
+
+fn column(header: &[String], name: &str) -> usize {
+    header
+        .iter()
+        .position(|h| h == name)
+        .unwrap_or_else(|| panic!("no column {name:?} in {header:?}"))
+}
+
+/// Each listed column parses as a finite number on every row.
+fn numeric(file: &str, header: &[String], rows: &[csv::StringRecord], cols: &[&str]) {
+    for c in cols {
+        let k = column(header, c);
+        for (n, row) in rows.iter().enumerate() {
+            let v: f64 = row[k]
+                .parse()
+                .unwrap_or_else(|e| panic!("{file} row {n} {c}: {:?}: {e}", &row[k]));
+            assert!(v.is_finite(), "{file} row {n} {c} = {v}");
+        }
+    }
+}
+
+#[test]
+fn every_csv_reads_back_with_default_options() {
+    let dir = scratch("strip");
+    let design = dir.join("strip.toml");
+    std::fs::write(&design, STRIP).unwrap();
+    let out = dir.join("out");
+    let code = fieldgrid_cli::main_with_args([
+        "fieldgrid",
+        "solve",
+        design.to_str().unwrap(),
+        "--out",
+        out.to_str().unwrap(),
+        "--quiet",
+        "--field-table",
+    ]);
+    assert_eq!(format!("{code:?}"), format!("{:?}", ExitCode::from(0)));
+
+    let (h, rows) = read(&out.join("capacitance.csv"));
+    assert_eq!(h[0], "conductor");
+    assert_eq!(rows.len(), 1);
+    assert_eq!(&rows[0][0], "strip");
+    let cap_col = &h[1];
+    assert!(cap_col.starts_with("strip (") && cap_col.ends_with(')'), "{h:?}");
+    numeric("capacitance.csv", &h, &rows, &[cap_col.as_str()]);
+    let c: f64 = rows[0][1].parse().unwrap();
+    assert!(c > 0.0, "self capacitance {c}");
+
+    let (h, rows) = read(&out.join("hotspots.csv"));
+    assert!(!rows.is_empty());
+    numeric(
+        "hotspots.csv",
+        &h,
+        &rows,
+        &["rank", "x (m)", "y (m)", "field (V/m)", "strength (V/m)", "margin"],
+    );
+    let singular = column(&h, "singular");
+    assert!(rows
+        .iter()
+        .all(|r| r[singular].parse::<bool>().is_ok()));
+
+    let (h, rows) = read(&out.join("surface_charge.csv"));
+    assert!(!rows.is_empty());
+    numeric(
+        "surface_charge.csv",
+        &h,
+        &rows,
+        &["x (m)", "y (m)", "surface charge (C/m^2)", "field (V/m)"],
+    );
+    assert!(rows.iter().all(|r| &r[0] == "strip"));
+
+    let (h, rows) = read(&out.join("field.csv"));
+    // 41 x 21 nodes, one row each.
+    assert_eq!(rows.len(), 41 * 21);
+    numeric(
+        "field.csv",
+        &h,
+        &rows,
+        &[
+            "x (m)",
+            "y (m)",
+            "potential (V)",
+            "Ex (V/m)",
+            "Ey (V/m)",
+            "|E| (V/m)",
+        ],
+    );
+    // Every header names its unit (or is a name, a count, a ratio or a flag).
+    for file in [
+        "capacitance.csv",
+        "hotspots.csv",
+        "surface_charge.csv",
+        "field.csv",
+    ] {
+        let (h, _) = read(&out.join(file));
+        for name in &h {
+            let unitless = ["conductor", "rank", "material", "margin", "singular", "note"];
+            assert!(
+                unitless.contains(&name.as_str()) || (name.contains('(') && name.ends_with(')')),
+                "{file}: column {name:?} names no unit"
+            );
+        }
+    }
+}
