@@ -88,7 +88,10 @@ fn every_csv_reads_back_with_default_options() {
     assert_eq!(rows.len(), 1);
     assert_eq!(&rows[0][0], "strip");
     let cap_col = &h[1];
-    assert!(cap_col.starts_with("strip (") && cap_col.ends_with(')'), "{h:?}");
+    assert!(
+        cap_col.starts_with("strip (") && cap_col.ends_with(')'),
+        "{h:?}"
+    );
     numeric("capacitance.csv", &h, &rows, &[cap_col.as_str()]);
     let c: f64 = rows[0][1].parse().unwrap();
     assert!(c > 0.0, "self capacitance {c}");
@@ -99,12 +102,17 @@ fn every_csv_reads_back_with_default_options() {
         "hotspots.csv",
         &h,
         &rows,
-        &["rank", "x (m)", "y (m)", "field (V/m)", "strength (V/m)", "margin"],
+        &[
+            "rank",
+            "x (m)",
+            "y (m)",
+            "field (V/m)",
+            "strength (V/m)",
+            "margin",
+        ],
     );
     let singular = column(&h, "singular");
-    assert!(rows
-        .iter()
-        .all(|r| r[singular].parse::<bool>().is_ok()));
+    assert!(rows.iter().all(|r| r[singular].parse::<bool>().is_ok()));
 
     let (h, rows) = read(&out.join("surface_charge.csv"));
     assert!(!rows.is_empty());
@@ -119,19 +127,32 @@ fn every_csv_reads_back_with_default_options() {
     let (h, rows) = read(&out.join("field.csv"));
     // 41 x 21 nodes, one row each.
     assert_eq!(rows.len(), 41 * 21);
+    numeric("field.csv", &h, &rows, &["x (m)", "y (m)", "potential (V)"]);
+    // The field is left empty (a missing value to dataframe readers) only where it is not
+    // defined: at nodes held at a fixed potential, inside the strip (x in [1.5, 2.5] mm,
+    // y in [0.5, 0.6] mm) or on the grounded bottom side (y = 0).
+    let (x, y) = (column(&h, "x (m)"), column(&h, "y (m)"));
+    let (defined, undefined): (Vec<_>, Vec<_>) = rows
+        .iter()
+        .cloned()
+        .partition(|r| !r[column(&h, "Ex (V/m)")].is_empty());
     numeric(
         "field.csv",
         &h,
-        &rows,
-        &[
-            "x (m)",
-            "y (m)",
-            "potential (V)",
-            "Ex (V/m)",
-            "Ey (V/m)",
-            "|E| (V/m)",
-        ],
+        &defined,
+        &["Ex (V/m)", "Ey (V/m)", "|E| (V/m)"],
     );
+    assert!(defined.len() > 41 * 21 / 2);
+    for r in &undefined {
+        let (x, y): (f64, f64) = (r[x].parse().unwrap(), r[y].parse().unwrap());
+        assert!(
+            y == 0.0
+                || ((1.5e-3 - 1e-9..=2.5e-3 + 1e-9).contains(&x)
+                    && (0.5e-3 - 1e-9..=0.6e-3 + 1e-9).contains(&y)),
+            "field missing at ({x}, {y}), outside the conductor"
+        );
+        assert!(r.iter().skip(3).all(str::is_empty), "{r:?}");
+    }
     // Every header names its unit (or is a name, a count, a ratio or a flag).
     for file in [
         "capacitance.csv",
@@ -141,7 +162,14 @@ fn every_csv_reads_back_with_default_options() {
     ] {
         let (h, _) = read(&out.join(file));
         for name in &h {
-            let unitless = ["conductor", "rank", "material", "margin", "singular", "note"];
+            let unitless = [
+                "conductor",
+                "rank",
+                "material",
+                "margin",
+                "singular",
+                "note",
+            ];
             assert!(
                 unitless.contains(&name.as_str()) || (name.contains('(') && name.ends_with(')')),
                 "{file}: column {name:?} names no unit"
