@@ -13,6 +13,7 @@
 
 pub mod expr;
 mod spans;
+pub mod svg;
 
 use std::collections::HashMap;
 
@@ -139,6 +140,7 @@ pub fn read_design(
         scale: 1.0,
         unit: LengthUnit::M,
         mode: Mode::Planar,
+        cell: 0.0,
         params: Vec::new(),
     };
     let (design, unit) = r.design(&tree, overrides)?;
@@ -170,7 +172,7 @@ const TOP_KEYS: &[&str] = &[
     "charge",
     "probe",
 ];
-const SHAPE_KEYS: &[&str] = &["rect", "circle", "ring", "polygon", "polyline"];
+const SHAPE_KEYS: &[&str] = &["rect", "circle", "ring", "polygon", "polyline", "svg"];
 const SIDE_NAMES: &[&str] = &["left", "right", "bottom", "top"];
 
 /// Which kind of item a shape belongs to (polylines are for conductors only).
@@ -188,6 +190,8 @@ struct Reader<'a> {
     /// The file's unit, for messages.
     unit: LengthUnit,
     mode: Mode,
+    /// The grid's target cell size, m (0 until [grid] is read); ties SVG flattening.
+    cell: f64,
     /// Parameters defined so far, in file order.
     params: Vec<(String, f64)>,
 }
@@ -503,6 +507,7 @@ impl Reader<'_> {
             )
         })?;
         d.domain = self.grid(&grid.node)?;
+        self.cell = d.domain.cell;
         if let Some(e) = get(top, "sides") {
             d.sides = self.sides(&e.node)?;
         }
@@ -758,6 +763,7 @@ impl Reader<'_> {
                 "ring",
                 "polygon",
                 "polyline",
+                "svg",
                 "holes",
                 "round",
             ],
@@ -811,6 +817,7 @@ impl Reader<'_> {
                 "ring",
                 "polygon",
                 "polyline",
+                "svg",
                 "holes",
                 "round",
             ],
@@ -843,7 +850,7 @@ impl Reader<'_> {
             p,
             &[
                 "name", "density", "at", "amount", "rect", "circle", "ring", "polygon", "polyline",
-                "holes", "round",
+                "svg", "holes", "round",
             ],
         )?;
         let name = self.name(t, node, p)?;
@@ -922,9 +929,9 @@ impl Reader<'_> {
             .filter(|e| SHAPE_KEYS.contains(&e.key.as_str()))
             .collect();
         let allowed = if owner == Owner::Conductor {
-            "rect, circle, ring, polygon or polyline"
+            "rect, circle, ring, polygon, polyline or svg"
         } else {
-            "rect, circle, ring or polygon"
+            "rect, circle, ring, polygon or svg"
         };
         let e = match shapes.as_slice() {
             [] => {
@@ -1037,7 +1044,65 @@ impl Reader<'_> {
                 }
                 Ok(Shape::Polyline(self.points(n, &key, 2, "a polyline")?))
             }
+            "svg" => self.svg_shape(n, &key, owner),
             _ => unreachable!("filtered on SHAPE_KEYS"),
+        }
+    }
+
+    /// `svg = { file, id }`: the outline of one element of an SVG drawing (see [`svg`]).
+    /// The file path is relative to the design file's directory.
+    fn svg_shape(&self, n: &Node, key: &str, owner: Owner) -> Res<Shape> {
+        let s = self.table(n, key, &["file", "id"])?;
+        let f = self.required(s, n, key, "file", "the SVG file, relative to the design")?;
+        let i = self.required(s, n, key, "id", "the id of the element to import")?;
+        let fk = join(key, "file");
+        let ik = join(key, "id");
+        let file = self.string(&f.node, &fk)?;
+        let id = self.string(&i.node, &ik)?;
+        let base = std::path::Path::new(self.file)
+            .parent()
+            .unwrap_or(std::path::Path::new(""));
+        let path = base.join(file);
+        let text = std::fs::read_to_string(&path).map_err(|e| {
+            self.err(
+                &f.node.span,
+                &fk,
+                format!("cannot read the SVG file {}: {e}", path.display()),
+            )
+        })?;
+        // A tenth of the cell, in the file's unit (SVG user units are file units).
+        let tolerance = self.cell / self.scale / 10.0;
+        let o = svg::outline(&text, id, tolerance).map_err(|e| match e {
+            svg::SvgError::NoSuchId => self.err(
+                &i.node.span,
+                &ik,
+                format!("{}: no element with id \"{id}\"", path.display()),
+            ),
+            other => self.err(&f.node.span, &fk, format!("{}: {other}", path.display())),
+        })?;
+        let pts: Vec<Point> = o
+            .points
+            .iter()
+            .map(|p| [p[0] * self.scale, p[1] * self.scale])
+            .collect();
+        if o.closed {
+            Ok(Shape::Polygon {
+                outer: pts,
+                holes: Vec::new(),
+                round: 0.0,
+            })
+        } else if owner == Owner::Conductor {
+            Ok(Shape::Polyline(pts))
+        } else {
+            Err(self.err(
+                &i.node.span,
+                &ik,
+                format!(
+                    "{}: element \"{id}\" is an open outline (a polyline), which is for \
+                     conductors only; close the path (Z) to make it a polygon",
+                    path.display()
+                ),
+            ))
         }
     }
 
