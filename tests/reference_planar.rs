@@ -319,3 +319,38 @@ fn one_and_two_threads_give_identical_bits() {
         }
     }
 }
+
+fn strip_at(y: &str) -> String {
+    format!(
+        r#"
+unit = "mm"
+[grid]
+x = [0.0, 6.0]
+y = [0.0, 6.0]
+cell = 0.1
+[[dielectric]]
+name = "board"
+permittivity = 4.0
+rect = {{ x = [0.0, 6.0], y = [0.0, 3.0] }}
+[[conductor]]
+name = "strip"
+potential = 1.0
+polyline = [[2.0, {y}], [4.0, {y}]]
+"#
+    )
+}
+
+#[test]
+fn thin_conductor_a_rounding_error_off_a_node_row_counts_as_on_it() {
+    // A strip drawn on a node row must not change its capacitance when rounding puts it a
+    // hair above or below the row (regression: such nodes once stayed free, pulled down by
+    // their neighbours, and the capacitance moved by several per cent).
+    let on = solve(&design(&strip_at("3.0"))).capacitance.matrix[0][0];
+    for y in ["3.0000000001", "2.9999999999"] {
+        let off = solve(&design(&strip_at(y))).capacitance.matrix[0][0];
+        assert!(
+            rel_err(off, on) < 1e-6,
+            "strip at y = {y}: {off:e} vs {on:e}"
+        );
+    }
+}

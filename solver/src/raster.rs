@@ -397,14 +397,19 @@ pub fn rasterize(design: &Design, grid: &Grid) -> Raster {
         };
     }
     node_charge.retain(|&(p, q)| q != 0.0 && conductor[p as usize] == NO_CONDUCTOR);
-    Raster {
+    let mut raster = Raster {
         grid: *grid,
         conductor,
         material,
         cut_edges,
         node_charge,
-    }
+    };
+    snap::snap_near_surfaces(&mut raster, design);
+    raster
 }
+
+mod snap;
+pub use snap::SNAP;
 
 #[cfg(test)]
 mod tests;
