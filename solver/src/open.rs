@@ -592,6 +592,94 @@ mod tests {
         );
     }
 
+    /// A sphere of radius `a` centred on the axis of an axisymmetric box reaching `reach`
+    /// from the axis and from z = 0, its right, bottom and top sides open.
+    fn sphere_in_open_box(a: f64, reach: f64, cell: f64) -> Design {
+        Design {
+            mode: Mode::Axisymmetric,
+            domain: Domain {
+                x: [0.0, reach],
+                y: [-reach, reach],
+                cell,
+            },
+            sides: Sides {
+                left: Side::Axis,
+                right: Side::Open,
+                bottom: Side::Open,
+                top: Side::Open,
+            },
+            conductors: vec![Conductor {
+                name: "ball".into(),
+                drive: Drive::Fixed(1.0),
+                shape: Shape::Circle {
+                    center: [0.0, 0.0],
+                    radius: a,
+                },
+            }],
+            ..Design::default()
+        }
+    }
+
+    #[test]
+    fn axisymmetric_open_faces_are_surfaces_of_revolution_with_the_monopole_coefficient() {
+        let reach = 0.4;
+        let d = sphere_in_open_box(0.1, reach, 0.01);
+        let (op, _) = solve(&d, &[1.0]);
+        let g = op.grid;
+        let model = far_field(&d);
+        assert_eq!(model.centre, [0.0, 0.0]);
+        // Per link: weight = eps * area * kappa and theta = 1 / (kappa h).
+        let mut area = [0.0; 4];
+        for l in op
+            .links
+            .iter()
+            .filter(|l| l.target as usize >= op.n_conductors)
+        {
+            let side = SideId::ALL[l.target as usize - op.n_conductors];
+            let h = if matches!(side, SideId::Left | SideId::Right) {
+                g.hx
+            } else {
+                g.hy
+            };
+            let p = l.node as usize;
+            let at = [g.x(p % g.nx), g.y(p / g.nx)];
+            // Monopole Q / (4 pi eps0 rho): d phi/dn = -(rho_hat . n) phi / rho.
+            let n = outward(side).unit();
+            let want = (at[0] * n[0] + at[1] * n[1]) / (at[0] * at[0] + at[1] * at[1]);
+            let kappa = 1.0 / (l.theta * h);
+            assert!(
+                (kappa - want).abs() < 1e-9 * want,
+                "{side:?} at {at:?}: {kappa} vs {want}"
+            );
+            area[side as usize] += l.weight / (l.eps * kappa);
+        }
+        let pi = std::f64::consts::PI;
+        // The axis takes no condition; the open sides are the cylinder's mantle and its ends.
+        assert_eq!(area[SideId::Left as usize], 0.0);
+        let mantle = 2.0 * pi * reach * 2.0 * reach;
+        let end = pi * reach * reach;
+        assert!((area[SideId::Right as usize] / mantle - 1.0).abs() < 1e-12);
+        assert!((area[SideId::Bottom as usize] / end - 1.0).abs() < 1e-12);
+        assert!((area[SideId::Top as usize] / end - 1.0).abs() < 1e-12);
+    }
+
+    #[test]
+    fn sphere_in_an_open_box_has_the_capacitance_of_an_isolated_sphere() {
+        // Isolated sphere C = 4 pi eps0 a (D. J. Griffiths, Introduction to Electrodynamics,
+        // 4th ed., 2017, sec. 2.5.4 with the outer radius taken to infinity; from memory):
+        // the monopole condition is exact for its field, so the box size barely matters.
+        let a = 0.1;
+        let want = 4.0 * std::f64::consts::PI * EPS0 * a;
+        let near = solve(&sphere_in_open_box(a, 0.3, 0.01), &[1.0]).1[0];
+        let far = solve(&sphere_in_open_box(a, 0.6, 0.01), &[1.0]).1[0];
+        let err = (near / want - 1.0).abs();
+        assert!(err < 1e-3, "C = {near:e}, want {want:e}: error {err:e}");
+        assert!(
+            (far / near - 1.0).abs() < 1e-4,
+            "near {near:e}, far {far:e}"
+        );
+    }
+
     fn wire_design(sides: Sides) -> Design {
         Design {
             domain: Domain {
