@@ -1,6 +1,8 @@
 //! Shared helpers for the integration tests: reading designs from text, solving them with
 //! every solver, and comparing numbers.
 
+pub mod fuzzing;
+
 use fieldgrid_solver::design::Design;
 use fieldgrid_solver::solvers::{Method, Params};
 use fieldgrid_solver::study::{self, Solution, StudyParams};
