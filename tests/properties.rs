@@ -665,19 +665,18 @@ fn maxwell_matrix_is_symmetric_with_reciprocal_negative_induction_coefficients()
             let s = solve(&sc.design(mode))?;
             let c = &s.capacitance.matrix;
             let diag = c.iter().enumerate().fold(0.0f64, |m, (i, r)| m.max(r[i]));
-            for i in 0..c.len() {
-                prop_assert!(c[i][i] > 0.0, "C[{i}][{i}] = {:e}", c[i][i]);
-                let row: f64 = c[i].iter().sum();
+            for (i, ci) in c.iter().enumerate() {
+                prop_assert!(ci[i] > 0.0, "C[{i}][{i}] = {:e}", ci[i]);
+                let row: f64 = ci.iter().sum();
                 prop_assert!(row >= -1e-8 * diag, "row {i} sums to {row:e}");
-                for j in 0..c.len() {
+                for (j, cij) in ci.iter().enumerate() {
+                    let cji = c[j][i];
                     prop_assert!(
-                        (c[i][j] - c[j][i]).abs() <= 1e-8 * diag,
-                        "C[{i}][{j}] = {:e}, C[{j}][{i}] = {:e}",
-                        c[i][j],
-                        c[j][i]
+                        (cij - cji).abs() <= 1e-8 * diag,
+                        "C[{i}][{j}] = {cij:e}, C[{j}][{i}] = {cji:e}"
                     );
                     if i != j {
-                        prop_assert!(c[i][j] <= 1e-9 * diag, "C[{i}][{j}] = {:e} > 0", c[i][j]);
+                        prop_assert!(*cij <= 1e-9 * diag, "C[{i}][{j}] = {cij:e} > 0");
                     }
                 }
             }
@@ -758,7 +757,7 @@ fn rasterised_polygon_area_matches_its_geometric_area_within_the_cut_cell_error(
                 .iter()
                 .filter(|e| e.axis == Axis::X)
                 .peekable();
-            for j in 0..g.ny {
+            for (j, row) in rows.iter_mut().enumerate() {
                 for i in 0..g.nx - 1 {
                     let a = g.idx(i, j);
                     let inside = |p: usize| ras.conductor[p] != NO_CONDUCTOR;
@@ -785,7 +784,7 @@ fn rasterised_polygon_area_matches_its_geometric_area_within_the_cut_cell_error(
                             )))
                         }
                     };
-                    rows[j] += covered * g.hx;
+                    *row += covered * g.hx;
                 }
             }
             for (j, got) in rows.iter().enumerate() {

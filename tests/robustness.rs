@@ -439,8 +439,8 @@ fn memory_guard_refuses_before_allocating_and_reports_the_estimate() {
     let outs = out.to_str().unwrap();
     match failure_of(&["solve", &huge, "--out", outs, "--quiet"]) {
         Err((2, m)) => {
-            let nodes = 100_001f64 * 100_001f64;
-            let mib = nodes * commands::BYTES_PER_NODE / (1024.0 * 1024.0);
+            let grid = fieldgrid_solver::grid::Grid::fit([0.0, 1.0], [0.0, 1.0], 1e-5).unwrap();
+            let mib = commands::estimate_mib(&grid, commands::BYTES_PER_NODE);
             assert!(m.contains("100001 x 100001"), "{m}");
             assert!(m.contains(&format!("{mib:.0} MiB")), "{m}");
             assert!(m.contains("huge.toml:4:"), "names the file and line: {m}");
@@ -449,7 +449,7 @@ fn memory_guard_refuses_before_allocating_and_reports_the_estimate() {
         other => panic!("{other:?}"),
     }
     assert!(!out.exists());
-    // An explicit limit: the same grid of PLATES passes with 100 MiB and fails with 0.01.
+    // An explicit limit below the estimate of PLATES' small grid.
     let plates = write(&dir, "plates.toml", PLATES);
     match failure_of(&[
         "solve",
@@ -490,6 +490,26 @@ fn memory_guard_refuses_before_allocating_and_reports_the_estimate() {
         }
     }
     assert!(!out.exists(), "a refused sweep point must leave no output");
+    // The field table costs more per node, and the guard counts it.
+    let g = fieldgrid_solver::grid::Grid::fit([0.0, 4e-3], [0.0, 2e-3], 1e-4).unwrap();
+    let plain = commands::estimate_mib(&g, commands::BYTES_PER_NODE);
+    let limit = format!("{}", plain + 0.01);
+    let args = [
+        "solve",
+        plates.as_str(),
+        "--out",
+        outs,
+        "--quiet",
+        "--max-memory",
+        limit.as_str(),
+    ];
+    assert_eq!(failure_of(&args), Ok(0));
+    let mut with_table = args.to_vec();
+    with_table.push("--field-table");
+    match failure_of(&with_table) {
+        Err((2, m)) => assert!(m.contains("MiB allowed"), "{m}"),
+        other => panic!("{other:?}"),
+    }
 }
 
 // ------------------------------------------------------------------------- non-convergence
@@ -871,5 +891,117 @@ fn fuzz_targets_refuse_garbage_without_panicking() {
     ] {
         let _ = fuzzing::design_target(bytes);
         let _ = fuzzing::expr_target(bytes);
+    }
+}
+
+/// Fuzzing finding (design target, stable driver, seed 1): a potential of 1.8e308 V solves
+/// (the unit solves are fine) but the energy overflows; the study reported it as converged
+/// and summary.json carried `null`. Now flagged: not converged, non-finite values, exit 3.
+#[test]
+fn overflowing_results_of_an_absurd_potential_are_flagged_not_converged() {
+    let text = PLATES.replace("potential = 5.0", "potential = 1.7976931348623157e308");
+    let _ = fuzzing::design_target(text.as_bytes());
+    let d = fieldgrid_tests::design(&text);
+    let s = fieldgrid_solver::study::run(&d, &fieldgrid_tests::params(Method::Multigrid)).unwrap();
+    assert!(!s.solve.converged);
+    let why = s.solve.failure.unwrap();
+    assert!(
+        why.starts_with("non-finite values appeared in the"),
+        "{why}"
+    );
+    let dir = scratch("overflow-potential");
+    let design = write(&dir, "huge_v.toml", &text);
+    let out = dir.join("out");
+    expect(
+        run(&["solve", &design, "--out", out.to_str().unwrap(), "--quiet"]),
+        3,
+    );
+    let s = summary(&out);
+    assert_eq!(s["solver"]["converged"], false);
+    assert!(s["warnings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .any(|w| w.as_str().unwrap().contains("non-finite values")));
+}
+
+/// Fuzzing finding (design target, stable driver, seed 1): a background permittivity of
+/// 1.8e308 overflows the operator's weights to infinity. The solves stop on non-finite
+/// values; the study and the command report that (exit 3), and nothing panics.
+#[test]
+fn an_absurd_permittivity_that_overflows_the_operator_is_flagged_not_converged() {
+    let text = PLATES.replacen(
+        "[[conductor]]",
+        "[background]\npermittivity = 1.7976931348623157e308\n[[conductor]]",
+        1,
+    );
+    let _ = fuzzing::design_target(text.as_bytes());
+    let d = fieldgrid_tests::design(&text);
+    for m in Method::ALL {
+        let s = fieldgrid_solver::study::run(&d, &fieldgrid_tests::params(m)).unwrap();
+        assert!(!s.solve.converged, "{m:?}");
+        let why = s.solve.failure.unwrap();
+        assert!(
+            why.starts_with("non-finite values appeared"),
+            "{m:?}: {why}"
+        );
+    }
+    let dir = scratch("overflow-eps");
+    let design = write(&dir, "huge_eps.toml", &text);
+    let out = dir.join("out");
+    expect(
+        run(&["solve", &design, "--out", out.to_str().unwrap(), "--quiet"]),
+        3,
+    );
+    assert_eq!(summary(&out)["solver"]["converged"], false);
+}
+
+/// Fuzzing finding (design target): a string value holding a newline (`unit = "m\nm"`) was
+/// quoted into the error message, which then spanned two lines. Control characters in
+/// messages and keys are now escaped.
+#[test]
+fn an_error_quoting_a_value_with_a_newline_stays_on_one_line() {
+    let text = "unit = \"are open\\nfrom m\"\n[grid]\nx = [0.0, 1.0]\ny = [0.0, 1.0]\ncell = 0.1\n";
+    let _ = fuzzing::design_target(text.as_bytes());
+    let e = fieldgrid_cli::design_file::read_design(text, "nl.toml", &[]).unwrap_err();
+    assert!(!e.message.contains('\n'), "{:?}", e.message);
+    assert!(e.message.contains("are open\\nfrom m"), "{:?}", e.message);
+    assert_eq!((e.line, e.key.as_str()), (1, "unit"));
+    let text = "[grid]\nx = [0.0, 1.0]\ny = [0.0, 1.0]\ncell = 0.1\n\"a\\tb\\nc\" = 1\n";
+    let e = fieldgrid_cli::design_file::read_design(text, "nl.toml", &[]).unwrap_err();
+    assert!(!e.key.contains('\n') && !e.to_string().lines().next().unwrap().contains('\t'));
+}
+
+/// Fuzzing finding (expression target): nesting that reaches the depth limit exactly at the
+/// end of the text (32 opening parentheses) gave an error range one byte past the text.
+#[test]
+fn an_expression_too_deep_at_its_end_points_inside_the_text() {
+    use fieldgrid_cli::design_file::expr;
+    for n in [31, 32, 33, 40, 64] {
+        let text = "(".repeat(n);
+        let e = expr::eval(&text, &|_| None).unwrap_err();
+        assert!(e.offset + e.len <= text.len(), "{n}: {e:?}");
+        assert!(fuzzing::expr_target(text.as_bytes()).starts_with("err"));
+    }
+    let e = expr::eval(&"(".repeat(40), &|_| None).unwrap_err();
+    assert_eq!(e.kind, expr::ExprErrorKind::TooComplex);
+}
+
+/// Fuzzing findings (design target): domains of 1e305 m (a parameter near the double
+/// range) passed the reader; their node coordinates and areas of revolution overflowed, and
+/// the raster and operator filled with NaN. Domains are now bounded (exit 2, at the key).
+#[test]
+fn an_absurdly_large_or_small_domain_is_refused_at_its_key() {
+    let big = "unit = \"mm\"\nmode = \"axisymmetric\"\n[grid]\nx = [0.0, 1e308]\ny = [0.5, 10.0]\ncell = 0.25\n";
+    let small = "[grid]\nx = [0.0, 1.0]\ny = [0.0, 1e-200]\ncell = 1e-201\n";
+    for (text, line, key) in [(big, 4, "grid.x"), (small, 3, "grid.y")] {
+        let _ = fuzzing::design_target(text.as_bytes());
+        let e = fieldgrid_cli::design_file::read_design(text, "far.toml", &[]).unwrap_err();
+        assert_eq!((e.line, e.key.as_str()), (line, key), "{e}");
+        assert!(
+            e.message
+                .contains("fieldgrid computes with domains between"),
+            "{e}"
+        );
     }
 }

@@ -8,15 +8,17 @@
 //! the same study runs first on the lattice twice as coarse and the two capacitance matrices
 //! give a Richardson estimate of the discretisation error.
 //!
-//! Invariant: every number comes from the same operator that the solver saw, so charges,
-//! energy and capacitance agree with the solve to the solver tolerance.
+//! Invariants: every number comes from the same operator that the solver saw, so charges,
+//! energy and capacitance agree with the solve to the solver tolerance; a study whose
+//! results hold a NaN or an infinity (every solve converged, yet the numbers overflowed) is
+//! never reported as converged.
 
 use crate::design::{Design, DesignError, Drive, Mode};
 use crate::grid::{Grid, GridError};
 use crate::operator::{self, Operator, OperatorError, SideId};
 use crate::post::{self, Hotspot, HotspotParams, ProbeResult, SurfacePoint};
 use crate::raster::{self, Raster, NO_CONDUCTOR};
-use crate::solvers::{self, Info, Method, Params};
+use crate::solvers::{self, Info, Method, Params, StopReason};
 use crate::EPS0;
 
 /// What to run.
@@ -262,7 +264,7 @@ pub fn run(design: &Design, params: &StudyParams) -> Result<Solution, StudyError
             }
         }
     }
-    let solve = summarize(&core.infos);
+    let mut solve = summarize(&core.infos);
     if !solve.converged {
         warnings.push(format!(
             "the solver did not converge: {}",
@@ -309,6 +311,20 @@ pub fn run(design: &Design, params: &StudyParams) -> Result<Solution, StudyError
         .map(|p| post::probe(&field, p))
         .collect();
     let surface_charge = post::surface_charge(&field, design);
+    // Every solve can converge and the results still overflow (potentials, permittivities
+    // or charges near the end of the double range): such results are flagged, not reported.
+    if solve.converged {
+        if let Some(what) = non_finite(&core.phi, &conductors, &core.maxwell, energy) {
+            let why = format!(
+                "{} in the {what} (numbers beyond the range of double precision: check the \
+                 design for absurd potentials, permittivities or charges)",
+                StopReason::NonFinite.describe()
+            );
+            warnings.push(format!("the solver did not converge: {why}"));
+            solve.converged = false;
+            solve.failure = Some(why);
+        }
+    }
 
     Ok(Solution {
         mode: design.mode,
@@ -332,6 +348,30 @@ pub fn run(design: &Design, params: &StudyParams) -> Result<Solution, StudyError
         raster: core.raster,
         operator: core.op,
     })
+}
+
+/// The first kind of result that holds a NaN or an infinity, if any.
+fn non_finite(
+    phi: &[f64],
+    conductors: &[ConductorResult],
+    maxwell: &[Vec<f64>],
+    energy: f64,
+) -> Option<&'static str> {
+    let bad = |v: &f64| !v.is_finite();
+    if phi.iter().any(bad) {
+        Some("potential")
+    } else if maxwell.iter().flatten().any(bad) {
+        Some("capacitance matrix")
+    } else if conductors
+        .iter()
+        .any(|c| bad(&c.potential) || bad(&c.charge) || c.force.iter().any(bad))
+    {
+        Some("conductor charges, potentials or forces")
+    } else if bad(&energy) {
+        Some("energy")
+    } else {
+        None
+    }
 }
 
 /// The order observed from results on three lattices with spacings h, r h, r^2 h:

@@ -107,7 +107,7 @@ pub fn check_raster(design: &Design, r: &Raster) -> Result<(), String> {
             }
         }
         if let Some(d) = c.direct {
-            if !(d.gap > 0.0 && d.gap <= 1.0) || !(d.eps.is_finite() && d.eps > 0.0) {
+            if !(d.gap > 0.0 && d.gap <= 1.0 && d.eps.is_finite() && d.eps > 0.0) {
                 return Err(format!("direct link gap {} eps {}", d.gap, d.eps));
             }
             if d.a as usize >= nc || d.b as usize >= nc || d.a == d.b {
@@ -129,44 +129,109 @@ pub fn check_raster(design: &Design, r: &Raster) -> Result<(), String> {
     Ok(())
 }
 
-/// The operator's rows are finite, diagonally non-negative and (for unknowns) positive.
-pub fn check_operator(op: &operator::Operator) -> Result<(), String> {
+/// The operator's entries are never NaN or negative, and the diagonal of every row is
+/// positive. Infinite entries are allowed: a finite but absurd permittivity (say 1e308)
+/// overflows a weight, and the study must then report non-finite values, not results.
+/// Returns whether every entry is finite.
+pub fn check_operator(op: &operator::Operator) -> Result<bool, String> {
     let s = &op.stencil;
+    let mut finite = true;
+    let ok = |v: f64| !v.is_nan() && v >= 0.0;
     for p in 0..s.len() {
         let (d, e, no) = (s.diag[p], s.east[p], s.north[p]);
-        if !(d.is_finite() && d > 0.0) {
-            return Err(format!("diagonal {d} at node {p}"));
+        if !(ok(d) && d > 0.0 && ok(e) && ok(no)) {
+            return Err(format!("row {p}: diagonal {d}, couplings {e}, {no}"));
         }
-        if !(e.is_finite() && e >= 0.0 && no.is_finite() && no >= 0.0) {
-            return Err(format!("couplings {e}, {no} at node {p}"));
-        }
+        finite &= d.is_finite() && e.is_finite() && no.is_finite();
     }
     for l in &op.links {
-        if !(l.weight.is_finite() && l.weight >= 0.0) {
+        if !ok(l.weight) {
             return Err(format!("link weight {} at node {}", l.weight, l.node));
         }
+        finite &= l.weight.is_finite();
     }
     for &(p, v) in &op.source {
-        finite(v, &format!("the source at node {p}"))?;
+        if v.is_nan() {
+            return Err(format!("the source at node {p} is NaN"));
+        }
+        finite &= v.is_finite();
     }
-    Ok(())
+    Ok(finite)
 }
 
-/// Which path an input took, for the stable driver's feedback: digits, quoted text and
-/// backticked names are blanked so that equal messages about different numbers coincide.
+/// Words that may stand in a key path of the contract; other segments (a mistyped key, a
+/// parameter's name) are blanked in signatures.
+const KEY_WORDS: &[&str] = &[
+    "unit",
+    "mode",
+    "depth",
+    "grid",
+    "x",
+    "y",
+    "cell",
+    "sides",
+    "left",
+    "right",
+    "bottom",
+    "top",
+    "background",
+    "permittivity",
+    "strength",
+    "parameters",
+    "conductor",
+    "name",
+    "potential",
+    "floating",
+    "dielectric",
+    "charge",
+    "density",
+    "at",
+    "amount",
+    "probe",
+    "rect",
+    "round",
+    "circle",
+    "center",
+    "radius",
+    "ring",
+    "inner",
+    "outer",
+    "polygon",
+    "holes",
+    "polyline",
+];
+
+/// Which path an input took, for the stable driver's feedback: digits and the text inside
+/// quotes or backticks are blanked, and key segments outside the contract's words, so that
+/// equal messages about different numbers or names coincide.
 fn signature(prefix: &str, message: &str) -> String {
     let mut out = String::with_capacity(prefix.len() + message.len());
-    out.push_str(prefix);
-    out.push(':');
-    let mut quoted = false;
-    for c in message.chars() {
-        if c == '`' {
-            quoted = !quoted;
-            out.push('`');
-        } else if quoted || c.is_ascii_digit() {
-            continue;
+    for (k, seg) in prefix.split('.').enumerate() {
+        if k > 0 {
+            out.push('.');
+        }
+        let word = seg.rsplit(':').next().unwrap_or(seg);
+        if k == 0 || KEY_WORDS.contains(&word) {
+            out.push_str(seg);
         } else {
-            out.push(c);
+            out.push('?');
+        }
+    }
+    out.push(':');
+    let mut quote: Option<char> = None;
+    for c in message.chars() {
+        match quote {
+            Some(q) if c == q => {
+                quote = None;
+                out.push(c);
+            }
+            Some(_) => {}
+            None if c == '`' || c == '"' => {
+                quote = Some(c);
+                out.push(c);
+            }
+            None if c.is_ascii_digit() => {}
+            None => out.push(c),
         }
     }
     out
@@ -213,11 +278,11 @@ pub fn design_target(data: &[u8]) -> String {
         panic!("raster invariant: {m}");
     }
     match operator::assemble(d, &r) {
-        Ok(op) => {
-            if let Err(m) = check_operator(&op) {
-                panic!("operator invariant: {m}");
-            }
-        }
+        Ok(op) => match check_operator(&op) {
+            Ok(true) => {}
+            Ok(false) => sig += ":overflow",
+            Err(m) => panic!("operator invariant: {m}"),
+        },
         Err(e) => return signature(&(sig + ":op"), &e.to_string()),
     }
     let Some(small) = capped_grid(d, SOLVE_NODES) else {
@@ -238,16 +303,27 @@ pub fn design_target(data: &[u8]) -> String {
     match study::run(&coarse, &params) {
         Ok(sol) => {
             if sol.solve.converged {
-                for row in &sol.capacitance.matrix {
-                    for &c in row {
-                        assert!(c.is_finite(), "converged solve with capacitance {c}");
-                    }
-                }
+                let finite = |v: &f64| v.is_finite();
+                assert!(
+                    sol.capacitance.matrix.iter().flatten().all(finite),
+                    "converged solve with capacitance {:?}",
+                    sol.capacitance.matrix
+                );
                 assert!(
                     sol.energy.is_finite(),
                     "converged solve with energy {}",
                     sol.energy
                 );
+                assert!(
+                    sol.potential.iter().all(finite),
+                    "converged solve with a NaN potential"
+                );
+                for c in &sol.conductors {
+                    assert!(
+                        finite(&c.charge) && finite(&c.potential) && c.force.iter().all(finite),
+                        "converged solve with conductor {c:?}"
+                    );
+                }
                 sig += ":solved";
             } else {
                 sig += &format!(":{}", sol.solve.failure.unwrap_or_default().len().min(1));

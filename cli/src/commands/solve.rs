@@ -1,6 +1,6 @@
 //! `fieldgrid solve DESIGN --out DIR`: solve and write every result.
 
-use super::{check_memory, load_design, study_params, with_threads};
+use super::{load_design, study_params, with_threads};
 use crate::args::SolveArgs;
 use crate::error::Failure;
 use crate::outdir::{csv_bytes, num, OutDir};
@@ -12,7 +12,12 @@ use std::time::Instant;
 /// Runs the command, returning the exit code.
 pub fn run(args: &SolveArgs) -> Result<u8, Failure> {
     let src = load_design(&args.design, &[])?;
-    let (_grid, _mib) = check_memory(&src, &args.design, args.opts.max_memory)?;
+    let rate = if args.field_table {
+        super::BYTES_PER_NODE + super::FIELD_TABLE_BYTES_PER_NODE
+    } else {
+        super::BYTES_PER_NODE
+    };
+    let (_grid, _mib) = super::check_memory_at(&src, &args.design, args.opts.max_memory, rate)?;
     let params = study_params(&args.opts)?;
     if args.circuit {
         if let Err(why) = crate::spice::exportable(src.design.mode, src.design.depth) {

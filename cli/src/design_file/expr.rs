@@ -185,9 +185,10 @@ impl Parser<'_> {
     fn enter(&mut self) -> Result<(), ExprError> {
         self.depth += 1;
         if self.depth > MAX_DEPTH {
+            // The token that went too deep, or nothing at the end of the text.
             Err(ExprError {
                 offset: self.pos,
-                len: 1,
+                len: self.peek().map_or(0, char::len_utf8),
                 kind: ExprErrorKind::TooComplex,
             })
         } else {

@@ -155,8 +155,8 @@ impl InputError {
             file: file.to_string(),
             line: 0,
             column: 0,
-            key: key.to_string(),
-            message: message.into(),
+            key: one_line(key),
+            message: one_line(&message.into()),
             source_line: String::new(),
             caret_len: 0,
         }
@@ -186,12 +186,29 @@ impl InputError {
             file: file.to_string(),
             line,
             column,
-            key: key.to_string(),
-            message: message.into(),
+            key: one_line(key),
+            message: one_line(&message.into()),
             source_line,
             caret_len,
         }
     }
+}
+
+/// `s` with control characters written as escapes (`\n`, `\t`, `\u{1b}`), so that a
+/// message quoting the user's text stays one line.
+fn one_line(s: &str) -> String {
+    if !s.chars().any(char::is_control) {
+        return s.to_string();
+    }
+    s.chars()
+        .map(|c| {
+            if c.is_control() {
+                c.escape_default().to_string()
+            } else {
+                c.to_string()
+            }
+        })
+        .collect()
 }
 
 fn floor_char_boundary(text: &str, mut i: usize) -> usize {

@@ -323,6 +323,11 @@ fn in_domain(p: Point, ctx: &Ctx) -> bool {
         && p[1] <= ctx.y[1] + t
 }
 
+/// Largest coordinate of a domain, m.
+pub const MAX_LENGTH: f64 = 1e100;
+/// Smallest width or height of a domain, m.
+pub const MIN_LENGTH: f64 = 1e-100;
+
 /// Checks the geometric and physical rules of the contract (see [`crate::design::validate`]).
 pub fn validate_design(d: &Design) -> Result<(), DesignError> {
     let axisymmetric = d.mode == Mode::Axisymmetric;
@@ -347,6 +352,23 @@ pub fn validate_design(d: &Design) -> Result<(), DesignError> {
             "cell",
             format!("the cell size must be a positive number, got {}", dom.cell),
         ));
+    }
+    // Lengths far beyond any design: their squares and products (areas of revolution,
+    // energies) would leave the range of double precision. Shapes lie inside the domain,
+    // so bounding the domain bounds every coordinate.
+    for (key, r) in [("x", dom.x), ("y", dom.y)] {
+        let (reach, size) = (r[0].abs().max(r[1].abs()), r[1] - r[0]);
+        if !(reach <= MAX_LENGTH && size >= MIN_LENGTH) {
+            return Err(err(
+                Item::Grid,
+                key,
+                format!(
+                    "the domain spans [{:e}, {:e}] m: fieldgrid computes with domains between \
+                     {MIN_LENGTH:e} m and {MAX_LENGTH:e} m",
+                    r[0], r[1]
+                ),
+            ));
+        }
     }
     if axisymmetric && dom.x[0] != 0.0 {
         return Err(err(

@@ -118,8 +118,8 @@ pub fn solve(a: &Stencil5, b: &[f64], x: &mut [f64], params: &Params) -> Result<
         } else {
             since_best += steps;
         }
-        // Written so that a NaN residual is checked too (it compares false with anything).
-        if !(rel <= params.tol) {
+        // A NaN residual is checked too (it compares false with anything).
+        if rel.is_nan() || rel > params.tol {
             if let Some(stop) = check_progress(rel, rel0, best, since_best, 2000) {
                 break stop;
             }
