@@ -1005,3 +1005,37 @@ fn an_absurdly_large_or_small_domain_is_refused_at_its_key() {
         );
     }
 }
+
+/// Found while fuzzing the SVG import (`svg = { file, id }`, new on main): the drawing was
+/// read whole whatever it was, so `file = "/dev/zero"` ate all memory and a named pipe waited
+/// for a writer forever. Only regular files up to 64 MiB are read now.
+#[test]
+fn an_svg_import_of_a_device_or_a_pipe_is_refused_without_reading_it() {
+    let dir = scratch("svg-device");
+    let fifo = dir.join("pipe.svg");
+    let made = Command::new("mkfifo")
+        .arg(&fifo)
+        .status()
+        .expect("run mkfifo");
+    assert!(made.success());
+    for file in ["/dev/zero", fifo.to_str().unwrap(), dir.to_str().unwrap()] {
+        let text = format!(
+            "[grid]\nx = [0.0, 1.0]\ny = [0.0, 1.0]\ncell = 0.1\n[[conductor]]\nname = \"c\"\n\
+             potential = 1.0\nsvg = {{ file = \"{file}\", id = \"a\" }}\n"
+        );
+        let path = dir.join("svg.toml");
+        let e = fieldgrid_cli::design_file::read_design(&text, path.to_str().unwrap(), &[])
+            .unwrap_err();
+        assert_eq!(e.key, "conductor.svg.file", "{file}: {e}");
+        assert!(e.message.contains("not a regular file"), "{file}: {e}");
+    }
+}
+
+/// The same for the design file itself: a path that never ends is refused at 64 MiB.
+#[test]
+fn a_design_path_that_never_ends_is_refused() {
+    match failure_of(&["check", "/dev/zero"]) {
+        Err((2, m)) => assert!(m.contains("larger than 64 MiB"), "{m}"),
+        other => panic!("{other:?}"),
+    }
+}

@@ -25,6 +25,10 @@ pub const RASTER_NODES: usize = 1 << 16;
 /// Most nodes the design target solves.
 pub const SOLVE_NODES: usize = 1600;
 
+/// The name the design target gives its input: a file in `fuzz/`, so that SVG imports
+/// (`svg = { file = "svg/shapes.svg", ... }`) find the drawings kept there.
+pub const DESIGN_FILE: &str = concat!(env!("CARGO_MANIFEST_DIR"), "/../fuzz/fuzz.toml");
+
 /// The lattice for `design` with the cell grown (by factors of two) until it has at most
 /// `cap` nodes. `None` when the reader's grid cannot be fitted at all.
 pub fn capped_grid(design: &Design, cap: usize) -> Option<Grid> {
@@ -233,6 +237,10 @@ fn signature(prefix: &str, message: &str) -> String {
             None if c.is_ascii_digit() => {}
             None => out.push(c),
         }
+        // The start of a message says what went wrong; the rest names where and how.
+        if out.len() >= prefix.len() + 48 {
+            break;
+        }
     }
     out
 }
@@ -242,7 +250,7 @@ fn signature(prefix: &str, message: &str) -> String {
 /// invariant (a finding). Returns the outcome signature.
 pub fn design_target(data: &[u8]) -> String {
     let text = String::from_utf8_lossy(data);
-    let src = match read_design(&text, "fuzz.toml", &[]) {
+    let src = match read_design(&text, DESIGN_FILE, &[]) {
         Ok(s) => s,
         Err(e) => {
             let lines = text.lines().count().max(1);

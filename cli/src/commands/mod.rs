@@ -19,9 +19,28 @@ use std::path::Path;
 use std::sync::Arc;
 use std::time::Instant;
 
+/// Largest design file read, bytes (a path such as /dev/zero never ends).
+pub const MAX_DESIGN_BYTES: u64 = 64 << 20;
+
+/// The text of `path`, refused when longer than `max` bytes (read at most `max + 1`).
+fn read_limited(path: &Path, max: u64) -> std::io::Result<String> {
+    use std::io::Read;
+    let mut text = String::new();
+    std::fs::File::open(path)?
+        .take(max + 1)
+        .read_to_string(&mut text)?;
+    if text.len() as u64 > max {
+        return Err(std::io::Error::new(
+            std::io::ErrorKind::InvalidData,
+            format!("larger than {} MiB", max >> 20),
+        ));
+    }
+    Ok(text)
+}
+
 /// Reads and validates a design file.
 pub fn load_design(path: &Path, overrides: &[(String, f64)]) -> Result<DesignSource, Failure> {
-    let text = std::fs::read_to_string(path)
+    let text = read_limited(path, MAX_DESIGN_BYTES)
         .map_err(|e| Failure::input(format!("{}: cannot read the design: {e}", path.display())))?;
     Ok(design_file::read_design(
         &text,

@@ -159,6 +159,36 @@ pub fn read_design(
     })
 }
 
+/// Largest SVG file a design may import, bytes.
+pub const MAX_SVG_BYTES: u64 = 64 << 20;
+
+/// Reads an SVG drawing: a regular file (a device such as /dev/zero would never end, a pipe
+/// would wait for a writer) of at most [`MAX_SVG_BYTES`].
+fn read_svg_file(path: &std::path::Path) -> std::io::Result<String> {
+    use std::io::{Error, ErrorKind, Read};
+    let meta = std::fs::metadata(path)?;
+    if !meta.is_file() {
+        return Err(Error::new(ErrorKind::InvalidInput, "not a regular file"));
+    }
+    let too_large = || {
+        Error::new(
+            ErrorKind::InvalidData,
+            format!("larger than {} MiB", MAX_SVG_BYTES >> 20),
+        )
+    };
+    if meta.len() > MAX_SVG_BYTES {
+        return Err(too_large());
+    }
+    let mut text = String::new();
+    std::fs::File::open(path)?
+        .take(MAX_SVG_BYTES + 1)
+        .read_to_string(&mut text)?;
+    if text.len() as u64 > MAX_SVG_BYTES {
+        return Err(too_large());
+    }
+    Ok(text)
+}
+
 const TOP_KEYS: &[&str] = &[
     "unit",
     "mode",
@@ -1063,7 +1093,7 @@ impl Reader<'_> {
             .parent()
             .unwrap_or(std::path::Path::new(""));
         let path = base.join(file);
-        let text = std::fs::read_to_string(&path).map_err(|e| {
+        let text = read_svg_file(&path).map_err(|e| {
             self.err(
                 &f.node.span,
                 &fk,

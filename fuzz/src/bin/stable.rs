@@ -242,6 +242,13 @@ const DESIGN_LINES: &[&str] = &[
     "rect = { x = [0.0, 1.0], y = [0.5, 0.5000001] }",
     "x = [0.0, 1e-300]",
     "y = [-1e300, 1e300]",
+    "svg = { file = \"svg/shapes.svg\", id = \"pad\" }",
+    "svg = { file = \"svg/shapes.svg\", id = \"blob\" }",
+    "svg = { file = \"svg/shapes.svg\", id = \"tri\" }",
+    "svg = { file = \"svg/shapes.svg\", id = \"nope\" }",
+    "svg = { file = \"/dev/zero\", id = \"a\" }",
+    "svg = { file = \"svg\", id = \"a\" }",
+    "svg = { file = \"fuzz.toml\", id = \"a\" }",
 ];
 
 /// Tokens of the expression language and its edges.
