@@ -925,37 +925,6 @@ fn overflowing_results_of_an_absurd_potential_are_flagged_not_converged() {
         .any(|w| w.as_str().unwrap().contains("non-finite values")));
 }
 
-/// Fuzzing finding (design target, stable driver, seed 1): a background permittivity of
-/// 1.8e308 overflows the operator's weights to infinity. The solves stop on non-finite
-/// values; the study and the command report that (exit 3), and nothing panics.
-#[test]
-fn an_absurd_permittivity_that_overflows_the_operator_is_flagged_not_converged() {
-    let text = PLATES.replacen(
-        "[[conductor]]",
-        "[background]\npermittivity = 1.7976931348623157e308\n[[conductor]]",
-        1,
-    );
-    let _ = fuzzing::design_target(text.as_bytes());
-    let d = fieldgrid_tests::design(&text);
-    for m in Method::ALL {
-        let s = fieldgrid_solver::study::run(&d, &fieldgrid_tests::params(m)).unwrap();
-        assert!(!s.solve.converged, "{m:?}");
-        let why = s.solve.failure.unwrap();
-        assert!(
-            why.starts_with("non-finite values appeared"),
-            "{m:?}: {why}"
-        );
-    }
-    let dir = scratch("overflow-eps");
-    let design = write(&dir, "huge_eps.toml", &text);
-    let out = dir.join("out");
-    expect(
-        run(&["solve", &design, "--out", out.to_str().unwrap(), "--quiet"]),
-        3,
-    );
-    assert_eq!(summary(&out)["solver"]["converged"], false);
-}
-
 /// Fuzzing finding (design target): a string value holding a newline (`unit = "m\nm"`) was
 /// quoted into the error message, which then spanned two lines. Control characters in
 /// messages and keys are now escaped.
@@ -1037,5 +1006,64 @@ fn a_design_path_that_never_ends_is_refused() {
     match failure_of(&["check", "/dev/zero"]) {
         Err((2, m)) => assert!(m.contains("larger than 64 MiB"), "{m}"),
         other => panic!("{other:?}"),
+    }
+}
+
+/// Fuzzing findings (design target, after the SVG import landed): a cell of 5e-324 made the
+/// flattening tolerance underflow to zero and tripped an assertion in the SVG reader, and a
+/// cell of 2.5e-310 asked for a circle of 10^300 chords (capacity overflow). The tolerance
+/// is kept positive and circles get at most 10 000 chords, like path curves.
+#[test]
+fn an_svg_import_with_a_vanishing_cell_neither_panics_nor_explodes() {
+    for cell in ["5e-324", "2.5e-310", "1e-12"] {
+        let text = format!(
+            "[grid]\nx = [0.0, 4.0]\ny = [0.0, 5.0]\ncell = {cell}\n\
+             [[conductor]]\nname = \"dot\"\npotential = 1.0\n\
+             svg = {{ file = \"svg/shapes.svg\", id = \"dot\" }}\n"
+        );
+        let _ = fuzzing::design_target(text.as_bytes());
+        let src = fieldgrid_cli::design_file::read_design(&text, fuzzing::DESIGN_FILE, &[])
+            .unwrap_or_else(|e| panic!("cell {cell}: {e}"));
+        let fieldgrid_solver::design::Shape::Polygon { outer, .. } =
+            &src.design.conductors[0].shape
+        else {
+            panic!("cell {cell}: not a polygon");
+        };
+        assert!(outer.len() <= 10_000, "cell {cell}: {} chords", outer.len());
+    }
+}
+
+/// Fuzzing findings (design target): relative permittivities of 5e-324 (subnormal: the
+/// operator's weights vanished and its rows went to zero) and 1.8e308 (weights overflowed)
+/// are refused at their key; the accepted range is 1e-12 to 1e12.
+#[test]
+fn a_permittivity_beyond_any_material_is_refused_at_its_key() {
+    for (eps, ok) in [
+        ("5e-324", false),
+        ("1e-13", false),
+        ("1e-12", true),
+        ("1e12", true),
+        ("1.7976931348623157e308", false),
+    ] {
+        for (table, key) in [
+            ("[background]\n", "background.permittivity"),
+            (
+                "[[dielectric]]\nname = \"d\"\nrect = { x = [0.0, 1.0], y = [0.0, 0.5] }\n",
+                "dielectric.permittivity",
+            ),
+        ] {
+            let text = format!(
+                "[grid]\nx = [0.0, 1.0]\ny = [0.0, 1.0]\ncell = 0.1\n{table}permittivity = {eps}\n"
+            );
+            let _ = fuzzing::design_target(text.as_bytes());
+            match fieldgrid_cli::design_file::read_design(&text, "eps.toml", &[]) {
+                Ok(_) => assert!(ok, "{eps} accepted"),
+                Err(e) => {
+                    assert!(!ok, "{eps}: {e}");
+                    assert_eq!(e.key, key);
+                    assert!(e.message.contains("must lie between 1e-12 and 1e12"), "{e}");
+                }
+            }
+        }
     }
 }

@@ -1101,7 +1101,8 @@ impl Reader<'_> {
             )
         })?;
         // A tenth of the cell, in the file's unit (SVG user units are file units).
-        let tolerance = self.cell / self.scale / 10.0;
+        // Never zero: a subnormal cell would underflow it (the grid itself is refused later).
+        let tolerance = (self.cell / self.scale / 10.0).max(f64::MIN_POSITIVE);
         let o = svg::outline(&text, id, tolerance).map_err(|e| match e {
             svg::SvgError::NoSuchId => self.err(
                 &i.node.span,

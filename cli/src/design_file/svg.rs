@@ -167,7 +167,10 @@ pub fn outline(text: &str, id: &str, tolerance: f64) -> Result<Outline, SvgError
             let n = if tolerance >= r {
                 8
             } else {
-                ((std::f64::consts::PI / (1.0 - tolerance / r).acos()).ceil() as usize).max(8)
+                // At most as many chords as a path curve gets (see `steps`): a tolerance far
+                // below r (a cell near the double range's end) would ask for billions.
+                ((std::f64::consts::PI / (1.0 - tolerance / r).acos()).ceil() as usize)
+                    .clamp(8, 10_000)
             };
             let pts = (0..n)
                 .map(|k| {

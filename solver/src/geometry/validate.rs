@@ -328,6 +328,23 @@ pub const MAX_LENGTH: f64 = 1e100;
 /// Smallest width or height of a domain, m.
 pub const MIN_LENGTH: f64 = 1e-100;
 
+/// Smallest relative permittivity accepted (far below any material; a subnormal one would
+/// make the operator's weights vanish).
+pub const MIN_PERMITTIVITY: f64 = 1e-12;
+/// Largest relative permittivity accepted (far above any material; near the double range
+/// the operator's weights overflow).
+pub const MAX_PERMITTIVITY: f64 = 1e12;
+
+/// Why a positive relative permittivity is refused, if it is.
+fn permittivity_out_of_range(eps: f64) -> Option<String> {
+    (!(MIN_PERMITTIVITY..=MAX_PERMITTIVITY).contains(&eps)).then(|| {
+        format!(
+            "the relative permittivity must lie between {MIN_PERMITTIVITY:e} and \
+             {MAX_PERMITTIVITY:e}, got {eps:e}"
+        )
+    })
+}
+
 /// Checks the geometric and physical rules of the contract (see [`crate::design::validate`]).
 pub fn validate_design(d: &Design) -> Result<(), DesignError> {
     let axisymmetric = d.mode == Mode::Axisymmetric;
@@ -432,6 +449,9 @@ pub fn validate_design(d: &Design) -> Result<(), DesignError> {
             "the relative permittivity must be a positive number",
         ));
     }
+    if let Some(m) = permittivity_out_of_range(d.background.permittivity) {
+        return Err(err(Item::Background, "permittivity", m));
+    }
     if d.background.strength.is_some_and(|s| !positive(s)) {
         return Err(err(
             Item::Background,
@@ -499,6 +519,9 @@ pub fn validate_design(d: &Design) -> Result<(), DesignError> {
                     e.permittivity
                 ),
             ));
+        }
+        if let Some(m) = permittivity_out_of_range(e.permittivity) {
+            return Err(err(item, "permittivity", m));
         }
         if e.strength.is_some_and(|s| !positive(s)) {
             return Err(err(
