@@ -68,11 +68,41 @@ pub struct SolveOptions {
     pub max_memory: Option<f64>,
 }
 
+/// Parameter values given on the command line.
+#[derive(Args, Debug, Clone, Default)]
+pub struct SetArgs {
+    /// NAME=VALUE: use VALUE (a number, in the design's units) for the design's parameter
+    /// NAME instead of the value in the file. Repeat for several parameters.
+    #[arg(long = "set", value_name = "NAME=VALUE")]
+    pub set: Vec<String>,
+}
+
+/// Options of the pictures a command draws.
+#[derive(Args, Debug, Clone)]
+pub struct PictureArgs {
+    /// Width of the PNG pictures, px (400 to 8000; the height follows the design's shape).
+    #[arg(long, value_name = "PX", default_value_t = 1200,
+          value_parser = clap::value_parser!(u32).range(400..=8000))]
+    pub picture_width: u32,
+}
+
+impl PictureArgs {
+    /// The renderer's options for these arguments.
+    pub fn render_options(&self) -> crate::render::RenderOptions {
+        crate::render::RenderOptions {
+            width: self.picture_width,
+        }
+    }
+}
+
 /// `fieldgrid solve`.
 #[derive(Args, Debug)]
 pub struct SolveArgs {
     /// The design file (TOML).
     pub design: PathBuf,
+    /// Parameter values.
+    #[command(flatten)]
+    pub set: SetArgs,
     /// Directory for the results (created if missing).
     #[arg(long)]
     pub out: PathBuf,
@@ -83,9 +113,13 @@ pub struct SolveArgs {
     /// index per node) for general-purpose 3-D viewers.
     #[arg(long)]
     pub vtk: bool,
-    /// Draw field.png on a logarithmic scale.
+    /// Draw field.png on a logarithmic scale (four decades below the peak) instead of a
+    /// linear one whose colours saturate at the 99.5th percentile.
     #[arg(long)]
     pub log_field: bool,
+    /// Picture options.
+    #[command(flatten)]
+    pub pictures: PictureArgs,
     /// Exit with code 1 when any hot spot's margin is below this value.
     #[arg(long)]
     pub min_margin: Option<f64>,
@@ -103,9 +137,15 @@ pub struct SolveArgs {
 pub struct CheckArgs {
     /// The design file (TOML).
     pub design: PathBuf,
+    /// Parameter values.
+    #[command(flatten)]
+    pub set: SetArgs,
     /// Write a preview picture `preview.png` (and `check.json`) here.
     #[arg(long)]
     pub out: Option<PathBuf>,
+    /// Picture options.
+    #[command(flatten)]
+    pub pictures: PictureArgs,
     /// Print nothing but errors.
     #[arg(long)]
     pub quiet: bool,
@@ -116,6 +156,9 @@ pub struct CheckArgs {
 pub struct ImpedanceArgs {
     /// The design file (TOML), a planar cross-section.
     pub design: PathBuf,
+    /// Parameter values.
+    #[command(flatten)]
+    pub set: SetArgs,
     /// The signal conductors, comma-separated; every other conductor is grounded.
     #[arg(
         long,
@@ -127,6 +170,9 @@ pub struct ImpedanceArgs {
     /// Directory for the results (created if missing).
     #[arg(long)]
     pub out: PathBuf,
+    /// Picture options.
+    #[command(flatten)]
+    pub pictures: PictureArgs,
     /// Solver options.
     #[command(flatten)]
     pub opts: SolveOptions,
@@ -143,9 +189,12 @@ pub struct CompareArgs {
     /// Relative change beyond which a quantity counts as changed.
     #[arg(long, default_value_t = 0.01, value_name = "X")]
     pub rel_tol: f64,
-    /// Write compare.csv and compare.json here.
+    /// Write compare.csv, compare.json and (for two designs on one grid) field_change.png here.
     #[arg(long)]
     pub out: Option<PathBuf>,
+    /// Picture options.
+    #[command(flatten)]
+    pub pictures: PictureArgs,
     /// Solver options (for design files).
     #[command(flatten)]
     pub opts: SolveOptions,

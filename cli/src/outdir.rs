@@ -183,12 +183,14 @@ impl OutDir {
 
     /// Writes a PNG atomically.
     pub fn write_png(&self, name: &str, img: &image::RgbImage) -> Result<PathBuf, Failure> {
+        use image::codecs::png::{CompressionType, FilterType, PngEncoder};
         let mut bytes = Vec::new();
-        img.write_to(
-            &mut std::io::Cursor::new(&mut bytes),
-            image::ImageFormat::Png,
-        )
-        .map_err(|e| Failure::io(format!("encoding {name}"), e))?;
+        // Best compression: the maps are smooth gradients under thin lines, and the files
+        // end up in reports and repositories.
+        let enc =
+            PngEncoder::new_with_quality(&mut bytes, CompressionType::Best, FilterType::Adaptive);
+        img.write_with_encoder(enc)
+            .map_err(|e| Failure::io(format!("encoding {name}"), e))?;
         self.write(name, &bytes)
     }
 }

@@ -2,8 +2,8 @@
 
 use crate::design_file::DesignSource;
 use crate::render::{
-    self, ContourStyle, FieldLines, LengthUnit, MapInput, Marker, Material, Outline, PreviewInput,
-    RenderOptions, Scale,
+    self, axes, sample, ContourStyle, FieldLines, LengthUnit, MapInput, Marker, Material, Outline,
+    PreviewInput, RenderOptions, Scale,
 };
 use fieldgrid_solver::design::{Design, Mode};
 use fieldgrid_solver::post::FieldEval;
@@ -38,8 +38,47 @@ fn axis_names(design: &Design) -> [&'static str; 2] {
     }
 }
 
-/// `potential.png` and `field.png` of a solution.
-pub fn field_maps(src: &DesignSource, sol: &Solution, log_field: bool) -> (RgbImage, RgbImage) {
+/// Share of the free nodes whose field magnitude sets the top of a linear `field.png` scale:
+/// the few nodes at sharp corners, whose values are singular, saturate instead of washing out
+/// the rest of the map.
+pub const FIELD_PERCENTILE: f64 = 0.995;
+
+/// The top of a linear field colour scale: the [`FIELD_PERCENTILE`] quantile of the finite
+/// magnitudes, or `None` (the whole range) when the peak is within 1.5 times of it and
+/// saturating would hide more than it shows.
+pub fn field_saturation(magnitude: &[f64]) -> Option<f64> {
+    let mut m: Vec<f64> = magnitude
+        .iter()
+        .copied()
+        .filter(|v| v.is_finite())
+        .collect();
+    if m.len() < 2 {
+        return None;
+    }
+    m.sort_by(f64::total_cmp);
+    let k = ((m.len() - 1) as f64 * FIELD_PERCENTILE).round() as usize;
+    let (q, peak) = (m[k], m[m.len() - 1]);
+    (q > 0.0 && peak > 1.5 * q).then_some(q)
+}
+
+/// `v` with an SI prefix and its unit: "721 V/m", "4.8 kV/m".
+fn with_unit(v: f64, unit: &str) -> String {
+    let s = axes::si(v);
+    if s.ends_with(|c: char| c.is_ascii_digit()) {
+        format!("{s} {unit}")
+    } else {
+        format!("{s}{unit}")
+    }
+}
+
+/// `potential.png` and `field.png` of a solution; `log_field` draws the field on a
+/// logarithmic scale.
+pub fn field_maps(
+    src: &DesignSource,
+    sol: &Solution,
+    log_field: bool,
+    opts: &RenderOptions,
+) -> (RgbImage, RgbImage) {
     let design = &src.design;
     let (conductors, dielectrics) = outlines(design);
     let unit = LengthUnit {
@@ -55,7 +94,6 @@ pub fn field_maps(src: &DesignSource, sol: &Solution, log_field: bool) -> (RgbIm
             number: k as u32 + 1,
         })
         .collect();
-    let opts = RenderOptions::default();
     let potential: Vec<f64> = sol
         .potential
         .iter()
@@ -89,17 +127,29 @@ pub fn field_maps(src: &DesignSource, sol: &Solution, log_field: bool) -> (RgbIm
         count: 24,
         permittivity: Some(&eps),
     });
-    let pot_img = render::render_map(&map, &opts);
+    let pot_img = render::render_map(&map, opts);
 
     let v: Vec<f64> = sol.conductors.iter().map(|c| c.potential).collect();
     let field = FieldEval::new(&sol.operator, &sol.raster, &sol.potential, &v);
     let magnitude: Vec<f64> = (0..sol.grid.len()).map(|p| field.magnitude(p)).collect();
-    let mut map = MapInput::new(&sol.grid, &magnitude);
-    map.title = if log_field {
-        "Field magnitude (logarithmic scale)"
+    let top = if log_field {
+        None
     } else {
-        "Field magnitude"
+        field_saturation(&magnitude)
     };
+    let peak = sample::finite_range(&magnitude).map_or(0.0, |r| r.1);
+    let title = match top {
+        _ if log_field => "Field magnitude (logarithmic scale)".to_string(),
+        Some(q) => format!(
+            "Field magnitude (colours saturate above {}; peak {})",
+            with_unit(q, "V/m"),
+            with_unit(peak, "V/m")
+        ),
+        None => "Field magnitude".to_string(),
+    };
+    let mut map = MapInput::new(&sol.grid, &magnitude);
+    map.title = &title;
+    map.range = top.map(|q| [0.0, q]);
     map.quantity = "|E|";
     map.unit = "V/m";
     map.length_unit = unit;
@@ -109,12 +159,12 @@ pub fn field_maps(src: &DesignSource, sol: &Solution, log_field: bool) -> (RgbIm
     map.markers = &markers;
     map.contours = ContourStyle::None;
     map.scale = if log_field { Scale::Log } else { Scale::Linear };
-    let field_img = render::render_map(&map, &opts);
+    let field_img = render::render_map(&map, opts);
     (pot_img, field_img)
 }
 
 /// The geometry preview of `check`.
-pub fn preview(src: &DesignSource) -> RgbImage {
+pub fn preview(src: &DesignSource, opts: &RenderOptions) -> RgbImage {
     let design = &src.design;
     let (conductors, _) = outlines(design);
     let tol = tolerance(design);
@@ -146,5 +196,5 @@ pub fn preview(src: &DesignSource) -> RgbImage {
     input.dielectrics = &materials;
     input.conductors = &conductors;
     input.markers = &markers;
-    render::render_preview(&input, &RenderOptions::default())
+    render::render_preview(&input, opts)
 }

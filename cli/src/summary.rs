@@ -17,6 +17,9 @@ pub struct Summary {
     /// Hash of the design text.
     #[serde(default)]
     pub design_hash: String,
+    /// The design's parameters as used (after `--set`), in file order, in the file's units.
+    #[serde(default)]
+    pub parameters: Vec<ParameterSummary>,
     /// "planar" or "axisymmetric".
     pub mode: String,
     /// True in planar mode: charges C/m, capacitance F/m, energy J/m, force N/m.
@@ -45,6 +48,15 @@ pub struct Summary {
     /// Transmission-line parameters (the `impedance` command).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub line: Option<serde_json::Value>,
+}
+
+/// One design parameter.
+#[derive(Serialize, Deserialize, Debug, Clone, PartialEq)]
+pub struct ParameterSummary {
+    /// Its name in `[parameters]`.
+    pub name: String,
+    /// Its value, in the design file's units.
+    pub value: f64,
 }
 
 /// Grid size.
@@ -190,6 +202,7 @@ impl Summary {
             version: VERSION,
             tool_version: env!("CARGO_PKG_VERSION").to_string(),
             design_hash: design_hash.to_string(),
+            parameters: Vec::new(),
             mode: if planar { "planar" } else { "axisymmetric" }.to_string(),
             per_length: planar,
             depth,
@@ -264,4 +277,15 @@ impl Summary {
             line: None,
         }
     }
+}
+
+/// The parameters a design was read with, for [`Summary::parameters`].
+pub fn parameters(src: &crate::design_file::DesignSource) -> Vec<ParameterSummary> {
+    src.parameters
+        .iter()
+        .map(|(name, value)| ParameterSummary {
+            name: name.clone(),
+            value: *value,
+        })
+        .collect()
 }

@@ -8,7 +8,7 @@ use crate::EXIT_OK;
 
 /// Runs the command, returning the exit code.
 pub fn run(args: &CheckArgs) -> Result<u8, Failure> {
-    let src = load_design(&args.design, &[])?;
+    let src = load_design(&args.design, &super::parameter_overrides(&args.set)?)?;
     let (grid, mib) = check_memory(&src, &args.design, None)?;
     let d = &src.design;
     let report = serde_json::json!({
@@ -22,7 +22,10 @@ pub fn run(args: &CheckArgs) -> Result<u8, Failure> {
     });
     if let Some(dir) = &args.out {
         let out = OutDir::prepare(dir)?;
-        out.write_png("preview.png", &crate::pictures::preview(&src))?;
+        out.write_png(
+            "preview.png",
+            &crate::pictures::preview(&src, &args.pictures.render_options()),
+        )?;
         out.write(
             "check.json",
             &serde_json::to_vec_pretty(&report)

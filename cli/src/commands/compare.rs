@@ -326,7 +326,7 @@ pub fn run(args: &CompareArgs) -> Result<u8, Failure> {
     let picture = match (&base.solution, &new.solution, &out) {
         (Some((sb, _)), Some((sn, src)), Some(_)) => {
             if sb.grid == sn.grid {
-                Some(change_picture(sb, sn, src))
+                Some(change_picture(sb, sn, src, &args.pictures.render_options()))
             } else {
                 remarks
                     .push("no field_change.png: the two designs have different grids".to_string());
@@ -366,8 +366,13 @@ pub fn field_magnitude(sol: &Solution) -> Vec<f64> {
 }
 
 /// The map of |E|(NEW) - |E|(BASE) on their common grid, NEW's outlines drawn.
-fn change_picture(base: &Solution, new: &Solution, src: &DesignSource) -> image::RgbImage {
-    use crate::render::{self, ContourStyle, MapInput, Outline, Palette, RenderOptions};
+fn change_picture(
+    base: &Solution,
+    new: &Solution,
+    src: &DesignSource,
+    opts: &crate::render::RenderOptions,
+) -> image::RgbImage {
+    use crate::render::{self, ContourStyle, MapInput, Outline, Palette};
     let eb = field_magnitude(base);
     let en = field_magnitude(new);
     let diff: Vec<f64> = eb.iter().zip(&en).map(|(b, n)| n - b).collect();
@@ -413,7 +418,7 @@ fn change_picture(base: &Solution, new: &Solution, src: &DesignSource) -> image:
         range: (top > 0.0).then_some([-top, top]),
         ..MapInput::new(&new.grid, &diff)
     };
-    render::render_map(&input, &RenderOptions::default())
+    render::render_map(&input, opts)
 }
 
 fn opt_num(v: Option<f64>) -> String {

@@ -24,7 +24,7 @@ use std::time::Instant;
 
 /// Runs the command, returning the exit code.
 pub fn run(args: &ImpedanceArgs) -> Result<u8, Failure> {
-    let src = load_design(&args.design, &[])?;
+    let src = load_design(&args.design, &super::parameter_overrides(&args.set)?)?;
     let design = &src.design;
     if design.mode != Mode::Planar {
         return Err(Failure::input(format!(
@@ -59,6 +59,7 @@ pub fn run(args: &ImpedanceArgs) -> Result<u8, Failure> {
         }
     }
     let mut summary = Summary::from_solution(sol, design.depth, seconds, &src.text_hash);
+    summary.parameters = crate::summary::parameters(&src);
     summary.warnings.extend(warnings.iter().cloned());
     summary.solver.converged &= sol0.solve.converged;
     summary.solver.solves += sol0.solve.solves;
@@ -73,6 +74,10 @@ pub fn run(args: &ImpedanceArgs) -> Result<u8, Failure> {
     summary.line = Some(line_json(&args.signal, &ls.mirrored, lp, errors));
     write_results(&out, sol, &summary, design, false)?;
     out.write("line.csv", &line_csv(lp, errors))?;
+    let (potential_png, field_png) =
+        crate::pictures::field_maps(&src, sol, false, &args.pictures.render_options());
+    out.write_png("potential.png", &potential_png)?;
+    out.write_png("field.png", &field_png)?;
     if !args.opts.quiet {
         print!(
             "{}",

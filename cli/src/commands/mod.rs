@@ -38,7 +38,33 @@ fn read_limited(path: &Path, max: u64) -> std::io::Result<String> {
     Ok(text)
 }
 
-/// Reads and validates a design file.
+/// Parses `--set NAME=VALUE` options into parameter overrides.
+pub fn parameter_overrides(set: &crate::args::SetArgs) -> Result<Vec<(String, f64)>, Failure> {
+    set.set
+        .iter()
+        .map(|s| {
+            let form = "write --set NAME=VALUE, for example gap=0.5";
+            let (name, value) = s
+                .split_once('=')
+                .ok_or_else(|| Failure::input(format!("--set {s}: no `=`: {form}")))?;
+            let name = name.trim();
+            if name.is_empty() {
+                return Err(Failure::input(format!(
+                    "--set {s}: no parameter name: {form}"
+                )));
+            }
+            match value.trim().parse::<f64>() {
+                Ok(v) if v.is_finite() => Ok((name.to_string(), v)),
+                _ => Err(Failure::input(format!(
+                    "--set {s}: `{}` is not a finite number",
+                    value.trim()
+                ))),
+            }
+        })
+        .collect()
+}
+
+/// Reads and validates a design file, with `overrides` replacing parameter values.
 pub fn load_design(path: &Path, overrides: &[(String, f64)]) -> Result<DesignSource, Failure> {
     let text = read_limited(path, MAX_DESIGN_BYTES)
         .map_err(|e| Failure::input(format!("{}: cannot read the design: {e}", path.display())))?;

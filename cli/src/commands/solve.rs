@@ -11,7 +11,7 @@ use std::time::Instant;
 
 /// Runs the command, returning the exit code.
 pub fn run(args: &SolveArgs) -> Result<u8, Failure> {
-    let src = load_design(&args.design, &[])?;
+    let src = load_design(&args.design, &super::parameter_overrides(&args.set)?)?;
     let rate = if args.field_table {
         super::BYTES_PER_NODE + super::FIELD_TABLE_BYTES_PER_NODE
     } else {
@@ -39,14 +39,16 @@ pub fn run(args: &SolveArgs) -> Result<u8, Failure> {
     if !args.opts.quiet && std::io::IsTerminal::is_terminal(&std::io::stderr()) {
         eprint!("\r{:60}\r", "");
     }
-    let summary = Summary::from_solution(&sol, src.design.depth, seconds, &src.text_hash);
+    let mut summary = Summary::from_solution(&sol, src.design.depth, seconds, &src.text_hash);
+    summary.parameters = crate::summary::parameters(&src);
     write_results(&out, &sol, &summary, &src.design, args.field_table)?;
     if args.vtk {
         let bytes = crate::vtk::vti_bytes(&sol, &src.design)
             .map_err(|e| Failure::io("encoding field.vti", e))?;
         out.write("field.vti", &bytes)?;
     }
-    let (potential_png, field_png) = crate::pictures::field_maps(&src, &sol, args.log_field);
+    let (potential_png, field_png) =
+        crate::pictures::field_maps(&src, &sol, args.log_field, &args.pictures.render_options());
     out.write_png("potential.png", &potential_png)?;
     out.write_png("field.png", &field_png)?;
     let circuit = crate::spice::for_solution(
@@ -363,6 +365,27 @@ fn report(sol: &Solution, summary: &Summary, out: &OutDir) -> String {
             .collect();
         let _ = writeln!(s, "  {name:>12} {}", row.join(" "));
     }
+    let (qu, fu) = if summary.per_length {
+        ("C/m", "N/m")
+    } else {
+        ("C", "N")
+    };
+    let _ = writeln!(s, "conductors (potential, charge, force):");
+    for c in &summary.conductors {
+        let force = if summary.per_length {
+            format!("({:.4e}, {:.4e}) {fu}", c.force[0], c.force[1])
+        } else {
+            format!("{:.4e} {fu} along the axis", c.force[1])
+        };
+        let _ = writeln!(
+            s,
+            "  {:>12} {:>11} V{} {:12.4e} {qu}   {force}",
+            c.name,
+            trimmed(c.potential),
+            if c.floating { " (floating)" } else { "" },
+            c.charge
+        );
+    }
     if let Some(p) = &sol.peak_field {
         let _ = writeln!(
             s,
@@ -379,11 +402,36 @@ fn report(sol: &Solution, summary: &Summary, out: &OutDir) -> String {
         );
     }
     s += &hotspot_report(&sol.hotspots, 5);
+    if !summary.probes.is_empty() {
+        let _ = writeln!(s, "probes:");
+    }
+    for p in &summary.probes {
+        let field = match p.field {
+            [Some(ex), Some(ey)] => format!("field ({ex:.4e}, {ey:.4e}) V/m"),
+            _ => "inside a conductor".to_string(),
+        };
+        let _ = writeln!(
+            s,
+            "  {:>12} at ({:.4e} m, {:.4e} m): {:.5e} V, {field}",
+            p.name, p.x, p.y, p.potential
+        );
+    }
     for w in &sol.warnings {
         let _ = writeln!(s, "warning: {w}");
     }
     let _ = writeln!(s, "results in {}", out.path().display());
     s
+}
+
+/// `v` to six decimals, trailing zeros dropped: "12", "4.334617".
+fn trimmed(v: f64) -> String {
+    let s = format!("{v:.6}");
+    let s = s.trim_end_matches('0').trim_end_matches('.');
+    if s == "-0" {
+        "0".to_string()
+    } else {
+        s.to_string()
+    }
 }
 
 /// The ranked hot spots (at most `shown` of them), the singular note and the caution.

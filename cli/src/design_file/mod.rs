@@ -658,7 +658,7 @@ impl Reader<'_> {
             return Err(InputError::unplaced(
                 self.file,
                 &join("parameters", n),
-                format!("cannot vary `{n}`: the design has no such parameter ({known})"),
+                format!("cannot set `{n}`: the design has no such parameter ({known})"),
             ));
         }
         Ok(())

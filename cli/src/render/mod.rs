@@ -521,6 +521,10 @@ struct ColorScale {
     table: &'static Table,
     /// SI prefix exponent for linear labels.
     exp3: i32,
+    /// Some values lie above `hi` / below `lo` (a range narrower than the values): the bar
+    /// gets a pointed cap at that end.
+    over: bool,
+    under: bool,
 }
 
 impl ColorScale {
@@ -566,6 +570,10 @@ impl ColorScale {
                 (lo - lo.abs() * 0.05, hi + hi.abs() * 0.05)
             };
         }
+        let (over, under) = match found {
+            Some((flo, fhi)) => (fhi > hi, !log && flo < lo),
+            None => (false, false),
+        };
         let table = if diverging {
             colormap::diverging()
         } else {
@@ -583,6 +591,8 @@ impl ColorScale {
             log,
             table,
             exp3,
+            over,
+            under,
         }
     }
 
@@ -694,6 +704,8 @@ impl ColorScale {
 
 const BAR_GAP: i64 = 22;
 const BAR_W: i64 = 18;
+/// Height of the pointed cap at a saturated end of the colour bar, px.
+const BAR_CAP: i64 = 12;
 
 fn bar_label_style() -> Style {
     Style::new(12.0, INK)
@@ -724,6 +736,22 @@ fn draw_bar(
         fill_rect(img, x0, y0 + r, x0 + BAR_W, y0 + r + 1, c, 1.0);
     }
     rect_outline(img, x0 - 1, y0 - 1, x0 + BAR_W + 1, y0 + h + 1, GREY_INK);
+    // Pointed caps: values beyond the bar's end take its end colour.
+    for (on, base, dir, t) in [(cs.over, y0 - 2, -1, 1.0), (cs.under, y0 + h + 1, 1, 0.0)] {
+        if !on {
+            continue;
+        }
+        let c = cs.table.at_or_fill(t);
+        for k in 0..BAR_CAP {
+            // Row k of the cap: full bar width at its base, narrowing to a point.
+            let half = (BAR_W + 2) * (BAR_CAP - k) / (2 * BAR_CAP);
+            let y = base + dir * k;
+            let mid = x0 + BAR_W / 2;
+            fill_rect(img, mid - half, y, mid + half, y + 1, c, 1.0);
+            fill_rect(img, mid - half - 1, y, mid - half, y + 1, GREY_INK, 1.0);
+            fill_rect(img, mid + half, y, mid + half + 1, y + 1, GREY_INK, 1.0);
+        }
+    }
     let st = bar_label_style();
     let mut widest = 0.0f32;
     for (v, l) in ticks {
