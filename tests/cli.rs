@@ -198,3 +198,143 @@ fn memory_guard_refuses_oversized_grids_with_exit_2() {
     );
     assert!(!out.exists());
 }
+
+/// Parallel plates 4 mm wide whose gap is a parameter (mirror sides left and right).
+const GAPPED: &str = r#"
+unit = "mm"
+[parameters]
+gap = 2.0
+[grid]
+x = [0.0, 4.0]
+y = [0.0, 4.0]
+cell = 0.1
+[sides]
+left = "symmetry"
+right = "symmetry"
+top = "symmetry"
+[[conductor]]
+name = "plate"
+potential = 1.0
+rect = { x = [0.0, 4.0], y = ["gap", "gap + 0.5"] }
+"#;
+
+fn summary_of(out: &Path) -> serde_json::Value {
+    serde_json::from_slice(&std::fs::read(out.join("summary.json")).unwrap()).unwrap()
+}
+
+#[test]
+fn set_replaces_a_parameter_for_one_run_and_the_summary_records_it() {
+    let dir = scratch("set");
+    let design = write(&dir, "gapped.toml", GAPPED);
+    let (a, b) = (dir.join("a"), dir.join("b"));
+    expect(
+        run(&["solve", &design, "--out", a.to_str().unwrap(), "--quiet"]),
+        0,
+    );
+    expect(
+        run(&[
+            "solve",
+            &design,
+            "--set",
+            "gap=1",
+            "--out",
+            b.to_str().unwrap(),
+            "--quiet",
+        ]),
+        0,
+    );
+    let (sa, sb) = (summary_of(&a), summary_of(&b));
+    assert_eq!(
+        sa["parameters"],
+        serde_json::json!([{ "name": "gap", "value": 2.0 }])
+    );
+    assert_eq!(
+        sb["parameters"],
+        serde_json::json!([{ "name": "gap", "value": 1.0 }])
+    );
+    // Parallel plates: C = eps0 w / gap (the field above the plate ends at a mirror side, so
+    // the plate's top face carries no charge): halving the gap doubles C exactly.
+    let c = |s: &serde_json::Value| s["capacitance"]["matrix"][0][0].as_f64().unwrap();
+    let ratio = c(&sb) / c(&sa);
+    assert!((ratio - 2.0).abs() < 1e-9, "C ratio {ratio}");
+    // The file is untouched: the design hash is the same.
+    assert_eq!(sa["design_hash"], sb["design_hash"]);
+}
+
+#[test]
+fn set_with_an_unknown_parameter_or_a_bad_value_is_refused_before_writing() {
+    let dir = scratch("set-bad");
+    let design = write(&dir, "gapped.toml", GAPPED);
+    for bad in ["gapp=1", "gap", "gap=abc", "gap=inf", "=1"] {
+        let out = dir.join("out");
+        expect(
+            run(&[
+                "solve",
+                &design,
+                "--set",
+                bad,
+                "--out",
+                out.to_str().unwrap(),
+            ]),
+            2,
+        );
+        assert!(!out.exists(), "--set {bad} left {out:?}");
+    }
+}
+
+#[test]
+fn picture_width_sets_every_picture_and_out_of_range_widths_are_refused() {
+    let dir = scratch("width");
+    let design = write(&dir, "gapped.toml", GAPPED);
+    let out = dir.join("out");
+    expect(
+        run(&[
+            "solve",
+            &design,
+            "--picture-width",
+            "640",
+            "--out",
+            out.to_str().unwrap(),
+            "--quiet",
+        ]),
+        0,
+    );
+    for name in ["potential.png", "field.png"] {
+        let img = image::open(out.join(name)).unwrap();
+        assert!(
+            img.width() <= 640 && img.width() >= 400,
+            "{name}: {}",
+            img.width()
+        );
+    }
+    let check = dir.join("check");
+    expect(
+        run(&[
+            "check",
+            &design,
+            "--picture-width",
+            "500",
+            "--out",
+            check.to_str().unwrap(),
+            "--quiet",
+        ]),
+        0,
+    );
+    let img = image::open(check.join("preview.png")).unwrap();
+    assert!(img.width() <= 500, "{}", img.width());
+    for w in ["399", "8001", "wide"] {
+        let o = dir.join(format!("o{w}"));
+        expect(
+            run(&[
+                "solve",
+                &design,
+                "--picture-width",
+                w,
+                "--out",
+                o.to_str().unwrap(),
+            ]),
+            2,
+        );
+        assert!(!o.exists());
+    }
+}

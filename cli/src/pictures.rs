@@ -198,3 +198,29 @@ pub fn preview(src: &DesignSource, opts: &RenderOptions) -> RgbImage {
     input.markers = &markers;
     render::render_preview(&input, opts)
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_few_singular_nodes_saturate_the_field_scale_a_smooth_field_does_not() {
+        // 1000 nodes of a smooth field from 1 to 2 V/m.
+        let smooth: Vec<f64> = (0..1000).map(|k| 1.0 + k as f64 / 999.0).collect();
+        assert_eq!(field_saturation(&smooth), None);
+        // The same with three corner nodes at 50 V/m and conductor nodes (NaN).
+        let mut spiky = smooth.clone();
+        spiky.extend([50.0, 50.0, 50.0, f64::NAN, f64::NAN]);
+        let q = field_saturation(&spiky).expect("saturates");
+        assert!((1.9..=2.0).contains(&q), "{q}");
+        // Nothing to scale.
+        assert_eq!(field_saturation(&[f64::NAN, 0.0]), None);
+        assert_eq!(field_saturation(&[0.0; 10]), None);
+    }
+
+    #[test]
+    fn values_with_units_take_a_space_only_without_a_prefix() {
+        assert_eq!(with_unit(721.0, "V/m"), "721 V/m");
+        assert_eq!(with_unit(4.8e3, "V/m"), "4.8 kV/m");
+    }
+}

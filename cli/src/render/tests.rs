@@ -736,3 +736,28 @@ fn shapes_reaching_past_the_axis_are_clipped_to_the_plot() {
         assert_eq!(px(img, plot.px([0.3 * MM, 5.5 * MM])), NO_VALUE);
     }
 }
+
+#[test]
+fn a_colour_range_narrower_than_the_values_caps_that_end_of_the_bar() {
+    let s = scene();
+    let bar_cap_pixel = |img: &RgbImage, plot: &Plot, above: bool| {
+        let bx = (plot.right() + BAR_GAP + BAR_W / 2) as u32;
+        let y = if above {
+            plot.y0 - 4
+        } else {
+            plot.bottom() + 3
+        };
+        *img.get_pixel(bx, y as u32)
+    };
+    // The whole range: no caps.
+    let (img, plot) = draw_map(&input(&s), &RenderOptions::default());
+    assert_eq!(bar_cap_pixel(&img, &plot, true), PAPER);
+    assert_eq!(bar_cap_pixel(&img, &plot, false), PAPER);
+    // A range inside the values at both ends: both caps, in the end colours.
+    let (lo, hi) = sample::finite_range(&s.values).unwrap();
+    let mut narrow = input(&s);
+    narrow.range = Some([lo + 0.25 * (hi - lo), hi - 0.25 * (hi - lo)]);
+    let (img, plot) = draw_map(&narrow, &RenderOptions::default());
+    assert_eq!(bar_cap_pixel(&img, &plot, true), sequential().rgb[LEN - 1]);
+    assert_eq!(bar_cap_pixel(&img, &plot, false), sequential().rgb[0]);
+}
