@@ -956,6 +956,23 @@ fn an_expression_too_deep_at_its_end_points_inside_the_text() {
     assert_eq!(e.kind, expr::ExprErrorKind::TooComplex);
 }
 
+/// Fuzzing finding (expression target): a text over the length limit that starts with a
+/// character of several bytes (an invalid byte read as U+FFFD) got an error range of one
+/// byte, which ends inside that character.
+#[test]
+fn an_expression_too_long_that_starts_with_a_wide_character_points_at_it_whole() {
+    use fieldgrid_cli::design_file::expr;
+    for first in ["\u{FFFD}", "\u{e9}", "\u{1F600}", "a"] {
+        let text = format!("{first}{}", "+1".repeat(expr::MAX_LEN));
+        let e = expr::eval(&text, &|_| None).unwrap_err();
+        assert_eq!(e.kind, expr::ExprErrorKind::TooComplex);
+        assert_eq!((e.offset, e.len), (0, first.len()), "{first:?}");
+    }
+    let mut bytes = vec![0xB8u8];
+    bytes.extend("+1".repeat(expr::MAX_LEN).bytes());
+    assert!(fuzzing::expr_target(&bytes).starts_with("err"));
+}
+
 /// Fuzzing findings (design target): domains of 1e305 m (a parameter near the double
 /// range) passed the reader; their node coordinates and areas of revolution overflowed, and
 /// the raster and operator filled with NaN. Domains are now bounded (exit 2, at the key).

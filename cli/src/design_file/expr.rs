@@ -107,9 +107,10 @@ pub fn is_reserved(name: &str) -> bool {
 /// Evaluates `text`, resolving parameter names with `lookup`.
 pub fn eval(text: &str, lookup: &dyn Fn(&str) -> Option<f64>) -> Result<f64, ExprError> {
     if text.len() > MAX_LEN {
+        // The span is the first character, whole (it may take several bytes).
         return Err(ExprError {
             offset: 0,
-            len: 1,
+            len: text.chars().next().map_or(0, char::len_utf8),
             kind: ExprErrorKind::TooComplex,
         });
     }
