@@ -4,7 +4,7 @@
 //! right-hand side, so their entries stay zero. The reported residual is recomputed from
 //! `b - A x` at exit, not taken from the recurrence.
 
-use super::{check_progress, Info, Params, SolveError, StopReason};
+use super::{curvature_breakdown, krylov_outcome, Info, Params, Progress, SolveError, StopReason};
 use crate::parallel;
 use crate::stencil::Stencil5;
 use rayon::prelude::*;
@@ -51,11 +51,9 @@ pub(crate) fn pcg(
     let mut z = vec![0.0; n];
     let mut p = vec![0.0; n];
     let mut ap = vec![0.0; n];
-    let mut rel = rel0;
-    let mut best = rel0;
-    let mut since_best = 0;
+    let mut progress = Progress::new(rel0, params.tol, 200);
     let mut iterations = 0;
-    let mut reason = if rel <= params.tol {
+    let mut reason = if rel0 <= params.tol {
         Some(StopReason::Converged)
     } else {
         None
@@ -71,12 +69,8 @@ pub(crate) fn pcg(
             }
             a.apply(&p, &mut ap);
             let pap = parallel::dot(&p, &ap);
-            if pap.is_nan() || pap <= 0.0 {
-                reason = Some(if pap.is_finite() {
-                    StopReason::Stagnated
-                } else {
-                    StopReason::NonFinite
-                });
+            if let Some(stop) = curvature_breakdown(pap) {
+                reason = Some(stop);
                 break;
             }
             let alpha = rz / pap;
@@ -87,21 +81,11 @@ pub(crate) fn pcg(
                 .zip(ap.par_iter())
                 .for_each(|(r, ap)| *r -= alpha * ap);
             iterations += 1;
-            rel = parallel::norm2(&r) / bnorm;
+            let rel = parallel::norm2(&r) / bnorm;
             if let Some(m) = &params.monitor {
                 m(iterations, rel);
             }
-            if rel <= params.tol {
-                reason = Some(StopReason::Converged);
-                break;
-            }
-            if rel < best {
-                best = rel;
-                since_best = 0;
-            } else {
-                since_best += 1;
-            }
-            if let Some(stop) = check_progress(rel, rel0, best, since_best, 200) {
+            if let Some(stop) = progress.record(rel, 1) {
                 reason = Some(stop);
                 break;
             }
@@ -115,25 +99,7 @@ pub(crate) fn pcg(
         }
     }
     let true_rel = a.residual(b, x, &mut r) / bnorm;
-    let mut reason = reason.unwrap_or(StopReason::MaxIterations);
-    // The recurrence can drift from the true residual; only the true one may claim success.
-    if reason == StopReason::Converged && true_rel > 10.0 * params.tol {
-        reason = StopReason::Stagnated;
-    }
-    if !true_rel.is_finite() {
-        reason = StopReason::NonFinite;
-    }
-    let info = Info {
-        method,
-        iterations,
-        relative_residual: true_rel,
-        reason,
-    };
-    if info.converged() {
-        Ok(info)
-    } else {
-        Err(SolveError::NotConverged(info))
-    }
+    krylov_outcome(method, iterations, reason, true_rel, params.tol)
 }
 
 #[cfg(test)]

@@ -126,6 +126,15 @@ impl Info {
     pub fn converged(&self) -> bool {
         matches!(self.reason, StopReason::Converged | StopReason::ZeroRhs)
     }
+
+    /// `Ok(self)` when converged, else the error that carries it.
+    pub(crate) fn into_result(self) -> Result<Info, SolveError> {
+        if self.converged() {
+            Ok(self)
+        } else {
+            Err(SolveError::NotConverged(self))
+        }
+    }
 }
 
 /// A solve that did not reach the tolerance. `x` holds the last iterate.
@@ -224,24 +233,93 @@ pub fn solve(
     prepare(method, stencil).solve(stencil, b, x, params)
 }
 
-/// Classifies the state of an iteration from its residual history. Shared by the iterative
+/// The residual history of an iteration and the reasons to stop it, shared by the iterative
 /// methods so that they stop for the same reasons.
-pub(crate) fn check_progress(
-    rel: f64,
-    initial_rel: f64,
-    best_rel: f64,
+#[derive(Clone, Copy, Debug)]
+pub(crate) struct Progress {
+    tol: f64,
+    initial: f64,
+    best: f64,
+    /// Iterations since `best` last fell.
     since_best: usize,
+    /// Iterations without a fall below half of `best` that count as stagnation.
     window: usize,
-) -> Option<StopReason> {
-    if !rel.is_finite() {
-        Some(StopReason::NonFinite)
-    } else if rel > 1e8 * initial_rel.max(1.0) {
-        Some(StopReason::Diverged)
-    } else if since_best > window && rel > 0.5 * best_rel {
-        Some(StopReason::Stagnated)
+}
+
+impl Progress {
+    /// A history that starts at the relative residual `initial`, aiming at `tol`.
+    pub(crate) fn new(initial: f64, tol: f64, window: usize) -> Progress {
+        Progress {
+            tol,
+            initial,
+            best: initial,
+            since_best: 0,
+            window,
+        }
+    }
+
+    /// Records the relative residual `rel` reached after `steps` more iterations and says
+    /// whether to stop: converged, non-finite, diverged (1e8 times the start) or stagnated.
+    pub(crate) fn record(&mut self, rel: f64, steps: usize) -> Option<StopReason> {
+        if rel < self.best {
+            self.best = rel;
+            self.since_best = 0;
+        } else {
+            self.since_best += steps;
+        }
+        if rel <= self.tol {
+            Some(StopReason::Converged)
+        } else if !rel.is_finite() {
+            // NaN lands here too: it compares false with the tolerance.
+            Some(StopReason::NonFinite)
+        } else if rel > 1e8 * self.initial.max(1.0) {
+            Some(StopReason::Diverged)
+        } else if self.since_best > self.window && rel > 0.5 * self.best {
+            Some(StopReason::Stagnated)
+        } else {
+            None
+        }
+    }
+}
+
+/// Why a conjugate-gradient step cannot go on when `p.Ap` is not positive (the operator or
+/// preconditioner is not positive definite in finite precision), if it cannot.
+pub(crate) fn curvature_breakdown(pap: f64) -> Option<StopReason> {
+    if pap.is_nan() || pap <= 0.0 {
+        Some(if pap.is_finite() {
+            StopReason::Stagnated
+        } else {
+            StopReason::NonFinite
+        })
     } else {
         None
     }
+}
+
+/// The outcome of a Krylov iteration that stopped for `reason` (none: the iteration limit)
+/// with the true relative residual `true_rel`: the recurrence can drift from the true
+/// residual, and only the true one may claim success.
+pub(crate) fn krylov_outcome(
+    method: &'static str,
+    iterations: usize,
+    reason: Option<StopReason>,
+    true_rel: f64,
+    tol: f64,
+) -> Result<Info, SolveError> {
+    let mut reason = reason.unwrap_or(StopReason::MaxIterations);
+    if reason == StopReason::Converged && true_rel > 10.0 * tol {
+        reason = StopReason::Stagnated;
+    }
+    if !true_rel.is_finite() {
+        reason = StopReason::NonFinite;
+    }
+    Info {
+        method,
+        iterations,
+        relative_residual: true_rel,
+        reason,
+    }
+    .into_result()
 }
 
 #[cfg(test)]
@@ -289,5 +367,36 @@ pub(crate) mod testing {
             })
             .collect();
         (s, b)
+    }
+}
+
+#[cfg(test)]
+mod progress_tests {
+    use super::{Progress, StopReason};
+
+    #[test]
+    fn progress_stops_for_each_reason_and_not_before() {
+        let mut p = Progress::new(1.0, 1e-8, 3);
+        assert_eq!(p.record(0.5, 1), None);
+        assert_eq!(p.record(1e-9, 1), Some(StopReason::Converged));
+        let mut p = Progress::new(1.0, 1e-8, 3);
+        assert_eq!(p.record(f64::NAN, 1), Some(StopReason::NonFinite));
+        assert_eq!(p.record(f64::INFINITY, 1), Some(StopReason::NonFinite));
+        let mut p = Progress::new(2.0, 1e-8, 3);
+        assert_eq!(p.record(1.9e8, 1), None);
+        assert_eq!(p.record(2.1e8, 1), Some(StopReason::Diverged));
+        // Stagnation: more than `window` iterations since the best residual last fell, and
+        // still above half of it.
+        let mut p = Progress::new(1.0, 1e-8, 3);
+        assert_eq!(p.record(0.1, 1), None);
+        for _ in 0..3 {
+            assert_eq!(p.record(0.1, 1), None);
+        }
+        assert_eq!(p.record(0.1, 1), Some(StopReason::Stagnated));
+        // A fall below half of the best in time keeps it going.
+        let mut p = Progress::new(1.0, 1e-8, 3);
+        assert_eq!(p.record(0.1, 2), None);
+        assert_eq!(p.record(0.2, 2), None);
+        assert_eq!(p.record(0.04, 2), None);
     }
 }

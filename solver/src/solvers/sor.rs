@@ -3,7 +3,7 @@
 //! Invariant: within one colour, every update reads only nodes of the other colour, so the
 //! rows of a colour can be updated in parallel with results independent of the thread count.
 
-use super::{check_progress, Info, Params, SolveError, StopReason};
+use super::{Info, Params, Progress, SolveError, StopReason};
 use crate::parallel;
 use crate::stencil::Stencil5;
 use rayon::prelude::*;
@@ -95,7 +95,8 @@ pub fn solve(a: &Stencil5, b: &[f64], x: &mut [f64], params: &Params) -> Result<
     let check_every = 10;
     let mut r = vec![0.0; a.len()];
     let rel0 = a.residual(b, x, &mut r) / bnorm;
-    let (mut rel, mut best, mut since_best, mut iterations) = (rel0, rel0, 0, 0);
+    let mut progress = Progress::new(rel0, params.tol, 2000);
+    let (mut rel, mut iterations) = (rel0, 0);
     let reason = loop {
         if rel <= params.tol {
             break StopReason::Converged;
@@ -112,30 +113,17 @@ pub fn solve(a: &Stencil5, b: &[f64], x: &mut [f64], params: &Params) -> Result<
         if let Some(m) = &params.monitor {
             m(iterations, rel);
         }
-        if rel < best {
-            best = rel;
-            since_best = 0;
-        } else {
-            since_best += steps;
-        }
-        // A NaN residual is checked too (it compares false with anything).
-        if rel.is_nan() || rel > params.tol {
-            if let Some(stop) = check_progress(rel, rel0, best, since_best, 2000) {
-                break stop;
-            }
+        if let Some(stop) = progress.record(rel, steps) {
+            break stop;
         }
     };
-    let info = Info {
+    Info {
         method: METHOD,
         iterations,
         relative_residual: rel,
         reason,
-    };
-    if info.converged() {
-        Ok(info)
-    } else {
-        Err(SolveError::NotConverged(info))
     }
+    .into_result()
 }
 
 #[cfg(test)]

@@ -16,7 +16,9 @@ use super::smoother::{wavefront, Stage};
 use super::transfer::{each, PARALLEL_MIN};
 use super::Hierarchy;
 use crate::parallel;
-use crate::solvers::{check_progress, Info, Params, SolveError, StopReason};
+use crate::solvers::{
+    curvature_breakdown, krylov_outcome, Info, Params, Progress, SolveError, StopReason,
+};
 use crate::stencil::Stencil5;
 
 /// Row j of `y = A x` (five-point stencil), returning the row's sum of `x . y`.
@@ -171,8 +173,9 @@ pub(super) fn pcg(
     let mut zw = vec![0.0; n];
     let mut p = vec![0.0; n];
     let mut partial = vec![0.0; a.ny];
-    let (mut rel, mut best, mut since_best, mut iterations) = (rel0, rel0, 0usize, 0usize);
-    let mut reason = if rel <= params.tol {
+    let mut progress = Progress::new(rel0, params.tol, 200);
+    let mut iterations = 0usize;
+    let mut reason = if rel0 <= params.tol {
         Some(StopReason::Converged)
     } else {
         None
@@ -186,31 +189,17 @@ pub(super) fn pcg(
                 break;
             }
             let pap = direction_and_apply(a, &mut zw, &mut p, beta, &mut partial);
-            if pap.is_nan() || pap <= 0.0 {
-                reason = Some(if pap.is_finite() {
-                    StopReason::Stagnated
-                } else {
-                    StopReason::NonFinite
-                });
+            if let Some(stop) = curvature_breakdown(pap) {
+                reason = Some(stop);
                 break;
             }
             let alpha = rz / pap;
-            rel = step(a, x, &mut r, &p, &zw, alpha, &mut partial).sqrt() / bnorm;
+            let rel = step(a, x, &mut r, &p, &zw, alpha, &mut partial).sqrt() / bnorm;
             iterations += 1;
             if let Some(m) = &params.monitor {
                 m(iterations, rel);
             }
-            if rel <= params.tol {
-                reason = Some(StopReason::Converged);
-                break;
-            }
-            if rel < best {
-                best = rel;
-                since_best = 0;
-            } else {
-                since_best += 1;
-            }
-            if let Some(stop) = check_progress(rel, rel0, best, since_best, 200) {
+            if let Some(stop) = progress.record(rel, 1) {
                 reason = Some(stop);
                 break;
             }
@@ -220,23 +209,5 @@ pub(super) fn pcg(
         }
     }
     let true_rel = a.residual(b, x, &mut r) / bnorm;
-    let mut reason = reason.unwrap_or(StopReason::MaxIterations);
-    // The recurrence can drift from the true residual; only the true one may claim success.
-    if reason == StopReason::Converged && true_rel > 10.0 * params.tol {
-        reason = StopReason::Stagnated;
-    }
-    if !true_rel.is_finite() {
-        reason = StopReason::NonFinite;
-    }
-    let info = Info {
-        method: METHOD,
-        iterations,
-        relative_residual: true_rel,
-        reason,
-    };
-    if info.converged() {
-        Ok(info)
-    } else {
-        Err(SolveError::NotConverged(info))
-    }
+    krylov_outcome(METHOD, iterations, reason, true_rel, params.tol)
 }
