@@ -3,8 +3,8 @@
 //! BASE and NEW are each a design file (solved now, with the common solve options), a
 //! `summary.json` written by `solve`, or a results directory holding one. Both become a
 //! [`Summary`]; the compared quantities are every capacitance entry `C[a,b]`, every
-//! conductor's charge `Q[a]`, the potential `V[a]` of every floating conductor, the energy
-//! and the peak field. A quantity present on one side only is reported and counts as a
+//! conductor's charge `Q[a]` and force `F[a]` (planar: its magnitude; axisymmetric: along
+//! the axis), the potential `V[a]` of every floating conductor, the energy and the peak field. A quantity present on one side only is reported and counts as a
 //! change.
 //!
 //! Invariants: the relative change is (new - base) / |base| (zero when both are zero, infinite
@@ -48,7 +48,7 @@ pub enum InputKind {
 /// One compared quantity.
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct Change {
-    /// `C[a,b]`, `Q[a]`, `V[a]`, `energy` or `peak_field`.
+    /// `C[a,b]`, `Q[a]`, `F[a]`, `V[a]`, `energy` or `peak_field`.
     pub quantity: String,
     /// SI unit.
     pub unit: String,
@@ -184,6 +184,21 @@ pub fn quantities(s: &Summary) -> Vec<(String, String, f64, String)> {
             unit("C/m", "C"),
             c.charge,
             String::new(),
+        ));
+    }
+    for c in &s.conductors {
+        // Planar: the magnitude of (Fx, Fy), so that a component near zero by symmetry does
+        // not report round-off as a change; axisymmetric: the force along the axis.
+        let (f, note) = if per {
+            (c.force[0].hypot(c.force[1]), "magnitude")
+        } else {
+            (c.force[1], "along the axis")
+        };
+        out.push((
+            format!("F[{}]", c.name),
+            unit("N/m", "N"),
+            f,
+            note.to_string(),
         ));
     }
     for c in s.conductors.iter().filter(|c| c.floating) {
@@ -566,6 +581,36 @@ mod tests {
         assert_eq!(relative_change(0.0, 0.0), 0.0);
         assert_eq!(relative_change(-2.0, -3.0), -0.5);
         assert_eq!(relative_change(0.0, -1.0), f64::NEG_INFINITY);
+    }
+
+    fn summary_of(text: &str) -> Summary {
+        let src = crate::design_file::read_design(text, "t.toml", &[]).unwrap();
+        let sol = fieldgrid_solver::study::run(&src.design, &Default::default()).unwrap();
+        Summary::from_solution(&sol, None, 0.0, &src.text_hash)
+    }
+
+    #[test]
+    fn forces_are_compared_by_magnitude_in_the_plane_and_along_the_axis_in_r_z() {
+        let plates = |mode: &str| {
+            format!(
+                "mode = \"{mode}\"\n[grid]\nx = [0.0, 1.0]\ny = [0.0, 1.0]\ncell = 0.05\n\
+                 [[conductor]]\nname = \"p\"\npotential = 1.0\n\
+                 rect = {{ x = [0.0, 0.5], y = [0.4, 0.5] }}\n"
+            )
+        };
+        for (mode, note) in [("planar", "magnitude"), ("axisymmetric", "along the axis")] {
+            let s = summary_of(&plates(mode));
+            let f = s.conductors[0].force;
+            let want = if mode == "planar" {
+                f[0].hypot(f[1])
+            } else {
+                f[1]
+            };
+            let q = quantities(&s);
+            let got = q.iter().find(|q| q.0 == "F[p]").expect("F[p] compared");
+            assert_eq!((got.2, got.3.as_str()), (want, note), "{mode}");
+            assert!(want != 0.0, "{mode}: the plate is pulled");
+        }
     }
 
     #[test]
