@@ -11,8 +11,10 @@
 
 use std::fs;
 use std::path::{Path, PathBuf};
+use std::process::ExitCode;
 
 use fieldgrid_cli::design_file::{read_design, InputError};
+use fieldgrid_tests::cli::{code, run, s, scratch};
 
 struct Expect {
     line: usize,
@@ -231,27 +233,14 @@ fn mutated_designs_never_panic_the_reader() {
 /// `--out` directory behind.
 #[test]
 fn every_malformed_design_exits_2_through_solve_and_writes_nothing() {
-    let scratch = std::env::temp_dir().join(format!("fieldgrid-bad-input-{}", std::process::id()));
-    let _ = fs::remove_dir_all(&scratch);
-    fs::create_dir_all(&scratch).unwrap();
+    let scratch = scratch("fieldgrid-bad-input", "solve");
     let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("bad_input");
-    let want = format!(
-        "{:?}",
-        std::process::ExitCode::from(fieldgrid_cli::EXIT_BAD_INPUT)
-    );
+    let want = code(ExitCode::from(fieldgrid_cli::EXIT_BAD_INPUT));
     let mut failures = Vec::new();
     for (name, _) in catalogue() {
         let out = scratch.join(name.trim_end_matches(".toml"));
         let design = dir.join(&name);
-        let args = [
-            "fieldgrid",
-            "solve",
-            design.to_str().unwrap(),
-            "--out",
-            out.to_str().unwrap(),
-            "--quiet",
-        ];
-        let got = format!("{:?}", fieldgrid_cli::main_with_args(args));
+        let got = code(run(&["solve", s(&design), "--out", s(&out), "--quiet"]));
         if got != want {
             failures.push(format!("{name}: exit {got}"));
         }

@@ -1,35 +1,9 @@
 //! End-to-end tests of the `fieldgrid` command: exit codes, files written, nothing partial.
 
-use std::path::{Path, PathBuf};
-use std::process::ExitCode;
+use fieldgrid_tests::cli::{expect, read_json, run, scratch, summary, write};
 
-fn run(args: &[&str]) -> ExitCode {
-    let mut full = vec!["fieldgrid"];
-    full.extend_from_slice(args);
-    fieldgrid_cli::main_with_args(full)
-}
-
-fn code(c: ExitCode) -> String {
-    format!("{c:?}")
-}
-
-fn expect(c: ExitCode, want: u8) {
-    assert_eq!(code(c), code(ExitCode::from(want)));
-}
-
-/// A fresh, empty scratch directory unique to the test.
-fn scratch(name: &str) -> PathBuf {
-    let d = std::env::temp_dir().join(format!("fieldgrid-cli-{}-{name}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&d);
-    std::fs::create_dir_all(&d).unwrap();
-    d
-}
-
-fn write(dir: &Path, name: &str, text: &str) -> String {
-    let p = dir.join(name);
-    std::fs::write(&p, text).unwrap();
-    p.display().to_string()
-}
+/// The prefix of this file's scratch directories.
+const SCRATCH: &str = "fieldgrid-cli";
 
 const PLATES: &str = r#"
 unit = "mm"
@@ -48,7 +22,7 @@ at = [2.0, 1.0]
 
 #[test]
 fn solve_writes_every_result_file() {
-    let dir = scratch("solve");
+    let dir = scratch(SCRATCH, "solve");
     let design = write(&dir, "plates.toml", PLATES);
     let out = dir.join("out");
     expect(
@@ -71,8 +45,7 @@ fn solve_writes_every_result_file() {
     ] {
         assert!(out.join(f).is_file(), "{f} missing");
     }
-    let s: serde_json::Value =
-        serde_json::from_slice(&std::fs::read(out.join("summary.json")).unwrap()).unwrap();
+    let s = summary(&out);
     assert_eq!(s["version"], 1);
     assert_eq!(s["mode"], "planar");
     assert_eq!(s["per_length"], true);
@@ -91,7 +64,7 @@ fn solve_writes_every_result_file() {
 
 #[test]
 fn bad_design_exits_2_and_leaves_no_output() {
-    let dir = scratch("bad");
+    let dir = scratch(SCRATCH, "bad");
     let design = write(
         &dir,
         "bad.toml",
@@ -107,7 +80,7 @@ fn bad_design_exits_2_and_leaves_no_output() {
 
 #[test]
 fn out_that_is_a_file_is_refused_before_solving() {
-    let dir = scratch("outfile");
+    let dir = scratch(SCRATCH, "outfile");
     let design = write(&dir, "plates.toml", PLATES);
     let out = write(&dir, "not_a_dir", "x");
     expect(run(&["solve", &design, "--out", &out, "--quiet"]), 2);
@@ -116,7 +89,7 @@ fn out_that_is_a_file_is_refused_before_solving() {
 
 #[test]
 fn missing_design_file_and_bad_usage_exit_2() {
-    let dir = scratch("missing");
+    let dir = scratch(SCRATCH, "missing");
     let out = dir.join("out");
     expect(
         run(&[
@@ -134,7 +107,7 @@ fn missing_design_file_and_bad_usage_exit_2() {
 
 #[test]
 fn non_convergence_exits_3_with_results_written_and_flagged() {
-    let dir = scratch("noconv");
+    let dir = scratch(SCRATCH, "noconv");
     let design = write(&dir, "plates.toml", PLATES);
     let out = dir.join("out");
     let args = [
@@ -149,8 +122,7 @@ fn non_convergence_exits_3_with_results_written_and_flagged() {
         "2",
     ];
     expect(run(&args), 3);
-    let s: serde_json::Value =
-        serde_json::from_slice(&std::fs::read(out.join("summary.json")).unwrap()).unwrap();
+    let s = summary(&out);
     assert_eq!(s["solver"]["converged"], false);
     assert!(s["warnings"]
         .as_array()
@@ -161,15 +133,14 @@ fn non_convergence_exits_3_with_results_written_and_flagged() {
 
 #[test]
 fn check_reports_grid_without_solving() {
-    let dir = scratch("check");
+    let dir = scratch(SCRATCH, "check");
     let design = write(&dir, "plates.toml", PLATES);
     let out = dir.join("out");
     expect(
         run(&["check", &design, "--out", out.to_str().unwrap(), "--quiet"]),
         0,
     );
-    let s: serde_json::Value =
-        serde_json::from_slice(&std::fs::read(out.join("check.json")).unwrap()).unwrap();
+    let s = read_json(&out.join("check.json"));
     assert_eq!(s["grid"]["nx"], 41);
     assert_eq!(s["grid"]["ny"], 21);
     assert!(!out.join("summary.json").exists());
@@ -177,7 +148,7 @@ fn check_reports_grid_without_solving() {
 
 #[test]
 fn memory_guard_refuses_oversized_grids_with_exit_2() {
-    let dir = scratch("memory");
+    let dir = scratch(SCRATCH, "memory");
     let design = write(
         &dir,
         "big.toml",
@@ -218,13 +189,9 @@ potential = 1.0
 rect = { x = [0.0, 4.0], y = ["gap", "gap + 0.5"] }
 "#;
 
-fn summary_of(out: &Path) -> serde_json::Value {
-    serde_json::from_slice(&std::fs::read(out.join("summary.json")).unwrap()).unwrap()
-}
-
 #[test]
 fn set_replaces_a_parameter_for_one_run_and_the_summary_records_it() {
-    let dir = scratch("set");
+    let dir = scratch(SCRATCH, "set");
     let design = write(&dir, "gapped.toml", GAPPED);
     let (a, b) = (dir.join("a"), dir.join("b"));
     expect(
@@ -243,7 +210,7 @@ fn set_replaces_a_parameter_for_one_run_and_the_summary_records_it() {
         ]),
         0,
     );
-    let (sa, sb) = (summary_of(&a), summary_of(&b));
+    let (sa, sb) = (summary(&a), summary(&b));
     assert_eq!(
         sa["parameters"],
         serde_json::json!([{ "name": "gap", "value": 2.0 }])
@@ -263,7 +230,7 @@ fn set_replaces_a_parameter_for_one_run_and_the_summary_records_it() {
 
 #[test]
 fn set_with_an_unknown_parameter_or_a_bad_value_is_refused_before_writing() {
-    let dir = scratch("set-bad");
+    let dir = scratch(SCRATCH, "set-bad");
     let design = write(&dir, "gapped.toml", GAPPED);
     for bad in ["gapp=1", "gap", "gap=abc", "gap=inf", "=1"] {
         let out = dir.join("out");
@@ -284,7 +251,7 @@ fn set_with_an_unknown_parameter_or_a_bad_value_is_refused_before_writing() {
 
 #[test]
 fn picture_width_sets_every_picture_and_out_of_range_widths_are_refused() {
-    let dir = scratch("width");
+    let dir = scratch(SCRATCH, "width");
     let design = write(&dir, "gapped.toml", GAPPED);
     let out = dir.join("out");
     expect(

@@ -3,29 +3,12 @@
 //! designs `geometries/touch_pad_rev_a.toml` and `touch_pad_rev_b.toml` (the neighbour pad
 //! moved 0.3 mm closer).
 
-use std::path::{Path, PathBuf};
-use std::process::ExitCode;
+use std::path::Path;
 
-fn run(args: &[&str]) -> ExitCode {
-    let mut full = vec!["fieldgrid"];
-    full.extend_from_slice(args);
-    fieldgrid_cli::main_with_args(full)
-}
+use fieldgrid_tests::cli::{expect_for, read_json, run, s, scratch};
 
-fn expect(c: ExitCode, want: u8, what: &str) {
-    assert_eq!(
-        format!("{c:?}"),
-        format!("{:?}", ExitCode::from(want)),
-        "{what}"
-    );
-}
-
-fn scratch(name: &str) -> PathBuf {
-    let d = Path::new(env!("CARGO_TARGET_TMPDIR")).join(format!("compare-{name}"));
-    let _ = std::fs::remove_dir_all(&d);
-    std::fs::create_dir_all(&d).unwrap();
-    d
-}
+/// The prefix of this file's scratch directories.
+const SCRATCH: &str = "fieldgrid-compare";
 
 fn demo(name: &str) -> String {
     Path::new(env!("CARGO_MANIFEST_DIR"))
@@ -33,10 +16,6 @@ fn demo(name: &str) -> String {
         .join(name)
         .display()
         .to_string()
-}
-
-fn s(p: &Path) -> &str {
-    p.to_str().unwrap()
 }
 
 /// compare.csv as (quantity -> row).
@@ -53,7 +32,7 @@ fn row<'a>(t: &'a [csv::StringRecord], q: &str) -> &'a csv::StringRecord {
 
 #[test]
 fn compare_designs_and_summaries_of_two_revisions() {
-    let dir = scratch("revisions");
+    let dir = scratch(SCRATCH, "revisions");
     let (a, b) = (demo("touch_pad_rev_a.toml"), demo("touch_pad_rev_b.toml"));
     let q = ["--quiet", "--no-error-estimate"];
 
@@ -61,7 +40,7 @@ fn compare_designs_and_summaries_of_two_revisions() {
     let same = dir.join("same");
     let mut args = vec!["compare", &a, &a, "--out", s(&same)];
     args.extend(q);
-    expect(run(&args), 0, "identical designs");
+    expect_for(run(&args), 0, "identical designs");
     assert!(table(&same).iter().all(|r| &r[6] == "false"));
     assert!(
         same.join("field_change.png").is_file(),
@@ -72,7 +51,7 @@ fn compare_designs_and_summaries_of_two_revisions() {
     let rev = dir.join("rev");
     let mut args = vec!["compare", &a, &b, "--out", s(&rev)];
     args.extend(q);
-    expect(run(&args), 1, "revision B moves the neighbour");
+    expect_for(run(&args), 1, "revision B moves the neighbour");
     let t = table(&rev);
     let coupling = row(&t, "C[pad,neighbour]");
     let rel: f64 = coupling[5].parse().unwrap();
@@ -87,8 +66,7 @@ fn compare_designs_and_summaries_of_two_revisions() {
     for qn in ["C[pad,pad]", "Q[pad]", "energy", "peak_field"] {
         row(&t, qn);
     }
-    let json: serde_json::Value =
-        serde_json::from_slice(&std::fs::read(rev.join("compare.json")).unwrap()).unwrap();
+    let json = read_json(&rev.join("compare.json"));
     assert!(json["changed"].as_u64().unwrap() >= 1);
     assert_eq!(json["rel_tol"].as_f64(), Some(0.01));
 
@@ -102,11 +80,11 @@ fn compare_designs_and_summaries_of_two_revisions() {
     );
     let mut args = vec!["compare", &a, &b, "--rel-tol", &rel_tol];
     args.extend(q);
-    expect(run(&args), 0, "tolerance above every change");
+    expect_for(run(&args), 0, "tolerance above every change");
 
     // The same on summary.json files written by `solve`.
     let (sa, sb) = (dir.join("a"), dir.join("b"));
-    expect(
+    expect_for(
         run(&[
             "solve",
             &a,
@@ -118,7 +96,7 @@ fn compare_designs_and_summaries_of_two_revisions() {
         0,
         "solve A",
     );
-    expect(
+    expect_for(
         run(&[
             "solve",
             &b,
@@ -131,24 +109,24 @@ fn compare_designs_and_summaries_of_two_revisions() {
         "solve B",
     );
     let (ja, jb) = (sa.join("summary.json"), sb.join("summary.json"));
-    expect(
+    expect_for(
         run(&["compare", s(&ja), s(&ja), "--quiet"]),
         0,
         "same summary",
     );
-    expect(
+    expect_for(
         run(&["compare", s(&ja), s(&jb), "--quiet"]),
         1,
         "two revisions' summaries",
     );
     // A results directory stands for its summary.json, and a design for its solve.
-    expect(
+    expect_for(
         run(&["compare", s(&sa), &a, "--quiet", "--no-error-estimate"]),
         0,
         "dir vs design",
     );
     let mixed = dir.join("mixed");
-    expect(
+    expect_for(
         run(&[
             "compare",
             s(&ja),
@@ -169,7 +147,7 @@ fn compare_designs_and_summaries_of_two_revisions() {
 
 #[test]
 fn compare_reports_quantities_on_one_side_only_as_changes() {
-    let dir = scratch("one-sided");
+    let dir = scratch(SCRATCH, "one-sided");
     let base = serde_json::json!({
         "version": 1, "mode": "planar", "per_length": true,
         "grid": { "nx": 11, "ny": 11, "cell": 1e-4 },
@@ -188,7 +166,7 @@ fn compare_reports_quantities_on_one_side_only_as_changes() {
     std::fs::write(&pb, serde_json::to_vec(&base).unwrap()).unwrap();
     std::fs::write(&pn, serde_json::to_vec(&new).unwrap()).unwrap();
     let out = dir.join("out");
-    expect(
+    expect_for(
         run(&["compare", s(&pb), s(&pn), "--out", s(&out), "--quiet"]),
         1,
         "renamed conductor",
@@ -203,7 +181,7 @@ fn compare_reports_quantities_on_one_side_only_as_changes() {
     let mut inside = base.clone();
     inside["energy"] = (1e-11 * 1.009).into();
     std::fs::write(&pn, serde_json::to_vec(&inside).unwrap()).unwrap();
-    expect(
+    expect_for(
         run(&["compare", s(&pb), s(&pn), "--quiet"]),
         0,
         "0.9 % change",
@@ -211,7 +189,7 @@ fn compare_reports_quantities_on_one_side_only_as_changes() {
     let mut outside = base.clone();
     outside["energy"] = (1e-11 * 1.011).into();
     std::fs::write(&pn, serde_json::to_vec(&outside).unwrap()).unwrap();
-    expect(
+    expect_for(
         run(&["compare", s(&pb), s(&pn), "--quiet"]),
         1,
         "1.1 % change",
@@ -220,36 +198,36 @@ fn compare_reports_quantities_on_one_side_only_as_changes() {
 
 #[test]
 fn compare_refuses_bad_input_with_exit_2() {
-    let dir = scratch("bad");
+    let dir = scratch(SCRATCH, "bad");
     let junk = dir.join("junk.json");
     std::fs::write(&junk, "{ \"version\": 1 ").unwrap();
     let missing = dir.join("missing.toml");
     let good = dir.join("good.json");
     std::fs::write(&good, "{}").unwrap();
-    expect(
+    expect_for(
         run(&["compare", s(&junk), s(&junk), "--quiet"]),
         2,
         "broken JSON",
     );
-    expect(
+    expect_for(
         run(&["compare", s(&missing), s(&missing), "--quiet"]),
         2,
         "missing file",
     );
-    expect(
+    expect_for(
         run(&["compare", s(&good), s(&good), "--quiet"]),
         2,
         "JSON that is not a summary",
     );
-    expect(
+    expect_for(
         run(&["compare", s(&dir), s(&dir), "--quiet"]),
         2,
         "directory without summary",
     );
-    expect(
+    expect_for(
         run(&["compare", s(&junk), s(&junk), "--rel-tol=-1", "--quiet"]),
         2,
         "negative tolerance",
     );
-    expect(run(&["compare", s(&junk)]), 2, "one input only");
+    expect_for(run(&["compare", s(&junk)]), 2, "one input only");
 }

@@ -1,15 +1,10 @@
 //! Every CSV of a solve reads back with the `csv` crate's default reader: a header row that
 //! names units, the same number of fields on every row, numbers that parse.
 
-use std::path::PathBuf;
-use std::process::ExitCode;
+use fieldgrid_tests::cli::{expect, run, s, scratch, write};
 
-fn scratch(name: &str) -> PathBuf {
-    let d = std::env::temp_dir().join(format!("fieldgrid-csv-{}-{name}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&d);
-    std::fs::create_dir_all(&d).unwrap();
-    d
-}
+/// The prefix of this file's scratch directories.
+const SCRATCH: &str = "fieldgrid-csv";
 
 // A strip over a dielectric layer with a strength, so every table has rows.
 const STRIP: &str = r#"
@@ -68,20 +63,20 @@ fn numeric(file: &str, header: &[String], rows: &[csv::StringRecord], cols: &[&s
 
 #[test]
 fn every_csv_reads_back_with_default_options() {
-    let dir = scratch("strip");
-    let design = dir.join("strip.toml");
-    std::fs::write(&design, STRIP).unwrap();
+    let dir = scratch(SCRATCH, "strip");
+    let design = write(&dir, "strip.toml", STRIP);
     let out = dir.join("out");
-    let code = fieldgrid_cli::main_with_args([
-        "fieldgrid",
-        "solve",
-        design.to_str().unwrap(),
-        "--out",
-        out.to_str().unwrap(),
-        "--quiet",
-        "--field-table",
-    ]);
-    assert_eq!(format!("{code:?}"), format!("{:?}", ExitCode::from(0)));
+    expect(
+        run(&[
+            "solve",
+            &design,
+            "--out",
+            s(&out),
+            "--quiet",
+            "--field-table",
+        ]),
+        0,
+    );
 
     let (h, rows) = read(&out.join("capacitance.csv"));
     assert_eq!(h[0], "conductor");

@@ -5,6 +5,7 @@
 use fieldgrid_cli::design_file::read_design;
 use fieldgrid_solver::solvers::Method;
 use fieldgrid_solver::study::{self, Solution};
+use fieldgrid_tests::cli::{expect_for, run, s, scratch, write};
 use fieldgrid_tests::params;
 
 const HV_TIP: &str = include_str!("../geometries/hv_tip.toml");
@@ -119,32 +120,19 @@ fn rounded_tip_lowers_the_peak_and_is_not_singular() {
     assert!((pf / pc - 1.0).abs() < 0.05, "rounded peak {pc} -> {pf}");
 }
 
-fn run(args: &[&str]) -> std::process::ExitCode {
-    let mut full = vec!["fieldgrid"];
-    full.extend_from_slice(args);
-    fieldgrid_cli::main_with_args(full)
-}
-
-fn expect(c: std::process::ExitCode, want: u8, what: &str) {
-    assert_eq!(
-        format!("{c:?}"),
-        format!("{:?}", std::process::ExitCode::from(want)),
-        "{what}"
-    );
-}
-
 #[test]
 fn solve_reports_singular_hot_spots_and_enforces_min_margin() {
-    let dir = std::path::Path::new(env!("CARGO_TARGET_TMPDIR")).join("hotspots-cli");
-    let _ = std::fs::remove_dir_all(&dir);
-    std::fs::create_dir_all(&dir).unwrap();
-    let design = dir.join("tip.toml");
-    std::fs::write(&design, HV_TIP.replace("cell = 0.05", "cell = 0.2")).unwrap();
-    let d = design.to_str().unwrap();
+    let dir = scratch("fieldgrid-hotspots", "cli");
+    let design = write(
+        &dir,
+        "tip.toml",
+        &HV_TIP.replace("cell = 0.05", "cell = 0.2"),
+    );
+    let d = design.as_str();
     // 10 kV across 2 mm of air is above its 3 kV/mm strength even without the tip: margin < 1.
     let out = dir.join("out");
-    let o = out.to_str().unwrap();
-    expect(
+    let o = s(&out);
+    expect_for(
         run(&["solve", d, "--out", o, "--quiet", "--min-margin", "1.0"]),
         1,
         "margin below 1",
@@ -163,21 +151,24 @@ fn solve_reports_singular_hot_spots_and_enforces_min_margin() {
     let margin: f64 = first[6].parse().unwrap();
     assert!(margin < 1.0);
     // A margin the design meets everywhere: exit 0.
-    expect(
+    expect_for(
         run(&["solve", d, "--out", o, "--quiet", "--min-margin", "0.01"]),
         0,
         "low bar",
     );
     // --min-margin without any strength in the design: refused before solving.
-    let weak = dir.join("nostrength.toml");
-    std::fs::write(&weak, HV_TIP.replace("strength = 3.0e6", "")).unwrap();
+    let weak = write(
+        &dir,
+        "nostrength.toml",
+        &HV_TIP.replace("strength = 3.0e6", ""),
+    );
     let out2 = dir.join("out2");
-    expect(
+    expect_for(
         run(&[
             "solve",
-            weak.to_str().unwrap(),
+            &weak,
             "--out",
-            out2.to_str().unwrap(),
+            s(&out2),
             "--quiet",
             "--min-margin",
             "1.0",

@@ -2,13 +2,13 @@
 //! files and probed at places the renderer's frames name (plot, colour bar, legend).
 
 use std::path::PathBuf;
-use std::process::ExitCode;
 
 use fieldgrid_cli::render::{
     colormap, map_frame, preview_frame, Frame, LengthUnit, Material, Outline, PreviewInput,
     RenderOptions, LEGEND_PITCH,
 };
 use fieldgrid_solver::grid::Grid;
+use fieldgrid_tests::cli::{expect, run, s, scratch, write};
 use image::{Rgb, RgbImage};
 
 /// A 20 x 10 mm box, a 1 V pad in the middle, a slab of permittivity 4 along the bottom.
@@ -30,18 +30,8 @@ rect = { x = [0.0, 20.0], y = [0.0, 2.0] }
 
 const MM: f64 = 1e-3;
 
-fn scratch(name: &str) -> PathBuf {
-    let d = std::env::temp_dir().join(format!("fieldgrid-pictures-{}-{name}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&d);
-    std::fs::create_dir_all(&d).unwrap();
-    d
-}
-
-fn run(args: &[&str]) -> ExitCode {
-    let mut full = vec!["fieldgrid"];
-    full.extend_from_slice(args);
-    fieldgrid_cli::main_with_args(full)
-}
+/// The prefix of this file's scratch directories.
+const SCRATCH: &str = "fieldgrid-pictures";
 
 fn load(path: PathBuf) -> RgbImage {
     image::open(&path)
@@ -109,18 +99,10 @@ fn check_map(img: &RgbImage, f: &Frame) {
 
 #[test]
 fn solve_pictures_have_their_frame_bar_and_outlines() {
-    let dir = scratch("solve");
-    let design = dir.join("pad.toml");
-    std::fs::write(&design, PAD).unwrap();
+    let dir = scratch(SCRATCH, "solve");
+    let design = write(&dir, "pad.toml", PAD);
     let out = dir.join("out");
-    let code = run(&[
-        "solve",
-        design.to_str().unwrap(),
-        "--out",
-        out.to_str().unwrap(),
-        "--quiet",
-    ]);
-    assert_eq!(format!("{code:?}"), format!("{:?}", ExitCode::from(0)));
+    expect(run(&["solve", &design, "--out", s(&out), "--quiet"]), 0);
     let grid = Grid::fit([0.0, 20.0 * MM], [0.0, 10.0 * MM], 0.05 * MM).unwrap();
     let f = map_frame(
         &grid,
@@ -142,17 +124,10 @@ fn solve_pictures_have_their_frame_bar_and_outlines() {
 
 #[test]
 fn check_preview_paints_materials_as_its_legend_says() {
-    let dir = scratch("check");
-    let design = dir.join("pad.toml");
-    std::fs::write(&design, PAD).unwrap();
+    let dir = scratch(SCRATCH, "check");
+    let design = write(&dir, "pad.toml", PAD);
     let out = dir.join("out");
-    let code = run(&[
-        "check",
-        design.to_str().unwrap(),
-        "--out",
-        out.to_str().unwrap(),
-    ]);
-    assert_eq!(format!("{code:?}"), format!("{:?}", ExitCode::from(0)));
+    expect(run(&["check", &design, "--out", s(&out)]), 0);
     let img = load(out.join("preview.png"));
     // The same legend as the command's: background, the slab, conductors.
     let slab = [

@@ -7,10 +7,9 @@ use fieldgrid_solver::line::elliptic_k;
 use fieldgrid_solver::solvers::Method;
 use fieldgrid_solver::study::{self, StudyParams};
 use fieldgrid_solver::{EPS0, MU0};
+use fieldgrid_tests::cli::{expect, run, s, scratch, summary, write};
 use fieldgrid_tests::{design, params, rel_err};
 use std::f64::consts::PI;
-use std::path::PathBuf;
-use std::process::ExitCode;
 
 /// Speed of light in vacuum from the library's constants, m/s.
 fn c_light() -> f64 {
@@ -406,44 +405,30 @@ ring = { center = [0.0, 0.0], inner = 2.5, outer = 2.8 }
 
 // ---- the `impedance` command end to end ----
 
-fn run_cli(args: &[&str]) -> ExitCode {
-    let mut full = vec!["fieldgrid"];
-    full.extend_from_slice(args);
-    fieldgrid_cli::main_with_args(full)
-}
-
-fn same(a: ExitCode, b: u8) -> bool {
-    format!("{a:?}") == format!("{:?}", ExitCode::from(b))
-}
-
-fn scratch(name: &str) -> PathBuf {
-    let d = std::env::temp_dir().join(format!("fieldgrid-line-{}-{name}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&d);
-    std::fs::create_dir_all(&d).unwrap();
-    d
-}
+/// The prefix of this file's scratch directories.
+const SCRATCH: &str = "fieldgrid-line";
 
 #[test]
 fn impedance_command_writes_line_parameters_for_one_and_two_signals() {
-    let dir = scratch("cmd");
-    let one = dir.join("strip.toml");
-    std::fs::write(&one, stripline(1.0, 2.2, 0.05)).unwrap();
+    let dir = scratch(SCRATCH, "cmd");
+    let one = write(&dir, "strip.toml", &stripline(1.0, 2.2, 0.05));
     let out = dir.join("one");
-    let code = run_cli(&[
-        "impedance",
-        one.to_str().unwrap(),
-        "--signal",
-        "strip",
-        "--out",
-        out.to_str().unwrap(),
-        "--quiet",
-    ]);
-    assert!(same(code, 0), "{code:?}");
+    expect(
+        run(&[
+            "impedance",
+            &one,
+            "--signal",
+            "strip",
+            "--out",
+            s(&out),
+            "--quiet",
+        ]),
+        0,
+    );
     for f in ["summary.json", "capacitance.csv", "line.csv"] {
         assert!(out.join(f).is_file(), "{f} missing");
     }
-    let v: serde_json::Value =
-        serde_json::from_slice(&std::fs::read(out.join("summary.json")).unwrap()).unwrap();
+    let v = summary(&out);
     let line = &v["line"];
     assert_eq!(line["signals"], serde_json::json!(["strip"]));
     for k in ["c", "l", "z0", "eps_eff", "error_estimate"] {
@@ -451,21 +436,21 @@ fn impedance_command_writes_line_parameters_for_one_and_two_signals() {
     }
     assert!((line["eps_eff"].as_f64().unwrap() - 2.2).abs() < 1e-9);
 
-    let two = dir.join("pair.toml");
-    std::fs::write(&two, coupled_stripline(0.5, 0.25, 1.0, 0.05)).unwrap();
+    let two = write(&dir, "pair.toml", &coupled_stripline(0.5, 0.25, 1.0, 0.05));
     let out2 = dir.join("two");
-    let code = run_cli(&[
-        "impedance",
-        two.to_str().unwrap(),
-        "--signal",
-        "p,n",
-        "--out",
-        out2.to_str().unwrap(),
-        "--quiet",
-    ]);
-    assert!(same(code, 0), "{code:?}");
-    let v: serde_json::Value =
-        serde_json::from_slice(&std::fs::read(out2.join("summary.json")).unwrap()).unwrap();
+    expect(
+        run(&[
+            "impedance",
+            &two,
+            "--signal",
+            "p,n",
+            "--out",
+            s(&out2),
+            "--quiet",
+        ]),
+        0,
+    );
+    let v = summary(&out2);
     let line = &v["line"];
     for k in ["c", "l", "z_odd", "z_even", "z_diff"] {
         assert!(!line[k].is_null(), "line.{k} missing: {line}");
@@ -480,32 +465,35 @@ fn impedance_command_writes_line_parameters_for_one_and_two_signals() {
 
 #[test]
 fn impedance_command_refuses_unknown_or_floating_signals_before_writing() {
-    let dir = scratch("bad");
-    let f = dir.join("strip.toml");
-    std::fs::write(&f, stripline(1.0, 1.0, 0.05)).unwrap();
+    let dir = scratch(SCRATCH, "bad");
+    let f = write(&dir, "strip.toml", &stripline(1.0, 1.0, 0.05));
     let out = dir.join("out");
-    let code = run_cli(&[
-        "impedance",
-        f.to_str().unwrap(),
-        "--signal",
-        "trace",
-        "--out",
-        out.to_str().unwrap(),
-        "--quiet",
-    ]);
-    assert!(same(code, 2), "{code:?}");
+    expect(
+        run(&[
+            "impedance",
+            &f,
+            "--signal",
+            "trace",
+            "--out",
+            s(&out),
+            "--quiet",
+        ]),
+        2,
+    );
     assert!(!out.exists(), "nothing is written for bad input");
     let floating = stripline(1.0, 1.0, 0.05).replace("potential = 1.0", "floating = true");
     std::fs::write(&f, floating).unwrap();
-    let code = run_cli(&[
-        "impedance",
-        f.to_str().unwrap(),
-        "--signal",
-        "strip",
-        "--out",
-        out.to_str().unwrap(),
-        "--quiet",
-    ]);
-    assert!(same(code, 2), "{code:?}");
+    expect(
+        run(&[
+            "impedance",
+            &f,
+            "--signal",
+            "strip",
+            "--out",
+            s(&out),
+            "--quiet",
+        ]),
+        2,
+    );
     assert!(!out.exists());
 }

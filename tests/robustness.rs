@@ -8,7 +8,7 @@
 
 use std::io::Read;
 use std::path::{Path, PathBuf};
-use std::process::{Command, ExitCode, Stdio};
+use std::process::{Command, Stdio};
 use std::time::Duration;
 
 use clap::Parser;
@@ -16,33 +16,13 @@ use fieldgrid_cli::args::{Cli, Command as Cmd};
 use fieldgrid_cli::commands;
 use fieldgrid_solver::solvers::{self, cg, sor, Method, Params, SolveError, StopReason};
 use fieldgrid_solver::stencil::Stencil5;
+use fieldgrid_tests::cli::{expect, run, scratch, summary, write};
 use fieldgrid_tests::fuzzing;
 
 // ------------------------------------------------------------------------- helpers
 
-fn run(args: &[&str]) -> ExitCode {
-    let mut full = vec!["fieldgrid"];
-    full.extend_from_slice(args);
-    fieldgrid_cli::main_with_args(full)
-}
-
-fn expect(c: ExitCode, want: u8) {
-    assert_eq!(format!("{c:?}"), format!("{:?}", ExitCode::from(want)));
-}
-
-/// A fresh, empty scratch directory unique to the test.
-fn scratch(name: &str) -> PathBuf {
-    let d = std::env::temp_dir().join(format!("fieldgrid-robust-{}-{name}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&d);
-    std::fs::create_dir_all(&d).unwrap();
-    d
-}
-
-fn write(dir: &Path, name: &str, text: &str) -> String {
-    let p = dir.join(name);
-    std::fs::write(&p, text).unwrap();
-    p.display().to_string()
-}
+/// The prefix of this file's scratch directories.
+const SCRATCH: &str = "fieldgrid-robust";
 
 /// Runs a command in-process and returns its failure (code, message), or its exit code.
 fn failure_of(args: &[&str]) -> Result<u8, (u8, String)> {
@@ -216,7 +196,7 @@ circle = { center = [0.5, 0.5], radius = 0.2 }
 #[test]
 fn sigterm_during_a_solve_leaves_no_partial_file() {
     for sig in ["TERM", "INT"] {
-        let dir = scratch(&format!("sig-{sig}"));
+        let dir = scratch(SCRATCH, &format!("sig-{sig}"));
         let design = write(&dir, "slow.toml", SLOW);
         let out = dir.join("out");
         let mut child = spawn_cli(&[
@@ -255,7 +235,7 @@ fn sigterm_during_a_solve_leaves_no_partial_file() {
 
 #[test]
 fn a_signal_during_a_sweep_leaves_a_valid_table_and_the_rerun_resumes() {
-    let dir = scratch("sweep-signal");
+    let dir = scratch(SCRATCH, "sweep-signal");
     let text = SLOW.replace("cell = 0.0025", "cell = \"c\"").replacen(
         "[grid]",
         "[parameters]\nc = 0.02\n[grid]",
@@ -303,7 +283,7 @@ fn a_signal_during_a_sweep_leaves_a_valid_table_and_the_rerun_resumes() {
 
 #[test]
 fn sweep_rerun_skips_the_points_already_written() {
-    let dir = scratch("sweep-resume");
+    let dir = scratch(SCRATCH, "sweep-resume");
     let text = PLATES
         .replace("potential = 5.0", "potential = \"v\"")
         .replacen("[grid]", "[parameters]\nv = 1.0\n[grid]", 1);
@@ -340,7 +320,7 @@ fn sweep_rerun_skips_the_points_already_written() {
 
 #[test]
 fn temporaries_of_a_killed_run_are_removed_by_the_next_run() {
-    let dir = scratch("stale");
+    let dir = scratch(SCRATCH, "stale");
     let design = write(&dir, "plates.toml", PLATES);
     let out = dir.join("out");
     std::fs::create_dir_all(&out).unwrap();
@@ -364,7 +344,7 @@ fn temporaries_of_a_killed_run_are_removed_by_the_next_run() {
 
 #[test]
 fn unwritable_out_is_refused_before_solving() {
-    let dir = scratch("unwritable");
+    let dir = scratch(SCRATCH, "unwritable");
     let design = write(&dir, "plates.toml", PLATES);
     let file = write(&dir, "a_file", "x");
     let below_file = format!("{file}/out");
@@ -426,7 +406,7 @@ fn unwritable_out_is_refused_before_solving() {
 
 #[test]
 fn memory_guard_refuses_before_allocating_and_reports_the_estimate() {
-    let dir = scratch("memory");
+    let dir = scratch(SCRATCH, "memory");
     // 100 001 x 100 001 nodes: about 1.5 TiB at the guard's rate; allocating it first would
     // abort the test process.
     let huge = write(
@@ -660,13 +640,9 @@ fn a_singular_operator_is_never_reported_as_converged() {
     }
 }
 
-fn summary(out: &Path) -> serde_json::Value {
-    serde_json::from_slice(&std::fs::read(out.join("summary.json")).unwrap()).unwrap()
-}
-
 #[test]
 fn unreachable_tolerance_exits_3_with_stagnation_and_flagged_results() {
-    let dir = scratch("stagnate");
+    let dir = scratch(SCRATCH, "stagnate");
     let design = write(&dir, "plates.toml", PLATES);
     for solver in ["multigrid", "cg"] {
         let out = dir.join(format!("out-{solver}"));
@@ -700,7 +676,7 @@ fn unreachable_tolerance_exits_3_with_stagnation_and_flagged_results() {
 
 #[test]
 fn iteration_limit_exits_3_in_a_sweep_with_the_point_flagged() {
-    let dir = scratch("sweep-noconv");
+    let dir = scratch(SCRATCH, "sweep-noconv");
     let text = PLATES.replacen("[grid]", "[parameters]\nv = 1.0\n[grid]", 1);
     let design = write(&dir, "plates.toml", &text);
     let out = dir.join("out");
@@ -753,7 +729,7 @@ fn results(out: &Path) -> Vec<(String, Vec<u8>)> {
 
 #[test]
 fn results_are_byte_identical_across_runs_and_thread_counts() {
-    let dir = scratch("repro");
+    let dir = scratch(SCRATCH, "repro");
     let design = write(&dir, "rich.toml", RICH);
     let mut all = Vec::new();
     for (k, threads) in ["1", "1", "2"].iter().enumerate() {
@@ -817,7 +793,7 @@ fn results_are_byte_identical_across_runs_and_thread_counts() {
 
 #[test]
 fn summary_records_the_tool_version_and_the_design_hash() {
-    let dir = scratch("identity");
+    let dir = scratch(SCRATCH, "identity");
     let design = write(&dir, "plates.toml", PLATES);
     let out = dir.join("out");
     expect(
@@ -909,7 +885,7 @@ fn overflowing_results_of_an_absurd_potential_are_flagged_not_converged() {
         why.starts_with("non-finite values appeared in the"),
         "{why}"
     );
-    let dir = scratch("overflow-potential");
+    let dir = scratch(SCRATCH, "overflow-potential");
     let design = write(&dir, "huge_v.toml", &text);
     let out = dir.join("out");
     expect(
@@ -997,7 +973,7 @@ fn an_absurdly_large_or_small_domain_is_refused_at_its_key() {
 /// for a writer forever. Only regular files up to 64 MiB are read now.
 #[test]
 fn an_svg_import_of_a_device_or_a_pipe_is_refused_without_reading_it() {
-    let dir = scratch("svg-device");
+    let dir = scratch(SCRATCH, "svg-device");
     let fifo = dir.join("pipe.svg");
     let made = Command::new("mkfifo")
         .arg(&fifo)

@@ -4,33 +4,12 @@
 //! independently of the writer.
 
 use std::collections::HashMap;
-use std::path::{Path, PathBuf};
-use std::process::ExitCode;
+use std::path::PathBuf;
 
-fn run(args: &[&str]) -> ExitCode {
-    let mut full = vec!["fieldgrid"];
-    full.extend_from_slice(args);
-    fieldgrid_cli::main_with_args(full)
-}
+use fieldgrid_tests::cli::{expect_for, run, s, scratch, summary, write};
 
-fn expect(c: ExitCode, want: u8, what: &str) {
-    assert_eq!(
-        format!("{c:?}"),
-        format!("{:?}", ExitCode::from(want)),
-        "{what}"
-    );
-}
-
-fn scratch(name: &str) -> PathBuf {
-    let d = Path::new(env!("CARGO_TARGET_TMPDIR")).join(format!("spice-{name}"));
-    let _ = std::fs::remove_dir_all(&d);
-    std::fs::create_dir_all(&d).unwrap();
-    d
-}
-
-fn s(p: &Path) -> &str {
-    p.to_str().unwrap()
-}
+/// The prefix of this file's scratch directories.
+const SCRATCH: &str = "fieldgrid-spice";
 
 /// Reads a subcircuit: its port names and the nodal capacitance matrix of the ports, built
 /// by stamping every capacitor (C between a and b adds C to (a, a) and (b, b) and -C to (a, b)
@@ -116,26 +95,24 @@ floating = true
 rect = { x = [1.0, 5.5], y = [3.0, 3.3] }
 "#;
 
-#[test]
-fn exported_subcircuit_reproduces_the_maxwell_matrix() {
-    let dir = scratch("three");
-    let design = dir.join("three.toml");
-    std::fs::write(&design, THREE).unwrap();
+/// Solves the design `text`, written to `file` in the fresh scratch directory `name`, with
+/// `--circuit`; returns the results directory and its summary.
+fn solve_with_circuit(name: &str, file: &str, text: &str) -> (PathBuf, serde_json::Value) {
+    let dir = scratch(SCRATCH, name);
+    let design = write(&dir, file, text);
     let out = dir.join("out");
-    expect(
-        run(&[
-            "solve",
-            s(&design),
-            "--out",
-            s(&out),
-            "--quiet",
-            "--circuit",
-        ]),
+    expect_for(
+        run(&["solve", &design, "--out", s(&out), "--quiet", "--circuit"]),
         0,
         "solve",
     );
-    let summary: serde_json::Value =
-        serde_json::from_slice(&std::fs::read(out.join("summary.json")).unwrap()).unwrap();
+    let summary = summary(&out);
+    (out, summary)
+}
+
+#[test]
+fn exported_subcircuit_reproduces_the_maxwell_matrix() {
+    let (out, summary) = solve_with_circuit("three", "three.toml", THREE);
     let names: Vec<String> = summary["capacitance"]["names"]
         .as_array()
         .unwrap()
@@ -182,12 +159,11 @@ fn exported_subcircuit_reproduces_the_maxwell_matrix() {
 
 #[test]
 fn planar_export_without_depth_is_skipped_or_refused() {
-    let dir = scratch("nodepth");
-    let design = dir.join("nodepth.toml");
-    std::fs::write(&design, THREE.replace("depth = 25.0\n", "")).unwrap();
+    let dir = scratch(SCRATCH, "nodepth");
+    let design = write(&dir, "nodepth.toml", &THREE.replace("depth = 25.0\n", ""));
     let out = dir.join("out");
-    expect(
-        run(&["solve", s(&design), "--out", s(&out), "--quiet"]),
+    expect_for(
+        run(&["solve", &design, "--out", s(&out), "--quiet"]),
         0,
         "solve without depth",
     );
@@ -198,15 +174,8 @@ fn planar_export_without_depth_is_skipped_or_refused() {
     );
     // Asked for explicitly: refused before solving, nothing written.
     let out2 = dir.join("out2");
-    expect(
-        run(&[
-            "solve",
-            s(&design),
-            "--out",
-            s(&out2),
-            "--quiet",
-            "--circuit",
-        ]),
+    expect_for(
+        run(&["solve", &design, "--out", s(&out2), "--quiet", "--circuit"]),
         2,
         "--circuit without depth",
     );
@@ -228,24 +197,7 @@ name = "ball"
 potential = 1.0
 circle = { center = [0.0, 0.0], radius = 3.0 }
 "#;
-    let dir = scratch("axi");
-    let design = dir.join("ball.toml");
-    std::fs::write(&design, text).unwrap();
-    let out = dir.join("out");
-    expect(
-        run(&[
-            "solve",
-            s(&design),
-            "--out",
-            s(&out),
-            "--quiet",
-            "--circuit",
-        ]),
-        0,
-        "solve",
-    );
-    let summary: serde_json::Value =
-        serde_json::from_slice(&std::fs::read(out.join("summary.json")).unwrap()).unwrap();
+    let (out, summary) = solve_with_circuit("axi", "ball.toml", text);
     let c = summary["capacitance"]["matrix"][0][0].as_f64().unwrap();
     assert_eq!(summary["capacitance"]["unit"], "F");
     let (_, m) = read_back(&std::fs::read_to_string(out.join("capacitance.cir")).unwrap());

@@ -4,12 +4,13 @@
 
 use fieldgrid_cli::design_file::read_design;
 use fieldgrid_solver::design::Shape;
+use fieldgrid_tests::cli::{expect, run, s};
 use std::path::PathBuf;
-use std::process::ExitCode;
 
+/// A fresh scratch directory for the test `name`, with the `art/` folder the designs'
+/// SVG references point into.
 fn scratch(name: &str) -> PathBuf {
-    let d = std::env::temp_dir().join(format!("fieldgrid-svg-{}-{name}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&d);
+    let d = fieldgrid_tests::cli::scratch("fieldgrid-svg", name);
     std::fs::create_dir_all(d.join("art")).unwrap();
     d
 }
@@ -169,8 +170,7 @@ svg = { file = "art/pads.svg", id = "wire" }
 
     // The whole thing solves.
     let out = dir.join("out");
-    let code = fieldgrid_cli::main_with_args(["fieldgrid", "check", file.to_str().unwrap()]);
-    assert_eq!(format!("{code:?}"), format!("{:?}", ExitCode::from(0)));
+    expect(run(&["check", s(&file)]), 0);
     let _ = out;
 }
 
@@ -219,7 +219,6 @@ fn bad_svg_references_are_input_errors_naming_the_key() {
         assert_eq!(e.line, 9, "{e}");
         assert_eq!(e.key, key, "{e}");
         assert!(e.message.contains(fragment), "{e}");
-        let code = fieldgrid_cli::main_with_args(["fieldgrid", "check", file.to_str().unwrap()]);
-        assert_eq!(format!("{code:?}"), format!("{:?}", ExitCode::from(2)));
+        expect(run(&["check", s(&file)]), 2);
     }
 }

@@ -4,30 +4,10 @@
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 
-fn run(args: &[&str]) -> ExitCode {
-    let mut full = vec!["fieldgrid"];
-    full.extend_from_slice(args);
-    fieldgrid_cli::main_with_args(full)
-}
+use fieldgrid_tests::cli::{expect_for, run, s, scratch, write};
 
-fn expect(c: ExitCode, want: u8, what: &str) {
-    assert_eq!(
-        format!("{c:?}"),
-        format!("{:?}", ExitCode::from(want)),
-        "{what}"
-    );
-}
-
-fn scratch(name: &str) -> PathBuf {
-    let d = Path::new(env!("CARGO_TARGET_TMPDIR")).join(format!("sweep-{name}"));
-    let _ = std::fs::remove_dir_all(&d);
-    std::fs::create_dir_all(&d).unwrap();
-    d
-}
-
-fn s(p: &Path) -> &str {
-    p.to_str().unwrap()
-}
+/// The prefix of this file's scratch directories.
+const SCRATCH: &str = "fieldgrid-sweep";
 
 /// Two strips over a ground plane; the gap between them and the width of the second vary.
 const STRIPS: &str = r#"
@@ -62,6 +42,14 @@ fn sweep(design: &str, out: &Path, extra: &[&str]) -> ExitCode {
     run(&args)
 }
 
+/// Merges the shard directories, in the order given, into `out`.
+fn merge(shards: &[&Path], out: &Path) -> ExitCode {
+    let mut args = vec!["sweep", "--merge"];
+    args.extend(shards.iter().map(|d| s(d)));
+    args.extend(["--out", s(out), "--quiet"]);
+    run(&args)
+}
+
 fn rows(dir: &Path) -> (Vec<String>, Vec<Vec<String>>) {
     let mut r = csv::Reader::from_path(dir.join("sweep.csv")).unwrap();
     let h = r.headers().unwrap().iter().map(str::to_string).collect();
@@ -74,13 +62,11 @@ fn rows(dir: &Path) -> (Vec<String>, Vec<Vec<String>>) {
 
 #[test]
 fn sharded_sweep_merges_into_the_unsharded_table_row_for_row() {
-    let dir = scratch("shards");
-    let design = dir.join("strips.toml");
-    std::fs::write(&design, STRIPS).unwrap();
-    let design = s(&design).to_string();
+    let dir = scratch(SCRATCH, "shards");
+    let design = write(&dir, "strips.toml", STRIPS);
 
     let whole = dir.join("whole");
-    expect(sweep(&design, &whole, &[]), 0, "unsharded sweep");
+    expect_for(sweep(&design, &whole, &[]), 0, "unsharded sweep");
     let (header, table) = rows(&whole);
     assert_eq!(
         header,
@@ -123,7 +109,7 @@ fn sharded_sweep_merges_into_the_unsharded_table_row_for_row() {
     let shards: Vec<PathBuf> = (0..3).map(|i| dir.join(format!("shard{i}"))).collect();
     for (i, d) in shards.iter().enumerate() {
         let spec = format!("{i}/3");
-        expect(sweep(&design, d, &["--shard", &spec]), 0, "one shard");
+        expect_for(sweep(&design, d, &["--shard", &spec]), 0, "one shard");
         let (_, part) = rows(d);
         let idx: Vec<usize> = part.iter().map(|r| r[0].parse().unwrap()).collect();
         assert_eq!(
@@ -134,17 +120,8 @@ fn sharded_sweep_merges_into_the_unsharded_table_row_for_row() {
     }
     let merged = dir.join("merged");
     // Shards given in any order.
-    expect(
-        run(&[
-            "sweep",
-            "--merge",
-            s(&shards[2]),
-            s(&shards[0]),
-            s(&shards[1]),
-            "--out",
-            s(&merged),
-            "--quiet",
-        ]),
+    expect_for(
+        merge(&[&shards[2], &shards[0], &shards[1]], &merged),
         0,
         "merge",
     );
@@ -154,41 +131,27 @@ fn sharded_sweep_merges_into_the_unsharded_table_row_for_row() {
 
     // Missing shard: refused.
     let partial = dir.join("partial");
-    expect(
-        run(&[
-            "sweep",
-            "--merge",
-            s(&shards[0]),
-            s(&shards[1]),
-            "--out",
-            s(&partial),
-            "--quiet",
-        ]),
+    expect_for(
+        merge(&[&shards[0], &shards[1]], &partial),
         2,
         "merge without shard 2",
     );
     assert!(!partial.join("sweep.csv").exists());
 
     // A shard of another sweep (other design text): refused.
-    let other_design = dir.join("other.toml");
-    std::fs::write(&other_design, STRIPS.replace("cell = 0.1", "cell = 0.12")).unwrap();
+    let other_design = write(
+        &dir,
+        "other.toml",
+        &STRIPS.replace("cell = 0.1", "cell = 0.12"),
+    );
     let other = dir.join("other");
-    expect(
-        sweep(s(&other_design), &other, &["--shard", "2/3"]),
+    expect_for(
+        sweep(&other_design, &other, &["--shard", "2/3"]),
         0,
         "other sweep's shard",
     );
-    expect(
-        run(&[
-            "sweep",
-            "--merge",
-            s(&shards[0]),
-            s(&shards[1]),
-            s(&other),
-            "--out",
-            s(&partial),
-            "--quiet",
-        ]),
+    expect_for(
+        merge(&[&shards[0], &shards[1], &other], &partial),
         2,
         "merge across sweeps",
     );
@@ -196,19 +159,17 @@ fn sharded_sweep_merges_into_the_unsharded_table_row_for_row() {
 
 #[test]
 fn sweep_resumes_and_refuses_another_sweep_in_its_directory() {
-    let dir = scratch("resume");
-    let design = dir.join("strips.toml");
-    std::fs::write(&design, STRIPS).unwrap();
-    let design = s(&design).to_string();
+    let dir = scratch(SCRATCH, "resume");
+    let design = write(&dir, "strips.toml", STRIPS);
     let out = dir.join("out");
-    expect(sweep(&design, &out, &["--shard", "1/2"]), 0, "first run");
+    expect_for(sweep(&design, &out, &["--shard", "1/2"]), 0, "first run");
     // Mark a finished row; a re-run with the same arguments must keep it (skip the point).
     let path = out.join("sweep.csv");
     let text = std::fs::read_to_string(&path).unwrap();
     let (_, table) = rows(&out);
     let marked = text.replacen(&table[0][7], "1e99", 1);
     std::fs::write(&path, &marked).unwrap();
-    expect(
+    expect_for(
         sweep(&design, &out, &["--shard", "1/2"]),
         0,
         "re-run resumes",
@@ -224,7 +185,7 @@ fn sweep_resumes_and_refuses_another_sweep_in_its_directory() {
     }
     w.flush().unwrap();
     drop(w);
-    expect(
+    expect_for(
         sweep(&design, &out, &["--shard", "1/2"]),
         0,
         "re-run completes",
@@ -235,7 +196,7 @@ fn sweep_resumes_and_refuses_another_sweep_in_its_directory() {
 
     // Other arguments into the same directory: refused, nothing touched.
     let before = std::fs::read_to_string(&path).unwrap();
-    expect(
+    expect_for(
         sweep(&design, &out, &["--shard", "0/2"]),
         2,
         "another shard",
@@ -250,16 +211,14 @@ fn sweep_resumes_and_refuses_another_sweep_in_its_directory() {
         "--quiet",
     ];
     args.push("--no-error-estimate");
-    expect(run(&args), 2, "another range");
+    expect_for(run(&args), 2, "another range");
     assert_eq!(std::fs::read_to_string(&path).unwrap(), before);
 }
 
 #[test]
 fn sweep_refuses_bad_arguments_before_solving() {
-    let dir = scratch("bad");
-    let design = dir.join("strips.toml");
-    std::fs::write(&design, STRIPS).unwrap();
-    let design = s(&design).to_string();
+    let dir = scratch(SCRATCH, "bad");
+    let design = write(&dir, "strips.toml", STRIPS);
     let out = dir.join("out");
     let o = s(&out);
     for (args, what) in [
@@ -287,8 +246,8 @@ fn sweep_refuses_bad_arguments_before_solving() {
         let mut a = vec!["sweep", design.as_str()];
         a.extend(args);
         a.extend(["--out", o, "--quiet"]);
-        expect(run(&a), 2, what);
+        expect_for(run(&a), 2, what);
         assert!(!out.join("sweep.csv").exists(), "{what}: no rows");
     }
-    expect(run(&["sweep", "--out", o]), 2, "no design");
+    expect_for(run(&["sweep", "--out", o]), 2, "no design");
 }

@@ -1,16 +1,11 @@
 //! `solve --vtk`: `field.vti` read back by the `vtkio` crate has the grid's dimensions,
 //! origin and spacing, and the right values at sample nodes.
 
-use std::path::PathBuf;
-use std::process::ExitCode;
+use fieldgrid_tests::cli::{expect, run, s, scratch, write};
 use vtkio::model::{Attribute, DataSet, Piece};
 
-fn scratch(name: &str) -> PathBuf {
-    let d = std::env::temp_dir().join(format!("fieldgrid-vtk-{}-{name}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&d);
-    std::fs::create_dir_all(&d).unwrap();
-    d
-}
+/// The prefix of this file's scratch directories.
+const SCRATCH: &str = "fieldgrid-vtk";
 
 // Two layers between plates: a permittivity-4 layer on y = [0, 1] mm, air above it up to a
 // full-width electrode at 50 V covering y = [1.8, 2] mm (the top side is at 50 V too).
@@ -58,20 +53,13 @@ fn arrays(vtk: vtkio::Vtk) -> (DataSet, Vec<(String, vtkio::IOBuffer)>) {
 
 #[test]
 fn vti_read_back_has_grid_geometry_and_layered_capacitor_values() {
-    let dir = scratch("layers");
-    let design = dir.join("layers.toml");
-    std::fs::write(&design, LAYERS).unwrap();
+    let dir = scratch(SCRATCH, "layers");
+    let design = write(&dir, "layers.toml", LAYERS);
     let out = dir.join("out");
-    let code = fieldgrid_cli::main_with_args([
-        "fieldgrid",
-        "solve",
-        design.to_str().unwrap(),
-        "--out",
-        out.to_str().unwrap(),
-        "--quiet",
-        "--vtk",
-    ]);
-    assert_eq!(format!("{code:?}"), format!("{:?}", ExitCode::from(0)));
+    expect(
+        run(&["solve", &design, "--out", s(&out), "--quiet", "--vtk"]),
+        0,
+    );
     let vtk = vtkio::Vtk::import(out.join("field.vti")).expect("vtkio reads field.vti");
     let (data, named) = arrays(vtk);
     let DataSet::ImageData {
@@ -131,14 +119,7 @@ fn vti_read_back_has_grid_geometry_and_layered_capacitor_values() {
     }
     // Without --vtk no .vti is written.
     let out2 = dir.join("out2");
-    fieldgrid_cli::main_with_args([
-        "fieldgrid",
-        "solve",
-        design.to_str().unwrap(),
-        "--out",
-        out2.to_str().unwrap(),
-        "--quiet",
-    ]);
+    run(&["solve", &design, "--out", s(&out2), "--quiet"]);
     assert!(out2.join("summary.json").is_file());
     assert!(!out2.join("field.vti").exists());
 }

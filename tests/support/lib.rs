@@ -1,6 +1,7 @@
 //! Shared helpers for the integration tests: reading designs from text, solving them with
-//! every solver, and comparing numbers.
+//! every solver, and comparing numbers; running the command and handling its files in [`cli`].
 
+pub mod cli;
 pub mod fuzzing;
 
 use fieldgrid_solver::design::Design;
