@@ -178,3 +178,40 @@ fn solve_reports_singular_hot_spots_and_enforces_min_margin() {
     );
     assert!(!out2.exists());
 }
+
+/// Regression guard: the field sampled at the nodes next to a smooth, curved electrode
+/// ripples with their distance to the surface, and every ripple is a local maximum. The demo
+/// HV electrode's rounded rim (radius 10 mm about (r, z) = (20, 35) mm) is one hot region and
+/// must be reported as one hot spot, not as a row of nearly equal ones.
+#[test]
+fn a_smooth_rounded_rim_is_one_hot_spot_not_a_row_of_ripples() {
+    use fieldgrid_solver::post::HotspotParams;
+    let src = read_design(
+        include_str!("../geometries/hv_electrode.toml"),
+        "hv_electrode.toml",
+        &[],
+    )
+    .expect("demo design reads");
+    let on_rim = |s: &Solution| {
+        s.hotspots
+            .iter()
+            .filter(|h| (h.x - 20e-3).hypot(h.y - 35e-3) < 12e-3)
+            .count()
+    };
+    let mut every_maximum = params(Method::default());
+    every_maximum.hotspots = HotspotParams {
+        persistence: 0.0,
+        ..HotspotParams::default()
+    };
+    let ripples = study::run(&src.design, &every_maximum).expect("study runs");
+    let s = study::run(&src.design, &params(Method::default())).expect("study runs");
+    println!(
+        "maxima on the rim: {} in all, {} persistent",
+        on_rim(&ripples),
+        on_rim(&s)
+    );
+    assert!(on_rim(&ripples) > 1, "the sampled rim field has ripples");
+    assert_eq!(on_rim(&s), 1, "{:?}", s.hotspots);
+    assert!(!s.hotspots[0].singular);
+    assert_eq!(s.hotspots[0].magnitude, ripples.hotspots[0].magnitude);
+}

@@ -19,6 +19,7 @@ pub mod line;
 pub mod open;
 pub mod operator;
 pub mod parallel;
+pub mod peaks;
 pub mod post;
 pub mod raster;
 pub mod solvers;

@@ -42,6 +42,10 @@ pub struct HotspotParams {
     pub separation_cells: f64,
     /// A maximum within this many cells of a sharp corner is flagged singular.
     pub corner_cells: f64,
+    /// A maximum is a hot spot only when its relative persistence ([`crate::peaks`]) reaches
+    /// this: the field must fall by this share of its value on every path to a higher
+    /// maximum. Ripples of the sampled field along a smooth surface stay below it.
+    pub persistence: f64,
 }
 
 impl Default for HotspotParams {
@@ -50,6 +54,7 @@ impl Default for HotspotParams {
             count: 10,
             separation_cells: 6.0,
             corner_cells: 2.5,
+            persistence: 0.05,
         }
     }
 }
@@ -287,10 +292,9 @@ pub fn peak(field: &FieldEval, design: &Design, corners: &[Point]) -> Option<Hot
     })
 }
 
-/// Relative amount by which a hot spot must exceed the field two cells around it.
-const PROMINENCE: f64 = 1e-3;
-
-/// Ranked distinct local maxima of |E|.
+/// Ranked distinct maxima of |E|: the maxima whose persistence reaches
+/// `params.persistence`, highest first, each at least `params.separation_cells` from a higher
+/// one, at most `params.count`.
 pub fn hotspots(
     field: &FieldEval,
     design: &Design,
@@ -298,67 +302,13 @@ pub fn hotspots(
     params: &HotspotParams,
 ) -> Vec<Hotspot> {
     let g = &field.op.grid;
-    let (nx, ny) = (g.nx, g.ny);
+    let nx = g.nx;
     let mag: Vec<f64> = (0..g.len()).map(|p| field.magnitude(p)).collect();
-    let mut cand: Vec<(usize, f64)> = Vec::new();
-    for j in 0..ny {
-        for i in 0..nx {
-            let p = i + j * nx;
-            let m = mag[p];
-            if !(m.is_finite() && m > 0.0) {
-                continue;
-            }
-            let mut is_max = true;
-            'nb: for dj in -1i64..=1 {
-                for di in -1i64..=1 {
-                    let (qi, qj) = (i as i64 + di, j as i64 + dj);
-                    if (di, dj) == (0, 0) || qi < 0 || qj < 0 || qi >= nx as i64 || qj >= ny as i64
-                    {
-                        continue;
-                    }
-                    let q = qi as usize + qj as usize * nx;
-                    let mq = mag[q];
-                    // Ties go to the lower index so a plateau yields one maximum.
-                    if mq > m || (mq == m && q < p) {
-                        is_max = false;
-                        break 'nb;
-                    }
-                }
-            }
-            // A hot spot stands out from its surroundings two cells away; the plateau of a
-            // uniform field has no hot spots beyond its single peak.
-            let mut ring_max = 0.0f64;
-            for dj in -2i64..=2 {
-                for di in -2i64..=2 {
-                    let (qi, qj) = (i as i64 + di, j as i64 + dj);
-                    if di.abs().max(dj.abs()) != 2
-                        || qi < 0
-                        || qj < 0
-                        || qi >= nx as i64
-                        || qj >= ny as i64
-                    {
-                        continue;
-                    }
-                    let mq = mag[qi as usize + qj as usize * nx];
-                    if mq.is_finite() {
-                        ring_max = ring_max.max(mq);
-                    }
-                }
-            }
-            if is_max && m > (1.0 + PROMINENCE) * ring_max {
-                cand.push((p, m));
-            }
-        }
-    }
-    // The global peak always leads the list.
-    if let Some(top) = (0..mag.len())
-        .filter(|&p| mag[p].is_finite())
-        .max_by(|&a, &b| mag[a].total_cmp(&mag[b]).then(b.cmp(&a)))
-    {
-        if !cand.iter().any(|c| c.0 == top) {
-            cand.push((top, mag[top]));
-        }
-    }
+    let mut cand: Vec<(usize, f64)> = crate::peaks::peaks(&mag, g.nx, g.ny)
+        .into_iter()
+        .filter(|pk| pk.persistence >= params.persistence)
+        .map(|pk| (pk.node, mag[pk.node]))
+        .collect();
     cand.sort_by(|a, b| b.1.total_cmp(&a.1).then(a.0.cmp(&b.0)));
     let sep = params.separation_cells * g.hx.max(g.hy);
     let mut chosen: Vec<(usize, f64)> = Vec::new();
