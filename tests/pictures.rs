@@ -171,3 +171,44 @@ fn check_preview_paints_materials_as_its_legend_says() {
         "pad's right edge"
     );
 }
+
+#[test]
+fn compare_picture_has_its_frame_diverging_bar_outline_and_no_empty_pixel() {
+    let dir = scratch(SCRATCH, "compare");
+    let base = write(&dir, "a.toml", PAD);
+    // The same pad at 1.5 V: the field grows everywhere outside it.
+    let new = write(
+        &dir,
+        "b.toml",
+        &PAD.replace("potential = 1.0", "potential = 1.5"),
+    );
+    let out = dir.join("out");
+    expect(
+        run(&["compare", &base, &new, "--out", s(&out), "--quiet"]),
+        1,
+    );
+    let img = load(out.join("field_change.png"));
+    let grid = Grid::fit([0.0, 20.0 * MM], [0.0, 10.0 * MM], 0.05 * MM).unwrap();
+    let f = map_frame(
+        &grid,
+        LengthUnit {
+            label: "mm",
+            metres: MM,
+        },
+        &RenderOptions::default(),
+    );
+    assert_eq!([img.width(), img.height()], f.size);
+    let [bx, by, bw, bh] = f.side;
+    let div = colormap::diverging();
+    assert_eq!(*img.get_pixel(bx + bw / 2, by), div.rgb[colormap::LEN - 1]);
+    assert_eq!(*img.get_pixel(bx + bw / 2, by + bh - 1), div.rgb[0]);
+    assert!(dark(at(&img, &f, [8.0 * MM, 4.5 * MM])), "pad's left edge");
+    assert_eq!(at(&img, &f, [9.0 * MM, 4.6 * MM]), colormap::NO_VALUE);
+    // Outside the pad every probed pixel has a map colour: the change is defined there.
+    for k in 1..20 {
+        for y in [1.0, 3.0, 7.0, 8.7] {
+            let c = at(&img, &f, [k as f64 * MM, y * MM]);
+            assert_ne!(c, colormap::NO_VALUE, "({k}, {y}) mm");
+        }
+    }
+}
