@@ -12,11 +12,11 @@ use image::RgbImage;
 
 /// Outline flattening tolerance: a fraction of the domain so outlines look smooth at any size.
 fn tolerance(design: &Design) -> f64 {
-    let d = &design.domain;
-    1e-4 * (d.x[1] - d.x[0]).max(d.y[1] - d.y[0])
+    Outline::picture_tolerance(design.domain.x, design.domain.y)
 }
 
-fn outlines(design: &Design) -> (Vec<Outline>, Vec<Outline>) {
+/// The outlines of the conductors and of the dielectrics, for drawing.
+pub fn outlines(design: &Design) -> (Vec<Outline>, Vec<Outline>) {
     let tol = tolerance(design);
     let conductors = design
         .conductors
@@ -31,7 +31,8 @@ fn outlines(design: &Design) -> (Vec<Outline>, Vec<Outline>) {
     (conductors, dielectrics)
 }
 
-fn axis_names(design: &Design) -> [&'static str; 2] {
+/// The names of a design's axes: x, y in the plane, r, z in axisymmetric mode.
+pub fn axis_names(design: &Design) -> [&'static str; 2] {
     match design.mode {
         Mode::Planar => ["x", "y"],
         Mode::Axisymmetric => ["r", "z"],

@@ -387,7 +387,7 @@ fn change_picture(
     src: &DesignSource,
     opts: &crate::render::RenderOptions,
 ) -> image::RgbImage {
-    use crate::render::{self, ContourStyle, MapInput, Outline, Palette};
+    use crate::render::{self, ContourStyle, MapInput, Palette};
     let eb = field_magnitude(base);
     let en = field_magnitude(new);
     let diff: Vec<f64> = eb.iter().zip(&en).map(|(b, n)| n - b).collect();
@@ -404,19 +404,7 @@ fn change_picture(
         .or(mags.last())
         .copied()
         .unwrap_or(0.0);
-    let d = &src.design;
-    let tol = Outline::picture_tolerance(d.domain.x, d.domain.y);
-    let conductors: Vec<Outline> = d
-        .conductors
-        .iter()
-        .map(|c| Outline::from_shape(c.name.clone(), &c.shape, tol))
-        .collect();
-    let dielectrics: Vec<Outline> = d
-        .dielectrics
-        .iter()
-        .map(|c| Outline::from_shape(c.name.clone(), &c.shape, tol))
-        .collect();
-    let axi = d.mode == fieldgrid_solver::design::Mode::Axisymmetric;
+    let (conductors, dielectrics) = crate::pictures::outlines(&src.design);
     let input = MapInput {
         title: "change in field magnitude, NEW minus BASE (colours saturate at the largest 1 %)",
         quantity: "change of |E|",
@@ -425,7 +413,7 @@ fn change_picture(
             label: src.unit.name(),
             metres: src.unit.scale(),
         },
-        axis_names: if axi { ["r", "z"] } else { ["x", "y"] },
+        axis_names: crate::pictures::axis_names(&src.design),
         conductors: &conductors,
         dielectrics: &dielectrics,
         palette: Palette::Diverging,

@@ -1,10 +1,12 @@
 //! Outlines to draw: named sets of closed rings and open polylines, in metres.
 //!
 //! Invariants: rings are implicitly closed (the last point is not repeated) and filled by the
-//! even-odd rule, so a hole is simply one more ring; flattened arcs deviate from the true
-//! curve by at most the tolerance given (and use at least 8 segments per full turn).
+//! even-odd rule, so a hole is simply one more ring; shapes are drawn from the same exact
+//! outlines the rasteriser uses (`fieldgrid_solver::geometry`), arcs flattened to the
+//! tolerance given.
 
 use fieldgrid_solver::design::{Point, Shape};
+use fieldgrid_solver::geometry::outline_polylines;
 
 /// A named outline in metres.
 #[derive(Clone, Debug, PartialEq, Default)]
@@ -36,46 +38,27 @@ impl Outline {
         }
     }
 
-    /// The outline of a design shape, arcs flattened to within `tol` metres.
+    /// The outline of a design shape (the geometry module's exact outline, arcs flattened to
+    /// within `tol` metres).
     pub fn from_shape(name: impl Into<String>, shape: &Shape, tol: f64) -> Outline {
-        let name = name.into();
-        match shape {
-            Shape::Rect { x, y, round } => {
-                let corners = vec![[x[0], y[0]], [x[1], y[0]], [x[1], y[1]], [x[0], y[1]]];
-                Outline::polygon(name, fillet(&corners, *round, tol))
+        let mut loops = outline_polylines(shape, tol);
+        if let Shape::Polyline(_) = shape {
+            return Outline {
+                name: name.into(),
+                rings: Vec::new(),
+                lines: loops,
+            };
+        }
+        // Closed loops come with their first point repeated at the end; rings close implicitly.
+        for l in &mut loops {
+            if l.len() > 1 && l.first() == l.last() {
+                l.pop();
             }
-            Shape::Circle { center, radius } => {
-                Outline::polygon(name, circle(*center, *radius, tol))
-            }
-            Shape::Ring {
-                center,
-                inner,
-                outer,
-            } => {
-                let mut rings = vec![circle(*center, *outer, tol)];
-                if *inner > 0.0 {
-                    rings.push(circle(*center, *inner, tol));
-                }
-                Outline {
-                    name,
-                    rings,
-                    lines: Vec::new(),
-                }
-            }
-            Shape::Polygon {
-                outer,
-                holes,
-                round,
-            } => {
-                let mut rings = vec![fillet(outer, *round, tol)];
-                rings.extend(holes.iter().map(|h| fillet(h, *round, tol)));
-                Outline {
-                    name,
-                    rings,
-                    lines: Vec::new(),
-                }
-            }
-            Shape::Polyline(pts) => Outline::polyline(name, pts.clone()),
+        }
+        Outline {
+            name: name.into(),
+            rings: loops,
+            lines: Vec::new(),
         }
     }
 
@@ -105,93 +88,6 @@ impl Outline {
     }
 }
 
-/// Segments for an arc of `sweep` radians and radius `r` so the chord error stays below `tol`.
-fn arc_segments(r: f64, sweep: f64, tol: f64) -> usize {
-    let tol = if tol > 0.0 && tol.is_finite() {
-        tol
-    } else {
-        r * 1e-3
-    };
-    // Chord error of a segment of angle a: r (1 - cos(a/2)).
-    let a = if tol >= r {
-        std::f64::consts::PI
-    } else {
-        2.0 * (1.0 - tol / r).acos()
-    };
-    let full = std::f64::consts::TAU;
-    let n = (sweep.abs() / a.max(1e-6)).ceil() as usize;
-    n.max((8.0 * sweep.abs() / full).ceil() as usize)
-        .clamp(1, 100_000)
-}
-
-/// A circle as a ring.
-pub fn circle(c: Point, r: f64, tol: f64) -> Vec<Point> {
-    let n = arc_segments(r, std::f64::consts::TAU, tol).max(8);
-    (0..n)
-        .map(|k| {
-            let t = std::f64::consts::TAU * k as f64 / n as f64;
-            [c[0] + r * t.cos(), c[1] + r * t.sin()]
-        })
-        .collect()
-}
-
-/// Every corner of a closed ring rounded with radius `r` (reduced where an edge is too short
-/// to hold the tangent points of both its corners).
-pub fn fillet(ring: &[Point], r: f64, tol: f64) -> Vec<Point> {
-    let n = ring.len();
-    if r.partial_cmp(&0.0) != Some(std::cmp::Ordering::Greater) || n < 3 {
-        return ring.to_vec();
-    }
-    let mut out = Vec::new();
-    for k in 0..n {
-        let p = ring[k];
-        let a = ring[(k + n - 1) % n];
-        let b = ring[(k + 1) % n];
-        let (la, lb) = (dist(a, p), dist(b, p));
-        if la == 0.0 || lb == 0.0 {
-            out.push(p);
-            continue;
-        }
-        let u = [(a[0] - p[0]) / la, (a[1] - p[1]) / la];
-        let v = [(b[0] - p[0]) / lb, (b[1] - p[1]) / lb];
-        let theta = (u[0] * v[0] + u[1] * v[1]).clamp(-1.0, 1.0).acos(); // corner angle
-        if !(1e-9..=std::f64::consts::PI - 1e-9).contains(&theta) {
-            out.push(p);
-            continue;
-        }
-        let half = theta / 2.0;
-        let d = (r / half.tan()).min(la / 2.0).min(lb / 2.0); // tangent distance
-        let rr = d * half.tan(); // radius actually used
-        let bis = [u[0] + v[0], u[1] + v[1]];
-        let bl = (bis[0] * bis[0] + bis[1] * bis[1]).sqrt();
-        let c = [
-            p[0] + bis[0] / bl * rr / half.sin(),
-            p[1] + bis[1] / bl * rr / half.sin(),
-        ];
-        let t1 = [p[0] + u[0] * d, p[1] + u[1] * d];
-        let t2 = [p[0] + v[0] * d, p[1] + v[1] * d];
-        let a1 = (t1[1] - c[1]).atan2(t1[0] - c[0]);
-        let a2 = (t2[1] - c[1]).atan2(t2[0] - c[0]);
-        let mut sweep = a2 - a1;
-        while sweep > std::f64::consts::PI {
-            sweep -= std::f64::consts::TAU;
-        }
-        while sweep < -std::f64::consts::PI {
-            sweep += std::f64::consts::TAU;
-        }
-        let m = arc_segments(rr, sweep, tol);
-        for s in 0..=m {
-            let t = a1 + sweep * s as f64 / m as f64;
-            out.push([c[0] + rr * t.cos(), c[1] + rr * t.sin()]);
-        }
-    }
-    out
-}
-
-fn dist(a: Point, b: Point) -> f64 {
-    ((a[0] - b[0]).powi(2) + (a[1] - b[1]).powi(2)).sqrt()
-}
-
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -207,12 +103,21 @@ mod tests {
 
     #[test]
     fn circle_is_within_tolerance() {
-        let c = circle([1.0, 2.0], 0.5, 1e-4);
-        for p in &c {
+        let o = Outline::from_shape(
+            "wire",
+            &Shape::Circle {
+                center: [1.0, 2.0],
+                radius: 0.5,
+            },
+            1e-4,
+        );
+        let c = &o.rings[0];
+        assert!(c.len() >= 8 && c.first() != c.last());
+        for p in c {
             assert!(((p[0] - 1.0).hypot(p[1] - 2.0) - 0.5).abs() < 1e-12);
         }
         // Inscribed polygon: area short of pi r^2 by at most the chord error times the perimeter.
-        let a = area(&c);
+        let a = area(c);
         let exact = std::f64::consts::PI * 0.25;
         assert!(a < exact && exact - a < 1e-4 * std::f64::consts::TAU * 0.5);
     }
@@ -246,9 +151,14 @@ mod tests {
             [1.0, 2.0],
             [0.0, 2.0],
         ];
-        let f = fillet(&l, 0.1, 1e-6);
+        let s = Shape::Polygon {
+            outer: l,
+            holes: Vec::new(),
+            round: 0.1,
+        };
+        let f = &Outline::from_shape("l", &s, 1e-6).rings[0];
         // Five convex corners lose (1 - pi/4) r^2 each, the reflex corner gains the same.
         let exact = 3.0 - 4.0 * (1.0 - std::f64::consts::FRAC_PI_4) * 0.01;
-        assert!((area(&f) - exact).abs() < 1e-5, "{}", area(&f));
+        assert!((area(f) - exact).abs() < 1e-5, "{}", area(f));
     }
 }
