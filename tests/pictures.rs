@@ -97,21 +97,26 @@ fn check_map(img: &RgbImage, f: &Frame) {
     }
 }
 
-#[test]
-fn solve_pictures_have_their_frame_bar_and_outlines() {
-    let dir = scratch(SCRATCH, "solve");
-    let design = write(&dir, "pad.toml", PAD);
-    let out = dir.join("out");
-    expect(run(&["solve", &design, "--out", s(&out), "--quiet"]), 0);
+/// Where a map of the `PAD` design puts its plot and colour bar.
+fn pad_frame() -> Frame {
     let grid = Grid::fit([0.0, 20.0 * MM], [0.0, 10.0 * MM], 0.05 * MM).unwrap();
-    let f = map_frame(
+    map_frame(
         &grid,
         LengthUnit {
             label: "mm",
             metres: MM,
         },
         &RenderOptions::default(),
-    );
+    )
+}
+
+#[test]
+fn solve_pictures_have_their_frame_bar_and_outlines() {
+    let dir = scratch(SCRATCH, "solve");
+    let design = write(&dir, "pad.toml", PAD);
+    let out = dir.join("out");
+    expect(run(&["solve", &design, "--out", s(&out), "--quiet"]), 0);
+    let f = pad_frame();
     assert_eq!(f.size[0], 1200);
     assert!(
         (f64::from(f.plot[2]) / f64::from(f.plot[3]) - 2.0).abs() < 0.02,
@@ -188,15 +193,7 @@ fn compare_picture_has_its_frame_diverging_bar_outline_and_no_empty_pixel() {
         1,
     );
     let img = load(out.join("field_change.png"));
-    let grid = Grid::fit([0.0, 20.0 * MM], [0.0, 10.0 * MM], 0.05 * MM).unwrap();
-    let f = map_frame(
-        &grid,
-        LengthUnit {
-            label: "mm",
-            metres: MM,
-        },
-        &RenderOptions::default(),
-    );
+    let f = pad_frame();
     assert_eq!([img.width(), img.height()], f.size);
     let [bx, by, bw, bh] = f.side;
     let div = colormap::diverging();

@@ -17,6 +17,11 @@
 //!   printed or written; lines holding `...` mark a cut and are not compared.
 //! - ```` ```toml ````: design-file excerpts, not run.
 //! - any other fence, or a block with no kind, fails the test: a command cannot slip past it.
+//!
+//! The file has its own `main` (no test harness): started under the name `fieldgrid` (the
+//! link the scratch directory puts on PATH) it is the command itself, through the same entry
+//! point as `cli/src/main.rs`; otherwise it runs the checks below. So the workspace keeps a
+//! single binary, and `cargo run` at its root stays unambiguous.
 
 use std::path::{Path, PathBuf};
 use std::process::Command;
@@ -27,7 +32,8 @@ enum Kind {
     Commands,
     Script,
     Output(Check),
-    Toml,
+    /// A design; with a `<!-- file: PATH -->` announcement, every line must be in that file.
+    Toml(Option<String>),
 }
 
 #[derive(Debug, PartialEq)]
@@ -73,7 +79,10 @@ fn blocks(text: &str) -> Vec<Block> {
         let kind = match info.trim() {
             "sh" => Kind::Commands,
             "bash" => Kind::Script,
-            "toml" => Kind::Toml,
+            "toml" => Kind::Toml(match optional_announcement(&lines, start) {
+                Some(Check::File(f)) => Some(f),
+                _ => None,
+            }),
             "text" => Kind::Output(announcement(&lines, start)),
             other => panic!(
                 "README line {}: a fenced block of kind {other:?}; use sh (commands), bash \
@@ -88,6 +97,15 @@ fn blocks(text: &str) -> Vec<Block> {
         });
     }
     out
+}
+
+/// The announcement above a block, if the nearest non-blank line above is one.
+fn optional_announcement(lines: &[&str], fence: usize) -> Option<Check> {
+    let above = lines[..fence].iter().rev().find(|l| !l.trim().is_empty())?;
+    above
+        .trim()
+        .starts_with("<!--")
+        .then(|| announcement(lines, fence))
 }
 
 /// The HTML comment above a text block (blank lines between are allowed).
@@ -185,11 +203,8 @@ fn scratch() -> (PathBuf, String) {
     std::fs::create_dir_all(&bin).unwrap();
     std::fs::create_dir_all(&work).unwrap();
     std::os::unix::fs::symlink(repo().join("geometries"), work.join("geometries")).unwrap();
-    std::os::unix::fs::symlink(
-        env!("CARGO_BIN_EXE_fieldgrid-under-test"),
-        bin.join("fieldgrid"),
-    )
-    .unwrap();
+    // This very program, named `fieldgrid`, is the command (see `main`).
+    std::os::unix::fs::symlink(std::env::current_exe().unwrap(), bin.join("fieldgrid")).unwrap();
     let path = format!(
         "{}:{}",
         bin.display(),
@@ -255,7 +270,6 @@ fn check_quoted(block: &Block, printed: &str, what: &str) {
     );
 }
 
-#[test]
 fn every_readme_command_runs_as_written_and_prints_what_the_readme_quotes() {
     let text = std::fs::read_to_string(repo().join("README.md")).unwrap();
     let blocks = blocks(&text);
@@ -266,7 +280,13 @@ fn every_readme_command_runs_as_written_and_prints_what_the_readme_quotes() {
     let mut count = 0;
     for b in &blocks {
         match &b.kind {
-            Kind::Toml => {}
+            Kind::Toml(None) => {}
+            Kind::Toml(Some(f)) => {
+                let body = std::fs::read_to_string(work.join(f))
+                    .unwrap_or_else(|e| panic!("README line {}: {f}: {e}", b.line));
+                check_quoted(b, &body, f);
+                files_checked += 1;
+            }
             Kind::Commands => {
                 for (cmd, want) in commands(b) {
                     let (code, printed) = run_shell(&work, &path, "sh", &cmd, &[]);
@@ -339,7 +359,6 @@ fn every_readme_command_runs_as_written_and_prints_what_the_readme_quotes() {
     let _ = std::fs::remove_dir_all(work.parent().unwrap());
 }
 
-#[test]
 fn readme_block_parser_reads_exit_codes_continuations_and_announcements() {
     let text = "x\n```sh\nfieldgrid solve a \\\n  --out b   # exit code 1: margin\ncargo test --workspace\n\
                 cargo run --release -- check a\n```\n<!-- output of: fieldgrid solve a -->\n```text\nhi\n```\n";
@@ -362,6 +381,65 @@ fn readme_block_parser_reads_exit_codes_continuations_and_announcements() {
         body: vec!["a".into(), "b ... c".into()],
     };
     check_quoted(&b, "a\nz\n", "t");
+    // The expected failure's message is not news: keep it off the output.
+    let hook = std::panic::take_hook();
+    std::panic::set_hook(Box::new(|_| {}));
     let r = std::panic::catch_unwind(|| check_quoted(&b, "z\n", "t"));
+    std::panic::set_hook(hook);
     assert!(r.is_err(), "a missing quoted line must fail");
+    let t = "<!-- file: a.toml -->\n```toml\nx = 1\n```\n```toml\ny = 2\n```\n";
+    let bs = blocks(t);
+    assert_eq!(bs[0].kind, Kind::Toml(Some("a.toml".to_string())));
+    assert_eq!(bs[1].kind, Kind::Toml(None));
+}
+
+/// The checks, in order, by name.
+const CHECKS: &[(&str, fn())] = &[
+    (
+        "readme_block_parser_reads_exit_codes_continuations_and_announcements",
+        readme_block_parser_reads_exit_codes_continuations_and_announcements,
+    ),
+    (
+        "every_readme_command_runs_as_written_and_prints_what_the_readme_quotes",
+        every_readme_command_runs_as_written_and_prints_what_the_readme_quotes,
+    ),
+];
+
+fn main() -> std::process::ExitCode {
+    let mut args = std::env::args_os();
+    let as_cli = args
+        .next()
+        .and_then(|a| Path::new(&a).file_name().map(|f| f == "fieldgrid"))
+        .unwrap_or(false);
+    if as_cli {
+        return fieldgrid_cli::main_with_args(std::env::args_os());
+    }
+    // `cargo test` passes filters and harness flags; a filter selects checks by substring.
+    let filters: Vec<String> = args
+        .map(|a| a.to_string_lossy().into_owned())
+        .filter(|a| !a.starts_with('-'))
+        .collect();
+    let (mut passed, mut failed) = (0, 0);
+    for (name, check) in CHECKS {
+        if !filters.is_empty() && !filters.iter().any(|f| name.contains(f.as_str())) {
+            continue;
+        }
+        match std::panic::catch_unwind(check) {
+            Ok(()) => {
+                println!("test {name} ... ok");
+                passed += 1;
+            }
+            Err(_) => {
+                println!("test {name} ... FAILED");
+                failed += 1;
+            }
+        }
+    }
+    println!();
+    println!("readme: {passed} passed, {failed} failed");
+    if failed == 0 {
+        std::process::ExitCode::SUCCESS
+    } else {
+        std::process::ExitCode::FAILURE
+    }
 }

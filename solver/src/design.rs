@@ -270,8 +270,22 @@ pub struct DesignError {
     pub item: Item,
     /// The offending key within the item (for example `"polygon"`, `"permittivity"`).
     pub key: &'static str,
-    /// What is wrong, in a sentence for the user.
+    /// What is wrong, in a sentence for the user (lengths in metres).
     pub message: String,
+    /// For a shape outside the domain: the extents the message quotes, so that a reader can
+    /// restate them in the design file's unit.
+    pub outside: Option<Box<OutsideDomain>>,
+}
+
+/// A shape that does not lie inside the domain.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct OutsideDomain {
+    /// The shape's extent, m: [[x0, x1], [y0, y1]].
+    pub shape: [[f64; 2]; 2],
+    /// The domain's extent, m: [[x0, x1], [y0, y1]].
+    pub domain: [[f64; 2]; 2],
+    /// Axisymmetric mode: only the part at r >= 0 counts.
+    pub axisymmetric: bool,
 }
 
 impl DesignError {
@@ -281,6 +295,7 @@ impl DesignError {
             item,
             key,
             message: message.into(),
+            outside: None,
         }
     }
 }

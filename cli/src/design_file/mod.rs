@@ -146,7 +146,7 @@ pub fn read_design(
     let (design, unit) = r.design(&tree, overrides)?;
     let parameters = std::mem::take(&mut r.params);
     if let Err(e) = design::validate(&design) {
-        return Err(design_error(text, file, &tree, &e));
+        return Err(design_error(text, file, &tree, &e, unit));
     }
     Ok(DesignSource {
         design,
@@ -1229,8 +1229,44 @@ fn locate(
     InputError::at(text, file, &table_span(node), &join(&path, key), message)
 }
 
-fn design_error(text: &str, file: &str, tree: &Node, e: &DesignError) -> InputError {
-    locate(text, file, tree, e.item, e.key, e.message.clone())
+fn design_error(
+    text: &str,
+    file: &str,
+    tree: &Node,
+    e: &DesignError,
+    unit: LengthUnit,
+) -> InputError {
+    let message = match &e.outside {
+        // Extents restated in the file's unit, as the user wrote them.
+        Some(o) => {
+            let len = |v: f64| {
+                // Twelve digits: 0.012 / 0.001 reads 12, not 12.000000000000002.
+                let r: f64 = format!("{:.11e}", v / unit.scale()).parse().unwrap_or(v);
+                format!("{r}")
+            };
+            let u = unit.name();
+            let [[sx0, sx1], [sy0, sy1]] = o.shape;
+            let [[dx0, dx1], [dy0, dy1]] = o.domain;
+            let what = if o.axisymmetric {
+                "the domain (only r >= 0 counts; r is x)"
+            } else {
+                "the domain"
+            };
+            format!(
+                "the shape ({}..{} {u} by {}..{} {u}) does not lie inside {what} ({}..{} {u} by {}..{} {u})",
+                len(sx0),
+                len(sx1),
+                len(sy0),
+                len(sy1),
+                len(dx0),
+                len(dx1),
+                len(dy0),
+                len(dy1)
+            )
+        }
+        None => e.message.clone(),
+    };
+    locate(text, file, tree, e.item, e.key, message)
 }
 
 #[cfg(test)]

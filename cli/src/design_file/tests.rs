@@ -336,3 +336,39 @@ fn hostile_input_is_refused_without_panic() {
         assert!(read(text).is_err(), "{text:?}");
     }
 }
+
+#[test]
+fn a_shape_outside_the_domain_is_described_in_the_files_unit() {
+    let text = "unit = \"mm\"\n[grid]\nx = [0.0, 10.0]\ny = [0.0, 5.0]\ncell = 0.1\n\
+                [[dielectric]]\nname = \"board\"\npermittivity = 4.4\n\
+                rect = { x = [2.0, 12.0], y = [0.0, 1.2] }\n";
+    let e = read_design(text, "t.toml", &[]).unwrap_err();
+    assert_eq!(e.key, "dielectric.rect");
+    assert!(
+        e.to_string()
+            .contains("the shape (2..12 mm by 0..1.2 mm) does not lie inside the domain (0..10 mm by 0..5 mm)"),
+        "{e}"
+    );
+    // The library's own message, for library users, stays in metres.
+    let d = Design {
+        domain: Domain {
+            x: [0.0, 1.0],
+            y: [0.0, 1.0],
+            cell: 0.1,
+        },
+        dielectrics: vec![Dielectric {
+            name: "d".into(),
+            permittivity: 2.0,
+            strength: None,
+            shape: Shape::Rect {
+                x: [0.5, 1.5],
+                y: [0.0, 0.5],
+                round: 0.0,
+            },
+        }],
+        ..Design::default()
+    };
+    let e = design::validate(&d).unwrap_err();
+    assert!(e.message.contains("5e-1..1.5e0 m"), "{}", e.message);
+    assert_eq!(e.outside.unwrap().shape, [[0.5, 1.5], [0.0, 0.5]]);
+}

@@ -11,7 +11,9 @@
 use super::fillet::plain_loop;
 use super::intersect::{first_meeting, tag, Tagged};
 use super::outline::{outline, shape_key, Outline};
-use crate::design::{Charge, Design, DesignError, Drive, Item, Mode, Point, Shape, Side};
+use crate::design::{
+    Charge, Design, DesignError, Drive, Item, Mode, OutsideDomain, Point, Shape, Side,
+};
 
 /// Where shapes must lie and how close counts as touching.
 struct Ctx {
@@ -243,6 +245,11 @@ fn check_shape(shape: &Shape, ctx: &Ctx) -> Result<Outline, Fail> {
             }
         }
     }
+    Ok(o)
+}
+
+/// The extents of an outline that does not lie inside the domain, if it does not.
+fn outside_domain(o: &Outline, ctx: &Ctx) -> Option<OutsideDomain> {
     let b = o.bbox();
     let t = ctx.tol_domain;
     let inside_x = if ctx.axisymmetric {
@@ -250,25 +257,40 @@ fn check_shape(shape: &Shape, ctx: &Ctx) -> Result<Outline, Fail> {
     } else {
         b.min[0] >= ctx.x[0] - t
     };
-    if !(inside_x
+    let inside = inside_x
         && b.max[0] <= ctx.x[1] + t
         && b.min[1] >= ctx.y[0] - t
-        && b.max[1] <= ctx.y[1] + t)
-    {
-        let what = if ctx.axisymmetric {
-            "the domain (only r >= 0 counts; r is x)"
-        } else {
-            "the domain"
-        };
-        return Err((
-            key,
-            format!(
-                "the shape ({:e}..{:e} m by {:e}..{:e} m) does not lie inside {what} ({:e}..{:e} m by {:e}..{:e} m)",
-                b.min[0], b.max[0], b.min[1], b.max[1], ctx.x[0], ctx.x[1], ctx.y[0], ctx.y[1]
-            ),
-        ));
+        && b.max[1] <= ctx.y[1] + t;
+    (!inside).then_some(OutsideDomain {
+        shape: [[b.min[0], b.max[0]], [b.min[1], b.max[1]]],
+        domain: [ctx.x, ctx.y],
+        axisymmetric: ctx.axisymmetric,
+    })
+}
+
+/// Checks one shape of `item`, inside the domain, and returns its outline.
+fn checked_outline(shape: &Shape, ctx: &Ctx, item: Item) -> Result<Outline, DesignError> {
+    let o = check_shape(shape, ctx).map_err(|(k, m)| err(item, k, m))?;
+    match outside_domain(&o, ctx) {
+        None => Ok(o),
+        Some(out) => {
+            let [[sx0, sx1], [sy0, sy1]] = out.shape;
+            let [[dx0, dx1], [dy0, dy1]] = out.domain;
+            let what = if ctx.axisymmetric {
+                "the domain (only r >= 0 counts; r is x)"
+            } else {
+                "the domain"
+            };
+            let message = format!(
+                "the shape ({sx0:e}..{sx1:e} m by {sy0:e}..{sy1:e} m) does not lie inside \
+                 {what} ({dx0:e}..{dx1:e} m by {dy0:e}..{dy1:e} m)"
+            );
+            Err(DesignError {
+                outside: Some(Box::new(out)),
+                ..err(item, shape_key(shape), message)
+            })
+        }
     }
-    Ok(o)
 }
 
 /// A point of the outline's boundary that counts (x >= 0 in axisymmetric mode).
@@ -492,7 +514,7 @@ pub fn validate_design(d: &Design) -> Result<(), DesignError> {
                 ));
             }
         }
-        let o = check_shape(&c.shape, &ctx).map_err(|(k, m)| err(item, k, m))?;
+        let o = checked_outline(&c.shape, &ctx, item)?;
         for (j, prev) in outlines.iter().enumerate() {
             if let Some(how) = overlap(prev, &o, &ctx) {
                 let key = shape_key(&c.shape);
@@ -537,7 +559,7 @@ pub fn validate_design(d: &Design) -> Result<(), DesignError> {
                 "a polyline has no area: only conductors may be polylines",
             ));
         }
-        check_shape(&e.shape, &ctx).map_err(|(k, m)| err(item, k, m))?;
+        checked_outline(&e.shape, &ctx, item)?;
     }
     for (i, c) in d.charges.iter().enumerate() {
         let item = Item::Charge(i);
@@ -557,7 +579,7 @@ pub fn validate_design(d: &Design) -> Result<(), DesignError> {
                         "a polyline has no area: only conductors may be polylines",
                     ));
                 }
-                check_shape(shape, &ctx).map_err(|(k, m)| err(item, k, m))?;
+                checked_outline(shape, &ctx, item)?;
             }
             Charge::Concentrated { at, amount, .. } => {
                 if !amount.is_finite() {
