@@ -288,6 +288,23 @@ pub struct OutsideDomain {
     pub axisymmetric: bool,
 }
 
+impl OutsideDomain {
+    /// The sentence for the user, with every length written by `len` followed by `unit`.
+    pub fn describe(&self, len: impl Fn(f64) -> String, unit: &str) -> String {
+        let [[sx0, sx1], [sy0, sy1]] = self.shape.map(|r| r.map(&len));
+        let [[dx0, dx1], [dy0, dy1]] = self.domain.map(|r| r.map(&len));
+        let what = if self.axisymmetric {
+            "the domain (only r >= 0 counts; r is x)"
+        } else {
+            "the domain"
+        };
+        format!(
+            "the shape ({sx0}..{sx1} {unit} by {sy0}..{sy1} {unit}) does not lie inside {what} \
+             ({dx0}..{dx1} {unit} by {dy0}..{dy1} {unit})"
+        )
+    }
+}
+
 impl DesignError {
     /// A new error about `key` of `item`.
     pub fn new(item: Item, key: &'static str, message: impl Into<String>) -> Self {

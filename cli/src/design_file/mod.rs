@@ -1244,25 +1244,7 @@ fn design_error(
                 let r: f64 = format!("{:.11e}", v / unit.scale()).parse().unwrap_or(v);
                 format!("{r}")
             };
-            let u = unit.name();
-            let [[sx0, sx1], [sy0, sy1]] = o.shape;
-            let [[dx0, dx1], [dy0, dy1]] = o.domain;
-            let what = if o.axisymmetric {
-                "the domain (only r >= 0 counts; r is x)"
-            } else {
-                "the domain"
-            };
-            format!(
-                "the shape ({}..{} {u} by {}..{} {u}) does not lie inside {what} ({}..{} {u} by {}..{} {u})",
-                len(sx0),
-                len(sx1),
-                len(sy0),
-                len(sy1),
-                len(dx0),
-                len(dx1),
-                len(dy0),
-                len(dy1)
-            )
+            o.describe(len, unit.name())
         }
         None => e.message.clone(),
     };

@@ -274,17 +274,7 @@ fn checked_outline(shape: &Shape, ctx: &Ctx, item: Item) -> Result<Outline, Desi
     match outside_domain(&o, ctx) {
         None => Ok(o),
         Some(out) => {
-            let [[sx0, sx1], [sy0, sy1]] = out.shape;
-            let [[dx0, dx1], [dy0, dy1]] = out.domain;
-            let what = if ctx.axisymmetric {
-                "the domain (only r >= 0 counts; r is x)"
-            } else {
-                "the domain"
-            };
-            let message = format!(
-                "the shape ({sx0:e}..{sx1:e} m by {sy0:e}..{sy1:e} m) does not lie inside \
-                 {what} ({dx0:e}..{dx1:e} m by {dy0:e}..{dy1:e} m)"
-            );
+            let message = out.describe(|v| format!("{v:e}"), "m");
             Err(DesignError {
                 outside: Some(Box::new(out)),
                 ..err(item, shape_key(shape), message)
