@@ -127,14 +127,6 @@ pub enum OperatorError {
         /// A point of the region, m.
         y: f64,
     },
-    /// A side condition this build cannot discretise yet.
-    #[error("side `{side}`: {message}")]
-    UnsupportedSide {
-        /// The side's key.
-        side: &'static str,
-        /// Why.
-        message: String,
-    },
 }
 
 /// The assembled operator of one design on one lattice.

@@ -215,11 +215,7 @@ pub const MARGIN_CAUTION: &str = "caution: margins are estimates from a discreti
 /// Maps a library failure to the user's message.
 pub fn study_failure(src: &crate::design_file::DesignSource, e: StudyError) -> Failure {
     use fieldgrid_solver::design::Item;
-    use fieldgrid_solver::operator::OperatorError;
     let err = match &e {
-        StudyError::Operator(OperatorError::UnsupportedSide { side, .. }) => {
-            src.error_at(Item::Sides, side, e.to_string())
-        }
         StudyError::Operator(_) => src.error_at(Item::Sides, "", e.to_string()),
         StudyError::Grid(_) => src.error_at(Item::Grid, "cell", e.to_string()),
         StudyError::Design(d) => src.error_at(d.item, d.key, d.message.clone()),
