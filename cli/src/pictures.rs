@@ -6,7 +6,6 @@ use crate::render::{
     PreviewInput, RenderOptions, Scale,
 };
 use fieldgrid_solver::design::{Design, Mode};
-use fieldgrid_solver::post::FieldEval;
 use fieldgrid_solver::study::Solution;
 use image::RgbImage;
 
@@ -130,9 +129,7 @@ pub fn field_maps(
     });
     let pot_img = render::render_map(&map, opts);
 
-    let v: Vec<f64> = sol.conductors.iter().map(|c| c.potential).collect();
-    let field = FieldEval::new(&sol.operator, &sol.raster, &sol.potential, &v);
-    let magnitude: Vec<f64> = (0..sol.grid.len()).map(|p| field.magnitude(p)).collect();
+    let magnitude = sol.field_magnitude();
     let top = if log_field {
         None
     } else {

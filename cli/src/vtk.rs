@@ -29,13 +29,7 @@ pub const ARRAYS: [&str; 5] = [
 /// The VTK model of the solution.
 pub fn image_data(sol: &Solution, design: &Design) -> Vtk {
     let g = &sol.grid;
-    let potentials: Vec<f64> = sol.conductors.iter().map(|c| c.potential).collect();
-    let field = fieldgrid_solver::post::FieldEval::new(
-        &sol.operator,
-        &sol.raster,
-        &sol.potential,
-        &potentials,
-    );
+    let field = sol.field();
     let n = g.len();
     let mut vector = Vec::with_capacity(3 * n);
     let mut magnitude = Vec::with_capacity(n);

@@ -175,6 +175,20 @@ pub struct Solution {
     pub warnings: Vec<String>,
 }
 
+impl Solution {
+    /// Field evaluation at the operating point (every conductor at its potential).
+    pub fn field(&self) -> post::FieldEval<'_> {
+        let v: Vec<f64> = self.conductors.iter().map(|c| c.potential).collect();
+        post::FieldEval::new(&self.operator, &self.raster, &self.potential, &v)
+    }
+
+    /// |E| at every node, V/m (NaN inside conductors and at fixed nodes).
+    pub fn field_magnitude(&self) -> Vec<f64> {
+        let field = self.field();
+        (0..self.grid.len()).map(|p| field.magnitude(p)).collect()
+    }
+}
+
 /// Core results of the solves on one lattice.
 struct Core {
     raster: Raster,

@@ -368,18 +368,6 @@ pub fn run(args: &CompareArgs) -> Result<u8, Failure> {
     })
 }
 
-/// |E| at every node of a solution (NaN inside conductors and at fixed nodes).
-pub fn field_magnitude(sol: &Solution) -> Vec<f64> {
-    let potentials: Vec<f64> = sol.conductors.iter().map(|c| c.potential).collect();
-    let field = fieldgrid_solver::post::FieldEval::new(
-        &sol.operator,
-        &sol.raster,
-        &sol.potential,
-        &potentials,
-    );
-    (0..sol.grid.len()).map(|p| field.magnitude(p)).collect()
-}
-
 /// The map of |E|(NEW) - |E|(BASE) on their common grid, NEW's outlines drawn.
 fn change_picture(
     base: &Solution,
@@ -388,8 +376,8 @@ fn change_picture(
     opts: &crate::render::RenderOptions,
 ) -> image::RgbImage {
     use crate::render::{self, ContourStyle, MapInput, Palette};
-    let eb = field_magnitude(base);
-    let en = field_magnitude(new);
+    let eb = base.field_magnitude();
+    let en = new.field_magnitude();
     let diff: Vec<f64> = eb.iter().zip(&en).map(|(b, n)| n - b).collect();
     // Colour range: the 99th percentile of |change|, so that the few nodes at sharp edges
     // (whose values are singular) saturate instead of washing out the rest of the map.

@@ -153,13 +153,7 @@ pub fn worst_margin(
     sol: &Solution,
     design: &fieldgrid_solver::design::Design,
 ) -> Option<WorstMargin> {
-    let potentials: Vec<f64> = sol.conductors.iter().map(|c| c.potential).collect();
-    let field = fieldgrid_solver::post::FieldEval::new(
-        &sol.operator,
-        &sol.raster,
-        &sol.potential,
-        &potentials,
-    );
+    let field = sol.field();
     let strength = |m: u16| {
         if m == 0 {
             design.background.strength
@@ -313,13 +307,7 @@ pub fn write_results(
 /// The full-grid table: one row per node.
 pub fn field_table_bytes(sol: &Solution) -> Vec<u8> {
     let g = &sol.grid;
-    let potentials: Vec<f64> = sol.conductors.iter().map(|c| c.potential).collect();
-    let field = fieldgrid_solver::post::FieldEval::new(
-        &sol.operator,
-        &sol.raster,
-        &sol.potential,
-        &potentials,
-    );
+    let field = sol.field();
     csv_bytes(
         &[
             "x (m)",

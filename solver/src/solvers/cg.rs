@@ -33,19 +33,10 @@ pub(crate) fn pcg(
     let n = a.len();
     let bnorm = parallel::norm2(b);
     if bnorm == 0.0 {
-        x.par_iter_mut().for_each(|v| *v = 0.0);
-        return Ok(Info {
-            method,
-            iterations: 0,
-            relative_residual: 0.0,
-            reason: StopReason::ZeroRhs,
-        });
+        x.fill(0.0);
+        return Ok(Info::zero_rhs(method));
     }
-    let max_iter = if params.max_iter > 0 {
-        params.max_iter
-    } else {
-        20 * (a.nx + a.ny) + 1000
-    };
+    let max_iter = params.iteration_limit(20 * (a.nx + a.ny) + 1000);
     let mut r = vec![0.0; n];
     let rel0 = a.residual(b, x, &mut r) / bnorm;
     let mut z = vec![0.0; n];

@@ -121,7 +121,28 @@ pub struct Info {
     pub reason: StopReason,
 }
 
+impl Params {
+    /// The iteration limit: `max_iter`, or the method's `default` when it is 0.
+    pub(crate) fn iteration_limit(&self, default: usize) -> usize {
+        if self.max_iter > 0 {
+            self.max_iter
+        } else {
+            default
+        }
+    }
+}
+
 impl Info {
+    /// The solve of a zero right-hand side: the solution is zero, nothing to iterate.
+    pub(crate) fn zero_rhs(method: &'static str) -> Info {
+        Info {
+            method,
+            iterations: 0,
+            relative_residual: 0.0,
+            reason: StopReason::ZeroRhs,
+        }
+    }
+
     /// True when the result met the tolerance.
     pub fn converged(&self) -> bool {
         matches!(self.reason, StopReason::Converged | StopReason::ZeroRhs)

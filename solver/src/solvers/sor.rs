@@ -78,20 +78,11 @@ pub fn solve(a: &Stencil5, b: &[f64], x: &mut [f64], params: &Params) -> Result<
     const METHOD: &str = "red-black-sor";
     let bnorm = parallel::norm2(b);
     if bnorm == 0.0 {
-        x.par_iter_mut().for_each(|v| *v = 0.0);
-        return Ok(Info {
-            method: METHOD,
-            iterations: 0,
-            relative_residual: 0.0,
-            reason: StopReason::ZeroRhs,
-        });
+        x.fill(0.0);
+        return Ok(Info::zero_rhs(METHOD));
     }
     let omega = params.omega.unwrap_or_else(|| default_omega(a));
-    let max_iter = if params.max_iter > 0 {
-        params.max_iter
-    } else {
-        50 * (a.nx + a.ny) + 2000
-    };
+    let max_iter = params.iteration_limit(50 * (a.nx + a.ny) + 2000);
     let check_every = 10;
     let mut r = vec![0.0; a.len()];
     let rel0 = a.residual(b, x, &mut r) / bnorm;
