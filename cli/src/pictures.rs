@@ -55,9 +55,9 @@ pub fn field_saturation(magnitude: &[f64]) -> Option<f64> {
     if m.len() < 2 {
         return None;
     }
-    m.sort_by(f64::total_cmp);
     let k = ((m.len() - 1) as f64 * FIELD_PERCENTILE).round() as usize;
-    let (q, peak) = (m[k], m[m.len() - 1]);
+    let q = sample::rank(&mut m, k)?;
+    let peak = m[k..].iter().copied().fold(q, f64::max);
     (q > 0.0 && peak > 1.5 * q).then_some(q)
 }
 

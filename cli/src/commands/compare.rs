@@ -386,12 +386,8 @@ fn change_picture(
         .filter(|v| v.is_finite())
         .map(|v| v.abs())
         .collect();
-    mags.sort_by(f64::total_cmp);
-    let top = mags
-        .get((mags.len() as f64 * 0.99) as usize)
-        .or(mags.last())
-        .copied()
-        .unwrap_or(0.0);
+    let k = ((mags.len() as f64 * 0.99) as usize).min(mags.len().saturating_sub(1));
+    let top = crate::render::sample::rank(&mut mags, k).unwrap_or(0.0);
     let (conductors, dielectrics) = crate::pictures::outlines(&src.design);
     let input = MapInput {
         title: "change in field magnitude, NEW minus BASE (colours saturate at the largest 1 %)",

@@ -110,6 +110,12 @@ pub fn finite_range(values: &[f64]) -> Option<(f64, f64)> {
     (lo <= hi).then_some((lo, hi))
 }
 
+/// The value of rank `k` (0: the smallest) among `values`, in linear time; `values` is
+/// reordered. `None` when `k` is out of range.
+pub fn rank(values: &mut [f64], k: usize) -> Option<f64> {
+    (k < values.len()).then(|| *values.select_nth_unstable_by(k, f64::total_cmp).1)
+}
+
 /// Smallest finite positive value.
 pub fn min_positive(values: &[f64]) -> Option<f64> {
     values
@@ -122,6 +128,18 @@ pub fn min_positive(values: &[f64]) -> Option<f64> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn rank_is_the_sorted_position() {
+        let v = [5.0, -1.0, 3.0, 3.0, 9.0, 0.5];
+        let mut sorted = v;
+        sorted.sort_by(f64::total_cmp);
+        for (k, want) in sorted.iter().enumerate() {
+            assert_eq!(rank(&mut v.clone(), k), Some(*want));
+        }
+        assert_eq!(rank(&mut v.clone(), 6), None);
+        assert_eq!(rank(&mut [], 0), None);
+    }
 
     fn grid(nx: usize, ny: usize) -> Grid {
         Grid {
