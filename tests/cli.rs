@@ -219,8 +219,9 @@ fn set_replaces_a_parameter_for_one_run_and_the_summary_records_it() {
         sb["parameters"],
         serde_json::json!([{ "name": "gap", "value": 1.0 }])
     );
-    // Parallel plates: C = eps0 w / gap (the field above the plate ends at a mirror side, so
-    // the plate's top face carries no charge): halving the gap doubles C exactly.
+    // Parallel plates: C = eps0 w / gap (the parallel-plate formula, common practice; the
+    // field above the plate ends at a mirror side, so the plate's top face carries no
+    // charge): halving the gap doubles C exactly.
     let c = |s: &serde_json::Value| s["capacitance"]["matrix"][0][0].as_f64().unwrap();
     let ratio = c(&sb) / c(&sa);
     assert!((ratio - 2.0).abs() < 1e-9, "C ratio {ratio}");
