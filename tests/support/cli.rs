@@ -61,3 +61,12 @@ pub fn read_json(path: &Path) -> serde_json::Value {
 pub fn summary(out: &Path) -> serde_json::Value {
     read_json(&out.join("summary.json"))
 }
+
+/// True when one of a summary's `warnings` contains `text`.
+pub fn has_warning(summary: &serde_json::Value, text: &str) -> bool {
+    summary["warnings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .any(|w| w.as_str().unwrap().contains(text))
+}
