@@ -10,6 +10,7 @@ same conditions.
 
 Usage:
   python3 measure_fieldgrid.py --fieldgrid target/release/fieldgrid [--repeat 3] [--no-fem]
+      [--sensor-cells 0.04 0.02 ...] [--microstrip-cells 0 ...] [--fieldgrid-args "..."]
 """
 
 import argparse
@@ -17,6 +18,7 @@ import json
 import os
 import re
 import resource
+import shlex
 import statistics
 import subprocess
 import sys
@@ -28,6 +30,9 @@ ROOT = os.path.normpath(os.path.join(HERE, "..", ".."))
 
 
 def with_cell(design, cell, tmp):
+    """A copy of the demo design with its cell replaced (0: the design's own cell)."""
+    if cell == 0:
+        return os.path.join(ROOT, "geometries", design)
     text = open(os.path.join(ROOT, "geometries", design)).read()
     new, n = re.subn(r"(?m)^cell\s*=\s*[^#\n]*", f"cell = {cell!r}   ", text)
     if n != 1:
@@ -56,19 +61,28 @@ def run(args, repeat):
         return statistics.median(times), statistics.median(cpus), json.load(f)
 
 
+def node_count(summary):
+    g = summary.get("grid", {})
+    return g["nx"] * g["ny"] if "nx" in g and "ny" in g else "?"
+
+
 def main():
     ap = argparse.ArgumentParser(description=__doc__.split("\n")[0])
     ap.add_argument("--fieldgrid", required=True, help="path of the fieldgrid binary")
     ap.add_argument("--repeat", type=int, default=1, help="runs per case (median time)")
-    ap.add_argument("--sensor-cells", type=float, nargs="+", default=[0.04, 0.02, 0.01, 0.005])
+    ap.add_argument("--sensor-cells", type=float, nargs="+", default=[0.04, 0.02, 0.01, 0.005],
+                    help="cells in mm (0: the design's own)")
     ap.add_argument("--microstrip-cells", type=float, nargs="+",
                     default=[0.03, 0.015, 0.0075, 0.00375])
+    ap.add_argument("--fieldgrid-args", default="",
+                    help="extra options for every fieldgrid run, e.g. \"--accuracy 1e-3\"")
     ap.add_argument("--no-fem", action="store_true",
                     help="do not time the finite-element script's cheap run")
     args = ap.parse_args()
     with open(os.path.join(HERE, "fem_values.json")) as f:
         ref = json.load(f)
     fg = os.path.abspath(args.fieldgrid)
+    extra = shlex.split(args.fieldgrid_args)
     version = subprocess.run([fg, "--version"], capture_output=True, text=True).stdout.strip()
     print(f"fieldgrid: {version}; reference: {ref['library']}\n")
 
@@ -84,8 +98,8 @@ def main():
         for cell in args.sensor_cells:
             design = with_cell("sensor_pad.toml", cell, tmp)
             out = os.path.join(tmp, f"sp_{cell}")
-            t, cpu, s = run([fg, "solve", design, "--threads", "1", "--quiet", "--out", out],
-                       args.repeat)
+            t, cpu, s = run([fg, "solve", design, "--threads", "1", "--quiet", "--out", out]
+                            + extra, args.repeat)
             m = s["capacitance"]["matrix"]
             est = s["capacitance"]["error_estimate"]
             cells, worst = [], 0.0
@@ -97,8 +111,8 @@ def main():
                 worst = max(worst, abs(e), abs((m[j][i] - r) / r))
                 ratio = est[i][j] / abs(m[i][j] - r) if m[i][j] != r else float("inf")
                 cells.append(f"{100 * e:+.3f} % ({ratio:.2f})")
-            nodes = s["grid"]["nx"] * s["grid"]["ny"]
-            print(f"| {cell:g} | {nodes} | {t:.2f} | {cpu:.2f} | " + " | ".join(cells)
+            nodes = node_count(s)
+            print(f"| {cell or 'design'} | {nodes} | {t:.2f} | {cpu:.2f} | " + " | ".join(cells)
                   + f" | {100 * worst:.3f} % |", flush=True)
 
         ms = ref["microstrip"]["values"]
@@ -110,7 +124,7 @@ def main():
             design = with_cell("microstrip.toml", cell, tmp)
             out = os.path.join(tmp, f"ms_{cell}")
             t, cpu, s = run([fg, "impedance", design, "--signal", "trace", "--threads", "1",
-                        "--quiet", "--out", out], args.repeat)
+                        "--quiet", "--out", out] + extra, args.repeat)
             line = s["line"]
             row = []
             for key in ("z0", "eps_eff"):
@@ -118,8 +132,8 @@ def main():
                 e = (v - r) / r
                 ratio = line["error_estimate"][key] / abs(v - r)
                 row += [f"{v:.5f}", f"{100 * e:+.3f} % ({ratio:.2f})"]
-            nodes = s["grid"]["nx"] * s["grid"]["ny"]
-            print(f"| {cell:g} | {nodes} | {t:.2f} | {cpu:.2f} | " + " | ".join(row) + " |",
+            nodes = node_count(s)
+            print(f"| {cell or 'design'} | {nodes} | {t:.2f} | {cpu:.2f} | " + " | ".join(row) + " |",
                   flush=True)
 
     if not args.no_fem:
