@@ -713,17 +713,6 @@ fn chord(poly: &[Point], yl: f64) -> f64 {
     }
 }
 
-fn area(poly: &[Point]) -> f64 {
-    let n = poly.len();
-    0.5 * (0..n)
-        .map(|k| {
-            let (p, q) = (poly[k], poly[(k + 1) % n]);
-            p[0] * q[1] - q[0] * p[1]
-        })
-        .sum::<f64>()
-        .abs()
-}
-
 #[test]
 fn rasterised_polygon_area_matches_its_geometric_area_within_the_cut_cell_error() {
     let strategy = (
@@ -839,7 +828,7 @@ fn rasterised_polygon_area_matches_its_geometric_area_within_the_cut_cell_error(
                 * g.hy
                 / 8.0;
             let bound = bound + snapped.iter().sum::<usize>() as f64 * g.hx * g.hy;
-            let exact = area(&poly);
+            let exact = fieldgrid_tests::polygon_area(&poly);
             prop_assert!(
                 (integral - exact).abs() <= bound + 1e-12 * exact,
                 "area {integral:e} vs {exact:e}: error {:e} above the bound {bound:e}",

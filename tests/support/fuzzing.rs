@@ -1,6 +1,6 @@
 //! The fuzz targets' bodies, shared by the cargo-fuzz targets (`fuzz/fuzz_targets/`), the
 //! stable-toolchain driver (`fuzz/src/bin/stable.rs`) and the regression tests in
-//! `tests/robustness.rs`, so that a finding replays in CI exactly as the fuzzer saw it.
+//! `tests/cli/robustness/fuzz_findings.rs`, so that a finding replays in CI exactly as the fuzzer saw it.
 //!
 //! Each target takes arbitrary bytes, must never panic, hang or exhaust memory, and checks
 //! the invariants the library documents on whatever it produced. It returns a short outcome

@@ -1,7 +1,9 @@
 //! Shared helpers for the integration tests: reading designs from text, solving them with
-//! every solver, and comparing numbers; running the command and handling its files in [`cli`].
+//! every solver, and comparing numbers; running the command and handling its files in [`cli`];
+//! designs used by several test modules in [`designs`].
 
 pub mod cli;
+pub mod designs;
 pub mod fuzzing;
 
 use fieldgrid_solver::design::Design;
@@ -87,4 +89,16 @@ pub fn solve_every_method(d: &Design, rel: f64) -> Vec<Solution> {
 /// Relative error of `got` against `want`.
 pub fn rel_err(got: f64, want: f64) -> f64 {
     ((got - want) / want).abs()
+}
+
+/// Area enclosed by a simple polygon (shoelace formula), whatever its orientation.
+pub fn polygon_area(poly: &[[f64; 2]]) -> f64 {
+    let n = poly.len();
+    0.5 * (0..n)
+        .map(|k| {
+            let (p, q) = (poly[k], poly[(k + 1) % n]);
+            p[0] * q[1] - q[0] * p[1]
+        })
+        .sum::<f64>()
+        .abs()
 }

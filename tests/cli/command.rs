@@ -5,20 +5,15 @@ use fieldgrid_tests::cli::{expect, has_warning, read_json, run, scratch, summary
 /// The prefix of this file's scratch directories.
 const SCRATCH: &str = "fieldgrid-cli";
 
-const PLATES: &str = r#"
-unit = "mm"
-[grid]
-x = [0.0, 4.0]
-y = [0.0, 2.0]
-cell = 0.1
-[sides]
-left = "symmetry"
-right = "symmetry"
-top = 50.0
+/// The mirror box, grounded at the bottom, its top at 50 V, a probe in the middle: a
+/// uniform field of 25 kV/m.
+const PLATES: &str = fieldgrid_tests::mirror_box_4x2_mm!(
+    r#"top = 50.0
 [[probe]]
 name = "mid"
 at = [2.0, 1.0]
-"#;
+"#
+);
 
 #[test]
 fn solve_writes_every_result_file() {

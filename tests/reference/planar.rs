@@ -4,6 +4,7 @@
 
 use fieldgrid_solver::solvers::Method;
 use fieldgrid_solver::EPS0;
+use fieldgrid_tests::designs;
 use fieldgrid_tests::{design, rel_err, solve, solve_every_method, solve_with};
 use std::f64::consts::PI;
 
@@ -86,26 +87,10 @@ rect = { x = [0.0, 1.0], y = [0.0, 2.0] }
     );
 }
 
-fn coax(cells_across_inner_radius: f64) -> String {
-    // Inner radius 1 mm, outer 2.5 mm; the outer conductor is a ring reaching the sides.
-    let cell = 1.0 / cells_across_inner_radius;
-    format!(
-        r#"
-unit = "mm"
-[grid]
-x = [-2.8, 2.8]
-y = [-2.8, 2.8]
-cell = {cell}
-[[conductor]]
-name = "inner"
-potential = 1.0
-circle = {{ center = [0.0, 0.0], radius = 1.0 }}
-[[conductor]]
-name = "outer"
-potential = 0.0
-ring = {{ center = [0.0, 0.0], inner = 2.5, outer = 2.8 }}
-"#
-    )
+/// The shared coaxial line (inner radius 1 mm, outer 2.5 mm) with `n` cells across the
+/// inner radius.
+fn coax(n: f64) -> String {
+    designs::coax(1.0 / n)
 }
 
 #[test]

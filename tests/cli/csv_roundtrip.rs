@@ -7,16 +7,8 @@ use fieldgrid_tests::cli::{expect, run, s, scratch, write};
 const SCRATCH: &str = "fieldgrid-csv";
 
 // A strip over a dielectric layer with a strength, so every table has rows.
-const STRIP: &str = r#"
-unit = "mm"
-[grid]
-x = [0.0, 4.0]
-y = [0.0, 2.0]
-cell = 0.1
-[sides]
-left = "symmetry"
-right = "symmetry"
-top = "open"
+const STRIP: &str = fieldgrid_tests::mirror_box_4x2_mm!(
+    r#"top = "open"
 [background]
 strength = 3.0e6
 [[dielectric]]
@@ -28,7 +20,8 @@ rect = { x = [0.0, 4.0], y = [0.0, 0.5] }
 name = "strip"
 potential = 1.0
 rect = { x = [1.5, 2.5], y = [0.5, 0.6] }
-"#;
+"#
+);
 
 /// Reads a CSV with default options; returns the header and the rows.
 fn read(path: &std::path::Path) -> (Vec<String>, Vec<csv::StringRecord>) {

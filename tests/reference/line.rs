@@ -30,7 +30,7 @@ fn k_ratio(k: f64) -> f64 {
 /// "Characteristic impedance of the shielded-strip transmission line", IRE Trans. MTT 2
 /// (1954) 52-57: Z0 = 30 pi K(k) / (sqrt(eps_r) K(k')), k = sech(pi w / (2 b)). (30 pi is
 /// eta0 / 4; the exact eta0 is used.)
-pub fn cohn_stripline(w_over_b: f64, eps_r: f64) -> f64 {
+fn cohn_stripline(w_over_b: f64, eps_r: f64) -> f64 {
     let k = 1.0 / (PI * w_over_b / 2.0).cosh();
     eta0() / 4.0 * k_ratio(k) / eps_r.sqrt()
 }
@@ -39,7 +39,7 @@ pub fn cohn_stripline(w_over_b: f64, eps_r: f64) -> f64 {
 /// S. B. Cohn, "Shielded coupled-strip transmission line", IRE Trans. MTT 3 (1955) 29-38:
 /// Z_even = 30 pi K(k_e') / (sqrt(eps_r) K(k_e)), k_e = tanh(pi w/2b) tanh(pi (w+s)/2b);
 /// Z_odd the same with k_o = tanh(pi w/2b) coth(pi (w+s)/2b). Returns (Z_even, Z_odd).
-pub fn cohn_coupled(w: f64, s: f64, b: f64, eps_r: f64) -> (f64, f64) {
+fn cohn_coupled(w: f64, s: f64, b: f64, eps_r: f64) -> (f64, f64) {
     let t1 = (PI * w / (2.0 * b)).tanh();
     let t2 = (PI * (w + s) / (2.0 * b)).tanh();
     let z = |k: f64| eta0() / 4.0 / k_ratio(k) / eps_r.sqrt();
@@ -51,7 +51,7 @@ pub fn cohn_coupled(w: f64, s: f64, b: f64, eps_r: f64) -> (f64, f64) {
 /// (1980) 407-409, eqs. for Z01(u) (stated accuracy 0.01 % for u <= 1, 0.03 % for
 /// u <= 1000) and eps_eff(u, eps_r) (0.2 %); cited from memory of the paper's equations.
 /// Returns (Z0, eps_eff, Z0 in air).
-pub fn hammerstad_jensen(u: f64, eps_r: f64) -> (f64, f64, f64) {
+fn hammerstad_jensen(u: f64, eps_r: f64) -> (f64, f64, f64) {
     let f = 6.0 + (2.0 * PI - 6.0) * (-(30.666 / u).powf(0.7528)).exp();
     let z01 = eta0() / (2.0 * PI) * (f / u + (1.0 + 4.0 / (u * u)).sqrt()).ln();
     let a = 1.0
@@ -69,14 +69,14 @@ pub fn hammerstad_jensen(u: f64, eps_r: f64) -> (f64, f64, f64) {
 /// 179-181): k0 = s/(s+2w), k1 = sinh(pi s/4h) / sinh(pi (s+2w)/4h),
 /// eps_eff = 1 + (eps_r - 1)/2 K(k1)/K(k1') K(k0')/K(k0), Z0 = 30 pi / sqrt(eps_eff)
 /// K(k0')/K(k0); cited from memory. Returns (Z0, eps_eff).
-pub fn cpw(s: f64, w: f64, h: f64, eps_r: f64) -> (f64, f64) {
+fn cpw(s: f64, w: f64, h: f64, eps_r: f64) -> (f64, f64) {
     let k0 = s / (s + 2.0 * w);
     let k1 = (PI * s / (4.0 * h)).sinh() / (PI * (s + 2.0 * w) / (4.0 * h)).sinh();
     let eps_eff = 1.0 + (eps_r - 1.0) / 2.0 * k_ratio(k1) / k_ratio(k0);
     (eta0() / 4.0 / eps_eff.sqrt() / k_ratio(k0), eps_eff)
 }
 
-pub fn run_line(text: &str, signals: &[&str], error_estimate: bool) -> LineStudy {
+fn run_line(text: &str, signals: &[&str], error_estimate: bool) -> LineStudy {
     let d = design(text);
     let signals: Vec<String> = signals.iter().map(|s| s.to_string()).collect();
     let p = StudyParams {
@@ -90,12 +90,12 @@ pub fn run_line(text: &str, signals: &[&str], error_estimate: bool) -> LineStudy
 
 /// Zero-thickness strip of width w_over_b * b centred between plates b = 1 mm apart, the
 /// half x >= 0 with a symmetry side through the strip, the far side open 3 b away.
-pub fn stripline(w_over_b: f64, eps_r: f64, cell: f64) -> String {
+fn stripline(w_over_b: f64, eps_r: f64, cell: f64) -> String {
     stripline_in(w_over_b, eps_r, cell, 3.0)
 }
 
 /// The same with the open side `room` plate spacings beyond the strip.
-pub fn stripline_in(w_over_b: f64, eps_r: f64, cell: f64, room: f64) -> String {
+fn stripline_in(w_over_b: f64, eps_r: f64, cell: f64, room: f64) -> String {
     let hw = w_over_b / 2.0;
     format!(
         r#"
@@ -142,13 +142,8 @@ fn centred_stripline_impedance_matches_cohn_exact_map() {
 }
 
 /// Zero-thickness microstrip of width u*h on a substrate h = 1 mm over a ground plane, the
-/// half x >= 0, open sides 6 h beyond the strip.
-pub fn microstrip(u: f64, eps_r: f64, cell: f64) -> String {
-    microstrip_in(u, eps_r, cell, 6.0)
-}
-
-/// The same with the open sides `room` substrate heights beyond the strip.
-pub fn microstrip_in(u: f64, eps_r: f64, cell: f64, room: f64) -> String {
+/// half x >= 0, open sides `room` substrate heights beyond the strip.
+fn microstrip_in(u: f64, eps_r: f64, cell: f64, room: f64) -> String {
     let hw = u / 2.0;
     format!(
         r#"
@@ -177,7 +172,7 @@ polyline = [[0.0, 1.0], [{hw}, 1.0]]
 }
 
 #[test]
-pub fn microstrip_impedance_and_effective_permittivity_match_hammerstad_jensen() {
+fn microstrip_impedance_and_effective_permittivity_match_hammerstad_jensen() {
     for (u, eps_r) in [
         (0.5, 2.2),
         (0.5, 10.0),
@@ -205,7 +200,7 @@ pub fn microstrip_impedance_and_effective_permittivity_match_hammerstad_jensen()
 
 /// Two zero-thickness strips of width w, gap s, centred between plates 1 mm apart, both
 /// modelled (two signals), both sides open 2 b beyond the strips.
-pub fn coupled_stripline(w: f64, s: f64, eps_r: f64, cell: f64) -> String {
+fn coupled_stripline(w: f64, s: f64, eps_r: f64, cell: f64) -> String {
     let (a, b) = (s / 2.0, s / 2.0 + w);
     format!(
         r#"
@@ -264,13 +259,9 @@ fn edge_coupled_stripline_odd_and_even_impedances_match_cohn() {
 }
 
 /// Coplanar waveguide: centre strip s, slots w, grounds reaching the open right side, on a
-/// substrate of thickness h with air above and below; the half x >= 0.
-pub fn coplanar(s: f64, w: f64, h: f64, eps_r: f64, cell: f64) -> String {
-    coplanar_in(s, w, h, eps_r, cell, 6.0)
-}
-
-/// The same with the open sides `room` beyond the slot and the substrate, mm.
-pub fn coplanar_in(s: f64, w: f64, h: f64, eps_r: f64, cell: f64, room: f64) -> String {
+/// substrate of thickness h with air above and below; the half x >= 0, the open sides `room`
+/// beyond the slot and the substrate, mm.
+fn coplanar_in(s: f64, w: f64, h: f64, eps_r: f64, cell: f64, room: f64) -> String {
     let x1 = s / 2.0 + w + room;
     format!(
         r#"
@@ -360,22 +351,8 @@ fn estimated(text: &str) -> (f64, f64, f64) {
 fn error_estimate_brackets_true_error_on_coax_microstrip_and_stripline() {
     // Coaxial line, inner radius 1 mm, outer 2.5 mm: C' = 2 pi eps0 / ln(b/a) (D. J.
     // Griffiths, Introduction to Electrodynamics, 4th ed., 2017, sec. 2.5).
-    let coax = r#"
-unit = "mm"
-[grid]
-x = [-2.8, 2.8]
-y = [-2.8, 2.8]
-cell = 0.2
-[[conductor]]
-name = "inner"
-potential = 1.0
-circle = { center = [0.0, 0.0], radius = 1.0 }
-[[conductor]]
-name = "outer"
-potential = 0.0
-ring = { center = [0.0, 0.0], inner = 2.5, outer = 2.8 }
-"#;
-    let (c, e, p) = estimated(coax);
+    let coax = fieldgrid_tests::designs::coax(0.2);
+    let (c, e, p) = estimated(&coax);
     assert_brackets(
         &format!("coax (order {p})"),
         c,

@@ -3,6 +3,7 @@
 
 use fieldgrid_solver::study::{self, StudyError};
 use fieldgrid_solver::EPS0;
+use fieldgrid_tests::designs::{axisymmetric_in_open_space, UNIT_SPHERE};
 use fieldgrid_tests::{design, params, rel_err, solve, solve_every_method};
 use std::f64::consts::PI;
 
@@ -209,26 +210,9 @@ amount = 1.0e-10
     ));
 }
 
+/// A sphere of radius 1 mm on the axis, the open sides `reach` mm from its centre.
 fn isolated_sphere(reach: f64) -> String {
-    // Sphere of radius 1 mm on the axis, the open sides `reach` mm from its centre.
-    format!(
-        r#"
-unit = "mm"
-mode = "axisymmetric"
-[grid]
-x = [0.0, {reach}]
-y = [-{reach}, {reach}]
-cell = 0.05
-[sides]
-right = "open"
-top = "open"
-bottom = "open"
-[[conductor]]
-name = "ball"
-potential = 1.0
-circle = {{ center = [0.0, 0.0], radius = 1.0 }}
-"#
-    )
+    axisymmetric_in_open_space(reach, 0.05, UNIT_SPHERE)
 }
 
 #[test]

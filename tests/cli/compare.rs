@@ -6,17 +6,10 @@
 use std::path::Path;
 
 use fieldgrid_tests::cli::{expect_for, read_json, run, s, scratch};
+use fieldgrid_tests::designs::demo_path;
 
 /// The prefix of this file's scratch directories.
 const SCRATCH: &str = "fieldgrid-compare";
-
-fn demo(name: &str) -> String {
-    Path::new(env!("CARGO_MANIFEST_DIR"))
-        .join("../geometries")
-        .join(name)
-        .display()
-        .to_string()
-}
 
 /// compare.csv as (quantity -> row).
 fn table(dir: &Path) -> Vec<csv::StringRecord> {
@@ -33,7 +26,10 @@ fn row<'a>(t: &'a [csv::StringRecord], q: &str) -> &'a csv::StringRecord {
 #[test]
 fn compare_designs_and_summaries_of_two_revisions() {
     let dir = scratch(SCRATCH, "revisions");
-    let (a, b) = (demo("touch_pad_rev_a.toml"), demo("touch_pad_rev_b.toml"));
+    let (a, b) = (
+        demo_path("touch_pad_rev_a.toml"),
+        demo_path("touch_pad_rev_b.toml"),
+    );
     let q = ["--quiet", "--no-error-estimate"];
 
     // Identical designs: nothing changes (results are a pure function of the input).

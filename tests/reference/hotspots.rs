@@ -8,7 +8,7 @@ use fieldgrid_solver::study::{self, Solution};
 use fieldgrid_tests::cli::{expect_for, run, s, scratch, write};
 use fieldgrid_tests::params;
 
-const HV_TIP: &str = include_str!("../geometries/hv_tip.toml");
+const HV_TIP: &str = include_str!("../../geometries/hv_tip.toml");
 /// Tip position in the demo, m.
 const TIP: [f64; 2] = [10.0e-3, 2.0e-3];
 
@@ -187,7 +187,7 @@ fn solve_reports_singular_hot_spots_and_enforces_min_margin() {
 fn a_smooth_rounded_rim_is_one_hot_spot_not_a_row_of_ripples() {
     use fieldgrid_solver::post::HotspotParams;
     let src = read_design(
-        include_str!("../geometries/hv_electrode.toml"),
+        include_str!("../../geometries/hv_electrode.toml"),
         "hv_electrode.toml",
         &[],
     )

@@ -5,6 +5,7 @@
 use fieldgrid_cli::design_file::read_design;
 use fieldgrid_solver::design::Shape;
 use fieldgrid_tests::cli::{expect, run, s};
+use fieldgrid_tests::polygon_area;
 use std::path::PathBuf;
 
 /// A fresh scratch directory for the test `name`, with the `art/` folder the designs'
@@ -41,18 +42,6 @@ y = [0.0, 10.0]
 cell = 0.1
 {shapes}"#
     )
-}
-
-fn area(p: &[[f64; 2]]) -> f64 {
-    let n = p.len();
-    (0..n)
-        .map(|i| {
-            let (a, b) = (p[i], p[(i + 1) % n]);
-            a[0] * b[1] - b[0] * a[1]
-        })
-        .sum::<f64>()
-        .abs()
-        / 2.0
 }
 
 fn polygon(s: &Shape) -> &[[f64; 2]] {
@@ -109,7 +98,7 @@ svg = { file = "art/pads.svg", id = "wire" }
     let round = polygon(&d.conductors[0].shape);
     let want = std::f64::consts::PI * r * r;
     let slack = 2.0 * std::f64::consts::PI * r * (tol + 3e-4 * r);
-    let got = area(round);
+    let got = polygon_area(round);
     assert!(
         (got - want).abs() <= slack,
         "disc area {got} vs {want} (slack {slack})"
@@ -127,7 +116,7 @@ svg = { file = "art/pads.svg", id = "wire" }
     // Rect 3 x 2 at (0, 1) inside translate(10, 1): x 10..13, y_svg 2..4, y_design 6..8.
     let sq = polygon(&d.conductors[1].shape);
     assert_eq!(sq.len(), 4);
-    assert!((area(sq) - 6.0 * mm2).abs() < 1e-12 * mm2 * 1e6);
+    assert!((polygon_area(sq) - 6.0 * mm2).abs() < 1e-12 * mm2 * 1e6);
     let (xs, ys): (Vec<f64>, Vec<f64>) = sq.iter().map(|p| (p[0], p[1])).unzip();
     let lo = |v: &[f64]| v.iter().cloned().fold(f64::INFINITY, f64::min);
     let hi = |v: &[f64]| v.iter().cloned().fold(f64::NEG_INFINITY, f64::max);
@@ -141,7 +130,7 @@ svg = { file = "art/pads.svg", id = "wire" }
     let r = 1.5e-3;
     let dot = polygon(&d.dielectrics[0].shape);
     let want = std::f64::consts::PI * r * r;
-    let got = area(dot);
+    let got = polygon_area(dot);
     assert!(got < want && want - got <= 2.0 * std::f64::consts::PI * r * tol);
 
     // Quadratic from (1, 9) over control (3, 7) to (5, 9), closed by the chord: the segment
@@ -152,7 +141,7 @@ svg = { file = "art/pads.svg", id = "wire" }
     };
     let lens = polygon(shape);
     let want = 8.0 / 3.0 * mm2;
-    let got = area(lens);
+    let got = polygon_area(lens);
     // Chord length 4 mm, deviation at most tol: the area is off by at most 4 mm * tol.
     assert!(
         (got - want).abs() <= 4e-3 * tol,

@@ -9,16 +9,8 @@ const SCRATCH: &str = "fieldgrid-vtk";
 
 // Two layers between plates: a permittivity-4 layer on y = [0, 1] mm, air above it up to a
 // full-width electrode at 50 V covering y = [1.8, 2] mm (the top side is at 50 V too).
-const LAYERS: &str = r#"
-unit = "mm"
-[grid]
-x = [0.0, 4.0]
-y = [0.0, 2.0]
-cell = 0.1
-[sides]
-left = "symmetry"
-right = "symmetry"
-bottom = "ground"
+const LAYERS: &str = fieldgrid_tests::mirror_box_4x2_mm!(
+    r#"bottom = "ground"
 top = 50.0
 [[dielectric]]
 name = "layer"
@@ -28,7 +20,8 @@ rect = { x = [0.0, 4.0], y = [0.0, 1.0] }
 name = "lid"
 potential = 50.0
 rect = { x = [0.0, 4.0], y = [1.8, 2.0] }
-"#;
+"#
+);
 
 fn arrays(vtk: vtkio::Vtk) -> (DataSet, Vec<(String, vtkio::IOBuffer)>) {
     let data = vtk.data;

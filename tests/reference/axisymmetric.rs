@@ -5,6 +5,7 @@ use fieldgrid_solver::post::FieldEval;
 use fieldgrid_solver::solvers::Method;
 use fieldgrid_solver::study::{self, Solution, StudyParams};
 use fieldgrid_solver::EPS0;
+use fieldgrid_tests::designs::{axisymmetric_in_open_space, demo_text, UNIT_SPHERE};
 use fieldgrid_tests::{design, params, rel_err, solve};
 use std::f64::consts::PI;
 
@@ -126,33 +127,6 @@ ring = { center = [20.0, 0.0], inner = 2.5, outer = 3.0 }
     assert!(rel_err(got, want) < 1e-2, "C = {got:e} F, want {want:e} F");
 }
 
-/// An axisymmetric design in mm whose right, bottom and top sides are open, the box reaching
-/// `reach` from the axis and from z = 0, with square cells of about `cell`.
-fn in_open_space(reach: f64, cell: f64, body: &str) -> String {
-    format!(
-        r#"
-unit = "mm"
-mode = "axisymmetric"
-[grid]
-x = [0.0, {reach}]
-y = [-{reach}, {reach}]
-cell = {cell}
-[sides]
-right = "open"
-bottom = "open"
-top = "open"
-{body}
-"#
-    )
-}
-
-const UNIT_SPHERE: &str = r#"
-[[conductor]]
-name = "sphere"
-potential = 1.0
-circle = { center = [0.0, 0.0], radius = 1.0 }
-"#;
-
 /// Study settings with the error estimate (three lattices) switched on.
 fn with_error_estimate() -> StudyParams {
     StudyParams {
@@ -167,8 +141,8 @@ fn isolated_sphere_matches_4_pi_eps0_r_wherever_the_open_sides_are() {
     // Electrodynamics, 4th ed., 2017, sec. 2.5.4: the spherical capacitor with the outer
     // radius taken to infinity; from memory).
     let want = 4.0 * PI * EPS0 * 1e-3;
-    let near = solve(&design(&in_open_space(3.0, 0.05, UNIT_SPHERE)));
-    let far = solve(&design(&in_open_space(6.0, 0.05, UNIT_SPHERE)));
+    let near = solve(&design(&axisymmetric_in_open_space(3.0, 0.05, UNIT_SPHERE)));
+    let far = solve(&design(&axisymmetric_in_open_space(6.0, 0.05, UNIT_SPHERE)));
     let (c_near, c_far) = (near.capacitance.matrix[0][0], far.capacitance.matrix[0][0]);
     let err = rel_err(c_near, want);
     assert!(
@@ -204,11 +178,11 @@ potential = 1.0
 polyline = [[0.0, 0.0], [1.0, 0.0]]
 "#;
     let want = 8.0 * EPS0 * 1e-3;
-    let near = solve(&design(&in_open_space(3.0, 0.025, disc)));
+    let near = solve(&design(&axisymmetric_in_open_space(3.0, 0.025, disc)));
     let c = near.capacitance.matrix[0][0];
     let err = rel_err(c, want);
     assert!(err < 1.5e-2, "C = {c:e} F, want {want:e} F: error {err:e}");
-    let far = solve(&design(&in_open_space(6.0, 0.025, disc)));
+    let far = solve(&design(&axisymmetric_in_open_space(6.0, 0.025, disc)));
     let moved = rel_err(far.capacitance.matrix[0][0], c);
     eprintln!("isolated thin disc: error {err:e}; sides 3R -> 6R moved C by {moved:e}");
     assert!(
@@ -384,7 +358,11 @@ name = "lower"
 potential = 0.0
 polyline = [[0.0, -0.05], [1.0, -0.05]]
 "#;
-    let s = solve(&design(&in_open_space(3.0, kappa / 11.0, body)));
+    let s = solve(&design(&axisymmetric_in_open_space(
+        3.0,
+        kappa / 11.0,
+        body,
+    )));
     let m = &s.capacitance.matrix;
     let e0r = EPS0 * 1e-3;
     let differential = 0.5 * (m[0][0] - m[0][1]) / e0r;
@@ -420,7 +398,7 @@ polyline = [[0.0, -0.05], [1.0, -0.05]]
 
 /// Concentric spheres (radii 1 and 2 mm, shell 0.5 mm thick) in open space.
 fn shell_in_open_space(cell: f64) -> String {
-    in_open_space(
+    axisymmetric_in_open_space(
         3.0,
         cell,
         r#"
@@ -513,7 +491,7 @@ fn error_estimate_is_honest_on_the_sphere_and_the_disc() {
     for (k, (want, name)) in spheres.into_iter().enumerate() {
         for h in [0.1, 0.05, 0.025] {
             let text = if k == 0 {
-                in_open_space(4.0, h, UNIT_SPHERE)
+                axisymmetric_in_open_space(4.0, h, UNIT_SPHERE)
             } else {
                 shell_in_open_space(h)
             };
@@ -544,7 +522,7 @@ polyline = [[0.0, 0.0], [1.0, 0.0]]
 "#;
     for (h, warns) in [(0.05, true), (0.025, false)] {
         let s = study::run(
-            &design(&in_open_space(3.0, h, disc)),
+            &design(&axisymmetric_in_open_space(3.0, h, disc)),
             &with_error_estimate(),
         )
         .unwrap();
@@ -604,8 +582,8 @@ fn axis_is_regular_finite_field_zero_radial_field_and_no_loss_of_order() {
     // The unit sphere in open space (phi = R/rho outside, E = R/rho^2; Griffiths 2017,
     // sec. 2.5.4) and the point charge in a grounded sphere (see above): no NaN anywhere, a
     // finite field at every free node, Er exactly 0 on the axis.
-    let coarse = solve(&design(&in_open_space(4.0, 0.1, UNIT_SPHERE)));
-    let fine = solve(&design(&in_open_space(4.0, 0.05, UNIT_SPHERE)));
+    let coarse = solve(&design(&axisymmetric_in_open_space(4.0, 0.1, UNIT_SPHERE)));
+    let fine = solve(&design(&axisymmetric_in_open_space(4.0, 0.05, UNIT_SPHERE)));
     let point = solve(&design(POINT_CHARGE_IN_SPHERE));
     for s in [&coarse, &fine, &point] {
         let g = s.grid;
@@ -702,19 +680,13 @@ fn axial_force_matches_virtual_work() {
     );
 }
 
-/// Reads a demo design of `geometries/`.
-fn demo(name: &str) -> String {
-    let path = format!("{}/../geometries/{name}", env!("CARGO_MANIFEST_DIR"));
-    std::fs::read_to_string(&path).unwrap_or_else(|e| panic!("{path}: {e}"))
-}
-
 #[test]
 fn axisymmetric_demo_designs_solve() {
     // The demos' numbers are our own scenarios; what is checked is that they run and behave:
     // a touch adds capacitance to the pad (coupling to the grounded finger), and the rounded
     // HV rim is not singular and keeps a margin above 1 at its design voltage.
-    let bare = solve(&design(&demo("round_touch_pad_bare.toml")));
-    let touched = solve(&design(&demo("round_touch_pad.toml")));
+    let bare = solve(&design(&demo_text("round_touch_pad_bare.toml")));
+    let touched = solve(&design(&demo_text("round_touch_pad.toml")));
     assert!(bare.capacitance.names[0] == "pad" && touched.capacitance.names[0] == "pad");
     let (c0, c1) = (
         bare.capacitance.matrix[0][0],
@@ -725,7 +697,7 @@ fn axisymmetric_demo_designs_solve() {
     let finger = touched.capacitance.names.iter().position(|n| n == "finger");
     let to_finger = -touched.capacitance.matrix[0][finger.expect("finger")];
     assert!(to_finger > 0.0 && to_finger < c1);
-    let hv = solve(&design(&demo("hv_electrode.toml")));
+    let hv = solve(&design(&demo_text("hv_electrode.toml")));
     let peak = hv.peak_field.as_ref().expect("peak");
     eprintln!(
         "hv electrode: peak {:e} V/m, margin {:?}",

@@ -331,7 +331,7 @@ struct Orders {
 }
 
 /// Runs the refinement study and returns the observed orders, printing the table
-/// (`cargo test --test manufactured -- --nocapture` shows it).
+/// (`cargo test --test reference manufactured -- --nocapture` shows it).
 fn study(name: &str, make: fn(usize) -> Problem, ns: &[usize]) -> (Orders, Vec<Errors>) {
     let es: Vec<Errors> = ns.iter().map(|&n| errors(&make(n))).collect();
     println!("{name}: errors relative to max|phi| and max|E|");

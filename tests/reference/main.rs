@@ -1,0 +1,11 @@
+//! Reference tests: the solver's numbers against published closed forms, tables and
+//! literature, manufactured solutions, and agreement between the solvers. One module per
+//! family of cases; shared designs and helpers live in `tests/support/`.
+
+mod axisymmetric;
+mod floating;
+mod hotspots;
+mod line;
+mod manufactured;
+mod open;
+mod planar;
