@@ -133,8 +133,8 @@ def main():
                 ratio = line["error_estimate"][key] / abs(v - r)
                 row += [f"{v:.5f}", f"{100 * e:+.3f} % ({ratio:.2f})"]
             nodes = node_count(s)
-            print(f"| {cell or 'design'} | {nodes} | {t:.2f} | {cpu:.2f} | " + " | ".join(row) + " |",
-                  flush=True)
+            print(f"| {cell or 'design'} | {nodes} | {t:.2f} | {cpu:.2f} | "
+                  + " | ".join(row) + " |", flush=True)
 
     if not args.no_fem:
         # The finite-element script's cheap run (about 1e-4 on every value), same conditions.
