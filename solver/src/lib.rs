@@ -25,6 +25,8 @@ pub mod raster;
 pub mod solvers;
 pub mod stencil;
 pub mod study;
+pub mod surface;
+pub mod surface_field;
 
 /// Permittivity of free space, F/m (CODATA 2018 recommended value).
 pub const EPS0: f64 = 8.854_187_812_8e-12;

@@ -19,6 +19,7 @@ use crate::operator::{self, Operator, OperatorError, SideId};
 use crate::post::{self, Hotspot, HotspotParams, ProbeResult, SurfacePoint};
 use crate::raster::{self, Raster, NO_CONDUCTOR};
 use crate::solvers::{self, Info, Method, Params, StopReason};
+use crate::surface::{self, SurfaceParams, SurfaceSample};
 use crate::EPS0;
 
 /// What to run.
@@ -169,6 +170,9 @@ pub struct Solution {
     pub probes: Vec<ProbeResult>,
     /// Surface charge samples along the conductor outlines.
     pub surface_charge: Vec<SurfacePoint>,
+    /// The field at the surfaces (conductors, fixed sides, both sides of interfaces),
+    /// evaluated at points along their exact outlines.
+    pub surface: Vec<SurfaceSample>,
     /// Linear-solve summary.
     pub solve: SolveSummary,
     /// Warnings for the user.
@@ -325,6 +329,7 @@ pub fn run(design: &Design, params: &StudyParams) -> Result<Solution, StudyError
         .map(|p| post::probe(&field, p))
         .collect();
     let surface_charge = post::surface_charge(&field, design);
+    let surface = surface::sample(&field, design, &SurfaceParams::default());
     // Every solve can converge and the results still overflow (potentials, permittivities
     // or charges near the end of the double range): such results are flagged, not reported.
     if solve.converged {
@@ -356,6 +361,7 @@ pub fn run(design: &Design, params: &StudyParams) -> Result<Solution, StudyError
         hotspots,
         probes,
         surface_charge,
+        surface,
         solve,
         warnings,
         potential: core.phi,

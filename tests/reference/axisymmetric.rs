@@ -4,6 +4,7 @@
 use fieldgrid_solver::post::FieldEval;
 use fieldgrid_solver::solvers::Method;
 use fieldgrid_solver::study::{self, Solution, StudyParams};
+use fieldgrid_solver::surface::SurfaceKind;
 use fieldgrid_solver::EPS0;
 use fieldgrid_tests::designs::{axisymmetric_in_open_space, demo_text, UNIT_SPHERE};
 use fieldgrid_tests::{design, params, rel_err, solve};
@@ -709,4 +710,63 @@ fn axisymmetric_demo_designs_solve() {
         hv.conductors[0].force[1] < 0.0,
         "the floor pulls the electrode"
     );
+}
+
+fn spheres_off_row(cells_across_inner_radius: f64) -> String {
+    // Concentric spheres of radii 1 mm and 2 mm, centre on the axis between node rows.
+    format!(
+        r#"
+unit = "mm"
+mode = "axisymmetric"
+[grid]
+x = [0.0, 3.0]
+y = [-3.0, 3.0]
+cell = {}
+[[conductor]]
+name = "inner"
+potential = 1.0
+circle = {{ center = [0.0, 0.0123], radius = 1.0 }}
+[[conductor]]
+name = "shell"
+potential = 0.0
+ring = {{ center = [0.0, 0.0123], inner = 2.0, outer = 2.9 }}
+"#,
+        1.0 / cells_across_inner_radius
+    )
+}
+
+#[test]
+fn sphere_surface_field_is_second_order_at_the_surface() {
+    // Field at the inner sphere of a spherical capacitor, E(a) = V b / (a (b - a)) (Griffiths
+    // 2017, sec. 2.5.4, from E = Q / (4 pi eps0 r^2) and C = 4 pi eps0 / (1/a - 1/b)).
+    let (a, b) = (1e-3, 2e-3);
+    let want = b / (a * (b - a));
+    let mut peaks = Vec::new();
+    for n in [10.0, 20.0, 40.0] {
+        let s = solve(&design(&spheres_off_row(n)));
+        let mut peak = 0.0f64;
+        let mut worst = 0.0f64;
+        for p in s
+            .surface
+            .iter()
+            .filter(|p| p.kind == SurfaceKind::Conductor(0))
+        {
+            let m = p.magnitude();
+            assert!(m.is_finite(), "no field at ({:e}, {:e})", p.x, p.y);
+            peak = peak.max(m);
+            worst = worst.max(rel_err(m, want));
+        }
+        let peak = rel_err(peak, want);
+        eprintln!("sphere surface field, {n} cells across a: peak error {peak:.3e}, worst sample {worst:.3e}");
+        if n == 20.0 {
+            assert!(
+                peak < 5e-3 && worst < 5e-3,
+                "peak {peak:e}, worst {worst:e}"
+            );
+        }
+        peaks.push(peak);
+    }
+    let p = 0.5 * ((peaks[0] / peaks[1]).log2() + (peaks[1] / peaks[2]).log2());
+    eprintln!("sphere surface field: observed order {p:.2}");
+    assert!(p >= 1.8, "observed order {p:.2} from {peaks:?}");
 }

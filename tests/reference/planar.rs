@@ -2,7 +2,9 @@
 //! Each check names its source beside it.
 #![allow(clippy::needless_range_loop)]
 
+use fieldgrid_solver::operator::SideId;
 use fieldgrid_solver::solvers::Method;
+use fieldgrid_solver::surface::SurfaceKind;
 use fieldgrid_solver::EPS0;
 use fieldgrid_tests::designs;
 use fieldgrid_tests::{design, rel_err, solve, solve_every_method, solve_with};
@@ -338,4 +340,146 @@ fn thin_conductor_a_rounding_error_off_a_node_row_counts_as_on_it() {
             "strip at y = {y}: {off:e} vs {on:e}"
         );
     }
+}
+
+fn coax_off(cells_across_inner_radius: f64) -> String {
+    // Inner radius 1 mm, outer 2.5 mm, centre off the nodes.
+    let cell = 1.0 / cells_across_inner_radius;
+    format!(
+        r#"
+unit = "mm"
+[grid]
+x = [-2.8, 2.8]
+y = [-2.8, 2.8]
+cell = {cell}
+[[conductor]]
+name = "inner"
+potential = 1.0
+circle = {{ center = [0.0137, -0.0291], radius = 1.0 }}
+[[conductor]]
+name = "outer"
+potential = 0.0
+ring = {{ center = [0.0137, -0.0291], inner = 2.5, outer = 2.75 }}
+"#
+    )
+}
+
+/// Largest |E| over the surface samples of `kind`, and the largest relative deviation of any
+/// sample from `want`.
+fn surface_peak(s: &fieldgrid_solver::study::Solution, kind: SurfaceKind, want: f64) -> (f64, f64) {
+    let mut peak = 0.0f64;
+    let mut worst = 0.0f64;
+    for p in s.surface.iter().filter(|p| p.kind == kind) {
+        let m = p.magnitude();
+        assert!(m.is_finite(), "no field at ({:e}, {:e})", p.x, p.y);
+        peak = peak.max(m);
+        worst = worst.max(rel_err(m, want));
+    }
+    (rel_err(peak, want), worst)
+}
+
+/// Mean of the two orders observed from errors on three grids halving the cell.
+fn observed(errs: &[f64]) -> f64 {
+    0.5 * ((errs[0] / errs[1]).log2() + (errs[1] / errs[2]).log2())
+}
+
+#[test]
+fn coax_surface_field_is_second_order_at_the_surface() {
+    // Field at the inner conductor of a coaxial line, E(a) = V / (a ln(b/a)) (Gauss's law for
+    // a line charge, Griffiths 2017, sec. 2.2.3; common practice).
+    let want = 1.0 / (1e-3 * 2.5f64.ln());
+    let mut peaks = Vec::new();
+    for n in [10.0, 20.0, 40.0] {
+        let s = solve(&design(&coax_off(n)));
+        let (peak, worst) = surface_peak(&s, SurfaceKind::Conductor(0), want);
+        eprintln!("coax surface field, {n} cells across a: peak error {peak:.3e}, worst sample {worst:.3e}");
+        if n == 20.0 {
+            assert!(
+                peak < 5e-3 && worst < 5e-3,
+                "peak {peak:e}, worst {worst:e}"
+            );
+        }
+        peaks.push(peak);
+    }
+    let p = observed(&peaks);
+    eprintln!("coax surface field: observed order {p:.2}");
+    assert!(p >= 1.8, "observed order {p:.2} from {peaks:?}");
+}
+
+fn coax_sleeve(cells_across_inner_radius: f64) -> String {
+    // The coax of `coax_off` with a dielectric sleeve of permittivity 4 out to 1.6 mm.
+    coax_off(cells_across_inner_radius)
+        + r#"
+[[dielectric]]
+name = "sleeve"
+permittivity = 4.0
+circle = { center = [0.0137, -0.0291], radius = 1.6 }
+"#
+}
+
+#[test]
+fn dielectric_sleeve_field_on_both_sides_of_the_interface() {
+    // Coax with a concentric dielectric layer (series cylindrical capacitors, Griffiths 2017,
+    // sec. 4.4, Gauss's law for D; common practice): D = lambda / (2 pi r) on both sides,
+    // lambda = 2 pi eps0 V / (ln(c/a)/eps1 + ln(b/c)/eps2), E_i = D / (eps0 eps_i).
+    let (a, c, b, e1): (f64, f64, f64, f64) = (1e-3, 1.6e-3, 2.5e-3, 4.0);
+    let lam = 2.0 * PI * EPS0 / ((c / a).ln() / e1 + (b / c).ln());
+    let want = [
+        lam / (2.0 * PI * EPS0 * e1 * c),
+        lam / (2.0 * PI * EPS0 * c),
+    ];
+    let mut errs = [Vec::new(), Vec::new()];
+    for n in [10.0, 20.0, 40.0] {
+        let s = solve(&design(&coax_sleeve(n)));
+        for (side, mat) in [(0, 1u16), (1, 0u16)] {
+            let (mut worst, mut low) = (0.0f64, 0.0f64);
+            for p in s
+                .surface
+                .iter()
+                .filter(|p| p.kind == SurfaceKind::Interface && p.material == mat)
+            {
+                let m = p.magnitude();
+                assert!(m.is_finite(), "no field at ({:e}, {:e})", p.x, p.y);
+                worst = worst.max(rel_err(m, want[side]));
+                low = low.max((want[side] - m) / want[side]);
+            }
+            eprintln!("sleeve, {n} cells across a, side {side}: worst sample {worst:.3e}, lowest {low:.3e}");
+            if n == 20.0 {
+                assert!(worst < 5e-3, "side {side}: worst {worst:e}");
+            }
+            errs[side].push(worst);
+        }
+    }
+    for e in &errs {
+        eprintln!("sleeve: observed order {:.2}", observed(e));
+    }
+}
+
+#[test]
+fn space_charge_surface_field_at_the_plates_within_a_thousandth() {
+    // Gauss's law for a slab of uniform charge between grounded plates (Griffiths 2017,
+    // sec. 2.2): the surface field is rho d / (2 eps0).
+    let text = r#"
+unit = "mm"
+[grid]
+x = [0.0, 1.0]
+y = [0.0, 2.0]
+cell = 0.05
+[sides]
+left = "symmetry"
+right = "symmetry"
+[[charge]]
+name = "slab"
+density = 1.0e-3
+rect = { x = [0.0, 1.0], y = [0.0, 2.0] }
+"#;
+    let s = solve(&design(text));
+    let want = 1.0e-3 * 2e-3 / (2.0 * EPS0);
+    for side in [SideId::Bottom, SideId::Top] {
+        let (peak, worst) = surface_peak(&s, SurfaceKind::Side(side), want);
+        eprintln!("space charge, {side:?}: peak error {peak:.3e}, worst {worst:.3e}");
+        assert!(worst < 1e-3, "{side:?}: worst {worst:e}");
+    }
+    let peak = s.peak_field.as_ref().unwrap().magnitude;
+    eprintln!("space charge: reported peak {peak:e}, want {want:e}");
 }

@@ -1,0 +1,444 @@
+//! Surfaces of a solved design sampled along their exact outlines: conductor surfaces, fixed
+//! sides and dielectric interfaces, with the field at each sample from
+//! [`crate::surface_field`].
+//!
+//! Samples lie at the midpoints of equal stretches of each outline piece, about half a cell
+//! apart; each stands for the length of its stretch. Only the parts of an outline inside the
+//! domain count (in axisymmetric mode those at r >= 0). A conductor's outline is sampled where
+//! free space lies in front of it (not where it touches another conductor or a side); a
+//! dielectric outline where the materials on its two sides differ (not where a later
+//! dielectric or a conductor covers it). An interface gives two samples at each point, one per
+//! side, each with its material and the field in it; a conductor or a fixed side gives one.
+//!
+//! Invariants: samples are ordered by curve, then by position along it, so that maxima along
+//! a curve can be read off neighbours; `curve` numbers one side of one loop of one outline
+//! (or one side of the domain); every field is SI.
+
+use crate::design::{Charge, Design, Mode, Point, Shape};
+use crate::geometry::{outline, Outline, Piece};
+use crate::operator::{Operator, SideId};
+use crate::post::FieldEval;
+use crate::raster::Raster;
+use crate::surface_field::{self, Across, FitParams, Frame, Lattice, SurfaceField};
+
+/// What a surface sample lies on.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum SurfaceKind {
+    /// The surface of conductor k.
+    Conductor(usize),
+    /// A fixed-potential side of the domain.
+    Side(SideId),
+    /// A dielectric interface, seen from one side.
+    Interface,
+}
+
+/// One sample of a surface.
+#[derive(Clone, Debug, PartialEq)]
+pub struct SurfaceSample {
+    /// Position on the surface, m.
+    pub x: f64,
+    /// Position on the surface, m.
+    pub y: f64,
+    /// Unit normal into the material whose field this is.
+    pub normal: Point,
+    /// What the sample lies on.
+    pub kind: SurfaceKind,
+    /// Curve number: samples of one curve are consecutive and ordered along it.
+    pub curve: usize,
+    /// Position along the curve, m.
+    pub arc: f64,
+    /// Length of surface the sample stands for, m.
+    pub length: f64,
+    /// Material on the sample's side (index as in [`Raster::material`]).
+    pub material: u16,
+    /// Field in that material at the surface, V/m; NaN where the fit is not determined.
+    pub field: [f64; 2],
+}
+
+impl SurfaceSample {
+    /// |E|, V/m.
+    pub fn magnitude(&self) -> f64 {
+        self.field[0].hypot(self.field[1])
+    }
+
+    /// Normal component of the field (along [`SurfaceSample::normal`]), V/m.
+    pub fn normal_field(&self) -> f64 {
+        self.field[0] * self.normal[0] + self.field[1] * self.normal[1]
+    }
+}
+
+/// Sampling settings.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct SurfaceParams {
+    /// Samples per cell along a curve (about).
+    pub per_cell: f64,
+    /// The fit.
+    pub fit: FitParams,
+}
+
+impl Default for SurfaceParams {
+    fn default() -> Self {
+        SurfaceParams {
+            per_cell: 2.0,
+            fit: FitParams::default(),
+        }
+    }
+}
+
+/// The material at a point: `None` inside a conductor (or outside the domain).
+struct Materials<'a> {
+    design: &'a Design,
+    conductors: Vec<Outline>,
+    dielectrics: Vec<Outline>,
+    charges: Vec<(Outline, f64)>,
+}
+
+impl<'a> Materials<'a> {
+    fn new(design: &'a Design) -> Self {
+        let out = |s: &Shape| outline(s).expect("a validated design has valid shapes");
+        Materials {
+            design,
+            conductors: design.conductors.iter().map(|c| out(&c.shape)).collect(),
+            dielectrics: design.dielectrics.iter().map(|d| out(&d.shape)).collect(),
+            charges: design
+                .charges
+                .iter()
+                .filter_map(|c| match c {
+                    Charge::Region { density, shape, .. } => Some((out(shape), *density)),
+                    Charge::Concentrated { .. } => None,
+                })
+                .collect(),
+        }
+    }
+
+    fn inside_domain(&self, p: Point) -> bool {
+        let d = &self.design.domain;
+        let lo = if self.design.mode == Mode::Axisymmetric {
+            0.0
+        } else {
+            d.x[0]
+        };
+        p[0] >= lo.max(d.x[0]) && p[0] <= d.x[1] && p[1] >= d.y[0] && p[1] <= d.y[1]
+    }
+
+    fn material(&self, p: Point) -> Option<u16> {
+        if !self.inside_domain(p) || self.conductors.iter().any(|o| o.contains(p)) {
+            return None;
+        }
+        let m = self.dielectrics.iter().rposition(|o| o.contains(p));
+        Some(m.map_or(0, |m| m as u16 + 1))
+    }
+
+    fn rho(&self, p: Point) -> f64 {
+        self.charges
+            .iter()
+            .filter(|(o, _)| o.contains(p))
+            .map(|(_, d)| d)
+            .sum()
+    }
+
+    fn eps(&self, m: u16) -> f64 {
+        Raster::permittivity(self.design, m)
+    }
+}
+
+/// A point of a piece at parameter u in [0, 1], its unit tangent and its curvature (positive
+/// when the piece turns left, i.e. towards the filled side).
+fn on_piece(piece: &Piece, u: f64) -> (Point, Point, f64) {
+    match *piece {
+        Piece::Line { a, b } => {
+            let d = [b[0] - a[0], b[1] - a[1]];
+            let l = d[0].hypot(d[1]);
+            (
+                [a[0] + u * d[0], a[1] + u * d[1]],
+                [d[0] / l, d[1] / l],
+                0.0,
+            )
+        }
+        Piece::Arc {
+            a,
+            center,
+            radius,
+            ccw,
+            ..
+        } => {
+            let sweep = piece.sweep();
+            let a0 = (a[1] - center[1]).atan2(a[0] - center[0]);
+            let s = if ccw { 1.0 } else { -1.0 };
+            let ang = a0 + s * u * sweep;
+            let (sn, cs) = ang.sin_cos();
+            (
+                [center[0] + radius * cs, center[1] + radius * sn],
+                [-s * sn, s * cs],
+                s / radius,
+            )
+        }
+    }
+}
+
+/// Samples every surface of a solved design and evaluates the field at each.
+pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec<SurfaceSample> {
+    let op = field.op;
+    let g = &op.grid;
+    let h = g.hx.max(g.hy);
+    let step = h / params.per_cell;
+    let mats = Materials::new(design);
+    let lat = Lattice {
+        grid: g,
+        mode: design.mode,
+        phi: field.phi,
+        conductor: &field.raster.conductor,
+        material: &field.raster.material,
+    };
+    let probe = 1e-3 * h;
+    let mut out = Vec::new();
+    let mut curve = 0;
+    // Conductors: the outward normal is the right of the direction of travel.
+    for (k, o) in mats.conductors.iter().enumerate() {
+        if o.open {
+            continue;
+        }
+        let v = field.values[k];
+        for lp in &o.loops {
+            let mut arc = 0.0;
+            for piece in lp {
+                let len = piece.length();
+                let m = (len / step).ceil().max(1.0) as usize;
+                for s in 0..m {
+                    let (p, t, kappa) = on_piece(piece, (s as f64 + 0.5) / m as f64);
+                    let normal = [t[1], -t[0]];
+                    let front = [p[0] + probe * normal[0], p[1] + probe * normal[1]];
+                    let here = arc + (s as f64 + 0.5) * len / m as f64;
+                    if !mats.inside_domain(p) {
+                        continue;
+                    }
+                    let Some(mat) = mats.material(front) else {
+                        continue;
+                    };
+                    let across = Across::Conductor {
+                        potential: v,
+                        material: mat,
+                        eps: mats.eps(mat),
+                        rho: mats.rho(front),
+                        surface_points: cut_points(op, k, p, params.fit.radius_cells * h),
+                    };
+                    let frame = Frame {
+                        at: p,
+                        normal,
+                        curvature: kappa,
+                    };
+                    let e = surface_field::conductor_field(&lat, &frame, &across, &params.fit)
+                        .unwrap_or([f64::NAN; 2]);
+                    out.push(SurfaceSample {
+                        x: p[0],
+                        y: p[1],
+                        normal,
+                        kind: SurfaceKind::Conductor(k),
+                        curve,
+                        arc: here,
+                        length: len / m as f64,
+                        material: mat,
+                        field: e,
+                    });
+                }
+                arc += len;
+            }
+            curve += 1;
+        }
+    }
+    // Fixed sides, the normal pointing into the domain.
+    let sides = [
+        (
+            SideId::Left,
+            design.sides.left,
+            [g.x0, g.y0],
+            [g.x0, g.y1()],
+            [1.0, 0.0],
+        ),
+        (
+            SideId::Right,
+            design.sides.right,
+            [g.x1(), g.y0],
+            [g.x1(), g.y1()],
+            [-1.0, 0.0],
+        ),
+        (
+            SideId::Bottom,
+            design.sides.bottom,
+            [g.x0, g.y0],
+            [g.x1(), g.y0],
+            [0.0, 1.0],
+        ),
+        (
+            SideId::Top,
+            design.sides.top,
+            [g.x0, g.y1()],
+            [g.x1(), g.y1()],
+            [0.0, -1.0],
+        ),
+    ];
+    for (sid, side, a, b, normal) in sides {
+        if side.potential().is_none() {
+            continue;
+        }
+        let v = field.values[op.side_target(sid) as usize];
+        let piece = Piece::Line { a, b };
+        let len = piece.length();
+        let m = (len / step).ceil().max(1.0) as usize;
+        for s in 0..m {
+            let (p, _, _) = on_piece(&piece, (s as f64 + 0.5) / m as f64);
+            let front = [p[0] + probe * normal[0], p[1] + probe * normal[1]];
+            let Some(mat) = mats.material(front) else {
+                continue;
+            };
+            let across = Across::Conductor {
+                potential: v,
+                material: mat,
+                eps: mats.eps(mat),
+                rho: mats.rho(front),
+                surface_points: Vec::new(),
+            };
+            let frame = Frame {
+                at: p,
+                normal,
+                curvature: 0.0,
+            };
+            let e = surface_field::conductor_field(&lat, &frame, &across, &params.fit)
+                .unwrap_or([f64::NAN; 2]);
+            out.push(SurfaceSample {
+                x: p[0],
+                y: p[1],
+                normal,
+                kind: SurfaceKind::Side(sid),
+                curve,
+                arc: (s as f64 + 0.5) * len / m as f64,
+                length: len / m as f64,
+                material: mat,
+                field: e,
+            });
+        }
+        curve += 1;
+    }
+    // Dielectric interfaces: side 1 behind the outward normal (inside the shape).
+    for o in &mats.dielectrics {
+        for lp in &o.loops {
+            let mut arc = 0.0;
+            let mut two: [Vec<SurfaceSample>; 2] = [Vec::new(), Vec::new()];
+            for piece in lp {
+                let len = piece.length();
+                let m = (len / step).ceil().max(1.0) as usize;
+                for s in 0..m {
+                    let (p, t, kappa) = on_piece(piece, (s as f64 + 0.5) / m as f64);
+                    let normal = [t[1], -t[0]];
+                    let here = arc + (s as f64 + 0.5) * len / m as f64;
+                    if !mats.inside_domain(p) {
+                        continue;
+                    }
+                    let back = [p[0] - probe * normal[0], p[1] - probe * normal[1]];
+                    let front = [p[0] + probe * normal[0], p[1] + probe * normal[1]];
+                    let (Some(m1), Some(m2)) = (mats.material(back), mats.material(front)) else {
+                        continue;
+                    };
+                    if m1 == m2 {
+                        continue;
+                    }
+                    let across = Across::Interface {
+                        material: [m1, m2],
+                        eps: [mats.eps(m1), mats.eps(m2)],
+                        rho: [mats.rho(back), mats.rho(front)],
+                    };
+                    let frame = Frame {
+                        at: p,
+                        normal,
+                        curvature: kappa,
+                    };
+                    let (e1, e2) = match surface_field::field_at(&lat, &frame, &across, &params.fit)
+                    {
+                        Some(SurfaceField::Interface(e1, e2)) => (e1, e2),
+                        _ => ([f64::NAN; 2], [f64::NAN; 2]),
+                    };
+                    for (side, (mat, e, nrm)) in
+                        [(m1, e1, [-normal[0], -normal[1]]), (m2, e2, normal)]
+                            .into_iter()
+                            .enumerate()
+                    {
+                        two[side].push(SurfaceSample {
+                            x: p[0],
+                            y: p[1],
+                            normal: nrm,
+                            kind: SurfaceKind::Interface,
+                            curve: curve + side,
+                            arc: here,
+                            length: len / m as f64,
+                            material: mat,
+                            field: e,
+                        });
+                    }
+                }
+                arc += len;
+            }
+            let [a, b] = two;
+            out.extend(a);
+            out.extend(b);
+            curve += 2;
+        }
+    }
+    out
+}
+
+/// Where the operator's links to conductor k cut its surface within `reach` of `at`, m.
+fn cut_points(op: &Operator, k: usize, at: Point, reach: f64) -> Vec<Point> {
+    let g = &op.grid;
+    let mut out = Vec::new();
+    let r = reach + g.hx.max(g.hy);
+    let i0 = ((at[0] - r - g.x0) / g.hx).floor().max(0.0) as usize;
+    let i1 = (((at[0] + r - g.x0) / g.hx).ceil().max(0.0) as usize).min(g.nx - 1);
+    let j0 = ((at[1] - r - g.y0) / g.hy).floor().max(0.0) as usize;
+    let j1 = (((at[1] + r - g.y0) / g.hy).ceil().max(0.0) as usize).min(g.ny - 1);
+    for j in j0..=j1 {
+        for i in i0..=i1 {
+            for l in op.links_of(g.idx(i, j)) {
+                if l.target as usize != k {
+                    continue;
+                }
+                let u = l.dir.unit();
+                let q = [
+                    g.x(i) + u[0] * l.theta * g.hx,
+                    g.y(j) + u[1] * l.theta * g.hy,
+                ];
+                if (q[0] - at[0]).hypot(q[1] - at[1]) <= reach {
+                    out.push(q);
+                }
+            }
+        }
+    }
+    out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn arc_points_tangents_and_curvature_follow_the_sense_of_turning() {
+        let quarter = |ccw: bool| Piece::Arc {
+            a: if ccw { [2.0, 0.0] } else { [0.0, 2.0] },
+            b: if ccw { [0.0, 2.0] } else { [2.0, 0.0] },
+            center: [0.0, 0.0],
+            radius: 2.0,
+            ccw,
+        };
+        let (p, t, k) = on_piece(&quarter(true), 0.5);
+        let s = std::f64::consts::FRAC_1_SQRT_2;
+        assert!((p[0] - 2.0 * s).abs() < 1e-12 && (p[1] - 2.0 * s).abs() < 1e-12);
+        assert!((t[0] + s).abs() < 1e-12 && (t[1] - s).abs() < 1e-12);
+        assert_eq!(k, 0.5);
+        // Clockwise: the same point, the opposite tangent, the free side on the outside.
+        let (q, u, k) = on_piece(&quarter(false), 0.5);
+        assert!((q[0] - p[0]).abs() < 1e-12 && (u[0] + t[0]).abs() < 1e-12);
+        assert_eq!(k, -0.5);
+        // The outward normal (right of travel) of a counter-clockwise circle points out.
+        let n = [t[1], -t[0]];
+        assert!(n[0] > 0.0 && n[1] > 0.0);
+    }
+}
