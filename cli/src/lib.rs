@@ -14,6 +14,7 @@ pub mod render;
 pub mod spice;
 pub mod summary;
 pub mod vtk;
+pub mod warning;
 
 use clap::Parser;
 use std::ffi::OsString;

@@ -43,11 +43,23 @@ pub struct Summary {
     pub hotspots: Vec<HotspotSummary>,
     /// Probe readings.
     pub probes: Vec<ProbeSummary>,
-    /// Warnings.
+    /// Warnings: the sentences, in order (the contract's v1 shape).
     pub warnings: Vec<String>,
+    /// The same warnings with their stable codes, in the same order.
+    #[serde(default)]
+    pub warning_details: Vec<WarningSummary>,
     /// Transmission-line parameters (the `impedance` command).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub line: Option<serde_json::Value>,
+}
+
+/// One warning: its stable code beside its text.
+#[derive(Serialize, Deserialize, Debug, Clone, PartialEq)]
+pub struct WarningSummary {
+    /// Stable code of the kind of warning (for example `capacitance-error`).
+    pub code: String,
+    /// The sentence, as in `warnings`.
+    pub message: String,
 }
 
 /// One design parameter.
@@ -198,7 +210,7 @@ impl Summary {
         use fieldgrid_solver::design::Mode;
         let planar = sol.mode == Mode::Planar;
         let g = &sol.grid;
-        Summary {
+        let mut summary = Summary {
             version: VERSION,
             tool_version: env!("CARGO_PKG_VERSION").to_string(),
             design_hash: design_hash.to_string(),
@@ -220,7 +232,7 @@ impl Summary {
                 seconds,
                 converged: sol.solve.converged,
                 solves: sol.solve.solves,
-                failure: sol.solve.failure.clone(),
+                failure: sol.solve.failure.as_ref().map(|f| f.to_string()),
             },
             conductors: sol
                 .conductors
@@ -273,9 +285,23 @@ impl Summary {
                     field: [finite(p.field[0]), finite(p.field[1])],
                 })
                 .collect(),
-            warnings: sol.warnings.clone(),
+            warnings: Vec::new(),
+            warning_details: Vec::new(),
             line: None,
-        }
+        };
+        sol.warnings.iter().for_each(|w| summary.warn(w));
+        summary
+    }
+
+    /// Adds a warning: its text to `warnings`, and its code beside the text to
+    /// `warning_details`.
+    pub fn warn(&mut self, w: &impl crate::warning::Coded) {
+        let message = w.to_string();
+        self.warning_details.push(WarningSummary {
+            code: w.code().to_string(),
+            message: message.clone(),
+        });
+        self.warnings.push(message);
     }
 }
 

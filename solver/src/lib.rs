@@ -12,10 +12,12 @@
 // Lattice code indexes several arrays by node number in one loop; iterator chains would hide it.
 #![allow(clippy::needless_range_loop)]
 
+pub mod circuit;
 pub mod design;
 pub mod geometry;
 pub mod grid;
 pub mod line;
+pub mod line_study;
 pub mod open;
 pub mod operator;
 pub mod parallel;
@@ -27,6 +29,7 @@ pub mod stencil;
 pub mod study;
 pub mod surface;
 pub mod surface_field;
+pub mod warning;
 
 /// Permittivity of free space, F/m (CODATA 2018 recommended value).
 pub const EPS0: f64 = 8.854_187_812_8e-12;

@@ -18,8 +18,9 @@ use crate::grid::{Grid, GridError};
 use crate::operator::{self, Operator, OperatorError, SideId};
 use crate::post::{self, Hotspot, HotspotParams, ProbeResult, SurfacePoint};
 use crate::raster::{self, Raster, NO_CONDUCTOR};
-use crate::solvers::{self, Info, Method, Params, StopReason};
+use crate::solvers::{self, Info, Method, Params};
 use crate::surface::{self, SurfaceParams, SurfaceSample};
+use crate::warning::{NonFiniteIn, SolveFailure, Warning};
 use crate::EPS0;
 
 /// What to run.
@@ -136,8 +137,8 @@ pub struct SolveSummary {
     pub relative_residual: f64,
     /// True when every solve converged.
     pub converged: bool,
-    /// The reason of the first failed solve, if any.
-    pub failure: Option<String>,
+    /// Why the solves are not reported as converged (the first failed solve), if so.
+    pub failure: Option<SolveFailure>,
 }
 
 /// Everything a study produces.
@@ -176,7 +177,7 @@ pub struct Solution {
     /// Linear-solve summary.
     pub solve: SolveSummary,
     /// Warnings for the user.
-    pub warnings: Vec<String>,
+    pub warnings: Vec<Warning>,
 }
 
 impl Solution {
@@ -274,20 +275,18 @@ pub fn run(design: &Design, params: &StudyParams) -> Result<Solution, StudyError
             for (j, e) in row.iter().enumerate() {
                 let c = core.maxwell[i][j];
                 if c != 0.0 && *e > 0.01 * c.abs() {
-                    warnings.push(format!(
-                        "capacitance ({}, {}) has an estimated discretisation error of {:.1} %: refine the cell",
-                        names[i], names[j], 100.0 * e / c.abs()
-                    ));
+                    warnings.push(Warning::CapacitanceError {
+                        row: names[i].clone(),
+                        column: names[j].clone(),
+                        percent: 100.0 * e / c.abs(),
+                    });
                 }
             }
         }
     }
     let mut solve = summarize(&core.infos);
-    if !solve.converged {
-        warnings.push(format!(
-            "the solver did not converge: {}",
-            solve.failure.clone().unwrap_or_default()
-        ));
+    if let Some(why) = &solve.failure {
+        warnings.push(Warning::NotConverged(why.clone()));
     }
 
     let nc = design.conductors.len();
@@ -334,12 +333,8 @@ pub fn run(design: &Design, params: &StudyParams) -> Result<Solution, StudyError
     // or charges near the end of the double range): such results are flagged, not reported.
     if solve.converged {
         if let Some(what) = non_finite(&core.phi, &conductors, &core.maxwell, energy) {
-            let why = format!(
-                "{} in the {what} (numbers beyond the range of double precision: check the \
-                 design for absurd potentials, permittivities or charges)",
-                StopReason::NonFinite.describe()
-            );
-            warnings.push(format!("the solver did not converge: {why}"));
+            let why = SolveFailure::NonFinite(what);
+            warnings.push(Warning::NotConverged(why.clone()));
             solve.converged = false;
             solve.failure = Some(why);
         }
@@ -376,19 +371,19 @@ fn non_finite(
     conductors: &[ConductorResult],
     maxwell: &[Vec<f64>],
     energy: f64,
-) -> Option<&'static str> {
+) -> Option<NonFiniteIn> {
     let bad = |v: &f64| !v.is_finite();
     if phi.iter().any(bad) {
-        Some("potential")
+        Some(NonFiniteIn::Potential)
     } else if maxwell.iter().flatten().any(bad) {
-        Some("capacitance matrix")
+        Some(NonFiniteIn::Capacitance)
     } else if conductors
         .iter()
         .any(|c| bad(&c.potential) || bad(&c.charge) || c.force.iter().any(bad))
     {
-        Some("conductor charges, potentials or forces")
+        Some(NonFiniteIn::Conductors)
     } else if bad(&energy) {
-        Some("energy")
+        Some(NonFiniteIn::Energy)
     } else {
         None
     }
@@ -423,7 +418,11 @@ fn observed_order(
 /// Warnings about what open sides cannot settle in a planar design with no fixed side: the
 /// potential of a net line charge grows logarithmically, so the charge that such a design
 /// sends to infinity (beyond the open sides) depends on how far away they are.
-fn open_side_warnings(design: &Design, core: &Core, conductors: &[ConductorResult]) -> Vec<String> {
+fn open_side_warnings(
+    design: &Design,
+    core: &Core,
+    conductors: &[ConductorResult],
+) -> Vec<Warning> {
     let s = &design.sides;
     let sides = [s.left, s.right, s.bottom, s.top];
     let open = sides.contains(&crate::design::Side::Open);
@@ -438,24 +437,16 @@ fn open_side_warnings(design: &Design, core: &Core, conductors: &[ConductorResul
         })
         .collect();
     if !to_infinity.is_empty() {
-        out.push(format!(
-            "no side is grounded: the capacitance matrix refers to infinity beyond the open sides, and \
-             its row sums (charge to infinity) shrink like 1/ln(box size) in a planar design; only \
-             excitations with zero net charge are independent of the box ({} of {} rows have row sums \
-             above 1 % of their diagonal)",
-            to_infinity.len(),
-            core.maxwell.len()
-        ));
+        out.push(Warning::ReferenceAtInfinity {
+            rows: to_infinity.len(),
+            of: core.maxwell.len(),
+        });
     }
     let net: f64 = conductors.iter().map(|c| c.charge).sum::<f64>() + core.op.free_charge();
     let scale: f64 =
         conductors.iter().map(|c| c.charge.abs()).sum::<f64>() + core.op.free_charge().abs();
     if scale > 0.0 && net.abs() > 1e-3 * scale {
-        out.push(format!(
-            "no side is grounded and the design carries a net charge of {net:.3e} C/m: its potential \
-             grows logarithmically with distance, so the charges at this operating point depend on how \
-             far the open sides are"
-        ));
+        out.push(Warning::NetChargeOpenSides { net });
     }
     out
 }
@@ -472,13 +463,10 @@ fn summarize(infos: &[Info]) -> SolveSummary {
             .map(|i| i.relative_residual)
             .fold(0.0, f64::max),
         converged: failed.is_none(),
-        failure: failed.map(|i| {
-            format!(
-                "{} after {} iterations (relative residual {:.3e})",
-                i.reason.describe(),
-                i.iterations,
-                i.relative_residual
-            )
+        failure: failed.map(|i| SolveFailure::Stopped {
+            reason: i.reason,
+            iterations: i.iterations,
+            relative_residual: i.relative_residual,
         }),
     }
 }

@@ -1,6 +1,6 @@
 //! End-to-end tests of the `fieldgrid` command: exit codes, files written, nothing partial.
 
-use fieldgrid_tests::cli::{expect, has_warning, read_json, run, scratch, summary, write};
+use fieldgrid_tests::cli::{expect, has_warning_code, read_json, run, scratch, summary, write};
 
 /// The prefix of this file's scratch directories.
 const SCRATCH: &str = "fieldgrid-cli";
@@ -119,7 +119,7 @@ fn non_convergence_exits_3_with_results_written_and_flagged() {
     expect(run(&args), 3);
     let s = summary(&out);
     assert_eq!(s["solver"]["converged"], false);
-    assert!(has_warning(&s, "did not converge"));
+    assert!(has_warning_code(&s, "not-converged"));
 }
 
 #[test]

@@ -1,9 +1,10 @@
-//! Reference checks of transmission-line parameters (`solver/src/line.rs` and the
-//! `impedance` command) against exact conformal maps and published closed forms, and of the
-//! honesty of the discretisation-error estimate. Each check names its source beside it.
+//! Reference checks of transmission-line parameters (`solver/src/line.rs`,
+//! `solver/src/line_study.rs` and the `impedance` command) against exact conformal maps and
+//! published closed forms, and of the honesty of the discretisation-error estimate. Each
+//! check names its source beside it.
 
-use fieldgrid_cli::commands::impedance::{line_study, LineStudy};
 use fieldgrid_solver::line::elliptic_k;
+use fieldgrid_solver::line_study::{self, LineStudy};
 use fieldgrid_solver::solvers::Method;
 use fieldgrid_solver::study::{self, StudyParams};
 use fieldgrid_solver::{EPS0, MU0};
@@ -83,7 +84,7 @@ fn run_line(text: &str, signals: &[&str], error_estimate: bool) -> LineStudy {
         error_estimate,
         ..params(Method::default())
     };
-    let ls = line_study(&d, &signals, &p).expect("line study runs");
+    let ls = line_study::run(&d, &signals, &p).expect("line study runs");
     assert!(ls.solution.solve.converged && ls.vacuum.solve.converged);
     ls
 }

@@ -62,11 +62,14 @@ pub fn summary(out: &Path) -> serde_json::Value {
     read_json(&out.join("summary.json"))
 }
 
-/// True when one of a summary's `warnings` contains `text`.
-pub fn has_warning(summary: &serde_json::Value, text: &str) -> bool {
-    summary["warnings"]
-        .as_array()
-        .unwrap()
+/// True when a summary's `warning_details` hold a warning with this stable `code`, and its
+/// text stands in `warnings` beside it.
+pub fn has_warning_code(summary: &serde_json::Value, code: &str) -> bool {
+    let details = summary["warning_details"].as_array().unwrap();
+    let texts = summary["warnings"].as_array().unwrap();
+    assert_eq!(details.len(), texts.len(), "one code per warning");
+    details
         .iter()
-        .any(|w| w.as_str().unwrap().contains(text))
+        .zip(texts)
+        .any(|(d, t)| d["code"] == code && d["message"] == *t)
 }

@@ -334,7 +334,7 @@ pub fn design_target(data: &[u8]) -> String {
                 }
                 sig += ":solved";
             } else {
-                sig += &format!(":{}", sol.solve.failure.unwrap_or_default().len().min(1));
+                sig += &format!(":{}", usize::from(sol.solve.failure.is_some()));
             }
         }
         Err(e) => sig = signature(&(sig + ":study"), &e.to_string()),

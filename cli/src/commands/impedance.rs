@@ -1,13 +1,10 @@
 //! `fieldgrid impedance DESIGN --signal NAME[,NAME] --out DIR`: transmission-line parameters
 //! of a planar cross-section.
 //!
-//! Two studies on the same lattice: the design as drawn (capacitance matrix C) and the design
-//! with every permittivity set to 1 (C0). The matrices over the signal conductors, every
-//! other conductor grounded, go to [`fieldgrid_solver::line::parameters`]. A symmetry side
-//! that every signal touches is unfolded: the line is the design and its mirror image, so
-//! each such side doubles the matrices (a half model reports the whole line). Everything the
-//! `solve` command writes is written too (for the design as drawn), with the line parameters
-//! under `line` in `summary.json` and in `line.csv`.
+//! The line study itself (two studies, unfolding across symmetry sides, error estimates) is
+//! [`fieldgrid_solver::line_study`]; this command checks the arguments, writes everything
+//! the `solve` command writes (for the design as drawn), the line parameters under `line` in
+//! `summary.json` and in `line.csv`, and prints the table.
 
 use super::solve::{study_failure, write_results};
 use super::{check_memory, load_design, study_params, with_threads};
@@ -16,9 +13,10 @@ use crate::error::Failure;
 use crate::outdir::{csv_bytes, num, OutDir};
 use crate::summary::Summary;
 use crate::{EXIT_NOT_CONVERGED, EXIT_OK};
-use fieldgrid_solver::design::{Design, Drive, Mode, Shape, Side};
+use fieldgrid_solver::design::{Design, Mode};
 use fieldgrid_solver::line::{self, LineParams};
-use fieldgrid_solver::study::{self, Solution, StudyError, StudyParams};
+use fieldgrid_solver::line_study::{self, LineStudyError, SignalError};
+use fieldgrid_solver::warning::Warning;
 use serde_json::{json, Value};
 use std::time::Instant;
 
@@ -38,13 +36,12 @@ pub fn run(args: &ImpedanceArgs) -> Result<u8, Failure> {
     let out = OutDir::prepare(&args.out)?;
     let start = Instant::now();
     let ls = with_threads(args.opts.threads, || {
-        line_study(design, &args.signal, &params)
+        line_study::run(design, &args.signal, &params)
     })?
     .map_err(|e| match e {
         LineStudyError::Study(e) => study_failure(&src, e),
-        LineStudyError::Line(e) => {
-            Failure::input(format!("--signal {}: {e}", args.signal.join(",")))
-        }
+        LineStudyError::Signals(e) => signal_failure(design, &args.signal, &e),
+        e => Failure::input(format!("--signal {}: {e}", args.signal.join(","))),
     })?;
     let seconds = start.elapsed().as_secs_f64();
     if !args.opts.quiet && std::io::IsTerminal::is_terminal(&std::io::stderr()) {
@@ -54,13 +51,14 @@ pub fn run(args: &ImpedanceArgs) -> Result<u8, Failure> {
 
     let mut warnings = ls.warnings.clone();
     for w in &sol0.warnings {
-        if !sol.warnings.contains(w) {
-            warnings.push(format!("study with every permittivity 1: {w}"));
+        // The same sentence as the design's own study says nothing new.
+        if !sol.warnings.iter().any(|x| x.to_string() == w.to_string()) {
+            warnings.push(Warning::VacuumStudy(Box::new(w.clone())));
         }
     }
     let mut summary = Summary::from_solution(sol, design.depth, seconds, &src.text_hash);
     summary.parameters = crate::summary::parameters(&src);
-    summary.warnings.extend(warnings.iter().cloned());
+    warnings.iter().for_each(|w| summary.warn(w));
     summary.solver.converged &= sol0.solve.converged;
     summary.solver.solves += sol0.solve.solves;
     summary.solver.iterations = summary.solver.iterations.max(sol0.solve.iterations);
@@ -69,7 +67,7 @@ pub fn run(args: &ImpedanceArgs) -> Result<u8, Failure> {
         .relative_residual
         .max(sol0.solve.relative_residual);
     if summary.solver.failure.is_none() {
-        summary.solver.failure = sol0.solve.failure.clone();
+        summary.solver.failure = sol0.solve.failure.as_ref().map(|f| f.to_string());
     }
     summary.line = Some(line_json(&args.signal, &ls.mirrored, lp, errors));
     write_results(&out, sol, &summary, design, false)?;
@@ -90,228 +88,32 @@ pub fn run(args: &ImpedanceArgs) -> Result<u8, Failure> {
     Ok(EXIT_OK)
 }
 
-/// The two studies of a line and what follows from them.
-#[derive(Debug)]
-pub struct LineStudy {
-    /// The study of the design as drawn.
-    pub solution: Solution,
-    /// The study with every permittivity 1.
-    pub vacuum: Solution,
-    /// Line parameters of the signals.
-    pub line: LineParams,
-    /// Estimated discretisation errors of the scalar parameters, by key (empty without the
-    /// error estimate).
-    pub errors: Vec<(&'static str, f64)>,
-    /// Symmetry sides the line was unfolded across (each doubles every signal conductor).
-    pub mirrored: Vec<&'static str>,
-    /// Warnings about the line parameters.
-    pub warnings: Vec<String>,
-}
-
-/// A line study that could not run.
-#[derive(Debug)]
-pub enum LineStudyError {
-    /// One of the two studies failed.
-    Study(StudyError),
-    /// The matrices do not describe a line.
-    Line(line::LineError),
-}
-
-/// Runs both studies of a planar design and derives the line parameters of `signals`
-/// (fixed-potential conductors of the design, checked by the caller).
-pub fn line_study(
-    design: &Design,
-    signals: &[String],
-    params: &StudyParams,
-) -> Result<LineStudy, LineStudyError> {
-    let solution = study::run(design, params).map_err(LineStudyError::Study)?;
-    let vacuum = study::run(&without_dielectrics(design), params).map_err(LineStudyError::Study)?;
-    let (mirrored, mut warnings) = mirrors(design, signals);
-    let factor = 2f64.powi(mirrored.len() as i32);
-    let pick = |sol: &Solution, m: &[Vec<f64>]| {
-        let mut c = submatrix(sol, m, signals);
-        c.iter_mut().flatten().for_each(|v| *v *= factor);
-        c
-    };
-    let line = line::parameters(
-        &pick(&solution, &solution.capacitance.matrix),
-        &pick(&vacuum, &vacuum.capacitance.matrix),
-    )
-    .map_err(LineStudyError::Line)?;
-    let errors = match (
-        &solution.capacitance.error_model,
-        &vacuum.capacitance.error_model,
-    ) {
-        (Some(m), Some(m0)) => {
-            match line::parameters(&pick(&solution, &m.coarse), &pick(&vacuum, &m0.coarse)) {
-                Ok(coarse) => {
-                    // The more cautious of the two studies' orders.
-                    let model = if m0.order < m.order { m0 } else { m };
-                    line::scalars(&line)
-                        .into_iter()
-                        .zip(line::scalars(&coarse))
-                        .map(|((k, f), (_, c))| (k, model.estimate(f, c)))
-                        .collect()
-                }
-                Err(_) => Vec::new(),
-            }
-        }
-        _ => Vec::new(),
-    };
-    warnings.extend(line_warnings(&line));
-    Ok(LineStudy {
-        solution,
-        vacuum,
-        line,
-        errors,
-        mirrored,
-        warnings,
-    })
-}
-
-/// The symmetry sides that every signal touches: the line is the design unfolded across
-/// them, each doubling every signal conductor (and so its capacitances). A symmetry side
-/// that some signal does not touch mirrors that signal into a second conductor driven in
-/// phase; that is said in a warning.
-fn mirrors(design: &Design, signals: &[String]) -> (Vec<&'static str>, Vec<String>) {
-    let d = &design.domain;
-    let tol = 1e-9 * (d.x[1] - d.x[0]).abs().max((d.y[1] - d.y[0]).abs());
-    let s = &design.sides;
-    let sides = [
-        ("left", s.left, 0usize, d.x[0]),
-        ("right", s.right, 0, d.x[1]),
-        ("bottom", s.bottom, 1, d.y[0]),
-        ("top", s.top, 1, d.y[1]),
-    ];
-    let mut mirrored = Vec::new();
-    let mut warnings = Vec::new();
-    for (name, side, axis, at) in sides {
-        if side != Side::Symmetry {
-            continue;
-        }
-        let touching: Vec<bool> = signals
-            .iter()
-            .map(|sig| {
-                let c = design
-                    .conductors
-                    .iter()
-                    .find(|c| &c.name == sig)
-                    .expect("signals checked before the study");
-                let (lo, hi) = extent(&c.shape, axis);
-                (lo - at).abs() <= tol || (hi - at).abs() <= tol
-            })
-            .collect();
-        if touching.iter().all(|&t| t) {
-            mirrored.push(name);
-        } else {
-            let apart: Vec<&str> = signals
-                .iter()
-                .zip(&touching)
-                .filter(|(_, &t)| !t)
-                .map(|(s, _)| s.as_str())
-                .collect();
-            warnings.push(format!(
-                "the symmetry side `{name}` mirrors {} into a second conductor driven in phase: \
-                 the results describe the line together with that image",
-                apart.join(", ")
-            ));
-        }
-    }
-    (mirrored, warnings)
-}
-
-/// Extent of a shape along an axis (0: x, 1: y), m.
-fn extent(shape: &Shape, axis: usize) -> (f64, f64) {
-    let points: Vec<[f64; 2]> = match shape {
-        Shape::Rect { x, y, .. } => vec![[x[0], y[0]], [x[1], y[1]]],
-        Shape::Circle { center, radius } => vec![
-            [center[0] - radius, center[1] - radius],
-            [center[0] + radius, center[1] + radius],
-        ],
-        Shape::Ring { center, outer, .. } => vec![
-            [center[0] - outer, center[1] - outer],
-            [center[0] + outer, center[1] + outer],
-        ],
-        Shape::Polygon { outer, .. } => outer.clone(),
-        Shape::Polyline(p) => p.clone(),
-    };
-    points
-        .iter()
-        .fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), p| {
-            (lo.min(p[axis]), hi.max(p[axis]))
-        })
-}
-
-/// Every signal names a distinct conductor with a fixed potential.
+/// Every signal names a distinct conductor with a fixed potential; the message for the user
+/// when one does not.
 pub fn check_signals(design: &Design, signals: &[String]) -> Result<(), Failure> {
-    let names: Vec<&str> = design.conductors.iter().map(|c| c.name.as_str()).collect();
-    for (k, s) in signals.iter().enumerate() {
-        match design.conductors.iter().find(|c| &c.name == s) {
-            None => {
-                return Err(Failure::input(format!(
-                    "--signal {s}: the design has no conductor of that name (its conductors: {})",
-                    if names.is_empty() {
-                        "none".to_string()
-                    } else {
-                        names.join(", ")
-                    }
-                )))
-            }
-            Some(c) if c.drive == Drive::Floating => {
-                return Err(Failure::input(format!(
-                    "--signal {s}: the conductor is floating; a signal needs a fixed potential"
-                )))
-            }
-            Some(_) if signals[..k].contains(s) => {
-                return Err(Failure::input(format!("--signal {s}: named twice")))
-            }
-            Some(_) => {}
+    line_study::check_signals(design, signals).map_err(|e| signal_failure(design, signals, &e))
+}
+
+fn signal_failure(design: &Design, signals: &[String], e: &SignalError) -> Failure {
+    let message = match e {
+        SignalError::Unknown(s) => {
+            let names: Vec<&str> = design.conductors.iter().map(|c| c.name.as_str()).collect();
+            format!(
+                "--signal {s}: the design has no conductor of that name (its conductors: {})",
+                if names.is_empty() {
+                    "none".to_string()
+                } else {
+                    names.join(", ")
+                }
+            )
         }
-    }
-    Ok(())
-}
-
-/// The design with the background and every dielectric at relative permittivity 1.
-pub fn without_dielectrics(design: &Design) -> Design {
-    let mut d = design.clone();
-    d.background.permittivity = 1.0;
-    for m in &mut d.dielectrics {
-        m.permittivity = 1.0;
-    }
-    d
-}
-
-/// Rows and columns of the signals in a study's Maxwell matrix `m`.
-fn submatrix(sol: &Solution, m: &[Vec<f64>], signals: &[String]) -> Vec<Vec<f64>> {
-    let index: Vec<usize> = signals
-        .iter()
-        .map(|s| {
-            sol.capacitance
-                .names
-                .iter()
-                .position(|n| n == s)
-                .expect("signals are fixed conductors, checked before the study")
-        })
-        .collect();
-    index
-        .iter()
-        .map(|&i| index.iter().map(|&j| m[i][j]).collect())
-        .collect()
-}
-
-fn line_warnings(lp: &LineParams) -> Vec<String> {
-    let mut out = Vec::new();
-    if let Some(p) = &lp.pair {
-        if !p.symmetric {
-            out.push(
-                "the pair is not symmetric: z_odd and z_even are half the impedance seen by a \
-                 differential current (I, -I) and twice that seen by a common current (I, I); \
-                 they are not propagation modes (see eps_eff_modes)"
-                    .to_string(),
-            );
+        SignalError::Floating(s) => {
+            format!("--signal {s}: the conductor is floating; a signal needs a fixed potential")
         }
-    }
-    out
+        SignalError::Repeated(s) => format!("--signal {s}: named twice"),
+        other => format!("--signal {}: {other}", signals.join(",")),
+    };
+    Failure::input(message)
 }
 
 fn line_json(

@@ -20,11 +20,11 @@ pub fn run(args: &SolveArgs) -> Result<u8, Failure> {
     let (_grid, _mib) = super::check_memory_at(&src, &args.design, args.opts.max_memory, rate)?;
     let params = study_params(&args.opts)?;
     if args.circuit {
-        if let Err(why) = crate::spice::exportable(src.design.mode, src.design.depth) {
+        if let Err(why) = fieldgrid_solver::circuit::exportable(src.design.mode, src.design.depth) {
             return Err(Failure::input(format!(
                 "{}: --circuit: {}",
                 args.design.display(),
-                why.describe()
+                crate::spice::no_export(why)
             )));
         }
     }
@@ -64,7 +64,7 @@ pub fn run(args: &SolveArgs) -> Result<u8, Failure> {
         print!("{}", report(&sol, &summary, &out));
         match &circuit {
             Ok(net) => net.warnings.iter().for_each(|w| println!("warning: {w}")),
-            Err(why) => println!("note: {}", why.describe()),
+            Err(why) => println!("note: {}", crate::spice::no_export(*why)),
         }
     }
     if !sol.solve.converged {

@@ -393,7 +393,10 @@ pub fn run(args: &SweepArgs) -> Result<u8, Failure> {
             out.path().join("sweep.csv").display()
         );
         if unconverged > 0 {
-            println!("warning: {unconverged} point(s) did not converge (column `converged`)");
+            let w = crate::warning::ToolWarning::SweepNotConverged {
+                points: unconverged,
+            };
+            println!("warning: {w}");
         }
     }
     Ok(if unconverged > 0 {
@@ -597,7 +600,10 @@ fn merge(dirs: &[std::path::PathBuf], out: &Path, quiet: bool) -> Result<u8, Fai
             outdir.path().join("sweep.csv").display()
         );
         if unconverged > 0 {
-            println!("warning: {unconverged} point(s) did not converge (column `converged`)");
+            let w = crate::warning::ToolWarning::SweepNotConverged {
+                points: unconverged,
+            };
+            println!("warning: {w}");
         }
     }
     Ok(if unconverged > 0 {

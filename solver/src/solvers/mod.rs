@@ -94,17 +94,16 @@ pub enum StopReason {
     NonFinite,
 }
 
-impl StopReason {
-    /// A short phrase for reports.
-    pub fn describe(self) -> &'static str {
-        match self {
+impl std::fmt::Display for StopReason {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(match self {
             StopReason::Converged => "converged",
             StopReason::ZeroRhs => "zero right-hand side",
             StopReason::MaxIterations => "iteration limit reached",
             StopReason::Stagnated => "residual stagnated",
             StopReason::Diverged => "residual diverged",
             StopReason::NonFinite => "non-finite values appeared",
-        }
+        })
     }
 }
 
@@ -164,7 +163,7 @@ impl Info {
 pub enum SolveError {
     /// Stopped before converging; the info says why.
     #[error("{} did not converge: {} after {} iterations (relative residual {:.3e})",
-        .0.method, .0.reason.describe(), .0.iterations, .0.relative_residual)]
+        .0.method, .0.reason, .0.iterations, .0.relative_residual)]
     NotConverged(Info),
 }
 

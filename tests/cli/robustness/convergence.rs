@@ -4,7 +4,7 @@
 
 use fieldgrid_solver::solvers::{self, cg, sor, Method, Params, SolveError, StopReason};
 use fieldgrid_solver::stencil::Stencil5;
-use fieldgrid_tests::cli::{expect, has_warning, run, scratch, summary, write};
+use fieldgrid_tests::cli::{expect, has_warning_code, run, scratch, summary, write};
 
 use super::{PLATES, SCRATCH};
 
@@ -179,7 +179,7 @@ fn unreachable_tolerance_exits_3_with_stagnation_and_flagged_results() {
             .unwrap_or_default()
             .to_string();
         assert!(why.contains("stagnated"), "{solver}: {why}");
-        assert!(has_warning(&s, "did not converge: residual stagnated"));
+        assert!(has_warning_code(&s, "not-converged"));
         // The last iterate's numbers are written, and they are finite.
         assert!(s["capacitance"]["matrix"][0][0].as_f64().unwrap() > 0.0);
     }

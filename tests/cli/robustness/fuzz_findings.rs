@@ -5,7 +5,8 @@ use std::path::Path;
 use std::process::Command;
 
 use fieldgrid_solver::solvers::Method;
-use fieldgrid_tests::cli::{expect, has_warning, run, scratch, summary, write};
+use fieldgrid_solver::warning::{NonFiniteIn, SolveFailure, Warning};
+use fieldgrid_tests::cli::{expect, has_warning_code, run, scratch, summary, write};
 use fieldgrid_tests::fuzzing;
 
 use super::{failure_of, PLATES, SCRATCH};
@@ -73,9 +74,13 @@ fn overflowing_results_of_an_absurd_potential_are_flagged_not_converged() {
     assert!(!s.solve.converged);
     let why = s.solve.failure.unwrap();
     assert!(
-        why.starts_with("non-finite values appeared in the"),
-        "{why}"
+        matches!(why, SolveFailure::NonFinite(NonFiniteIn::Conductors)),
+        "{why:?}"
     );
+    assert!(matches!(
+        s.warnings.as_slice(),
+        [Warning::NotConverged(SolveFailure::NonFinite(_))]
+    ));
     let dir = scratch(SCRATCH, "overflow-potential");
     let design = write(&dir, "huge_v.toml", &text);
     let out = dir.join("out");
@@ -85,7 +90,11 @@ fn overflowing_results_of_an_absurd_potential_are_flagged_not_converged() {
     );
     let s = summary(&out);
     assert_eq!(s["solver"]["converged"], false);
-    assert!(has_warning(&s, "non-finite values"));
+    assert!(has_warning_code(&s, "not-converged"));
+    assert!(s["solver"]["failure"]
+        .as_str()
+        .unwrap()
+        .starts_with("non-finite values appeared in the conductor"));
 }
 
 /// Fuzzing finding (design target): a string value holding a newline (`unit = "m\nm"`) was
