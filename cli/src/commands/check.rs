@@ -21,7 +21,7 @@ pub fn run(args: &CheckArgs) -> Result<u8, Failure> {
         "dielectrics": d.dielectrics.iter().map(|c| c.name.clone()).collect::<Vec<_>>(),
     });
     if let Some(dir) = &args.out {
-        let out = OutDir::prepare(dir)?;
+        let mut out = OutDir::prepare(dir)?;
         out.write_png(
             "preview.png",
             &crate::pictures::preview(&src, &args.pictures.render_options()),
@@ -31,6 +31,7 @@ pub fn run(args: &CheckArgs) -> Result<u8, Failure> {
             &serde_json::to_vec_pretty(&report)
                 .map_err(|e| Failure::io("encoding check.json", e))?,
         )?;
+        out.commit()?;
     }
     if !args.quiet {
         println!(

@@ -304,7 +304,7 @@ pub fn run(args: &CompareArgs) -> Result<u8, Failure> {
     // Classify both before solving either, so a bad NEW costs no solve of BASE.
     classify(&args.base)?;
     classify(&args.new)?;
-    let out = args.out.as_deref().map(OutDir::prepare).transpose()?;
+    let mut out = args.out.as_deref().map(OutDir::prepare).transpose()?;
     let base = load(&args.base, args, "BASE")?;
     let new = load(&args.new, args, "NEW")?;
     if base.summary.mode != new.summary.mode || base.summary.per_length != new.summary.per_length {
@@ -350,11 +350,12 @@ pub fn run(args: &CompareArgs) -> Result<u8, Failure> {
         }
         _ => None,
     };
-    if let Some(out) = &out {
+    if let Some(out) = &mut out {
         write_outputs(out, args, &table, beyond, &remarks)?;
         if let Some(img) = &picture {
             out.write_png("field_change.png", img)?;
         }
+        out.commit()?;
     }
     if !args.opts.quiet {
         print!("{}", render_table(args, &table, beyond, &remarks));

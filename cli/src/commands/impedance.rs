@@ -33,7 +33,7 @@ pub fn run(args: &ImpedanceArgs) -> Result<u8, Failure> {
     check_signals(design, &args.signal)?;
     check_memory(&src, &args.design, args.opts.max_memory)?;
     let params = study_params(&args.opts)?;
-    let out = OutDir::prepare(&args.out)?;
+    let mut out = OutDir::prepare(&args.out)?;
     let start = Instant::now();
     let ls = with_threads(args.opts.threads, || {
         line_study::run(design, &args.signal, &params)
@@ -76,6 +76,7 @@ pub fn run(args: &ImpedanceArgs) -> Result<u8, Failure> {
         crate::pictures::field_maps(&src, sol, false, &args.pictures.render_options());
     out.write_png("potential.png", &potential_png)?;
     out.write_png("field.png", &field_png)?;
+    out.commit()?;
     if !args.opts.quiet {
         print!(
             "{}",

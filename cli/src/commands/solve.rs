@@ -31,7 +31,7 @@ pub fn run(args: &SolveArgs) -> Result<u8, Failure> {
     if let Some(min) = args.min_margin {
         check_min_margin(&src.design, min, &args.design)?;
     }
-    let out = OutDir::prepare(&args.out)?;
+    let mut out = OutDir::prepare(&args.out)?;
     let start = Instant::now();
     let sol = with_threads(args.opts.threads, || study::run(&src.design, &params))?
         .map_err(|e| study_failure(&src, e))?;
@@ -60,6 +60,7 @@ pub fn run(args: &SolveArgs) -> Result<u8, Failure> {
     if let Ok(net) = &circuit {
         out.write("capacitance.cir", net.text.as_bytes())?;
     }
+    out.commit()?;
     if !args.opts.quiet {
         print!("{}", report(&sol, &summary, &out));
         match &circuit {

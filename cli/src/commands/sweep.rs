@@ -328,7 +328,7 @@ pub fn run(args: &SweepArgs) -> Result<u8, Failure> {
         shard,
     };
 
-    let out = OutDir::prepare(&args.out)?;
+    let mut out = OutDir::prepare_in_place(&args.out)?;
     let mut rows = resume(&out, &def)?;
     if let Some(p) = rows.keys().find(|p| !mine.contains(p)) {
         return Err(Failure::input(format!(
@@ -378,6 +378,7 @@ pub fn run(args: &SweepArgs) -> Result<u8, Failure> {
         // Nothing new: still leave a table (possibly empty) in the directory.
         out.write("sweep.csv", &table_bytes(&columns, &rows))?;
     }
+    out.commit()?;
     let unconverged = rows
         .values()
         .filter(|r| r.last().is_some_and(|c| c == "false"))
@@ -583,11 +584,12 @@ fn merge(dirs: &[std::path::PathBuf], out: &Path, quiet: bool) -> Result<u8, Fai
         )));
     }
     def.shard = None;
-    let outdir = OutDir::prepare(out)?;
+    let mut outdir = OutDir::prepare(out)?;
     let json =
         serde_json::to_vec_pretty(&def).map_err(|e| Failure::io("encoding sweep.json", e))?;
     outdir.write("sweep.csv", &table_bytes(&def.columns, &rows))?;
     outdir.write("sweep.json", &json)?;
+    outdir.commit()?;
     let unconverged = rows
         .values()
         .filter(|r| r.last().is_some_and(|c| c == "false"))

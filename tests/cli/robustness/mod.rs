@@ -7,6 +7,7 @@ mod fuzz_findings;
 mod interrupted;
 mod refusals;
 mod reproducible;
+mod result_sets;
 
 use clap::Parser;
 use fieldgrid_cli::args::{Cli, Command as Cmd};
