@@ -1,0 +1,109 @@
+//! A field map as a whole: lays out the plot and the colour bar, paints the resampled values,
+//! then the overlays and lines in a fixed order, the axes, the bar and the title.
+//!
+//! Invariants: one value per grid node; a map's frame depends on the grid, the length unit
+//! and the options only; drawing order is colours, conductor fill, field lines, contours,
+//! dielectric outlines, conductor outlines, names, marks, axes, bar, title.
+
+use fieldgrid_solver::grid::Grid;
+use image::RgbImage;
+
+use super::color_scale::{bar_rect, bar_ticks, draw_bar, ColorScale, BAR_BLOCK};
+use super::colormap::NO_VALUE;
+use super::layout::{draw_axes, draw_title, layout, Frame, Layout, Plot};
+use super::lines::{draw_contours, draw_field_lines};
+use super::overlay::{
+    conductor_layers, draw_markers, draw_names, mark_boxes, outline_dielectrics, place_names,
+};
+use super::{sample, LengthUnit, MapInput, RenderOptions, INK, PAPER};
+
+/// The frame [`render_map`] uses for a grid: it depends on the grid, the length unit and the
+/// options only, not on the values.
+pub fn map_frame(grid: &Grid, length_unit: LengthUnit, opts: &RenderOptions) -> Frame {
+    let l = map_layout(grid, length_unit, opts);
+    Frame::of(
+        &l.plot,
+        [l.width as u32, l.height as u32],
+        bar_rect(&l.plot),
+    )
+}
+
+pub(super) fn map_layout(grid: &Grid, unit: LengthUnit, opts: &RenderOptions) -> Layout {
+    layout(
+        [grid.x0, grid.x1()],
+        [grid.y0, grid.y1()],
+        unit,
+        BAR_BLOCK,
+        opts,
+    )
+}
+/// Draws a field map.
+pub fn render_map(input: &MapInput, opts: &RenderOptions) -> RgbImage {
+    draw_map(input, opts).0
+}
+
+pub(super) fn draw_map(input: &MapInput, opts: &RenderOptions) -> (RgbImage, Plot) {
+    let grid = input.grid;
+    assert_eq!(input.values.len(), grid.len(), "one value per grid node");
+    let Layout {
+        plot,
+        axes: ax,
+        left,
+        width,
+        height,
+    } = map_layout(grid, input.length_unit, opts);
+    let cs = ColorScale::new(input);
+    let bar_ticks = bar_ticks(&cs, plot.h);
+    let (xr, yr, pw, ph) = (plot.xr, plot.yr, plot.w, plot.h);
+    let mut img = RgbImage::from_pixel(width as u32, height as u32, PAPER);
+
+    // Field colours.
+    let samples = sample::resample(grid, input.values, xr, yr, pw, ph);
+    for ly in 0..ph {
+        for lx in 0..pw {
+            let c = cs.color(samples.at(lx, ly));
+            img.put_pixel(
+                (plot.x0 as usize + lx) as u32,
+                (plot.y0 as usize + ly) as u32,
+                c,
+            );
+        }
+    }
+
+    // Conductor fill, then lines (kept off conductors and value-less pixels), then outlines,
+    // names and marks on top. Marks and names are placed before contour labels so that the
+    // labels give way to them.
+    // Shapes may reach past the domain (a sphere centred on the axis): clip to the plot.
+    let off_plot = |x: usize, y: usize| plot.local(x, y).is_none();
+    let cl = conductor_layers(&img, &plot, input.conductors);
+    cl.fill.composite(&mut img, NO_VALUE, 1.0, off_plot);
+    let masked = |x: usize, y: usize| match plot.local(x, y) {
+        Some((lx, ly)) => samples.at(lx, ly).is_nan() || cl.fill.get(x, y) > 0.0,
+        None => true,
+    };
+    let mut taken = mark_boxes(&plot, input.markers);
+    let names = place_names(&plot, input.conductors, input.dielectrics, &mut taken);
+    if let Some(fl) = input.field_lines {
+        draw_field_lines(&mut img, &plot, input, &fl, &samples, &masked);
+    }
+    let levels = cs.levels(input.contours, input.unit);
+    if !levels.is_empty() {
+        draw_contours(&mut img, &plot, &samples, &levels, &masked, &mut taken);
+    }
+    outline_dielectrics(&mut img, &plot, input.dielectrics, &masked);
+    cl.edge.composite(&mut img, INK, 1.0, off_plot);
+    cl.thin.composite(&mut img, INK, 1.0, off_plot);
+    draw_names(&mut img, &names);
+    draw_markers(&mut img, &plot, input.markers, &mut taken);
+
+    draw_axes(&mut img, &plot, &ax, input.length_unit, input.axis_names);
+    let unit = cs.unit(input.unit);
+    let bar_label = match (input.quantity.is_empty(), unit.is_empty()) {
+        (false, false) => format!("{} ({unit})", input.quantity),
+        (false, true) => input.quantity.to_string(),
+        (true, _) => unit,
+    };
+    draw_bar(&mut img, &plot, &cs, &bar_ticks, &bar_label);
+    draw_title(&mut img, input.title, (left + 10) as i64, plot.distorted);
+    (img, plot)
+}

@@ -1,0 +1,230 @@
+//! The geometry preview of `check`: materials painted by permittivity, conductors filled and
+//! named, marks, axes, and a legend of the materials beside the plot.
+//!
+//! Invariants: dielectrics are painted in the given order (a later one covers an earlier
+//! one); a permittivity's colour is monotone on a log scale between the design's extremes,
+//! palest for the lowest; legend entries that do not fit are counted ("… n more").
+
+use image::{Rgb, RgbImage};
+
+use super::canvas::{self, fill_rect, rect_outline, P};
+use super::colormap::{self, NO_VALUE};
+use super::layout::{draw_axes, draw_title, ellipsize, layout, Frame, Layout, Plot};
+use super::overlay::{
+    conductor_layers, draw_markers, draw_names, mark_boxes, outline_dielectrics, place_names,
+};
+use super::text::{self, HAlign, Style, VAlign};
+use super::{Outline, PreviewInput, RenderOptions, GREY_INK, INK, PAPER};
+
+/// The frame [`render_preview`] uses for this input.
+pub fn preview_frame(input: &PreviewInput, opts: &RenderOptions) -> Frame {
+    let (l, _) = preview_layout(input, opts);
+    Frame::of(
+        &l.plot,
+        [l.width as u32, l.height as u32],
+        swatch_rect(&l.plot, 0),
+    )
+}
+
+/// Vertical distance between legend swatches of the preview, px.
+pub const LEGEND_PITCH: u32 = 20;
+
+pub(super) fn permittivity_text(e: f64) -> String {
+    let s = if e.abs() >= 1000.0 {
+        format!("{e:.0}")
+    } else {
+        format!("{e:.3}")
+    };
+    let s = if s.contains('.') {
+        s.trim_end_matches('0').trim_end_matches('.').to_string()
+    } else {
+        s
+    };
+    format!("εr = {s}")
+}
+
+/// Draws the geometry preview.
+pub fn render_preview(input: &PreviewInput, opts: &RenderOptions) -> RgbImage {
+    draw_preview(input, opts).0
+}
+
+/// The preview's legend: swatch colour and text per entry.
+pub(super) struct Legend {
+    pub(super) entries: Vec<(Rgb<u8>, String)>,
+    /// Permittivity range, for colouring.
+    pub(super) eps: [f64; 2],
+}
+
+impl Legend {
+    pub(super) fn new(input: &PreviewInput) -> Legend {
+        let (emin, emax) = std::iter::once(input.background_permittivity)
+            .chain(input.dielectrics.iter().map(|d| d.permittivity))
+            .filter(|e| e.is_finite() && *e > 0.0)
+            .fold((f64::INFINITY, 0.0f64), |(a, b), e| (a.min(e), b.max(e)));
+        let mut l = Legend {
+            entries: Vec::new(),
+            eps: [emin, emax],
+        };
+        let bg = input.background_permittivity;
+        l.entries.push((
+            l.color(bg),
+            format!("background, {}", permittivity_text(bg)),
+        ));
+        for d in input.dielectrics {
+            let name = if d.outline.name.is_empty() {
+                "dielectric"
+            } else {
+                &d.outline.name
+            };
+            l.entries.push((
+                l.color(d.permittivity),
+                format!("{name}, {}", permittivity_text(d.permittivity)),
+            ));
+        }
+        if !input.conductors.is_empty() {
+            l.entries.push((NO_VALUE, "conductor".to_string()));
+        }
+        l
+    }
+
+    /// The colour of a permittivity: the light end of the sequential map, palest for the
+    /// lowest, on a logarithmic scale between the design's extremes.
+    pub(super) fn color(&self, e: f64) -> Rgb<u8> {
+        let [lo, hi] = self.eps;
+        let u = if hi > lo && e > 0.0 {
+            ((e / lo).ln() / (hi / lo).ln()).clamp(0.0, 1.0)
+        } else {
+            0.0
+        };
+        colormap::sequential().at_or_fill(0.97 - 0.6 * u)
+    }
+
+    pub(super) fn width(&self) -> usize {
+        let widest = self
+            .entries
+            .iter()
+            .map(|l| text::measure(&l.1, legend_style()).width)
+            .fold(0.0f32, f32::max);
+        22 + 16 + 8 + widest.min(260.0).ceil() as usize + 10
+    }
+}
+
+pub(super) fn legend_style() -> Style {
+    Style::new(12.0, INK)
+}
+
+pub(super) fn swatch_rect(plot: &Plot, k: usize) -> [i64; 4] {
+    [
+        plot.right() + 22,
+        plot.y0 + 2 + k as i64 * LEGEND_PITCH as i64,
+        16,
+        14,
+    ]
+}
+
+pub(super) fn preview_layout(input: &PreviewInput, opts: &RenderOptions) -> (Layout, Legend) {
+    let legend = Legend::new(input);
+    (
+        layout(input.x, input.y, input.length_unit, legend.width(), opts),
+        legend,
+    )
+}
+
+pub(super) fn draw_preview(input: &PreviewInput, opts: &RenderOptions) -> (RgbImage, Plot) {
+    let (
+        Layout {
+            plot,
+            axes: ax,
+            left: ox,
+            width,
+            height,
+        },
+        legend,
+    ) = preview_layout(input, opts);
+    let color_of = |e: f64| legend.color(e);
+    let distorted = plot.distorted;
+    let mut img = RgbImage::from_pixel(width as u32, height as u32, PAPER);
+
+    // Materials, painted in order.
+    fill_rect(
+        &mut img,
+        plot.x0,
+        plot.y0,
+        plot.right(),
+        plot.bottom(),
+        color_of(input.background_permittivity),
+        1.0,
+    );
+    let (iw, ih) = (img.width() as usize, img.height() as usize);
+    for d in input.dielectrics {
+        let rings: Vec<Vec<P>> = d
+            .outline
+            .rings
+            .iter()
+            .map(|r| r.iter().map(|&p| plot.px(p)).collect())
+            .collect();
+        let c = color_of(d.permittivity);
+        canvas::scan_fill(&rings, iw, ih, |y, x0, x1| {
+            for x in x0..x1 {
+                if plot.local(x, y).is_some() {
+                    img.put_pixel(x as u32, y as u32, c);
+                }
+            }
+        });
+    }
+    let outlines: Vec<Outline> = input
+        .dielectrics
+        .iter()
+        .map(|d| d.outline.clone())
+        .collect();
+    // Shapes may reach past the domain (a sphere centred on the axis): clip to the plot.
+    let off_plot = |x: usize, y: usize| plot.local(x, y).is_none();
+    let cl = conductor_layers(&img, &plot, input.conductors);
+    cl.fill.composite(&mut img, NO_VALUE, 1.0, off_plot);
+    outline_dielectrics(&mut img, &plot, &outlines, &|x, y| {
+        plot.local(x, y).is_none() || cl.fill.get(x, y) > 0.0
+    });
+    cl.edge.composite(&mut img, INK, 1.0, off_plot);
+    cl.thin.composite(&mut img, INK, 1.0, off_plot);
+    let mut taken = mark_boxes(&plot, input.markers);
+    let names = place_names(&plot, input.conductors, &outlines, &mut taken);
+    draw_names(&mut img, &names);
+    draw_markers(&mut img, &plot, input.markers, &mut taken);
+    draw_axes(&mut img, &plot, &ax, input.length_unit, input.axis_names);
+
+    // Legend, top-aligned beside the plot; what does not fit is counted.
+    let st = legend_style();
+    let fits = ((plot.h as i64 - 4) / LEGEND_PITCH as i64).max(1) as usize;
+    let n = legend.entries.len();
+    let shown = if n > fits { fits - 1 } else { n };
+    for (k, (c, s)) in legend.entries.iter().take(shown).enumerate() {
+        let [x, y, w, h] = swatch_rect(&plot, k);
+        fill_rect(&mut img, x, y, x + w, y + h, *c, 1.0);
+        rect_outline(&mut img, x, y, x + w, y + h, GREY_INK);
+        let t = ellipsize(s, st, 260.0);
+        text::draw(
+            &mut img,
+            &t,
+            st,
+            (x + w + 8) as f32,
+            y as f32 + 7.0,
+            HAlign::Left,
+            VAlign::Middle,
+        );
+    }
+    if shown < n {
+        let [x, y, w, _] = swatch_rect(&plot, shown);
+        let more = format!("… {} more", n - shown);
+        text::draw(
+            &mut img,
+            &more,
+            st,
+            (x + w + 8) as f32,
+            y as f32 + 7.0,
+            HAlign::Left,
+            VAlign::Middle,
+        );
+    }
+    draw_title(&mut img, input.title, (ox + 10) as i64, distorted);
+    (img, plot)
+}
