@@ -2,6 +2,7 @@
 //! design; parameters, overrides, units and positions behave as documented.
 
 use super::*;
+use fieldgrid_solver::design::{Background, Charge, Dielectric, Domain, Drive, Shape, Side, Sides};
 
 const EVERY_KEY: &str = r#"
 unit = "mm"

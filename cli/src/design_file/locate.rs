@@ -1,0 +1,85 @@
+//! Placing the library's validation errors in the file: an error about `{item, key}` from
+//! [`fieldgrid_solver::design::validate`] becomes an [`InputError`] at that key's span.
+//!
+//! Invariants: an error points at the key when the file writes it (in the item's table or one
+//! level down in its shape table), else at the item's header, else at the start of the file;
+//! extents in messages are restated in the file's length unit.
+
+use fieldgrid_solver::design::{DesignError, Item};
+
+use super::spans::InputError;
+use super::spans::{get, Kind, Node};
+use super::unit::LengthUnit;
+use super::values::{join, table_span};
+
+/// The table node of `item` in `tree`, and its key path.
+pub(super) fn item_node(tree: &Node, item: Item) -> Option<(&Node, String)> {
+    let top = tree.entries()?;
+    let (key, index) = match item {
+        Item::Top => return Some((tree, String::new())),
+        Item::Grid => ("grid", None),
+        Item::Sides => ("sides", None),
+        Item::Background => ("background", None),
+        Item::Conductor(i) => ("conductor", Some(i)),
+        Item::Dielectric(i) => ("dielectric", Some(i)),
+        Item::Charge(i) => ("charge", Some(i)),
+        Item::Probe(i) => ("probe", Some(i)),
+        _ => return None,
+    };
+    let node = &get(top, key)?.node;
+    match index {
+        None => Some((node, key.to_string())),
+        Some(i) => match &node.kind {
+            Kind::Array(a) => Some((a.get(i)?, key.to_string())),
+            _ => None,
+        },
+    }
+}
+
+/// An error about `key` of `item`, placed at that key (searched in the item's table, then one
+/// level down in its shape table), else at the item's header, else at the file start.
+pub(super) fn locate(
+    text: &str,
+    file: &str,
+    tree: &Node,
+    item: Item,
+    key: &str,
+    message: String,
+) -> InputError {
+    let Some((node, path)) = item_node(tree, item) else {
+        return InputError::at(text, file, &None, key, message);
+    };
+    let entries = node.entries().unwrap_or(&[]);
+    if let Some(e) = get(entries, key) {
+        return InputError::at(text, file, &e.key_span, &join(&path, key), message);
+    }
+    for e in entries {
+        if let Some(inner) = e.node.entries().and_then(|t| get(t, key)) {
+            let p = join(&join(&path, &e.key), key);
+            return InputError::at(text, file, &inner.key_span, &p, message);
+        }
+    }
+    InputError::at(text, file, &table_span(node), &join(&path, key), message)
+}
+
+pub(super) fn design_error(
+    text: &str,
+    file: &str,
+    tree: &Node,
+    e: &DesignError,
+    unit: LengthUnit,
+) -> InputError {
+    let message = match &e.outside {
+        // Extents restated in the file's unit, as the user wrote them.
+        Some(o) => {
+            let len = |v: f64| {
+                // Twelve digits: 0.012 / 0.001 reads 12, not 12.000000000000002.
+                let r: f64 = format!("{:.11e}", v / unit.scale()).parse().unwrap_or(v);
+                format!("{r}")
+            };
+            o.describe(len, unit.name())
+        }
+        None => e.message.clone(),
+    };
+    locate(text, file, tree, e.item, e.key, message)
+}

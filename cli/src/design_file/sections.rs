@@ -1,0 +1,543 @@
+//! The sections of a design file: the top-level keys, `[parameters]` (with overrides),
+//! `[grid]`, `[sides]`, `[background]` and the items `[[conductor]]`, `[[dielectric]]`,
+//! `[[charge]]`, `[[probe]]`, each read into its typed part of the design.
+//!
+//! Invariants: sections are read in the order that makes later ones well defined (unit and
+//! mode, then parameters, then the grid, whose cell size ties SVG flattening); names are
+//! unique within each kind of item; an axisymmetric design's left side is the axis.
+
+use std::collections::HashMap;
+
+use fieldgrid_solver::design::{
+    Background, Charge, Conductor, Design, Dielectric, Domain, Drive, Mode, Probe, Side, Sides,
+};
+
+use super::expr;
+use super::shapes::{Owner, SHAPE_KEYS};
+use super::spans::{get, Entry, InputError, Kind, Node};
+use super::unit::LengthUnit;
+use super::values::{join, list, table_span, Reader, Res};
+
+pub(super) const TOP_KEYS: &[&str] = &[
+    "unit",
+    "mode",
+    "depth",
+    "grid",
+    "sides",
+    "background",
+    "parameters",
+    "conductor",
+    "dielectric",
+    "charge",
+    "probe",
+];
+pub(super) const SIDE_NAMES: &[&str] = &["left", "right", "bottom", "top"];
+
+impl Reader<'_> {
+    pub(super) fn design(
+        &mut self,
+        root: &Node,
+        overrides: &[(String, f64)],
+    ) -> Res<(Design, LengthUnit)> {
+        let top = self.table(root, "", TOP_KEYS)?;
+        let mut unit = LengthUnit::M;
+        if let Some(e) = get(top, "unit") {
+            let s = self.string(&e.node, "unit")?;
+            unit = LengthUnit::parse(s).ok_or_else(|| {
+                self.err(
+                    &e.node.span,
+                    "unit",
+                    format!("unknown unit \"{s}\": use m, cm, mm or um"),
+                )
+            })?;
+        }
+        self.unit = unit;
+        self.scale = unit.scale();
+        if let Some(e) = get(top, "mode") {
+            self.mode = match self.string(&e.node, "mode")? {
+                "planar" => Mode::Planar,
+                "axisymmetric" => Mode::Axisymmetric,
+                s => {
+                    return Err(self.err(
+                        &e.node.span,
+                        "mode",
+                        format!("unknown mode \"{s}\": use planar or axisymmetric"),
+                    ))
+                }
+            };
+        }
+        self.parameters(get(top, "parameters"), overrides)?;
+        let mut d = Design {
+            mode: self.mode,
+            ..Design::default()
+        };
+        if let Some(e) = get(top, "depth") {
+            if self.mode == Mode::Axisymmetric {
+                return Err(self.err(
+                    &e.key_span,
+                    "depth",
+                    "`depth` is for planar designs only: an axisymmetric design is a whole body",
+                ));
+            }
+            d.depth = Some(self.size(&e.node, "depth", "the depth", false)?);
+        }
+        let grid = get(top, "grid").ok_or_else(|| {
+            self.err(
+                &None,
+                "grid",
+                "missing [grid] table (the domain x, y and the cell size)",
+            )
+        })?;
+        d.domain = self.grid(&grid.node)?;
+        self.cell = d.domain.cell;
+        if let Some(e) = get(top, "sides") {
+            d.sides = self.sides(&e.node)?;
+        }
+        if self.mode == Mode::Axisymmetric {
+            d.sides.left = Side::Axis;
+        }
+        if let Some(e) = get(top, "background") {
+            d.background = self.background(&e.node)?;
+        }
+        let mut names = Names::default();
+        for (i, node) in self.items(top, "conductor")?.iter().enumerate() {
+            let c = self.conductor(node)?;
+            names.check(self, &c.name, node, "conductor", i)?;
+            d.conductors.push(c);
+        }
+        let mut names = Names::default();
+        for (i, node) in self.items(top, "dielectric")?.iter().enumerate() {
+            let m = self.dielectric(node)?;
+            names.check(self, &m.name, node, "dielectric", i)?;
+            d.dielectrics.push(m);
+        }
+        let mut names = Names::default();
+        for (i, node) in self.items(top, "charge")?.iter().enumerate() {
+            let c = self.charge(node)?;
+            let name = match &c {
+                Charge::Region { name, .. } | Charge::Concentrated { name, .. } => name.clone(),
+            };
+            names.check(self, &name, node, "charge", i)?;
+            d.charges.push(c);
+        }
+        let mut names = Names::default();
+        for (i, node) in self.items(top, "probe")?.iter().enumerate() {
+            let p = self.probe(node)?;
+            names.check(self, &p.name, node, "probe", i)?;
+            d.probes.push(p);
+        }
+        Ok((d, unit))
+    }
+
+    /// The array of tables `[[key]]` (empty when absent).
+    pub(super) fn items<'n>(&self, top: &'n [Entry], key: &str) -> Res<&'n [Node]> {
+        let Some(e) = get(top, key) else {
+            return Ok(&[]);
+        };
+        let expected = format!("an array of tables: write [[{key}]]");
+        let a = self.array(&e.node, key, &expected)?;
+        if let Some(bad) = a.iter().find(|n| n.entries().is_none()) {
+            return Err(self.wrong_type(bad, key, &expected));
+        }
+        Ok(a)
+    }
+
+    pub(super) fn parameters(
+        &mut self,
+        node: Option<&Entry>,
+        overrides: &[(String, f64)],
+    ) -> Res<()> {
+        let entries: &[Entry] = match node {
+            Some(e) => match e.node.entries() {
+                Some(entries) => entries,
+                None => return Err(self.wrong_type(&e.node, "parameters", "a table")),
+            },
+            None => &[],
+        };
+        // Every name first, so a reference to a later parameter gets a precise message.
+        for e in entries {
+            let key = join("parameters", &e.key);
+            if !expr::is_identifier(&e.key) {
+                return Err(self.err(
+                    &e.key_span,
+                    &key,
+                    format!(
+                        "parameter name `{}` cannot be used in expressions: use letters, digits \
+                         and `_`, starting with a letter",
+                        e.key
+                    ),
+                ));
+            }
+            if expr::is_reserved(&e.key) {
+                return Err(self.err(
+                    &e.key_span,
+                    &key,
+                    format!(
+                        "`{}` is a built-in constant or function, not a parameter name",
+                        e.key
+                    ),
+                ));
+            }
+        }
+        self.params = entries.iter().map(|e| (e.key.clone(), f64::NAN)).collect();
+        for (i, e) in entries.iter().enumerate() {
+            let key = join("parameters", &e.key);
+            let v = match overrides.iter().rev().find(|(n, _)| *n == e.key) {
+                Some((_, v)) if v.is_finite() => *v,
+                Some((_, v)) => {
+                    return Err(InputError::unplaced(
+                        self.file,
+                        &key,
+                        format!(
+                            "the value {v} given for parameter `{}` is not finite",
+                            e.key
+                        ),
+                    ))
+                }
+                None => match &e.node.kind {
+                    Kind::Str(s) => self.expression(s, &e.node, &key, i)?,
+                    _ => self.number(&e.node, &key)?,
+                },
+            };
+            self.params[i].1 = v;
+        }
+        if let Some((n, _)) = overrides
+            .iter()
+            .find(|(n, _)| !self.params.iter().any(|(p, _)| p == n))
+        {
+            let names: Vec<&str> = self.params.iter().map(|(p, _)| p.as_str()).collect();
+            let known = if names.is_empty() {
+                "the design has no [parameters]".to_string()
+            } else {
+                format!("its parameters are {}", list(&names))
+            };
+            return Err(InputError::unplaced(
+                self.file,
+                &join("parameters", n),
+                format!("cannot set `{n}`: the design has no such parameter ({known})"),
+            ));
+        }
+        Ok(())
+    }
+
+    pub(super) fn grid(&self, node: &Node) -> Res<Domain> {
+        let t = self.table(node, "grid", &["x", "y", "cell"])?;
+        let x = self.required(t, node, "grid", "x", "the domain extent [x0, x1]")?;
+        let y = self.required(t, node, "grid", "y", "the domain extent [y0, y1]")?;
+        let cell = self.required(t, node, "grid", "cell", "the target cell size")?;
+        let xs = self.extent(&x.node, "grid.x")?;
+        if self.mode == Mode::Axisymmetric && xs[0] != 0.0 {
+            return Err(self.err(
+                &x.node.span,
+                "grid.x",
+                "in axisymmetric mode x is the radius and the domain must start at 0",
+            ));
+        }
+        let ys = self.extent(&y.node, "grid.y")?;
+        let c = self.size(&cell.node, "grid.cell", "the cell size", false)?;
+        Ok(Domain {
+            x: xs,
+            y: ys,
+            cell: c,
+        })
+    }
+
+    pub(super) fn sides(&self, node: &Node) -> Res<Sides> {
+        let t = self.table(node, "sides", SIDE_NAMES)?;
+        let mut s = Sides::default();
+        for e in t {
+            let key = join("sides", &e.key);
+            if e.key == "left" && self.mode == Mode::Axisymmetric {
+                return Err(self.err(
+                    &e.key_span,
+                    &key,
+                    "in axisymmetric mode the left side is the axis (r = 0) and takes no condition",
+                ));
+            }
+            let side = match &e.node.kind {
+                Kind::Str(v) if v == "ground" => Side::Ground,
+                Kind::Str(v) if v == "symmetry" => Side::Symmetry,
+                Kind::Str(v) if v == "open" => Side::Open,
+                Kind::Str(v)
+                    if expr::is_identifier(v.trim())
+                        && !self.params.iter().any(|(p, _)| p == v.trim())
+                        && !expr::is_reserved(v.trim()) =>
+                {
+                    return Err(self.err(
+                        &e.node.span,
+                        &key,
+                        format!(
+                            "unknown side condition \"{v}\": use \"ground\", \"symmetry\", \
+                             \"open\" or a potential in volts"
+                        ),
+                    ))
+                }
+                Kind::Str(_) | Kind::Int(_) | Kind::Float(_) => {
+                    Side::Fixed(self.number(&e.node, &key)?)
+                }
+                _ => {
+                    return Err(self.wrong_type(
+                        &e.node,
+                        &key,
+                        "\"ground\", \"symmetry\", \"open\" or a potential in volts",
+                    ))
+                }
+            };
+            match e.key.as_str() {
+                "left" => s.left = side,
+                "right" => s.right = side,
+                "bottom" => s.bottom = side,
+                _ => s.top = side,
+            }
+        }
+        Ok(s)
+    }
+
+    pub(super) fn permittivity(&self, e: &Entry, key: &str) -> Res<f64> {
+        let v = self.number(&e.node, key)?;
+        self.positive(v, &e.node, key, "the relative permittivity")
+    }
+
+    pub(super) fn strength(&self, t: &[Entry], path: &str) -> Res<Option<f64>> {
+        let Some(e) = get(t, "strength") else {
+            return Ok(None);
+        };
+        let key = join(path, "strength");
+        let v = self.number(&e.node, &key)?;
+        Ok(Some(self.positive(
+            v,
+            &e.node,
+            &key,
+            "the breakdown strength (V/m)",
+        )?))
+    }
+
+    pub(super) fn background(&self, node: &Node) -> Res<Background> {
+        let t = self.table(node, "background", &["permittivity", "strength"])?;
+        let mut b = Background::default();
+        if let Some(e) = get(t, "permittivity") {
+            b.permittivity = self.permittivity(e, "background.permittivity")?;
+        }
+        b.strength = self.strength(t, "background")?;
+        Ok(b)
+    }
+
+    pub(super) fn name(&self, t: &[Entry], node: &Node, path: &str) -> Res<String> {
+        let e = self.required(t, node, path, "name", "every item is named")?;
+        let key = join(path, "name");
+        let s = self.string(&e.node, &key)?;
+        if s.trim().is_empty() {
+            return Err(self.err(&e.node.span, &key, "the name is empty"));
+        }
+        if s.chars().any(char::is_control) {
+            return Err(self.err(&e.node.span, &key, "the name contains a control character"));
+        }
+        Ok(s.to_string())
+    }
+
+    pub(super) fn conductor(&self, node: &Node) -> Res<Conductor> {
+        let p = "conductor";
+        let t = self.table(
+            node,
+            p,
+            &[
+                "name",
+                "potential",
+                "floating",
+                "rect",
+                "circle",
+                "ring",
+                "polygon",
+                "polyline",
+                "svg",
+                "holes",
+                "round",
+            ],
+        )?;
+        let name = self.name(t, node, p)?;
+        if name.contains(',') {
+            let e = get(t, "name").expect("name was read");
+            return Err(self.err(
+                &e.node.span,
+                "conductor.name",
+                "a conductor name may not contain `,` (lists of conductors are comma-separated)",
+            ));
+        }
+        let floating = match get(t, "floating") {
+            Some(e) => self.boolean(&e.node, "conductor.floating")?,
+            None => false,
+        };
+        let drive = match (get(t, "potential"), floating) {
+            (Some(e), true) => {
+                return Err(self.err(
+                    &e.key_span,
+                    "conductor.potential",
+                    "give either `potential` or `floating = true`, not both",
+                ))
+            }
+            (Some(e), false) => Drive::Fixed(self.number(&e.node, "conductor.potential")?),
+            (None, true) => Drive::Floating,
+            (None, false) => {
+                return Err(self.err(
+                    &table_span(node),
+                    "conductor.potential",
+                    "missing `potential` (volts) or `floating = true`",
+                ))
+            }
+        };
+        let shape = self.shape(t, node, p, Owner::Conductor)?;
+        Ok(Conductor { name, drive, shape })
+    }
+
+    pub(super) fn dielectric(&self, node: &Node) -> Res<Dielectric> {
+        let p = "dielectric";
+        let t = self.table(
+            node,
+            p,
+            &[
+                "name",
+                "permittivity",
+                "strength",
+                "rect",
+                "circle",
+                "ring",
+                "polygon",
+                "polyline",
+                "svg",
+                "holes",
+                "round",
+            ],
+        )?;
+        let name = self.name(t, node, p)?;
+        if name == "background" {
+            let e = get(t, "name").expect("name was read");
+            return Err(self.err(
+                &e.node.span,
+                "dielectric.name",
+                "`background` names the material outside every dielectric; choose another name",
+            ));
+        }
+        let e = self.required(t, node, p, "permittivity", "relative, > 0")?;
+        let permittivity = self.permittivity(e, "dielectric.permittivity")?;
+        let strength = self.strength(t, p)?;
+        let shape = self.shape(t, node, p, Owner::Other)?;
+        Ok(Dielectric {
+            name,
+            permittivity,
+            strength,
+            shape,
+        })
+    }
+
+    pub(super) fn charge(&self, node: &Node) -> Res<Charge> {
+        let p = "charge";
+        let t = self.table(
+            node,
+            p,
+            &[
+                "name", "density", "at", "amount", "rect", "circle", "ring", "polygon", "polyline",
+                "svg", "holes", "round",
+            ],
+        )?;
+        let name = self.name(t, node, p)?;
+        let concentrated = t.iter().find(|e| e.key == "at" || e.key == "amount");
+        let region = t
+            .iter()
+            .find(|e| e.key == "density" || SHAPE_KEYS.contains(&e.key.as_str()));
+        if let (Some(c), Some(r)) = (concentrated, region) {
+            let later =
+                if c.key_span.as_ref().map(|s| s.start) > r.key_span.as_ref().map(|s| s.start) {
+                    c
+                } else {
+                    r
+                };
+            return Err(self.err(
+                &later.key_span,
+                &join(p, &later.key),
+                "a charge is either a region (`density` and a shape) or concentrated (`at` and \
+                 `amount`), not both",
+            ));
+        }
+        if concentrated.is_some() {
+            let what = if self.mode == Mode::Planar {
+                "C/m, a line charge"
+            } else {
+                "C, a point charge"
+            };
+            let at = self.required(t, node, p, "at", "the position [x, y]")?;
+            let amount = self.required(t, node, p, "amount", what)?;
+            let pos = self.point(&at.node, "charge.at")?;
+            if self.mode == Mode::Axisymmetric && pos[0] != 0.0 {
+                return Err(self.err(
+                    &at.node.span,
+                    "charge.at",
+                    "in axisymmetric mode a concentrated charge is a point charge on the axis: \
+                     its x must be 0",
+                ));
+            }
+            let amount = self.number(&amount.node, "charge.amount")?;
+            return Ok(Charge::Concentrated {
+                name,
+                at: pos,
+                amount,
+            });
+        }
+        let e = self.required(
+            t,
+            node,
+            p,
+            "density",
+            "C/m^3, with a shape; or `at` and `amount` for a concentrated charge",
+        )?;
+        let density = self.number(&e.node, "charge.density")?;
+        let shape = self.shape(t, node, p, Owner::Other)?;
+        Ok(Charge::Region {
+            name,
+            density,
+            shape,
+        })
+    }
+
+    pub(super) fn probe(&self, node: &Node) -> Res<Probe> {
+        let t = self.table(node, "probe", &["name", "at"])?;
+        let name = self.name(t, node, "probe")?;
+        let at = self.required(t, node, "probe", "at", "the position [x, y]")?;
+        Ok(Probe {
+            name,
+            at: self.point(&at.node, "probe.at")?,
+        })
+    }
+}
+
+/// Names seen so far of one kind of item, for the "names unique" rule.
+#[derive(Default)]
+pub(super) struct Names(HashMap<String, usize>);
+
+impl Names {
+    pub(super) fn check(
+        &mut self,
+        r: &Reader<'_>,
+        name: &str,
+        node: &Node,
+        kind: &str,
+        index: usize,
+    ) -> Res<()> {
+        if let Some(first) = self.0.get(name) {
+            let span = node
+                .entries()
+                .and_then(|t| get(t, "name"))
+                .map(|e| e.node.span.clone())
+                .unwrap_or(None);
+            return Err(r.err(
+                &span,
+                &format!("{kind}.name"),
+                format!(
+                    "duplicate name \"{name}\": {kind} number {} already has it",
+                    first + 1
+                ),
+            ));
+        }
+        self.0.insert(name.to_string(), index);
+        Ok(())
+    }
+}
