@@ -6,7 +6,7 @@
 //! the two distances add up to no more than its length. Vertices where the outline goes
 //! straight on (turn below 1e-12 rad) are left as they are.
 
-use super::outline::{push_arc, Piece};
+use super::piece::{push_arc, Piece};
 use crate::design::Point;
 
 /// Turns below this (rad) count as straight on.

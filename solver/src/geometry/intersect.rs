@@ -5,7 +5,7 @@
 //! the test is in floating point and counts pieces closer than `tol` (m) as meeting. The
 //! search sorts pieces by their bounding boxes along x and tests only pairs whose boxes meet.
 
-use super::outline::{BBox, Piece};
+use super::piece::{BBox, Piece};
 use crate::design::Point;
 
 fn orient(a: Point, b: Point, c: Point) -> f64 {

@@ -11,16 +11,19 @@
 //! - loops have the filled side on their left: outer boundaries counter-clockwise, holes
 //!   clockwise, so boundary integrals give areas and moments with the right sign.
 //!
-//! The submodules: [`outline`] (pieces, loops, shape conversion, area and crossings),
-//! `fillet` (rounded corners), `lines` (all crossings with a family of grid lines at once, for
-//! the rasteriser), `intersect` (where two pieces meet), `corners` (sharp corners and drawing
-//! polylines) and `validate` (the design rules).
+//! The submodules, each depending only on those before it: `piece` (segments and quadrant
+//! arcs), `crossings` (pieces against a family of lines), `fillet` (rounded corners),
+//! [`outline`] (loops, shape conversion, area and crossings), `lines` (cross-sections along a
+//! family of grid lines, for the rasteriser), `intersect` (where two pieces meet), `corners`
+//! (sharp corners and drawing polylines) and `validate` (the design rules).
 
 mod corners;
+mod crossings;
 mod fillet;
 mod intersect;
 pub(crate) mod lines;
 pub mod outline;
+mod piece;
 mod validate;
 
 pub use corners::{outline_polylines, sharp_corners};
