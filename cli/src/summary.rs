@@ -41,6 +41,9 @@ pub struct Summary {
     pub peak_field: Option<PeakSummary>,
     /// Ranked hot spots.
     pub hotspots: Vec<HotspotSummary>,
+    /// The point of lowest margin, whenever a material has a strength.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub worst_margin: Option<WorstMarginSummary>,
     /// Probe readings.
     pub probes: Vec<ProbeSummary>,
     /// Warnings: the sentences, in order (the contract's v1 shape).
@@ -123,6 +126,10 @@ pub struct ConductorSummary {
     pub charge_error: Option<f64>,
     /// Force (x, y).
     pub force: [f64; 2],
+    /// Estimated discretisation error of each force component (absent with
+    /// --no-error-estimate).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub force_error_estimate: Option<[f64; 2]>,
     /// True for a floating conductor.
     #[serde(default)]
     pub floating: bool,
@@ -158,6 +165,9 @@ pub struct PeakSummary {
     pub material: String,
     /// At a sharp corner or edge (grows with refinement).
     pub singular: bool,
+    /// Estimated discretisation error of the magnitude, V/m.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub error_estimate: Option<f64>,
 }
 
 /// One hot spot.
@@ -173,11 +183,35 @@ pub struct HotspotSummary {
     pub material: String,
     /// Breakdown strength, V/m, when known.
     pub strength: Option<f64>,
-    /// strength / magnitude, when known.
+    /// strength / (magnitude + error_estimate), when the strength is known.
     pub margin: Option<f64>,
     /// At a sharp corner or edge.
     #[serde(default)]
     pub singular: bool,
+    /// Estimated discretisation error of the magnitude, V/m.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub error_estimate: Option<f64>,
+}
+
+/// The point of lowest margin.
+#[derive(Serialize, Deserialize, Debug, Clone, PartialEq)]
+pub struct WorstMarginSummary {
+    /// Position, m.
+    pub x: f64,
+    /// Position, m.
+    pub y: f64,
+    /// Material name.
+    pub material: String,
+    /// |E| there, V/m.
+    pub field: f64,
+    /// Breakdown strength of the material, V/m.
+    pub strength: f64,
+    /// strength / (field + error_estimate).
+    pub margin: f64,
+    /// At a sharp corner or edge (the field grows with refinement).
+    pub singular: bool,
+    /// Estimated discretisation error of the field, V/m (null without an estimate).
+    pub error_estimate: Option<f64>,
 }
 
 /// One probe.
@@ -243,6 +277,7 @@ impl Summary {
                     charge: c.charge,
                     charge_error: c.charge_error,
                     force: c.force,
+                    force_error_estimate: c.force_error,
                     floating: c.floating,
                 })
                 .collect(),
@@ -260,6 +295,7 @@ impl Summary {
                 y: h.y,
                 material: h.material.clone(),
                 singular: h.singular,
+                error_estimate: h.error_estimate,
             }),
             hotspots: sol
                 .hotspots
@@ -272,8 +308,21 @@ impl Summary {
                     strength: h.strength,
                     margin: h.margin,
                     singular: h.singular,
+                    error_estimate: h.error_estimate,
                 })
                 .collect(),
+            worst_margin: sol.worst_margin.as_ref().and_then(|h| {
+                Some(WorstMarginSummary {
+                    x: h.x,
+                    y: h.y,
+                    material: h.material.clone(),
+                    field: h.magnitude,
+                    strength: h.strength?,
+                    margin: h.margin?,
+                    singular: h.singular,
+                    error_estimate: h.error_estimate,
+                })
+            }),
             probes: sol
                 .probes
                 .iter()

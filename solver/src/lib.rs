@@ -29,6 +29,7 @@ pub mod stencil;
 pub mod study;
 pub mod surface;
 pub mod surface_field;
+pub mod surface_results;
 pub mod warning;
 
 /// Permittivity of free space, F/m (CODATA 2018 recommended value).

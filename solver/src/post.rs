@@ -31,6 +31,8 @@ pub struct Hotspot {
     /// True when the maximum sits at a sharp corner or edge: its value grows as the grid is
     /// refined.
     pub singular: bool,
+    /// Estimated discretisation error of `magnitude`, V/m, when an error estimate was made.
+    pub error_estimate: Option<f64>,
 }
 
 /// Hot-spot search settings.
@@ -74,7 +76,7 @@ pub struct ProbeResult {
     pub field: [f64; 2],
 }
 
-/// A surface-charge sample at a point where a lattice edge meets a conductor surface.
+/// A surface-charge sample at a point of a conductor's outline.
 #[derive(Clone, Debug, PartialEq)]
 pub struct SurfacePoint {
     /// Conductor index.
@@ -85,8 +87,10 @@ pub struct SurfacePoint {
     pub y: f64,
     /// Surface charge density, C/m^2.
     pub density: f64,
-    /// Field magnitude just outside the surface, V/m.
+    /// Field magnitude at the surface, V/m.
     pub field: f64,
+    /// Surface the sample stands for: planar m^2 per metre of depth, axisymmetric m^2.
+    pub area: f64,
 }
 
 /// Field evaluation on a solved operator.
@@ -237,7 +241,8 @@ fn convex_vertices(ring: &[Point], solid_inside: bool) -> Vec<Point> {
         .collect()
 }
 
-fn material_of(design: &Design, m: u16) -> (String, Option<f64>) {
+/// Name and breakdown strength of material index `m`.
+pub(crate) fn material_of(design: &Design, m: u16) -> (String, Option<f64>) {
     if m == 0 {
         ("background".to_string(), design.background.strength)
     } else {
@@ -267,6 +272,7 @@ fn hotspot_at(
         strength,
         margin: strength.map(|s| s / mag),
         singular,
+        error_estimate: None,
     }
 }
 
@@ -368,35 +374,6 @@ pub fn probe(field: &FieldEval, probe: &Probe) -> ProbeResult {
         potential: v,
         field: fieldv,
     }
-}
-
-/// Surface charge where lattice edges meet conductor surfaces, ordered by conductor, then
-/// node, then direction.
-pub fn surface_charge(field: &FieldEval, _design: &Design) -> Vec<SurfacePoint> {
-    let op = field.op;
-    let g = &op.grid;
-    let mut out = Vec::new();
-    for l in &op.links {
-        if l.target as usize >= op.n_conductors {
-            continue;
-        }
-        let p = l.node as usize;
-        let (x, y) = (g.x(p % g.nx), g.y(p / g.nx));
-        let u = l.dir.unit();
-        let (px, py) = (x + u[0] * l.theta * g.hx, y + u[1] * l.theta * g.hy);
-        let e = field.magnitude(p);
-        let v = field.target_value(l.target);
-        let sign = (v - field.phi[p]).signum();
-        out.push(SurfacePoint {
-            conductor: l.target as usize,
-            x: px,
-            y: py,
-            density: sign * EPS0 * l.eps * e,
-            field: e,
-        });
-    }
-    out.sort_by_key(|a| a.conductor);
-    out
 }
 
 /// Electrostatic force on conductor k by the Maxwell stress tensor over the lattice contour

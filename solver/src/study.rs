@@ -21,6 +21,7 @@ use crate::raster::{self, Raster, NO_CONDUCTOR};
 use crate::solvers::{self, Info, Method, Params};
 use crate::surface::{self, SurfaceParams, SurfaceSample};
 use crate::warning::{NonFiniteIn, SolveFailure, Warning};
+use crate::surface_results;
 use crate::EPS0;
 
 /// What to run.
@@ -77,6 +78,8 @@ pub struct ConductorResult {
     pub charge_error: Option<f64>,
     /// Electrostatic force, N/m (planar) or N (axisymmetric: only the axial component, y).
     pub force: [f64; 2],
+    /// Estimated discretisation error of each force component, same units, when requested.
+    pub force_error: Option<[f64; 2]>,
 }
 
 /// The Maxwell capacitance matrix of the fixed-potential conductors.
@@ -165,8 +168,12 @@ pub struct Solution {
     pub energy: f64,
     /// Largest field outside conductors.
     pub peak_field: Option<Hotspot>,
-    /// Ranked distinct field maxima.
+    /// Ranked distinct field maxima: by margin when any material has a strength (the lowest
+    /// margin first), else by field.
     pub hotspots: Vec<Hotspot>,
+    /// The point of lowest margin (strength over field plus its estimated error), over every
+    /// material with a strength and both sides of every interface; `None` without strengths.
+    pub worst_margin: Option<Hotspot>,
     /// Probe results.
     pub probes: Vec<ProbeResult>,
     /// Surface charge samples along the conductor outlines.
@@ -296,6 +303,19 @@ pub fn run(design: &Design, params: &StudyParams) -> Result<Solution, StudyError
         .reactions_total(&core.response, &core.background, &core.potentials);
     let corners = post::sharp_corners(design);
     let field = post::FieldEval::new(&core.op, &core.raster, &core.phi, &core.potentials);
+    // The coarse solve's field, surfaces and forces, for the error estimates of field
+    // quantities.
+    let coarse_field = coarse
+        .as_ref()
+        .map(|c| post::FieldEval::new(&c.op, &c.raster, &c.phi, &c.potentials));
+    let coarse_surface = coarse_field
+        .as_ref()
+        .map(|f| surface::sample(f, design, &SurfaceParams::default()));
+    let force_error = |k: usize, f: [f64; 2]| -> Option<[f64; 2]> {
+        let (m, cf) = (error_model.as_ref()?, coarse_field.as_ref()?);
+        let c = post::force(cf, design, k);
+        Some([m.estimate(f[0], c[0]), m.estimate(f[1], c[1])])
+    };
     let conductors = (0..nc)
         .map(|k| ConductorResult {
             name: design.conductors[k].name.clone(),
@@ -306,6 +326,12 @@ pub fn run(design: &Design, params: &StudyParams) -> Result<Solution, StudyError
                 .as_ref()
                 .map(|m| m.estimate(charges[k], m.coarse_charges[k])),
             force: post::force(&field, design, k),
+            force_error: None,
+        })
+        .enumerate()
+        .map(|(k, mut c)| {
+            c.force_error = force_error(k, c.force);
+            c
         })
         .collect::<Vec<ConductorResult>>();
     warnings.extend(open_side_warnings(design, &core, &conductors));
@@ -320,15 +346,27 @@ pub fn run(design: &Design, params: &StudyParams) -> Result<Solution, StudyError
         .map(|&(p, s)| s * EPS0 * core.phi[p as usize])
         .sum();
     let energy = 0.5 * (charges.iter().zip(&values).map(|(q, v)| q * v).sum::<f64>() + free);
-    let hotspots = post::hotspots(&field, design, &corners, &params.hotspots);
-    let peak_field = post::peak(&field, design, &corners);
     let probes = design
         .probes
         .iter()
         .map(|p| post::probe(&field, p))
         .collect();
-    let surface_charge = post::surface_charge(&field, design);
     let surface = surface::sample(&field, design, &SurfaceParams::default());
+    let surface_charge = surface_results::surface_charge(&surface, design, &charges);
+    let (mut peak_field, mut hotspots) =
+        surface_results::peak_and_hotspots(&field, design, &corners, &params.hotspots, &surface);
+    if let (Some(m), Some(cf), Some(cs)) = (&error_model, &coarse_field, &coarse_surface) {
+        surface_results::estimate_errors(
+            &mut peak_field,
+            &mut hotspots,
+            design,
+            cf,
+            cs,
+            m.ratio,
+            m.order,
+        );
+    }
+    let worst_margin = hotspots.iter().find(|h| h.margin.is_some()).cloned();
     // Every solve can converge and the results still overflow (potentials, permittivities
     // or charges near the end of the double range): such results are flagged, not reported.
     if solve.converged {
@@ -354,6 +392,7 @@ pub fn run(design: &Design, params: &StudyParams) -> Result<Solution, StudyError
         energy,
         peak_field,
         hotspots,
+        worst_margin,
         probes,
         surface_charge,
         surface,

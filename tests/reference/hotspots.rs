@@ -215,3 +215,79 @@ fn a_smooth_rounded_rim_is_one_hot_spot_not_a_row_of_ripples() {
     assert!(!s.hotspots[0].singular);
     assert_eq!(s.hotspots[0].magnitude, ripples.hotspots[0].magnitude);
 }
+
+/// A rod at 10 kV between grounded plates, wrapped in a strong solid (20 MV/m) inside air
+/// (3 MV/m): the field is highest on the rod, in the solid, but the margin is lowest in the
+/// air just outside the solid, at a lower field.
+const TWO_MATERIALS: &str = r#"
+unit = "mm"
+[grid]
+x = [0.0, 20.0]
+y = [0.0, 10.0]
+cell = 0.1
+[background]
+strength = 3.0e6
+[[dielectric]]
+name = "solid"
+permittivity = 1.0
+strength = 2.0e7
+circle = { center = [10.03, 5.01], radius = 2.5 }
+[[conductor]]
+name = "rod"
+potential = 1.0e4
+circle = { center = [10.03, 5.01], radius = 1.0 }
+"#;
+
+#[test]
+fn the_weaker_material_holds_the_worst_margin_at_a_lower_field() {
+    let src = read_design(TWO_MATERIALS, "two.toml", &[]).expect("design reads");
+    let mut p = params(Method::default());
+    p.error_estimate = true;
+    let sol = study::run(&src.design, &p).expect("study runs");
+    let peak = sol.peak_field.clone().unwrap();
+    let worst = sol.worst_margin.clone().expect("a worst margin");
+    println!(
+        "peak {peak:?}\nworst {worst:?}\nfirst {:?}",
+        sol.hotspots[0]
+    );
+    assert_eq!(peak.material, "solid");
+    assert_eq!(worst.material, "background");
+    assert!(worst.magnitude < 0.6 * peak.magnitude);
+    // It heads the hot-spot table, and every hot spot in a material carries its margin.
+    assert_eq!(sol.hotspots[0], worst);
+    assert!(sol.hotspots.iter().all(|h| h.margin.is_some()));
+    // The margin is taken with the field plus its estimated error.
+    let e = worst.error_estimate.expect("an error estimate");
+    let m = worst.margin.unwrap();
+    assert!((m - 3.0e6 / (worst.magnitude + e)).abs() < 1e-12 * m);
+    // The command: summary.json's worst_margin is the same point, the table's first row, and
+    // --min-margin between the two materials' margins fails on it.
+    let dir = scratch("fieldgrid-hotspots", "two-materials");
+    let design = write(&dir, "two.toml", TWO_MATERIALS);
+    let out = dir.join("out");
+    let bar = format!("{}", 0.5 * (m + peak.strength.unwrap() / peak.magnitude));
+    expect_for(
+        run(&[
+            "solve",
+            &design,
+            "--out",
+            s(&out),
+            "--quiet",
+            "--min-margin",
+            &bar,
+        ]),
+        1,
+        "the air's margin is below the bar",
+    );
+    let json = fieldgrid_tests::cli::summary(&out);
+    let w = &json["worst_margin"];
+    let h0 = &json["hotspots"][0];
+    assert_eq!(w["material"], "background");
+    assert_eq!(w["x"], h0["x"]);
+    assert_eq!(w["y"], h0["y"]);
+    assert_eq!(w["margin"], h0["margin"]);
+    assert!(w["error_estimate"].is_number() && w["singular"] == false);
+    let mut r = csv::Reader::from_path(out.join("hotspots.csv")).unwrap();
+    let first = r.records().next().unwrap().unwrap();
+    assert_eq!(&first[4], "background");
+}

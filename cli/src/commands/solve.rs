@@ -72,17 +72,21 @@ pub fn run(args: &SolveArgs) -> Result<u8, Failure> {
         return Ok(EXIT_NOT_CONVERGED);
     }
     if let Some(min) = args.min_margin {
-        if let Some(w) = worst_margin(&sol, &src.design) {
-            if w.margin < min {
+        if let Some(w) = &sol.worst_margin {
+            let (margin, strength) = (w.margin.unwrap_or(f64::INFINITY), w.strength.unwrap_or(0.0));
+            if margin < min {
                 eprintln!(
                     "fieldgrid: the margin at ({:.4e} m, {:.4e} m) in {} is {:.3} \
-                     ({:.3e} V/m against a strength of {:.3e} V/m), below --min-margin {min}{}",
+                     ({:.3e} V/m{} against a strength of {:.3e} V/m), below --min-margin {min}{}",
                     w.x,
                     w.y,
                     w.material,
-                    w.margin,
-                    w.field,
-                    w.strength,
+                    margin,
+                    w.magnitude,
+                    w.error_estimate
+                        .map(|e| format!(" + {e:.2e} V/m estimated error"))
+                        .unwrap_or_default(),
+                    strength,
                     if w.singular {
                         "; it sits at a sharp corner, where the value grows with refinement: \
                          evaluate with the corner rounded (`round = r`)"
@@ -129,78 +133,13 @@ fn check_min_margin(
     Ok(())
 }
 
-/// The lowest margin (strength / field) over every free node whose material has a strength.
-#[derive(Clone, Debug, PartialEq)]
-pub struct WorstMargin {
-    /// strength / field.
-    pub margin: f64,
-    /// Field there, V/m.
-    pub field: f64,
-    /// Strength of the material there, V/m.
-    pub strength: f64,
-    /// Position, m.
-    pub x: f64,
-    /// Position, m.
-    pub y: f64,
-    /// Material name.
-    pub material: String,
-    /// Within the singular reach of a sharp corner.
-    pub singular: bool,
-}
-
-/// Scans every free node (not only the ranked hot spots, which are ordered by field and
-/// may miss a weaker material at a lower field).
-pub fn worst_margin(
-    sol: &Solution,
-    design: &fieldgrid_solver::design::Design,
-) -> Option<WorstMargin> {
-    let field = sol.field();
-    let strength = |m: u16| {
-        if m == 0 {
-            design.background.strength
-        } else {
-            design.dielectrics[m as usize - 1].strength
-        }
-    };
-    let g = &sol.grid;
-    let mut best: Option<(usize, f64, f64, f64)> = None;
-    for p in 0..g.len() {
-        let Some(s) = strength(sol.raster.material[p]) else {
-            continue;
-        };
-        let e = field.magnitude(p);
-        if !(e.is_finite() && e > 0.0) {
-            continue;
-        }
-        let m = s / e;
-        if best.is_none_or(|b| m < b.1) {
-            best = Some((p, m, e, s));
-        }
-    }
-    let corners = fieldgrid_solver::post::sharp_corners(design);
-    let reach = fieldgrid_solver::post::HotspotParams::default().corner_cells * g.hx.max(g.hy);
-    best.map(|(p, margin, e, s)| {
-        let (x, y) = (g.x(p % g.nx), g.y(p / g.nx));
-        let m = sol.raster.material[p];
-        WorstMargin {
-            margin,
-            field: e,
-            strength: s,
-            x,
-            y,
-            material: if m == 0 {
-                "background".to_string()
-            } else {
-                design.dielectrics[m as usize - 1].name.clone()
-            },
-            singular: corners.iter().any(|c| (c[0] - x).hypot(c[1] - y) <= reach),
-        }
-    })
-}
-
 /// What the report and hotspots.csv say about a singular hot spot.
 pub const SINGULAR_NOTE: &str = "sharp corner or thin edge: the value grows as the cell \
      shrinks; round the corner (round = r) and solve again to evaluate it";
+
+/// How margins are taken, printed with them.
+pub const MARGIN_RULE: &str = "margin = strength / (field + its estimated discretisation \
+     error); the first row is the lowest margin anywhere in a material with a strength";
 
 /// The caution printed with margins.
 pub const MARGIN_CAUTION: &str = "caution: margins are estimates from a discretised field. \
@@ -258,6 +197,7 @@ pub fn write_results(
             "margin",
             "singular",
             "note",
+            "error estimate (V/m)",
         ],
         sol.hotspots.iter().enumerate().map(|(k, h)| {
             vec![
@@ -274,6 +214,7 @@ pub fn write_results(
                 } else {
                     String::new()
                 },
+                h.error_estimate.map(num).unwrap_or_default(),
             ]
         }),
     );
@@ -284,6 +225,7 @@ pub fn write_results(
             "y (m)",
             "surface charge (C/m^2)",
             "field (V/m)",
+            "area (m^2/m planar, m^2 axisymmetric)",
         ],
         sol.surface_charge.iter().map(|s| {
             vec![
@@ -292,6 +234,7 @@ pub fn write_results(
                 num(s.y),
                 num(s.density),
                 num(s.field),
+                num(s.area),
             ]
         }),
     );
@@ -374,8 +317,11 @@ fn report(sol: &Solution, summary: &Summary, out: &OutDir) -> String {
     if let Some(p) = &sol.peak_field {
         let _ = writeln!(
             s,
-            "peak field {:.3e} V/m at ({:.4e} m, {:.4e} m) in {}{}",
+            "peak field {:.3e}{} V/m at ({:.4e} m, {:.4e} m) in {}{}",
             p.magnitude,
+            p.error_estimate
+                .map(|e| format!(" +/- {e:.1e}"))
+                .unwrap_or_default(),
             p.x,
             p.y,
             p.material,
@@ -426,15 +372,28 @@ pub fn hotspot_report(hotspots: &[fieldgrid_solver::post::Hotspot], shown: usize
     if hotspots.is_empty() {
         return s;
     }
-    let _ = writeln!(s, "hot spots (largest field first):");
+    let by_margin = hotspots.iter().any(|h| h.margin.is_some());
+    let _ = writeln!(
+        s,
+        "hot spots ({}):",
+        if by_margin {
+            "lowest margin first"
+        } else {
+            "largest field first"
+        }
+    );
     for (k, h) in hotspots.iter().take(shown).enumerate() {
         let margin = match (h.strength, h.margin) {
             (Some(st), Some(m)) => format!(", strength {st:.3e} V/m, margin {m:.2}"),
             _ => String::new(),
         };
+        let err = h
+            .error_estimate
+            .map(|e| format!(" +/- {e:.1e}"))
+            .unwrap_or_default();
         let _ = writeln!(
             s,
-            "  {:2}. {:.3e} V/m at ({:.4e} m, {:.4e} m) in {}{margin}{}",
+            "  {:2}. {:.3e}{err} V/m at ({:.4e} m, {:.4e} m) in {}{margin}{}",
             k + 1,
             h.magnitude,
             h.x,
@@ -449,7 +408,10 @@ pub fn hotspot_report(hotspots: &[fieldgrid_solver::post::Hotspot], shown: usize
     if hotspots.iter().take(shown).any(|h| h.singular) {
         let _ = writeln!(s, "  [singular]: {SINGULAR_NOTE}");
     }
-    if hotspots.iter().any(|h| h.margin.is_some()) {
+    if by_margin {
+        if hotspots.iter().any(|h| h.error_estimate.is_some()) {
+            let _ = writeln!(s, "  {MARGIN_RULE}");
+        }
         let _ = writeln!(s, "{MARGIN_CAUTION}");
     }
     s

@@ -1,0 +1,387 @@
+//! What the surface samples give the user: surface charge that integrates to each conductor's
+//! charge, and the field maxima on surfaces and interfaces, ranked with the maxima inside the
+//! free space.
+//!
+//! Surface charge: `sigma = eps0 eps E.n` at each conductor sample, `n` into the free side.
+//! Its integral over the samples (planar: per metre of depth; axisymmetric: times `2 pi r`)
+//! differs from the conductor's charge (the operator's reaction, which the capacitance matrix
+//! uses) by the discretisation error; the difference is spread over the samples in proportion
+//! to `|sigma|` times the surface each stands for, so that the integral equals the charge to
+//! rounding while the shape of the distribution stays that of the surface field.
+//!
+//! Maxima: along each curve of samples, a sample is a maximum when neither neighbour is higher;
+//! its position and value are refined by the parabola through it and its neighbours (sub-cell
+//! along the outline). Like the lattice maxima ([`crate::peaks`]), a surface maximum counts
+//! when the field falls by the persistence share of its value on both ways along the curve to
+//! a higher sample. Lattice maxima at nodes next to a sampled conductor surface are left out:
+//! their value is the surface's, read less accurately.
+//!
+//! Invariants: hot spots are ranked highest field first (ties by position); every hot spot is
+//! at least the separation from a higher one; a surface hot spot's material is that of the
+//! side of the surface the sample belongs to.
+
+use crate::design::{Design, Mode, Point};
+use crate::post::{FieldEval, Hotspot, HotspotParams, SurfacePoint};
+use crate::surface::{SurfaceKind, SurfaceSample};
+use crate::EPS0;
+
+/// Surface area a sample stands for: planar m^2 per metre of depth, axisymmetric m^2.
+fn area(s: &SurfaceSample, mode: Mode) -> f64 {
+    match mode {
+        Mode::Planar => s.length,
+        Mode::Axisymmetric => 2.0 * std::f64::consts::PI * s.x * s.length,
+    }
+}
+
+/// Surface charge at every conductor sample whose field is known, ordered by conductor, then
+/// along the outline; `charges[k]` is conductor k's charge (C/m or C).
+pub fn surface_charge(
+    samples: &[SurfaceSample],
+    design: &Design,
+    charges: &[f64],
+) -> Vec<SurfacePoint> {
+    let nc = design.conductors.len();
+    let eps = |m: u16| crate::raster::Raster::permittivity(design, m);
+    let mut out: Vec<SurfacePoint> = samples
+        .iter()
+        .filter_map(|s| match s.kind {
+            SurfaceKind::Conductor(k) if s.field[0].is_finite() && s.field[1].is_finite() => {
+                Some(SurfacePoint {
+                    conductor: k,
+                    x: s.x,
+                    y: s.y,
+                    density: EPS0 * eps(s.material) * s.normal_field(),
+                    field: s.magnitude(),
+                    area: area(s, design.mode),
+                })
+            }
+            _ => None,
+        })
+        .collect();
+    out.sort_by_key(|p| p.conductor);
+    for k in 0..nc {
+        let (mut q, mut abs) = (0.0, 0.0);
+        for p in out.iter().filter(|p| p.conductor == k) {
+            q += p.density * p.area;
+            abs += p.density.abs() * p.area;
+        }
+        if abs > 0.0 {
+            let c = (charges[k] - q) / abs;
+            for p in out.iter_mut().filter(|p| p.conductor == k) {
+                p.density += c * p.density.abs();
+            }
+        }
+    }
+    out
+}
+
+/// A maximum of the field along a curve of samples, refined between samples.
+#[derive(Clone, Debug, PartialEq)]
+struct CurveMax {
+    at: Point,
+    magnitude: f64,
+    material: u16,
+    persistence: f64,
+}
+
+/// Maxima along each curve, with their persistence along it.
+fn curve_maxima(samples: &[SurfaceSample], closed: impl Fn(usize) -> bool) -> Vec<CurveMax> {
+    let mut out = Vec::new();
+    let mut start = 0;
+    while start < samples.len() {
+        let curve = samples[start].curve;
+        let end = start + samples[start..].partition_point(|s| s.curve == curve);
+        let run = &samples[start..end];
+        let v: Vec<f64> = run
+            .iter()
+            .map(|s| {
+                let m = s.magnitude();
+                if m.is_finite() {
+                    m
+                } else {
+                    0.0
+                }
+            })
+            .collect();
+        // A loop wraps around when its samples go all the way round.
+        let wrap = closed(curve) && run.len() > 2;
+        let n = v.len();
+        let at = |i: isize| -> Option<usize> {
+            if wrap {
+                Some(i.rem_euclid(n as isize) as usize)
+            } else if i >= 0 && (i as usize) < n {
+                Some(i as usize)
+            } else {
+                None
+            }
+        };
+        for i in 0..n {
+            let m = v[i];
+            if m <= 0.0 {
+                continue;
+            }
+            let (l, r) = (at(i as isize - 1), at(i as isize + 1));
+            let higher = |j: Option<usize>| j.is_some_and(|j| v[j] > m || (v[j] == m && j < i));
+            if higher(l) || higher(r) {
+                continue;
+            }
+            // Persistence: the deepest dip on the way to a higher sample, the shallower side.
+            let dip = |step: isize| -> Option<f64> {
+                let mut low = m;
+                let mut k = i as isize;
+                for _ in 1..n {
+                    k += step;
+                    let j = at(k)?;
+                    if v[j] > m || (v[j] == m && j < i) {
+                        return Some(low);
+                    }
+                    low = low.min(v[j]);
+                }
+                None
+            };
+            let level = match (dip(-1), dip(1)) {
+                (Some(a), Some(b)) => a.max(b),
+                (Some(a), None) | (None, Some(a)) => a,
+                (None, None) => 0.0,
+            };
+            // The parabola through the neighbours refines the position and the value.
+            let (mut pos, mut mag) = ([run[i].x, run[i].y], m);
+            if let (Some(l), Some(r)) = (l, r) {
+                let (a, b) = (v[l], v[r]);
+                let den = a - 2.0 * m + b;
+                if den < 0.0 {
+                    let u = (0.5 * (a - b) / den).clamp(-0.5, 0.5);
+                    mag = m - 0.25 * (a - b) * u;
+                    let nb = if u < 0.0 { &run[l] } else { &run[r] };
+                    let w = u.abs();
+                    pos = [
+                        run[i].x + w * (nb.x - run[i].x),
+                        run[i].y + w * (nb.y - run[i].y),
+                    ];
+                }
+            }
+            out.push(CurveMax {
+                at: pos,
+                magnitude: mag.max(m),
+                material: run[i].material,
+                persistence: (m - level) / m,
+            });
+        }
+        start = end;
+    }
+    out
+}
+
+/// A hot spot at `at` in material `m`.
+fn spot(design: &Design, corners: &[Point], reach: f64, at: Point, mag: f64, m: u16) -> Hotspot {
+    let (material, strength) = crate::post::material_of(design, m);
+    Hotspot {
+        magnitude: mag,
+        x: at[0],
+        y: at[1],
+        material,
+        strength,
+        margin: strength.map(|s| s / mag),
+        singular: corners
+            .iter()
+            .any(|c| (c[0] - at[0]).hypot(c[1] - at[1]) <= reach),
+        error_estimate: None,
+    }
+}
+
+/// Nodes whose field is read better at the surface they face: those linked to a conductor
+/// with sampled (closed) outline.
+fn faces_sampled_surface(field: &FieldEval, samples: &[SurfaceSample]) -> Vec<bool> {
+    let mut sampled = vec![false; field.op.n_conductors];
+    for s in samples {
+        if let SurfaceKind::Conductor(k) = s.kind {
+            sampled[k] = true;
+        }
+    }
+    let mut out = vec![false; field.op.grid.len()];
+    for l in &field.op.links {
+        if (l.target as usize) < sampled.len() && sampled[l.target as usize] {
+            out[l.node as usize] = true;
+        }
+    }
+    out
+}
+
+/// Every place the field is read: (position, |E|, material, persistence). Lattice nodes with
+/// their persistence on the lattice, surface maxima with theirs along their curve, and every
+/// other surface sample with persistence 0 (a candidate for the worst margin only).
+fn candidates(field: &FieldEval, samples: &[SurfaceSample]) -> Vec<(Point, f64, u16, f64)> {
+    let g = &field.op.grid;
+    let skip = faces_sampled_surface(field, samples);
+    let mag: Vec<f64> = (0..g.len())
+        .map(|p| {
+            if skip[p] {
+                f64::NAN
+            } else {
+                field.magnitude(p)
+            }
+        })
+        .collect();
+    let node_xy = |p: usize| [g.x(p % g.nx), g.y(p / g.nx)];
+    let mut persistence = vec![0.0; g.len()];
+    for pk in crate::peaks::peaks(&mag, g.nx, g.ny) {
+        persistence[pk.node] = pk.persistence;
+    }
+    let mut cand: Vec<(Point, f64, u16, f64)> = (0..g.len())
+        .filter(|&p| mag[p].is_finite() && mag[p] > 0.0)
+        .map(|p| (node_xy(p), mag[p], field.raster.material[p], persistence[p]))
+        .collect();
+    let loops: Vec<bool> = {
+        let mut c = vec![false; samples.last().map_or(0, |s| s.curve + 1)];
+        for s in samples {
+            c[s.curve] = !matches!(s.kind, SurfaceKind::Side(_));
+        }
+        c
+    };
+    cand.extend(
+        curve_maxima(samples, |c| loops[c])
+            .into_iter()
+            .map(|m| (m.at, m.magnitude, m.material, m.persistence)),
+    );
+    cand.extend(
+        samples
+            .iter()
+            .filter(|s| s.magnitude().is_finite())
+            .map(|s| ([s.x, s.y], s.magnitude(), s.material, 0.0)),
+    );
+    cand
+}
+
+/// True when some material of the design has a breakdown strength.
+pub fn any_strength(design: &Design) -> bool {
+    design.background.strength.is_some() || design.dielectrics.iter().any(|d| d.strength.is_some())
+}
+
+/// Ranking of hot spots: by margin (lowest first, those without a strength after them by
+/// field) when any material has a strength, else by field; ties by position.
+pub fn rank(spots: &mut [Hotspot], by_margin: bool) {
+    spots.sort_by(|a, b| {
+        let key = |h: &Hotspot| match (by_margin, h.margin) {
+            (true, Some(m)) => (0, m),
+            (true, None) => (1, -h.magnitude),
+            (false, _) => (0, -h.magnitude),
+        };
+        let (ka, kb) = (key(a), key(b));
+        ka.0.cmp(&kb.0)
+            .then(ka.1.total_cmp(&kb.1))
+            .then(a.x.total_cmp(&b.x))
+            .then(a.y.total_cmp(&b.y))
+    });
+}
+
+/// The peak field and the ranked hot spots, from the lattice and the surfaces together. With
+/// a strength anywhere, the point of lowest margin is always among the hot spots (whatever
+/// its persistence) and heads them.
+pub fn peak_and_hotspots(
+    field: &FieldEval,
+    design: &Design,
+    corners: &[Point],
+    params: &HotspotParams,
+    samples: &[SurfaceSample],
+) -> (Option<Hotspot>, Vec<Hotspot>) {
+    let g = &field.op.grid;
+    let h = g.hx.max(g.hy);
+    let reach = params.corner_cells * h;
+    let mut cand = candidates(field, samples);
+    let strength = |m: u16| crate::post::material_of(design, m).1;
+    let by_margin = any_strength(design);
+    let key = |c: &(Point, f64, u16, f64)| match (by_margin, strength(c.2)) {
+        (true, Some(s)) => (0, s / c.1),
+        (true, None) => (1, -c.1),
+        (false, _) => (0, -c.1),
+    };
+    let peak = cand
+        .iter()
+        .max_by(|a, b| {
+            a.1.total_cmp(&b.1)
+                .then(b.0[0].total_cmp(&a.0[0]))
+                .then(b.0[1].total_cmp(&a.0[1]))
+        })
+        .map(|c| spot(design, corners, reach, c.0, c.1, c.2));
+    cand.sort_by(|a, b| {
+        let (ka, kb) = (key(a), key(b));
+        ka.0.cmp(&kb.0)
+            .then(ka.1.total_cmp(&kb.1))
+            .then(a.0[0].total_cmp(&b.0[0]))
+            .then(a.0[1].total_cmp(&b.0[1]))
+    });
+    if by_margin {
+        if let Some(first) = cand.first_mut() {
+            first.3 = 1.0;
+        }
+    }
+    let sep = params.separation_cells * h;
+    let mut chosen: Vec<(Point, f64, u16, f64)> = Vec::new();
+    for c in cand.into_iter().filter(|c| c.3 >= params.persistence) {
+        if chosen.len() >= params.count {
+            break;
+        }
+        if chosen
+            .iter()
+            .all(|q| (q.0[0] - c.0[0]).hypot(q.0[1] - c.0[1]) >= sep)
+        {
+            chosen.push(c);
+        }
+    }
+    let spots = chosen
+        .into_iter()
+        .map(|c| spot(design, corners, reach, c.0, c.1, c.2))
+        .collect();
+    (peak, spots)
+}
+
+/// The field a coarser solve gives near `at` in material `m`: the largest of its surface
+/// samples and lattice readings within `radius` (its own cell and a half).
+fn coarse_value(coarse: &[(Point, f64, u16, f64)], at: Point, m: u16, radius: f64) -> Option<f64> {
+    coarse
+        .iter()
+        .filter(|c| c.2 == m && (c.0[0] - at[0]).hypot(c.0[1] - at[1]) <= radius)
+        .map(|c| c.1)
+        .reduce(f64::max)
+}
+
+/// Error estimates of the peak and the hot spots from the solve on a coarser lattice
+/// (`coarse`, with its surface samples), Richardson-style with `ratio` and `order` as for the
+/// capacitance: `|E_h - E_coarse| / (ratio^order - 1)`, where `E_coarse` is the largest
+/// coarse reading within one and a half coarse cells of the point in the same material. The
+/// margins then use the field plus its estimated error (never optimistic because of the
+/// grid), and the hot spots are ranked again.
+pub fn estimate_errors(
+    peak: &mut Option<Hotspot>,
+    spots: &mut [Hotspot],
+    design: &Design,
+    coarse: &FieldEval,
+    coarse_samples: &[SurfaceSample],
+    ratio: f64,
+    order: f64,
+) {
+    let cg = &coarse.op.grid;
+    let radius = 1.5 * cg.hx.max(cg.hy);
+    let cand = candidates(coarse, coarse_samples);
+    let factor = ratio.powf(order) - 1.0;
+    let material = |name: &str| -> u16 {
+        design
+            .dielectrics
+            .iter()
+            .position(|d| d.name == name)
+            .map_or(0, |k| k as u16 + 1)
+    };
+    let apply = |h: &mut Hotspot| {
+        let m = material(&h.material);
+        h.error_estimate =
+            coarse_value(&cand, [h.x, h.y], m, radius).map(|c| (h.magnitude - c).abs() / factor);
+        h.margin = h
+            .strength
+            .map(|s| s / (h.magnitude + h.error_estimate.unwrap_or(0.0)));
+    };
+    if let Some(p) = peak.as_mut() {
+        apply(p);
+    }
+    spots.iter_mut().for_each(apply);
+    rank(spots, any_strength(design));
+}
