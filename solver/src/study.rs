@@ -20,8 +20,8 @@ use crate::post::{self, Hotspot, HotspotParams, ProbeResult, SurfacePoint};
 use crate::raster::{self, Raster, NO_CONDUCTOR};
 use crate::solvers::{self, Info, Method, Params};
 use crate::surface::{self, SurfaceParams, SurfaceSample};
-use crate::warning::{NonFiniteIn, SolveFailure, Warning};
 use crate::surface_results;
+use crate::warning::{NonFiniteIn, SolveFailure, Warning};
 use crate::EPS0;
 
 /// What to run.
