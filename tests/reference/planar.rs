@@ -537,3 +537,57 @@ rect = { x = [0.0, 1.0], y = [0.0, 2.0] }
         "reported peak {peak:e}, want {want:e}"
     );
 }
+
+#[test]
+fn error_estimates_of_surface_fields_are_within_three_times_the_true_error() {
+    use fieldgrid_solver::study::{self, StudyParams};
+    let with_estimate = StudyParams {
+        error_estimate: true,
+        ..fieldgrid_tests::params(Method::default())
+    };
+    // Coax (Griffiths 2017, sec. 2.2.3; common practice): E(a) = V / (a ln(b/a)).
+    let want = 1.0 / (1e-3 * 2.5f64.ln());
+    for n in [10.0, 20.0] {
+        let s = study::run(&design(&coax_off(n)), &with_estimate).unwrap();
+        let p = s.peak_field.as_ref().unwrap();
+        let (err, est) = ((p.magnitude - want).abs(), p.error_estimate.unwrap());
+        eprintln!(
+            "coax, {n} cells: peak error {err:.3e}, estimate {est:.3e}, ratio {:.2}",
+            est / err
+        );
+        assert!(
+            est <= 3.0 * err && est >= err / 3.0,
+            "estimate {est:e}, error {err:e}"
+        );
+    }
+    // The dielectric sleeve (series cylindrical capacitors, Griffiths 2017, sec. 4.4): the
+    // interface hot spots never read low by more than their own estimate.
+    let (a, c, b, e1): (f64, f64, f64, f64) = (1e-3, 1.6e-3, 2.5e-3, 4.0);
+    let lam = 2.0 * PI * EPS0 / ((c / a).ln() / e1 + (b / c).ln());
+    for n in [10.0, 20.0] {
+        let s = study::run(&design(&coax_sleeve(n)), &with_estimate).unwrap();
+        let mut seen = 0;
+        for h in &s.hotspots {
+            let r = (h.x - 0.0137e-3).hypot(h.y + 0.0291e-3);
+            if (r - c).abs() > 1e-6 {
+                continue;
+            }
+            seen += 1;
+            let eps = if h.material == "sleeve" { e1 } else { 1.0 };
+            let want = lam / (2.0 * PI * EPS0 * eps * c);
+            let est = h.error_estimate.unwrap();
+            eprintln!(
+                "sleeve, {n} cells, {}: error {:.3e}, estimate {est:.3e}",
+                h.material,
+                h.magnitude - want
+            );
+            assert!(
+                h.magnitude + est >= want,
+                "{}: {} + {est} < {want}",
+                h.material,
+                h.magnitude
+            );
+        }
+        assert!(seen > 0, "no hot spot on the interface: {:?}", s.hotspots);
+    }
+}
