@@ -18,6 +18,7 @@ pub mod geometry;
 pub mod grid;
 pub mod line;
 pub mod line_study;
+mod links;
 pub mod open;
 pub mod operator;
 pub mod parallel;

@@ -25,6 +25,11 @@ pub fn sum_by(n: usize, f: impl Fn(usize) -> f64 + Sync) -> f64 {
     partial.iter().sum()
 }
 
+/// Sum of `values` (for example per-row partial sums), deterministic.
+pub fn sum(values: &[f64]) -> f64 {
+    sum_by(values.len(), |j| values[j])
+}
+
 /// Dot product, deterministic.
 pub fn dot(a: &[f64], b: &[f64]) -> f64 {
     assert_eq!(a.len(), b.len());

@@ -5,14 +5,14 @@
 //! prolongation and solves the coarsest level directly, so `z = M^-1 r` is linear in r with M
 //! symmetric positive definite. Nothing in it depends on the thread count.
 
+use super::hierarchy::Hierarchy;
 use super::interpolation::interior_count;
-use super::krylov::total;
 use super::level::Shared;
 use super::smoother::{four_colour_sweep, red_black_stages, wavefront, Stage};
 use super::transfer::{
     check_fine, prolong_coarse, prolong_fine_row, restrict_coarse, FineRestrict, PARALLEL_MIN,
 };
-use super::Hierarchy;
+use crate::parallel;
 use crate::stencil::Stencil5;
 
 /// Scratch vectors of one solve (one set serves any number of right-hand sides in turn).
@@ -91,7 +91,7 @@ pub(super) fn vcycle(
         for (j, s) in partial.iter_mut().enumerate() {
             *s = row_dot(nx, r, z.as_ptr(), j);
         }
-        return total(partial);
+        return parallel::sum(partial);
     }
     assert_eq!(ws.sbuf.len(), interior_count(a.nx) * interior_count(a.ny));
     assert_eq!(ws.b[0].len(), h.levels[0].padded_len());
@@ -168,5 +168,5 @@ pub(super) fn vcycle(
         let refs: Vec<Stage> = stages.iter().map(|s| &**s as Stage).collect();
         wavefront(a.ny, big, &refs);
     }
-    total(partial)
+    parallel::sum(partial)
 }

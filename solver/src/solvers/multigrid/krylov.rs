@@ -11,10 +11,10 @@
 //! depend on the thread count.
 
 use super::cycle::{vcycle, Workspace};
+use super::hierarchy::Hierarchy;
 use super::level::Shared;
 use super::smoother::{wavefront, Stage};
 use super::transfer::{each, PARALLEL_MIN};
-use super::Hierarchy;
 use crate::parallel;
 use crate::solvers::{
     curvature_breakdown, krylov_outcome, Info, Params, Progress, SolveError, StopReason,
@@ -76,11 +76,6 @@ unsafe fn apply_row(a: &Stencil5, x: *const f64, y: *mut f64, j: usize) -> f64 {
     dot
 }
 
-/// Sum of per-row partial sums, in row order.
-pub(super) fn total(rows: &[f64]) -> f64 {
-    parallel::sum_by(rows.len(), |j| rows[j])
-}
-
 /// `p = z + beta p` and then `w = A p` (w shares its storage with z), returning `p . A p`.
 fn direction_and_apply(
     a: &Stencil5,
@@ -105,7 +100,7 @@ fn direction_and_apply(
     };
     let stages: [Stage; 2] = [&update, &apply];
     wavefront(a.ny, a.len() >= PARALLEL_MIN, &stages);
-    total(partial)
+    parallel::sum(partial)
 }
 
 /// `x += alpha p`, `r -= alpha w`, returning `r . r`.
@@ -135,7 +130,7 @@ fn step(
             *sp.get().add(j) = s;
         }
     });
-    total(partial)
+    parallel::sum(partial)
 }
 
 /// Solves `A x = b` by CG preconditioned with one V-cycle of `h` per iteration.
