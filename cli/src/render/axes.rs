@@ -3,13 +3,24 @@
 //! Invariants: steps are 1, 2 or 5 times a power of ten; ticks are whole multiples of the step
 //! inside the closed range (to a relative 1e-9); labels of one axis share one number of
 //! decimals; negative numbers use the minus sign U+2212; SI prefixes run from femto to peta.
+//! Every function is total over f64: a range too narrow, too wide or not finite for round
+//! steps gets no ticks (or its ends), never a panic and never an unbounded list.
 
-/// The 1-2-5 step nearest above `raw` (> 0).
+/// Smallest and largest step: 1-2-5 steps stay normal, finite numbers between them.
+const STEP_RANGE: [f64; 2] = [1e-300, 1e300];
+
+/// Most multiples one scale may have.
+const MAX_MULTIPLES: f64 = 100_000.0;
+
+/// The 1-2-5 step nearest above `raw`; `raw` outside [1e-300, 1e300] (or NaN) gives the
+/// nearer end of that range.
 pub fn nice_step(raw: f64) -> f64 {
-    assert!(
-        raw > 0.0 && raw.is_finite(),
-        "step must be positive, got {raw}"
-    );
+    if raw.is_nan() || raw <= STEP_RANGE[0] {
+        return STEP_RANGE[0];
+    }
+    if raw >= STEP_RANGE[1] {
+        return STEP_RANGE[1];
+    }
     let e = raw.log10().floor();
     let p = 10f64.powf(e);
     let m = raw / p;
@@ -25,11 +36,21 @@ pub fn nice_step(raw: f64) -> f64 {
     k * p
 }
 
-/// Multiples of `step` inside [lo, hi] (ends included to a relative 1e-9).
+/// Multiples of `step` inside [lo, hi] (ends included to a relative 1e-9); none when the
+/// numbers are not finite, the step not positive, the multiples not distinct in f64 (beyond
+/// 2^53 steps from zero) or more than 100 000.
 pub fn multiples(lo: f64, hi: f64, step: f64) -> Vec<f64> {
+    if !(lo.is_finite() && hi.is_finite() && step > 0.0 && step.is_finite()) {
+        return Vec::new();
+    }
     let slack = 1e-9 * (hi - lo).abs().max(step);
-    let k0 = ((lo - slack) / step).ceil() as i64;
-    let k1 = ((hi + slack) / step).floor() as i64;
+    let a = ((lo - slack) / step).ceil();
+    let b = ((hi + slack) / step).floor();
+    const DISTINCT: f64 = 9.0e15;
+    if !(a.abs() < DISTINCT && b.abs() < DISTINCT) || b - a > MAX_MULTIPLES {
+        return Vec::new();
+    }
+    let (k0, k1) = (a as i64, b as i64);
     (k0..=k1)
         .map(|k| if k == 0 { 0.0 } else { k as f64 * step })
         .collect()
@@ -38,14 +59,19 @@ pub fn multiples(lo: f64, hi: f64, step: f64) -> Vec<f64> {
 /// Round ticks over [lo, hi], at most `max` of them (at least 2 when the range allows):
 /// returns the step and the ticks.
 pub fn ticks(lo: f64, hi: f64, max: usize) -> (f64, Vec<f64>) {
-    let span = (hi - lo).abs().max(f64::MIN_POSITIVE);
+    let span = (hi - lo).abs();
     let mut step = nice_step(span / max.max(1) as f64);
     loop {
         let t = multiples(lo, hi, step);
         if t.len() <= max.max(2) {
             return (step, t);
         }
-        step = nice_step(step * 1.5);
+        let wider = nice_step(step * 1.5);
+        if wider <= step {
+            // The largest step still gives too many: no ticks rather than a crowded axis.
+            return (step, Vec::new());
+        }
+        step = wider;
     }
 }
 
@@ -163,6 +189,36 @@ pub fn si(v: f64) -> String {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn ticks_of_subnormal_huge_and_non_finite_ranges_do_not_panic() {
+        let cases = [
+            (0.0, 5e-324),
+            (0.0, 2e-323),
+            (5e-324, 5e-324),
+            (1.0, 1.0 + 1e-15),
+            (1e6, 1e6 + 1e-300),
+            (-1e308, 1e308),
+            (f64::MIN, f64::MAX),
+            (0.0, f64::INFINITY),
+            (f64::NAN, 1.0),
+            (3.0, 3.0),
+        ];
+        for (lo, hi) in cases {
+            for max in [0, 1, 2, 10] {
+                let (step, t) = ticks(lo, hi, max);
+                assert!(step > 0.0 && step.is_finite(), "{lo} {hi}: step {step}");
+                assert!(t.len() <= max.max(2) + 1, "{lo} {hi}: {} ticks", t.len());
+                for v in &t {
+                    assert!(v.is_finite() && *v >= lo.min(hi) - step && *v <= lo.max(hi) + step);
+                    let _ = tick_label(*v, step);
+                }
+            }
+        }
+        assert_eq!(nice_step(0.0), 1e-300);
+        assert_eq!(nice_step(f64::INFINITY), 1e300);
+        assert!(multiples(0.0, 1e300, 1e-300).is_empty());
+    }
 
     #[test]
     fn steps_are_one_two_five() {

@@ -3,6 +3,7 @@
 //! tests, one module each. The helpers and the design they share are here.
 
 mod convergence;
+mod extreme_values;
 mod fuzz_findings;
 mod interrupted;
 mod refusals;
