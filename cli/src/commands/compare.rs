@@ -87,8 +87,9 @@ pub fn classify(path: &Path) -> Result<(InputKind, PathBuf), Failure> {
         Some("json") => Ok((InputKind::Summary, path.to_path_buf())),
         Some("toml") => Ok((InputKind::Design, path.to_path_buf())),
         _ => {
-            let text = std::fs::read_to_string(path)
-                .map_err(|e| Failure::input(format!("{}: cannot read: {e}", path.display())))?;
+            let text =
+                super::read_limited(path, super::MAX_DESIGN_BYTES.max(super::MAX_RESULT_BYTES))
+                    .map_err(|e| Failure::input(format!("{}: cannot read: {e}", path.display())))?;
             if text.trim_start().starts_with('{') {
                 Ok((InputKind::Summary, path.to_path_buf()))
             } else {
@@ -100,7 +101,7 @@ pub fn classify(path: &Path) -> Result<(InputKind, PathBuf), Failure> {
 
 /// Reads a summary.json.
 pub fn read_summary(path: &Path) -> Result<Summary, Failure> {
-    let text = std::fs::read_to_string(path)
+    let text = super::read_limited(path, super::MAX_RESULT_BYTES)
         .map_err(|e| Failure::input(format!("{}: cannot read: {e}", path.display())))?;
     let s: Summary = serde_json::from_str(&text).map_err(|e| {
         Failure::input(format!(
@@ -121,6 +122,24 @@ pub fn read_summary(path: &Path) -> Result<Summary, Failure> {
             "{}: capacitance.matrix is not {n} x {n} (one row and column per name)",
             path.display()
         )));
+    }
+    // Changes are matched by name: a name given twice would pair the wrong entries.
+    let names = [
+        ("capacitance.names", s.capacitance.names.clone()),
+        (
+            "conductors",
+            s.conductors.iter().map(|c| c.name.clone()).collect(),
+        ),
+    ];
+    for (key, list) in names {
+        let mut seen = std::collections::HashSet::new();
+        if let Some(d) = list.iter().find(|n| !seen.insert(n.as_str())) {
+            return Err(Failure::input(format!(
+                "{}: {key} names `{d}` twice; changes are matched by name, so names must be \
+                 unique",
+                path.display()
+            )));
+        }
     }
     Ok(s)
 }

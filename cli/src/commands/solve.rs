@@ -355,7 +355,11 @@ fn report(sol: &Solution, summary: &Summary, out: &OutDir) -> String {
 }
 
 /// `v` to six decimals, trailing zeros dropped: "12", "4.334617".
+/// Magnitudes outside [1e-4, 1e9) in exponent form ("1e300", not 301 digits).
 fn trimmed(v: f64) -> String {
+    if v != 0.0 && !(1e-4..1e9).contains(&v.abs()) {
+        return format!("{v:e}");
+    }
     let s = format!("{v:.6}");
     let s = s.trim_end_matches('0').trim_end_matches('.');
     if s == "-0" {

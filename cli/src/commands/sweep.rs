@@ -357,7 +357,7 @@ pub fn run(args: &SweepArgs) -> Result<u8, Failure> {
         let sol = with_threads(args.opts.threads, || study::run(&src.design, &params))?
             .map_err(|e| super::solve::study_failure(src, e))?;
         let mut row = vec![p.to_string()];
-        row.extend(values.iter().map(|v| format!("{v}")));
+        row.extend(values.iter().map(|&v| value_text(v)));
         for r in &sol.capacitance.matrix {
             row.extend(r.iter().map(|&v| num(v)));
         }
@@ -407,6 +407,16 @@ pub fn run(args: &SweepArgs) -> Result<u8, Failure> {
     })
 }
 
+/// A parameter value as written in the table and messages: the shortest decimal form, in
+/// exponent form for magnitudes outside [1e-9, 1e15) (1e300 is not written as 301 digits).
+pub fn value_text(v: f64) -> String {
+    if v != 0.0 && !(1e-9..1e15).contains(&v.abs()) {
+        format!("{v:e}")
+    } else {
+        format!("{v}")
+    }
+}
+
 fn fixed_names(s: &DesignSource) -> Vec<String> {
     s.design
         .conductors
@@ -420,7 +430,7 @@ fn point_failure(p: usize, vary: &[Vary], values: &[f64], f: Failure) -> Failure
     let at: Vec<String> = vary
         .iter()
         .zip(values)
-        .map(|(v, x)| format!("{} = {x}", v.name))
+        .map(|(v, &x)| format!("{} = {}", v.name, value_text(x)))
         .collect();
     let message = f.message.strip_prefix("error: ").unwrap_or(&f.message);
     Failure {
@@ -435,7 +445,7 @@ fn progress_bar(done: usize, total: usize, p: usize, vary: &[Vary], values: &[f6
     let at: Vec<String> = vary
         .iter()
         .zip(values)
-        .map(|(v, x)| format!("{}={x}", v.name))
+        .map(|(v, &x)| format!("{}={}", v.name, value_text(x)))
         .collect();
     let mut line = format!(
         "[{}{}] {done}/{total}  point {p}: {}",
@@ -465,7 +475,7 @@ fn read_dir(dir: &Path) -> Result<Option<(SweepFile, Rows)>, Failure> {
         }
         return Ok(None);
     }
-    let text = std::fs::read_to_string(&json)
+    let text = super::read_limited(&json, super::MAX_RESULT_BYTES)
         .map_err(|e| Failure::input(format!("{}: cannot read: {e}", json.display())))?;
     let def: SweepFile = serde_json::from_str(&text).map_err(|e| {
         Failure::input(format!(

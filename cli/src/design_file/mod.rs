@@ -53,6 +53,12 @@ pub struct DesignSource {
 }
 
 impl DesignSource {
+    /// The length of the file text, bytes (the memory guard counts what the text holds:
+    /// vertices, parameters, names).
+    pub fn text_bytes(&self) -> usize {
+        self.text.len()
+    }
+
     /// An error about `key` of `item` placed at that key in the file (or at the item's header
     /// when the key is not written there), for checks made after reading (for example a grid
     /// too large for memory: `error_at(Item::Grid, "cell", ...)`).

@@ -6,6 +6,10 @@
 //! mode, then parameters, then the grid, whose cell size ties SVG flattening); names are
 //! unique within each kind of item; an axisymmetric design's left side is the axis.
 
+/// Longest name of a conductor, dielectric, probe or charge, bytes (names are written into
+/// every row of the result tables and onto the pictures).
+pub const MAX_NAME_BYTES: usize = 200;
+
 use std::collections::HashMap;
 
 use fieldgrid_solver::design::{
@@ -328,6 +332,16 @@ impl Reader<'_> {
         let s = self.string(&e.node, &key)?;
         if s.trim().is_empty() {
             return Err(self.err(&e.node.span, &key, "the name is empty"));
+        }
+        if s.len() > MAX_NAME_BYTES {
+            return Err(self.err(
+                &e.node.span,
+                &key,
+                format!(
+                    "the name is {} bytes long; names are at most {MAX_NAME_BYTES}",
+                    s.len()
+                ),
+            ));
         }
         if s.chars().any(char::is_control) {
             return Err(self.err(&e.node.span, &key, "the name contains a control character"));

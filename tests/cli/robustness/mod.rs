@@ -2,6 +2,7 @@
 //! non-convergence, reproducible numbers, and the fuzzing findings replayed as regression
 //! tests, one module each. The helpers and the design they share are here.
 
+mod bounded_inputs;
 mod convergence;
 mod extreme_values;
 mod fuzz_findings;
