@@ -4,8 +4,9 @@
 //!
 //! - `FIELDGRID_FAULT_INJECTION_TEST_ONLY_STOP_AT=K` with
 //!   `FIELDGRID_FAULT_INJECTION_TEST_ONLY_SIGNAL=TERM|INT|HUP|KILL`: the process sends itself
-//!   that signal at its K-th interruption point (counted from 1: each file write begun and
-//!   finished, each step of replacing the directory, each sweep point);
+//!   that signal at its K-th interruption point (counted from 1: the results directory
+//!   prepared and the solve about to start, each file write begun and finished, and each step
+//!   of putting the set in place);
 //! - `FIELDGRID_FAULT_INJECTION_TEST_ONLY_FAIL_WRITE=N`: the N-th file write (counted from 1)
 //!   fails as on a full disk.
 //!

@@ -362,6 +362,7 @@ impl OutDir {
         if let Err(e) = written {
             return Err(Failure::input(format!("--out {shown}: not writable: {e}")));
         }
+        fault::step(false);
         Ok(out)
     }
 
@@ -516,8 +517,7 @@ impl OutDir {
         Ok(())
     }
 
-    /// Unregisters this directory and releases the lock (removing an uncommitted staging
-    /// directory first).
+    /// Releases the lock (removing an uncommitted staging directory first).
     fn finish(&mut self) {
         let mut p = pending();
         // Only ever the staging directory: `dir` is `--out` itself until the staging
@@ -525,11 +525,7 @@ impl OutDir {
         if self.staged && !self.committed && self.dir != self.target {
             let _ = fs::remove_dir_all(&self.dir);
         }
-        let dir = self.dir.clone();
-        let staged = self.staged;
-        let shown = self.path.clone();
-        p.sets
-            .retain(|s| !(s.shown == shown && s.staging.as_ref() == staged.then_some(&dir)));
+        // The set stays registered: a signal arriving now is still told what `--out` holds.
         if let Some(l) = self.lock.take() {
             p.locks.retain(|x| x != l.path());
             l.release();

@@ -5,11 +5,12 @@
 mod bounded_inputs;
 mod convergence;
 mod extreme_values;
+mod fault_injection;
 mod fuzz_findings;
-mod interrupted;
+pub(crate) mod interrupted;
 mod refusals;
 mod reproducible;
-mod result_sets;
+pub(crate) mod result_sets;
 
 use clap::Parser;
 use fieldgrid_cli::args::{Cli, Command as Cmd};

@@ -136,7 +136,10 @@ fn memory_guard_refuses_before_allocating_and_reports_the_estimate() {
     assert!(!out.exists(), "a refused sweep point must leave no output");
     // The field table costs more per node, and the guard counts it.
     let g = fieldgrid_solver::grid::Grid::fit([0.0, 4e-3], [0.0, 2e-3], 1e-4).unwrap();
-    let plain = commands::estimate_mib(&g, commands::BYTES_PER_NODE);
+    // The design text counts too (vertices, parameters, names).
+    let text = std::fs::metadata(&plates).unwrap().len() as f64;
+    let plain = commands::estimate_mib(&g, commands::BYTES_PER_NODE)
+        + text * commands::BYTES_PER_TEXT_BYTE / (1024.0 * 1024.0);
     let limit = format!("{}", plain + 0.01);
     let args = [
         "solve",
