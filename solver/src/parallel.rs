@@ -1,8 +1,9 @@
-//! Deterministic parallel reductions: results are bit-identical whatever the thread count.
+//! Deterministic parallel work: results are bit-identical whatever the thread count.
 //!
-//! Invariant: a reduction splits its input into fixed chunks of [`CHUNK`] elements (never a
+//! Invariants: a reduction splits its input into fixed chunks of [`CHUNK`] elements (never a
 //! function of the thread count), reduces each chunk sequentially, and adds the chunk partial
-//! sums in chunk order.
+//! sums in chunk order; per-row work ([`for_each_row`]) writes each lattice row from that row's
+//! inputs alone, so the order in which threads take rows cannot show in the result.
 
 use rayon::prelude::*;
 
@@ -28,6 +29,14 @@ pub fn sum_by(n: usize, f: impl Fn(usize) -> f64 + Sync) -> f64 {
 /// Sum of `values` (for example per-row partial sums), deterministic.
 pub fn sum(values: &[f64]) -> f64 {
     sum_by(values.len(), |j| values[j])
+}
+
+/// Calls `f(j, row)` for every row `j` of `out` (rows of `nx` elements), in parallel.
+pub fn for_each_row<T: Send>(out: &mut [T], nx: usize, f: impl Fn(usize, &mut [T]) + Sync) {
+    assert!(nx > 0 && out.len() % nx == 0, "whole rows of nx elements");
+    out.par_chunks_mut(nx)
+        .enumerate()
+        .for_each(|(j, row)| f(j, row));
 }
 
 /// Dot product, deterministic.

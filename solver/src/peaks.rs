@@ -12,9 +12,19 @@
 //! Computing persistent homology, Discrete Comput. Geom. 33 (2005) 249-274; the
 //! union-find sweep over sorted values is the zero-dimensional case, cited from memory).
 //!
+//! The sweep orders the nodes lazily: one counting pass places them in buckets of nearby
+//! values (the leading bits of the value, which order positive doubles), and a bucket is sorted
+//! only when the sweep reaches it. A caller that needs only the highest persistent peaks
+//! ([`persistent`]) sorts and joins only the nodes above the level where those peaks are
+//! decided: a peak of height m is known to reach persistence q once the sweep level is below
+//! m (1 - q). The work is linear in the nodes plus the sorting of the buckets swept.
+//!
 //! Invariants: nodes are 8-connected; values that are not finite or not positive (conductor
 //! interiors, fixed nodes) are not part of the lattice; ties in value are broken by node index,
-//! lower first, so that the result does not depend on anything but the values.
+//! lower first, so that the result does not depend on anything but the values (nor on how the
+//! sweep is bucketed).
+
+use std::cmp::Ordering;
 
 /// One peak: node index (i + j*nx) and its relative persistence in (0, 1].
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -27,6 +37,51 @@ pub struct Peak {
 
 const NONE: u32 = u32::MAX;
 
+/// A maximum met by the sweep, in sweep order (highest first).
+#[derive(Clone, Copy, Debug)]
+struct Born {
+    node: u32,
+    /// Relative persistence once the region has ended; `None` while it lives. A region that
+    /// ends at its own height (a plateau's second node) is no peak: [`ENDED_FLAT`].
+    end: Option<f64>,
+}
+
+/// Persistence marker of a region that ended at its own height: not a peak.
+const ENDED_FLAT: f64 = -1.0;
+
+/// The union-find sweep from the highest value down.
+struct Sweep<'a> {
+    values: &'a [f64],
+    nx: usize,
+    ny: usize,
+    /// The lattice's nodes, bucket by bucket from the highest values down; within a bucket
+    /// by index until the sweep sorts it.
+    order: Vec<u32>,
+    /// Bucket r (the r-th highest) is `order[starts[r]..starts[r + 1]]`.
+    starts: Vec<u32>,
+    /// The bucket being swept; `order[..end]` is sorted, `next` the first node not joined.
+    bucket: usize,
+    end: usize,
+    next: usize,
+    /// `NONE` until the node has joined; a root is its own parent.
+    parent: Vec<u32>,
+    /// Index into `born` of the peak of each root's region (its highest node).
+    peak_of: Vec<u32>,
+    born: Vec<Born>,
+}
+
+/// Whether a value belongs to the lattice.
+fn on_lattice(v: f64) -> bool {
+    v.is_finite() && v > 0.0
+}
+
+/// Sweep order: higher value first, equal values by lower index.
+fn order(values: &[f64], a: u32, b: u32) -> Ordering {
+    values[b as usize]
+        .total_cmp(&values[a as usize])
+        .then(a.cmp(&b))
+}
+
 fn find(parent: &mut [u32], mut p: u32) -> u32 {
     while parent[p as usize] != p {
         let gp = parent[parent[p as usize] as usize];
@@ -36,41 +91,77 @@ fn find(parent: &mut [u32], mut p: u32) -> u32 {
     p
 }
 
-/// Every local maximum of `values` on an `nx` x `ny` lattice with its relative persistence,
-/// highest value first.
-pub fn peaks(values: &[f64], nx: usize, ny: usize) -> Vec<Peak> {
-    assert_eq!(values.len(), nx * ny, "one value per node");
-    assert!(
-        values.len() < NONE as usize,
-        "lattice too large for u32 indices"
-    );
-    let mut order: Vec<u32> = (0..values.len() as u32)
-        .filter(|&p| {
-            let v = values[p as usize];
-            v.is_finite() && v > 0.0
-        })
-        .collect();
-    // Highest first; equal values by index, lower first.
-    order.sort_unstable_by(|&a, &b| {
-        values[b as usize]
-            .total_cmp(&values[a as usize])
-            .then(a.cmp(&b))
-    });
-    // parent[p]: NONE until p is added; a root's `top` is the highest node of its region,
-    // which (by the sweep order) is the region's first node.
-    let mut parent = vec![NONE; values.len()];
-    let mut top = vec![NONE; values.len()];
-    let mut out: Vec<Peak> = Vec::new();
-    // rank[k] of a node: its position in `order`, to compare peaks without re-reading values.
-    let mut rank = vec![NONE; values.len()];
-    for (k, &p) in order.iter().enumerate() {
-        rank[p as usize] = k as u32;
+impl<'a> Sweep<'a> {
+    fn new(values: &'a [f64], nx: usize, ny: usize) -> Sweep<'a> {
+        assert_eq!(values.len(), nx * ny, "one value per node");
+        assert!(
+            values.len() < NONE as usize,
+            "lattice too large for u32 indices"
+        );
+        // A positive finite double's bits order like its value; the leading `bits` of the 63
+        // that vary pick the bucket (about one bucket per four nodes, at most 2^20).
+        let bits = (values.len() / 4).max(2).ilog2().clamp(4, 20);
+        let shift = 63 - bits;
+        let buckets = 1usize << bits;
+        let rank = |v: f64| buckets - 1 - (v.to_bits() >> shift) as usize;
+        let mut starts = vec![0u32; buckets + 1];
+        for &v in values.iter().filter(|v| on_lattice(**v)) {
+            starts[rank(v) + 1] += 1;
+        }
+        for r in 0..buckets {
+            starts[r + 1] += starts[r];
+        }
+        let mut fill = starts.clone();
+        let mut order = vec![0u32; starts[buckets] as usize];
+        for (p, &v) in values.iter().enumerate() {
+            if on_lattice(v) {
+                let r = rank(v);
+                order[fill[r] as usize] = p as u32;
+                fill[r] += 1;
+            }
+        }
+        Sweep {
+            values,
+            nx,
+            ny,
+            order,
+            starts,
+            bucket: 0,
+            end: 0,
+            next: 0,
+            parent: vec![NONE; values.len()],
+            peak_of: vec![NONE; values.len()],
+            born: Vec::new(),
+        }
     }
-    for &p in &order {
-        parent[p as usize] = p;
-        top[p as usize] = p;
+
+    /// The next node of the sweep order without joining it, `None` at the end.
+    fn peek(&mut self) -> Option<u32> {
+        while self.next == self.end {
+            if self.bucket + 1 >= self.starts.len() {
+                return None;
+            }
+            let values = self.values;
+            let (a, b) = (
+                self.starts[self.bucket] as usize,
+                self.starts[self.bucket + 1] as usize,
+            );
+            self.order[a..b].sort_unstable_by(|&p, &q| order(values, p, q));
+            self.bucket += 1;
+            self.end = b;
+        }
+        Some(self.order[self.next])
+    }
+
+    /// Joins the next node; false at the end of the sweep.
+    fn step(&mut self) -> bool {
+        let Some(p) = self.peek() else {
+            return false;
+        };
+        self.next += 1;
+        let (nx, ny) = (self.nx, self.ny);
         let (i, j) = (p as usize % nx, p as usize / nx);
-        let level = values[p as usize];
+        let level = self.values[p as usize];
         for dj in -1i64..=1 {
             for di in -1i64..=1 {
                 let (qi, qj) = (i as i64 + di, j as i64 + dj);
@@ -78,50 +169,115 @@ pub fn peaks(values: &[f64], nx: usize, ny: usize) -> Vec<Peak> {
                     continue;
                 }
                 let q = (qi as usize + qj as usize * nx) as u32;
-                if parent[q as usize] == NONE {
+                if self.parent[q as usize] == NONE {
                     continue;
                 }
-                let (rp, rq) = (find(&mut parent, p), find(&mut parent, q));
+                let rq = find(&mut self.parent, q);
+                if self.parent[p as usize] == NONE {
+                    // p joins the first region it touches at once: it is no maximum.
+                    self.parent[p as usize] = rq;
+                    continue;
+                }
+                let rp = find(&mut self.parent, p);
                 if rp == rq {
                     continue;
                 }
-                // The region whose top comes later in the order (the lower peak) ends here.
-                let (tp, tq) = (top[rp as usize], top[rq as usize]);
-                let (keep, end) = if rank[tp as usize] < rank[tq as usize] {
-                    (rp, rq)
+                // The region whose peak came later in the sweep (the lower one) ends here.
+                let (bp, bq) = (self.peak_of[rp as usize], self.peak_of[rq as usize]);
+                let (keep, end, ended) = if bp < bq { (rp, rq, bq) } else { (rq, rp, bp) };
+                let m = self.values[self.born[ended as usize].node as usize];
+                self.born[ended as usize].end = Some(if m > level {
+                    (m - level) / m
                 } else {
-                    (rq, rp)
-                };
-                let ended = top[end as usize];
-                let m = values[ended as usize];
-                // A node that joins a region at once (not a maximum) ends at its own height.
-                if m > level {
-                    out.push(Peak {
-                        node: ended as usize,
-                        persistence: (m - level) / m,
-                    });
+                    ENDED_FLAT
+                });
+                self.parent[end as usize] = keep;
+            }
+        }
+        if self.parent[p as usize] == NONE {
+            self.parent[p as usize] = p;
+            self.peak_of[p as usize] = self.born.len() as u32;
+            self.born.push(Born { node: p, end: None });
+        }
+        true
+    }
+}
+
+/// Every local maximum of `values` on an `nx` x `ny` lattice with its relative persistence,
+/// highest value first.
+pub fn peaks(values: &[f64], nx: usize, ny: usize) -> Vec<Peak> {
+    let mut s = Sweep::new(values, nx, ny);
+    while s.step() {}
+    s.born
+        .iter()
+        .filter(|b| b.end != Some(ENDED_FLAT))
+        .map(|b| Peak {
+            node: b.node as usize,
+            persistence: b.end.unwrap_or(1.0),
+        })
+        .collect()
+}
+
+/// The nodes of the local maxima whose relative persistence reaches `min`, highest value
+/// first (the peaks of [`peaks`] with `persistence >= min`, in the same order). The sweep runs
+/// only as far as the peaks taken so far need.
+pub fn persistent(values: &[f64], nx: usize, ny: usize, min: f64) -> Persistent<'_> {
+    Persistent {
+        sweep: Sweep::new(values, nx, ny),
+        min,
+        front: 0,
+    }
+}
+
+/// Iterator of [`persistent`].
+pub struct Persistent<'a> {
+    sweep: Sweep<'a>,
+    min: f64,
+    /// The first peak of `sweep.born` not yet given out or passed over.
+    front: usize,
+}
+
+impl Iterator for Persistent<'_> {
+    type Item = usize;
+
+    fn next(&mut self) -> Option<usize> {
+        loop {
+            let s = &mut self.sweep;
+            if self.front == s.born.len() {
+                // The next peak is not born yet.
+                if !s.step() {
+                    return None;
                 }
-                parent[end as usize] = keep;
+                continue;
+            }
+            let b = s.born[self.front];
+            let m = s.values[b.node as usize];
+            let reached = match b.end {
+                Some(q) => Some(q != ENDED_FLAT && q >= self.min),
+                None => match s.peek() {
+                    None => Some(1.0 >= self.min),
+                    // Every later end lies at or below `level`, and the persistence only
+                    // grows as the level falls.
+                    Some(next) => {
+                        let level = s.values[next as usize];
+                        (m > level && (m - level) / m >= self.min).then_some(true)
+                    }
+                },
+            };
+            match reached {
+                Some(yes) => {
+                    self.front += 1;
+                    if yes {
+                        return Some(b.node as usize);
+                    }
+                }
+                None => {
+                    s.step();
+                }
             }
         }
     }
-    // The tops of the regions that never ended.
-    for &p in &order {
-        if parent[p as usize] == p {
-            out.push(Peak {
-                node: p as usize,
-                persistence: 1.0,
-            });
-        }
-    }
-    out.sort_by(|a, b| {
-        values[b.node]
-            .total_cmp(&values[a.node])
-            .then(a.node.cmp(&b.node))
-    });
-    out
 }
-
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -169,5 +325,134 @@ mod tests {
         assert!(p.iter().all(|q| q.persistence == 1.0));
         assert_eq!((p[0].node, p[1].node), (0, 11));
         assert!(peaks(&[f64::NAN, 0.0, -1.0], 3, 1).is_empty());
+    }
+
+    /// A seeded pseudo-random lattice: smooth hills on a floor, ripples, plateaus and holes.
+    fn rough(nx: usize, ny: usize, seed: u64) -> Vec<f64> {
+        let mut state = seed;
+        let mut rnd = move || {
+            state = state
+                .wrapping_mul(6364136223846793005)
+                .wrapping_add(1442695040888963407);
+            (state >> 11) as f64 / (1u64 << 53) as f64
+        };
+        let hills: Vec<[f64; 3]> = (0..12)
+            .map(|_| [rnd() * nx as f64, rnd() * ny as f64, 0.5 + rnd()])
+            .collect();
+        (0..nx * ny)
+            .map(|p| {
+                let (x, y) = ((p % nx) as f64, (p / nx) as f64);
+                let r = rnd();
+                if r < 0.01 {
+                    return f64::NAN;
+                }
+                let h: f64 = hills
+                    .iter()
+                    .map(|c| c[2] * (-((x - c[0]).powi(2) + (y - c[1]).powi(2)) / 60.0).exp())
+                    .sum();
+                // Quantised so that equal values (plateaus, ties) occur.
+                ((0.3 + h + 0.02 * r) * 256.0).round() / 256.0
+            })
+            .collect()
+    }
+
+    #[test]
+    fn the_lazy_persistent_sweep_gives_the_filtered_peaks_in_order() {
+        // 40 000 nodes: the sweep sorts them in many buckets.
+        for seed in [1, 2, 3] {
+            let v = rough(250, 160, seed);
+            let all = peaks(&v, 250, 160);
+            // Many ripples and several persistent peaks: every threshold below sorts some out.
+            assert!(all.len() > 100, "{}", all.len());
+            let strong = all.iter().filter(|p| p.persistence >= 0.3).count();
+            assert!((2..50).contains(&strong), "{strong} of {}", all.len());
+            for min in [0.0, 0.01, 0.05, 0.3, 1.0, 1.5] {
+                let want: Vec<usize> = all
+                    .iter()
+                    .filter(|p| p.persistence >= min)
+                    .map(|p| p.node)
+                    .collect();
+                let got: Vec<usize> = persistent(&v, 250, 160, min).collect();
+                assert_eq!(got, want, "seed {seed}, min {min}");
+            }
+        }
+    }
+
+    /// The sweep over every node sorted at once, with a rank per node (the first form of this
+    /// module), kept as the reference the bucketed sweep must reproduce.
+    fn full_sort_peaks(values: &[f64], nx: usize, ny: usize) -> Vec<Peak> {
+        let mut order: Vec<u32> = (0..values.len() as u32)
+            .filter(|&p| values[p as usize].is_finite() && values[p as usize] > 0.0)
+            .collect();
+        order.sort_unstable_by(|&a, &b| super::order(values, a, b));
+        let mut parent = vec![NONE; values.len()];
+        let mut top = vec![NONE; values.len()];
+        let mut rank = vec![NONE; values.len()];
+        for (k, &p) in order.iter().enumerate() {
+            rank[p as usize] = k as u32;
+        }
+        let mut out = Vec::new();
+        for &p in &order {
+            parent[p as usize] = p;
+            top[p as usize] = p;
+            let (i, j) = (p as usize % nx, p as usize / nx);
+            let level = values[p as usize];
+            for dj in -1i64..=1 {
+                for di in -1i64..=1 {
+                    let (qi, qj) = (i as i64 + di, j as i64 + dj);
+                    if (di, dj) == (0, 0) || qi < 0 || qj < 0 || qi >= nx as i64 || qj >= ny as i64
+                    {
+                        continue;
+                    }
+                    let q = (qi as usize + qj as usize * nx) as u32;
+                    if parent[q as usize] == NONE {
+                        continue;
+                    }
+                    let (rp, rq) = (find(&mut parent, p), find(&mut parent, q));
+                    if rp == rq {
+                        continue;
+                    }
+                    let (tp, tq) = (top[rp as usize], top[rq as usize]);
+                    let (keep, end) = if rank[tp as usize] < rank[tq as usize] {
+                        (rp, rq)
+                    } else {
+                        (rq, rp)
+                    };
+                    let ended = top[end as usize];
+                    let m = values[ended as usize];
+                    if m > level {
+                        out.push(Peak {
+                            node: ended as usize,
+                            persistence: (m - level) / m,
+                        });
+                    }
+                    parent[end as usize] = keep;
+                }
+            }
+        }
+        for &p in &order {
+            if parent[p as usize] == p {
+                out.push(Peak {
+                    node: p as usize,
+                    persistence: 1.0,
+                });
+            }
+        }
+        out.sort_by(|a, b| super::order(values, a.node as u32, b.node as u32));
+        out
+    }
+
+    #[test]
+    fn bucketed_sweep_gives_the_peaks_of_a_full_sort() {
+        for seed in [4, 5, 6, 7] {
+            let v = rough(250, 160, seed);
+            assert_eq!(
+                peaks(&v, 250, 160),
+                full_sort_peaks(&v, 250, 160),
+                "seed {seed}"
+            );
+        }
+        let v = rough(3, 2, 8);
+        assert_eq!(peaks(&v, 3, 2), full_sort_peaks(&v, 3, 2));
     }
 }

@@ -157,6 +157,9 @@ pub struct Solution {
     pub operator: Operator,
     /// Potential at every node at the operating point, V (fixed nodes hold their values).
     pub potential: Vec<f64>,
+    /// |E| at every node at the operating point, V/m (NaN inside conductors and at fixed
+    /// nodes), as [`post::FieldEval::magnitudes`] gives it.
+    pub magnitude: Vec<f64>,
     /// Per-conductor results.
     pub conductors: Vec<ConductorResult>,
     /// Maxwell capacitance matrix of the fixed conductors.
@@ -195,9 +198,8 @@ impl Solution {
     }
 
     /// |E| at every node, V/m (NaN inside conductors and at fixed nodes).
-    pub fn field_magnitude(&self) -> Vec<f64> {
-        let field = self.field();
-        (0..self.grid.len()).map(|p| field.magnitude(p)).collect()
+    pub fn field_magnitude(&self) -> &[f64] {
+        &self.magnitude
     }
 }
 
@@ -367,6 +369,7 @@ pub fn run(design: &Design, params: &StudyParams) -> Result<Solution, StudyError
         );
     }
     let worst_margin = hotspots.iter().find(|h| h.margin.is_some()).cloned();
+    let magnitude = field.into_magnitudes();
     // Every solve can converge and the results still overflow (potentials, permittivities
     // or charges near the end of the double range): such results are flagged, not reported.
     if solve.converged {
@@ -399,6 +402,7 @@ pub fn run(design: &Design, params: &StudyParams) -> Result<Solution, StudyError
         solve,
         warnings,
         potential: core.phi,
+        magnitude,
         raster: core.raster,
         operator: core.op,
     })

@@ -398,7 +398,7 @@ fn change_picture(
     use crate::render::{self, ContourStyle, MapInput, Palette};
     let eb = base.field_magnitude();
     let en = new.field_magnitude();
-    let diff: Vec<f64> = eb.iter().zip(&en).map(|(b, n)| n - b).collect();
+    let diff: Vec<f64> = eb.iter().zip(en).map(|(b, n)| n - b).collect();
     // Colour range: the 99th percentile of |change|, so that the few nodes at sharp edges
     // (whose values are singular) saturate instead of washing out the rest of the map.
     let mut mags: Vec<f64> = diff
