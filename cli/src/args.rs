@@ -127,6 +127,10 @@ pub struct SolveArgs {
     /// `depth`; without this option it is written whenever it can be).
     #[arg(long)]
     pub circuit: bool,
+    /// Print the wall time of each stage (rasterisation, assembly, solver setup, solves,
+    /// post-processing, pictures, files) to standard error when done.
+    #[arg(long)]
+    pub timings: bool,
     /// Solver options.
     #[command(flatten)]
     pub opts: SolveOptions,

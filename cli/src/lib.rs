@@ -13,6 +13,7 @@ pub mod pictures;
 pub mod render;
 pub mod spice;
 pub mod summary;
+pub mod timings;
 pub mod vtk;
 pub mod warning;
 

@@ -72,7 +72,7 @@ fn with_unit(v: f64, unit: &str) -> String {
 }
 
 /// `potential.png` and `field.png` of a solution; `log_field` draws the field on a
-/// logarithmic scale.
+/// logarithmic scale. The two pictures are drawn at the same time (each on its own).
 pub fn field_maps(
     src: &DesignSource,
     sol: &Solution,
@@ -94,71 +94,74 @@ pub fn field_maps(
             number: k as u32 + 1,
         })
         .collect();
-    let potential: Vec<f64> = sol
-        .potential
-        .iter()
-        .zip(&sol.raster.conductor)
-        .map(|(&v, &c)| {
-            if c == fieldgrid_solver::raster::NO_CONDUCTOR {
-                v
-            } else {
-                f64::NAN
-            }
-        })
-        .collect();
-    let mut map = MapInput::new(&sol.grid, &potential);
-    map.title = "Potential";
-    map.quantity = "potential";
-    map.unit = "V";
-    map.length_unit = unit;
-    map.axis_names = axis_names(design);
-    map.conductors = &conductors;
-    map.dielectrics = &dielectrics;
-    map.markers = &markers;
-    map.contours = ContourStyle::Auto;
-    let eps: Vec<f64> = sol
-        .raster
-        .material
-        .iter()
-        .map(|&m| fieldgrid_solver::raster::Raster::permittivity(design, m))
-        .collect();
-    map.field_lines = Some(FieldLines {
-        potential: &potential,
-        count: 24,
-        permittivity: Some(&eps),
-    });
-    let pot_img = render::render_map(&map, opts);
-
-    let magnitude = sol.field_magnitude();
-    let top = if log_field {
-        None
-    } else {
-        field_saturation(&magnitude)
+    let potential_map = || {
+        let potential: Vec<f64> = sol
+            .potential
+            .iter()
+            .zip(&sol.raster.conductor)
+            .map(|(&v, &c)| {
+                if c == fieldgrid_solver::raster::NO_CONDUCTOR {
+                    v
+                } else {
+                    f64::NAN
+                }
+            })
+            .collect();
+        let mut map = MapInput::new(&sol.grid, &potential);
+        map.title = "Potential";
+        map.quantity = "potential";
+        map.unit = "V";
+        map.length_unit = unit;
+        map.axis_names = axis_names(design);
+        map.conductors = &conductors;
+        map.dielectrics = &dielectrics;
+        map.markers = &markers;
+        map.contours = ContourStyle::Auto;
+        let eps: Vec<f64> = sol
+            .raster
+            .material
+            .iter()
+            .map(|&m| fieldgrid_solver::raster::Raster::permittivity(design, m))
+            .collect();
+        map.field_lines = Some(FieldLines {
+            potential: &potential,
+            count: 24,
+            permittivity: Some(&eps),
+        });
+        render::render_map(&map, opts)
     };
-    let peak = sample::finite_range(&magnitude).map_or(0.0, |r| r.1);
-    let title = match top {
-        _ if log_field => "Field magnitude (logarithmic scale)".to_string(),
-        Some(q) => format!(
-            "Field magnitude (colours saturate above {}; peak {})",
-            with_unit(q, "V/m"),
-            with_unit(peak, "V/m")
-        ),
-        None => "Field magnitude".to_string(),
+    let field_map = || {
+        let magnitude = sol.field_magnitude();
+        let top = if log_field {
+            None
+        } else {
+            field_saturation(magnitude)
+        };
+        let peak = sample::finite_range(magnitude).map_or(0.0, |r| r.1);
+        let title = match top {
+            _ if log_field => "Field magnitude (logarithmic scale)".to_string(),
+            Some(q) => format!(
+                "Field magnitude (colours saturate above {}; peak {})",
+                with_unit(q, "V/m"),
+                with_unit(peak, "V/m")
+            ),
+            None => "Field magnitude".to_string(),
+        };
+        let mut map = MapInput::new(&sol.grid, magnitude);
+        map.title = &title;
+        map.range = top.map(|q| [0.0, q]);
+        map.quantity = "|E|";
+        map.unit = "V/m";
+        map.length_unit = unit;
+        map.axis_names = axis_names(design);
+        map.conductors = &conductors;
+        map.dielectrics = &dielectrics;
+        map.markers = &markers;
+        map.contours = ContourStyle::None;
+        map.scale = if log_field { Scale::Log } else { Scale::Linear };
+        render::render_map(&map, opts)
     };
-    let mut map = MapInput::new(&sol.grid, &magnitude);
-    map.title = &title;
-    map.range = top.map(|q| [0.0, q]);
-    map.quantity = "|E|";
-    map.unit = "V/m";
-    map.length_unit = unit;
-    map.axis_names = axis_names(design);
-    map.conductors = &conductors;
-    map.dielectrics = &dielectrics;
-    map.markers = &markers;
-    map.contours = ContourStyle::None;
-    map.scale = if log_field { Scale::Log } else { Scale::Linear };
-    let field_img = render::render_map(&map, opts);
-    (pot_img, field_img)
+    rayon::join(potential_map, field_map)
 }
 
 /// The geometry preview of `check`.

@@ -26,6 +26,7 @@ pub mod peaks;
 pub mod post;
 pub mod raster;
 pub mod solvers;
+pub mod stages;
 pub mod stencil;
 pub mod study;
 pub mod surface;

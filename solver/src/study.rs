@@ -19,6 +19,7 @@ use crate::operator::{self, Operator, OperatorError, SideId};
 use crate::post::{self, Hotspot, HotspotParams, ProbeResult, SurfacePoint};
 use crate::raster::{self, Raster, NO_CONDUCTOR};
 use crate::solvers::{self, Info, Method, Params};
+use crate::stages::{Stage, StageMonitor, Tracker};
 use crate::surface::{self, SurfaceParams, SurfaceSample};
 use crate::surface_results;
 use crate::warning::{NonFiniteIn, SolveFailure, Warning};
@@ -35,6 +36,8 @@ pub struct StudyParams {
     pub error_estimate: bool,
     /// Hot-spot search settings.
     pub hotspots: HotspotParams,
+    /// Told as each stage of the study starts and ends.
+    pub stages: Option<StageMonitor>,
 }
 
 impl Default for StudyParams {
@@ -44,6 +47,7 @@ impl Default for StudyParams {
             solver: Params::default(),
             error_estimate: true,
             hotspots: HotspotParams::default(),
+            stages: None,
         }
     }
 }
@@ -225,18 +229,22 @@ pub fn run(design: &Design, params: &StudyParams) -> Result<Solution, StudyError
     // Lattices twice and four times as coarse, for the error estimate and its order.
     let coarse_grid = grid.coarsened();
     let coarser_grid = coarse_grid.coarsened();
+    let monitor = params.stages.as_ref();
+    let mut stages = Tracker::new(monitor);
     let coarse = if params.error_estimate && grid.nx > 8 && grid.ny > 8 {
-        Some(solve_on(design, &coarse_grid, params)?)
+        stages.enter(Stage::ErrorEstimate);
+        Some(solve_on(design, &coarse_grid, params, None)?)
     } else {
         None
     };
     let smooth = post::sharp_corners(design).is_empty();
     let coarser = if smooth && coarse.is_some() && coarse_grid.nx > 8 && coarse_grid.ny > 8 {
-        Some(solve_on(design, &coarser_grid, params)?)
+        Some(solve_on(design, &coarser_grid, params, None)?)
     } else {
         None
     };
-    let core = solve_on(design, &grid, params)?;
+    stages.leave();
+    let core = solve_on(design, &grid, params, monitor)?;
     let fixed: Vec<usize> = (0..design.conductors.len())
         .filter(|&k| matches!(design.conductors[k].drive, Drive::Fixed(_)))
         .collect();
@@ -305,14 +313,14 @@ pub fn run(design: &Design, params: &StudyParams) -> Result<Solution, StudyError
         .reactions_total(&core.response, &core.background, &core.potentials);
     let corners = post::sharp_corners(design);
     let field = post::FieldEval::new(&core.op, &core.raster, &core.phi, &core.potentials);
+    stages.enter(Stage::Field);
+    field.magnitudes();
+    stages.enter(Stage::Forces);
     // The coarse solve's field, surfaces and forces, for the error estimates of field
     // quantities.
     let coarse_field = coarse
         .as_ref()
         .map(|c| post::FieldEval::new(&c.op, &c.raster, &c.phi, &c.potentials));
-    let coarse_surface = coarse_field
-        .as_ref()
-        .map(|f| surface::sample(f, design, &SurfaceParams::default()));
     let force_error = |k: usize, f: [f64; 2]| -> Option<[f64; 2]> {
         let (m, cf) = (error_model.as_ref()?, coarse_field.as_ref()?);
         let c = post::force(cf, design, k);
@@ -348,6 +356,7 @@ pub fn run(design: &Design, params: &StudyParams) -> Result<Solution, StudyError
         .map(|&(p, s)| s * EPS0 * core.phi[p as usize])
         .sum();
     let energy = 0.5 * (charges.iter().zip(&values).map(|(q, v)| q * v).sum::<f64>() + free);
+    stages.enter(Stage::Surfaces);
     let probes = design
         .probes
         .iter()
@@ -355,8 +364,12 @@ pub fn run(design: &Design, params: &StudyParams) -> Result<Solution, StudyError
         .collect();
     let surface = surface::sample(&field, design, &SurfaceParams::default());
     let surface_charge = surface_results::surface_charge(&surface, design, &charges);
+    stages.enter(Stage::HotSpots);
     let (mut peak_field, mut hotspots) =
         surface_results::peak_and_hotspots(&field, design, &corners, &params.hotspots, &surface);
+    let coarse_surface = coarse_field
+        .as_ref()
+        .map(|f| surface::sample(f, design, &SurfaceParams::default()));
     if let (Some(m), Some(cf), Some(cs)) = (&error_model, &coarse_field, &coarse_surface) {
         surface_results::estimate_errors(
             &mut peak_field,
@@ -369,6 +382,7 @@ pub fn run(design: &Design, params: &StudyParams) -> Result<Solution, StudyError
         );
     }
     let worst_margin = hotspots.iter().find(|h| h.margin.is_some()).cloned();
+    stages.leave();
     let magnitude = field.into_magnitudes();
     // Every solve can converge and the results still overflow (potentials, permittivities
     // or charges near the end of the double range): such results are flagged, not reported.
@@ -528,11 +542,21 @@ impl Operator {
     }
 }
 
-/// Runs every solve of the study on one lattice.
-fn solve_on(design: &Design, grid: &Grid, params: &StudyParams) -> Result<Core, StudyError> {
+/// Runs every solve of the study on one lattice, telling `monitor` of its stages.
+fn solve_on(
+    design: &Design,
+    grid: &Grid,
+    params: &StudyParams,
+    monitor: Option<&StageMonitor>,
+) -> Result<Core, StudyError> {
+    let mut stages = Tracker::new(monitor);
+    stages.enter(Stage::Raster);
     let raster = raster::rasterize(design, grid);
+    stages.enter(Stage::Assembly);
     let op = operator::assemble(design, &raster)?;
+    stages.enter(Stage::SolverSetup);
     let prepared = solvers::prepare(params.method, &op.stencil);
+    stages.enter(Stage::Solves);
     let n = grid.len();
     let nc = design.conductors.len();
     let floating: Vec<usize> = (0..nc)
@@ -583,6 +607,7 @@ fn solve_on(design: &Design, grid: &Grid, params: &StudyParams) -> Result<Core, 
         vec![0.0; op.n_targets()]
     };
     drop(b0);
+    stages.enter(Stage::Superposition);
 
     // Conductor-to-conductor charge response: cfull[i][k] = charge on i with k at 1 V.
     let cfull: Vec<Vec<f64>> = (0..nc)
@@ -665,6 +690,7 @@ fn solve_on(design: &Design, grid: &Grid, params: &StudyParams) -> Result<Core, 
             side_values[op.side_target(s) as usize]
         };
     }
+    stages.leave();
     Ok(Core {
         raster,
         op,

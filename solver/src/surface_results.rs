@@ -213,14 +213,11 @@ fn faces_sampled_surface(field: &FieldEval, samples: &[SurfaceSample]) -> Vec<bo
 fn candidates(field: &FieldEval, samples: &[SurfaceSample]) -> Vec<(Point, f64, u16, f64)> {
     let g = &field.op.grid;
     let skip = faces_sampled_surface(field, samples);
-    let mag: Vec<f64> = (0..g.len())
-        .map(|p| {
-            if skip[p] {
-                f64::NAN
-            } else {
-                field.magnitude(p)
-            }
-        })
+    let mag: Vec<f64> = field
+        .magnitudes()
+        .iter()
+        .zip(&skip)
+        .map(|(&m, &skip)| if skip { f64::NAN } else { m })
         .collect();
     let node_xy = |p: usize| [g.x(p % g.nx), g.y(p / g.nx)];
     let mut persistence = vec![0.0; g.len()];
@@ -287,7 +284,7 @@ pub fn peak_and_hotspots(
     let g = &field.op.grid;
     let h = g.hx.max(g.hy);
     let reach = params.corner_cells * h;
-    let mut cand = candidates(field, samples);
+    let cand = candidates(field, samples);
     let strength = |m: u16| crate::post::material_of(design, m).1;
     let by_margin = any_strength(design);
     let key = |c: &(Point, f64, u16, f64)| match (by_margin, strength(c.2)) {
@@ -303,18 +300,25 @@ pub fn peak_and_hotspots(
                 .then(b.0[1].total_cmp(&a.0[1]))
         })
         .map(|c| spot(design, corners, reach, c.0, c.1, c.2));
-    cand.sort_by(|a, b| {
+    let order = |a: &(Point, f64, u16, f64), b: &(Point, f64, u16, f64)| {
         let (ka, kb) = (key(a), key(b));
         ka.0.cmp(&kb.0)
             .then(ka.1.total_cmp(&kb.1))
             .then(a.0[0].total_cmp(&b.0[0]))
             .then(a.0[1].total_cmp(&b.0[1]))
-    });
-    if by_margin {
-        if let Some(first) = cand.first_mut() {
-            first.3 = 1.0;
-        }
-    }
+    };
+    // Only the persistent candidates and the first in rank order (the lowest margin) can be
+    // chosen: those are sorted (stably, so in the order a sort of every candidate gives them).
+    let first = by_margin
+        .then(|| (0..cand.len()).min_by(|&a, &b| order(&cand[a], &cand[b])))
+        .flatten();
+    let mut cand: Vec<(Point, f64, u16, f64)> = cand
+        .iter()
+        .enumerate()
+        .filter(|&(k, c)| c.3 >= params.persistence || Some(k) == first)
+        .map(|(k, c)| (c.0, c.1, c.2, if Some(k) == first { 1.0 } else { c.3 }))
+        .collect();
+    cand.sort_by(order);
     let sep = params.separation_cells * h;
     let mut chosen: Vec<(Point, f64, u16, f64)> = Vec::new();
     for c in cand.into_iter().filter(|c| c.3 >= params.persistence) {

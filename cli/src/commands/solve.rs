@@ -3,22 +3,37 @@
 use super::{load_design, study_params, with_threads};
 use crate::args::SolveArgs;
 use crate::error::Failure;
-use crate::outdir::{csv_bytes, num, OutDir};
+use crate::outdir::{csv_bytes, num, png_bytes, OutDir};
 use crate::summary::Summary;
+use crate::timings::Timings;
 use crate::{EXIT_CHANGED, EXIT_NOT_CONVERGED, EXIT_OK};
 use fieldgrid_solver::study::{self, Solution, StudyError};
+use std::sync::Arc;
 use std::time::Instant;
 
-/// Runs the command, returning the exit code.
+/// Runs the command, returning the exit code; with `--timings`, prints the stage times.
 pub fn run(args: &SolveArgs) -> Result<u8, Failure> {
-    let src = load_design(&args.design, &super::parameter_overrides(&args.set)?)?;
+    let timings = Timings::new();
+    let code = run_timed(args, &timings)?;
+    if args.timings {
+        eprint!("{}", timings.table());
+    }
+    Ok(code)
+}
+
+/// Runs the command, recording the time of each stage in `timings`.
+pub fn run_timed(args: &SolveArgs, timings: &Arc<Timings>) -> Result<u8, Failure> {
+    let src = timings.time("read", || {
+        load_design(&args.design, &super::parameter_overrides(&args.set)?)
+    })?;
     let rate = if args.field_table {
         super::BYTES_PER_NODE + super::FIELD_TABLE_BYTES_PER_NODE
     } else {
         super::BYTES_PER_NODE
     };
     let (_grid, _mib) = super::check_memory_at(&src, &args.design, args.opts.max_memory, rate)?;
-    let params = study_params(&args.opts)?;
+    let mut params = study_params(&args.opts)?;
+    params.stages = Some(timings.monitor());
     if args.circuit {
         if let Err(why) = fieldgrid_solver::circuit::exportable(src.design.mode, src.design.depth) {
             return Err(Failure::input(format!(
@@ -41,16 +56,33 @@ pub fn run(args: &SolveArgs) -> Result<u8, Failure> {
     }
     let mut summary = Summary::from_solution(&sol, src.design.depth, seconds, &src.text_hash);
     summary.parameters = crate::summary::parameters(&src);
-    write_results(&out, &sol, &summary, &src.design, args.field_table)?;
+    timings.time("results", || {
+        write_results(&out, &sol, &summary, &src.design, args.field_table)
+    })?;
     if args.vtk {
-        let bytes = crate::vtk::vti_bytes(&sol, &src.design)
-            .map_err(|e| Failure::io("encoding field.vti", e))?;
-        out.write("field.vti", &bytes)?;
+        timings.time("vtk", || {
+            let bytes = crate::vtk::vti_bytes(&sol, &src.design)
+                .map_err(|e| Failure::io("encoding field.vti", e))?;
+            out.write("field.vti", &bytes)
+        })?;
     }
-    let (potential_png, field_png) =
-        crate::pictures::field_maps(&src, &sol, args.log_field, &args.pictures.render_options());
-    out.write_png("potential.png", &potential_png)?;
-    out.write_png("field.png", &field_png)?;
+    // Both pictures drawn and encoded at the same time, on the threads the solve had.
+    let (potential_png, field_png) = timings.time("pictures", || {
+        with_threads(args.opts.threads, || {
+            let opts = args.pictures.render_options();
+            crate::pictures::field_maps(&src, &sol, args.log_field, &opts)
+        })
+    })?;
+    timings.time("png", || {
+        let (potential, field) = with_threads(args.opts.threads, || {
+            rayon::join(
+                || png_bytes("potential.png", &potential_png),
+                || png_bytes("field.png", &field_png),
+            )
+        })?;
+        out.write("potential.png", &potential?)?;
+        out.write("field.png", &field?)
+    })?;
     let circuit = crate::spice::for_solution(
         &sol,
         src.design.depth,
@@ -60,7 +92,7 @@ pub fn run(args: &SolveArgs) -> Result<u8, Failure> {
     if let Ok(net) = &circuit {
         out.write("capacitance.cir", net.text.as_bytes())?;
     }
-    out.commit()?;
+    timings.time("commit", || out.commit())?;
     if !args.opts.quiet {
         print!("{}", report(&sol, &summary, &out));
         match &circuit {

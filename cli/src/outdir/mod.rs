@@ -458,15 +458,7 @@ impl OutDir {
 
     /// Writes a PNG whole.
     pub fn write_png(&self, name: &str, img: &image::RgbImage) -> Result<PathBuf, Failure> {
-        use image::codecs::png::{CompressionType, FilterType, PngEncoder};
-        let mut bytes = Vec::new();
-        // Best compression: the maps are smooth gradients under thin lines, and the files
-        // end up in reports and repositories.
-        let enc =
-            PngEncoder::new_with_quality(&mut bytes, CompressionType::Best, FilterType::Adaptive);
-        img.write_with_encoder(enc)
-            .map_err(|e| Failure::io(format!("encoding {name}"), e))?;
-        self.write(name, &bytes)
+        self.write(name, &png_bytes(name, img)?)
     }
 
     /// Puts the set in place (the staging directory exchanged with `--out`, with a manifest
@@ -545,6 +537,18 @@ impl Drop for OutDir {
             self.finish();
         }
     }
+}
+
+/// A picture encoded as PNG (`name` for the error message).
+pub fn png_bytes(name: &str, img: &image::RgbImage) -> Result<Vec<u8>, Failure> {
+    use image::codecs::png::{CompressionType, FilterType, PngEncoder};
+    let mut bytes = Vec::new();
+    // Best compression: the maps are smooth gradients under thin lines, and the files
+    // end up in reports and repositories.
+    let enc = PngEncoder::new_with_quality(&mut bytes, CompressionType::Best, FilterType::Adaptive);
+    img.write_with_encoder(enc)
+        .map_err(|e| Failure::io(format!("encoding {name}"), e))?;
+    Ok(bytes)
 }
 
 /// Builds a CSV document in memory with the `csv` crate.
