@@ -218,215 +218,302 @@ impl Faces {
 
 /// Assembles the operator of `design` rasterised as `raster`.
 pub fn assemble(design: &Design, raster: &Raster) -> Result<Operator, OperatorError> {
-    let grid = raster.grid;
-    let (nx, ny) = (grid.nx, grid.ny);
-    let n = grid.len();
-    let nc = design.conductors.len();
-    let sides = [
-        design.sides.left,
-        design.sides.right,
-        design.sides.bottom,
-        design.sides.top,
-    ];
-    let side_potential = sides.map(Side::potential);
-    let axisymmetric = design.mode == Mode::Axisymmetric;
-    let faces = Faces { grid, axisymmetric };
+    let mut a = Assembly::new(design, raster);
+    a.couple_edges();
+    a.fix_rows();
+    if a.sides.contains(&Side::Open) {
+        a.couple_open_sides();
+    }
+    a.links.sort_by_key(|l| (l.node, l.dir));
+    a.finish()
+}
 
-    let side_of = |i: usize, j: usize| fixed_side(&side_potential, nx, ny, i, j);
-    let side_target = |s: SideId| (nc + s as usize) as u32;
+/// The operator under assembly: the design's targets, which nodes are unknowns, and the
+/// couplings gathered so far. The steps run in the order of [`assemble`]; each adds to the
+/// couplings in a fixed order, so the operator is the same whatever the thread count.
+struct Assembly<'a> {
+    design: &'a Design,
+    raster: &'a Raster,
+    grid: Grid,
+    /// Number of conductors; side s is target `nc + s`.
+    nc: usize,
+    sides: [Side; 4],
+    side_potential: [Option<f64>; 4],
+    faces: Faces,
+    /// True for a node whose potential is solved for.
+    unknown: Vec<bool>,
+    diag: Vec<f64>,
+    east: Vec<f64>,
+    north: Vec<f64>,
+    links: Vec<Link>,
+    direct: Vec<DirectCoupling>,
+}
 
-    let mut unknown = vec![false; n];
-    for j in 0..ny {
-        for i in 0..nx {
-            let p = grid.idx(i, j);
-            unknown[p] = raster.conductor[p] == NO_CONDUCTOR && side_of(i, j).is_none();
+impl<'a> Assembly<'a> {
+    /// The targets of `design` and its unknowns: nodes neither in a conductor nor on a fixed
+    /// side.
+    fn new(design: &'a Design, raster: &'a Raster) -> Assembly<'a> {
+        let grid = raster.grid;
+        let n = grid.len();
+        let sides = [
+            design.sides.left,
+            design.sides.right,
+            design.sides.bottom,
+            design.sides.top,
+        ];
+        let axisymmetric = design.mode == Mode::Axisymmetric;
+        let mut a = Assembly {
+            design,
+            raster,
+            grid,
+            nc: design.conductors.len(),
+            sides,
+            side_potential: sides.map(Side::potential),
+            faces: Faces { grid, axisymmetric },
+            unknown: vec![false; n],
+            diag: vec![0.0; n],
+            east: vec![0.0; n],
+            north: vec![0.0; n],
+            links: Vec::new(),
+            direct: Vec::new(),
+        };
+        for j in 0..grid.ny {
+            for i in 0..grid.nx {
+                let p = grid.idx(i, j);
+                a.unknown[p] = raster.conductor[p] == NO_CONDUCTOR && a.side_of(i, j).is_none();
+            }
         }
+        a
     }
 
-    let mut diag = vec![0.0; n];
-    let mut east = vec![0.0; n];
-    let mut north = vec![0.0; n];
-    let mut links = Vec::new();
-    let mut direct = Vec::new();
+    fn side_of(&self, i: usize, j: usize) -> Option<SideId> {
+        fixed_side(&self.side_potential, self.grid.nx, self.grid.ny, i, j)
+    }
 
-    let mut cut = raster.cut_edges.iter().peekable();
-    for j in 0..ny {
-        for i in 0..nx {
-            let a = grid.idx(i, j);
-            for axis in [Axis::X, Axis::Y] {
-                let (b, bi, bj) = match axis {
-                    Axis::X if i + 1 < nx => (a + 1, i + 1, j),
-                    Axis::Y if j + 1 < ny => (a + nx, i, j + 1),
-                    _ => continue,
-                };
-                while cut
-                    .peek()
-                    .is_some_and(|c| ((c.node as usize), c.axis) < (a, axis))
-                {
-                    cut.next();
-                }
-                let record = cut.next_if(|c| c.node as usize == a && c.axis == axis);
-                let (ca, cb) = (raster.conductor[a], raster.conductor[b]);
-                let (from_a, from_b, direct_link) = match record {
-                    Some(c) => (c.from_a, c.from_b, c.direct),
-                    None if ca == NO_CONDUCTOR && cb == NO_CONDUCTOR => {
-                        let h = HalfLink {
-                            theta: 1.0,
-                            eps: Raster::permittivity(design, raster.material[a]),
-                            ends_on: None,
-                        };
-                        (Some(h), Some(h), None)
+    fn side_target(&self, s: SideId) -> u32 {
+        (self.nc + s as usize) as u32
+    }
+
+    /// Every lattice edge in node order (x-edge before y-edge), with its cut record if the
+    /// raster has one.
+    fn couple_edges(&mut self) {
+        let raster = self.raster;
+        let (nx, ny) = (self.grid.nx, self.grid.ny);
+        let mut cut = raster.cut_edges.iter().peekable();
+        for j in 0..ny {
+            for i in 0..nx {
+                let a = self.grid.idx(i, j);
+                for axis in [Axis::X, Axis::Y] {
+                    let (b, bi, bj) = match axis {
+                        Axis::X if i + 1 < nx => (a + 1, i + 1, j),
+                        Axis::Y if j + 1 < ny => (a + nx, i, j + 1),
+                        _ => continue,
+                    };
+                    while cut
+                        .peek()
+                        .is_some_and(|c| ((c.node as usize), c.axis) < (a, axis))
+                    {
+                        cut.next();
                     }
-                    None => (None, None, None),
-                };
-                if let Some(d) = direct_link {
-                    let w = d.eps * geometric_weight(&faces, axis, i, j, d.gap.max(THETA_MIN), 1.0);
-                    direct.push(DirectCoupling {
-                        a: d.a as u32,
-                        b: d.b as u32,
-                        weight: w,
-                    });
-                }
-                // Each free end sees either the other node (None) or a conductor surface.
-                let ends = [(a, i, j, from_a, b, 1.0), (b, bi, bj, from_b, a, -1.0)];
-                for (p, pi, pj, half, other, sign) in ends {
-                    let Some(h) = half else { continue };
-                    let theta = h.theta.clamp(THETA_MIN, 1.0);
-                    let w = h.eps * geometric_weight(&faces, axis, pi, pj, theta, sign);
-                    let dir = match (axis, sign > 0.0) {
-                        (Axis::X, true) => Dir::East,
-                        (Axis::X, false) => Dir::West,
-                        (Axis::Y, true) => Dir::North,
-                        (Axis::Y, false) => Dir::South,
-                    };
-                    let target = match h.ends_on {
-                        Some(k) => Some(k as u32),
-                        None if unknown[other] => None,
-                        None => {
-                            let (oi, oj) = (other % nx, other / nx);
-                            match side_of(oi, oj) {
-                                Some(s) => Some(side_target(s)),
-                                // The other end is a conductor node reached without a
-                                // recorded surface: the surface is at that node.
-                                None => Some(raster.conductor[other] as u32),
-                            }
+                    let record = cut.next_if(|c| c.node as usize == a && c.axis == axis);
+                    let (ca, cb) = (raster.conductor[a], raster.conductor[b]);
+                    let (from_a, from_b, direct_link) = match record {
+                        Some(c) => (c.from_a, c.from_b, c.direct),
+                        None if ca == NO_CONDUCTOR && cb == NO_CONDUCTOR => {
+                            let h = HalfLink {
+                                theta: 1.0,
+                                eps: Raster::permittivity(self.design, raster.material[a]),
+                                ends_on: None,
+                            };
+                            (Some(h), Some(h), None)
                         }
+                        None => (None, None, None),
                     };
-                    if unknown[p] {
-                        diag[p] += w;
-                        match target {
-                            None => {
-                                // Free-free coupling: record once, from the lower end.
-                                if sign > 0.0 {
-                                    match axis {
-                                        Axis::X => east[p] = w,
-                                        Axis::Y => north[p] = w,
-                                    }
-                                }
-                            }
-                            Some(t) => links.push(Link {
-                                node: p as u32,
-                                target: t,
-                                weight: w,
-                                dir,
-                                theta,
-                                eps: h.eps,
-                            }),
-                        }
-                    } else if let (Some(t), Some(s)) = (target, side_of(pi, pj)) {
-                        // A fixed side node facing a conductor surface.
-                        if (t as usize) < nc {
-                            direct.push(DirectCoupling {
-                                a: side_target(s),
-                                b: t,
-                                weight: w,
-                            });
+                    if let Some(d) = direct_link {
+                        let w = d.eps
+                            * geometric_weight(&self.faces, axis, i, j, d.gap.max(THETA_MIN), 1.0);
+                        self.direct.push(DirectCoupling {
+                            a: d.a as u32,
+                            b: d.b as u32,
+                            weight: w,
+                        });
+                    }
+                    // Each free end sees either the other node (None) or a conductor surface.
+                    let ends = [(a, i, j, from_a, b, 1.0), (b, bi, bj, from_b, a, -1.0)];
+                    for (p, pi, pj, half, other, sign) in ends {
+                        if let Some(h) = half {
+                            self.couple_end(axis, (p, pi, pj), h, other, sign);
                         }
                     }
                 }
             }
         }
     }
-    // Free-free couplings must be symmetric: the upper end added the same weight to its
-    // diagonal from its own half-link (equal by the raster invariant).
-    for p in 0..n {
-        if !unknown[p] {
-            diag[p] = 1.0;
-            east[p] = 0.0;
-            north[p] = 0.0;
+
+    /// One free end of an edge: node `p` at (pi, pj), its half-link `h` along `axis` towards
+    /// `other` (`sign` +1 towards +x or +y). An unknown node gains the weight on its diagonal
+    /// and a free-free coupling (recorded once, from the lower end) or a link to a target; a
+    /// fixed side node facing a conductor surface gains a direct coupling.
+    fn couple_end(
+        &mut self,
+        axis: Axis,
+        (p, pi, pj): (usize, usize, usize),
+        h: HalfLink,
+        other: usize,
+        sign: f64,
+    ) {
+        let nx = self.grid.nx;
+        let theta = h.theta.clamp(THETA_MIN, 1.0);
+        let w = h.eps * geometric_weight(&self.faces, axis, pi, pj, theta, sign);
+        let dir = match (axis, sign > 0.0) {
+            (Axis::X, true) => Dir::East,
+            (Axis::X, false) => Dir::West,
+            (Axis::Y, true) => Dir::North,
+            (Axis::Y, false) => Dir::South,
+        };
+        let target = match h.ends_on {
+            Some(k) => Some(k as u32),
+            None if self.unknown[other] => None,
+            None => {
+                let (oi, oj) = (other % nx, other / nx);
+                match self.side_of(oi, oj) {
+                    Some(s) => Some(self.side_target(s)),
+                    // The other end is a conductor node reached without a recorded
+                    // surface: the surface is at that node.
+                    None => Some(self.raster.conductor[other] as u32),
+                }
+            }
+        };
+        if self.unknown[p] {
+            self.diag[p] += w;
+            match target {
+                None => {
+                    // Free-free coupling: record once, from the lower end.
+                    if sign > 0.0 {
+                        match axis {
+                            Axis::X => self.east[p] = w,
+                            Axis::Y => self.north[p] = w,
+                        }
+                    }
+                }
+                Some(t) => self.links.push(Link {
+                    node: p as u32,
+                    target: t,
+                    weight: w,
+                    dir,
+                    theta,
+                    eps: h.eps,
+                }),
+            }
+        } else if let (Some(t), Some(s)) = (target, self.side_of(pi, pj)) {
+            // A fixed side node facing a conductor surface.
+            if (t as usize) < self.nc {
+                self.direct.push(DirectCoupling {
+                    a: self.side_target(s),
+                    b: t,
+                    weight: w,
+                });
+            }
         }
     }
-    for p in 0..n {
-        if p + 1 < n && !unknown[p + 1] {
-            east[p] = 0.0;
+
+    /// Identity rows for fixed nodes, and no coupling from an unknown to a fixed neighbour
+    /// (that coupling is a link). Free-free couplings are symmetric: the upper end added the
+    /// same weight to its diagonal from its own half-link (equal by the raster invariant).
+    fn fix_rows(&mut self) {
+        let n = self.grid.len();
+        let nx = self.grid.nx;
+        for p in 0..n {
+            if !self.unknown[p] {
+                self.diag[p] = 1.0;
+                self.east[p] = 0.0;
+                self.north[p] = 0.0;
+            }
         }
-        if p + nx < n && !unknown[p + nx] {
-            north[p] = 0.0;
+        for p in 0..n {
+            if p + 1 < n && !self.unknown[p + 1] {
+                self.east[p] = 0.0;
+            }
+            if p + nx < n && !self.unknown[p + nx] {
+                self.north[p] = 0.0;
+            }
         }
     }
-    // Open sides: far-field (Robin) terms on the diagonal, as links to the side at 0 V.
-    if sides.contains(&Side::Open) {
+
+    /// Open sides: far-field (Robin) terms on the diagonal, as links to the side at 0 V, and
+    /// the tangential couplings of the far-field condition.
+    fn couple_open_sides(&mut self) {
+        let (design, raster) = (self.design, self.raster);
         let model = open::far_field(design);
         let robin = open::links(
-            &grid,
-            &sides,
+            &self.grid,
+            &self.sides,
             &model,
-            &unknown,
-            side_target,
+            &self.unknown,
+            |s| self.side_target(s),
             |p| Raster::permittivity(design, raster.material[p]),
-            |s, i, j| faces.boundary_area(s, i, j),
+            |s, i, j| self.faces.boundary_area(s, i, j),
         );
         for l in &robin {
-            diag[l.node as usize] += l.weight;
+            self.diag[l.node as usize] += l.weight;
         }
-        links.extend(robin);
+        self.links.extend(robin);
         let eps = |p: usize| Raster::permittivity(design, raster.material[p]);
         let pair_eps = |p: usize, q: usize| 2.0 * eps(p) * eps(q) / (eps(p) + eps(q));
-        for (p, q, w) in open::tangential_couplings(&grid, &model, &unknown, pair_eps) {
-            diag[p] += w;
-            diag[q] += w;
+        for (p, q, w) in open::tangential_couplings(&self.grid, &model, &self.unknown, pair_eps) {
+            self.diag[p] += w;
+            self.diag[q] += w;
             if q == p + 1 {
-                east[p] += w;
+                self.east[p] += w;
             } else {
-                north[p] += w;
+                self.north[p] += w;
             }
         }
     }
-    links.sort_by_key(|l| (l.node, l.dir));
 
-    let mut source = Vec::new();
-    let mut absorbed = vec![0.0; nc + 4];
-    for &(p, q) in &raster.node_charge {
-        let p = p as usize;
-        if unknown[p] {
-            source.push((p as u32, q / EPS0));
-        } else if raster.conductor[p] != NO_CONDUCTOR {
-            absorbed[raster.conductor[p] as usize] += q;
-        } else if let Some(s) = side_of(p % nx, p / nx) {
-            absorbed[side_target(s) as usize] += q;
+    /// Node charges of the raster: on unknowns a source (charge / eps0), on fixed nodes
+    /// absorbed by the conductor or side that holds them.
+    fn sources(&self) -> (Vec<(u32, f64)>, Vec<f64>) {
+        let nx = self.grid.nx;
+        let mut source = Vec::new();
+        let mut absorbed = vec![0.0; self.nc + 4];
+        for &(p, q) in &self.raster.node_charge {
+            let p = p as usize;
+            if self.unknown[p] {
+                source.push((p as u32, q / EPS0));
+            } else if self.raster.conductor[p] != NO_CONDUCTOR {
+                absorbed[self.raster.conductor[p] as usize] += q;
+            } else if let Some(s) = self.side_of(p % nx, p / nx) {
+                absorbed[self.side_target(s) as usize] += q;
+            }
         }
+        (source, absorbed)
     }
 
-    let stencil = Stencil5 {
-        nx,
-        ny,
-        diag,
-        east,
-        north,
-        unknown,
-    };
-    check_reference(&stencil, &links, &grid)?;
-    Ok(Operator {
-        grid,
-        mode: design.mode,
-        stencil,
-        n_conductors: nc,
-        side_potential,
-        links,
-        direct,
-        source,
-        absorbed,
-    })
+    /// The operator, once every region of unknowns is known to touch a fixed potential.
+    fn finish(self) -> Result<Operator, OperatorError> {
+        let (source, absorbed) = self.sources();
+        let stencil = Stencil5 {
+            nx: self.grid.nx,
+            ny: self.grid.ny,
+            diag: self.diag,
+            east: self.east,
+            north: self.north,
+            unknown: self.unknown,
+        };
+        check_reference(&stencil, &self.links, &self.grid)?;
+        Ok(Operator {
+            grid: self.grid,
+            mode: self.design.mode,
+            stencil,
+            n_conductors: self.nc,
+            side_potential: self.side_potential,
+            links: self.links,
+            direct: self.direct,
+            source,
+            absorbed,
+        })
+    }
 }
 
 /// The fixed side that owns node (i, j), if any. Dirichlet sides own their nodes; the bottom
