@@ -9,7 +9,9 @@
 //!   --workspace` is skipped: it is the run this test is part of. A trailing comment
 //!   `# exit code N` states the exit code the command must end with; otherwise it is 0.
 //! - ```` ```bash ````: a job script. It runs with `bash`; a Slurm array script
-//!   (`#SBATCH --array=A-B`) runs once per task, with the variables Slurm would set.
+//!   (`#SBATCH --array=A-B`) runs once per task, with the variables Slurm sets for a whole
+//!   array, except one task in the middle, which runs afterwards alone with the variables
+//!   Slurm sets for one resubmitted task (`sbatch --array=T`: count 1, min = max = T).
 //! - ```` ```text ````: quoted output, announced by the HTML comment on the line before the
 //!   fence: `<!-- output of: PREFIX -->` (what the first command starting with PREFIX
 //!   printed, standard output and error), `<!-- file: PATH -->` (a file a command wrote), or
@@ -303,16 +305,26 @@ fn every_readme_command_runs_as_written_and_prints_what_the_readme_quotes() {
             Kind::Script => {
                 let script = b.body.join("\n");
                 let tasks = array_tasks(&b.body).unwrap_or_default();
+                let slurm = |id: u32, of: &[u32]| {
+                    vec![
+                        ("SLURM_ARRAY_TASK_ID", id.to_string()),
+                        ("SLURM_ARRAY_TASK_COUNT", of.len().to_string()),
+                        ("SLURM_ARRAY_TASK_MIN", of[0].to_string()),
+                        ("SLURM_ARRAY_TASK_MAX", of[of.len() - 1].to_string()),
+                        ("SLURM_CPUS_PER_TASK", "1".to_string()),
+                    ]
+                };
+                // The whole array but one task (as if it failed), then that task resubmitted
+                // alone: the merge below needs every shard.
+                let resubmitted = tasks.get(tasks.len() / 2).copied();
                 let mut envs: Vec<Vec<(&str, String)>> = tasks
                     .iter()
-                    .map(|t| {
-                        vec![
-                            ("SLURM_ARRAY_TASK_ID", t.to_string()),
-                            ("SLURM_ARRAY_TASK_COUNT", tasks.len().to_string()),
-                            ("SLURM_CPUS_PER_TASK", "1".to_string()),
-                        ]
-                    })
+                    .filter(|&&t| Some(t) != resubmitted)
+                    .map(|&t| slurm(t, &tasks))
                     .collect();
+                if let Some(t) = resubmitted {
+                    envs.push(slurm(t, &[t]));
+                }
                 if envs.is_empty() {
                     envs.push(Vec::new());
                 }

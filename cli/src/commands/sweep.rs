@@ -11,10 +11,13 @@
 //! - `--shard I/N` runs the points with index % N == I, with 0 <= I < N (I counts from 0,
 //!   like a scheduler's array index from 0).
 //! - Every point's design is read and checked before the first solve, so bad input costs
-//!   no solve and leaves no rows.
-//! - After each point the whole `sweep.csv` is rewritten atomically, rows in point order, so
-//!   an interrupted run leaves a valid table and a re-run with the same arguments resumes by
-//!   skipping the points already there. A results directory of a different sweep is refused.
+//!   no solve and leaves no rows. Points are generated one at a time and read again when
+//!   solved: nothing is kept per point, so memory does not grow with the number of points.
+//! - After each point its row is appended to `sweep.csv` in one write, synced, rows in point
+//!   order; an interrupted run leaves a valid table (a last row cut short by a crash is
+//!   dropped on resume) and a re-run with the same arguments resumes by skipping the points
+//!   already there. A results directory of a different sweep is refused. One writer at a
+//!   time: the directory is locked ([`crate::outdir::lock`]).
 //! - A merge checks that every part belongs to the same sweep, that points given twice agree
 //!   exactly, and that together they cover every point.
 
@@ -265,48 +268,50 @@ pub fn run(args: &SweepArgs) -> Result<u8, Failure> {
     let mut params = study_params(&args.opts)?;
     // The sweep's own progress bar replaces the per-solve residual display.
     params.solver.monitor = None;
-    let mine: Vec<usize> = (0..points)
-        .filter(|&p| shard.is_none_or(|s| s.runs(p)))
-        .collect();
-
-    // Every point of this shard is read and checked before anything is solved.
-    let mut sources: Vec<(usize, Vec<f64>, DesignSource)> = Vec::new();
-    for &p in &mine {
-        let values = point_values(&vary, p);
-        let overrides: Vec<(String, f64)> = vary
-            .iter()
-            .zip(&values)
+    let mine = || (0..points).filter(move |&p| shard.is_none_or(|s| s.runs(p)));
+    let overrides = |values: &[f64]| -> Vec<(String, f64)> {
+        vary.iter()
+            .zip(values)
             .map(|(v, &x)| (v.name.clone(), x))
-            .collect();
-        let src =
-            load_design(design, &overrides).map_err(|f| point_failure(p, &vary, &values, f))?;
+            .collect()
+    };
+    let load_point = |p: usize| -> Result<(Vec<f64>, DesignSource), Failure> {
+        let values = point_values(&vary, p);
+        let src = load_design(design, &overrides(&values))
+            .map_err(|f| point_failure(p, &vary, &values, f))?;
         check_memory(&src, design, args.opts.max_memory)
             .map_err(|f| point_failure(p, &vary, &values, f))?;
-        sources.push((p, values, src));
-    }
-    let hash = match sources.first() {
-        Some((_, _, s)) => s.text_hash.clone(),
-        // A shard with no points (N larger than the sweep): still read the design once.
-        None => load_design(design, &[])?.text_hash,
+        Ok((values, src))
     };
-    let names: Vec<String> = match sources.first() {
-        Some((_, _, s)) => fixed_names(s),
-        None => fixed_names(&load_design(design, &[])?),
-    };
-    for (p, values, s) in &sources {
-        if fixed_names(s) != names {
+
+    // Every point of this shard is read and checked before anything is solved; the points
+    // are generated one at a time and nothing of a checked point is kept, so memory does not
+    // grow with the number of points.
+    let first = load_design(design, &[])?;
+    let names = fixed_names(&first);
+    let mut mode = first.design.mode;
+    let mut count = 0usize;
+    for p in mine() {
+        let (values, src) = load_point(p)?;
+        if count == 0 {
+            mode = src.design.mode;
+        }
+        if fixed_names(&src) != names {
             return Err(point_failure(
-                *p,
+                p,
                 &vary,
-                values,
-                Failure::input("the fixed-potential conductors differ from the first point's"),
+                &values,
+                Failure::input("the fixed-potential conductors differ from the design's"),
             ));
         }
+        count += 1;
     }
+    let hash = first.text_hash.clone();
+    drop(first);
     let mut columns = vec!["point".to_string()];
     columns.extend(vary.iter().map(|v| v.name.clone()));
-    let unit = match sources.first().map(|s| s.2.design.mode) {
-        Some(fieldgrid_solver::design::Mode::Axisymmetric) => "F",
+    let unit = match mode {
+        fieldgrid_solver::design::Mode::Axisymmetric => "F",
         _ => "F/m",
     };
     for a in &names {
@@ -329,8 +334,12 @@ pub fn run(args: &SweepArgs) -> Result<u8, Failure> {
     };
 
     let mut out = OutDir::prepare_in_place(&args.out)?;
-    let mut rows = resume(&out, &def)?;
-    if let Some(p) = rows.keys().find(|p| !mine.contains(p)) {
+    let (done, mut unconverged) = resume(&out, &def)?;
+    if let Some(p) = done
+        .iter()
+        .position(|&d| d)
+        .filter(|&p| shard.is_some_and(|s| !s.runs(p)))
+    {
         return Err(Failure::input(format!(
             "{}: sweep.csv holds point {p}, which is not in this shard: remove it or use \
              another --out",
@@ -340,22 +349,23 @@ pub fn run(args: &SweepArgs) -> Result<u8, Failure> {
     let def_json =
         serde_json::to_vec_pretty(&def).map_err(|e| Failure::io("encoding sweep.json", e))?;
     out.write("sweep.json", &def_json)?;
+    if !out.path().join("sweep.csv").exists() {
+        out.write("sweep.csv", &table_bytes(&columns, &Rows::new()))?;
+    }
 
     let progress = !args.opts.quiet && std::io::stderr().is_terminal();
-    let todo: Vec<&(usize, Vec<f64>, DesignSource)> = sources
-        .iter()
-        .filter(|(p, _, _)| !rows.contains_key(p))
-        .collect();
-    let skipped = mine.len() - todo.len();
-    for (done, (p, values, src)) in todo.iter().enumerate() {
+    let skipped = mine().filter(|&p| done[p]).count();
+    let mut solved = 0;
+    for p in mine().filter(|&p| !done[p]) {
+        let (values, src) = load_point(p)?;
         if progress {
             eprint!(
                 "\r{}",
-                progress_bar(skipped + done, mine.len(), *p, &vary, values)
+                progress_bar(skipped + solved, count, p, &vary, &values)
             );
         }
         let sol = with_threads(args.opts.threads, || study::run(&src.design, &params))?
-            .map_err(|e| super::solve::study_failure(src, e))?;
+            .map_err(|e| super::solve::study_failure(&src, e))?;
         let mut row = vec![p.to_string()];
         row.extend(values.iter().map(|&v| value_text(v)));
         for r in &sol.capacitance.matrix {
@@ -368,29 +378,25 @@ pub fn run(args: &SweepArgs) -> Result<u8, Failure> {
                 .unwrap_or_default(),
         );
         row.push(sol.solve.converged.to_string());
-        rows.insert(*p, row);
-        out.write("sweep.csv", &table_bytes(&columns, &rows))?;
+        if !sol.solve.converged {
+            unconverged += 1;
+        }
+        // One whole row per point, appended: the table is never rewritten.
+        out.append("sweep.csv", &row_bytes(&row))?;
+        solved += 1;
     }
     if progress {
         eprint!("\r{:78}\r", "");
     }
-    if todo.is_empty() {
-        // Nothing new: still leave a table (possibly empty) in the directory.
-        out.write("sweep.csv", &table_bytes(&columns, &rows))?;
-    }
     out.commit()?;
-    let unconverged = rows
-        .values()
-        .filter(|r| r.last().is_some_and(|c| c == "false"))
-        .count();
     if !args.opts.quiet {
         let part = shard
             .map(|s| format!(" (shard {}/{})", s.index, s.count))
             .unwrap_or_default();
         println!(
             "sweep{part}: {} of {} points solved now, {skipped} already in {}",
-            todo.len(),
-            mine.len(),
+            solved,
+            count,
             out.path().join("sweep.csv").display()
         );
         if unconverged > 0 {
@@ -455,6 +461,15 @@ fn progress_bar(done: usize, total: usize, p: usize, vary: &[Vary], values: &[f6
     );
     line.truncate(78);
     format!("{line:78}")
+}
+
+/// One CSV row, with its line end.
+fn row_bytes(row: &[String]) -> Vec<u8> {
+    let mut w = csv::WriterBuilder::new()
+        .has_headers(false)
+        .from_writer(Vec::new());
+    w.write_record(row).expect("in-memory CSV write");
+    w.into_inner().expect("in-memory CSV flush")
 }
 
 fn table_bytes(columns: &[String], rows: &Rows) -> Vec<u8> {
@@ -524,14 +539,22 @@ fn read_dir(dir: &Path) -> Result<Option<(SweepFile, Rows)>, Failure> {
     Ok(Some((def, rows)))
 }
 
-/// The rows already in `out` when it holds this very sweep (and shard); an error when it
-/// holds another one.
-fn resume(out: &OutDir, def: &SweepFile) -> Result<Rows, Failure> {
+/// Which points `out` already holds (by index) and how many of them did not converge, when
+/// it holds this very sweep (and shard); an error when it holds another one. A last row cut
+/// short by a crash (no line end) is dropped first: it is solved again.
+fn resume(out: &OutDir, def: &SweepFile) -> Result<(Vec<bool>, usize), Failure> {
+    drop_torn_row(&out.path().join("sweep.csv"))?;
     match read_dir(out.path())? {
-        None => Ok(Rows::new()),
+        None => Ok((vec![false; def.points], 0)),
         Some((old, rows)) => {
             if old.same_sweep(def) && old.shard == def.shard {
-                Ok(rows)
+                let mut done = vec![false; def.points];
+                let mut unconverged = 0;
+                for (p, r) in rows {
+                    done[p] = true;
+                    unconverged += usize::from(r.last().is_some_and(|c| c == "false"));
+                }
+                Ok((done, unconverged))
             } else {
                 Err(Failure::input(format!(
                     "{} holds another sweep ({}): use another --out, or remove sweep.json and \
@@ -542,6 +565,46 @@ fn resume(out: &OutDir, def: &SweepFile) -> Result<Rows, Failure> {
             }
         }
     }
+}
+
+/// Cuts `table` after its last line end (a row appended when the machine stopped may be
+/// incomplete).
+fn drop_torn_row(table: &Path) -> Result<(), Failure> {
+    use std::io::{Read, Seek, SeekFrom};
+    let Ok(mut f) = std::fs::OpenOptions::new()
+        .read(true)
+        .write(true)
+        .open(table)
+    else {
+        return Ok(());
+    };
+    let len = f.metadata().map(|m| m.len()).unwrap_or(0);
+    if len == 0 {
+        return Ok(());
+    }
+    // Look back in blocks for the last line end.
+    let mut end = len;
+    let mut buf = vec![0u8; 64 * 1024];
+    while end > 0 {
+        let start = end.saturating_sub(buf.len() as u64);
+        let n = (end - start) as usize;
+        let read = f
+            .seek(SeekFrom::Start(start))
+            .and_then(|_| f.read_exact(&mut buf[..n]));
+        if read.is_err() {
+            return Ok(());
+        }
+        if let Some(i) = buf[..n].iter().rposition(|&b| b == b'\n') {
+            let keep = start + i as u64 + 1;
+            if keep < len {
+                f.set_len(keep)
+                    .map_err(|e| Failure::io(format!("repairing {}", table.display()), e))?;
+            }
+            return Ok(());
+        }
+        end = start;
+    }
+    Ok(())
 }
 
 /// Joins the directories of one sweep's shards into `out`.

@@ -271,3 +271,31 @@ fn temporaries_of_a_killed_run_are_removed_by_the_next_run() {
     assert!(!stale.exists(), "stale temporary kept");
     assert!(out.join("summary.json").is_file());
 }
+
+#[test]
+fn a_sweep_row_cut_short_by_a_crash_is_dropped_and_solved_again() {
+    let dir = scratch(SCRATCH, "torn-row");
+    let text = PLATES
+        .replace("potential = 5.0", "potential = \"v\"")
+        .replacen("[grid]", "[parameters]\nv = 1.0\n[grid]", 1);
+    let design = write(&dir, "plates.toml", &text);
+    let out = dir.join("out");
+    let outs = out.to_str().unwrap();
+    let args = [
+        "sweep", &design, "--vary", "v=1:3:3", "--out", outs, "--quiet",
+    ];
+    expect(run(&args), 0);
+    let table = out.join("sweep.csv");
+    let full = std::fs::read_to_string(&table).unwrap();
+    let lines: Vec<&str> = full.lines().collect();
+    // As after a crash in the middle of appending point 1's row.
+    let torn = format!(
+        "{}\n{}\n{}",
+        lines[0],
+        lines[1],
+        &lines[2][..lines[2].len() / 2]
+    );
+    std::fs::write(&table, torn).unwrap();
+    expect(run(&args), 0);
+    assert_eq!(std::fs::read_to_string(&table).unwrap(), full);
+}
