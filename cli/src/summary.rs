@@ -168,6 +168,9 @@ pub struct PeakSummary {
     /// Estimated discretisation error of the magnitude, V/m.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub error_estimate: Option<f64>,
+    /// On a rounding too narrow for the cell: the value reads low (the estimate covers it).
+    #[serde(default)]
+    pub under_resolved: bool,
 }
 
 /// One hot spot.
@@ -191,6 +194,9 @@ pub struct HotspotSummary {
     /// Estimated discretisation error of the magnitude, V/m.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub error_estimate: Option<f64>,
+    /// On a rounding too narrow for the cell: the value reads low (the estimate covers it).
+    #[serde(default)]
+    pub under_resolved: bool,
 }
 
 /// The point of lowest margin.
@@ -296,6 +302,7 @@ impl Summary {
                 material: h.material.clone(),
                 singular: h.singular,
                 error_estimate: h.error_estimate,
+                under_resolved: h.under_resolved,
             }),
             hotspots: sol
                 .hotspots
@@ -309,6 +316,7 @@ impl Summary {
                     margin: h.margin,
                     singular: h.singular,
                     error_estimate: h.error_estimate,
+                    under_resolved: h.under_resolved,
                 })
                 .collect(),
             worst_margin: sol.worst_margin.as_ref().and_then(|h| {

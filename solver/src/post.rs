@@ -33,6 +33,9 @@ pub struct Hotspot {
     pub singular: bool,
     /// Estimated discretisation error of `magnitude`, V/m, when an error estimate was made.
     pub error_estimate: Option<f64>,
+    /// True on a rounded surface whose radius spans too few cells for the field to be
+    /// resolved: the value reads low, and the error estimate widens to cover it.
+    pub under_resolved: bool,
 }
 
 /// Hot-spot search settings.
@@ -313,6 +316,7 @@ fn hotspot_at(
         margin: strength.map(|s| s / mag),
         singular,
         error_estimate: None,
+        under_resolved: false,
     }
 }
 

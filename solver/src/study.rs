@@ -365,6 +365,9 @@ pub fn run(design: &Design, params: &StudyParams) -> Result<Solution, StudyError
     let surface = surface::sample(&field, design, &SurfaceParams::default());
     let surface_charge = surface_results::surface_charge(&surface, design, &charges);
     stages.enter(Stage::HotSpots);
+    // Triple junctions and dielectric corners are singular too.
+    let mut corners = corners;
+    corners.extend(surface_results::singular_points(design, &surface));
     let (mut peak_field, mut hotspots) =
         surface_results::peak_and_hotspots(&field, design, &corners, &params.hotspots, &surface);
     let coarse_surface = coarse_field
@@ -381,6 +384,13 @@ pub fn run(design: &Design, params: &StudyParams) -> Result<Solution, StudyError
             m.order,
         );
     }
+    surface_results::finish(
+        &mut peak_field,
+        &mut hotspots,
+        design,
+        &surface,
+        grid.hx.max(grid.hy),
+    );
     let worst_margin = hotspots.iter().find(|h| h.margin.is_some()).cloned();
     stages.leave();
     let magnitude = field.into_magnitudes();

@@ -53,6 +53,9 @@ pub struct SurfaceSample {
     pub material: u16,
     /// Field in that material at the surface, V/m; NaN where the fit is not determined.
     pub field: [f64; 2],
+    /// Curvature of the surface, 1/m: positive where it bulges into the sample's material
+    /// (a convex electrode), negative where it curves away from it.
+    pub curvature: f64,
 }
 
 impl SurfaceSample {
@@ -239,6 +242,7 @@ pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec
                         length: len / m as f64,
                         material: mat,
                         field: e,
+                        curvature: kappa,
                     });
                 }
                 arc += len;
@@ -315,6 +319,7 @@ pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec
                 length: len / m as f64,
                 material: mat,
                 field: e,
+                curvature: 0.0,
             });
         }
         curve += 1;
@@ -357,10 +362,13 @@ pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec
                         Some(SurfaceField::Interface(e1, e2)) => (e1, e2),
                         _ => ([f64::NAN; 2], [f64::NAN; 2]),
                     };
-                    for (side, (mat, e, nrm)) in
-                        [(m1, e1, [-normal[0], -normal[1]]), (m2, e2, normal)]
-                            .into_iter()
-                            .enumerate()
+                    // Side 1 sees the surface bulge away (a convex shape's inside).
+                    for (side, (mat, e, nrm, k)) in [
+                        (m1, e1, [-normal[0], -normal[1]], -kappa),
+                        (m2, e2, normal, kappa),
+                    ]
+                    .into_iter()
+                    .enumerate()
                     {
                         two[side].push(SurfaceSample {
                             x: p[0],
@@ -372,6 +380,7 @@ pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec
                             length: len / m as f64,
                             material: mat,
                             field: e,
+                            curvature: k,
                         });
                     }
                 }

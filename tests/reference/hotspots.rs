@@ -291,3 +291,63 @@ fn the_weaker_material_holds_the_worst_margin_at_a_lower_field() {
     let first = r.records().next().unwrap().unwrap();
     assert_eq!(&first[4], "background");
 }
+
+#[test]
+fn a_fillet_too_small_for_the_cell_is_marked_under_resolved_and_its_estimate_covers_the_error() {
+    // The reference value is the same design solved at a quarter of the default cell, where
+    // the 0.1 mm fillet spans 8 cells (its estimate there is 2 % of the value).
+    let with_estimate = |cell: f64| {
+        let overrides = [("cell".to_string(), cell), ("tip_round".to_string(), 0.1)];
+        let src = read_design(HV_TIP, "hv_tip.toml", &overrides).expect("demo design reads");
+        let mut p = params(Method::default());
+        p.error_estimate = true;
+        study::run(&src.design, &p).expect("study runs")
+    };
+    let coarse = with_estimate(0.05);
+    let fine = with_estimate(0.0125);
+    let (pc, pf) = (coarse.peak_field.unwrap(), fine.peak_field.unwrap());
+    println!("default cell {pc:?}\nquarter cell {pf:?}");
+    assert!(pc.under_resolved && !pf.under_resolved);
+    let err = (pf.magnitude - pc.magnitude).abs();
+    assert!(pc.error_estimate.unwrap() >= err + pf.error_estimate.unwrap());
+    // The margin is taken with the widened estimate: below the one of the better-resolved
+    // solve.
+    assert!(pc.margin.unwrap() < pf.margin.unwrap());
+}
+
+#[test]
+fn a_conductor_surface_meeting_a_dielectric_interface_is_a_singular_triple_junction() {
+    // A round rod sunk a quarter of its diameter into a dielectric slab: no sharp corner
+    // anywhere, but the slab's surface meets the rod's at two triple junctions at 60 degrees,
+    // where the field is singular (common practice).
+    let text = r#"
+unit = "mm"
+[grid]
+x = [0.0, 10.0]
+y = [0.0, 6.0]
+cell = 0.05
+[[dielectric]]
+name = "slab"
+permittivity = 4.0
+rect = { x = [0.0, 10.0], y = [0.0, 3.0] }
+[[conductor]]
+name = "rod"
+potential = 1.0
+circle = { center = [5.01, 3.5], radius = 1.0 }
+"#;
+    let src = read_design(text, "rod.toml", &[]).expect("design reads");
+    let s = study::run(&src.design, &params(Method::default())).expect("study runs");
+    println!("{:?}", s.hotspots);
+    let at_junction: Vec<_> = s
+        .hotspots
+        .iter()
+        .filter(|h| {
+            // The junctions, at x = 5.01 -/+ sqrt(1 - 0.5^2) mm on y = 3 mm.
+            [5.01e-3 - 0.866e-3, 5.01e-3 + 0.866e-3]
+                .iter()
+                .any(|&x| (h.x - x).hypot(h.y - 3.0e-3) < 0.2e-3)
+        })
+        .collect();
+    assert!(!at_junction.is_empty(), "no hot spot at a junction");
+    assert!(at_junction.iter().all(|h| h.singular));
+}

@@ -169,6 +169,10 @@ fn check_min_margin(
 pub const SINGULAR_NOTE: &str = "sharp corner or thin edge: the value grows as the cell \
      shrinks; round the corner (round = r) and solve again to evaluate it";
 
+/// What the report says about a hot spot on a rounding too narrow for the cell.
+pub const UNDER_RESOLVED_NOTE: &str = "the rounding spans fewer than four cells: the value \
+     reads low and its estimated error is widened to cover that; halve the cell to evaluate it";
+
 /// How margins are taken, printed with them.
 pub const MARGIN_RULE: &str = "margin = strength / (field + its estimated discretisation \
      error); the first row is the lowest margin anywhere in a material with a strength";
@@ -243,6 +247,8 @@ pub fn write_results(
                 h.singular.to_string(),
                 if h.singular {
                     SINGULAR_NOTE.to_string()
+                } else if h.under_resolved {
+                    UNDER_RESOLVED_NOTE.to_string()
                 } else {
                     String::new()
                 },
@@ -435,7 +441,13 @@ pub fn hotspot_report(hotspots: &[fieldgrid_solver::post::Hotspot], shown: usize
             h.x,
             h.y,
             h.material,
-            if h.singular { "  [singular]" } else { "" }
+            if h.singular {
+                "  [singular]"
+            } else if h.under_resolved {
+                "  [under-resolved]"
+            } else {
+                ""
+            }
         );
     }
     if hotspots.len() > shown {
@@ -443,6 +455,9 @@ pub fn hotspot_report(hotspots: &[fieldgrid_solver::post::Hotspot], shown: usize
     }
     if hotspots.iter().take(shown).any(|h| h.singular) {
         let _ = writeln!(s, "  [singular]: {SINGULAR_NOTE}");
+    }
+    if hotspots.iter().take(shown).any(|h| h.under_resolved) {
+        let _ = writeln!(s, "  [under-resolved]: {UNDER_RESOLVED_NOTE}");
     }
     if by_margin {
         if hotspots.iter().any(|h| h.error_estimate.is_some()) {
