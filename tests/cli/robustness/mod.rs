@@ -1,6 +1,7 @@
-//! Robustness of the command and the solvers: interrupted runs, refusals before any work,
-//! non-convergence, reproducible numbers, and the fuzzing findings replayed as regression
-//! tests, one module each. The helpers and the design they share are here.
+//! Robustness of the command and the solvers, one module per concern: interrupted runs
+//! (fault injection), refusals before any work, bounded and extreme inputs, non-convergence,
+//! reproducible numbers, and the fuzzing findings replayed as regression tests. The helpers
+//! and the design they share are here.
 
 mod bounded_inputs;
 mod convergence;
