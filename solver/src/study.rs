@@ -364,15 +364,17 @@ pub fn run(design: &Design, params: &StudyParams) -> Result<Solution, StudyError
         .collect();
     let surface = surface::sample(&field, design, &SurfaceParams::default());
     let surface_charge = surface_results::surface_charge(&surface, design, &charges);
+    let closed = surface::without_thin_conductors(&surface, design);
     stages.enter(Stage::HotSpots);
     // Triple junctions and dielectric corners are singular too.
     let mut corners = corners;
-    corners.extend(surface_results::singular_points(design, &surface));
+    corners.extend(surface_results::singular_points(design, &closed));
     let (mut peak_field, mut hotspots) =
-        surface_results::peak_and_hotspots(&field, design, &corners, &params.hotspots, &surface);
-    let coarse_surface = coarse_field
-        .as_ref()
-        .map(|f| surface::sample(f, design, &SurfaceParams::default()));
+        surface_results::peak_and_hotspots(&field, design, &corners, &params.hotspots, &closed);
+    let coarse_surface = coarse_field.as_ref().map(|f| {
+        let all = surface::sample(f, design, &SurfaceParams::default());
+        surface::without_thin_conductors(&all, design)
+    });
     if let (Some(m), Some(cf), Some(cs)) = (&error_model, &coarse_field, &coarse_surface) {
         surface_results::estimate_errors(
             &mut peak_field,
@@ -388,7 +390,7 @@ pub fn run(design: &Design, params: &StudyParams) -> Result<Solution, StudyError
         &mut peak_field,
         &mut hotspots,
         design,
-        &surface,
+        &closed,
         grid.hx.max(grid.hy),
     );
     let worst_margin = hotspots.iter().find(|h| h.margin.is_some()).cloned();

@@ -8,7 +8,8 @@
 //! free space lies in front of it (not where it touches another conductor or a side); a
 //! dielectric outline where the materials on its two sides differ (not where a later
 //! dielectric or a conductor covers it). An interface gives two samples at each point, one per
-//! side, each with its material and the field in it; a conductor or a fixed side gives one.
+//! side, each with its material and the field in it; a conductor or a fixed side gives one,
+//! and a zero-thickness conductor (a polyline) one on each of its two faces.
 //!
 //! Invariants: samples are ordered by curve, then by position along it, so that maxima along
 //! a curve can be read off neighbours; `curve` numbers one side of one loop of one outline
@@ -196,58 +197,60 @@ pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec
     let probe = 1e-3 * h;
     let mut out = Vec::new();
     let mut curve = 0;
-    // Conductors: the outward normal is the right of the direction of travel.
+    // Conductors: the outward normal is the right of the direction of travel. A zero-thickness
+    // conductor (an open path) has two faces, each sampled as a curve of its own: the right of
+    // the direction of travel, then the left.
     for (k, o) in mats.conductors.iter().enumerate() {
-        if o.open {
-            continue;
-        }
         let v = field.values[k];
-        for lp in &o.loops {
-            let mut arc = 0.0;
-            for piece in lp {
-                let len = piece.length();
-                let m = (len / step).ceil().max(1.0) as usize;
-                for s in 0..m {
-                    let (p, t, kappa) = on_piece(piece, (s as f64 + 0.5) / m as f64);
-                    let normal = [t[1], -t[0]];
-                    let front = [p[0] + probe * normal[0], p[1] + probe * normal[1]];
-                    let here = arc + (s as f64 + 0.5) * len / m as f64;
-                    if !mats.inside_domain(p) {
-                        continue;
+        let faces: &[f64] = if o.open { &[1.0, -1.0] } else { &[1.0] };
+        for &face in faces {
+            for lp in &o.loops {
+                let mut arc = 0.0;
+                for piece in lp {
+                    let len = piece.length();
+                    let m = (len / step).ceil().max(1.0) as usize;
+                    for s in 0..m {
+                        let (p, t, kappa) = on_piece(piece, (s as f64 + 0.5) / m as f64);
+                        let normal = [face * t[1], -face * t[0]];
+                        let front = [p[0] + probe * normal[0], p[1] + probe * normal[1]];
+                        let here = arc + (s as f64 + 0.5) * len / m as f64;
+                        if !mats.inside_domain(p) {
+                            continue;
+                        }
+                        let Some(mat) = mats.material(front) else {
+                            continue;
+                        };
+                        let across = Across::Conductor {
+                            potential: v,
+                            material: mat,
+                            eps: mats.eps(mat),
+                            rho: mats.rho(front),
+                            surface_points: cut_points(op, k, p, params.fit.radius_cells * h),
+                        };
+                        let frame = Frame {
+                            at: p,
+                            normal,
+                            curvature: face * kappa,
+                        };
+                        let e = surface_field::conductor_field(&lat, &frame, &across, &params.fit)
+                            .unwrap_or([f64::NAN; 2]);
+                        out.push(SurfaceSample {
+                            x: p[0],
+                            y: p[1],
+                            normal,
+                            kind: SurfaceKind::Conductor(k),
+                            curve,
+                            arc: here,
+                            length: len / m as f64,
+                            material: mat,
+                            field: e,
+                            curvature: face * kappa,
+                        });
                     }
-                    let Some(mat) = mats.material(front) else {
-                        continue;
-                    };
-                    let across = Across::Conductor {
-                        potential: v,
-                        material: mat,
-                        eps: mats.eps(mat),
-                        rho: mats.rho(front),
-                        surface_points: cut_points(op, k, p, params.fit.radius_cells * h),
-                    };
-                    let frame = Frame {
-                        at: p,
-                        normal,
-                        curvature: kappa,
-                    };
-                    let e = surface_field::conductor_field(&lat, &frame, &across, &params.fit)
-                        .unwrap_or([f64::NAN; 2]);
-                    out.push(SurfaceSample {
-                        x: p[0],
-                        y: p[1],
-                        normal,
-                        kind: SurfaceKind::Conductor(k),
-                        curve,
-                        arc: here,
-                        length: len / m as f64,
-                        material: mat,
-                        field: e,
-                        curvature: kappa,
-                    });
+                    arc += len;
                 }
-                arc += len;
+                curve += 1;
             }
-            curve += 1;
         }
     }
     // Fixed sides, the normal pointing into the domain.
@@ -393,6 +396,20 @@ pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec
         }
     }
     out
+}
+
+/// The samples that are not on a zero-thickness conductor. The field maxima are read from
+/// these: at a polyline the largest field sits at its ends, where the lattice reads the
+/// singular edge higher than a fit to the faces (which serve the surface charge).
+pub fn without_thin_conductors(samples: &[SurfaceSample], design: &Design) -> Vec<SurfaceSample> {
+    samples
+        .iter()
+        .filter(|s| match s.kind {
+            SurfaceKind::Conductor(k) => !matches!(design.conductors[k].shape, Shape::Polyline(_)),
+            _ => true,
+        })
+        .cloned()
+        .collect()
 }
 
 /// Where the operator's links to conductor k cut its surface within `reach` of `at`, m.

@@ -342,6 +342,57 @@ fn thin_conductor_a_rounding_error_off_a_node_row_counts_as_on_it() {
     }
 }
 
+#[test]
+fn zero_thickness_conductor_has_surface_charge_on_both_faces() {
+    // Regression: a polyline conductor once had no surface samples, so surface_charge.csv of
+    // a design of thin traces held only its header. A strip midway between grounded sides
+    // (the box is symmetric about y = 3 mm; the strip lies off the node rows) carries equal
+    // charge on its two faces by symmetry, and the samples integrate to its charge.
+    let d = strip_at("3.03").replace(
+        "[[dielectric]]\nname = \"board\"\npermittivity = 4.0\nrect = { x = [0.0, 6.0], y = [0.0, 3.0] }\n",
+        "",
+    );
+    assert!(!d.contains("dielectric"));
+    let s = solve(&design(&d));
+    let q = s.conductors[0].charge;
+    // Samples come face by face, each face ordered along the path.
+    let normals: Vec<f64> = s
+        .surface
+        .iter()
+        .filter(|p| p.kind == SurfaceKind::Conductor(0))
+        .map(|p| p.normal[1])
+        .collect();
+    let samples: Vec<_> = s
+        .surface_charge
+        .iter()
+        .filter(|p| p.conductor == 0)
+        .collect();
+    assert!(samples.len() >= 40, "{} samples", samples.len());
+    assert_eq!(samples.len(), normals.len(), "every sample has a field");
+    let half = samples.len() / 2;
+    assert!(normals[..half].iter().all(|&n| n < -0.99));
+    assert!(normals[half..].iter().all(|&n| n > 0.99));
+    for p in &samples {
+        assert!(
+            p.density > 0.0,
+            "density {:e} at ({:e}, {:e})",
+            p.density,
+            p.x,
+            p.y
+        );
+    }
+    let face = |ps: &[&fieldgrid_solver::post::SurfacePoint]| -> f64 {
+        ps.iter().map(|p| p.density * p.area).sum()
+    };
+    let (down, up) = (face(&samples[..half]), face(&samples[half..]));
+    assert!(
+        rel_err(up + down, q) < 1e-6,
+        "integral {:e}, charge {q:e}",
+        up + down
+    );
+    assert!(rel_err(up, down) < 0.03, "faces {up:e} and {down:e}");
+}
+
 fn coax_off(cells_across_inner_radius: f64) -> String {
     // Inner radius 1 mm, outer 2.5 mm, centre off the nodes.
     let cell = 1.0 / cells_across_inner_radius;
