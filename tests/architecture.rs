@@ -468,6 +468,44 @@ fn show(m: &Module) -> String {
     }
 }
 
+/// The part of ARCHITECTURE.md under the heading of `krate`'s section of the code map.
+fn code_map_section<'a>(map: &'a str, krate: &str) -> &'a str {
+    let head = format!("### `{krate}/`");
+    let start = map
+        .find(&head)
+        .unwrap_or_else(|| panic!("ARCHITECTURE.md has a section {head}"));
+    let rest = &map[start + head.len()..];
+    let end = rest
+        .find("\n## ")
+        .into_iter()
+        .chain(rest.find("\n### "))
+        .min();
+    &rest[..end.unwrap_or(rest.len())]
+}
+
+#[test]
+fn code_map_names_every_module_file() {
+    let map = std::fs::read_to_string(repo().join("ARCHITECTURE.md")).expect("ARCHITECTURE.md");
+    let mut missing = Vec::new();
+    for krate in ["solver", "cli"] {
+        let section = code_map_section(&map, krate);
+        for rel in rust_files(&repo().join(krate).join("src")) {
+            if is_test(&module_of(&rel)) {
+                continue;
+            }
+            let name = rel.to_string_lossy().replace('\\', "/");
+            if !section.contains(&format!("`{name}`")) {
+                missing.push(format!("{krate}/src/{name}"));
+            }
+        }
+    }
+    assert!(
+        missing.is_empty(),
+        "the code map in ARCHITECTURE.md does not name these module files (add a line on \
+         what each owns): {missing:?}"
+    );
+}
+
 #[test]
 fn module_graphs_have_no_cycle() {
     for krate in ["solver/src", "cli/src"] {
