@@ -3,7 +3,8 @@
 //! Invariants: a reduction splits its input into fixed chunks of [`CHUNK`] elements (never a
 //! function of the thread count), reduces each chunk sequentially, and adds the chunk partial
 //! sums in chunk order; per-row work ([`for_each_row`]) writes each lattice row from that row's
-//! inputs alone, so the order in which threads take rows cannot show in the result.
+//! inputs alone, and [`map`] computes each item's result from that item alone, so the order in
+//! which threads take rows or items cannot show in the result.
 
 use rayon::prelude::*;
 
@@ -39,6 +40,12 @@ pub fn for_each_row<T: Send>(out: &mut [T], nx: usize, f: impl Fn(usize, &mut [T
         .for_each(|(j, row)| f(j, row));
 }
 
+/// `f` of every item, in the items' order, in parallel; each result depends on its item
+/// alone, so the thread count cannot show in the output.
+pub fn map<T: Sync, U: Send>(items: &[T], f: impl Fn(&T) -> U + Sync) -> Vec<U> {
+    items.par_iter().map(&f).collect()
+}
+
 /// Dot product, deterministic.
 pub fn dot(a: &[f64], b: &[f64]) -> f64 {
     assert_eq!(a.len(), b.len());
@@ -68,5 +75,14 @@ mod tests {
         };
         assert_eq!(run(1).to_bits(), run(2).to_bits());
         assert_eq!(run(1).to_bits(), run(3).to_bits());
+        let mapped = |t: usize| {
+            rayon::ThreadPoolBuilder::new()
+                .num_threads(t)
+                .build()
+                .unwrap()
+                .install(|| map(&a[..1000], |v| v.sqrt().to_bits()))
+        };
+        assert_eq!(mapped(1), mapped(3));
+        assert_eq!(mapped(2)[7], a[7].sqrt().to_bits());
     }
 }

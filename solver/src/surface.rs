@@ -196,6 +196,7 @@ pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec
     };
     let probe = 1e-3 * h;
     let mut out = Vec::new();
+    let mut fits = Vec::new();
     let mut curve = 0;
     // Conductors: the outward normal is the right of the direction of travel. A zero-thickness
     // conductor (an open path) has two faces, each sampled as a curve of its own: the right of
@@ -232,8 +233,7 @@ pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec
                             normal,
                             curvature: face * kappa,
                         };
-                        let e = surface_field::conductor_field(&lat, &frame, &across, &params.fit)
-                            .unwrap_or([f64::NAN; 2]);
+                        fits.push(Fit::Conductor(out.len(), frame, across));
                         out.push(SurfaceSample {
                             x: p[0],
                             y: p[1],
@@ -243,7 +243,7 @@ pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec
                             arc: here,
                             length: len / m as f64,
                             material: mat,
-                            field: e,
+                            field: [f64::NAN; 2],
                             curvature: face * kappa,
                         });
                     }
@@ -310,8 +310,7 @@ pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec
                 normal,
                 curvature: 0.0,
             };
-            let e = surface_field::conductor_field(&lat, &frame, &across, &params.fit)
-                .unwrap_or([f64::NAN; 2]);
+            fits.push(Fit::Conductor(out.len(), frame, across));
             out.push(SurfaceSample {
                 x: p[0],
                 y: p[1],
@@ -321,7 +320,7 @@ pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec
                 arc: (s as f64 + 0.5) * len / m as f64,
                 length: len / m as f64,
                 material: mat,
-                field: e,
+                field: [f64::NAN; 2],
                 curvature: 0.0,
             });
         }
@@ -332,6 +331,7 @@ pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec
         for lp in &o.loops {
             let mut arc = 0.0;
             let mut two: [Vec<SurfaceSample>; 2] = [Vec::new(), Vec::new()];
+            let mut pending = Vec::new();
             for piece in lp {
                 let len = piece.length();
                 let m = (len / step).ceil().max(1.0) as usize;
@@ -360,18 +360,12 @@ pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec
                         normal,
                         curvature: kappa,
                     };
-                    let (e1, e2) = match surface_field::field_at(&lat, &frame, &across, &params.fit)
-                    {
-                        Some(SurfaceField::Interface(e1, e2)) => (e1, e2),
-                        _ => ([f64::NAN; 2], [f64::NAN; 2]),
-                    };
+                    pending.push((two[0].len(), frame, across));
                     // Side 1 sees the surface bulge away (a convex shape's inside).
-                    for (side, (mat, e, nrm, k)) in [
-                        (m1, e1, [-normal[0], -normal[1]], -kappa),
-                        (m2, e2, normal, kappa),
-                    ]
-                    .into_iter()
-                    .enumerate()
+                    for (side, (mat, nrm, k)) in
+                        [(m1, [-normal[0], -normal[1]], -kappa), (m2, normal, kappa)]
+                            .into_iter()
+                            .enumerate()
                     {
                         two[side].push(SurfaceSample {
                             x: p[0],
@@ -382,7 +376,7 @@ pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec
                             arc: here,
                             length: len / m as f64,
                             material: mat,
-                            field: e,
+                            field: [f64::NAN; 2],
                             curvature: k,
                         });
                     }
@@ -390,12 +384,48 @@ pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec
                 arc += len;
             }
             let [a, b] = two;
+            let (first, second) = (out.len(), out.len() + a.len());
+            fits.extend(
+                pending.into_iter().map(|(j, frame, across)| {
+                    Fit::Interface([first + j, second + j], frame, across)
+                }),
+            );
             out.extend(a);
             out.extend(b);
             curve += 2;
         }
     }
+    // The fits, each from its own sample's neighbourhood, in parallel.
+    let fields = crate::parallel::map(&fits, |fit| match fit {
+        Fit::Conductor(_, frame, across) => {
+            let e = surface_field::conductor_field(&lat, frame, across, &params.fit);
+            [e.unwrap_or([f64::NAN; 2]), [f64::NAN; 2]]
+        }
+        Fit::Interface(_, frame, across) => {
+            match surface_field::field_at(&lat, frame, across, &params.fit) {
+                Some(SurfaceField::Interface(e1, e2)) => [e1, e2],
+                _ => [[f64::NAN; 2]; 2],
+            }
+        }
+    });
+    for (fit, e) in fits.iter().zip(fields) {
+        match fit {
+            Fit::Conductor(i, ..) => out[*i].field = e[0],
+            Fit::Interface([i, j], ..) => {
+                out[*i].field = e[0];
+                out[*j].field = e[1];
+            }
+        }
+    }
     out
+}
+
+/// A fit still to be made: the sample(s) it gives the field of, where, and what lies across.
+enum Fit {
+    /// The sample at this index, on a conductor or a fixed side.
+    Conductor(usize, Frame, Across),
+    /// The samples at these indices: the two sides of an interface.
+    Interface([usize; 2], Frame, Across),
 }
 
 /// The samples that are not on a zero-thickness conductor. The field maxima are read from
