@@ -1,8 +1,8 @@
 //! Benchmark problems for the solvers, and a plain binary format to hand the same matrices to
 //! outside solvers (see `benches/README.md`).
 //!
-//! The benchmark problem of issue 3 is the design file `problem.toml`, taken through the real
-//! pipeline (design reader -> grid -> rasteriser -> operator) by [`issue3`]. [`issue3_staircase`]
+//! The benchmark problem is the design file `problem.toml`, taken through the real
+//! pipeline (design reader -> grid -> rasteriser -> operator) by [`benchmark_problem`]. [`staircase_problem`]
 //! builds a comparable operator by hand (nodes inside a conductor rectangle or on the grounded
 //! sides fixed, each cell with the permittivity of its centre, the coupling across a dual face
 //! the face-length-weighted mean of the two cells it crosses, times EPS0), which needs no
@@ -33,9 +33,9 @@ struct Rect {
 /// The design file of the benchmark problem.
 pub const PROBLEM_TOML: &str = include_str!("problem.toml");
 
-/// The benchmark problem of issue 3 (`problem.toml`) with cell 1/n, through the design
+/// The benchmark problem (`problem.toml`) with cell 1/n, through the design
 /// reader, rasteriser and operator assembly; one right-hand side per conductor at 1 V.
-pub fn issue3(n: usize) -> Problem {
+pub fn benchmark_problem(n: usize) -> Problem {
     let src = fieldgrid_cli::design_file::read_design(
         PROBLEM_TOML,
         "problem.toml",
@@ -62,10 +62,10 @@ pub fn issue3(n: usize) -> Problem {
     }
 }
 
-/// The benchmark problem of issue 3 on the unit square with cell 1/n: grounded sides,
+/// The benchmark problem on the unit square with cell 1/n: grounded sides,
 /// relative permittivity 4.4 below y = 0.5 and 1 above, conductors `a`, `b` and `pad`, built
 /// by the staircase builder.
-pub fn issue3_staircase(n: usize) -> Problem {
+pub fn staircase_problem(n: usize) -> Problem {
     let conductors = [
         Rect {
             name: "a",
@@ -198,7 +198,7 @@ mod tests {
 
     #[test]
     fn pipeline_problem_has_three_conductors_and_the_lattice_of_cell_one_over_n() {
-        let p = issue3(40);
+        let p = benchmark_problem(40);
         assert_eq!(p.names, ["a", "b", "pad"]);
         assert_eq!((p.stencil.nx, p.stencil.ny), (41, 41));
         // Conductor a covers x 0.30..0.45, y 0.55..0.60: node (15, 23) is inside it.
@@ -210,7 +210,7 @@ mod tests {
 
     #[test]
     fn staircase_problem_has_three_conductors_and_a_symmetric_operator() {
-        let p = issue3_staircase(40);
+        let p = staircase_problem(40);
         assert_eq!(p.names, ["a", "b", "pad"]);
         let s = &p.stencil;
         // Conductor a covers x 0.30..0.45 (nodes 12..18), y 0.55..0.60 (22..24).

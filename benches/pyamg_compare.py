@@ -1,5 +1,5 @@
 #!/usr/bin/env python3
-"""Runs the issue-3 benchmark problem through fieldgrid's multigrid and through PyAMG in the
+"""Runs the benchmark problem through fieldgrid's multigrid and through PyAMG in the
 same run, on the same matrices, and prints the ratio of the times.
 
 The Rust bench binary builds each operator, times its own setup and three unit-potential
@@ -83,7 +83,7 @@ def main():
         print(f"{'N':>5} {'unknowns':>9} | {'PyAMG setup':>11} {'3 solves':>9} {'iters':>12} {'total':>8}"
               f" {'cpu':>8} | {'fieldgrid thr':>13} {'total':>8} {'cpu':>8} | {'ratio':>6} {'cpu ratio':>9}")
         for n in [int(s) for s in args.sizes.split(",")]:
-            a, rhs = read_problem(os.path.join(tmp, f"issue3_{n}.bin"))
+            a, rhs = read_problem(os.path.join(tmp, f"problem_{n}.bin"))
             setup, solve3, cpu, iters = pyamg_run(a, rhs, args.pyamg_repeats)
             total = setup + solve3
             for r in [r for r in rust if r["n"] == n]:

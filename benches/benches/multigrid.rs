@@ -1,4 +1,4 @@
-//! Multigrid benchmark on the problem of issue 3: setup, iterations and solve times per grid
+//! Multigrid benchmark on the benchmark problem: setup, iterations and solve times per grid
 //! size, medians over repeats, on one and two threads; optionally exports each matrix for
 //! `benches/pyamg_compare.py`.
 //!
@@ -6,7 +6,7 @@
 //!  [--threads 1,2] [--export DIR] [--json FILE] [--memory N] [--fine-sweeps K]
 //!  [--coarse-sweeps K] [--coarsest-nodes M]`
 
-use fieldgrid_benches::{issue3, write_csr, Problem};
+use fieldgrid_benches::{benchmark_problem, write_csr, Problem};
 use fieldgrid_solver::solvers::multigrid::{Hierarchy, Options};
 use fieldgrid_solver::solvers::Params;
 use std::time::Instant;
@@ -134,7 +134,7 @@ fn main() {
     if let Some(n) = args.memory {
         // One setup and three solves, keeping every solution, as a whole solve would; run
         // under `/usr/bin/time -v` to read the peak resident set.
-        let p = issue3(n);
+        let p = benchmark_problem(n);
         let h = Hierarchy::with_options(&p.stencil, &args.options);
         let mut xs = vec![vec![0.0; p.stencil.len()]; p.rhs.len()];
         let infos = h.solve_many(&p.stencil, &p.rhs, &mut xs, &Params::default());
@@ -167,11 +167,11 @@ fn main() {
         "speedup"
     );
     for &n in &args.sizes {
-        let p = issue3(n);
+        let p = benchmark_problem(n);
         let unknowns = p.stencil.unknowns();
         if let Some(dir) = &args.export {
             std::fs::create_dir_all(dir).expect("export directory");
-            write_csr(&dir.join(format!("issue3_{n}.bin")), &p).expect("export matrix");
+            write_csr(&dir.join(format!("problem_{n}.bin")), &p).expect("export matrix");
         }
         let mut first_solve = None;
         for &t in &args.threads {

@@ -4,7 +4,7 @@
 //! Each repeat runs the real command in this process (`solve benches/problem.toml --set n=N
 //! --no-error-estimate --threads T`, results to a scratch directory) with the stage times of
 //! `--timings`, then the `multigrid` benchmark's measurement on the same matrix (hierarchy
-//! setup and three solves, [`fieldgrid_benches::issue3`]), and, when a `fieldgrid` binary is
+//! setup and three solves, [`fieldgrid_benches::benchmark_problem`]), and, when a `fieldgrid` binary is
 //! given or found beside this one, the whole process from start to exit. It prints per stage
 //! the median wall and CPU seconds, and the ratios of the totals to setup + three solves.
 //!
@@ -12,7 +12,7 @@
 //!  [--threads 2] [--binary PATH] [--error-estimate]`
 
 use clap::Parser;
-use fieldgrid_benches::issue3;
+use fieldgrid_benches::benchmark_problem;
 use fieldgrid_cli::args::{Cli, Command};
 use fieldgrid_cli::commands::solve;
 use fieldgrid_cli::timings::{cpu_seconds, StageTime, Timings, SOLVER_STAGES};
@@ -124,7 +124,7 @@ fn in_process(args: &[String]) -> (Vec<StageTime>, StageTime) {
 /// Hierarchy setup and three solves on the same matrix, as the `multigrid` bench measures
 /// them: (wall, cpu).
 fn multigrid(n: usize, threads: usize) -> (f64, f64) {
-    let p = issue3(n);
+    let p = benchmark_problem(n);
     let pool = rayon::ThreadPoolBuilder::new()
         .num_threads(threads)
         .build()
