@@ -41,6 +41,17 @@ pub enum SolverChoice {
     Sor,
 }
 
+impl From<SolverChoice> for fieldgrid_solver::solvers::Method {
+    fn from(c: SolverChoice) -> Self {
+        use fieldgrid_solver::solvers::Method;
+        match c {
+            SolverChoice::Multigrid => Method::Multigrid,
+            SolverChoice::Cg => Method::Cg,
+            SolverChoice::Sor => Method::Sor,
+        }
+    }
+}
+
 /// Options shared by every command that solves.
 #[derive(Args, Debug, Clone)]
 pub struct SolveOptions {

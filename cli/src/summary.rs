@@ -266,7 +266,7 @@ impl Summary {
                 hy: g.hy,
             },
             solver: SolverSummary {
-                method: sol.solve.method.to_string(),
+                method: sol.solve.method.map_or("none", |m| m.name()).to_string(),
                 iterations: sol.solve.iterations,
                 relative_residual: sol.solve.relative_residual,
                 seconds,

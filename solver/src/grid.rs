@@ -20,31 +20,42 @@ pub struct Grid {
     pub hy: f64,
 }
 
-/// A domain too small or a cell size that is not a positive finite number.
-#[derive(Clone, Debug, PartialEq, thiserror::Error)]
-#[error("{0}")]
-pub struct GridError(pub String);
+/// A lattice that cannot be fitted.
+#[derive(Clone, Copy, Debug, PartialEq, thiserror::Error)]
+#[non_exhaustive]
+pub enum GridError {
+    /// The cell size is not a positive finite number.
+    #[error("cell size must be a positive number, got {0}")]
+    Cell(f64),
+    /// The domain has no positive, finite width and height.
+    #[error("the domain must have positive width and height")]
+    Domain,
+    /// More than 1e8 cells along an axis.
+    #[error("{x} x {y} cells is far too many")]
+    TooManyCells {
+        /// Cells along x.
+        x: f64,
+        /// Cells along y.
+        y: f64,
+    },
+}
 
 impl Grid {
     /// Fits a grid to the domain with cells as close to `cell` as a whole number of cells
     /// allows along each axis (at least 2 cells per axis).
     pub fn fit(x: [f64; 2], y: [f64; 2], cell: f64) -> Result<Grid, GridError> {
         if !(cell.is_finite() && cell > 0.0) {
-            return Err(GridError(format!(
-                "cell size must be a positive number, got {cell}"
-            )));
+            return Err(GridError::Cell(cell));
         }
         let lx = x[1] - x[0];
         let ly = y[1] - y[0];
         if !(lx.is_finite() && lx > 0.0 && ly.is_finite() && ly > 0.0) {
-            return Err(GridError(
-                "the domain must have positive width and height".into(),
-            ));
+            return Err(GridError::Domain);
         }
         let cx = (lx / cell).round().max(2.0);
         let cy = (ly / cell).round().max(2.0);
         if cx > 1.0e8 || cy > 1.0e8 {
-            return Err(GridError(format!("{cx} x {cy} cells is far too many")));
+            return Err(GridError::TooManyCells { x: cx, y: cy });
         }
         let (cx, cy) = (cx as usize, cy as usize);
         Ok(Grid {
@@ -126,7 +137,21 @@ mod tests {
 
     #[test]
     fn fit_rejects_bad_cell() {
-        assert!(Grid::fit([0.0, 1.0], [0.0, 1.0], 0.0).is_err());
-        assert!(Grid::fit([0.0, 1.0], [0.0, 1.0], f64::NAN).is_err());
+        assert_eq!(
+            Grid::fit([0.0, 1.0], [0.0, 1.0], 0.0),
+            Err(GridError::Cell(0.0))
+        );
+        assert!(matches!(
+            Grid::fit([0.0, 1.0], [0.0, 1.0], f64::NAN),
+            Err(GridError::Cell(_))
+        ));
+        assert_eq!(
+            Grid::fit([0.0, 1.0], [1.0, 1.0], 0.1),
+            Err(GridError::Domain)
+        );
+        assert!(matches!(
+            Grid::fit([0.0, 1.0], [0.0, 1.0], 1e-9),
+            Err(GridError::TooManyCells { .. })
+        ));
     }
 }

@@ -23,6 +23,7 @@ pub mod open;
 pub mod operator;
 pub mod parallel;
 pub mod peaks;
+pub mod plan;
 pub mod post;
 pub mod raster;
 pub mod solvers;

@@ -15,7 +15,9 @@
 //! H/m, ohms).
 
 use crate::design::{Design, Drive, Mode, Side};
+use crate::grid::GridError;
 use crate::line::{self, LineError, LineParams};
+use crate::plan::Plan;
 use crate::study::{self, Solution, StudyError, StudyParams};
 use crate::warning::Warning;
 
@@ -93,15 +95,33 @@ pub fn check_signals(design: &Design, signals: &[String]) -> Result<(), SignalEr
     Ok(())
 }
 
+/// The plan of a line study: the lattice both studies share, and their memory (the first
+/// study's solution is held while the second runs).
+pub fn plan(design: &Design, params: &StudyParams) -> Result<Plan, GridError> {
+    Ok(crate::plan::plan(design, params)?.holding_a_solution())
+}
+
 /// Runs both studies of a planar design and derives the line parameters of `signals`.
 pub fn run(
     design: &Design,
     signals: &[String],
     params: &StudyParams,
 ) -> Result<LineStudy, LineStudyError> {
+    let plan = plan(design, params).map_err(StudyError::from)?;
+    run_planned(design, &plan, signals, params)
+}
+
+/// [`run`] on the lattice of a `plan` made for this design by [`plan`] (both studies share
+/// it).
+pub fn run_planned(
+    design: &Design,
+    plan: &Plan,
+    signals: &[String],
+    params: &StudyParams,
+) -> Result<LineStudy, LineStudyError> {
     check_signals(design, signals)?;
-    let solution = study::run(design, params)?;
-    let vacuum = study::run(&without_dielectrics(design), params)?;
+    let solution = study::run_planned(design, plan, params)?;
+    let vacuum = study::run_planned(&without_dielectrics(design), plan, params)?;
     let (mirrored, mut warnings) = mirrors(design, signals);
     let factor = 2f64.powi(mirrored.len() as i32);
     let pick = |sol: &Solution, m: &[Vec<f64>]| {
@@ -291,6 +311,15 @@ mod tests {
                 signals: vec!["other".into()],
             }]
         );
+    }
+
+    #[test]
+    fn the_plan_counts_the_held_solution() {
+        let d = half_strip(1.0, None);
+        let one = crate::plan::plan(&d, &quick()).unwrap();
+        let two = plan(&d, &quick()).unwrap();
+        assert_eq!(one.grid(), two.grid());
+        assert!(two.memory_mib() > one.memory_mib());
     }
 
     #[test]

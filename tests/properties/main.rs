@@ -48,15 +48,10 @@ fn runner(cases: u32, seed: u8) -> TestRunner {
 }
 
 fn params() -> StudyParams {
-    StudyParams {
-        method: Method::Multigrid,
-        solver: Params {
-            tol: 1e-12,
-            ..Params::default()
-        },
-        error_estimate: false,
-        ..StudyParams::default()
-    }
+    StudyParams::default()
+        .with_method(Method::Multigrid)
+        .with_solver(Params::default().with_tol(1e-12))
+        .with_error_estimate(false)
 }
 
 fn solve(d: &Design) -> Result<Solution, TestCaseError> {

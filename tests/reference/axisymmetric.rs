@@ -131,10 +131,7 @@ ring = { center = [20.0, 0.0], inner = 2.5, outer = 3.0 }
 
 /// Study settings with the error estimate (three lattices) switched on.
 fn with_error_estimate() -> StudyParams {
-    StudyParams {
-        error_estimate: true,
-        ..params(Method::default())
-    }
+    params(Method::default()).with_error_estimate(true)
 }
 
 #[test]

@@ -6,7 +6,7 @@
 use fieldgrid_solver::line::elliptic_k;
 use fieldgrid_solver::line_study::{self, LineStudy};
 use fieldgrid_solver::solvers::Method;
-use fieldgrid_solver::study::{self, StudyParams};
+use fieldgrid_solver::study;
 use fieldgrid_solver::{EPS0, MU0};
 use fieldgrid_tests::cli::{expect, run, s, scratch, summary, write};
 use fieldgrid_tests::{design, params, rel_err};
@@ -80,10 +80,7 @@ fn cpw(s: f64, w: f64, h: f64, eps_r: f64) -> (f64, f64) {
 fn run_line(text: &str, signals: &[&str], error_estimate: bool) -> LineStudy {
     let d = design(text);
     let signals: Vec<String> = signals.iter().map(|s| s.to_string()).collect();
-    let p = StudyParams {
-        error_estimate,
-        ..params(Method::default())
-    };
+    let p = params(Method::default()).with_error_estimate(error_estimate);
     let ls = line_study::run(&d, &signals, &p).expect("line study runs");
     assert!(ls.solution.solve.converged && ls.vacuum.solve.converged);
     ls
@@ -335,10 +332,7 @@ fn assert_brackets(case: &str, got: f64, estimate: f64, want: f64) {
 }
 
 fn estimated(text: &str) -> (f64, f64, f64) {
-    let p = StudyParams {
-        error_estimate: true,
-        ..params(Method::default())
-    };
+    let p = params(Method::default()).with_error_estimate(true);
     let s = study::run(&design(text), &p).expect("study runs");
     let m = s.capacitance.error_model.as_ref().expect("error model");
     (

@@ -250,10 +250,7 @@ fn errors(p: &Problem) -> Errors {
         }
     }
     let mut x = vec![0.0; g.len()];
-    let params = Params {
-        tol: 1e-13,
-        ..Params::default()
-    };
+    let params = Params::default().with_tol(1e-13);
     let info = solvers::solve(Method::Multigrid, &op.stencil, &b, &mut x, &params)
         .unwrap_or_else(|e| panic!("solve: {e}"));
     assert!(info.converged());

@@ -591,11 +591,8 @@ rect = { x = [0.0, 1.0], y = [0.0, 2.0] }
 
 #[test]
 fn error_estimates_of_surface_fields_are_within_three_times_the_true_error() {
-    use fieldgrid_solver::study::{self, StudyParams};
-    let with_estimate = StudyParams {
-        error_estimate: true,
-        ..fieldgrid_tests::params(Method::default())
-    };
+    use fieldgrid_solver::study;
+    let with_estimate = fieldgrid_tests::params(Method::default()).with_error_estimate(true);
     // Coax (Griffiths 2017, sec. 2.2.3; common practice): E(a) = V / (a ln(b/a)).
     let want = 1.0 / (1e-3 * 2.5f64.ln());
     for n in [10.0, 20.0] {

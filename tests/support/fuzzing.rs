@@ -298,16 +298,10 @@ pub fn design_target(data: &[u8]) -> String {
     };
     let mut coarse = d.clone();
     coarse.domain.cell = small.hx.max(small.hy) * (1.0 + 1e-9);
-    let params = StudyParams {
-        method: Method::Multigrid,
-        solver: Params {
-            tol: 1e-8,
-            max_iter: 400,
-            ..Params::default()
-        },
-        error_estimate: false,
-        ..StudyParams::default()
-    };
+    let params = StudyParams::default()
+        .with_method(Method::Multigrid)
+        .with_solver(Params::default().with_tol(1e-8).with_max_iter(400))
+        .with_error_estimate(false);
     match study::run(&coarse, &params) {
         Ok(sol) => {
             if sol.solve.converged {

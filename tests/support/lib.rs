@@ -20,15 +20,10 @@ pub fn design(text: &str) -> Design {
 
 /// Study settings for tests: given method, tolerance 1e-10, no error estimate.
 pub fn params(method: Method) -> StudyParams {
-    StudyParams {
-        method,
-        solver: Params {
-            tol: 1e-10,
-            ..Params::default()
-        },
-        error_estimate: false,
-        ..StudyParams::default()
-    }
+    StudyParams::default()
+        .with_method(method)
+        .with_solver(Params::default().with_tol(1e-10))
+        .with_error_estimate(false)
 }
 
 /// Solves with the default solver and tight tolerance.

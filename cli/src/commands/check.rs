@@ -5,11 +5,19 @@ use crate::args::CheckArgs;
 use crate::error::Failure;
 use crate::outdir::OutDir;
 use crate::EXIT_OK;
+use fieldgrid_solver::plan;
+use fieldgrid_solver::study::StudyParams;
 
 /// Runs the command, returning the exit code.
 pub fn run(args: &CheckArgs) -> Result<u8, Failure> {
     let src = load_design(&args.design, &super::parameter_overrides(&args.set)?)?;
-    let (grid, mib) = check_memory(&src, &args.design, None)?;
+    let (plan, mib) = check_memory(
+        &src,
+        plan::plan(&src.design, &StudyParams::default()),
+        None,
+        0.0,
+    )?;
+    let grid = plan.grid();
     let d = &src.design;
     let report = serde_json::json!({
         "version": 1,

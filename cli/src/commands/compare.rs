@@ -20,6 +20,7 @@ use crate::error::Failure;
 use crate::outdir::{csv_bytes, num, OutDir};
 use crate::summary::{Summary, VERSION};
 use crate::{EXIT_CHANGED, EXIT_NOT_CONVERGED, EXIT_OK};
+use fieldgrid_solver::plan;
 use fieldgrid_solver::study::{self, Solution};
 use serde::Serialize;
 use std::path::{Path, PathBuf};
@@ -155,14 +156,21 @@ fn load(path: &Path, args: &CompareArgs, role: &str) -> Result<Revision, Failure
         }),
         InputKind::Design => {
             let src = load_design(&file, &[])?;
-            check_memory(&src, &file, args.opts.max_memory)?;
             let params = study_params(&args.opts)?;
+            let (plan, _) = check_memory(
+                &src,
+                plan::plan(&src.design, &params),
+                args.opts.max_memory,
+                0.0,
+            )?;
             if !args.opts.quiet && std::io::IsTerminal::is_terminal(&std::io::stderr()) {
                 eprint!("\rsolving {role} {} ...", file.display());
             }
             let start = Instant::now();
-            let sol = with_threads(args.opts.threads, || study::run(&src.design, &params))?
-                .map_err(|e| super::solve::study_failure(&src, e))?;
+            let sol = with_threads(args.opts.threads, || {
+                study::run_planned(&src.design, &plan, &params)
+            })?
+            .map_err(|e| super::solve::study_failure(&src, e))?;
             if !args.opts.quiet && std::io::IsTerminal::is_terminal(&std::io::stderr()) {
                 eprint!("\r{:70}\r", "");
             }

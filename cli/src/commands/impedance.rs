@@ -31,12 +31,17 @@ pub fn run(args: &ImpedanceArgs) -> Result<u8, Failure> {
         )));
     }
     check_signals(design, &args.signal)?;
-    check_memory(&src, &args.design, args.opts.max_memory)?;
     let params = study_params(&args.opts)?;
+    let (plan, _) = check_memory(
+        &src,
+        line_study::plan(design, &params),
+        args.opts.max_memory,
+        0.0,
+    )?;
     let mut out = OutDir::prepare(&args.out)?;
     let start = Instant::now();
     let ls = with_threads(args.opts.threads, || {
-        line_study::run(design, &args.signal, &params)
+        line_study::run_planned(design, &plan, &args.signal, &params)
     })?
     .map_err(|e| match e {
         LineStudyError::Study(e) => study_failure(&src, e),

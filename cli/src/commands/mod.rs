@@ -7,12 +7,13 @@ pub mod impedance;
 pub mod solve;
 pub mod sweep;
 
-use crate::args::{SolveOptions, SolverChoice};
+use crate::args::SolveOptions;
 use crate::design_file::{self, DesignSource};
 use crate::error::Failure;
 use fieldgrid_solver::design::Item;
-use fieldgrid_solver::grid::Grid;
-use fieldgrid_solver::solvers::{Method, Params};
+use fieldgrid_solver::grid::GridError;
+use fieldgrid_solver::plan::Plan;
+use fieldgrid_solver::solvers::Params;
 use fieldgrid_solver::study::StudyParams;
 use std::io::IsTerminal;
 use std::path::Path;
@@ -104,17 +105,6 @@ pub fn load_design(path: &Path, overrides: &[(String, f64)]) -> Result<DesignSou
     )?)
 }
 
-/// Bytes per lattice node that a solve needs at most (operator, multigrid hierarchy, solver
-/// vectors, the coarser lattices of the error estimate, results and pictures). Measured as
-/// the peak resident set of `fieldgrid solve` (`/usr/bin/time -v`, multigrid, error
-/// estimate on, a design with two conductors, a dielectric and an open side): 42 MiB at
-/// 501 x 501 nodes, 124 MiB at 1001 x 1001, 269 MiB at 1501 x 1501, 468 MiB at 2001 x 2001,
-/// that is about 15 MiB plus 120 bytes per node; rounded up, with [`BASE_MIB`] for the rest.
-pub const BYTES_PER_NODE: f64 = 128.0;
-
-/// Memory of the process apart from the lattice (code, fonts, threads), MiB, rounded up.
-pub const BASE_MIB: f64 = 16.0;
-
 /// Extra bytes per node that `--field-table` needs (the whole table is built before it is
 /// written): measured 157 MiB against 124 MiB at 1001 x 1001 nodes, rounded up.
 pub const FIELD_TABLE_BYTES_PER_NODE: f64 = 40.0;
@@ -124,33 +114,18 @@ pub const FIELD_TABLE_BYTES_PER_NODE: f64 = 40.0;
 /// of text) was observed to need 1.44 GB, about 65 bytes per byte of text.
 pub const BYTES_PER_TEXT_BYTE: f64 = 64.0;
 
-/// The estimated memory of a solve on `grid`, MiB, at `bytes_per_node`.
-pub fn estimate_mib(grid: &Grid, bytes_per_node: f64) -> f64 {
-    BASE_MIB + grid.len() as f64 * bytes_per_node / (1024.0 * 1024.0)
-}
-
-/// Fits the grid and refuses designs whose estimated memory exceeds the limit.
+/// Checks a study's plan (its grid, fitted once, and its memory with `extra` bytes per node
+/// held beside it, plus the design text's own): refuses designs whose estimate exceeds the
+/// limit. Returns the plan and the whole estimate, MiB.
 pub fn check_memory(
     src: &DesignSource,
-    file: &Path,
+    plan: Result<Plan, GridError>,
     max_mib: Option<f64>,
-) -> Result<(Grid, f64), Failure> {
-    check_memory_at(src, file, max_mib, BYTES_PER_NODE)
-}
-
-/// [`check_memory`] at a given rate of bytes per node.
-pub fn check_memory_at(
-    src: &DesignSource,
-    file: &Path,
-    max_mib: Option<f64>,
-    bytes_per_node: f64,
-) -> Result<(Grid, f64), Failure> {
-    let d = &src.design.domain;
-    let _ = file;
-    let grid = Grid::fit(d.x, d.y, d.cell)
-        .map_err(|e| Failure::from(src.error_at(Item::Grid, "cell", e.to_string())))?;
+    extra: f64,
+) -> Result<(Plan, f64), Failure> {
+    let plan = plan.map_err(|e| Failure::from(src.error_at(Item::Grid, "cell", e.to_string())))?;
     let text_mib = src.text_bytes() as f64 * BYTES_PER_TEXT_BYTE / (1024.0 * 1024.0);
-    let mib = estimate_mib(&grid, bytes_per_node) + text_mib;
+    let mib = plan.memory_mib_with(extra) + text_mib;
     let limit = max_mib.unwrap_or_else(default_memory_limit_mib);
     if text_mib > limit {
         return Err(Failure::from(src.error_at(
@@ -166,6 +141,7 @@ pub fn check_memory_at(
         )));
     }
     if mib > limit {
+        let grid = plan.grid();
         return Err(Failure::from(src.error_at(
             Item::Grid,
             "cell",
@@ -177,7 +153,7 @@ pub fn check_memory_at(
             limit
         ))));
     }
-    Ok((grid, mib))
+    Ok((plan, mib))
 }
 
 /// Half of the memory the system reports available (Linux), or 4 GiB when unknown.
@@ -245,16 +221,9 @@ pub fn study_params(opts: &SolveOptions) -> Result<StudyParams, Failure> {
         ));
     }
     check_threads(opts.threads)?;
-    let method = match opts.solver {
-        SolverChoice::Multigrid => Method::Multigrid,
-        SolverChoice::Cg => Method::Cg,
-        SolverChoice::Sor => Method::Sor,
-    };
-    let mut solver = Params {
-        tol: opts.tol,
-        max_iter: opts.max_iterations.unwrap_or(0),
-        ..Params::default()
-    };
+    let mut solver = Params::default();
+    solver.tol = opts.tol;
+    solver.max_iter = opts.max_iterations;
     if !opts.quiet && std::io::stderr().is_terminal() {
         let start = Instant::now();
         solver.monitor = Some(Arc::new(move |it, rel| {
@@ -263,10 +232,9 @@ pub fn study_params(opts: &SolveOptions) -> Result<StudyParams, Failure> {
             }
         }));
     }
-    Ok(StudyParams {
-        method,
-        solver,
-        error_estimate: !opts.no_error_estimate,
-        ..StudyParams::default()
-    })
+    let mut params = StudyParams::default();
+    params.method = opts.solver.into();
+    params.solver = solver;
+    params.error_estimate = !opts.no_error_estimate;
+    Ok(params)
 }

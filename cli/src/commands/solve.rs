@@ -26,13 +26,18 @@ pub fn run_timed(args: &SolveArgs, timings: &Arc<Timings>) -> Result<u8, Failure
     let src = timings.time("read", || {
         load_design(&args.design, &super::parameter_overrides(&args.set)?)
     })?;
-    let rate = if args.field_table {
-        super::BYTES_PER_NODE + super::FIELD_TABLE_BYTES_PER_NODE
-    } else {
-        super::BYTES_PER_NODE
-    };
-    let (_grid, _mib) = super::check_memory_at(&src, &args.design, args.opts.max_memory, rate)?;
     let mut params = study_params(&args.opts)?;
+    let extra = if args.field_table {
+        super::FIELD_TABLE_BYTES_PER_NODE
+    } else {
+        0.0
+    };
+    let (plan, _) = super::check_memory(
+        &src,
+        fieldgrid_solver::plan::plan(&src.design, &params),
+        args.opts.max_memory,
+        extra,
+    )?;
     params.stages = Some(timings.monitor());
     if args.circuit {
         if let Err(why) = fieldgrid_solver::circuit::exportable(src.design.mode, src.design.depth) {
@@ -48,8 +53,10 @@ pub fn run_timed(args: &SolveArgs, timings: &Arc<Timings>) -> Result<u8, Failure
     }
     let mut out = OutDir::prepare(&args.out)?;
     let start = Instant::now();
-    let sol = with_threads(args.opts.threads, || study::run(&src.design, &params))?
-        .map_err(|e| study_failure(&src, e))?;
+    let sol = with_threads(args.opts.threads, || {
+        study::run_planned(&src.design, &plan, &params)
+    })?
+    .map_err(|e| study_failure(&src, e))?;
     let seconds = start.elapsed().as_secs_f64();
     if !args.opts.quiet && std::io::IsTerminal::is_terminal(&std::io::stderr()) {
         eprint!("\r{:60}\r", "");

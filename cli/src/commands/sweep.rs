@@ -28,6 +28,7 @@ use crate::error::Failure;
 use crate::outdir::{csv_bytes, num, OutDir};
 use crate::{EXIT_NOT_CONVERGED, EXIT_OK};
 use fieldgrid_solver::design::Drive;
+use fieldgrid_solver::plan::Plan;
 use fieldgrid_solver::study;
 use serde::{Deserialize, Serialize};
 use std::collections::BTreeMap;
@@ -225,12 +226,7 @@ impl SweepFile {
 type Rows = BTreeMap<usize, Vec<String>>;
 
 fn solver_name(c: SolverChoice) -> &'static str {
-    use fieldgrid_solver::solvers::Method;
-    match c {
-        SolverChoice::Multigrid => Method::Multigrid.name(),
-        SolverChoice::Cg => Method::Cg.name(),
-        SolverChoice::Sor => Method::Sor.name(),
-    }
+    fieldgrid_solver::solvers::Method::from(c).name()
 }
 
 /// Runs the command, returning the exit code.
@@ -275,13 +271,18 @@ pub fn run(args: &SweepArgs) -> Result<u8, Failure> {
             .map(|(v, &x)| (v.name.clone(), x))
             .collect()
     };
-    let load_point = |p: usize| -> Result<(Vec<f64>, DesignSource), Failure> {
+    let load_point = |p: usize| -> Result<(Vec<f64>, DesignSource, Plan), Failure> {
         let values = point_values(&vary, p);
         let src = load_design(design, &overrides(&values))
             .map_err(|f| point_failure(p, &vary, &values, f))?;
-        check_memory(&src, design, args.opts.max_memory)
-            .map_err(|f| point_failure(p, &vary, &values, f))?;
-        Ok((values, src))
+        let (plan, _) = check_memory(
+            &src,
+            fieldgrid_solver::plan::plan(&src.design, &params),
+            args.opts.max_memory,
+            0.0,
+        )
+        .map_err(|f| point_failure(p, &vary, &values, f))?;
+        Ok((values, src, plan))
     };
 
     // Every point of this shard is read and checked before anything is solved; the points
@@ -292,7 +293,7 @@ pub fn run(args: &SweepArgs) -> Result<u8, Failure> {
     let mut mode = first.design.mode;
     let mut count = 0usize;
     for p in mine() {
-        let (values, src) = load_point(p)?;
+        let (values, src, _) = load_point(p)?;
         if count == 0 {
             mode = src.design.mode;
         }
@@ -357,15 +358,17 @@ pub fn run(args: &SweepArgs) -> Result<u8, Failure> {
     let skipped = mine().filter(|&p| done[p]).count();
     let mut solved = 0;
     for p in mine().filter(|&p| !done[p]) {
-        let (values, src) = load_point(p)?;
+        let (values, src, plan) = load_point(p)?;
         if progress {
             eprint!(
                 "\r{}",
                 progress_bar(skipped + solved, count, p, &vary, &values)
             );
         }
-        let sol = with_threads(args.opts.threads, || study::run(&src.design, &params))?
-            .map_err(|e| super::solve::study_failure(&src, e))?;
+        let sol = with_threads(args.opts.threads, || {
+            study::run_planned(&src.design, &plan, &params)
+        })?
+        .map_err(|e| super::solve::study_failure(&src, e))?;
         let mut row = vec![p.to_string()];
         row.extend(values.iter().map(|&v| value_text(v)));
         for r in &sol.capacitance.matrix {

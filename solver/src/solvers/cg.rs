@@ -4,7 +4,9 @@
 //! right-hand side, so their entries stay zero. The reported residual is recomputed from
 //! `b - A x` at exit, not taken from the recurrence.
 
-use super::{curvature_breakdown, krylov_outcome, Info, Params, Progress, SolveError, StopReason};
+use super::{
+    curvature_breakdown, krylov_outcome, Info, Method, Params, Progress, SolveError, StopReason,
+};
 use crate::parallel;
 use crate::stencil::Stencil5;
 use rayon::prelude::*;
@@ -12,7 +14,7 @@ use rayon::prelude::*;
 /// Solves `A x = b` by Jacobi-preconditioned CG from the starting guess in `x`.
 pub fn solve(a: &Stencil5, b: &[f64], x: &mut [f64], params: &Params) -> Result<Info, SolveError> {
     let inv_diag: Vec<f64> = a.diag.par_iter().map(|d| 1.0 / d).collect();
-    pcg(a, b, x, params, "jacobi-cg", |r, z| {
+    pcg(a, b, x, params, Method::Cg, |r, z| {
         z.par_iter_mut()
             .zip(r.par_iter())
             .zip(inv_diag.par_iter())
@@ -27,7 +29,7 @@ pub(crate) fn pcg(
     b: &[f64],
     x: &mut [f64],
     params: &Params,
-    method: &'static str,
+    method: Method,
     mut precond: impl FnMut(&[f64], &mut [f64]),
 ) -> Result<Info, SolveError> {
     let n = a.len();
@@ -118,7 +120,7 @@ mod tests {
             &b,
             &mut x,
             &Params {
-                max_iter: 3,
+                max_iter: Some(3),
                 ..Params::default()
             },
         )

@@ -39,16 +39,25 @@ impl Method {
     }
 }
 
+impl std::fmt::Display for Method {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(self.name())
+    }
+}
+
 /// Called with (iteration, relative residual) as a solve proceeds.
 pub type Monitor = Arc<dyn Fn(usize, f64) + Send + Sync>;
 
-/// Solver settings.
+/// Solver settings. Start from `Params::default()` and set the fields that matter (more
+/// may be added).
 #[derive(Clone)]
+#[non_exhaustive]
 pub struct Params {
     /// Stop when the relative residual falls to this value.
     pub tol: f64,
-    /// Give up after this many iterations (0: the method's own default).
-    pub max_iter: usize,
+    /// Give up after this many iterations; `None`: the method's own limit, which grows with
+    /// the lattice.
+    pub max_iter: Option<usize>,
     /// SOR relaxation factor; `None` picks the optimum for the Laplacian on this lattice.
     pub omega: Option<f64>,
     /// Progress callback.
@@ -59,7 +68,7 @@ impl Default for Params {
     fn default() -> Self {
         Params {
             tol: 1e-8,
-            max_iter: 0,
+            max_iter: None,
             omega: None,
             monitor: None,
         }
@@ -110,8 +119,8 @@ impl std::fmt::Display for StopReason {
 /// What a solve did.
 #[derive(Clone, Debug, PartialEq)]
 pub struct Info {
-    /// The method's reported name.
-    pub method: &'static str,
+    /// The method that ran.
+    pub method: Method,
     /// Iterations performed.
     pub iterations: usize,
     /// Final relative residual.
@@ -121,19 +130,33 @@ pub struct Info {
 }
 
 impl Params {
-    /// The iteration limit: `max_iter`, or the method's `default` when it is 0.
+    /// These settings with the tolerance `tol`.
+    pub fn with_tol(mut self, tol: f64) -> Self {
+        self.tol = tol;
+        self
+    }
+
+    /// These settings with the iteration limit `max_iter`.
+    pub fn with_max_iter(mut self, max_iter: usize) -> Self {
+        self.max_iter = Some(max_iter);
+        self
+    }
+
+    /// These settings with the SOR relaxation factor `omega`.
+    pub fn with_omega(mut self, omega: f64) -> Self {
+        self.omega = Some(omega);
+        self
+    }
+
+    /// The iteration limit: `max_iter`, or the method's `default` when none is given.
     pub(crate) fn iteration_limit(&self, default: usize) -> usize {
-        if self.max_iter > 0 {
-            self.max_iter
-        } else {
-            default
-        }
+        self.max_iter.unwrap_or(default)
     }
 }
 
 impl Info {
     /// The solve of a zero right-hand side: the solution is zero, nothing to iterate.
-    pub(crate) fn zero_rhs(method: &'static str) -> Info {
+    pub(crate) fn zero_rhs(method: Method) -> Info {
         Info {
             method,
             iterations: 0,
@@ -190,10 +213,21 @@ pub enum Prepared {
 
 /// Does the setup of `method` for `stencil`.
 pub fn prepare(method: Method, stencil: &Stencil5) -> Prepared {
+    prepare_with(method, stencil, &multigrid::Options::default())
+}
+
+/// [`prepare`] with the multigrid hierarchy's options (the other methods have no setup).
+pub fn prepare_with(
+    method: Method,
+    stencil: &Stencil5,
+    multigrid: &multigrid::Options,
+) -> Prepared {
     match method {
         Method::Cg => Prepared::Cg,
         Method::Sor => Prepared::Sor,
-        Method::Multigrid => Prepared::Multigrid(Box::new(multigrid::Hierarchy::new(stencil))),
+        Method::Multigrid => Prepared::Multigrid(Box::new(multigrid::Hierarchy::with_options(
+            stencil, multigrid,
+        ))),
     }
 }
 
@@ -320,7 +354,7 @@ pub(crate) fn curvature_breakdown(pap: f64) -> Option<StopReason> {
 /// with the true relative residual `true_rel`: the recurrence can drift from the true
 /// residual, and only the true one may claim success.
 pub(crate) fn krylov_outcome(
-    method: &'static str,
+    method: Method,
     iterations: usize,
     reason: Option<StopReason>,
     true_rel: f64,

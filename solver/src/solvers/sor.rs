@@ -3,7 +3,7 @@
 //! Invariant: within one colour, every update reads only nodes of the other colour, so the
 //! rows of a colour can be updated in parallel with results independent of the thread count.
 
-use super::{Info, Params, Progress, SolveError, StopReason};
+use super::{Info, Method, Params, Progress, SolveError, StopReason};
 use crate::parallel;
 use crate::stencil::Stencil5;
 use rayon::prelude::*;
@@ -75,7 +75,7 @@ fn colour_sweep(a: &Stencil5, b: &[f64], x: &mut [f64], omega: f64, colour: usiz
 
 /// Solves `A x = b` by red-black SOR from the starting guess in `x`.
 pub fn solve(a: &Stencil5, b: &[f64], x: &mut [f64], params: &Params) -> Result<Info, SolveError> {
-    const METHOD: &str = "red-black-sor";
+    const METHOD: Method = Method::Sor;
     let bnorm = parallel::norm2(b);
     if bnorm == 0.0 {
         x.fill(0.0);

@@ -67,10 +67,7 @@ fn stagnation_stops_with_its_reason_and_the_last_iterate() {
     let (s, b) = grounded_box(33);
     for m in Method::ALL {
         let mut x = vec![0.0; s.len()];
-        let p = Params {
-            tol: 1e-19,
-            ..Params::default()
-        };
+        let p = Params::default().with_tol(1e-19);
         let (reason, _) = reason_of(solvers::solve(m, &s, &b, &mut x, &p));
         assert_eq!(reason, StopReason::Stagnated, "{m:?}");
         // The last iterate is kept: the solution as far as it could be taken.
@@ -94,10 +91,7 @@ fn divergence_stops_with_its_reason() {
     // Over-relaxation beyond 2 makes SOR's iteration matrix expand (its spectral radius is
     // at least |omega - 1|; D. M. Young, Iterative Solution of Large Linear Systems, 1971,
     // Kahan's theorem, quoted from memory).
-    let p = Params {
-        omega: Some(2.5),
-        ..Params::default()
-    };
+    let p = Params::default().with_omega(2.5);
     let (reason, it) = reason_of(sor::solve(&s, &b, &mut x, &p));
     assert_eq!(reason, StopReason::Diverged, "after {it} iterations");
     assert!(it < 1000, "divergence is caught early: {it}");

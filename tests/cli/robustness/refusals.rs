@@ -4,9 +4,17 @@
 use std::path::Path;
 
 use fieldgrid_cli::commands;
+use fieldgrid_solver::plan::{plan, Plan};
+use fieldgrid_solver::study::StudyParams;
 use fieldgrid_tests::cli::{scratch, write};
 
 use super::{failure_of, PLATES, SCRATCH};
+
+/// The plan of the default study (multigrid, error estimate) of a design file.
+fn plan_of(file: &str) -> Plan {
+    let text = std::fs::read_to_string(file).unwrap();
+    plan(&fieldgrid_tests::design(&text), &StudyParams::default()).unwrap()
+}
 
 #[test]
 fn unwritable_out_is_refused_before_solving() {
@@ -83,8 +91,7 @@ fn memory_guard_refuses_before_allocating_and_reports_the_estimate() {
     let outs = out.to_str().unwrap();
     match failure_of(&["solve", &huge, "--out", outs, "--quiet"]) {
         Err((2, m)) => {
-            let grid = fieldgrid_solver::grid::Grid::fit([0.0, 1.0], [0.0, 1.0], 1e-5).unwrap();
-            let mib = commands::estimate_mib(&grid, commands::BYTES_PER_NODE);
+            let mib = plan_of(&huge).memory_mib();
             assert!(m.contains("100001 x 100001"), "{m}");
             assert!(m.contains(&format!("{mib:.0} MiB")), "{m}");
             assert!(m.contains("huge.toml:4:"), "names the file and line: {m}");
@@ -135,11 +142,10 @@ fn memory_guard_refuses_before_allocating_and_reports_the_estimate() {
     }
     assert!(!out.exists(), "a refused sweep point must leave no output");
     // The field table costs more per node, and the guard counts it.
-    let g = fieldgrid_solver::grid::Grid::fit([0.0, 4e-3], [0.0, 2e-3], 1e-4).unwrap();
     // The design text counts too (vertices, parameters, names).
     let text = std::fs::metadata(&plates).unwrap().len() as f64;
-    let plain = commands::estimate_mib(&g, commands::BYTES_PER_NODE)
-        + text * commands::BYTES_PER_TEXT_BYTE / (1024.0 * 1024.0);
+    let plain =
+        plan_of(&plates).memory_mib() + text * commands::BYTES_PER_TEXT_BYTE / (1024.0 * 1024.0);
     let limit = format!("{}", plain + 0.01);
     let args = [
         "solve",

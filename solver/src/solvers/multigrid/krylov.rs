@@ -17,7 +17,7 @@ use super::smoother::{wavefront, Stage};
 use super::transfer::{each, PARALLEL_MIN};
 use crate::parallel;
 use crate::solvers::{
-    curvature_breakdown, krylov_outcome, Info, Params, Progress, SolveError, StopReason,
+    curvature_breakdown, krylov_outcome, Info, Method, Params, Progress, SolveError, StopReason,
 };
 use crate::stencil::Stencil5;
 
@@ -142,7 +142,7 @@ pub(super) fn pcg(
     params: &Params,
     ws: &mut Workspace,
 ) -> Result<Info, SolveError> {
-    const METHOD: &str = "multigrid-cg";
+    const METHOD: Method = Method::Multigrid;
     let n = a.len();
     assert!(
         b.len() == n && x.len() == n,

@@ -535,7 +535,7 @@ fn agrees_with_jacobi_cg() {
         &mut xc,
         &Params {
             tol,
-            max_iter: 100_000,
+            max_iter: Some(100_000),
             ..Params::default()
         },
     )
@@ -610,7 +610,7 @@ fn iteration_limit_is_reported_as_error_with_last_iterate() {
             &b,
             &mut x,
             &Params {
-                max_iter: 2,
+                max_iter: Some(2),
                 ..Params::default()
             },
         )

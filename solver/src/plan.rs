@@ -1,0 +1,146 @@
+//! The plan of a study, made before anything is solved: its lattice and an estimate of the
+//! memory the study needs.
+//!
+//! The lattice is fitted here once ([`Grid::fit`]); a study run from a plan
+//! ([`crate::study::run_planned`]) uses that lattice, so what a user was told about the grid
+//! and its memory is what runs.
+//!
+//! The memory model is a fixed part plus bytes per lattice node that depend on the linear
+//! solver and on the error estimate. Measured as the peak resident set of `fieldgrid solve`
+//! (`/usr/bin/time -v`, two threads) on the benchmark design (`benches/problem.toml`, two
+//! dielectrics, three conductors) at 501 x 501 and 1001 x 1001 nodes; the slope between the
+//! two sizes is the cost per node: multigrid with the error estimate 88.5 B, multigrid without
+//! it 75.7 B, Jacobi-CG without it 65.9 B, SOR without it 62.0 B. The model keeps the
+//! earlier rule's 128 B per node (measured on another design with an open side) for
+//! multigrid with the error estimate and scales the others by the measured ratios, rounded
+//! up to 8 B: the error estimate adds 16 B, the multigrid hierarchy 16 B, over 96 B for
+//! the fine study with a one-level solver. A line study holds the first study's solution
+//! while the second runs: on the microstrip demo refined to 509 x 501 and 1017 x 1001 nodes
+//! it cost 37.5 B (error estimate) and 53.8 B (without) per node more than one study, which
+//! scaled alike and rounded up is [`HELD_SOLUTION_BYTES_PER_NODE`].
+//!
+//! Invariant: the estimate never falls as the lattice grows, and the configuration that
+//! needs the most (multigrid with the error estimate) is never cheaper than another.
+
+use crate::design::Design;
+use crate::grid::{Grid, GridError};
+use crate::solvers::Method;
+use crate::study::StudyParams;
+
+/// Memory of the process apart from the lattice (code, fonts, threads), MiB, rounded up.
+pub const BASE_MIB: f64 = 16.0;
+
+/// Bytes per node of the fine study with a one-level solver (CG or SOR): operator, raster,
+/// solver vectors, potentials, post-processing and pictures.
+pub const STUDY_BYTES_PER_NODE: f64 = 96.0;
+
+/// Bytes per node the multigrid hierarchy adds (coarse operators and their vectors).
+pub const MULTIGRID_BYTES_PER_NODE: f64 = 16.0;
+
+/// Bytes per node the error estimate adds (the studies on the coarser lattices).
+pub const ERROR_ESTIMATE_BYTES_PER_NODE: f64 = 16.0;
+
+/// Bytes per node of a study's solution kept while another study runs (a line study).
+pub const HELD_SOLUTION_BYTES_PER_NODE: f64 = 80.0;
+
+/// A study's lattice and memory estimate.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Plan {
+    grid: Grid,
+    bytes_per_node: f64,
+}
+
+impl Plan {
+    /// The lattice the study runs on.
+    pub fn grid(&self) -> &Grid {
+        &self.grid
+    }
+
+    /// The same plan with one more study's solution held while this one runs (the line
+    /// study's two studies on one lattice).
+    pub fn holding_a_solution(mut self) -> Plan {
+        self.bytes_per_node += HELD_SOLUTION_BYTES_PER_NODE;
+        self
+    }
+
+    /// Estimated bytes per lattice node.
+    pub fn bytes_per_node(&self) -> f64 {
+        self.bytes_per_node
+    }
+
+    /// Estimated peak memory of the study, MiB.
+    pub fn memory_mib(&self) -> f64 {
+        self.memory_mib_with(0.0)
+    }
+
+    /// Estimated peak memory with `extra` bytes per node held beside the study (for
+    /// example a table of every node built from its results), MiB.
+    pub fn memory_mib_with(&self, extra: f64) -> f64 {
+        BASE_MIB + self.grid.len() as f64 * (self.bytes_per_node + extra) / (1024.0 * 1024.0)
+    }
+}
+
+/// Fits the lattice of `design` and estimates the memory of its study with `params`.
+pub fn plan(design: &Design, params: &StudyParams) -> Result<Plan, GridError> {
+    let d = &design.domain;
+    let grid = Grid::fit(d.x, d.y, d.cell)?;
+    let mut bytes_per_node = STUDY_BYTES_PER_NODE;
+    if params.method == Method::Multigrid {
+        bytes_per_node += MULTIGRID_BYTES_PER_NODE;
+    }
+    if params.error_estimate {
+        bytes_per_node += ERROR_ESTIMATE_BYTES_PER_NODE;
+    }
+    Ok(Plan {
+        grid,
+        bytes_per_node,
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn design(cell: f64) -> Design {
+        let mut d = Design::default();
+        d.domain.cell = cell;
+        d
+    }
+
+    #[test]
+    fn the_default_study_keeps_128_bytes_per_node() {
+        let p = plan(&design(1e-3), &StudyParams::default()).unwrap();
+        assert_eq!(p.bytes_per_node(), 128.0);
+        assert_eq!((p.grid().nx, p.grid().ny), (1001, 1001));
+        let want = BASE_MIB + 1001.0 * 1001.0 * 128.0 / 1048576.0;
+        assert!((p.memory_mib() - want).abs() < 1e-9);
+        assert!(p.memory_mib_with(40.0) > p.memory_mib());
+    }
+
+    #[test]
+    fn solver_and_error_estimate_change_the_estimate() {
+        let d = design(1e-2);
+        let at = |method: Method, estimate: bool| {
+            let p = StudyParams::default()
+                .with_method(method)
+                .with_error_estimate(estimate);
+            plan(&d, &p).unwrap().bytes_per_node()
+        };
+        assert!(at(Method::Multigrid, false) < at(Method::Multigrid, true));
+        assert!(at(Method::Cg, true) < at(Method::Multigrid, true));
+        assert_eq!(at(Method::Cg, false), at(Method::Sor, false));
+        for m in Method::ALL {
+            for e in [false, true] {
+                assert!(at(m, e) <= at(Method::Multigrid, true), "{m:?} {e}");
+            }
+        }
+    }
+
+    #[test]
+    fn a_bad_cell_is_a_grid_error() {
+        assert_eq!(
+            plan(&design(-1.0), &StudyParams::default()),
+            Err(GridError::Cell(-1.0))
+        );
+    }
+}

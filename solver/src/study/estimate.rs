@@ -1,0 +1,177 @@
+//! The discretisation-error estimate of a study: the same study on lattices twice (and four
+//! times) as coarse, and Richardson's extrapolation from their capacitance matrices.
+//!
+//! Invariants: the coarse lattices cover the same domain (`Grid::coarsened`); the estimate is
+//! never optimistic by construction of the order (1 wherever the field is singular).
+
+use super::solves::{solve_on, Core};
+use super::{StudyError, StudyParams};
+use crate::design::Design;
+use crate::grid::Grid;
+use crate::warning::Warning;
+
+/// How discretisation errors are estimated: Richardson's extrapolation from the fine lattice
+/// and one with about twice the spacing. With the error of a result behaving like `K h^p`,
+/// the fine result's error is about `|R_h - R_coarse| / (ratio^p - 1)`.
+///
+/// The order `p`: 1 for designs with sharp corners or thin conductors (their singular
+/// fields make the scheme first order); for smooth designs the order observed from a third,
+/// twice coarser lattice when the three results converge monotonically, clamped to [1, 2]
+/// (the five-point scheme is second order), and 2 when no such order can be read.
+#[derive(Clone, Debug, PartialEq)]
+pub struct ErrorModel {
+    /// Maxwell matrix on the coarse lattice, same order and units as the fine one.
+    pub coarse: Vec<Vec<f64>>,
+    /// Conductor charges at the operating point on the coarse lattice.
+    pub coarse_charges: Vec<f64>,
+    /// Coarse over fine spacing (the smaller of the two axes'), about 2.
+    pub ratio: f64,
+    /// The convergence order used.
+    pub order: f64,
+    /// The order observed from three lattices, when a third one was solved.
+    pub observed_order: Option<f64>,
+}
+
+impl ErrorModel {
+    /// Estimated error of a fine-lattice result from its coarse-lattice counterpart.
+    pub fn estimate(&self, fine: f64, coarse: f64) -> f64 {
+        (fine - coarse).abs() / (self.ratio.powf(self.order) - 1.0)
+    }
+}
+
+/// The order observed from results on three lattices with spacings h, r h, r^2 h:
+/// `log(|R_rh - R_r2h| / |R_h - R_rh|) / log(r)`, with the differences measured over the
+/// whole matrix. `None` when the differences vanish or change direction (no monotone
+/// convergence to read an order from).
+fn observed_order(
+    fine: &[Vec<f64>],
+    coarse: &[Vec<f64>],
+    coarser: &[Vec<f64>],
+    r: f64,
+) -> Option<f64> {
+    let (mut d1, mut d2, mut cross) = (0.0, 0.0, 0.0);
+    for ((rf, rc), rcc) in fine.iter().zip(coarse).zip(coarser) {
+        for ((f, c), cc) in rf.iter().zip(rc).zip(rcc) {
+            let (a, b) = (f - c, c - cc);
+            d1 += a * a;
+            d2 += b * b;
+            cross += a * b;
+        }
+    }
+    if !(d1 > 0.0 && d2 > 0.0 && cross > 0.0 && r > 1.0) {
+        return None;
+    }
+    let p = (d2.sqrt() / d1.sqrt()).ln() / r.ln();
+    p.is_finite().then_some(p)
+}
+
+/// The studies on the coarse lattices: twice as coarse when the error estimate is asked for
+/// (and the lattice is large enough), and four times as coarse as well for smooth designs
+/// (to read the order), with their lattices.
+pub(super) struct CoarseStudies {
+    coarse: Option<(Grid, Core)>,
+    coarser: Option<(Grid, Core)>,
+}
+
+impl CoarseStudies {
+    /// Runs the coarse studies of `design` around the fine lattice `grid`. `smooth`: the
+    /// design has no sharp corner or thin conductor.
+    pub(super) fn run(
+        design: &Design,
+        grid: &Grid,
+        params: &StudyParams,
+        smooth: bool,
+    ) -> Result<CoarseStudies, StudyError> {
+        let coarse_grid = grid.coarsened();
+        let coarser_grid = coarse_grid.coarsened();
+        let coarse = if params.error_estimate && grid.nx > 8 && grid.ny > 8 {
+            Some((coarse_grid, solve_on(design, &coarse_grid, params, None)?))
+        } else {
+            None
+        };
+        let coarser = if smooth && coarse.is_some() && coarse_grid.nx > 8 && coarse_grid.ny > 8 {
+            Some((coarser_grid, solve_on(design, &coarser_grid, params, None)?))
+        } else {
+            None
+        };
+        Ok(CoarseStudies { coarse, coarser })
+    }
+
+    /// The study on the lattice twice as coarse, when it ran.
+    pub(super) fn coarse_core(&self) -> Option<&Core> {
+        self.coarse.as_ref().map(|(_, c)| c)
+    }
+
+    /// The error model of the fine study `core` on `grid`, when the coarse study ran.
+    /// `singular`: the design has sharp corners or thin conductors.
+    pub(super) fn error_model(
+        &self,
+        design: &Design,
+        grid: &Grid,
+        core: &Core,
+        singular: bool,
+    ) -> Option<ErrorModel> {
+        let (coarse_grid, c) = self.coarse.as_ref()?;
+        let ratio = (coarse_grid.hx / grid.hx).min(coarse_grid.hy / grid.hy);
+        let observed_order = self.coarser.as_ref().and_then(|(coarser_grid, cc)| {
+            let ratio2 = (coarser_grid.hx / coarse_grid.hx).min(coarser_grid.hy / coarse_grid.hy);
+            observed_order(&core.maxwell, &c.maxwell, &cc.maxwell, ratio.min(ratio2))
+        });
+        // Sharp corners and thin conductors make the field singular: the cut-cell scheme
+        // then converges at first order, with an error constant that depends on where the
+        // singular points fall within their cells, so an order read from three lattices
+        // would not be trustworthy there.
+        let order = match observed_order {
+            _ if singular => 1.0,
+            Some(p) => p.clamp(1.0, 2.0),
+            None => 2.0,
+        };
+        Some(ErrorModel {
+            coarse: c.maxwell.clone(),
+            coarse_charges: c
+                .op
+                .reactions_total(&c.response, &c.background, &c.potentials)
+                [..design.conductors.len()]
+                .to_vec(),
+            ratio,
+            order,
+            observed_order,
+        })
+    }
+}
+
+/// The estimated error of every entry of the fine Maxwell matrix `maxwell`.
+pub(super) fn matrix_errors(model: &ErrorModel, maxwell: &[Vec<f64>]) -> Vec<Vec<f64>> {
+    maxwell
+        .iter()
+        .zip(&model.coarse)
+        .map(|(rf, rc)| {
+            rf.iter()
+                .zip(rc)
+                .map(|(f, c)| model.estimate(*f, *c))
+                .collect()
+        })
+        .collect()
+}
+
+/// A warning for every capacitance entry whose estimated error is above 1 % of it.
+pub(super) fn capacitance_warnings(
+    names: &[String],
+    maxwell: &[Vec<f64>],
+    errors: &[Vec<f64>],
+) -> Vec<Warning> {
+    let mut out = Vec::new();
+    for (i, row) in errors.iter().enumerate() {
+        for (j, e) in row.iter().enumerate() {
+            let c = maxwell[i][j];
+            if c != 0.0 && *e > 0.01 * c.abs() {
+                out.push(Warning::CapacitanceError {
+                    row: names[i].clone(),
+                    column: names[j].clone(),
+                    percent: 100.0 * e / c.abs(),
+                });
+            }
+        }
+    }
+    out
+}

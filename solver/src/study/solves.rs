@@ -1,0 +1,241 @@
+//! The solves of a study on one lattice: rasterise, assemble, one unit-potential solve per
+//! conductor and one for the sides and the free charge, then the exact elimination of
+//! floating conductors (net charge zero) from that small dense system.
+//!
+//! Invariants: every charge is a reaction of the operator the solver saw; fixed nodes hold
+//! their own potentials in `phi`; `response[k][t]` is the charge on target t with conductor
+//! k at 1 V and everything else at 0 V.
+
+use super::{StudyError, StudyParams};
+use crate::design::{Design, Drive};
+use crate::grid::Grid;
+use crate::operator::{self, Operator};
+use crate::raster::{self, Raster, NO_CONDUCTOR};
+use crate::solvers::{self, Info};
+use crate::stages::{Stage, StageMonitor, Tracker};
+
+/// Core results of the solves on one lattice.
+pub(super) struct Core {
+    pub(super) raster: Raster,
+    pub(super) op: Operator,
+    /// Potential at every node at the operating point, V.
+    pub(super) phi: Vec<f64>,
+    /// Conductor potentials at the operating point (floating ones solved for), V.
+    pub(super) potentials: Vec<f64>,
+    /// Charge of every target per conductor at 1 V: `response[k][t]`.
+    pub(super) response: Vec<Vec<f64>>,
+    /// Charge of every target from the sides and the free charge.
+    pub(super) background: Vec<f64>,
+    /// Maxwell matrix of the fixed conductors (floating ones eliminated).
+    pub(super) maxwell: Vec<Vec<f64>>,
+    /// One record per linear solve.
+    pub(super) infos: Vec<Info>,
+}
+
+impl Operator {
+    /// Charge of every target at conductor potentials `v`: superposition of the unit
+    /// responses and the background solve.
+    pub(super) fn reactions_total(
+        &self,
+        response: &[Vec<f64>],
+        background: &[f64],
+        v: &[f64],
+    ) -> Vec<f64> {
+        let mut q = background.to_vec();
+        for (k, col) in response.iter().enumerate() {
+            for (t, c) in col.iter().enumerate() {
+                q[t] += v[k] * c;
+            }
+        }
+        q
+    }
+}
+
+/// Runs every solve of the study on one lattice, telling `monitor` of its stages.
+pub(super) fn solve_on(
+    design: &Design,
+    grid: &Grid,
+    params: &StudyParams,
+    monitor: Option<&StageMonitor>,
+) -> Result<Core, StudyError> {
+    let mut stages = Tracker::new(monitor);
+    stages.enter(Stage::Raster);
+    let raster = raster::rasterize(design, grid);
+    stages.enter(Stage::Assembly);
+    let op = operator::assemble(design, &raster)?;
+    stages.enter(Stage::SolverSetup);
+    let prepared = solvers::prepare_with(params.method, &op.stencil, &params.multigrid);
+    stages.enter(Stage::Solves);
+    let n = grid.len();
+    let nc = design.conductors.len();
+    let floating: Vec<usize> = (0..nc)
+        .filter(|&k| design.conductors[k].drive == Drive::Floating)
+        .collect();
+    let fixed: Vec<usize> = (0..nc).filter(|&k| !floating.contains(&k)).collect();
+    let mut infos = Vec::new();
+    let mut phi = vec![0.0; n];
+    let mut response = vec![Vec::new(); nc];
+    let mut kept: Vec<(usize, Vec<f64>)> = Vec::new();
+    let record = |r: Result<Info, solvers::SolveError>, infos: &mut Vec<Info>| match r {
+        Ok(i) => infos.push(i),
+        Err(e) => infos.push(e.info().clone()),
+    };
+    for k in 0..nc {
+        let mut unit = vec![0.0; nc];
+        unit[k] = 1.0;
+        let values = op.target_values(&unit, false);
+        let b = op.rhs(&values, false);
+        let mut x = vec![0.0; n];
+        record(
+            prepared.solve(&op.stencil, &b, &mut x, &params.solver),
+            &mut infos,
+        );
+        response[k] = op.reactions(&x, &values, false);
+        match design.conductors[k].drive {
+            Drive::Fixed(v) => {
+                if v != 0.0 {
+                    phi.iter_mut().zip(&x).for_each(|(p, x)| *p += v * x);
+                }
+            }
+            Drive::Floating => kept.push((k, x)),
+        }
+    }
+    let zero = vec![0.0; nc];
+    let values0 = op.target_values(&zero, true);
+    let b0 = op.rhs(&values0, true);
+    let background = if b0.iter().any(|&v| v != 0.0) {
+        let mut x0 = vec![0.0; n];
+        record(
+            prepared.solve(&op.stencil, &b0, &mut x0, &params.solver),
+            &mut infos,
+        );
+        let q = op.reactions(&x0, &values0, true);
+        phi.iter_mut().zip(&x0).for_each(|(p, x)| *p += x);
+        q
+    } else {
+        vec![0.0; op.n_targets()]
+    };
+    drop(b0);
+    stages.enter(Stage::Superposition);
+
+    // Conductor-to-conductor charge response: cfull[i][k] = charge on i with k at 1 V.
+    let cfull: Vec<Vec<f64>> = (0..nc)
+        .map(|i| (0..nc).map(|k| response[k][i]).collect())
+        .collect();
+    let mut potentials: Vec<f64> = design
+        .conductors
+        .iter()
+        .map(|c| {
+            if let Drive::Fixed(v) = c.drive {
+                v
+            } else {
+                0.0
+            }
+        })
+        .collect();
+    let maxwell;
+    if floating.is_empty() {
+        maxwell = fixed
+            .iter()
+            .map(|&i| fixed.iter().map(|&j| cfull[i][j]).collect())
+            .collect();
+    } else {
+        // Net charge zero on floating conductors: C_FF V_F = -(C_FS V_S + Q0_F).
+        let cff: Vec<Vec<f64>> = floating
+            .iter()
+            .map(|&i| floating.iter().map(|&j| cfull[i][j]).collect())
+            .collect();
+        let rhs: Vec<f64> = floating
+            .iter()
+            .map(|&i| {
+                -(fixed
+                    .iter()
+                    .map(|&j| cfull[i][j] * potentials[j])
+                    .sum::<f64>()
+                    + background[i])
+            })
+            .collect();
+        let vf = dense_solve(&cff, &rhs);
+        for (f, &i) in floating.iter().enumerate() {
+            potentials[i] = vf[f];
+        }
+        for (k, x) in &kept {
+            let v = potentials[*k];
+            phi.iter_mut().zip(x).for_each(|(p, x)| *p += v * x);
+        }
+        // Reduced Maxwell matrix: C_SS - C_SF C_FF^-1 C_FS.
+        maxwell = fixed
+            .iter()
+            .map(|&i| {
+                fixed
+                    .iter()
+                    .map(|&j| {
+                        let col: Vec<f64> = floating.iter().map(|&f| cfull[f][j]).collect();
+                        let y = dense_solve(&cff, &col);
+                        cfull[i][j]
+                            - floating
+                                .iter()
+                                .zip(&y)
+                                .map(|(&f, y)| cfull[i][f] * y)
+                                .sum::<f64>()
+                    })
+                    .collect()
+            })
+            .collect();
+    }
+    // Fixed nodes hold their own potentials.
+    let side_values = op.target_values(&potentials, true);
+    let (nx, ny) = (grid.nx, grid.ny);
+    for p in 0..n {
+        if op.stencil.unknown[p] {
+            continue;
+        }
+        let k = raster.conductor[p];
+        phi[p] = if k != NO_CONDUCTOR {
+            potentials[k as usize]
+        } else {
+            let s = operator::fixed_side(&op.side_potential, nx, ny, p % nx, p / nx)
+                .expect("a fixed free node lies on a fixed side");
+            side_values[op.side_target(s) as usize]
+        };
+    }
+    stages.leave();
+    Ok(Core {
+        raster,
+        op,
+        phi,
+        potentials,
+        response,
+        background,
+        maxwell,
+        infos,
+    })
+}
+
+/// Solves a small dense SPD system by Gaussian elimination with partial pivoting.
+fn dense_solve(a: &[Vec<f64>], b: &[f64]) -> Vec<f64> {
+    let n = b.len();
+    let mut m: Vec<Vec<f64>> = a
+        .iter()
+        .zip(b)
+        .map(|(r, &v)| r.iter().copied().chain(std::iter::once(v)).collect())
+        .collect();
+    for c in 0..n {
+        let piv = (c..n)
+            .max_by(|&i, &j| m[i][c].abs().total_cmp(&m[j][c].abs()))
+            .unwrap();
+        m.swap(c, piv);
+        for r in c + 1..n {
+            let f = m[r][c] / m[c][c];
+            for k in c..=n {
+                m[r][k] -= f * m[c][k];
+            }
+        }
+    }
+    let mut x = vec![0.0; n];
+    for r in (0..n).rev() {
+        let s: f64 = (r + 1..n).map(|k| m[r][k] * x[k]).sum();
+        x[r] = (m[r][n] - s) / m[r][r];
+    }
+    x
+}
