@@ -121,7 +121,7 @@ pub fn field_maps(
             .raster
             .material
             .iter()
-            .map(|&m| fieldgrid_solver::raster::Raster::permittivity(design, m))
+            .map(|&m| fieldgrid_solver::material::of(design, m).permittivity)
             .collect();
         map.field_lines = Some(FieldLines {
             potential: &potential,

@@ -10,7 +10,7 @@
 //! about 7 significant digits; the node values keep full precision.
 
 use fieldgrid_solver::design::Design;
-use fieldgrid_solver::raster::{Raster, NO_CONDUCTOR};
+use fieldgrid_solver::raster::NO_CONDUCTOR;
 use fieldgrid_solver::study::Solution;
 use vtkio::model::{
     Attribute, Attributes, ByteOrder, DataArray, DataSet, ElementType, Extent, ImageDataPiece,
@@ -42,7 +42,7 @@ pub fn image_data(sol: &Solution, design: &Design) -> Vtk {
         .raster
         .material
         .iter()
-        .map(|&m| Raster::permittivity(design, m))
+        .map(|&m| fieldgrid_solver::material::of(design, m).permittivity)
         .collect();
     let conductor: Vec<i32> = sol
         .raster

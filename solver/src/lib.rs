@@ -19,6 +19,7 @@ pub mod grid;
 pub mod line;
 pub mod line_study;
 mod links;
+pub mod material;
 pub mod open;
 pub mod operator;
 pub mod parallel;

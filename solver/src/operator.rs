@@ -24,6 +24,7 @@
 use crate::design::{Design, Mode, Side};
 use crate::grid::Grid;
 pub use crate::links::{Dir, DirectCoupling, Link, SideId};
+use crate::material;
 use crate::open;
 use crate::raster::{Axis, HalfLink, Raster, NO_CONDUCTOR};
 use crate::stencil::Stencil5;
@@ -322,7 +323,7 @@ impl<'a> Assembly<'a> {
                         None if ca == NO_CONDUCTOR && cb == NO_CONDUCTOR => {
                             let h = HalfLink {
                                 theta: 1.0,
-                                eps: Raster::permittivity(self.design, raster.material[a]),
+                                eps: material::of(self.design, raster.material[a]).permittivity,
                                 ends_on: None,
                             };
                             (Some(h), Some(h), None)
@@ -451,14 +452,14 @@ impl<'a> Assembly<'a> {
             &model,
             &self.unknown,
             |s| self.side_target(s),
-            |p| Raster::permittivity(design, raster.material[p]),
+            |p| material::of(design, raster.material[p]).permittivity,
             |s, i, j| self.faces.boundary_area(s, i, j),
         );
         for l in &robin {
             self.diag[l.node as usize] += l.weight;
         }
         self.links.extend(robin);
-        let eps = |p: usize| Raster::permittivity(design, raster.material[p]);
+        let eps = |p: usize| material::of(design, raster.material[p]).permittivity;
         let pair_eps = |p: usize, q: usize| 2.0 * eps(p) * eps(q) / (eps(p) + eps(q));
         for (p, q, w) in open::tangential_couplings(&self.grid, &model, &self.unknown, pair_eps) {
             self.diag[p] += w;

@@ -284,16 +284,6 @@ fn convex_vertices(ring: &[Point], solid_inside: bool) -> Vec<Point> {
         .collect()
 }
 
-/// Name and breakdown strength of material index `m`.
-pub(crate) fn material_of(design: &Design, m: u16) -> (String, Option<f64>) {
-    if m == 0 {
-        ("background".to_string(), design.background.strength)
-    } else {
-        let d = &design.dielectrics[m as usize - 1];
-        (d.name.clone(), d.strength)
-    }
-}
-
 fn hotspot_at(
     field: &FieldEval,
     design: &Design,
@@ -304,7 +294,8 @@ fn hotspot_at(
 ) -> Hotspot {
     let g = &field.op.grid;
     let (x, y) = (g.x(p % g.nx), g.y(p / g.nx));
-    let (material, strength) = material_of(design, field.raster.material[p]);
+    let m = crate::material::of(design, field.raster.material[p]);
+    let (material, strength) = (m.name.to_string(), m.strength);
     let reach = corner_cells * g.hx.max(g.hy);
     let singular = corners.iter().any(|c| (c[0] - x).hypot(c[1] - y) <= reach);
     Hotspot {
@@ -436,7 +427,7 @@ pub fn force(field: &FieldEval, design: &Design, k: usize) -> [f64; 2] {
         }
     }
     let axi = design.mode == Mode::Axisymmetric;
-    let eps_of = |p: usize| crate::raster::Raster::permittivity(design, raster.material[p]);
+    let eps_of = |p: usize| crate::material::of(design, raster.material[p]).permittivity;
     let mut f = [0.0f64; 2];
     // E on the face between p (inside) and q (outside), from node fields on both sides and
     // the potential difference across the face.

@@ -109,24 +109,14 @@ pub struct Raster {
     pub grid: Grid,
     /// Conductor index per node, [`NO_CONDUCTOR`] for a free node.
     pub conductor: Vec<u16>,
-    /// Material per node: 0 the background, d+1 dielectric d (the last painted wins).
+    /// Material per node: 0 the background, d+1 dielectric d (the last painted wins); looked
+    /// up with [`crate::material::of`].
     pub material: Vec<u16>,
     /// Cut edges, sorted by (node, axis), each edge at most once.
     pub cut_edges: Vec<CutEdge>,
     /// Free charge per node: planar C/m, axisymmetric C (the charge in the node's control
     /// volume; whole ring in axisymmetric mode). Sorted by node, each node at most once.
     pub node_charge: Vec<(u32, f64)>,
-}
-
-impl Raster {
-    /// Relative permittivity of material index `m` (as stored in [`Raster::material`]).
-    pub fn permittivity(design: &Design, m: u16) -> f64 {
-        if m == 0 {
-            design.background.permittivity
-        } else {
-            design.dielectrics[m as usize - 1].permittivity
-        }
-    }
 }
 
 /// Rows of nodes per band when painting nodes (a fixed number: results do not depend on it).

@@ -19,7 +19,6 @@ use crate::design::{Charge, Design, Mode, Point, Shape};
 use crate::geometry::{outline, Outline, Piece};
 use crate::operator::{Operator, SideId};
 use crate::post::FieldEval;
-use crate::raster::Raster;
 use crate::surface_field::{self, Across, FitParams, Frame, Lattice, SurfaceField};
 
 /// What a surface sample lies on.
@@ -142,7 +141,7 @@ impl<'a> Materials<'a> {
     }
 
     fn eps(&self, m: u16) -> f64 {
-        Raster::permittivity(self.design, m)
+        crate::material::of(self.design, m).permittivity
     }
 }
 

@@ -41,7 +41,7 @@ pub fn surface_charge(
     charges: &[f64],
 ) -> Vec<SurfacePoint> {
     let nc = design.conductors.len();
-    let eps = |m: u16| crate::raster::Raster::permittivity(design, m);
+    let eps = |m: u16| crate::material::of(design, m).permittivity;
     let mut out: Vec<SurfacePoint> = samples
         .iter()
         .filter_map(|s| match s.kind {
@@ -184,7 +184,10 @@ fn curve_maxima(samples: &[SurfaceSample], closed: impl Fn(usize) -> bool) -> Ve
 
 /// A hot spot at `at` in material `m`.
 fn spot(design: &Design, corners: &[Point], reach: f64, at: Point, mag: f64, m: u16) -> Hotspot {
-    let (material, strength) = crate::post::material_of(design, m);
+    let (material, strength) = {
+        let m = crate::material::of(design, m);
+        (m.name.to_string(), m.strength)
+    };
     Hotspot {
         magnitude: mag,
         x: at[0],
@@ -296,7 +299,7 @@ pub fn peak_and_hotspots(
     let h = g.hx.max(g.hy);
     let reach = params.corner_cells * h;
     let cand = candidates(field, samples);
-    let strength = |m: u16| crate::post::material_of(design, m).1;
+    let strength = |m: u16| crate::material::of(design, m).strength;
     let by_margin = any_strength(design);
     let key = |c: &(Point, f64, u16, f64)| match (by_margin, strength(c.2)) {
         (true, Some(s)) => (0, s / c.1),

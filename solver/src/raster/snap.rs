@@ -13,6 +13,7 @@
 
 use super::{Axis, CutEdge, DirectLink, HalfLink, Raster, NO_CONDUCTOR};
 use crate::design::Design;
+use crate::material;
 use std::collections::HashMap;
 
 /// Smallest cut fraction kept; nearer nodes join the conductor.
@@ -82,7 +83,7 @@ pub(super) fn snap_near_surfaces(r: &mut Raster, design: &Design) {
         };
         let pos = *index.entry(key).or_insert_with(|| {
             // A plain edge: same material at both ends, nothing between them.
-            let eps = Raster::permittivity(design, r.material[a]);
+            let eps = material::of(design, r.material[a]).permittivity;
             let h = HalfLink {
                 theta: 1.0,
                 eps,
@@ -106,11 +107,10 @@ pub(super) fn snap_near_surfaces(r: &mut Raster, design: &Design) {
         if ka != NO_CONDUCTOR && kb != NO_CONDUCTOR && ka != kb && c.direct.is_none() {
             // The gap is what the snapped end saw of the other conductor.
             let seen = |h: Option<HalfLink>, k: u16| h.filter(|h| h.ends_on == Some(k));
-            let (gap, eps) = seen(old_a, kb)
-                .or(seen(old_b, ka))
-                .map_or((1.0, Raster::permittivity(design, r.material[a])), |h| {
-                    (h.theta, h.eps)
-                });
+            let (gap, eps) = seen(old_a, kb).or(seen(old_b, ka)).map_or(
+                (1.0, material::of(design, r.material[a]).permittivity),
+                |h| (h.theta, h.eps),
+            );
             c.direct = Some(DirectLink {
                 a: ka,
                 b: kb,
