@@ -98,7 +98,7 @@ pub fn check_signals(design: &Design, signals: &[String]) -> Result<(), SignalEr
 /// The plan of a line study: the lattice both studies share, and their memory (the first
 /// study's solution is held while the second runs).
 pub fn plan(design: &Design, params: &StudyParams) -> Result<Plan, GridError> {
-    Ok(crate::plan::plan(design, params)?.holding_a_solution())
+    Ok(study::plan(design, params)?.holding_a_solution())
 }
 
 /// Runs both studies of a planar design and derives the line parameters of `signals`.
@@ -316,7 +316,7 @@ mod tests {
     #[test]
     fn the_plan_counts_the_held_solution() {
         let d = half_strip(1.0, None);
-        let one = crate::plan::plan(&d, &quick()).unwrap();
+        let one = study::plan(&d, &quick()).unwrap();
         let two = plan(&d, &quick()).unwrap();
         assert_eq!(one.grid(), two.grid());
         assert!(two.memory_mib() > one.memory_mib());

@@ -25,7 +25,6 @@
 use crate::design::Design;
 use crate::grid::{Grid, GridError};
 use crate::solvers::Method;
-use crate::study::StudyParams;
 
 /// Memory of the process apart from the lattice (code, fonts, threads), MiB, rounded up.
 pub const BASE_MIB: f64 = 16.0;
@@ -80,15 +79,17 @@ impl Plan {
     }
 }
 
-/// Fits the lattice of `design` and estimates the memory of its study with `params`.
-pub fn plan(design: &Design, params: &StudyParams) -> Result<Plan, GridError> {
+/// Fits the lattice of `design` and estimates the memory of its study with the linear solver
+/// `method`, with or without the error estimate (`study::plan` takes both from the study's
+/// settings).
+pub fn plan(design: &Design, method: Method, error_estimate: bool) -> Result<Plan, GridError> {
     let d = &design.domain;
     let grid = Grid::fit(d.x, d.y, d.cell)?;
     let mut bytes_per_node = STUDY_BYTES_PER_NODE;
-    if params.method == Method::Multigrid {
+    if method == Method::Multigrid {
         bytes_per_node += MULTIGRID_BYTES_PER_NODE;
     }
-    if params.error_estimate {
+    if error_estimate {
         bytes_per_node += ERROR_ESTIMATE_BYTES_PER_NODE;
     }
     Ok(Plan {
@@ -109,7 +110,7 @@ mod tests {
 
     #[test]
     fn the_default_study_keeps_128_bytes_per_node() {
-        let p = plan(&design(1e-3), &StudyParams::default()).unwrap();
+        let p = plan(&design(1e-3), Method::Multigrid, true).unwrap();
         assert_eq!(p.bytes_per_node(), 128.0);
         assert_eq!((p.grid().nx, p.grid().ny), (1001, 1001));
         let want = BASE_MIB + 1001.0 * 1001.0 * 128.0 / 1048576.0;
@@ -120,12 +121,8 @@ mod tests {
     #[test]
     fn solver_and_error_estimate_change_the_estimate() {
         let d = design(1e-2);
-        let at = |method: Method, estimate: bool| {
-            let p = StudyParams::default()
-                .with_method(method)
-                .with_error_estimate(estimate);
-            plan(&d, &p).unwrap().bytes_per_node()
-        };
+        let at =
+            |method: Method, estimate: bool| plan(&d, method, estimate).unwrap().bytes_per_node();
         assert!(at(Method::Multigrid, false) < at(Method::Multigrid, true));
         assert!(at(Method::Cg, true) < at(Method::Multigrid, true));
         assert_eq!(at(Method::Cg, false), at(Method::Sor, false));
@@ -139,7 +136,7 @@ mod tests {
     #[test]
     fn a_bad_cell_is_a_grid_error() {
         assert_eq!(
-            plan(&design(-1.0), &StudyParams::default()),
+            plan(&design(-1.0), Method::Multigrid, true),
             Err(GridError::Cell(-1.0))
         );
     }

@@ -211,14 +211,19 @@ impl Solution {
     }
 }
 
+/// The plan of the study of `design` with `params`: its lattice and memory estimate.
+pub fn plan(design: &Design, params: &StudyParams) -> Result<Plan, GridError> {
+    crate::plan::plan(design, params.method, params.error_estimate)
+}
+
 /// Runs the study of a validated design.
 pub fn run(design: &Design, params: &StudyParams) -> Result<Solution, StudyError> {
-    let plan = crate::plan::plan(design, params)?;
+    let plan = plan(design, params)?;
     run_planned(design, &plan, params)
 }
 
-/// Runs the study of a validated design on the lattice of its `plan` (made by
-/// [`crate::plan::plan`] for this design, so the lattice is fitted once).
+/// Runs the study of a validated design on the lattice of its `plan` (made by [`plan`] for
+/// this design, so the lattice is fitted once).
 pub fn run_planned(
     design: &Design,
     plan: &Plan,

@@ -5,7 +5,6 @@ use crate::args::CheckArgs;
 use crate::error::Failure;
 use crate::outdir::OutDir;
 use crate::EXIT_OK;
-use fieldgrid_solver::plan;
 use fieldgrid_solver::study::StudyParams;
 
 /// Runs the command, returning the exit code.
@@ -13,7 +12,7 @@ pub fn run(args: &CheckArgs) -> Result<u8, Failure> {
     let src = load_design(&args.design, &super::parameter_overrides(&args.set)?)?;
     let (plan, mib) = check_memory(
         &src,
-        plan::plan(&src.design, &StudyParams::default()),
+        fieldgrid_solver::study::plan(&src.design, &StudyParams::default()),
         None,
         0.0,
     )?;

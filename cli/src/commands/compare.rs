@@ -20,7 +20,6 @@ use crate::error::Failure;
 use crate::outdir::{csv_bytes, num, OutDir};
 use crate::summary::{Summary, VERSION};
 use crate::{EXIT_CHANGED, EXIT_NOT_CONVERGED, EXIT_OK};
-use fieldgrid_solver::plan;
 use fieldgrid_solver::study::{self, Solution};
 use serde::Serialize;
 use std::path::{Path, PathBuf};
@@ -159,7 +158,7 @@ fn load(path: &Path, args: &CompareArgs, role: &str) -> Result<Revision, Failure
             let params = study_params(&args.opts)?;
             let (plan, _) = check_memory(
                 &src,
-                plan::plan(&src.design, &params),
+                study::plan(&src.design, &params),
                 args.opts.max_memory,
                 0.0,
             )?;

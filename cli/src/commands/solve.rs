@@ -34,7 +34,7 @@ pub fn run_timed(args: &SolveArgs, timings: &Arc<Timings>) -> Result<u8, Failure
     };
     let (plan, _) = super::check_memory(
         &src,
-        fieldgrid_solver::plan::plan(&src.design, &params),
+        study::plan(&src.design, &params),
         args.opts.max_memory,
         extra,
     )?;

@@ -277,7 +277,7 @@ pub fn run(args: &SweepArgs) -> Result<u8, Failure> {
             .map_err(|f| point_failure(p, &vary, &values, f))?;
         let (plan, _) = check_memory(
             &src,
-            fieldgrid_solver::plan::plan(&src.design, &params),
+            study::plan(&src.design, &params),
             args.opts.max_memory,
             0.0,
         )

@@ -4,8 +4,8 @@
 use std::path::Path;
 
 use fieldgrid_cli::commands;
-use fieldgrid_solver::plan::{plan, Plan};
-use fieldgrid_solver::study::StudyParams;
+use fieldgrid_solver::plan::Plan;
+use fieldgrid_solver::study::{self, StudyParams};
 use fieldgrid_tests::cli::{scratch, write};
 
 use super::{failure_of, PLATES, SCRATCH};
@@ -13,7 +13,7 @@ use super::{failure_of, PLATES, SCRATCH};
 /// The plan of the default study (multigrid, error estimate) of a design file.
 fn plan_of(file: &str) -> Plan {
     let text = std::fs::read_to_string(file).unwrap();
-    plan(&fieldgrid_tests::design(&text), &StudyParams::default()).unwrap()
+    study::plan(&fieldgrid_tests::design(&text), &StudyParams::default()).unwrap()
 }
 
 #[test]
