@@ -1,4 +1,5 @@
-//! Post-processing of a solved potential: field, forces, hot spots, probes, surface charge.
+//! Post-processing of a solved potential: field, forces, probes, surface charge, and the hot-spot
+//! records the surface search fills in.
 //!
 //! The field at a free node is the second-order difference of the potential along each axis,
 //! using the cut-cell distance to a conductor surface where a link crosses one (so the field
@@ -281,88 +282,6 @@ fn convex_vertices(ring: &[Point], solid_inside: bool) -> Vec<Point> {
     (0..n)
         .filter(|&k| turn(ring[(k + n - 1) % n], ring[k], ring[(k + 1) % n]) * orient > 0.0)
         .map(|k| ring[k])
-        .collect()
-}
-
-fn hotspot_at(
-    field: &FieldEval,
-    design: &Design,
-    corners: &[Point],
-    p: usize,
-    mag: f64,
-    corner_cells: f64,
-) -> Hotspot {
-    let g = &field.op.grid;
-    let (x, y) = (g.x(p % g.nx), g.y(p / g.nx));
-    let m = crate::material::of(design, field.raster.material[p]);
-    let (material, strength) = (m.name.to_string(), m.strength);
-    let reach = corner_cells * g.hx.max(g.hy);
-    let singular = corners.iter().any(|c| (c[0] - x).hypot(c[1] - y) <= reach);
-    Hotspot {
-        magnitude: mag,
-        x,
-        y,
-        material,
-        strength,
-        margin: strength.map(|s| s / mag),
-        singular,
-        error_estimate: None,
-        under_resolved: false,
-    }
-}
-
-/// The largest field magnitude outside conductors.
-pub fn peak(field: &FieldEval, design: &Design, corners: &[Point]) -> Option<Hotspot> {
-    let mut best: Option<(usize, f64)> = None;
-    for (p, &m) in field.magnitudes().iter().enumerate() {
-        if m.is_finite() && best.is_none_or(|(_, b)| m > b) {
-            best = Some((p, m));
-        }
-    }
-    best.map(|(p, m)| {
-        hotspot_at(
-            field,
-            design,
-            corners,
-            p,
-            m,
-            HotspotParams::default().corner_cells,
-        )
-    })
-}
-
-/// Ranked distinct maxima of |E|: the maxima whose persistence reaches
-/// `params.persistence`, highest first, each at least `params.separation_cells` from a higher
-/// one, at most `params.count`.
-pub fn hotspots(
-    field: &FieldEval,
-    design: &Design,
-    corners: &[Point],
-    params: &HotspotParams,
-) -> Vec<Hotspot> {
-    let g = &field.op.grid;
-    let nx = g.nx;
-    let mag = field.magnitudes();
-    // Highest first, equal values by node index.
-    let mut cand = crate::peaks::persistent(mag, g.nx, g.ny, params.persistence);
-    let sep = params.separation_cells * g.hx.max(g.hy);
-    let mut chosen: Vec<(usize, f64)> = Vec::new();
-    while chosen.len() < params.count {
-        let Some(p) = cand.next() else {
-            break;
-        };
-        let m = mag[p];
-        let (x, y) = (g.x(p % nx), g.y(p / nx));
-        if chosen
-            .iter()
-            .all(|&(q, _)| (g.x(q % nx) - x).hypot(g.y(q / nx) - y) >= sep)
-        {
-            chosen.push((p, m));
-        }
-    }
-    chosen
-        .into_iter()
-        .map(|(p, m)| hotspot_at(field, design, corners, p, m, params.corner_cells))
         .collect()
 }
 

@@ -51,11 +51,8 @@ fn layered_plates_match_series_capacitor_formula() {
     assert!(err < 2e-3, "C' = {got:e}, want {want:e}, error {err:e}");
 }
 
-#[test]
-fn uniform_space_charge_between_grounded_plates_gives_gauss_surface_field() {
-    // Gauss's law for a slab of uniform charge between grounded plates (Griffiths 2017,
-    // sec. 2.2): the surface field is rho d / (2 eps0), so each plate carries -rho d w / 2.
-    let text = r#"
+/// A slab of uniform charge (1e-3 C/m^3) filling the 2 mm gap between grounded plates.
+const SLAB: &str = r#"
 unit = "mm"
 [grid]
 x = [0.0, 1.0]
@@ -69,7 +66,12 @@ name = "slab"
 density = 1.0e-3
 rect = { x = [0.0, 1.0], y = [0.0, 2.0] }
 "#;
-    let s = solve(&design(text));
+
+#[test]
+fn uniform_space_charge_between_grounded_plates_gives_gauss_surface_field() {
+    // Gauss's law for a slab of uniform charge between grounded plates (Griffiths 2017,
+    // sec. 2.2): the surface field is rho d / (2 eps0), so each plate carries -rho d w / 2.
+    let s = solve(&design(SLAB));
     let (rho, dgap, w) = (1.0e-3, 2e-3, 1e-3);
     let want_field = rho * dgap / (2.0 * EPS0);
     for side in [2, 3] {
@@ -560,21 +562,7 @@ fn dielectric_sleeve_field_on_both_sides_of_the_interface() {
 fn space_charge_surface_field_at_the_plates_within_a_thousandth() {
     // Gauss's law for a slab of uniform charge between grounded plates (Griffiths 2017,
     // sec. 2.2): the surface field is rho d / (2 eps0).
-    let text = r#"
-unit = "mm"
-[grid]
-x = [0.0, 1.0]
-y = [0.0, 2.0]
-cell = 0.05
-[sides]
-left = "symmetry"
-right = "symmetry"
-[[charge]]
-name = "slab"
-density = 1.0e-3
-rect = { x = [0.0, 1.0], y = [0.0, 2.0] }
-"#;
-    let s = solve(&design(text));
+    let s = solve(&design(SLAB));
     let want = 1.0e-3 * 2e-3 / (2.0 * EPS0);
     for side in [SideId::Bottom, SideId::Top] {
         let (peak, worst) = surface_peak(&s, SurfaceKind::Side(side), want);
