@@ -15,6 +15,7 @@
 pub mod circuit;
 pub mod design;
 pub mod geometry;
+pub mod grading;
 pub mod grid;
 pub mod line;
 pub mod line_study;

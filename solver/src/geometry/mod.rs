@@ -27,5 +27,6 @@ mod piece;
 mod validate;
 
 pub use corners::{outline_polylines, sharp_corners};
+pub(crate) use intersect::meet;
 pub use outline::{outline, BBox, Outline, Piece, ShapeError};
 pub use validate::validate_design;

@@ -1,0 +1,343 @@
+//! Graded grid lines that follow a design: node lines on the geometry, small cells at its
+//! singular points, smooth growth up to the coarsest spacing.
+//!
+//! Along each axis the lines are built from a target size `h(t)`, the smallest of the
+//! coarsest spacing and of one cone per feature, `size + ln(growth) * distance`:
+//! - every axis-parallel straight edge of every conductor, dielectric and charge region, the
+//!   domain sides, every sharp corner of a conductor and both ends of every thin (polyline)
+//!   conductor give a node line (the geometry is held exactly; no cut cell on those edges);
+//! - between two neighbouring node lines the size is at most their distance over
+//!   `min_cells` (every thin layer gets that many cells across);
+//! - every sharp corner of a conductor, end or kink of a polyline and point where a
+//!   conductor's outline meets a dielectric's gets the size `corner_fraction` times its local
+//!   feature size (the distance to the nearest other node line, either axis);
+//! - every circular arc (fillets, circles, rings) gets at most `radius / cells_per_radius`
+//!   over its extent.
+//!
+//! Between two node lines the nodes are placed at equal steps of `∫ dt / h`, the count
+//! rounded up, so no cell is larger than the target there.
+//!
+//! Invariants of [`lines`]: each list is strictly increasing, starts and ends on the domain
+//! sides and holds every node line above; no cell exceeds the coarsest spacing; the ratio of
+//! neighbouring cells is at most `growth * (min_cells + 1) / min_cells` (the growth of the
+//! target size times the rounding of a cell count up); the cells next to a graded point are
+//! at most `growth` times its target size. Pure functions of the design, lengths in metres.
+
+use crate::design::{Design, Point};
+use crate::geometry::{outline, sharp_corners, BBox, Outline, Piece};
+use crate::grid::GridError;
+
+/// How finely to grade. Start from `Params::default()`.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[non_exhaustive]
+pub struct Params {
+    /// Largest ratio of the target sizes of neighbouring cells, > 1.
+    pub growth: f64,
+    /// Target size at a singular point over its local feature size, in (0, 1].
+    pub corner_fraction: f64,
+    /// Fewest cells between two neighbouring node lines, >= 1.
+    pub min_cells: usize,
+    /// Fewest cells per radius along a circular arc, >= 1.
+    pub cells_per_radius: usize,
+}
+
+impl Default for Params {
+    fn default() -> Self {
+        Params {
+            growth: 1.2,
+            corner_fraction: 1.0 / 16.0,
+            min_cells: 4,
+            cells_per_radius: 8,
+        }
+    }
+}
+
+impl Params {
+    /// These settings with the target size at singular points `fraction` of the local
+    /// feature size.
+    pub fn with_corner_fraction(mut self, fraction: f64) -> Self {
+        self.corner_fraction = fraction;
+        self
+    }
+
+    /// Largest ratio of neighbouring cells that [`lines`] can produce with these settings.
+    pub fn max_ratio(&self) -> f64 {
+        self.growth * (self.min_cells as f64 + 1.0) / self.min_cells as f64
+    }
+}
+
+/// The node lines of a graded grid, m.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Lines {
+    /// x of every node column, strictly increasing, from the domain's x0 to x1.
+    pub x: Vec<f64>,
+    /// y of every node row, strictly increasing.
+    pub y: Vec<f64>,
+}
+
+/// Most cells along one axis.
+const MAX_CELLS: f64 = 1.0e8;
+
+/// Node lines closer than this fraction of the domain's extent are one line.
+const MERGE: f64 = 1.0e-9;
+
+/// A cone of the target size along one axis: `size` on `[lo, hi]`, growing with distance.
+#[derive(Clone, Copy, Debug, PartialEq)]
+struct Feature {
+    lo: f64,
+    hi: f64,
+    size: f64,
+}
+
+/// What the geometry asks of one axis: node lines and features.
+#[derive(Default)]
+struct Axis {
+    lines: Vec<f64>,
+    features: Vec<Feature>,
+}
+
+/// The graded node lines of `design` with no cell larger than `coarsest` (m).
+pub fn lines(design: &Design, coarsest: f64, params: &Params) -> Result<Lines, GridError> {
+    if !(coarsest.is_finite() && coarsest > 0.0) {
+        return Err(GridError::Cell(coarsest));
+    }
+    let d = &design.domain;
+    let (lx, ly) = (d.x[1] - d.x[0], d.y[1] - d.y[0]);
+    if !(lx.is_finite() && lx > 0.0 && ly.is_finite() && ly > 0.0) {
+        return Err(GridError::Domain);
+    }
+    let (cx, cy) = ((lx / coarsest).ceil(), (ly / coarsest).ceil());
+    if cx > MAX_CELLS || cy > MAX_CELLS {
+        return Err(GridError::TooManyCells { x: cx, y: cy });
+    }
+    assert!(
+        params.growth > 1.0
+            && params.corner_fraction > 0.0
+            && params.corner_fraction <= 1.0
+            && params.min_cells >= 1
+            && params.cells_per_radius >= 1,
+        "grading parameters out of range: {params:?}"
+    );
+    let (mut ax, mut ay) = (Axis::default(), Axis::default());
+    ax.lines.extend(d.x);
+    ay.lines.extend(d.y);
+    let mut points = Vec::new();
+    let mut conductors = Vec::new();
+    let mut dielectrics = Vec::new();
+    let shapes = design
+        .conductors
+        .iter()
+        .map(|c| (&c.shape, true))
+        .chain(design.dielectrics.iter().map(|e| (&e.shape, false)))
+        .chain(design.charges.iter().filter_map(|c| match c {
+            crate::design::Charge::Region { shape, .. } => Some((shape, false)),
+            _ => None,
+        }));
+    for (shape, conductor) in shapes {
+        let Ok(o) = outline(shape) else { continue };
+        edges(&o, params, &mut ax, &mut ay);
+        if conductor {
+            let corners = sharp_corners(shape);
+            for p in &corners {
+                ax.lines.push(p[0]);
+                ay.lines.push(p[1]);
+            }
+            points.extend(corners);
+            conductors.push(o);
+        } else {
+            dielectrics.push(o);
+        }
+    }
+    points.extend(junctions(&conductors, &dielectrics));
+    let (x, y) = (d.x, d.y);
+    ax.lines = merged(ax.lines, x, MERGE * lx);
+    ay.lines = merged(ay.lines, y, MERGE * ly);
+    let floor = MERGE * lx.max(ly) * 10.0;
+    for p in points {
+        if !(p[0] >= x[0] && p[0] <= x[1] && p[1] >= y[0] && p[1] <= y[1]) {
+            continue;
+        }
+        let lfs = nearest_other(&ax.lines, p[0]).min(nearest_other(&ay.lines, p[1]));
+        let size = (params.corner_fraction * lfs).max(floor);
+        ax.features.push(Feature {
+            lo: p[0],
+            hi: p[0],
+            size,
+        });
+        ay.features.push(Feature {
+            lo: p[1],
+            hi: p[1],
+            size,
+        });
+    }
+    Ok(Lines {
+        x: graded_axis(&ax, coarsest, params),
+        y: graded_axis(&ay, coarsest, params),
+    })
+}
+
+/// Node lines on the axis-parallel straight edges of an outline (and a polyline's ends), and
+/// the size limit of its arcs.
+fn edges(o: &Outline, params: &Params, ax: &mut Axis, ay: &mut Axis) {
+    for p in o.pieces() {
+        match *p {
+            Piece::Line { a, b } => {
+                if a[0] == b[0] {
+                    ax.lines.push(a[0]);
+                }
+                if a[1] == b[1] {
+                    ay.lines.push(a[1]);
+                }
+            }
+            Piece::Arc { radius, .. } => {
+                let size = radius / params.cells_per_radius as f64;
+                let [x0, x1] = p.x_range();
+                let [y0, y1] = p.y_range();
+                ax.features.push(Feature {
+                    lo: x0,
+                    hi: x1,
+                    size,
+                });
+                ay.features.push(Feature {
+                    lo: y0,
+                    hi: y1,
+                    size,
+                });
+            }
+        }
+    }
+    if o.open {
+        for l in &o.loops {
+            for q in [l.first().map(Piece::start), l.last().map(Piece::end)]
+                .into_iter()
+                .flatten()
+            {
+                ax.lines.push(q[0]);
+                ay.lines.push(q[1]);
+            }
+        }
+    }
+}
+
+/// Points where a conductor's outline meets a dielectric's (ends of shared stretches
+/// included): the field is singular there.
+fn junctions(conductors: &[Outline], dielectrics: &[Outline]) -> Vec<Point> {
+    let mut out = Vec::new();
+    for c in conductors {
+        let cb = c.bbox();
+        for e in dielectrics {
+            if !cb.meets(&e.bbox(), 0.0) {
+                continue;
+            }
+            let span = extent(cb.union(e.bbox()));
+            let tol = 1e-12 * span;
+            for p in c.pieces() {
+                let pb = p.bbox();
+                for q in e.pieces() {
+                    if pb.meets(&q.bbox(), tol) {
+                        out.extend(crate::geometry::meet(p, q, tol));
+                    }
+                }
+            }
+        }
+    }
+    out
+}
+
+fn extent(b: BBox) -> f64 {
+    (b.max[0] - b.min[0]).max(b.max[1] - b.min[1])
+}
+
+/// The lines inside `[a[0], a[1]]`, sorted, lines closer than `tol` merged (the domain
+/// sides kept exactly).
+fn merged(mut lines: Vec<f64>, a: [f64; 2], tol: f64) -> Vec<f64> {
+    lines.retain(|t| t.is_finite() && *t > a[0] + tol && *t < a[1] - tol);
+    lines.sort_by(f64::total_cmp);
+    let mut out = vec![a[0]];
+    for t in lines {
+        if t - out[out.len() - 1] > tol {
+            out.push(t);
+        }
+    }
+    out.push(a[1]);
+    out
+}
+
+/// Distance from `t` to the nearest line of the sorted `lines` other than `t` itself.
+fn nearest_other(lines: &[f64], t: f64) -> f64 {
+    let k = lines.partition_point(|&l| l < t);
+    let below = lines[..k].last().map_or(f64::INFINITY, |l| t - l);
+    let above = lines[k..]
+        .iter()
+        .find(|&&l| l > t)
+        .map_or(f64::INFINITY, |l| l - t);
+    below.min(above)
+}
+
+/// The target size at `t`: the smallest cone, capped at `coarsest`.
+fn target(t: f64, features: &[Feature], slope: f64, coarsest: f64) -> f64 {
+    features.iter().fold(coarsest, |h, f| {
+        let dist = (f.lo - t).max(t - f.hi).max(0.0);
+        h.min(f.size + slope * dist)
+    })
+}
+
+/// The nodes of one axis: its node lines, and between each neighbouring pair nodes at
+/// equal steps of `∫ dt / h` (the number of cells rounded up).
+fn graded_axis(axis: &Axis, coarsest: f64, params: &Params) -> Vec<f64> {
+    let slope = params.growth.ln();
+    let min_cells = params.min_cells as f64;
+    let mut features = axis.features.clone();
+    for w in axis.lines.windows(2) {
+        features.push(Feature {
+            lo: w[0],
+            hi: w[1],
+            size: (w[1] - w[0]) / min_cells,
+        });
+    }
+    let mut out = vec![axis.lines[0]];
+    let mut table: Vec<(f64, f64)> = Vec::new();
+    for w in axis.lines.windows(2) {
+        let (a, b) = (w[0], w[1]);
+        // Only the cones that can reach below the cap inside [a, b] matter.
+        let near: Vec<Feature> = features
+            .iter()
+            .filter(|f| {
+                let dist = (f.lo - b).max(a - f.hi).max(0.0);
+                f.size + slope * dist < coarsest
+            })
+            .copied()
+            .collect();
+        // s(t) = ∫_a^t dt / h by the trapezoid rule on steps of h/16: the piecewise-linear
+        // map has slope dt/ds the harmonic mean of two target sizes, never above either.
+        table.clear();
+        let (mut t, mut s) = (a, 0.0);
+        let mut h = target(a, &near, slope, coarsest);
+        table.push((t, s));
+        while t < b {
+            let t1 = (t + h / 16.0).min(b);
+            let h1 = target(t1, &near, slope, coarsest);
+            s += 0.5 * (t1 - t) * (1.0 / h + 1.0 / h1);
+            (t, h) = (t1, h1);
+            table.push((t, s));
+        }
+        let n = s.ceil().max(1.0);
+        let mut k = 0;
+        for i in 1..n as usize {
+            let si = s * i as f64 / n;
+            while table[k + 1].1 < si {
+                k += 1;
+            }
+            let ((t0, s0), (t1, s1)) = (table[k], table[k + 1]);
+            let ti = t0 + (t1 - t0) * (si - s0) / (s1 - s0);
+            if ti > out[out.len() - 1] && ti < b {
+                out.push(ti);
+            }
+        }
+        out.push(b);
+    }
+    out
+}
+
+#[cfg(test)]
+mod tests;

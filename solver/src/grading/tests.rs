@@ -1,0 +1,262 @@
+use super::*;
+use crate::design::{Conductor, Dielectric, Domain, Drive, Shape};
+
+fn rect(x: [f64; 2], y: [f64; 2]) -> Shape {
+    Shape::Rect { x, y, round: 0.0 }
+}
+
+fn conductor(name: &str, shape: Shape) -> Conductor {
+    Conductor {
+        name: name.into(),
+        drive: Drive::Fixed(1.0),
+        shape,
+    }
+}
+
+fn dielectric(shape: Shape) -> Dielectric {
+    Dielectric {
+        name: "d".into(),
+        permittivity: 4.0,
+        strength: None,
+        shape,
+    }
+}
+
+/// Thin pads on a board under an overlay, in metres (a board cross-section of our own).
+fn pads() -> Design {
+    Design {
+        domain: Domain {
+            x: [0.0, 20e-3],
+            y: [0.0, 9.6e-3],
+            cell: 0.4e-3,
+        },
+        conductors: vec![
+            conductor("a", rect([6e-3, 10e-3], [1.6e-3, 1.635e-3])),
+            conductor("b", rect([11e-3, 15e-3], [1.6e-3, 1.635e-3])),
+        ],
+        dielectrics: vec![
+            dielectric(rect([0.0, 20e-3], [0.0, 1.6e-3])),
+            dielectric(rect([0.0, 20e-3], [1.635e-3, 3.635e-3])),
+        ],
+        ..Design::default()
+    }
+}
+
+/// A zero-thickness trace on a dielectric layer.
+fn trace() -> Design {
+    Design {
+        domain: Domain {
+            x: [0.0, 4.875e-3],
+            y: [0.0, 4.8e-3],
+            cell: 0.2e-3,
+        },
+        conductors: vec![conductor(
+            "t",
+            Shape::Polyline(vec![[0.0, 0.6e-3], [0.675e-3, 0.6e-3]]),
+        )],
+        dielectrics: vec![dielectric(rect([0.0, 4.875e-3], [0.0, 0.6e-3]))],
+        ..Design::default()
+    }
+}
+
+fn cells(t: &[f64]) -> Vec<f64> {
+    t.windows(2).map(|w| w[1] - w[0]).collect()
+}
+
+/// The invariants every list of lines keeps.
+fn check_invariants(t: &[f64], ends: [f64; 2], coarsest: f64, p: &Params) {
+    assert_eq!((t[0], t[t.len() - 1]), (ends[0], ends[1]));
+    assert!(t.windows(2).all(|w| w[1] > w[0]), "not strictly increasing");
+    let c = cells(t);
+    let largest = c.iter().copied().fold(0.0, f64::max);
+    assert!(
+        largest <= coarsest * (1.0 + 1e-12),
+        "{largest} > {coarsest}"
+    );
+    for w in c.windows(2) {
+        let r = (w[1] / w[0]).max(w[0] / w[1]);
+        assert!(r <= p.max_ratio() * (1.0 + 1e-9), "ratio {r} at {w:?}");
+    }
+}
+
+fn holds(t: &[f64], v: f64) -> bool {
+    t.contains(&v)
+}
+
+/// The cells on either side of the line at `v`.
+fn cells_beside(t: &[f64], v: f64) -> [f64; 2] {
+    let k = t.iter().position(|&x| x == v).expect("a node line");
+    let below = if k > 0 { v - t[k - 1] } else { f64::INFINITY };
+    let above = if k + 1 < t.len() {
+        t[k + 1] - v
+    } else {
+        f64::INFINITY
+    };
+    [below, above]
+}
+
+#[test]
+fn lines_are_sorted_bounded_and_smooth() {
+    let p = Params::default();
+    for d in [pads(), trace()] {
+        let l = lines(&d, d.domain.cell, &p).unwrap();
+        check_invariants(&l.x, d.domain.x, d.domain.cell, &p);
+        check_invariants(&l.y, d.domain.y, d.domain.cell, &p);
+    }
+}
+
+#[test]
+fn every_axis_parallel_edge_is_a_node_line() {
+    let d = pads();
+    let l = lines(&d, d.domain.cell, &Params::default()).unwrap();
+    for x in [0.0, 6e-3, 10e-3, 11e-3, 15e-3, 20e-3] {
+        assert!(holds(&l.x, x), "x = {x}");
+    }
+    for y in [0.0, 1.6e-3, 1.635e-3, 3.635e-3, 9.6e-3] {
+        assert!(holds(&l.y, y), "y = {y}");
+    }
+    let d = trace();
+    let l = lines(&d, d.domain.cell, &Params::default()).unwrap();
+    assert!(holds(&l.x, 0.675e-3) && holds(&l.y, 0.6e-3));
+}
+
+#[test]
+fn a_thin_layer_gets_min_cells_across() {
+    let d = pads();
+    let p = Params::default();
+    let l = lines(&d, d.domain.cell, &p).unwrap();
+    let inside = l.y.iter().filter(|&&y| y > 1.6e-3 && y < 1.635e-3).count();
+    assert!(
+        inside + 1 >= p.min_cells,
+        "{inside} nodes inside the copper"
+    );
+}
+
+#[test]
+fn grading_reaches_the_target_at_corners_and_trace_ends() {
+    let p = Params::default();
+    // Pad corners: the local feature is the copper thickness, 35 um.
+    let d = pads();
+    let l = lines(&d, d.domain.cell, &p).unwrap();
+    let target = p.corner_fraction * 35e-6;
+    for x in [6e-3, 10e-3, 11e-3, 15e-3] {
+        for c in cells_beside(&l.x, x) {
+            assert!(c <= p.growth * target, "x = {x}: cell {c} for {target}");
+        }
+    }
+    for y in [1.6e-3, 1.635e-3] {
+        for c in cells_beside(&l.y, y) {
+            assert!(c <= p.growth * target, "y = {y}: cell {c} for {target}");
+        }
+    }
+    // The trace end: the nearest other line is the left side, 0.6 mm below is the ground.
+    let d = trace();
+    let l = lines(&d, d.domain.cell, &p).unwrap();
+    let target = p.corner_fraction * 0.6e-3;
+    for c in cells_beside(&l.x, 0.675e-3) {
+        assert!(c <= p.growth * target, "trace end: {c} for {target}");
+    }
+    // Finer grading gives smaller cells there, and more lines.
+    let fine = lines(
+        &d,
+        d.domain.cell,
+        &p.with_corner_fraction(p.corner_fraction / 4.0),
+    )
+    .unwrap();
+    assert!(cells_beside(&fine.x, 0.675e-3)[1] < 0.5 * cells_beside(&l.x, 0.675e-3)[1]);
+    assert!(fine.x.len() > l.x.len());
+}
+
+#[test]
+fn far_from_the_geometry_cells_grow_to_the_coarsest() {
+    let d = pads();
+    let l = lines(&d, d.domain.cell, &Params::default()).unwrap();
+    // Above the overlay, y 3.635..9.6 mm: the middle cells are the coarsest spacing, within
+    // the rounding of the cell count.
+    let mid = l.y.iter().position(|&y| y > 7e-3).unwrap();
+    let c = l.y[mid] - l.y[mid - 1];
+    assert!(c > 0.8 * d.domain.cell && c <= d.domain.cell, "{c}");
+    // Far fewer lines than a uniform grid with the smallest cell would need.
+    let smallest = cells(&l.y).into_iter().fold(f64::INFINITY, f64::min);
+    assert!((l.y.len() as f64) < 0.05 * 9.6e-3 / smallest);
+}
+
+#[test]
+fn a_conductor_crossing_an_interface_is_graded_where_they_meet() {
+    // A post standing through the top of a layer: its sides meet the interface at y = 1 mm,
+    // which is no corner of either shape.
+    let d = Design {
+        domain: Domain {
+            x: [0.0, 10e-3],
+            y: [0.0, 10e-3],
+            cell: 0.5e-3,
+        },
+        conductors: vec![conductor("post", rect([4e-3, 6e-3], [0.5e-3, 3e-3]))],
+        dielectrics: vec![dielectric(rect([0.0, 10e-3], [0.0, 1e-3]))],
+        ..Design::default()
+    };
+    let p = Params::default();
+    let l = lines(&d, d.domain.cell, &p).unwrap();
+    check_invariants(&l.y, d.domain.y, d.domain.cell, &p);
+    // Local feature: 0.5 mm (the post's foot below the interface).
+    let target = p.corner_fraction * 0.5e-3;
+    for c in cells_beside(&l.y, 1e-3) {
+        assert!(c <= p.growth * target, "{c} for {target}");
+    }
+}
+
+#[test]
+fn fillets_get_cells_per_radius() {
+    let r = 0.3e-3;
+    let d = Design {
+        domain: Domain {
+            x: [0.0, 10e-3],
+            y: [0.0, 10e-3],
+            cell: 0.5e-3,
+        },
+        conductors: vec![conductor(
+            "c",
+            Shape::Rect {
+                x: [3e-3, 7e-3],
+                y: [3e-3, 7e-3],
+                round: r,
+            },
+        )],
+        ..Design::default()
+    };
+    let p = Params::default();
+    let l = lines(&d, d.domain.cell, &p).unwrap();
+    check_invariants(&l.x, d.domain.x, d.domain.cell, &p);
+    let limit = r / p.cells_per_radius as f64;
+    for w in l.x.windows(2) {
+        if w[0] >= 3e-3 && w[1] <= 3e-3 + r {
+            assert!(w[1] - w[0] <= limit * (1.0 + 1e-12), "{w:?}");
+        }
+    }
+    // No sharp corner: the straight edges are node lines, the arcs are not graded further.
+    assert!(holds(&l.x, 3e-3) && holds(&l.x, 7e-3));
+    let smallest = cells(&l.x).into_iter().fold(f64::INFINITY, f64::min);
+    assert!(smallest > 0.5 * limit, "{smallest}");
+}
+
+#[test]
+fn bad_spacing_and_huge_counts_are_grid_errors() {
+    let d = pads();
+    let p = Params::default();
+    assert_eq!(lines(&d, 0.0, &p), Err(GridError::Cell(0.0)));
+    assert!(matches!(lines(&d, f64::NAN, &p), Err(GridError::Cell(_))));
+    assert!(matches!(
+        lines(&d, 1e-13, &p),
+        Err(GridError::TooManyCells { .. })
+    ));
+}
+
+#[test]
+fn lines_are_a_pure_function_of_the_design() {
+    let d = pads();
+    let p = Params::default();
+    assert_eq!(
+        lines(&d, d.domain.cell, &p).unwrap(),
+        lines(&d, d.domain.cell, &p).unwrap()
+    );
+}
