@@ -125,14 +125,16 @@ pub fn no_export(why: NoCircuit) -> &'static str {
 }
 
 /// The subcircuit of a solved design in whole-part farads
-/// ([`fieldgrid_solver::circuit::for_solution`]).
+/// ([`fieldgrid_solver::circuit::for_solution`]): a drawn half is unfolded across its
+/// symmetry sides.
 pub fn for_solution(
     sol: &fieldgrid_solver::study::Solution,
-    depth: Option<f64>,
+    design: &fieldgrid_solver::design::Design,
     subcircuit_name: &str,
     source: &str,
 ) -> Result<Netlist, NoCircuit> {
-    let part = circuit::for_solution(sol, depth)?;
+    let unfolding = fieldgrid_solver::unfold::unfolding(design);
+    let part = circuit::for_solution(sol, design.depth, &unfolding)?;
     let how = match part.whole_part {
         WholePart::Planar { depth: d } => {
             format!("planar cross-section, F/m times depth {d:e} m: whole-part farads")
@@ -148,6 +150,21 @@ pub fn for_solution(
         "mutual C_ij = -C_ij (Maxwell); to the reference C_i0 = sum over j of C_ij (Maxwell)"
             .to_string(),
     ];
+    if !unfolding.is_whole() {
+        comments.push(format!(
+            "the whole part: the drawn part unfolded across its symmetry side{} {} (values {} \
+             times the drawn part's)",
+            if unfolding.sides.len() > 1 { "s" } else { "" },
+            unfolding.sides.join(", "),
+            unfolding.factor
+        ));
+    }
+    if !unfolding.joined.is_empty() {
+        comments.push(format!(
+            "joined with their mirror images (one port each, driven in phase): {}",
+            unfolding.joined.join(", ")
+        ));
+    }
     if !part.floating.is_empty() {
         comments.push(format!(
             "floating conductors folded into the matrix (no node): {}",

@@ -27,6 +27,9 @@ pub struct Summary {
     /// Planar depth, m, when the design gives one.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub depth: Option<f64>,
+    /// Which values are for the drawn part and which for the whole part.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub part: Option<PartSummary>,
     /// The lattice.
     pub grid: GridSummary,
     /// The linear solves.
@@ -54,6 +57,47 @@ pub struct Summary {
     /// Transmission-line parameters (the `impedance` command).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub line: Option<serde_json::Value>,
+}
+
+/// The drawn part and the whole part: symmetry sides mirror the drawn design.
+#[derive(Serialize, Deserialize, Debug, Clone, PartialEq)]
+pub struct PartSummary {
+    /// The mirror sides the drawn part unfolds across (empty: the drawn part is whole).
+    pub mirrored_across: Vec<String>,
+    /// Whole-part charges, capacitances, energy and forces are this multiple of the drawn
+    /// part's.
+    pub whole_part_factor: f64,
+    /// Conductors apart from a mirror plane: joined with their images in whole-part values.
+    pub joined_with_images: Vec<String>,
+    /// Values of this summary and the CSV files that are for the drawn part.
+    pub drawn_part_values: Vec<String>,
+    /// Files whose values are for the whole part.
+    pub whole_part_values: Vec<String>,
+}
+
+impl PartSummary {
+    /// The part of a design.
+    pub fn of(design: &fieldgrid_solver::design::Design) -> PartSummary {
+        let u = fieldgrid_solver::unfold::unfolding(design);
+        let drawn: &[&str] = if u.is_whole() {
+            &[]
+        } else {
+            &[
+                "conductors",
+                "capacitance",
+                "energy",
+                "capacitance.csv",
+                "surface_charge.csv",
+            ]
+        };
+        PartSummary {
+            mirrored_across: u.sides.iter().map(|s| s.to_string()).collect(),
+            whole_part_factor: u.factor,
+            joined_with_images: u.joined,
+            drawn_part_values: drawn.iter().map(|s| s.to_string()).collect(),
+            whole_part_values: vec!["capacitance.cir".to_string()],
+        }
+    }
 }
 
 /// One warning: its stable code beside its text.
@@ -258,6 +302,7 @@ impl Summary {
             mode: if planar { "planar" } else { "axisymmetric" }.to_string(),
             per_length: planar,
             depth,
+            part: None,
             grid: GridSummary {
                 nx: g.nx,
                 ny: g.ny,

@@ -11,11 +11,13 @@
 //! already and get no node.
 //!
 //! Invariants: values of a solution are whole-part farads: a planar matrix (F/m) is
-//! multiplied by the depth, an axisymmetric one (whole body) taken as it is; negative values
+//! multiplied by the depth, an axisymmetric one (whole body) taken as it is, and a drawn part
+//! that symmetry sides halve is unfolded into the whole ([`crate::unfold`]); negative values
 //! are kept and reported as warnings.
 
 use crate::design::Mode;
 use crate::study::Solution;
+use crate::unfold::Unfolding;
 use crate::warning::Warning;
 
 /// Capacitors equivalent to a Maxwell matrix.
@@ -53,6 +55,8 @@ pub struct SolutionCircuit {
     pub whole_part: WholePart,
     /// Floating conductors, folded into the matrix (no node).
     pub floating: Vec<String>,
+    /// The mirror sides the drawn part was unfolded across (the values include the images).
+    pub unfolding: Unfolding,
 }
 
 /// Why a solution has no circuit.
@@ -126,8 +130,13 @@ pub fn from_maxwell(names: &[String], maxwell: &[Vec<f64>]) -> Circuit {
 }
 
 /// The circuit of a solved design: planar matrices scaled by `depth` (m) to whole-part
-/// farads, axisymmetric ones (whole-body already) as they are.
-pub fn for_solution(sol: &Solution, depth: Option<f64>) -> Result<SolutionCircuit, NoCircuit> {
+/// farads, axisymmetric ones (whole-body already) as they are; both scaled by the
+/// `unfolding` of the design's mirror sides (each conductor joined with its images).
+pub fn for_solution(
+    sol: &Solution,
+    depth: Option<f64>,
+    unfolding: &Unfolding,
+) -> Result<SolutionCircuit, NoCircuit> {
     exportable(sol.mode, depth)?;
     let cap = &sol.capacitance;
     if cap.names.is_empty() {
@@ -137,6 +146,7 @@ pub fn for_solution(sol: &Solution, depth: Option<f64>) -> Result<SolutionCircui
         (Mode::Planar, Some(d)) => (d, WholePart::Planar { depth: d }),
         _ => (1.0, WholePart::Axisymmetric),
     };
+    let scale = scale * unfolding.factor;
     let maxwell: Vec<Vec<f64>> = cap
         .matrix
         .iter()
@@ -151,6 +161,7 @@ pub fn for_solution(sol: &Solution, depth: Option<f64>) -> Result<SolutionCircui
             .filter(|c| c.floating)
             .map(|c| c.name.clone())
             .collect(),
+        unfolding: unfolding.clone(),
     })
 }
 

@@ -35,6 +35,7 @@ pub mod study;
 pub mod surface;
 pub mod surface_field;
 pub mod surface_results;
+pub mod unfold;
 pub mod warning;
 
 /// Permittivity of free space, F/m (CODATA 2018 recommended value).

@@ -170,7 +170,6 @@ pub fn run_planned(
 /// some signal does not touch (it mirrors that signal into an in-phase image).
 fn mirrors(design: &Design, signals: &[String]) -> (Vec<&'static str>, Vec<Warning>) {
     let d = &design.domain;
-    let tol = 1e-9 * (d.x[1] - d.x[0]).abs().max((d.y[1] - d.y[0]).abs());
     let s = &design.sides;
     let sides = [
         ("left", s.left, 0usize, d.x[0]),
@@ -192,11 +191,7 @@ fn mirrors(design: &Design, signals: &[String]) -> (Vec<&'static str>, Vec<Warni
                     .iter()
                     .find(|c| &c.name == *sig)
                     .expect("signals checked before the study");
-                let touches = crate::geometry::outline(&c.shape).is_ok_and(|o| {
-                    let b = o.bbox();
-                    (b.min[axis] - at).abs() <= tol || (b.max[axis] - at).abs() <= tol
-                });
-                !touches
+                !crate::unfold::touches(design, &c.shape, axis, at)
             })
             .cloned()
             .collect();

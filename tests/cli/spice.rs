@@ -136,8 +136,10 @@ fn exported_subcircuit_reproduces_the_maxwell_matrix() {
     let text = std::fs::read_to_string(out.join("capacitance.cir")).unwrap();
     let (ports, rebuilt) = read_back(&text);
     assert_eq!(ports, ["sense_pad", "neighbour", "ring"]);
-    // Planar F/m times depth 25 mm gives whole-part farads. The circuit is reciprocal, so it
-    // holds the symmetric part of the matrix; the asymmetry is at the solver tolerance.
+    // Planar F/m times depth 25 mm gives whole-part farads (no conductor reaches the symmetry
+    // side, so it halves nothing). The circuit is reciprocal, so it holds the symmetric part
+    // of the matrix; the asymmetry is at the solver tolerance.
+    assert_eq!(summary["part"]["whole_part_factor"], 1.0);
     let depth = 25e-3;
     let scale = matrix.iter().flatten().fold(0.0f64, |m, v| m.max(v.abs())) * depth;
     let mut worst = 0.0f64;
@@ -202,4 +204,89 @@ circle = { center = [0.0, 0.0], radius = 3.0 }
     assert_eq!(summary["capacitance"]["unit"], "F");
     let (_, m) = read_back(&std::fs::read_to_string(out.join("capacitance.cir")).unwrap());
     assert_eq!(m[0][0], c);
+}
+
+/// A plate pair over a substrate, as a half (`x` from 0, a mirror plane on the left) or whole
+/// (`x` from -4): both conductors straddle the mirror plane.
+fn plates(whole: bool) -> String {
+    let (x0, left, drive, plate) = if whole {
+        ("-4.0", "ground", "-2.0", "-2.5")
+    } else {
+        ("0.0", "symmetry", "0.0", "0.0")
+    };
+    format!(
+        r#"
+unit = "mm"
+depth = 2.0
+[grid]
+x = [{x0}, 4.0]
+y = [0.0, 3.0]
+cell = 0.05
+[sides]
+left = "{left}"
+[[dielectric]]
+name = "oxide"
+permittivity = 3.9
+rect = {{ x = [{x0}, 4.0], y = [0.0, 0.5] }}
+[[conductor]]
+name = "drive"
+potential = 5.0
+rect = {{ x = [{drive}, 2.0], y = [0.5, 0.6] }}
+[[conductor]]
+name = "plate"
+potential = 0.0
+rect = {{ x = [{plate}, 2.5], y = [1.1, 1.5] }}
+"#
+    )
+}
+
+#[test]
+fn half_model_netlist_equals_the_whole_model_netlist() {
+    let netlist = |name: &str, text: &str| {
+        let dir = scratch(SCRATCH, name);
+        let design = write(&dir, "plates.toml", text);
+        let out = dir.join("out");
+        expect_for(
+            run(&[
+                "solve",
+                &design,
+                "--out",
+                s(&out),
+                "--quiet",
+                "--no-error-estimate",
+                "--tol",
+                "1e-11",
+            ]),
+            0,
+            name,
+        );
+        let sum = summary(&out);
+        let cir = std::fs::read_to_string(out.join("capacitance.cir")).unwrap();
+        (sum, read_back(&cir))
+    };
+    let (half_summary, (half_ports, half)) = netlist("half", &plates(false));
+    let (whole_summary, (whole_ports, whole)) = netlist("whole", &plates(true));
+    assert_eq!(half_ports, whole_ports);
+    assert_eq!(half_summary["part"]["mirrored_across"][0], "left");
+    assert!(half_summary["part"]["drawn_part_values"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .any(|v| v == "capacitance"));
+    assert_eq!(whole_summary["part"]["whole_part_factor"], 1.0);
+    // The summary keeps the drawn half's values: half of the whole's.
+    let c = |v: &serde_json::Value| v["capacitance"]["matrix"][0][1].as_f64().unwrap();
+    assert!((2.0 * c(&half_summary) / c(&whole_summary) - 1.0).abs() < 1e-6);
+    let scale = whole[0][0].abs();
+    for i in 0..2 {
+        for j in 0..2 {
+            let dev = (half[i][j] - whole[i][j]).abs() / scale;
+            assert!(
+                dev < 1e-6,
+                "entry ({i}, {j}): half model {:e}, whole model {:e}",
+                half[i][j],
+                whole[i][j]
+            );
+        }
+    }
 }

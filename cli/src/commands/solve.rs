@@ -63,6 +63,7 @@ pub fn run_timed(args: &SolveArgs, timings: &Arc<Timings>) -> Result<u8, Failure
     }
     let mut summary = Summary::from_solution(&sol, src.design.depth, seconds, &src.text_hash);
     summary.parameters = crate::summary::parameters(&src);
+    summary.part = Some(crate::summary::PartSummary::of(&src.design));
     timings.time("results", || {
         write_results(&out, &sol, &summary, &src.design, args.field_table)
     })?;
@@ -92,7 +93,7 @@ pub fn run_timed(args: &SolveArgs, timings: &Arc<Timings>) -> Result<u8, Failure
     })?;
     let circuit = crate::spice::for_solution(
         &sol,
-        src.design.depth,
+        &src.design,
         &subcircuit_name(&args.design),
         &args.design.display().to_string(),
     );
