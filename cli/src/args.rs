@@ -204,6 +204,11 @@ pub struct CompareArgs {
     /// Relative change beyond which a quantity counts as changed.
     #[arg(long, default_value_t = 0.01, value_name = "X")]
     pub rel_tol: f64,
+    /// Absolute change, in SI units of one unit kind, below which a quantity of that unit does
+    /// not count as changed (a change must pass both tolerances), e.g. `F/m=1e-15`,
+    /// `V/m=1e3`; repeatable, one per unit.
+    #[arg(long, value_name = "UNIT=X")]
+    pub abs_tol: Vec<String>,
     /// Write compare.csv, compare.json and (for two designs on one grid) field_change.png here.
     #[arg(long)]
     pub out: Option<PathBuf>,

@@ -59,6 +59,10 @@ fn compare_designs_and_summaries_of_two_revisions() {
     // Closer means stronger coupling: the mutual entry grows in magnitude (it is negative).
     let (cb, cn): (f64, f64) = (coupling[2].parse().unwrap(), coupling[3].parse().unwrap());
     assert!(cb < 0.0 && cn < cb);
+    // A growing coupling reads as growth: change and relative change positive.
+    let change: f64 = coupling[4].parse().unwrap();
+    assert!(change > 0.0 && rel > 0.0, "growth read as {change} ({rel})");
+    assert_eq!(&coupling[7], "magnitude");
     for qn in ["C[pad,pad]", "Q[pad]", "energy", "peak_field"] {
         row(&t, qn);
     }
@@ -226,4 +230,112 @@ fn compare_refuses_bad_input_with_exit_2() {
         "negative tolerance",
     );
     expect_for(run(&["compare", s(&junk)]), 2, "one input only");
+}
+
+#[test]
+fn a_floating_conductors_net_charge_is_never_flagged() {
+    let dir = scratch(SCRATCH, "floating");
+    let design = fieldgrid_tests::cli::write(
+        &dir,
+        "shield.toml",
+        r#"
+unit = "mm"
+[grid]
+x = [0.0, 6.0]
+y = [0.0, 4.0]
+cell = 0.1
+[[conductor]]
+name = "pad"
+potential = 1.0
+rect = { x = [1.0, 3.0], y = [1.0, 1.2] }
+[[conductor]]
+name = "shield"
+floating = true
+rect = { x = [1.0, 5.0], y = [2.0, 2.2] }
+"#,
+    );
+    let out = dir.join("out");
+    expect_for(
+        run(&[
+            "solve",
+            &design,
+            "--out",
+            s(&out),
+            "--quiet",
+            "--no-error-estimate",
+        ]),
+        0,
+        "solve",
+    );
+    // Two summaries that differ only in the floating shield's net charge, zero by definition
+    // up to round-off: 1e-22 C/m in one, -3e-22 C/m in the other.
+    let mut json = read_json(&out.join("summary.json"));
+    let shield = json["conductors"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .position(|c| c["name"] == "shield")
+        .unwrap();
+    let mut paths = Vec::new();
+    for (name, q) in [("a.json", 1e-22), ("b.json", -3e-22)] {
+        json["conductors"][shield]["charge"] = serde_json::json!(q);
+        let path = dir.join(name);
+        std::fs::write(&path, serde_json::to_vec(&json).unwrap()).unwrap();
+        paths.push(path);
+    }
+    let cmp = dir.join("cmp");
+    expect_for(
+        run(&[
+            "compare",
+            s(&paths[0]),
+            s(&paths[1]),
+            "--out",
+            s(&cmp),
+            "--quiet",
+        ]),
+        0,
+        "a floating charge of 1e-22 C/m",
+    );
+    let t = table(&cmp);
+    let q = row(&t, "Q[shield]");
+    assert_eq!(&q[6], "false");
+    assert!(q[7].contains("zero by definition"), "{:?}", q);
+}
+
+#[test]
+fn an_absolute_tolerance_per_unit_holds_back_small_changes() {
+    let dir = scratch(SCRATCH, "abs");
+    let (a, b) = (
+        demo_path("touch_pad_rev_a.toml"),
+        demo_path("touch_pad_rev_b.toml"),
+    );
+    let q = ["--quiet", "--no-error-estimate"];
+    let out = dir.join("out");
+    // Absolute tolerances above every change of their unit.
+    let mut args = vec![
+        "compare",
+        &a,
+        &b,
+        "--out",
+        s(&out),
+        "--abs-tol",
+        "F/m=1",
+        "--abs-tol",
+        "C/m=1",
+        "--abs-tol",
+        "N/m=1",
+        "--abs-tol",
+        "J/m=1",
+        "--abs-tol",
+        "V/m=1e9",
+    ];
+    args.extend(q);
+    expect_for(run(&args), 0, "every change below its absolute tolerance");
+    let json = read_json(&out.join("compare.json"));
+    assert_eq!(json["abs_tol"]["F/m"].as_f64(), Some(1.0));
+    for bad in ["F/m", "ohm=1", "F/m=-1"] {
+        let mut args = vec!["compare", &a, &b, "--abs-tol", bad];
+        args.extend(q);
+        expect_for(run(&args), 2, bad);
+    }
 }

@@ -7,9 +7,13 @@
 //! the axis), the potential `V[a]` of every floating conductor, the energy and the peak field. A quantity present on one side only is reported and counts as a
 //! change.
 //!
-//! Invariants: the relative change is (new - base) / |base| (zero when both are zero, infinite
-//! when only the base is zero); a quantity is beyond tolerance when |relative change| >
-//! `--rel-tol`. With `--out`, and both sides design files on the same grid, the picture
+//! Invariants: capacitance entries and charges are compared by magnitude (a coupling, negative
+//! in the Maxwell matrix, that grows reads as growth: change |new| - |base|), other quantities
+//! as signed values; a sign change counts as the whole difference. The relative change is the
+//! change over |base| (zero when both are zero, infinite when only the base is zero). A
+//! quantity is beyond tolerance when |relative change| > `--rel-tol` and |change| exceeds the
+//! `--abs-tol` of its unit (when given); the net charge of a floating conductor, zero by
+//! definition, is never beyond tolerance. With `--out`, and both sides design files on the same grid, the picture
 //! `field_change.png` maps |E|(NEW) - |E|(BASE). Exit 0: nothing beyond tolerance; 1: something is; 2: bad input; 3: a solve
 //! (now, or recorded in a summary) did not converge.
 
@@ -45,6 +49,71 @@ pub enum InputKind {
     Summary,
 }
 
+/// How a quantity is compared.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Kind {
+    /// As a signed value: change new - base.
+    Signed,
+    /// By magnitude: change |new| - |base| (the whole difference when the sign changes).
+    Magnitude,
+    /// Zero by definition (a floating conductor's net charge): listed, never flagged.
+    ZeroByDefinition,
+}
+
+/// One named quantity of a summary.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Quantity {
+    /// `C[a,b]`, `Q[a]`, `F[a]`, `V[a]`, `energy` or `peak_field`.
+    pub name: String,
+    /// SI unit.
+    pub unit: String,
+    /// Its value.
+    pub value: f64,
+    /// Remark on how it is taken ("magnitude", "along the axis", ...).
+    pub note: String,
+    /// How it is compared.
+    pub kind: Kind,
+}
+
+/// Absolute tolerances by unit, SI.
+pub type AbsTol = Vec<(String, f64)>;
+
+/// Parses `--abs-tol UNIT=X` values: a unit of the table and a number >= 0, once per unit.
+pub fn parse_abs_tol(given: &[String]) -> Result<AbsTol, Failure> {
+    const UNITS: [&str; 10] = ["F/m", "F", "C/m", "C", "N/m", "N", "V", "J/m", "J", "V/m"];
+    let mut out: AbsTol = Vec::new();
+    for g in given {
+        let bad = || {
+            Failure::input(format!(
+                "--abs-tol {g}: expected UNIT=X with UNIT one of {} and X a number >= 0 in                  that unit (e.g. --abs-tol F/m=1e-15)",
+                UNITS.join(", ")
+            ))
+        };
+        let (unit, value) = g.split_once('=').ok_or_else(bad)?;
+        let unit = unit.trim();
+        let value: f64 = value.trim().parse().map_err(|_| bad())?;
+        if !(UNITS.contains(&unit) && value.is_finite() && value >= 0.0) {
+            return Err(bad());
+        }
+        if out.iter().any(|(u, _)| u == unit) {
+            return Err(Failure::input(format!(
+                "--abs-tol gives the unit {unit} twice"
+            )));
+        }
+        out.push((unit.to_string(), value));
+    }
+    Ok(out)
+}
+
+/// The tolerances a change is judged by.
+#[derive(Clone, Debug, Default)]
+pub struct Tolerance {
+    /// Relative change beyond which a quantity counts as changed.
+    pub rel: f64,
+    /// Absolute change, by unit, that a change must also exceed.
+    pub abs: AbsTol,
+}
+
 /// One compared quantity.
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct Change {
@@ -56,9 +125,9 @@ pub struct Change {
     pub base: Option<f64>,
     /// Value in NEW, if present there.
     pub new: Option<f64>,
-    /// new - base.
+    /// new - base, or |new| - |base| for a quantity compared by magnitude.
     pub change: Option<f64>,
-    /// (new - base) / |base|; `None` (JSON null) when it is infinite or a side is missing.
+    /// change / |base|; `None` (JSON null) when it is infinite or a side is missing.
     pub relative_change: Option<f64>,
     /// Beyond tolerance (or present on one side only).
     pub beyond_tolerance: bool,
@@ -188,28 +257,43 @@ fn load(path: &Path, args: &CompareArgs, role: &str) -> Result<Revision, Failure
     }
 }
 
-/// The named quantities of a summary, in report order: (name, unit, value, note).
-pub fn quantities(s: &Summary) -> Vec<(String, String, f64, String)> {
+/// The named quantities of a summary, in report order.
+pub fn quantities(s: &Summary) -> Vec<Quantity> {
     let per = s.per_length;
     let unit = |planar: &str, axi: &str| if per { planar } else { axi }.to_string();
+    let q = |name: String, unit: String, value: f64, note: &str, kind: Kind| Quantity {
+        name,
+        unit,
+        value,
+        note: note.to_string(),
+        kind,
+    };
     let mut out = Vec::new();
     let cap = &s.capacitance;
     for (i, a) in cap.names.iter().enumerate() {
         for (j, b) in cap.names.iter().enumerate() {
-            out.push((
+            let v = cap.matrix[i][j];
+            out.push(q(
                 format!("C[{a},{b}]"),
                 cap.unit.clone(),
-                cap.matrix[i][j],
-                String::new(),
+                v,
+                "",
+                Kind::Magnitude,
             ));
         }
     }
     for c in &s.conductors {
-        out.push((
+        let (note, kind) = if c.floating {
+            ("zero by definition: floating", Kind::ZeroByDefinition)
+        } else {
+            ("", Kind::Magnitude)
+        };
+        out.push(q(
             format!("Q[{}]", c.name),
             unit("C/m", "C"),
             c.charge,
-            String::new(),
+            note,
+            kind,
         ));
     }
     for c in &s.conductors {
@@ -220,73 +304,86 @@ pub fn quantities(s: &Summary) -> Vec<(String, String, f64, String)> {
         } else {
             (c.force[1], "along the axis")
         };
-        out.push((
+        out.push(q(
             format!("F[{}]", c.name),
             unit("N/m", "N"),
             f,
-            note.to_string(),
+            note,
+            Kind::Signed,
         ));
     }
     for c in s.conductors.iter().filter(|c| c.floating) {
-        out.push((
+        out.push(q(
             format!("V[{}]", c.name),
             "V".into(),
             c.potential,
-            String::new(),
+            "",
+            Kind::Signed,
         ));
     }
-    out.push(("energy".into(), unit("J/m", "J"), s.energy, String::new()));
+    out.push(q(
+        "energy".into(),
+        unit("J/m", "J"),
+        s.energy,
+        "",
+        Kind::Signed,
+    ));
     if let Some(p) = &s.peak_field {
-        out.push((
+        out.push(q(
             "peak_field".into(),
             "V/m".into(),
             p.magnitude,
             if p.singular {
-                "singular peak: grows with refinement".into()
+                "singular peak: grows with refinement"
             } else {
-                String::new()
+                ""
             },
+            Kind::Signed,
         ));
     }
     out
 }
 
-/// Relative change (new - base) / |base|: 0 when equal, infinite when only base is zero.
-pub fn relative_change(base: f64, new: f64) -> f64 {
-    let d = new - base;
-    if d == 0.0 {
-        0.0
-    } else if base == 0.0 {
-        f64::INFINITY.copysign(d)
-    } else {
-        d / base.abs()
-    }
-}
-
 /// Every quantity of either side, base order first, then those only in NEW.
-pub fn changes(base: &Summary, new: &Summary, rel_tol: f64) -> Vec<Change> {
+pub fn changes(base: &Summary, new: &Summary, tol: &Tolerance) -> Vec<Change> {
     let qb = quantities(base);
     let qn = quantities(new);
     let mut out = Vec::new();
-    for (name, unit, vb, note_b) in &qb {
-        let found = qn.iter().find(|q| &q.0 == name);
-        let (new_v, note) = match found {
-            Some((_, _, vn, note_n)) => {
-                let note = if note_n.is_empty() { note_b } else { note_n };
-                (Some(*vn), note.clone())
+    for b in &qb {
+        let found = qn.iter().find(|q| q.name == b.name);
+        let (new_v, note, kind) = match found {
+            Some(n) => {
+                let note = if n.note.is_empty() { &b.note } else { &n.note };
+                (Some(n.value), note.clone(), n.kind)
             }
-            None => (None, "only in BASE".to_string()),
+            None => (None, "only in BASE".to_string(), b.kind),
         };
-        out.push(change(name, unit, Some(*vb), new_v, rel_tol, note));
+        out.push(change(
+            &b.name,
+            &b.unit,
+            Some(b.value),
+            new_v,
+            kind,
+            tol,
+            note,
+        ));
     }
-    for (name, unit, vn, note_n) in &qn {
-        if !qb.iter().any(|q| &q.0 == name) {
-            let note = if note_n.is_empty() {
+    for n in &qn {
+        if !qb.iter().any(|q| q.name == n.name) {
+            let note = if n.note.is_empty() {
                 "only in NEW".to_string()
             } else {
-                format!("only in NEW; {note_n}")
+                format!("only in NEW; {}", n.note)
             };
-            out.push(change(name, unit, None, Some(*vn), rel_tol, note));
+            out.push(change(
+                &n.name,
+                &n.unit,
+                None,
+                Some(n.value),
+                n.kind,
+                tol,
+                note,
+            ));
         }
     }
     out
@@ -297,15 +394,31 @@ fn change(
     unit: &str,
     base: Option<f64>,
     new: Option<f64>,
-    rel_tol: f64,
-    note: String,
+    kind: Kind,
+    tol: &Tolerance,
+    mut note: String,
 ) -> Change {
+    let abs_tol = tol.abs.iter().find(|(u, _)| u == unit).map_or(0.0, |t| t.1);
     let (change, rel, beyond) = match (base, new) {
         (Some(b), Some(n)) => {
-            let r = relative_change(b, n);
-            (Some(n - b), r, r.abs() > rel_tol)
+            let d = match kind {
+                Kind::Magnitude if b * n < 0.0 => {
+                    note = join_note("sign changed", &note);
+                    (n - b).abs()
+                }
+                Kind::Magnitude => {
+                    if b < 0.0 || n < 0.0 {
+                        note = join_note("magnitude", &note);
+                    }
+                    n.abs() - b.abs()
+                }
+                _ => n - b,
+            };
+            let r = relative(b, d);
+            let beyond = kind != Kind::ZeroByDefinition && r.abs() > tol.rel && d.abs() > abs_tol;
+            (Some(d), r, beyond)
         }
-        _ => (None, f64::NAN, true),
+        _ => (None, f64::NAN, kind != Kind::ZeroByDefinition),
     };
     Change {
         quantity: name.to_string(),
@@ -319,6 +432,25 @@ fn change(
     }
 }
 
+fn join_note(first: &str, rest: &str) -> String {
+    if rest.is_empty() {
+        first.to_string()
+    } else {
+        format!("{first}; {rest}")
+    }
+}
+
+/// A change `d` relative to |base|: 0 when there is none, infinite when only base is zero.
+fn relative(base: f64, d: f64) -> f64 {
+    if d == 0.0 {
+        0.0
+    } else if base == 0.0 {
+        f64::INFINITY.copysign(d)
+    } else {
+        d / base.abs()
+    }
+}
+
 /// Runs the command, returning the exit code.
 pub fn run(args: &CompareArgs) -> Result<u8, Failure> {
     if !(args.rel_tol.is_finite() && args.rel_tol >= 0.0) {
@@ -327,6 +459,7 @@ pub fn run(args: &CompareArgs) -> Result<u8, Failure> {
             args.rel_tol
         )));
     }
+    parse_abs_tol(&args.abs_tol)?;
     // Classify both before solving either, so a bad NEW costs no solve of BASE.
     classify(&args.base)?;
     classify(&args.new)?;
@@ -342,7 +475,11 @@ pub fn run(args: &CompareArgs) -> Result<u8, Failure> {
             new.summary.mode
         )));
     }
-    let table = changes(&base.summary, &new.summary, args.rel_tol);
+    let tol = Tolerance {
+        rel: args.rel_tol,
+        abs: parse_abs_tol(&args.abs_tol)?,
+    };
+    let table = changes(&base.summary, &new.summary, &tol);
     let beyond = table.iter().filter(|c| c.beyond_tolerance).count();
     let mut remarks = Vec::new();
     let (gb, gn) = (&base.summary.grid, &new.summary.grid);
@@ -489,6 +626,7 @@ fn write_outputs(
         "base": args.base.display().to_string(),
         "new": args.new.display().to_string(),
         "rel_tol": args.rel_tol,
+        "abs_tol": parse_abs_tol(&args.abs_tol)?.into_iter().collect::<std::collections::BTreeMap<_, _>>(),
         "changed": beyond,
         "quantities": table,
         "remarks": remarks,
@@ -574,12 +712,90 @@ pub fn render_table(
 mod tests {
     use super::*;
 
+    fn tol(rel: f64) -> Tolerance {
+        Tolerance {
+            rel,
+            abs: Vec::new(),
+        }
+    }
+
     #[test]
     fn relative_change_cases() {
-        assert_eq!(relative_change(2.0, 2.0), 0.0);
-        assert_eq!(relative_change(0.0, 0.0), 0.0);
-        assert_eq!(relative_change(-2.0, -3.0), -0.5);
-        assert_eq!(relative_change(0.0, -1.0), f64::NEG_INFINITY);
+        assert_eq!(relative(2.0, 0.0), 0.0);
+        assert_eq!(relative(0.0, 0.0), 0.0);
+        assert_eq!(relative(-2.0, -1.0), -0.5);
+        assert_eq!(relative(0.0, -1.0), f64::NEG_INFINITY);
+    }
+
+    #[test]
+    fn a_growing_coupling_reads_as_growth() {
+        let c = change(
+            "C[a,b]",
+            "F/m",
+            Some(-2.38e-10),
+            Some(-3.57e-10),
+            Kind::Magnitude,
+            &tol(0.01),
+            String::new(),
+        );
+        assert!(c.change.unwrap() > 0.0 && c.relative_change.unwrap() > 0.49);
+        assert!(c.beyond_tolerance && c.note == "magnitude");
+        let c = change(
+            "Q[a]",
+            "C/m",
+            Some(-1.0),
+            Some(1.0),
+            Kind::Magnitude,
+            &tol(0.01),
+            String::new(),
+        );
+        assert!(c.beyond_tolerance && c.note.starts_with("sign changed"));
+        assert_eq!(c.relative_change, Some(2.0));
+    }
+
+    #[test]
+    fn a_floating_charge_is_never_flagged() {
+        let c = change(
+            "Q[f]",
+            "C/m",
+            Some(1e-22),
+            Some(-3e-22),
+            Kind::ZeroByDefinition,
+            &tol(0.01),
+            String::new(),
+        );
+        assert!(!c.beyond_tolerance);
+    }
+
+    #[test]
+    fn an_absolute_tolerance_holds_back_small_changes_of_its_unit() {
+        let t = Tolerance {
+            rel: 0.01,
+            abs: parse_abs_tol(&["F/m=1e-14".to_string()]).unwrap(),
+        };
+        let small = change(
+            "C[a,b]",
+            "F/m",
+            Some(1e-14),
+            Some(1.5e-14),
+            Kind::Magnitude,
+            &t,
+            String::new(),
+        );
+        assert!(!small.beyond_tolerance);
+        let other = change(
+            "Q[a]",
+            "C/m",
+            Some(1e-14),
+            Some(1.5e-14),
+            Kind::Magnitude,
+            &t,
+            String::new(),
+        );
+        assert!(other.beyond_tolerance);
+        for bad in ["F/m", "ohm=1", "F/m=-1", "F/m=x"] {
+            assert!(parse_abs_tol(&[bad.to_string()]).is_err(), "{bad}");
+        }
     }
 
     fn summary_of(text: &str) -> Summary {
@@ -606,19 +822,44 @@ mod tests {
                 f[1]
             };
             let q = quantities(&s);
-            let got = q.iter().find(|q| q.0 == "F[p]").expect("F[p] compared");
-            assert_eq!((got.2, got.3.as_str()), (want, note), "{mode}");
+            let got = q.iter().find(|q| q.name == "F[p]").expect("F[p] compared");
+            assert_eq!((got.value, got.note.as_str()), (want, note), "{mode}");
             assert!(want != 0.0, "{mode}: the plate is pulled");
         }
     }
 
     #[test]
     fn one_sided_quantities_count_as_changes() {
-        let c = change("Q[a]", "C/m", None, Some(1.0), 0.01, "only in NEW".into());
+        let k = Kind::Magnitude;
+        let c = change(
+            "Q[a]",
+            "C/m",
+            None,
+            Some(1.0),
+            k,
+            &tol(0.01),
+            "only in NEW".into(),
+        );
         assert!(c.beyond_tolerance && c.relative_change.is_none());
-        let c = change("Q[a]", "C/m", Some(1.0), Some(1.005), 0.01, String::new());
+        let c = change(
+            "Q[a]",
+            "C/m",
+            Some(1.0),
+            Some(1.005),
+            k,
+            &tol(0.01),
+            String::new(),
+        );
         assert!(!c.beyond_tolerance);
-        let c = change("Q[a]", "C/m", Some(1.0), Some(1.02), 0.01, String::new());
+        let c = change(
+            "Q[a]",
+            "C/m",
+            Some(1.0),
+            Some(1.02),
+            k,
+            &tol(0.01),
+            String::new(),
+        );
         assert!(c.beyond_tolerance);
     }
 }
