@@ -3,14 +3,18 @@
 //! Invariants: the cycle starts from a zero correction, smooths with a colour order on the way
 //! down and the reverse order on the way up, restricts with the exact transpose of the
 //! prolongation and solves the coarsest level directly, so `z = M^-1 r` is linear in r with M
-//! symmetric positive definite. Nothing in it depends on the thread count.
+//! symmetric positive definite. Nothing in it depends on the thread count. With line
+//! relaxation every level runs alternating zebra line sweeps on the way down and the same
+//! sweeps reversed on the way up, in whole-lattice passes.
 
 use super::hierarchy::Hierarchy;
 use super::interpolation::interior_count;
 use super::level::Shared;
+use super::lines::line_sweep;
+use super::relaxation::Relaxation;
 use super::smoother::{four_colour_sweep, red_black_stages, wavefront, Stage};
 use super::transfer::{
-    check_fine, prolong_coarse, prolong_fine_row, restrict_coarse, FineRestrict, PARALLEL_MIN,
+    check_fine, each, prolong_coarse, prolong_fine_row, restrict_coarse, FineRestrict, PARALLEL_MIN,
 };
 use crate::parallel;
 use crate::stencil::Stencil5;
@@ -23,40 +27,50 @@ pub(super) struct Workspace {
     pub(super) x: Vec<Vec<f64>>,
     pub(super) b: Vec<Vec<f64>>,
     pub(super) r: Vec<Vec<f64>>,
+    /// Line relaxation only: eliminated couplings per level, fine first.
+    pub(super) lines: Vec<Vec<f64>>,
 }
 
 impl Workspace {
     /// Scratch for `h`, whose fine level is nx x ny.
     pub fn new(h: &Hierarchy) -> Workspace {
         let (nx, ny) = h.fine;
-        let sbuf = if h.levels.is_empty() {
+        let sbuf = if h.depth() == 0 {
             Vec::new()
         } else {
             vec![0.0; interior_count(nx) * interior_count(ny)]
         };
-        let n = h.levels.len();
-        let x = h.levels.iter().map(|l| vec![0.0; l.padded_len()]).collect();
-        let b = h.levels.iter().map(|l| vec![0.0; l.padded_len()]).collect();
+        let lens = h.padded_lens();
+        let n = lens.len();
+        let x = lens.iter().map(|&l| vec![0.0; l]).collect();
+        let b = lens.iter().map(|&l| vec![0.0; l]).collect();
         // The coarsest level needs no residual.
-        let r = h
-            .levels
+        let r = lens
             .iter()
             .enumerate()
-            .map(|(k, l)| {
-                if k + 1 < n {
-                    vec![0.0; l.padded_len()]
-                } else {
-                    Vec::new()
-                }
-            })
+            .map(|(k, &l)| if k + 1 < n { vec![0.0; l] } else { Vec::new() })
             .collect();
-        Workspace { sbuf, x, b, r }
+        let lines = match h.relaxation {
+            Relaxation::Points => Vec::new(),
+            Relaxation::Lines if h.depth() == 0 => Vec::new(),
+            Relaxation::Lines => std::iter::once(nx * ny)
+                .chain(lens.iter().copied())
+                .map(|n| vec![0.0; n])
+                .collect(),
+        };
+        Workspace {
+            sbuf,
+            x,
+            b,
+            r,
+            lines,
+        }
     }
 
     /// Bytes held.
     pub fn bytes(&self) -> usize {
         8 * (self.sbuf.len()
-            + [&self.x, &self.b, &self.r]
+            + [&self.x, &self.b, &self.r, &self.lines]
                 .iter()
                 .map(|v| v.iter().map(Vec::len).sum::<usize>())
                 .sum::<usize>())
@@ -86,7 +100,7 @@ pub(super) fn vcycle(
     let nx = a.nx;
     check_fine(a, &[r.len(), z.len()]);
     assert_eq!(partial.len(), a.ny);
-    if h.levels.is_empty() {
+    if h.depth() == 0 {
         h.coarsest.solve(r, z, |i, j| i + j * nx);
         for (j, s) in partial.iter_mut().enumerate() {
             *s = row_dot(nx, r, z.as_ptr(), j);
@@ -94,6 +108,9 @@ pub(super) fn vcycle(
         return parallel::sum(partial);
     }
     assert_eq!(ws.sbuf.len(), interior_count(a.nx) * interior_count(a.ny));
+    if h.relaxation == Relaxation::Lines {
+        return vcycle_lines(h, a, ws, r, z, partial);
+    }
     assert_eq!(ws.b[0].len(), h.levels[0].padded_len());
     let big = a.len() >= PARALLEL_MIN;
     let sweeps = h.options.fine_sweeps.max(1);
@@ -108,6 +125,7 @@ pub(super) fn vcycle(
             sbuf: Shared::new(&mut ws.sbuf),
             c: &h.levels[0],
             bc: Shared::new(&mut ws.b[0]),
+            black_is_zero: true,
         };
         let mut stages = red_black_stages(a, r, zp, 0, sweeps, true);
         // SAFETY: lengths checked above; `wavefront` keeps the stage-by-stage order of every
@@ -168,5 +186,94 @@ pub(super) fn vcycle(
         let refs: Vec<Stage> = stages.iter().map(|s| &**s as Stage).collect();
         wavefront(a.ny, big, &refs);
     }
+    parallel::sum(partial)
+}
+
+/// [`vcycle`] with line relaxation on every level (whole-lattice passes).
+fn vcycle_lines(
+    h: &Hierarchy,
+    a: &Stencil5,
+    ws: &mut Workspace,
+    r: &[f64],
+    z: &mut [f64],
+    partial: &mut [f64],
+) -> f64 {
+    let nx = a.nx;
+    let big = a.len() >= PARALLEL_MIN;
+    let sweeps = h.options.line_sweeps.max(1);
+    let levels = &h.line_levels;
+    assert_eq!(ws.b[0].len(), levels[0].padded_len());
+    assert_eq!(ws.lines.len(), levels.len() + 1);
+    for sweep in 0..sweeps {
+        line_sweep(a, r, z, &mut ws.lines[0], false, sweep == 0);
+    }
+    {
+        let fr = FineRestrict {
+            a,
+            lw: &h.weights[0],
+            r,
+            z: Shared::new(z),
+            sbuf: Shared::new(&mut ws.sbuf),
+            c: &levels[0],
+            bc: Shared::new(&mut ws.b[0]),
+            black_is_zero: false,
+        };
+        // SAFETY: lengths checked by the caller; each stage writes only its own row and reads
+        // z, which nothing writes meanwhile.
+        let first = |j| unsafe { fr.interior_row(j) };
+        let second = |j| unsafe { fr.coarse_row(j) };
+        wavefront(a.ny, big, &[&first, &second]);
+    }
+    let last = levels.len() - 1;
+    for k in 0..last {
+        let l = &levels[k];
+        for sweep in 0..sweeps {
+            line_sweep(
+                l,
+                &ws.b[k],
+                &mut ws.x[k],
+                &mut ws.lines[k + 1],
+                false,
+                sweep == 0,
+            );
+        }
+        let (lo, hi) = ws.b.split_at_mut(k + 1);
+        restrict_coarse(
+            l,
+            &h.weights[k + 1],
+            &lo[k],
+            &ws.x[k],
+            &mut ws.r[k],
+            &levels[k + 1],
+            &mut hi[0],
+        );
+    }
+    {
+        let s = levels[last].s;
+        h.coarsest
+            .solve(&ws.b[last], &mut ws.x[last], |i, j| (i + 1) + (j + 1) * s);
+    }
+    for k in (0..last).rev() {
+        let l = &levels[k];
+        let (lo, hi) = ws.x.split_at_mut(k + 1);
+        prolong_coarse(l, &h.weights[k + 1], &mut lo[k], &levels[k + 1], &hi[0]);
+        for _ in 0..sweeps {
+            line_sweep(l, &ws.b[k], &mut lo[k], &mut ws.lines[k + 1], true, false);
+        }
+    }
+    {
+        let zp = Shared::new(z);
+        let (lw, c, xc) = (&h.weights[0], &levels[0], &ws.x[0][..]);
+        assert_eq!(xc.len(), c.padded_len());
+        // SAFETY: each call writes only its own row of z.
+        each(big, a.ny, |j| unsafe {
+            prolong_fine_row(a, lw, zp.get(), c, xc, j)
+        });
+    }
+    for _ in 0..sweeps {
+        line_sweep(a, r, z, &mut ws.lines[0], true, false);
+    }
+    let zc = &*z;
+    crate::parallel::for_each_row(partial, 1, |j, s| s[0] = row_dot(nx, r, zc.as_ptr(), j));
     parallel::sum(partial)
 }

@@ -11,10 +11,10 @@ use super::level::{Couplings, Level, Real};
 use rayon::prelude::*;
 
 /// The coarse operator of `a`.
-pub(super) fn coarse_operator(a: &impl Couplings, lw: &LineWeights) -> Level {
+pub(super) fn coarse_operator<R: Real>(a: &impl Couplings, lw: &LineWeights) -> Level<R> {
     let (nx, ny) = a.dims();
     let (cx, cy) = (coarse_len(nx), coarse_len(ny));
-    let mut level = Level::identity(cx, cy);
+    let mut level = Level::<R>::identity(cx, cy);
     let s = level.s;
     let unknown: Vec<bool> = (0..level.padded_len())
         .map(|p| {
@@ -61,7 +61,13 @@ const SLOT: [usize; 16] = [5, 5, 5, 5, 5, 0, 1, 5, 4, 2, 3, 5, 5, 5, 5, 5];
 
 /// Computes padded row `jc` of the coarse operator into `out`; `rows` holds the rows of P
 /// of fine rows `r0..` (at least those within two rows of the coarse row's fine row).
-fn coarse_row<A: Couplings>(a: &A, rows: &[PRow], r0: usize, jc: usize, out: &mut [[Real; 5]]) {
+fn coarse_row<A: Couplings, R: Real>(
+    a: &A,
+    rows: &[PRow],
+    r0: usize,
+    jc: usize,
+    out: &mut [[R; 5]],
+) {
     let (nx, ny) = a.dims();
     let cx = coarse_len(nx);
     let fj = fine_of(jc, ny);
@@ -69,7 +75,7 @@ fn coarse_row<A: Couplings>(a: &A, rows: &[PRow], r0: usize, jc: usize, out: &mu
     for ic in 0..cx {
         let fi = fine_of(ic, nx);
         if !a.is_unknown(fi, fj) {
-            out[ic + 1] = [1.0, 0.0, 0.0, 0.0, 0.0];
+            out[ic + 1] = [1.0, 0.0, 0.0, 0.0, 0.0].map(R::from_f64);
             continue;
         }
         // Slots [diag, e, n, ne, nw] and a sink for the lower half.
@@ -106,12 +112,6 @@ fn coarse_row<A: Couplings>(a: &A, rows: &[PRow], r0: usize, jc: usize, out: &mu
                 }
             }
         }
-        out[ic + 1] = [
-            acc[0] as Real,
-            -acc[1] as Real,
-            -acc[2] as Real,
-            -acc[3] as Real,
-            -acc[4] as Real,
-        ];
+        out[ic + 1] = [acc[0], -acc[1], -acc[2], -acc[3], -acc[4]].map(R::from_f64);
     }
 }

@@ -5,12 +5,38 @@
 //! nodes carry zero couplings and zero vector entries; `coef[p] = [diag, e, n, ne, nw]` with
 //! `e` coupling p to p+1, `n` to p+s, `ne` to p+s+1 and `nw` to p+s-1 (s = nx + 2); a coupling
 //! is the negative of the matrix entry. A fixed node has `[1, 0, 0, 0, 0]` and no coupling
-//! from any neighbour, exactly as on the fine [`Stencil5`].
+//! from any neighbour, exactly as on the fine [`Stencil5`]. Coefficients are single
+//! precision under point relaxation and double precision under line relaxation: there a row's
+//! couplings may differ by eight orders of magnitude (cell aspect ratio 10 000), and Galerkin
+//! stencils with couplings of both signs would lose their weak part to rounding.
 
 use crate::stencil::Stencil5;
 
-/// Storage type of coarse-level coefficients.
-pub(super) type Real = f32;
+/// Storage type of coarse-level coefficients (f32 or f64); widening to f64 is exact.
+pub(super) trait Real: Copy + Default + Send + Sync + Into<f64> + 'static {
+    /// The nearest value of this type.
+    fn from_f64(v: f64) -> Self;
+}
+
+impl Real for f32 {
+    #[inline]
+    fn from_f64(v: f64) -> f32 {
+        v as f32
+    }
+}
+
+/// `v` widened to f64 (exactly).
+#[inline]
+pub(super) fn wide<R: Real>(v: R) -> f64 {
+    v.into()
+}
+
+impl Real for f64 {
+    #[inline]
+    fn from_f64(v: f64) -> f64 {
+        v
+    }
+}
 
 /// A raw pointer shared by threads that write disjoint entries of one vector.
 #[derive(Clone, Copy)]
@@ -37,7 +63,7 @@ impl Shared {
 }
 
 /// One coarse level: a padded symmetric nine-point operator.
-pub(super) struct Level {
+pub(super) struct Level<R: Real = f32> {
     /// Nodes along x.
     pub nx: usize,
     /// Nodes along y.
@@ -45,20 +71,20 @@ pub(super) struct Level {
     /// Row stride of the padded lattice, `nx + 2`.
     pub s: usize,
     /// `[diag, e, n, ne, nw]` per padded node.
-    pub coef: Vec<[Real; 5]>,
+    pub coef: Vec<[R; 5]>,
     /// True where the node is an unknown; false on fixed and ghost nodes.
     pub unknown: Vec<bool>,
 }
 
-impl Level {
+impl<R: Real> Level<R> {
     /// A level with every node fixed (identity rows) and ghosts zeroed.
-    pub fn identity(nx: usize, ny: usize) -> Level {
+    pub fn identity(nx: usize, ny: usize) -> Level<R> {
         let s = nx + 2;
         let len = s * (ny + 2);
-        let mut coef = vec![[0.0; 5]; len];
+        let mut coef = vec![[R::default(); 5]; len];
         for j in 0..ny {
             for i in 0..nx {
-                coef[(i + 1) + (j + 1) * s][0] = 1.0;
+                coef[(i + 1) + (j + 1) * s][0] = R::from_f64(1.0);
             }
         }
         Level {
@@ -84,7 +110,7 @@ impl Level {
 
     /// Bytes held by the operator.
     pub fn bytes(&self) -> usize {
-        self.coef.len() * std::mem::size_of::<[Real; 5]>() + self.unknown.len()
+        self.coef.len() * std::mem::size_of::<[R; 5]>() + self.unknown.len()
     }
 }
 
@@ -143,7 +169,7 @@ impl Couplings for Stencil5 {
     }
 }
 
-impl Couplings for Level {
+impl<R: Real> Couplings for Level<R> {
     const OFFSETS: &'static [(isize, isize)] = &[
         (0, 0),
         (1, 0),
@@ -165,23 +191,23 @@ impl Couplings for Level {
     }
     #[inline]
     fn diag_at(&self, i: usize, j: usize) -> f64 {
-        self.coef[self.idx(i, j)][0] as f64
+        self.coef[self.idx(i, j)][0].into()
     }
     #[inline]
     fn coupling(&self, i: usize, j: usize, di: isize, dj: isize) -> f64 {
         let p = self.idx(i, j);
         let s = self.s;
         let c = &self.coef;
-        (match (di, dj) {
-            (1, 0) => c[p][1],
-            (-1, 0) => c[p - 1][1],
-            (0, 1) => c[p][2],
-            (0, -1) => c[p - s][2],
-            (1, 1) => c[p][3],
-            (-1, -1) => c[p - s - 1][3],
-            (-1, 1) => c[p][4],
-            (1, -1) => c[p - s + 1][4],
+        match (di, dj) {
+            (1, 0) => c[p][1].into(),
+            (-1, 0) => c[p - 1][1].into(),
+            (0, 1) => c[p][2].into(),
+            (0, -1) => c[p - s][2].into(),
+            (1, 1) => c[p][3].into(),
+            (-1, -1) => c[p - s - 1][3].into(),
+            (-1, 1) => c[p][4].into(),
+            (1, -1) => c[p - s + 1][4].into(),
             _ => 0.0,
-        }) as f64
+        }
     }
 }

@@ -433,7 +433,7 @@ fn coarse_operator_is_the_galerkin_product() {
             a.apply(&phi, &mut aphi);
             let k = c.coef[p].map(|v| v as f64);
             // Entries are computed in f64 and stored as `Real`: at most half an ulp apart.
-            let tol = 1e-12 + level::Real::EPSILON as f64;
+            let tol = 1e-12 + f32::EPSILON as f64;
             let mut check = |di: isize, dj: isize, stored: f64| {
                 let (qi, qj) = (ic as isize + di, jc as isize + dj);
                 if qi < 0 || qj < 0 || qi as usize >= c.nx || qj as usize >= c.ny {

@@ -7,7 +7,7 @@
 //! fixed fine node a zero correction.
 
 use super::interpolation::{between, fine_of, interior_count, kind, Kind, LineWeights};
-use super::level::{Level, Shared};
+use super::level::{wide, Level, Real, Shared};
 use crate::stencil::Stencil5;
 use rayon::prelude::*;
 
@@ -34,11 +34,11 @@ pub(super) fn chunks_mut<T: Send>(
 
 /// The fine-level restriction as two row stages: [`FineRestrict::interior_row`] (scaled
 /// residuals of the interior points of a row) and [`FineRestrict::coarse_row`] (the coarse
-/// right-hand side of a coarse row, from the interior values of the rows beside it). It runs
-/// right after a red-black sweep that ended on black: black residuals are zero and are not
-/// recomputed. Vectors are shared raw pointers so that the stages can run interleaved with
+/// right-hand side of a coarse row, from the interior values of the rows beside it). After a
+/// red-black sweep that ended on black (`black_is_zero`), black residuals are zero and are
+/// not recomputed; otherwise every residual is. Vectors are shared raw pointers so that the stages can run interleaved with
 /// the smoother (see `smoother::wavefront`).
-pub(super) struct FineRestrict<'a> {
+pub(super) struct FineRestrict<'a, R: Real = f32> {
     /// Fine operator.
     pub a: &'a Stencil5,
     /// Its line weights.
@@ -50,12 +50,14 @@ pub(super) struct FineRestrict<'a> {
     /// Scaled interior residuals, `interior_count(nx) * interior_count(ny)`.
     pub sbuf: Shared,
     /// The coarse level.
-    pub c: &'a Level,
+    pub c: &'a Level<R>,
     /// Its right-hand side (padded).
     pub bc: Shared,
+    /// True when the residuals of black nodes ((i + j) odd) are zero.
+    pub black_is_zero: bool,
 }
 
-impl FineRestrict<'_> {
+impl<R: Real> FineRestrict<'_, R> {
     /// Residual `r - A z` at node (i, j).
     ///
     /// # Safety
@@ -147,7 +149,7 @@ impl FineRestrict<'_> {
         let xw = lw.xw_row(jc);
         let out = self.bc.get().add(c.idx(0, jc));
         let known = |i: usize, j: usize| -> f64 {
-            if (i + j) % 2 == 1 {
+            if self.black_is_zero && (i + j) % 2 == 1 {
                 0.0
             } else {
                 self.residual(i, j)
@@ -212,7 +214,7 @@ impl FineRestrict<'_> {
         // Coarse columns whose fine node is inside and whose x-line neighbours 2ic +- 1 lie
         // between coarse indices: those line points are black and inside.
         let (reg0, reg1) = (1, nx.saturating_sub(1) / 2);
-        if !(up && down && fj % 2 == 0) || reg1 <= reg0 {
+        if !(up && down && fj % 2 == 0 && self.black_is_zero) || reg1 <= reg0 {
             for ic in 0..cx {
                 *out.add(ic) = general(ic);
             }
@@ -275,6 +277,7 @@ pub(super) fn restrict_fine(
         sbuf: Shared::new(sbuf),
         c,
         bc: Shared::new(bc),
+        black_is_zero: true,
     };
     // SAFETY: lengths checked; each stage writes only its own row; the second stage runs
     // after the first is complete.
@@ -286,11 +289,11 @@ pub(super) fn restrict_fine(
 ///
 /// # Safety
 /// `z` points to a lattice vector; no one else reads or writes its row j meanwhile.
-pub(super) unsafe fn prolong_fine_row(
+pub(super) unsafe fn prolong_fine_row<R: Real>(
     a: &Stencil5,
     lw: &LineWeights,
     z: *mut f64,
-    c: &Level,
+    c: &Level<R>,
     xc: &[f64],
     j: usize,
 ) {
@@ -354,13 +357,13 @@ pub(super) fn each(big: bool, n: usize, f: impl Fn(usize) + Sync + Send) {
 /// Restricts the residual `b - A x` of coarse level `l` to the right-hand side `bc` of level
 /// `c`; `r` is scratch of the level's padded length (it receives the residual, divided by the
 /// diagonal at interior points).
-pub(super) fn restrict_coarse(
-    l: &Level,
+pub(super) fn restrict_coarse<R: Real>(
+    l: &Level<R>,
     lw: &LineWeights,
     b: &[f64],
     x: &[f64],
     r: &mut [f64],
-    c: &Level,
+    c: &Level<R>,
     bc: &mut [f64],
 ) {
     let (nx, ny, s) = (l.nx, l.ny, l.s);
@@ -375,17 +378,17 @@ pub(super) fn restrict_coarse(
         for i in 1..=nx {
             let p = row * s + i;
             let cp = &k[p];
-            let res = b[p] - cp[0] as f64 * x[p]
-                + cp[1] as f64 * x[p + 1]
-                + k[p - 1][1] as f64 * x[p - 1]
-                + cp[2] as f64 * x[p + s]
-                + k[p - s][2] as f64 * x[p - s]
-                + cp[3] as f64 * x[p + s + 1]
-                + k[p - s - 1][3] as f64 * x[p - s - 1]
-                + cp[4] as f64 * x[p + s - 1]
-                + k[p - s + 1][4] as f64 * x[p - s + 1];
+            let res = b[p] - wide(cp[0]) * x[p]
+                + wide(cp[1]) * x[p + 1]
+                + wide(k[p - 1][1]) * x[p - 1]
+                + wide(cp[2]) * x[p + s]
+                + wide(k[p - s][2]) * x[p - s]
+                + wide(cp[3]) * x[p + s + 1]
+                + wide(k[p - s - 1][3]) * x[p - s - 1]
+                + wide(cp[4]) * x[p + s - 1]
+                + wide(k[p - s + 1][4]) * x[p - s + 1];
             rr[i] = if jb && between(i as isize - 1, nx) {
-                res / cp[0] as f64
+                res / wide(cp[0])
             } else {
                 res
             };
@@ -412,16 +415,16 @@ pub(super) fn restrict_coarse(
             let (east, west) = (between(fi as isize + 1, nx), between(fi as isize - 1, nx));
             let mut v = r[f];
             if east && up {
-                v += k[f][3] as f64 * r[f + s + 1];
+                v += wide(k[f][3]) * r[f + s + 1];
             }
             if west && down {
-                v += k[f - s - 1][3] as f64 * r[f - s - 1];
+                v += wide(k[f - s - 1][3]) * r[f - s - 1];
             }
             if west && up {
-                v += k[f][4] as f64 * r[f + s - 1];
+                v += wide(k[f][4]) * r[f + s - 1];
             }
             if east && down {
-                v += k[f - s + 1][4] as f64 * r[f - s + 1];
+                v += wide(k[f - s + 1][4]) * r[f - s + 1];
             }
             // Line points: their residual plus couplings to interior points times the
             // scaled interior residuals, times their weight towards this coarse node.
@@ -429,10 +432,10 @@ pub(super) fn restrict_coarse(
                 let q = f + 1;
                 let mut t = r[q];
                 if up {
-                    t += k[q][2] as f64 * r[q + s];
+                    t += wide(k[q][2]) * r[q + s];
                 }
                 if down {
-                    t += k[q - s][2] as f64 * r[q - s];
+                    t += wide(k[q - s][2]) * r[q - s];
                 }
                 v += xw[(fi + 1) / 2][0] as f64 * t;
             }
@@ -440,10 +443,10 @@ pub(super) fn restrict_coarse(
                 let q = f - 1;
                 let mut t = r[q];
                 if up {
-                    t += k[q][2] as f64 * r[q + s];
+                    t += wide(k[q][2]) * r[q + s];
                 }
                 if down {
-                    t += k[q - s][2] as f64 * r[q - s];
+                    t += wide(k[q - s][2]) * r[q - s];
                 }
                 v += xw[(fi - 1) / 2][1] as f64 * t;
             }
@@ -451,10 +454,10 @@ pub(super) fn restrict_coarse(
                 let q = f + s;
                 let mut t = r[q];
                 if east {
-                    t += k[q][1] as f64 * r[q + 1];
+                    t += wide(k[q][1]) * r[q + 1];
                 }
                 if west {
-                    t += k[q - 1][1] as f64 * r[q - 1];
+                    t += wide(k[q - 1][1]) * r[q - 1];
                 }
                 v += yw_up[ic][0] as f64 * t;
             }
@@ -462,10 +465,10 @@ pub(super) fn restrict_coarse(
                 let q = f - s;
                 let mut t = r[q];
                 if east {
-                    t += k[q][1] as f64 * r[q + 1];
+                    t += wide(k[q][1]) * r[q + 1];
                 }
                 if west {
-                    t += k[q - 1][1] as f64 * r[q - 1];
+                    t += wide(k[q - 1][1]) * r[q - 1];
                 }
                 v += yw_dn[ic][1] as f64 * t;
             }
@@ -475,7 +478,13 @@ pub(super) fn restrict_coarse(
 }
 
 /// Adds the interpolated correction `xc` of level `c` to the iterate `x` of level `l`.
-pub(super) fn prolong_coarse(l: &Level, lw: &LineWeights, x: &mut [f64], c: &Level, xc: &[f64]) {
+pub(super) fn prolong_coarse<R: Real>(
+    l: &Level<R>,
+    lw: &LineWeights,
+    x: &mut [f64],
+    c: &Level<R>,
+    xc: &[f64],
+) {
     let (nx, ny, s) = (l.nx, l.ny, l.s);
     let big = nx * ny >= PARALLEL_MIN;
     let (cx, mx) = (c.nx, interior_count(nx));
@@ -509,15 +518,15 @@ pub(super) fn prolong_coarse(l: &Level, lw: &LineWeights, x: &mut [f64], c: &Lev
                     let p = row * s + i + 1;
                     let ex_s = xs[i0][0] as f64 * es[i0] + xs[i0][1] as f64 * es[i0 + 1];
                     let ex_n = xn[i0][0] as f64 * en[i0] + xn[i0][1] as f64 * en[i0 + 1];
-                    let v = k[p][1] as f64 * ey(i0 + 1)
-                        + k[p - 1][1] as f64 * ey(i0)
-                        + k[p][2] as f64 * ex_n
-                        + k[p - s][2] as f64 * ex_s
-                        + k[p][3] as f64 * en[i0 + 1]
-                        + k[p - s - 1][3] as f64 * es[i0]
-                        + k[p][4] as f64 * en[i0]
-                        + k[p - s + 1][4] as f64 * es[i0 + 1];
-                    xr[i + 1] += v / k[p][0] as f64;
+                    let v = wide(k[p][1]) * ey(i0 + 1)
+                        + wide(k[p - 1][1]) * ey(i0)
+                        + wide(k[p][2]) * ex_n
+                        + wide(k[p - s][2]) * ex_s
+                        + wide(k[p][3]) * en[i0 + 1]
+                        + wide(k[p - s - 1][3]) * es[i0]
+                        + wide(k[p][4]) * en[i0]
+                        + wide(k[p - s + 1][4]) * es[i0 + 1];
+                    xr[i + 1] += v / wide(k[p][0]);
                 }
             }
         }
