@@ -125,14 +125,20 @@ pub struct GridSummary {
     pub nx: usize,
     /// Nodes along y.
     pub ny: usize,
-    /// Cell size, m (the larger of the two spacings).
+    /// Cell size, m: the largest cell width or height (the coarsest spacing).
     pub cell: f64,
-    /// Spacing along x, m.
+    /// Largest spacing along x, m (the spacing of a uniform grid).
     #[serde(default)]
     pub hx: f64,
-    /// Spacing along y, m.
+    /// Largest spacing along y, m.
     #[serde(default)]
     pub hy: f64,
+    /// Smallest cell width or height, m.
+    #[serde(default)]
+    pub min_cell: f64,
+    /// Largest cell width or height, m (equal to `cell`).
+    #[serde(default)]
+    pub max_cell: f64,
 }
 
 /// Solver report.
@@ -306,9 +312,11 @@ impl Summary {
             grid: GridSummary {
                 nx: g.nx,
                 ny: g.ny,
-                cell: g.hx.max(g.hy),
-                hx: g.hx,
-                hy: g.hy,
+                cell: g.max_cell(),
+                hx: g.max_dx(),
+                hy: g.max_dy(),
+                min_cell: g.min_cell(),
+                max_cell: g.max_cell(),
             },
             solver: SolverSummary {
                 method: sol.solve.method.map_or("none", |m| m.name()).to_string(),

@@ -79,8 +79,8 @@ pub fn image_data(sol: &Solution, design: &Design) -> Vtk {
         file_path: None,
         data: DataSet::ImageData {
             extent: extent.clone(),
-            origin: [g.x0 as f32, g.y0 as f32, 0.0],
-            spacing: [g.hx as f32, g.hy as f32, g.hx as f32],
+            origin: [g.x0() as f32, g.y0() as f32, 0.0],
+            spacing: [g.dx(0) as f32, g.dy(0) as f32, g.dx(0) as f32],
             meta: None,
             pieces: vec![Piece::Inline(Box::new(ImageDataPiece {
                 extent,

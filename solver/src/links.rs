@@ -7,6 +7,8 @@
 //! so a flux is `eps0 * weight * (V_target - phi)`; `theta` is at least
 //! [`THETA_MIN`](crate::operator::THETA_MIN).
 
+use crate::grid::Grid;
+
 /// One side of the domain, as a fixed-potential target.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub enum SideId {
@@ -58,6 +60,18 @@ impl Dir {
             Dir::South => [0.0, -1.0],
         }
     }
+
+    /// Length of the lattice edge from node (i, j) in this direction, m: the spacing a
+    /// link's `theta` is a fraction of. On the domain's sides, where an open side's link
+    /// points out of the domain, the boundary cell's width.
+    pub fn step(self, grid: &Grid, i: usize, j: usize) -> f64 {
+        match self {
+            Dir::East => grid.dx(i.min(grid.nx - 2)),
+            Dir::West => grid.dx(i.max(1) - 1),
+            Dir::North => grid.dy(j.min(grid.ny - 2)),
+            Dir::South => grid.dy(j.max(1) - 1),
+        }
+    }
 }
 
 /// A coupling of an unknown node to a fixed potential.
@@ -71,7 +85,8 @@ pub struct Link {
     pub weight: f64,
     /// Direction from the node towards the target.
     pub dir: Dir,
-    /// Distance to the target's surface as a fraction of the spacing (clamped to THETA_MIN).
+    /// Distance to the target's surface as a fraction of the edge length [`Dir::step`]
+    /// (clamped to THETA_MIN).
     pub theta: f64,
     /// Relative permittivity of the stretch.
     pub eps: f64,

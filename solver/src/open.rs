@@ -250,9 +250,12 @@ pub fn links(
         if kappa <= 0.0 {
             return;
         }
+        // The spacing normal to the side at its boundary cell.
         let h = match s {
-            SideId::Left | SideId::Right => grid.hx,
-            SideId::Bottom | SideId::Top => grid.hy,
+            SideId::Left => grid.dx(0),
+            SideId::Right => grid.dx(nx - 2),
+            SideId::Bottom => grid.dy(0),
+            SideId::Top => grid.dy(ny - 2),
         };
         let e = eps(p);
         out.push(Link {
@@ -311,10 +314,10 @@ impl SideLine {
     fn new(grid: &Grid, centre: Point, s: SideId) -> SideLine {
         let (x1, y1) = (grid.x1(), grid.y1());
         let (d, t0, ends, along_x) = match s {
-            SideId::Left => (centre[0] - grid.x0, centre[1], [grid.y0, y1], false),
-            SideId::Right => (x1 - centre[0], centre[1], [grid.y0, y1], false),
-            SideId::Bottom => (centre[1] - grid.y0, centre[0], [grid.x0, x1], true),
-            SideId::Top => (y1 - centre[1], centre[0], [grid.x0, x1], true),
+            SideId::Left => (centre[0] - grid.x0(), centre[1], [grid.y0(), y1], false),
+            SideId::Right => (x1 - centre[0], centre[1], [grid.y0(), y1], false),
+            SideId::Bottom => (centre[1] - grid.y0(), centre[0], [grid.x0(), x1], true),
+            SideId::Top => (y1 - centre[1], centre[0], [grid.x0(), x1], true),
         };
         let d = d.abs();
         let far = (ends[0] - t0).abs().max((ends[1] - t0).abs());
@@ -376,12 +379,12 @@ pub fn tangential_couplings(
             SideId::Bottom => (0..nx).map(|i| grid.idx(i, 0)).collect(),
             SideId::Top => (0..nx).map(|i| grid.idx(i, ny - 1)).collect(),
         };
-        let h = if line.along_x { grid.hx } else { grid.hy };
-        for w in nodes.windows(2) {
+        for (k, w) in nodes.windows(2).enumerate() {
             let (p, q) = (w[0], w[1]);
             if !(unknown[p] && unknown[q]) {
                 continue;
             }
+            let h = if line.along_x { grid.dx(k) } else { grid.dy(k) };
             let at = |n: usize| [grid.x(n % nx), grid.y(n / nx)];
             let t = 0.5 * (line.tangent(at(p)) + line.tangent(at(q)));
             let weight = eps(p, q) * line.beta(t) / h;

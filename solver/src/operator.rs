@@ -1,12 +1,14 @@
 //! Operator assembly: the one SPD five-point operator of a rasterised design, with the
 //! couplings to fixed potentials that build right-hand sides and reactions (charges).
 //!
-//! Discretisation (finite volumes on the node lattice): the flux across the control-volume
-//! face of a lattice edge is `eps0 * eps * area / distance * (phi_a - phi_b)`, where `eps` is
-//! the harmonic-mean relative permittivity along the edge and `area` is the face length
-//! (planar, per unit depth) or the face's surface of revolution `2*pi*r*length`
-//! (axisymmetric). Where a conductor surface cuts the edge at a fraction `theta` from a free
-//! node, the distance becomes `theta * h` and the far value is the conductor's potential
+//! Discretisation (finite volumes on the node lattice, uniform or graded): the flux across
+//! the control-volume face of a lattice edge is `eps0 * eps * area / distance * (phi_a -
+//! phi_b)`, where `eps` is the harmonic-mean relative permittivity along the edge (on an
+//! interface along the edge, the mean of the two sides weighted by the face's part in each)
+//! and `area` is the face length, half of each cell beside the edge (planar, per unit depth),
+//! or the face's surface of revolution `2*pi*r*length` (axisymmetric). Where a conductor
+//! surface cuts the edge at a fraction `theta` from a free node, the distance becomes
+//! `theta * h`, h the edge's length, and the far value is the conductor's potential
 //! (the symmetric boundary treatment of Gibou, Fedkiw, Cheng & Kang, J. Comput. Phys. 176
 //! (2002) 205-227). Symmetry sides close their control volumes with no flux; the axis
 //! carries none either, because the face area there is zero. Open sides add the far-field
@@ -150,27 +152,19 @@ struct Faces {
 impl Faces {
     /// Extent of node i's control volume along x: [lo, hi].
     fn span_x(&self, i: usize) -> (f64, f64) {
-        let g = &self.grid;
-        let x = g.x(i);
-        let lo = if i == 0 { x } else { x - 0.5 * g.hx };
-        let hi = if i + 1 == g.nx { x } else { x + 0.5 * g.hx };
-        (lo, hi)
+        self.grid.dual_x(i)
     }
 
+    /// Length of node j's control volume along y: half of each neighbouring cell.
     fn len_y(&self, j: usize) -> f64 {
-        let g = &self.grid;
-        let mut l = g.hy;
-        if j == 0 || j + 1 == g.ny {
-            l *= 0.5;
-        }
-        l
+        self.grid.dual_len_y(j)
     }
 
     /// Weight per unit permittivity of the x-edge stretch from node (i, j) of length
-    /// `theta * hx` towards +x (`sign` = 1) or -x (`sign` = -1).
+    /// `theta * dx` towards +x (`sign` = 1) or -x (`sign` = -1), dx the edge's length.
     fn wx(&self, i: usize, j: usize, theta: f64, sign: f64) -> f64 {
         let g = &self.grid;
-        let d = theta * g.hx;
+        let d = theta * if sign > 0.0 { g.dx(i) } else { g.dx(i - 1) };
         let area = if self.axisymmetric {
             // Radius of the stretch midpoint: r * dphi/dr is nearly constant along the stretch.
             let r = g.x(i) + sign * 0.5 * d;
@@ -204,8 +198,9 @@ impl Faces {
         }
     }
 
-    /// Weight per unit permittivity of the y-edge stretch from node (i, j) of length theta*hy.
-    fn wy(&self, i: usize, _j: usize, theta: f64) -> f64 {
+    /// Weight per unit permittivity of the y-edge stretch from node (i, j) of length
+    /// `theta * dy` towards +y (`sign` = 1) or -y (`sign` = -1), dy the edge's length.
+    fn wy(&self, i: usize, j: usize, theta: f64, sign: f64) -> f64 {
         let g = &self.grid;
         let (lo, hi) = self.span_x(i);
         let area = if self.axisymmetric {
@@ -213,7 +208,7 @@ impl Faces {
         } else {
             hi - lo
         };
-        area / (theta * g.hy)
+        area / (theta * if sign > 0.0 { g.dy(j) } else { g.dy(j - 1) })
     }
 }
 
@@ -254,7 +249,7 @@ impl<'a> Assembly<'a> {
     /// The targets of `design` and its unknowns: nodes neither in a conductor nor on a fixed
     /// side.
     fn new(design: &'a Design, raster: &'a Raster) -> Assembly<'a> {
-        let grid = raster.grid;
+        let grid = raster.grid.clone();
         let n = grid.len();
         let sides = [
             design.sides.left,
@@ -266,11 +261,14 @@ impl<'a> Assembly<'a> {
         let mut a = Assembly {
             design,
             raster,
-            grid,
+            grid: grid.clone(),
             nc: design.conductors.len(),
             sides,
             side_potential: sides.map(Side::potential),
-            faces: Faces { grid, axisymmetric },
+            faces: Faces {
+                grid: grid.clone(),
+                axisymmetric,
+            },
             unknown: vec![false; n],
             diag: vec![0.0; n],
             east: vec![0.0; n],
@@ -542,7 +540,7 @@ pub fn fixed_side(
 fn geometric_weight(faces: &Faces, axis: Axis, i: usize, j: usize, theta: f64, sign: f64) -> f64 {
     match axis {
         Axis::X => faces.wx(i, j, theta, sign),
-        Axis::Y => faces.wy(i, j, theta),
+        Axis::Y => faces.wy(i, j, theta, sign),
     }
 }
 

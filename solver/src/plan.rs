@@ -43,7 +43,7 @@ pub const ERROR_ESTIMATE_BYTES_PER_NODE: f64 = 16.0;
 pub const HELD_SOLUTION_BYTES_PER_NODE: f64 = 80.0;
 
 /// A study's lattice and memory estimate.
-#[derive(Clone, Copy, Debug, PartialEq)]
+#[derive(Clone, Debug, PartialEq)]
 pub struct Plan {
     grid: Grid,
     bytes_per_node: f64,

@@ -149,7 +149,8 @@ impl<'a> FieldEval<'a> {
         let find = |d: Dir| links.iter().find(|l| l.dir == d);
         let phi = self.phi;
         // (distance, value) of the neighbour in a direction, or None beyond a no-flux side.
-        let side = |d: Dir, h: f64, q: Option<usize>| -> Option<(f64, f64)> {
+        let side = |d: Dir, q: Option<usize>| -> Option<(f64, f64)> {
+            let h = d.step(g, i, j);
             if let Some(l) = find(d) {
                 return Some((l.theta * h, self.target_value(l.target)));
             }
@@ -157,13 +158,13 @@ impl<'a> FieldEval<'a> {
         };
         let e = phi[p];
         let ex = {
-            let w = side(Dir::West, g.hx, (i > 0).then(|| p - 1));
-            let east = side(Dir::East, g.hx, (i + 1 < g.nx).then(|| p + 1));
+            let w = side(Dir::West, (i > 0).then(|| p - 1));
+            let east = side(Dir::East, (i + 1 < g.nx).then(|| p + 1));
             -derivative(w, e, east)
         };
         let ey = {
-            let south = side(Dir::South, g.hy, (j > 0).then(|| p - g.nx));
-            let north = side(Dir::North, g.hy, (j + 1 < g.ny).then(|| p + g.nx));
+            let south = side(Dir::South, (j > 0).then(|| p - g.nx));
+            let north = side(Dir::North, (j + 1 < g.ny).then(|| p + g.nx));
             -derivative(south, e, north)
         };
         [ex, ey]
@@ -288,11 +289,8 @@ fn convex_vertices(ring: &[Point], solid_inside: bool) -> Vec<Point> {
 /// Reading of a probe: bilinear interpolation of the potential and of the node fields.
 pub fn probe(field: &FieldEval, probe: &Probe) -> ProbeResult {
     let g = &field.op.grid;
-    let fx = ((probe.at[0] - g.x0) / g.hx).clamp(0.0, (g.nx - 1) as f64);
-    let fy = ((probe.at[1] - g.y0) / g.hy).clamp(0.0, (g.ny - 1) as f64);
-    let i = (fx.floor() as usize).min(g.nx - 2);
-    let j = (fy.floor() as usize).min(g.ny - 2);
-    let (tx, ty) = (fx - i as f64, fy - j as f64);
+    let (i, tx) = g.locate_x(probe.at[0]);
+    let (j, ty) = g.locate_y(probe.at[1]);
     let corners = [
         (i, j, (1.0 - tx) * (1.0 - ty)),
         (i + 1, j, tx * (1.0 - ty)),
@@ -381,7 +379,13 @@ pub fn force(field: &FieldEval, design: &Design, k: usize) -> [f64; 2] {
                     continue;
                 }
                 let along_x = nrm[0] != 0.0;
-                let h = if along_x { g.hx } else { g.hy };
+                // The edge from p to q.
+                let h = match (along_x, nrm[0] + nrm[1] > 0.0) {
+                    (true, true) => g.dx(i),
+                    (true, false) => g.dx(i - 1),
+                    (false, true) => g.dy(j),
+                    (false, false) => g.dy(j - 1),
+                };
                 let en = -(field.phi[q] - field.phi[p]) / h;
                 let (ep, eq) = (node_e(p), node_e(q));
                 let et = if along_x {
@@ -403,21 +407,15 @@ pub fn force(field: &FieldEval, design: &Design, k: usize) -> [f64; 2] {
                 ];
                 // Face size: the control-volume face between p and q.
                 let area = if along_x {
-                    let r = g.x(i) + 0.5 * nrm[0] * g.hx;
-                    let l = if j == 0 || j + 1 == ny {
-                        0.5 * g.hy
-                    } else {
-                        g.hy
-                    };
+                    let r = g.x(i) + 0.5 * nrm[0] * h;
+                    let l = g.dual_len_y(j);
                     if axi {
                         2.0 * std::f64::consts::PI * r * l
                     } else {
                         l
                     }
                 } else {
-                    let x = g.x(i);
-                    let lo = if i == 0 { x } else { x - 0.5 * g.hx };
-                    let hi = if i + 1 == nx { x } else { x + 0.5 * g.hx };
+                    let (lo, hi) = g.dual_x(i);
                     if axi {
                         std::f64::consts::PI * (hi * hi - lo * lo)
                     } else {

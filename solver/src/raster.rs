@@ -15,7 +15,7 @@
 //!
 //! How (see `geometry/lines.rs`, `raster/edges.rs`, `raster/charge.rs`):
 //! - Each outline is cut with every node column x = x_i and every node row y = y_j (work
-//!   proportional to the crossings, i.e. perimeter / h, plus the lines spanned). On each line
+//!   proportional to the crossings, i.e. perimeter / cell, plus the lines spanned). On each line
 //!   it leaves a set of closed intervals: the region with its boundary, so a node exactly on a
 //!   conductor's surface belongs to the conductor and every free node is a positive distance
 //!   from every surface. A node belongs to a conductor when its column or its row says so
@@ -26,7 +26,8 @@
 //! - Materials: dielectrics are painted in file order on the nodes of their closed regions,
 //!   conductors on top. Along an edge the permittivity is piecewise constant between the
 //!   crossings of dielectric outlines; where the edge runs exactly along an interface the
-//!   two sides are averaged, (eps_1 + eps_2) / 2 (the face of such an edge is half in each).
+//!   two sides are averaged by the part of the edge's control-volume face in each (half of
+//!   each neighbouring cell): (eps_1 d_1 + eps_2 d_2) / (d_1 + d_2).
 //!   A free stretch takes the length-weighted harmonic mean; an edge whose permittivity is not
 //!   that of its end nodes' material is a cut edge.
 //! - Two conductors on the two ends of an edge give a [`DirectLink`] whose gap is the free
@@ -294,8 +295,7 @@ fn class_changes(
 /// [`crate::design::validate`]).
 pub fn rasterize(design: &Design, grid: &Grid) -> Raster {
     let (nx, ny) = (grid.nx, grid.ny);
-    let xs: Vec<f64> = (0..nx).map(|i| grid.x(i)).collect();
-    let ys: Vec<f64> = (0..ny).map(|j| grid.y(j)).collect();
+    let (xs, ys) = (grid.xs(), grid.ys());
     let cond_outlines: Vec<Outline> = design
         .conductors
         .iter()
@@ -308,13 +308,13 @@ pub fn rasterize(design: &Design, grid: &Grid) -> Raster {
         .collect();
     let cond: Vec<Sections> = cond_outlines
         .par_iter()
-        .map(|o| Sections::new(o, &xs, &ys, false))
+        .map(|o| Sections::new(o, xs, ys, false))
         .collect();
     let diel: Vec<Sections> = diel_outlines
         .par_iter()
-        .map(|o| Sections::new(o, &xs, &ys, true))
+        .map(|o| Sections::new(o, xs, ys, true))
         .collect();
-    let (conductor, material) = classify(grid, &xs, &ys, &cond, &diel);
+    let (conductor, material) = classify(grid, xs, ys, &cond, &diel);
     let (col_changes, row_changes) = class_changes(grid, &conductor, &material);
 
     let mut eps_of = vec![design.background.permittivity];
@@ -328,7 +328,7 @@ pub fn rasterize(design: &Design, grid: &Grid) -> Raster {
         .into_par_iter()
         .map(|i| {
             let line = edges::Line::new(
-                &ys,
+                ys,
                 i,
                 i,
                 nx,
@@ -336,7 +336,7 @@ pub fn rasterize(design: &Design, grid: &Grid) -> Raster {
                 cond.iter().map(|s| &s.cols),
                 diel.iter().map(|s| &s.cols),
                 &eps_of,
-                edges::Banks::of(i, nx),
+                edges::Banks::of(i, nx, |k| grid.dx(k)),
             );
             line.cut_edges(&nodes, &col_changes[i])
         })
@@ -345,7 +345,7 @@ pub fn rasterize(design: &Design, grid: &Grid) -> Raster {
         .into_par_iter()
         .map(|j| {
             let line = edges::Line::new(
-                &xs,
+                xs,
                 j,
                 j * nx,
                 1,
@@ -353,7 +353,7 @@ pub fn rasterize(design: &Design, grid: &Grid) -> Raster {
                 cond.iter().map(|s| &s.rows),
                 diel.iter().map(|s| &s.rows),
                 &eps_of,
-                edges::Banks::of(j, ny),
+                edges::Banks::of(j, ny, |k| grid.dy(k)),
             );
             line.cut_edges(&nodes, &row_changes[j])
         })
@@ -388,7 +388,7 @@ pub fn rasterize(design: &Design, grid: &Grid) -> Raster {
     }
     node_charge.retain(|&(p, q)| q != 0.0 && conductor[p as usize] == NO_CONDUCTOR);
     let mut raster = Raster {
-        grid: *grid,
+        grid: grid.clone(),
         conductor,
         material,
         cut_edges,

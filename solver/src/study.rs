@@ -230,7 +230,7 @@ pub fn run_planned(
     params: &StudyParams,
 ) -> Result<Solution, StudyError> {
     crate::design::validate(design)?;
-    let grid = *plan.grid();
+    let grid = plan.grid().clone();
     let corners = post::sharp_corners(design);
     let monitor = params.stages.as_ref();
     let mut stages = Tracker::new(monitor);
@@ -451,7 +451,7 @@ fn field_results(
         &mut hotspots,
         design,
         &closed,
-        field.op.grid.hx.max(field.op.grid.hy),
+        &field.op.grid,
     );
     let worst_margin = hotspots.iter().find(|h| h.margin.is_some()).cloned();
     FieldResults {

@@ -183,8 +183,14 @@ fn on_piece(piece: &Piece, u: f64) -> (Point, Point, f64) {
 pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec<SurfaceSample> {
     let op = field.op;
     let g = &op.grid;
-    let h = g.hx.max(g.hy);
-    let step = h / params.per_cell;
+    // Samples per piece follow the finest spacing along it; probes step off the surface by
+    // a thousandth of the local spacing.
+    let count = |piece: &Piece, len: f64| {
+        let h = (0..=16)
+            .map(|k| g.spacing_at(on_piece(piece, k as f64 / 16.0).0))
+            .fold(f64::INFINITY, f64::min);
+        (len / (h / params.per_cell)).ceil().max(1.0) as usize
+    };
     let mats = Materials::new(design);
     let lat = Lattice {
         grid: g,
@@ -193,7 +199,6 @@ pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec
         conductor: &field.raster.conductor,
         material: &field.raster.material,
     };
-    let probe = 1e-3 * h;
     let mut out = Vec::new();
     let mut fits = Vec::new();
     let mut curve = 0;
@@ -208,10 +213,11 @@ pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec
                 let mut arc = 0.0;
                 for piece in lp {
                     let len = piece.length();
-                    let m = (len / step).ceil().max(1.0) as usize;
+                    let m = count(piece, len);
                     for s in 0..m {
                         let (p, t, kappa) = on_piece(piece, (s as f64 + 0.5) / m as f64);
                         let normal = [face * t[1], -face * t[0]];
+                        let probe = 1e-3 * g.spacing_at(p);
                         let front = [p[0] + probe * normal[0], p[1] + probe * normal[1]];
                         let here = arc + (s as f64 + 0.5) * len / m as f64;
                         if !mats.inside_domain(p) {
@@ -225,7 +231,12 @@ pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec
                             material: mat,
                             eps: mats.eps(mat),
                             rho: mats.rho(front),
-                            surface_points: cut_points(op, k, p, params.fit.radius_cells * h),
+                            surface_points: cut_points(
+                                op,
+                                k,
+                                p,
+                                params.fit.radius_cells * g.spacing_at(p),
+                            ),
                         };
                         let frame = Frame {
                             at: p,
@@ -257,28 +268,28 @@ pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec
         (
             SideId::Left,
             design.sides.left,
-            [g.x0, g.y0],
-            [g.x0, g.y1()],
+            [g.x0(), g.y0()],
+            [g.x0(), g.y1()],
             [1.0, 0.0],
         ),
         (
             SideId::Right,
             design.sides.right,
-            [g.x1(), g.y0],
+            [g.x1(), g.y0()],
             [g.x1(), g.y1()],
             [-1.0, 0.0],
         ),
         (
             SideId::Bottom,
             design.sides.bottom,
-            [g.x0, g.y0],
-            [g.x1(), g.y0],
+            [g.x0(), g.y0()],
+            [g.x1(), g.y0()],
             [0.0, 1.0],
         ),
         (
             SideId::Top,
             design.sides.top,
-            [g.x0, g.y1()],
+            [g.x0(), g.y1()],
             [g.x1(), g.y1()],
             [0.0, -1.0],
         ),
@@ -290,9 +301,10 @@ pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec
         let v = field.values[op.side_target(sid) as usize];
         let piece = Piece::Line { a, b };
         let len = piece.length();
-        let m = (len / step).ceil().max(1.0) as usize;
+        let m = count(&piece, len);
         for s in 0..m {
             let (p, _, _) = on_piece(&piece, (s as f64 + 0.5) / m as f64);
+            let probe = 1e-3 * g.spacing_at(p);
             let front = [p[0] + probe * normal[0], p[1] + probe * normal[1]];
             let Some(mat) = mats.material(front) else {
                 continue;
@@ -333,7 +345,7 @@ pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec
             let mut pending = Vec::new();
             for piece in lp {
                 let len = piece.length();
-                let m = (len / step).ceil().max(1.0) as usize;
+                let m = count(piece, len);
                 for s in 0..m {
                     let (p, t, kappa) = on_piece(piece, (s as f64 + 0.5) / m as f64);
                     let normal = [t[1], -t[0]];
@@ -341,6 +353,7 @@ pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec
                     if !mats.inside_domain(p) {
                         continue;
                     }
+                    let probe = 1e-3 * g.spacing_at(p);
                     let back = [p[0] - probe * normal[0], p[1] - probe * normal[1]];
                     let front = [p[0] + probe * normal[0], p[1] + probe * normal[1]];
                     let (Some(m1), Some(m2)) = (mats.material(back), mats.material(front)) else {
@@ -445,22 +458,16 @@ pub fn without_thin_conductors(samples: &[SurfaceSample], design: &Design) -> Ve
 fn cut_points(op: &Operator, k: usize, at: Point, reach: f64) -> Vec<Point> {
     let g = &op.grid;
     let mut out = Vec::new();
-    let r = reach + g.hx.max(g.hy);
-    let i0 = ((at[0] - r - g.x0) / g.hx).floor().max(0.0) as usize;
-    let i1 = (((at[0] + r - g.x0) / g.hx).ceil().max(0.0) as usize).min(g.nx - 1);
-    let j0 = ((at[1] - r - g.y0) / g.hy).floor().max(0.0) as usize;
-    let j1 = (((at[1] + r - g.y0) / g.hy).ceil().max(0.0) as usize).min(g.ny - 1);
-    for j in j0..=j1 {
-        for i in i0..=i1 {
+    let r = reach + g.spacing_at(at);
+    let cols = g.columns_covering(at[0] - r, at[0] + r);
+    for j in g.rows_covering(at[1] - r, at[1] + r) {
+        for i in cols.clone() {
             for l in op.links_of(g.idx(i, j)) {
                 if l.target as usize != k {
                     continue;
                 }
-                let u = l.dir.unit();
-                let q = [
-                    g.x(i) + u[0] * l.theta * g.hx,
-                    g.y(j) + u[1] * l.theta * g.hy,
-                ];
+                let (u, h) = (l.dir.unit(), l.dir.step(g, i, j));
+                let q = [g.x(i) + u[0] * l.theta * h, g.y(j) + u[1] * l.theta * h];
                 if (q[0] - at[0]).hypot(q[1] - at[1]) <= reach {
                     out.push(q);
                 }

@@ -22,7 +22,8 @@
 //! smooth part of the error: +0.11 % / +0.024 %, order 2.2 (tests/reference_planar.rs).
 //!
 //! Invariants: lengths in metres outside, in cells inside the fit (well-conditioned for any
-//! unit); the field returned is SI (V/m); `None` when too few free nodes lie near the point
+//! unit; a cell is the larger side of the lattice cell holding the point, so on a graded grid
+//! the fit's reach follows the local spacing); the field returned is SI (V/m); `None` when too few free nodes lie near the point
 //! for the fit to be determined (a surface in a gap narrower than the fit's reach).
 
 use crate::design::{Mode, Point};
@@ -308,7 +309,7 @@ pub fn conductor_field(
         return None;
     };
     let g = lat.grid;
-    let h = g.hx.max(g.hy);
+    let h = g.spacing_at(frame.at);
     for d in (1..=params.degree).rev() {
         let mut ms = monomials(d);
         if params.anchor != Anchor::Exact {
@@ -404,7 +405,7 @@ pub fn interface_field(
         return None;
     };
     let g = lat.grid;
-    let h = g.hx.max(g.hy);
+    let h = g.spacing_at(frame.at);
     let d = params.interface_degree.max(2);
     // Unknowns: phi_s, a_t, a_n1, then the monomials of degree >= 2 of side 1 and side 2.
     let high: Vec<(i32, i32)> = monomials(d)
@@ -488,15 +489,14 @@ pub fn interface_field(
 
 /// Calls `f(node, position)` for every node within `radius` of `at`.
 fn for_nodes_near(g: &Grid, at: Point, radius: f64, mut f: impl FnMut(usize, Point)) {
-    let i0 = (((at[0] - radius - g.x0) / g.hx).ceil().max(0.0)) as usize;
-    let i1 = (((at[0] + radius - g.x0) / g.hx).floor()).min((g.nx - 1) as f64);
-    let j0 = (((at[1] - radius - g.y0) / g.hy).ceil().max(0.0)) as usize;
-    let j1 = (((at[1] + radius - g.y0) / g.hy).floor()).min((g.ny - 1) as f64);
-    if i1 < 0.0 || j1 < 0.0 {
+    let Some(cols) = g.columns_within(at[0] - radius, at[0] + radius) else {
         return;
-    }
-    for j in j0..=j1 as usize {
-        for i in i0..=i1 as usize {
+    };
+    let Some(rows) = g.rows_within(at[1] - radius, at[1] + radius) else {
+        return;
+    };
+    for j in rows {
+        for i in cols.clone() {
             let x = [g.x(i), g.y(j)];
             if (x[0] - at[0]).hypot(x[1] - at[1]) <= radius {
                 f(g.idx(i, j), x);
@@ -528,14 +528,8 @@ mod tests {
 
     /// A lattice of `n` x `n` nodes of spacing h around the origin carrying `f`.
     fn lattice(n: usize, h: f64, f: impl Fn(f64, f64) -> f64) -> (Grid, Vec<f64>) {
-        let g = Grid {
-            nx: n,
-            ny: n,
-            x0: -0.5 * h * (n - 1) as f64,
-            y0: -0.5 * h * (n - 1) as f64,
-            hx: h,
-            hy: h,
-        };
+        let o = -0.5 * h * (n - 1) as f64;
+        let g = Grid::regular([o, o], [h, h], [n, n]);
         let phi = (0..g.len()).map(|p| f(g.x(p % n), g.y(p / n))).collect();
         (g, phi)
     }

@@ -21,6 +21,7 @@
 //! side of the surface the sample belongs to.
 
 use crate::design::{Design, Mode, Point};
+use crate::grid::Grid;
 use crate::post::{FieldEval, Hotspot, HotspotParams, SurfacePoint};
 use crate::surface::{SurfaceKind, SurfaceSample};
 use crate::EPS0;
@@ -296,8 +297,8 @@ pub fn peak_and_hotspots(
     samples: &[SurfaceSample],
 ) -> (Option<Hotspot>, Vec<Hotspot>) {
     let g = &field.op.grid;
-    let h = g.hx.max(g.hy);
-    let reach = params.corner_cells * h;
+    // Distances in cells are in the local spacing of the candidate.
+    let reach = |at: Point| params.corner_cells * g.spacing_at(at);
     let cand = candidates(field, samples);
     let strength = |m: u16| crate::material::of(design, m).strength;
     let by_margin = any_strength(design);
@@ -313,7 +314,7 @@ pub fn peak_and_hotspots(
                 .then(b.0[0].total_cmp(&a.0[0]))
                 .then(b.0[1].total_cmp(&a.0[1]))
         })
-        .map(|c| spot(design, corners, reach, c.0, c.1, c.2));
+        .map(|c| spot(design, corners, reach(c.0), c.0, c.1, c.2));
     let order = |a: &(Point, f64, u16, f64), b: &(Point, f64, u16, f64)| {
         let (ka, kb) = (key(a), key(b));
         ka.0.cmp(&kb.0)
@@ -333,12 +334,12 @@ pub fn peak_and_hotspots(
         .map(|(k, c)| (c.0, c.1, c.2, if Some(k) == first { 1.0 } else { c.3 }))
         .collect();
     cand.sort_by(order);
-    let sep = params.separation_cells * h;
     let mut chosen: Vec<(Point, f64, u16, f64)> = Vec::new();
     for c in cand.into_iter().filter(|c| c.3 >= params.persistence) {
         if chosen.len() >= params.count {
             break;
         }
+        let sep = params.separation_cells * g.spacing_at(c.0);
         if chosen
             .iter()
             .all(|q| (q.0[0] - c.0[0]).hypot(q.0[1] - c.0[1]) >= sep)
@@ -348,7 +349,7 @@ pub fn peak_and_hotspots(
     }
     let spots = chosen
         .into_iter()
-        .map(|c| spot(design, corners, reach, c.0, c.1, c.2))
+        .map(|c| spot(design, corners, reach(c.0), c.0, c.1, c.2))
         .collect();
     (peak, spots)
 }
@@ -379,7 +380,7 @@ pub fn estimate_errors(
     order: f64,
 ) {
     let cg = &coarse.op.grid;
-    let radius = 1.5 * cg.hx.max(cg.hy);
+    let radius = |at: Point| 1.5 * cg.spacing_at(at);
     let cand = candidates(coarse, coarse_samples);
     let factor = ratio.powf(order) - 1.0;
     let material = |name: &str| -> u16 {
@@ -391,8 +392,8 @@ pub fn estimate_errors(
     };
     let apply = |h: &mut Hotspot| {
         let m = material(&h.material);
-        h.error_estimate =
-            coarse_value(&cand, [h.x, h.y], m, radius).map(|c| (h.magnitude - c).abs() / factor);
+        h.error_estimate = coarse_value(&cand, [h.x, h.y], m, radius([h.x, h.y]))
+            .map(|c| (h.magnitude - c).abs() / factor);
     };
     if let Some(p) = peak.as_mut() {
         apply(p);
@@ -408,7 +409,8 @@ pub const RESOLVED_RADIUS_CELLS: f64 = 4.0;
 
 /// Marks the hot spots that sit on a convex rounding narrower than
 /// [`RESOLVED_RADIUS_CELLS`] cells, widens their error estimate to at least
-/// `magnitude (RESOLVED_RADIUS_CELLS h / radius - 1)` (the value may be low by that much;
+/// `magnitude (RESOLVED_RADIUS_CELLS h / radius - 1)`, h the local spacing (the value may
+/// be low by that much;
 /// measured: 0.71 of the value at 2 cells, 0.18 at 3), then takes every margin from the
 /// field plus its estimated error and ranks the hot spots.
 pub fn finish(
@@ -416,9 +418,10 @@ pub fn finish(
     spots: &mut [Hotspot],
     design: &Design,
     samples: &[SurfaceSample],
-    h: f64,
+    grid: &Grid,
 ) {
     let apply = |hs: &mut Hotspot| {
+        let h = grid.spacing_at([hs.x, hs.y]);
         let kappa = samples
             .iter()
             .filter(|s| (s.x - hs.x).hypot(s.y - hs.y) <= 2.0 * h)

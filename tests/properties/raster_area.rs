@@ -106,7 +106,7 @@ fn rasterised_polygon_area_matches_its_geometric_area_within_the_cut_cell_error(
                             )))
                         }
                     };
-                    *row += covered * g.hx;
+                    *row += covered * g.dx(0);
                 }
             }
             // A free node closer to the surface than SNAP of a cell (along x or y) joins the
@@ -125,7 +125,7 @@ fn rasterised_polygon_area_matches_its_geometric_area_within_the_cut_cell_error(
             for (j, got) in rows.iter().enumerate() {
                 let want = chord(&poly, g.y(j));
                 prop_assert!(
-                    (got - want).abs() <= (snapped[j] as f64 + 1e-9) * g.hx,
+                    (got - want).abs() <= (snapped[j] as f64 + 1e-9) * g.dx(0),
                     "row {j}: raster covers {got:e}, chord {want:e}, {} snapped nodes",
                     snapped[j]
                 );
@@ -139,7 +139,7 @@ fn rasterised_polygon_area_matches_its_geometric_area_within_the_cut_cell_error(
             // Trapezoid rule over the rows. The chord is piecewise linear in y with kinks at
             // the vertices; the rule's error on a cell with a kink of slope jump J is at most
             // J h^2 / 8, and J is at most the sum of |dx/dy| of the two edges meeting there.
-            let integral: f64 = rows.iter().sum::<f64>() * g.hy;
+            let integral: f64 = rows.iter().sum::<f64>() * g.dy(0);
             let bound: f64 = (0..n)
                 .map(|k| {
                     let (p, q, s) = (poly[(k + n - 1) % n], poly[k], poly[(k + 1) % n]);
@@ -147,10 +147,10 @@ fn rasterised_polygon_area_matches_its_geometric_area_within_the_cut_cell_error(
                     slope(p, q) + slope(q, s)
                 })
                 .sum::<f64>()
-                * g.hy
-                * g.hy
+                * g.dy(0)
+                * g.dy(0)
                 / 8.0;
-            let bound = bound + snapped.iter().sum::<usize>() as f64 * g.hx * g.hy;
+            let bound = bound + snapped.iter().sum::<usize>() as f64 * g.dx(0) * g.dy(0);
             let exact = fieldgrid_tests::polygon_area(&poly);
             prop_assert!(
                 (integral - exact).abs() <= bound + 1e-12 * exact,

@@ -416,7 +416,7 @@ ring = { center = [0.0, 0.0], inner = 2.0, outer = 2.5 }
 /// Root-mean-square potential error over the nodes between concentric spheres of radii a and
 /// b (mm) against phi = (1/rho - 1/b) / (1/a - 1/b), the inner one at 1 V.
 fn rms_gap_error(s: &Solution, a: f64, b: f64) -> f64 {
-    let g = s.grid;
+    let g = &s.grid;
     let (mut sum, mut count) = (0.0, 0.0);
     for j in 0..g.ny {
         for i in 0..g.nx {
@@ -552,7 +552,7 @@ polyline = [[0.0, 0.0], [1.0, 0.0]]
 /// Largest |phi - R/z| on the axis and off it (nodes 1.5R..3R from the centre), and the
 /// largest relative error of Ez on the axis against R V / z^2, for the unit sphere at 1 V.
 fn sphere_axis_errors(s: &Solution) -> (f64, f64, f64) {
-    let g = s.grid;
+    let g = &s.grid;
     let field = FieldEval::new(&s.operator, &s.raster, &s.potential, &[1.0]);
     let (mut on, mut off, mut ez) = (0.0f64, 0.0f64, 0.0f64);
     for j in 0..g.ny {
@@ -585,7 +585,7 @@ fn axis_is_regular_finite_field_zero_radial_field_and_no_loss_of_order() {
     let fine = solve(&design(&axisymmetric_in_open_space(4.0, 0.05, UNIT_SPHERE)));
     let point = solve(&design(POINT_CHARGE_IN_SPHERE));
     for s in [&coarse, &fine, &point] {
-        let g = s.grid;
+        let g = &s.grid;
         assert!(
             s.potential.iter().all(|v| v.is_finite()),
             "NaN in the potential"

@@ -222,9 +222,9 @@ struct Errors {
 /// a ring in axisymmetric mode (m^2 per unit depth planar, m^3 axisymmetric).
 fn control_volume(g: &Grid, mode: Mode, i: usize, j: usize) -> f64 {
     let x = g.x(i);
-    let lo = if i == 0 { x } else { x - 0.5 * g.hx };
-    let hi = if i + 1 == g.nx { x } else { x + 0.5 * g.hx };
-    let ly = g.hy * if j == 0 || j + 1 == g.ny { 0.5 } else { 1.0 };
+    let lo = if i == 0 { x } else { x - 0.5 * g.dx(0) };
+    let hi = if i + 1 == g.nx { x } else { x + 0.5 * g.dx(0) };
+    let ly = g.dy(0) * if j == 0 || j + 1 == g.ny { 0.5 } else { 1.0 };
     match mode {
         Mode::Planar => (hi - lo) * ly,
         Mode::Axisymmetric => PI * (hi * hi - lo * lo) * ly,
@@ -257,7 +257,7 @@ fn errors(p: &Problem) -> Errors {
     let field = FieldEval::new(&op, &ras, &x, &[0.0]);
     let (mut sum2, mut count) = (0.0, 0usize);
     let mut e = Errors {
-        h: g.hx,
+        h: g.dx(0),
         ..Errors::default()
     };
     for j in 0..g.ny {

@@ -297,7 +297,7 @@ pub fn design_target(data: &[u8]) -> String {
         return sig;
     };
     let mut coarse = d.clone();
-    coarse.domain.cell = small.hx.max(small.hy) * (1.0 + 1e-9);
+    coarse.domain.cell = small.dx(0).max(small.dy(0)) * (1.0 + 1e-9);
     let params = StudyParams::default()
         .with_method(Method::Multigrid)
         .with_solver(Params::default().with_tol(1e-8).with_max_iter(400))

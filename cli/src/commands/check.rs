@@ -21,7 +21,15 @@ pub fn run(args: &CheckArgs) -> Result<u8, Failure> {
     let report = serde_json::json!({
         "version": 1,
         "valid": true,
-        "grid": { "nx": grid.nx, "ny": grid.ny, "cell": grid.hx.max(grid.hy), "hx": grid.hx, "hy": grid.hy },
+        "grid": {
+            "nx": grid.nx,
+            "ny": grid.ny,
+            "cell": grid.max_cell(),
+            "hx": grid.max_dx(),
+            "hy": grid.max_dy(),
+            "min_cell": grid.min_cell(),
+            "max_cell": grid.max_cell(),
+        },
         "unknowns_at_most": grid.len(),
         "memory_mib": mib,
         "conductors": d.conductors.iter().map(|c| c.name.clone()).collect::<Vec<_>>(),
@@ -46,8 +54,8 @@ pub fn run(args: &CheckArgs) -> Result<u8, Failure> {
             args.design.display(),
             grid.nx,
             grid.ny,
-            grid.hx,
-            grid.hy,
+            grid.max_dx(),
+            grid.max_dy(),
             mib
         );
     }

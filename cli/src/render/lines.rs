@@ -139,7 +139,7 @@ pub(super) fn draw_field_lines(
         .flat_map(|c| c.lines.iter().map(|l| local(l)))
         .collect();
     // Seeds sit just clear of the value-less band round a conductor on coarse grids.
-    let cell_px = (grid.hx * k[0]).max(grid.hy * k[1]);
+    let cell_px = (grid.max_dx() * k[0]).max(grid.max_dy() * k[1]);
     let offset = (0.75 * cell_px + 1.0).max(2.5);
     let seeds = fieldlines::seeds(&pot, &rings, &lines, fl.count, offset, &inside);
     let (w, h) = img.dimensions();

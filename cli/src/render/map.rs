@@ -30,8 +30,8 @@ pub fn map_frame(grid: &Grid, length_unit: LengthUnit, opts: &RenderOptions) -> 
 
 pub(super) fn map_layout(grid: &Grid, unit: LengthUnit, opts: &RenderOptions) -> Layout {
     layout(
-        [grid.x0, grid.x1()],
-        [grid.y0, grid.y1()],
+        [grid.x0(), grid.x1()],
+        [grid.y0(), grid.y1()],
         unit,
         BAR_BLOCK,
         opts,

@@ -3,8 +3,10 @@
 //! Invariants: one sample per pixel of the plot area, taken at the pixel centre, row 0 at the
 //! top (largest y); bilinear between the four surrounding nodes, using only nodes that have a
 //! value and only when they carry at least half of the bilinear weight (so regions without a
-//! value keep their size); otherwise NaN. Work is proportional to the pixel count plus the
-//! column and row counts, whatever the node count.
+//! value keep their size); otherwise NaN. The four nodes come from the grid's coordinate
+//! lines, so a graded grid is interpolated within its cells as a uniform one is. Work is
+//! proportional to the pixel count plus the column and row counts (times the logarithm of
+//! the line counts on a graded grid).
 
 use fieldgrid_solver::grid::Grid;
 
@@ -26,33 +28,17 @@ impl Samples {
     }
 }
 
-/// For each of `n` pixels spanning [a, b], the lower node index and the fraction towards the
-/// next node along an axis of `nodes` nodes starting at `o` with spacing `h`.
-fn axis_weights(
-    n: usize,
-    a: f64,
-    b: f64,
-    o: f64,
-    h: f64,
-    nodes: usize,
-    reverse: bool,
-) -> Vec<(usize, f64)> {
-    (0..n)
-        .map(|k| {
-            let f = (k as f64 + 0.5) / n as f64;
-            let x = if reverse {
-                b - f * (b - a)
-            } else {
-                a + f * (b - a)
-            };
-            if nodes < 2 || h <= 0.0 {
-                return (0, 0.0);
-            }
-            let g = ((x - o) / h).clamp(0.0, (nodes - 1) as f64);
-            let i = (g.floor() as usize).min(nodes - 2);
-            (i, g - i as f64)
-        })
-        .collect()
+/// The coordinates of the centres of `n` pixels spanning [a, b] (from b down when
+/// `reverse`).
+fn pixel_centres(n: usize, a: f64, b: f64, reverse: bool) -> impl Iterator<Item = f64> {
+    (0..n).map(move |k| {
+        let f = (k as f64 + 0.5) / n as f64;
+        if reverse {
+            b - f * (b - a)
+        } else {
+            a + f * (b - a)
+        }
+    })
 }
 
 /// Samples `values` (one per node of `grid`, NaN for none) on a `w` x `h` pixel raster
@@ -66,8 +52,12 @@ pub fn resample(
     h: usize,
 ) -> Samples {
     assert_eq!(values.len(), grid.len(), "one value per grid node");
-    let cols = axis_weights(w, xr[0], xr[1], grid.x0, grid.hx, grid.nx, false);
-    let rows = axis_weights(h, yr[0], yr[1], grid.y0, grid.hy, grid.ny, true);
+    let cols: Vec<(usize, f64)> = pixel_centres(w, xr[0], xr[1], false)
+        .map(|x| grid.locate_x(x))
+        .collect();
+    let rows: Vec<(usize, f64)> = pixel_centres(h, yr[0], yr[1], true)
+        .map(|y| grid.locate_y(y))
+        .collect();
     let nx = grid.nx;
     let (sx, sy) = (usize::from(grid.nx > 1), usize::from(grid.ny > 1));
     let mut v = Vec::with_capacity(w * h);
@@ -142,14 +132,7 @@ mod tests {
     }
 
     fn grid(nx: usize, ny: usize) -> Grid {
-        Grid {
-            nx,
-            ny,
-            x0: 0.0,
-            y0: 0.0,
-            hx: 1.0,
-            hy: 1.0,
-        }
+        Grid::regular([0.0, 0.0], [1.0, 1.0], [nx, ny])
     }
 
     #[test]

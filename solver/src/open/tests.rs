@@ -91,7 +91,7 @@ fn rasterize_circles(design: &Design, grid: &Grid) -> Raster {
         }
     }
     Raster {
-        grid: *grid,
+        grid: grid.clone(),
         conductor,
         material: vec![0; n],
         cut_edges,
@@ -243,9 +243,9 @@ fn axisymmetric_open_faces_are_surfaces_of_revolution_with_the_monopole_coeffici
     {
         let side = SideId::ALL[l.target as usize - op.n_conductors];
         let h = if matches!(side, SideId::Left | SideId::Right) {
-            g.hx
+            g.dx(0)
         } else {
-            g.hy
+            g.dy(0)
         };
         let p = l.node as usize;
         let at = [g.x(p % g.nx), g.y(p / g.nx)];
@@ -420,6 +420,6 @@ fn any_direction_condition_is_exact_for_dipoles_of_every_direction() {
         }
     }
     // beta vanishes at the side's farther corner and is positive inside.
-    assert!(line.beta(line.tangent([x, grid.y0])).abs() < 1e-12);
+    assert!(line.beta(line.tangent([x, grid.y0()])).abs() < 1e-12);
     assert!(line.beta(line.tangent([x, 0.0])) > 0.0);
 }

@@ -177,16 +177,15 @@ pub(super) fn concentrated(
     grid: &Grid,
     axisymmetric: bool,
 ) -> Vec<(u32, f64)> {
-    let locate = |c: f64, c0: f64, h: f64, n: usize, pos: &dyn Fn(usize) -> f64| {
-        let k = (((c - c0) / h).floor().max(0.0) as usize).min(n - 2);
-        let t = ((c - pos(k)) / (pos(k + 1) - pos(k))).clamp(0.0, 1.0);
-        (k, t)
+    let locate = |c: f64, cell: usize, pos: &dyn Fn(usize) -> f64| {
+        let t = ((c - pos(cell)) / (pos(cell + 1) - pos(cell))).clamp(0.0, 1.0);
+        (cell, t)
     };
-    let (j, ty) = locate(at[1], grid.y0, grid.hy, grid.ny, &|j| grid.y(j));
+    let (j, ty) = locate(at[1], grid.cell_y(at[1]), &|j| grid.y(j));
     let shares: Vec<(usize, usize, f64)> = if axisymmetric {
         vec![(0, j, 1.0 - ty), (0, j + 1, ty)]
     } else {
-        let (i, tx) = locate(at[0], grid.x0, grid.hx, grid.nx, &|i| grid.x(i));
+        let (i, tx) = locate(at[0], grid.cell_x(at[0]), &|i| grid.x(i));
         vec![
             (i, j, (1.0 - tx) * (1.0 - ty)),
             (i + 1, j, tx * (1.0 - ty)),

@@ -33,31 +33,46 @@ pub(super) struct Line<'a> {
     conductors: Vec<(f64, f64, u16)>,
     /// Relative permittivity along the line, piecewise constant: (start, eps, on an
     /// interface), sorted by start, the first start being -inf. On an interface the line
-    /// runs along a dielectric boundary and eps is the mean of the two sides.
+    /// runs along a dielectric boundary and eps is the mean of the two sides weighted by the
+    /// shares of the control-volume face on each side ([`Banks`]).
     profile: Vec<(f64, f64, bool)>,
 }
 
-/// Which sides of a node line lie inside the domain: both for interior lines, one for the
-/// lines on the domain's sides (whose control-volume faces extend to one side only).
-#[derive(Clone, Copy, Debug, PartialEq, Eq)]
-pub(super) enum Banks {
-    /// An interior line.
-    Both,
-    /// The first line (x = x0 or y = y0): only the upper side is in the domain.
-    Upper,
-    /// The last line: only the lower side is in the domain.
-    Lower,
+/// How a node line's control-volume faces split between its two sides: the share of the
+/// face on the lower side (smaller coordinate across the line) and on the upper side. Interior
+/// lines take half of each neighbouring cell; the lines on the domain's sides have one side
+/// only (share 0 on the other).
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub(super) struct Banks {
+    /// Share of the face below the line, in [0, 1].
+    lower: f64,
+    /// Share of the face above the line, in [0, 1].
+    upper: f64,
 }
 
 impl Banks {
-    /// For line `m` of `count`.
-    pub(super) fn of(m: usize, count: usize) -> Banks {
+    /// For line `m` of `count`, `cell(k)` the width of the cell between lines k and k+1.
+    pub(super) fn of(m: usize, count: usize, cell: impl Fn(usize) -> f64) -> Banks {
         if m == 0 {
-            Banks::Upper
+            Banks {
+                lower: 0.0,
+                upper: 1.0,
+            }
         } else if m + 1 == count {
-            Banks::Lower
+            Banks {
+                lower: 1.0,
+                upper: 0.0,
+            }
         } else {
-            Banks::Both
+            Banks::split(0.5 * cell(m - 1), 0.5 * cell(m))
+        }
+    }
+
+    /// An interior line whose face has half-widths `lo` below and `up` above.
+    pub(super) fn split(lo: f64, up: f64) -> Banks {
+        Banks {
+            lower: lo / (lo + up),
+            upper: up / (lo + up),
         }
     }
 }
@@ -115,15 +130,16 @@ impl<'a> Line<'a> {
                     }
                     // A line on a domain side runs along an interface only if the
                     // material inside the domain changes there.
-                    match banks {
-                        Banks::Both => {}
-                        Banks::Upper => lo = up,
-                        Banks::Lower => up = lo,
+                    if banks.lower == 0.0 {
+                        lo = up;
+                    } else if banks.upper == 0.0 {
+                        up = lo;
                     }
                     if lo == up {
                         (s, lo, false)
                     } else {
-                        (s, 0.5 * (lo + up), true)
+                        // Each part of the face carries its own side's permittivity.
+                        (s, banks.lower * lo + banks.upper * up, true)
                     }
                 }
             };

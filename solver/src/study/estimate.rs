@@ -85,12 +85,16 @@ impl CoarseStudies {
         let coarse_grid = grid.coarsened();
         let coarser_grid = coarse_grid.coarsened();
         let coarse = if params.error_estimate && grid.nx > 8 && grid.ny > 8 {
-            Some((coarse_grid, solve_on(design, &coarse_grid, params, None)?))
+            Some((
+                coarse_grid.clone(),
+                solve_on(design, &coarse_grid, params, None)?,
+            ))
         } else {
             None
         };
         let coarser = if smooth && coarse.is_some() && coarse_grid.nx > 8 && coarse_grid.ny > 8 {
-            Some((coarser_grid, solve_on(design, &coarser_grid, params, None)?))
+            let core = solve_on(design, &coarser_grid, params, None)?;
+            Some((coarser_grid, core))
         } else {
             None
         };
@@ -112,9 +116,9 @@ impl CoarseStudies {
         singular: bool,
     ) -> Option<ErrorModel> {
         let (coarse_grid, c) = self.coarse.as_ref()?;
-        let ratio = (coarse_grid.hx / grid.hx).min(coarse_grid.hy / grid.hy);
+        let ratio = grid.ratio_from(coarse_grid);
         let observed_order = self.coarser.as_ref().and_then(|(coarser_grid, cc)| {
-            let ratio2 = (coarser_grid.hx / coarse_grid.hx).min(coarser_grid.hy / coarse_grid.hy);
+            let ratio2 = coarse_grid.ratio_from(coarser_grid);
             observed_order(&core.maxwell, &c.maxwell, &cc.maxwell, ratio.min(ratio2))
         });
         // Sharp corners and thin conductors make the field singular: the cut-cell scheme

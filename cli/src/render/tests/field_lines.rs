@@ -24,17 +24,10 @@ fn two_wire(g: &Grid, d: f64, a: f64) -> Vec<f64> {
 
 #[test]
 fn field_lines_leave_the_positive_wire_and_cross_equipotentials() {
-    let g = Grid {
-        nx: 321,
-        ny: 201,
-        x0: -8.0 * MM,
-        y0: -5.0 * MM,
-        hx: 0.05 * MM,
-        hy: 0.05 * MM,
-    };
+    let g = Grid::regular([-8.0 * MM, -5.0 * MM], [0.05 * MM, 0.05 * MM], [321, 201]);
     let (d, a) = (3.0 * MM, 1.0 * MM);
     let v = two_wire(&g, d, a);
-    let tol = Outline::picture_tolerance([g.x0, g.x1()], [g.y0, g.y1()]);
+    let tol = Outline::picture_tolerance([g.x0(), g.x1()], [g.y0(), g.y1()]);
     let wires = [
         Outline::from_shape(
             "plus",

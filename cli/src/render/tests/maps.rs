@@ -79,14 +79,7 @@ fn no_value_pixels_are_grey_never_a_map_colour() {
 #[test]
 fn equipotentials_sit_at_round_values() {
     // v = x / 10 mm over 0..10 mm: the 0.1 V ... 0.9 V lines are the columns x = 1 ... 9 mm.
-    let grid = Grid {
-        nx: 101,
-        ny: 51,
-        x0: 0.0,
-        y0: 0.0,
-        hx: 0.1 * MM,
-        hy: 0.1 * MM,
-    };
+    let grid = Grid::regular([0.0, 0.0], [0.1 * MM, 0.1 * MM], [101, 51]);
     let v: Vec<f64> = (0..grid.len())
         .map(|k| grid.x(k % grid.nx) / (10.0 * MM))
         .collect();
@@ -132,39 +125,12 @@ fn equipotentials_sit_at_round_values() {
 #[test]
 fn extreme_aspect_ratios_and_tiny_grids_render() {
     let cases = [
-        (
-            "strip",
-            Grid {
-                nx: 1001,
-                ny: 11,
-                x0: 0.0,
-                y0: 0.0,
-                hx: 1e-4,
-                hy: 1e-4,
-            },
-        ),
+        ("strip", Grid::regular([0.0, 0.0], [1e-4, 1e-4], [1001, 11])),
         (
             "column",
-            Grid {
-                nx: 11,
-                ny: 1001,
-                x0: 0.0,
-                y0: 0.0,
-                hx: 1e-4,
-                hy: 1e-4,
-            },
+            Grid::regular([0.0, 0.0], [1e-4, 1e-4], [11, 1001]),
         ),
-        (
-            "tiny",
-            Grid {
-                nx: 3,
-                ny: 3,
-                x0: -1.0,
-                y0: -1.0,
-                hx: 1.0,
-                hy: 1.0,
-            },
-        ),
+        ("tiny", Grid::regular([-1.0, -1.0], [1.0, 1.0], [3, 3])),
     ];
     for (name, g) in cases {
         let mut v: Vec<f64> = (0..g.len())
@@ -172,7 +138,7 @@ fn extreme_aspect_ratios_and_tiny_grids_render() {
             .collect();
         v[g.len() / 2] = f64::NAN;
         let marker = [Marker {
-            at: [g.x0, g.y0],
+            at: [g.x0(), g.y0()],
             number: 7,
         }];
         let inp = MapInput {
@@ -192,14 +158,7 @@ fn extreme_aspect_ratios_and_tiny_grids_render() {
         assert!(plot.right() + BAR_GAP + BAR_W < expect_w as i64 && plot.x0 > 0);
     }
     // All values missing, and a constant field: still a picture.
-    let g = Grid {
-        nx: 3,
-        ny: 3,
-        x0: 0.0,
-        y0: 0.0,
-        hx: 1.0,
-        hy: 1.0,
-    };
+    let g = Grid::regular([0.0, 0.0], [1.0, 1.0], [3, 3]);
     for v in [vec![f64::NAN; 9], vec![2.5; 9]] {
         let img = render_map(&MapInput::new(&g, &v), &RenderOptions { width: 400 });
         assert_eq!(img.width(), 400);
@@ -226,14 +185,7 @@ fn same_input_gives_the_same_bytes() {
 
 #[test]
 fn signed_values_use_the_diverging_map_centred_on_zero() {
-    let grid = Grid {
-        nx: 81,
-        ny: 41,
-        x0: 0.0,
-        y0: 0.0,
-        hx: 0.1 * MM,
-        hy: 0.1 * MM,
-    };
+    let grid = Grid::regular([0.0, 0.0], [0.1 * MM, 0.1 * MM], [81, 41]);
     // -2 V at the left, +1 V at the right: the bar runs -2..2 V, so 0 V sits at its middle.
     let v: Vec<f64> = (0..grid.len())
         .map(|k| -2.0 + 3.0 * (k % grid.nx) as f64 / 80.0)
@@ -267,14 +219,7 @@ fn signed_values_use_the_diverging_map_centred_on_zero() {
 #[test]
 fn log_scale_labels_decades_with_prefixes() {
     // |E| falling as 1/r from a line: 1e6 V/m at 0.1 mm down to about 1e3 V/m.
-    let grid = Grid {
-        nx: 201,
-        ny: 201,
-        x0: -50.0 * MM,
-        y0: -50.0 * MM,
-        hx: 0.5 * MM,
-        hy: 0.5 * MM,
-    };
+    let grid = Grid::regular([-50.0 * MM, -50.0 * MM], [0.5 * MM, 0.5 * MM], [201, 201]);
     let v: Vec<f64> = (0..grid.len())
         .map(|k| 100.0 / grid.x(k % grid.nx).hypot(grid.y(k / grid.nx)).max(0.1 * MM))
         .collect();

@@ -47,14 +47,7 @@ struct Scene {
 /// A 20 x 10 mm domain, a line charge at (6, 5) mm, a conductor 12..16 x 3..7 mm without
 /// values inside, a dielectric slab below y = 2 mm and a hot spot near the charge.
 fn scene() -> Scene {
-    let grid = Grid {
-        nx: 401,
-        ny: 201,
-        x0: 0.0,
-        y0: 0.0,
-        hx: 0.05 * MM,
-        hy: 0.05 * MM,
-    };
+    let grid = Grid::regular([0.0, 0.0], [0.05 * MM, 0.05 * MM], [401, 201]);
     let mut values = line_charge(&grid, [6.0 * MM, 5.0 * MM]);
     for j in 0..grid.ny {
         for i in 0..grid.nx {

@@ -50,14 +50,7 @@ fn preview_paints_materials_by_permittivity_and_lists_them() {
 #[test]
 fn shapes_from_the_design_are_drawn_where_they_are() {
     use fieldgrid_solver::design::Shape;
-    let grid = Grid {
-        nx: 101,
-        ny: 101,
-        x0: 0.0,
-        y0: 0.0,
-        hx: 0.1 * MM,
-        hy: 0.1 * MM,
-    };
+    let grid = Grid::regular([0.0, 0.0], [0.1 * MM, 0.1 * MM], [101, 101]);
     let v = vec![0.0; grid.len()];
     let ring = Outline::from_shape(
         "ring",
@@ -141,14 +134,7 @@ fn frames_tell_where_the_plot_bar_and_legend_are() {
 fn shapes_reaching_past_the_axis_are_clipped_to_the_plot() {
     use fieldgrid_solver::design::Shape;
     // Axisymmetric: a sphere centred on the axis is a circle crossing r = 0.
-    let grid = Grid {
-        nx: 101,
-        ny: 101,
-        x0: 0.0,
-        y0: 0.0,
-        hx: 0.1 * MM,
-        hy: 0.1 * MM,
-    };
+    let grid = Grid::regular([0.0, 0.0], [0.1 * MM, 0.1 * MM], [101, 101]);
     let v = vec![0.5; grid.len()];
     let tol = Outline::picture_tolerance([0.0, 10.0 * MM], [0.0, 10.0 * MM]);
     let sphere = [Outline::from_shape(

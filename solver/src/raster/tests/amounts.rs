@@ -9,8 +9,8 @@ use super::*;
 fn rebuilt_area(r: &Raster, axis: Axis) -> f64 {
     let g = &r.grid;
     let (h_along, h_across) = match axis {
-        Axis::Y => (g.hy, g.hx),
-        Axis::X => (g.hx, g.hy),
+        Axis::Y => (g.dy(0), g.dx(0)),
+        Axis::X => (g.dx(0), g.dy(0)),
     };
     let step = if axis == Axis::X { 1 } else { g.nx };
     let mut len = 0.0;
@@ -147,7 +147,7 @@ fn region_charge_sums_to_density_times_area() {
         // No node holds more than its full control volume.
         for &(p, q) in &r.node_charge {
             assert!(
-                q > -1e-18 && q <= 2.5e-4 * g.hx * g.hy * (1.0 + 1e-9),
+                q > -1e-18 && q <= 2.5e-4 * g.dx(0) * g.dy(0) * (1.0 + 1e-9),
                 "node {p}: {q}"
             );
         }

@@ -188,7 +188,7 @@ fn check_invariants(d: &Design, r: &Raster) {
             for j in 0..g.ny {
                 let (x, y) = (g.x(i), g.y(j));
                 // Nodes within SNAP of a surface may have joined the conductor.
-                if distance(&o, [x, y]) < super::SNAP * g.hx.max(g.hy) {
+                if distance(&o, [x, y]) < super::SNAP * g.dx(0).max(g.dy(0)) {
                     continue;
                 }
                 let p = g.idx(i, j);

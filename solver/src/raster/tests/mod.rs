@@ -122,7 +122,7 @@ fn circle_half_links_end_on_the_circle() {
             let p = surface_point(&g, e, from_a);
             // A node within SNAP of the surface joined the conductor: the link ends there.
             let tol = if h.theta == 1.0 {
-                super::SNAP * g.hx.max(g.hy)
+                super::SNAP * g.dx(0).max(g.dy(0))
             } else {
                 1e-12
             };
@@ -231,7 +231,7 @@ fn polyline_gives_theta_and_one_minus_theta() {
         let (a, b) = (e.from_a.unwrap(), e.from_b.unwrap());
         assert_eq!((a.ends_on, b.ends_on), (Some(0), Some(0)));
         let ya = g.y(e.node as usize / g.nx);
-        assert!((a.theta - (y - ya) / g.hy).abs() < 1e-12);
+        assert!((a.theta - (y - ya) / g.dy(0)).abs() < 1e-12);
         assert!((a.theta + b.theta - 1.0).abs() < 1e-12);
         cols += 1;
     }
