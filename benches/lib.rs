@@ -8,6 +8,8 @@
 //! the face-length-weighted mean of the two cells it crosses, times EPS0), which needs no
 //! rasteriser and serves as a cross-check.
 
+pub mod graded;
+
 use fieldgrid_solver::grid::Grid;
 use fieldgrid_solver::stencil::Stencil5;
 use fieldgrid_solver::{operator, raster, EPS0};
