@@ -28,6 +28,9 @@ pub enum Command {
     Compare(CompareArgs),
     /// Solve a design over a grid of parameter values, optionally one shard of it.
     Sweep(SweepArgs),
+    /// Find the value of a design parameter that brings a result to a wanted value (several
+    /// results with as many parameters at once).
+    Target(TargetArgs),
 }
 
 /// Linear solver choice on the command line.
@@ -142,6 +145,74 @@ pub struct SolveArgs {
     /// post-processing, pictures, files) to standard error when done.
     #[arg(long)]
     pub timings: bool,
+    /// Sensitivities and tolerances.
+    #[command(flatten)]
+    pub sens: SensitivityArgs,
+    /// Solver options.
+    #[command(flatten)]
+    pub opts: SolveOptions,
+}
+
+/// Sensitivities and tolerances of a solve's results.
+#[derive(Args, Debug, Clone, Default)]
+pub struct SensitivityArgs {
+    /// Also the derivative of every reported quantity with respect to the design's
+    /// parameters (central differences of paired solves): every parameter, or those named.
+    /// Written to summary.json `sensitivities` and sensitivities.csv.
+    #[arg(long, value_name = "NAME[,NAME...]", num_args = 0..=1, value_delimiter = ',')]
+    pub sensitivity: Option<Vec<String>>,
+    /// NAME=VALUE: the parameter may lie within +/- VALUE (design units) of its value. Gives
+    /// every quantity's worst case, RSS spread and dominant parameter (tolerances.csv,
+    /// summary.json `tolerances`). Repeat for several; a design's `[tolerances]` table
+    /// gives them too.
+    #[arg(long = "tolerance", value_name = "NAME=VALUE")]
+    pub tolerance: Vec<String>,
+    /// Also solve N points with every toleranced parameter drawn uniformly within its
+    /// tolerance (seeded: the same seed gives the same results).
+    #[arg(long, value_name = "N")]
+    pub monte_carlo: Option<usize>,
+    /// Seed of --monte-carlo.
+    #[arg(long, default_value_t = 1, value_name = "SEED")]
+    pub seed: u64,
+}
+
+/// `fieldgrid target`.
+#[derive(Args, Debug)]
+pub struct TargetArgs {
+    /// The design file (TOML).
+    pub design: PathBuf,
+    /// Parameter values.
+    #[command(flatten)]
+    pub set: SetArgs,
+    /// The result to bring to --value, named as `compare` names it (C[a,b], Q[a], F[a],
+    /// V[a], energy, peak_field), worst_margin, or with --signal Z0, eps_eff, Z_odd,
+    /// Z_even, Z_diff. Repeat for several targets.
+    #[arg(long, value_name = "Q", required = true)]
+    pub quantity: Vec<String>,
+    /// The wanted value, SI (ohm, F/m, F, V/m; a ratio for eps_eff and worst_margin), one
+    /// per --quantity in order.
+    #[arg(long, value_name = "X", required = true, allow_hyphen_values = true)]
+    pub value: Vec<f64>,
+    /// NAME=LO:HI: the parameter adjusted, and the values it may take (design units), one
+    /// per --quantity in order.
+    #[arg(long, value_name = "NAME=LO:HI", required = true)]
+    pub vary: Vec<String>,
+    /// The signal conductors, for line quantities (as for `impedance`).
+    #[arg(long, value_delimiter = ',', value_name = "NAME[,NAME...]")]
+    pub signal: Vec<String>,
+    /// Stop when a quantity is within this of its value (SI; one per --quantity). Default:
+    /// the quantity's estimated discretisation error.
+    #[arg(long, value_name = "X")]
+    pub value_tol: Vec<f64>,
+    /// Most solves of the search (a line study counts as one).
+    #[arg(long, default_value_t = 40, value_name = "N")]
+    pub max_solves: usize,
+    /// Directory for target.json and the final solve's files (created if missing).
+    #[arg(long)]
+    pub out: PathBuf,
+    /// Picture options.
+    #[command(flatten)]
+    pub pictures: PictureArgs,
     /// Solver options.
     #[command(flatten)]
     pub opts: SolveOptions,
@@ -188,6 +259,9 @@ pub struct ImpedanceArgs {
     /// Picture options.
     #[command(flatten)]
     pub pictures: PictureArgs,
+    /// Sensitivities and tolerances.
+    #[command(flatten)]
+    pub sens: SensitivityArgs,
     /// Solver options.
     #[command(flatten)]
     pub opts: SolveOptions,

@@ -49,11 +49,12 @@ where
         }
     };
     let result = match &cli.command {
-        args::Command::Solve(a) => commands::solve::run(a),
+        args::Command::Solve(a) => commands::sensitivities::solve(a),
         args::Command::Check(a) => commands::check::run(a),
-        args::Command::Impedance(a) => commands::impedance::run(a),
+        args::Command::Impedance(a) => commands::sensitivities::impedance(a),
         args::Command::Compare(a) => commands::compare::run(a),
         args::Command::Sweep(a) => commands::sweep::run(a),
+        args::Command::Target(a) => commands::target::run(a),
     };
     match result {
         Ok(code) => ExitCode::from(code),

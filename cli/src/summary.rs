@@ -57,6 +57,15 @@ pub struct Summary {
     /// Transmission-line parameters (the `impedance` command).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub line: Option<serde_json::Value>,
+    /// `--sensitivity`: parameter -> quantity -> derivative (SI per design unit).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub sensitivities: Option<serde_json::Value>,
+    /// `--sensitivity`: parameter -> difference step (design units).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub sensitivity_steps: Option<serde_json::Value>,
+    /// `--tolerance`: each quantity's worst case, RSS spread, dominant parameter.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub tolerances: Option<serde_json::Value>,
 }
 
 /// The drawn part and the whole part: symmetry sides mirror the drawn design.
@@ -398,6 +407,9 @@ impl Summary {
             warnings: Vec::new(),
             warning_details: Vec::new(),
             line: None,
+            sensitivities: None,
+            sensitivity_steps: None,
+            tolerances: None,
         };
         sol.warnings.iter().for_each(|w| summary.warn(w));
         summary

@@ -13,4 +13,5 @@ mod robustness;
 mod spice;
 mod svg_import;
 mod sweep;
+mod target;
 mod vtk;

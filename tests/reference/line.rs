@@ -52,7 +52,7 @@ fn cohn_coupled(w: f64, s: f64, b: f64, eps_r: f64) -> (f64, f64) {
 /// (1980) 407-409, eqs. for Z01(u) (stated accuracy 0.01 % for u <= 1, 0.03 % for
 /// u <= 1000) and eps_eff(u, eps_r) (0.2 %); cited from memory of the paper's equations.
 /// Returns (Z0, eps_eff, Z0 in air).
-fn hammerstad_jensen(u: f64, eps_r: f64) -> (f64, f64, f64) {
+pub(crate) fn hammerstad_jensen(u: f64, eps_r: f64) -> (f64, f64, f64) {
     let f = 6.0 + (2.0 * PI - 6.0) * (-(30.666 / u).powf(0.7528)).exp();
     let z01 = eta0() / (2.0 * PI) * (f / u + (1.0 + 4.0 / (u * u)).sqrt()).ln();
     let a = 1.0

@@ -3,6 +3,7 @@
 //! family of cases; shared designs and helpers live in `tests/support/`.
 
 mod axisymmetric;
+mod design_targets;
 mod floating;
 mod hotspots;
 mod line;

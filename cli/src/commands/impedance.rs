@@ -20,8 +20,24 @@ use fieldgrid_solver::warning::Warning;
 use serde_json::{json, Value};
 use std::time::Instant;
 
+/// More results computed around the nominal line study (sensitivities, tolerances): given
+/// the design as read and the study, it adds to the summary and writes its own files into
+/// the results directory before the summary is written, and returns the lines to print after
+/// the report.
+pub type Extra<'a> = &'a dyn Fn(
+    &crate::design_file::DesignSource,
+    &line_study::LineStudy,
+    &mut Summary,
+    &OutDir,
+) -> Result<String, Failure>;
+
 /// Runs the command, returning the exit code.
 pub fn run(args: &ImpedanceArgs) -> Result<u8, Failure> {
+    run_with(args, None)
+}
+
+/// Runs the command with `extra` results, returning the exit code.
+pub fn run_with(args: &ImpedanceArgs, extra: Option<Extra>) -> Result<u8, Failure> {
     let src = load_design(&args.design, &super::parameter_overrides(&args.set)?)?;
     let design = &src.design;
     if design.mode != Mode::Planar {
@@ -43,17 +59,50 @@ pub fn run(args: &ImpedanceArgs) -> Result<u8, Failure> {
     let ls = with_threads(args.opts.threads, || {
         line_study::run_planned(design, &plan, &args.signal, &params)
     })?
-    .map_err(|e| match e {
-        LineStudyError::Study(e) => study_failure(&src, e),
-        LineStudyError::Signals(e) => signal_failure(design, &args.signal, &e),
-        e => Failure::input(format!("--signal {}: {e}", args.signal.join(","))),
-    })?;
+    .map_err(|e| line_failure(&src, &args.signal, e))?;
     let seconds = start.elapsed().as_secs_f64();
     if !args.opts.quiet && std::io::IsTerminal::is_terminal(&std::io::stderr()) {
         eprint!("\r{:60}\r", "");
     }
-    let (sol, sol0, lp, errors) = (&ls.solution, &ls.vacuum, &ls.line, &ls.errors);
+    let mut summary = line_summary(&src, &ls, &args.signal, seconds);
+    let extra_text = match extra {
+        Some(f) => Some(f(&src, &ls, &mut summary, &out)?),
+        None => None,
+    };
+    write_line_results(&out, &src, &ls, &summary, &args.pictures)?;
+    out.commit()?;
+    if !args.opts.quiet {
+        print!(
+            "{}",
+            report(
+                &args.signal,
+                &ls.mirrored,
+                &ls.line,
+                &ls.errors,
+                &summary,
+                &out
+            )
+        );
+        if let Some(text) = &extra_text {
+            print!("{text}");
+        }
+    }
+    if !summary.solver.converged {
+        return Ok(EXIT_NOT_CONVERGED);
+    }
+    Ok(EXIT_OK)
+}
 
+/// The summary of a line study: the design's own study, the vacuum study's solver record
+/// and warnings folded in, and the line parameters under `line`.
+pub fn line_summary(
+    src: &crate::design_file::DesignSource,
+    ls: &line_study::LineStudy,
+    signals: &[String],
+    seconds: f64,
+) -> Summary {
+    let (sol, sol0, lp, errors) = (&ls.solution, &ls.vacuum, &ls.line, &ls.errors);
+    let design = &src.design;
     let mut warnings = ls.warnings.clone();
     for w in &sol0.warnings {
         // The same sentence as the design's own study says nothing new.
@@ -62,7 +111,7 @@ pub fn run(args: &ImpedanceArgs) -> Result<u8, Failure> {
         }
     }
     let mut summary = Summary::from_solution(sol, design.depth, seconds, &src.text_hash);
-    summary.parameters = crate::summary::parameters(&src);
+    summary.parameters = crate::summary::parameters(src);
     warnings.iter().for_each(|w| summary.warn(w));
     summary.solver.converged &= sol0.solve.converged;
     summary.solver.solves += sol0.solve.solves;
@@ -74,30 +123,45 @@ pub fn run(args: &ImpedanceArgs) -> Result<u8, Failure> {
     if summary.solver.failure.is_none() {
         summary.solver.failure = sol0.solve.failure.as_ref().map(|f| f.to_string());
     }
-    summary.line = Some(line_json(&args.signal, &ls.mirrored, lp, errors));
-    write_results(&out, sol, &summary, design, false)?;
-    out.write("line.csv", &line_csv(lp, errors))?;
+    summary.line = Some(line_json(signals, &ls.mirrored, lp, errors));
+    summary
+}
+
+/// Writes the files of a line study (everything `solve` writes for the design as drawn,
+/// and line.csv) into `out`, with `summary` as summary.json.
+pub fn write_line_results(
+    out: &OutDir,
+    src: &crate::design_file::DesignSource,
+    ls: &line_study::LineStudy,
+    summary: &Summary,
+    pictures: &crate::args::PictureArgs,
+) -> Result<(), Failure> {
+    write_results(out, &ls.solution, summary, &src.design, false)?;
+    out.write("line.csv", &line_csv(&ls.line, &ls.errors))?;
     let (potential_png, field_png) =
-        crate::pictures::field_maps(&src, sol, false, &args.pictures.render_options());
+        crate::pictures::field_maps(src, &ls.solution, false, &pictures.render_options());
     out.write_png("potential.png", &potential_png)?;
     out.write_png("field.png", &field_png)?;
-    out.commit()?;
-    if !args.opts.quiet {
-        print!(
-            "{}",
-            report(&args.signal, &ls.mirrored, lp, errors, &summary, &out)
-        );
-    }
-    if !summary.solver.converged {
-        return Ok(EXIT_NOT_CONVERGED);
-    }
-    Ok(EXIT_OK)
+    Ok(())
 }
 
 /// Every signal names a distinct conductor with a fixed potential; the message for the user
 /// when one does not.
 pub fn check_signals(design: &Design, signals: &[String]) -> Result<(), Failure> {
     line_study::check_signals(design, signals).map_err(|e| signal_failure(design, signals, &e))
+}
+
+/// Maps a line study's failure to the user's message.
+pub fn line_failure(
+    src: &crate::design_file::DesignSource,
+    signals: &[String],
+    e: LineStudyError,
+) -> Failure {
+    match e {
+        LineStudyError::Study(e) => study_failure(src, e),
+        LineStudyError::Signals(e) => signal_failure(&src.design, signals, &e),
+        e => Failure::input(format!("--signal {}: {e}", signals.join(","))),
+    }
 }
 
 fn signal_failure(design: &Design, signals: &[String], e: &SignalError) -> Failure {

@@ -3,9 +3,12 @@
 
 pub mod check;
 pub mod compare;
+pub mod evaluate;
 pub mod impedance;
+pub mod sensitivities;
 pub mod solve;
 pub mod sweep;
+pub mod target;
 
 use crate::args::SolveOptions;
 use crate::design_file::{self, DesignSource};

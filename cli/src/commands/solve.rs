@@ -2,6 +2,7 @@
 
 use super::{load_design, study_params, with_threads};
 use crate::args::SolveArgs;
+use crate::design_file::DesignSource;
 use crate::error::Failure;
 use crate::outdir::{csv_bytes, num, png_bytes, OutDir};
 use crate::summary::Summary;
@@ -11,10 +12,22 @@ use fieldgrid_solver::study::{self, Solution, StudyError};
 use std::sync::Arc;
 use std::time::Instant;
 
+/// More results computed around the nominal solve (sensitivities, tolerances): given the
+/// design as read, it adds to the summary and writes its own files into the results
+/// directory before the summary is written, and returns the lines to print after the
+/// report.
+pub type Extra<'a> = &'a dyn Fn(&DesignSource, &mut Summary, &OutDir) -> Result<String, Failure>;
+
 /// Runs the command, returning the exit code; with `--timings`, prints the stage times.
 pub fn run(args: &SolveArgs) -> Result<u8, Failure> {
+    run_with(args, None)
+}
+
+/// Runs the command with `extra` results, returning the exit code; with `--timings`,
+/// prints the stage times.
+pub fn run_with(args: &SolveArgs, extra: Option<Extra>) -> Result<u8, Failure> {
     let timings = Timings::new();
-    let code = run_timed(args, &timings)?;
+    let code = run_timed_with(args, &timings, extra)?;
     if args.timings {
         eprint!("{}", timings.table());
     }
@@ -23,6 +36,15 @@ pub fn run(args: &SolveArgs) -> Result<u8, Failure> {
 
 /// Runs the command, recording the time of each stage in `timings`.
 pub fn run_timed(args: &SolveArgs, timings: &Arc<Timings>) -> Result<u8, Failure> {
+    run_timed_with(args, timings, None)
+}
+
+/// [`run_timed`] with `more` results.
+pub fn run_timed_with(
+    args: &SolveArgs,
+    timings: &Arc<Timings>,
+    more: Option<Extra>,
+) -> Result<u8, Failure> {
     let src = timings.time("read", || {
         load_design(&args.design, &super::parameter_overrides(&args.set)?)
     })?;
@@ -64,6 +86,10 @@ pub fn run_timed(args: &SolveArgs, timings: &Arc<Timings>) -> Result<u8, Failure
     let mut summary = Summary::from_solution(&sol, src.design.depth, seconds, &src.text_hash);
     summary.parameters = crate::summary::parameters(&src);
     summary.part = Some(crate::summary::PartSummary::of(&src.design));
+    let extra_text = match more {
+        Some(f) => Some(f(&src, &mut summary, &out)?),
+        None => None,
+    };
     timings.time("results", || {
         write_results(&out, &sol, &summary, &src.design, args.field_table)
     })?;
@@ -103,12 +129,15 @@ pub fn run_timed(args: &SolveArgs, timings: &Arc<Timings>) -> Result<u8, Failure
     timings.time("commit", || out.commit())?;
     if !args.opts.quiet {
         print!("{}", report(&sol, &summary, &out));
+        if let Some(text) = &extra_text {
+            print!("{text}");
+        }
         match &circuit {
             Ok(net) => net.warnings.iter().for_each(|w| println!("warning: {w}")),
             Err(why) => println!("note: {}", crate::spice::no_export(*why)),
         }
     }
-    if !sol.solve.converged {
+    if !summary.solver.converged {
         return Ok(EXIT_NOT_CONVERGED);
     }
     if let Some(min) = args.min_margin {

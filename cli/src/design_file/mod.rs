@@ -46,6 +46,8 @@ pub struct DesignSource {
     pub text_hash: String,
     /// The parameter values used (overrides applied), in file order, in the file's units.
     pub parameters: Vec<(String, f64)>,
+    /// `[tolerances]`: (parameter, +/- tolerance in the file's units), in file order.
+    pub tolerances: Vec<(String, f64)>,
     /// The file name as given.
     pub file: String,
     text: String,
@@ -113,6 +115,7 @@ pub fn read_design(
         params: Vec::new(),
     };
     let (design, unit) = r.design(&tree, overrides)?;
+    let tolerances = r.tolerances(&tree)?;
     let parameters = std::mem::take(&mut r.params);
     if let Err(e) = design::validate(&design) {
         return Err(design_error(text, file, &tree, &e, unit));
@@ -122,6 +125,7 @@ pub fn read_design(
         unit,
         text_hash: text_hash(text),
         parameters,
+        tolerances,
         file: file.to_string(),
         text: text.to_string(),
         tree,

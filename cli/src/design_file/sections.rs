@@ -30,6 +30,7 @@ pub(super) const TOP_KEYS: &[&str] = &[
     "sides",
     "background",
     "parameters",
+    "tolerances",
     "conductor",
     "dielectric",
     "charge",
@@ -222,6 +223,52 @@ impl Reader<'_> {
             ));
         }
         Ok(())
+    }
+
+    /// `[tolerances]`: NAME = VALUE, each a parameter's tolerance (+/- VALUE, in the
+    /// file's units), a positive number.
+    pub(super) fn tolerances(&self, root: &Node) -> Res<Vec<(String, f64)>> {
+        let Some(e) = root.entries().and_then(|top| get(top, "tolerances")) else {
+            return Ok(Vec::new());
+        };
+        let Some(entries) = e.node.entries() else {
+            return Err(self.wrong_type(&e.node, "tolerances", "a table"));
+        };
+        let mut out = Vec::new();
+        for t in entries {
+            let key = join("tolerances", &t.key);
+            if !self.params.iter().any(|(p, _)| *p == t.key) {
+                let names: Vec<&str> = self.params.iter().map(|(p, _)| p.as_str()).collect();
+                return Err(self.err(
+                    &t.key_span,
+                    &key,
+                    format!(
+                        "`{}` is not a parameter of the design (tolerances are given for \
+                         [parameters]{})",
+                        t.key,
+                        if names.is_empty() {
+                            String::new()
+                        } else {
+                            format!(": {}", list(&names))
+                        }
+                    ),
+                ));
+            }
+            let v = match t.node.kind {
+                Kind::Int(i) => i as f64,
+                Kind::Float(f) => f,
+                _ => return Err(self.wrong_type(&t.node, &key, "a number")),
+            };
+            if !(v.is_finite() && v > 0.0) {
+                return Err(self.err(
+                    &t.node.span,
+                    &key,
+                    format!("a tolerance must be a positive number, got {v}"),
+                ));
+            }
+            out.push((t.key.clone(), v));
+        }
+        Ok(out)
     }
 
     pub(super) fn grid(&self, node: &Node) -> Res<Domain> {

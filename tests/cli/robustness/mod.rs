@@ -31,6 +31,7 @@ fn failure_of(args: &[&str]) -> Result<u8, (u8, String)> {
         Cmd::Impedance(a) => commands::impedance::run(a),
         Cmd::Compare(a) => commands::compare::run(a),
         Cmd::Sweep(a) => commands::sweep::run(a),
+        Cmd::Target(a) => commands::target::run(a),
     };
     r.map_err(|f| (f.code, f.message))
 }

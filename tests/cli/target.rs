@@ -1,0 +1,347 @@
+//! `fieldgrid target` and the `--sensitivity`, `--tolerance` and `--monte-carlo` options:
+//! refusals (a target outside the bracket, unknown names, mismatched options), several
+//! targets met at once, the design file's `[tolerances]`, and seeded, reproducible Monte
+//! Carlo runs.
+
+use clap::Parser;
+use fieldgrid_cli::args::{Cli, Command as Cmd};
+use fieldgrid_cli::commands;
+use fieldgrid_tests::cli::{expect, read_json, run, s, scratch, summary, write};
+
+/// The prefix of this file's scratch directories.
+const SCRATCH: &str = "fieldgrid-target";
+
+/// Runs `target`, `solve` or `impedance` in-process and returns its failure (code,
+/// message), or its exit code.
+fn failure_of(args: &[&str]) -> Result<u8, (u8, String)> {
+    let mut full = vec!["fieldgrid"];
+    full.extend_from_slice(args);
+    let cli = Cli::try_parse_from(full).expect("arguments parse");
+    let r = match &cli.command {
+        Cmd::Target(a) => commands::target::run(a),
+        Cmd::Solve(a) => commands::sensitivities::solve(a),
+        Cmd::Impedance(a) => commands::sensitivities::impedance(a),
+        _ => unreachable!("not used here"),
+    };
+    r.map_err(|f| (f.code, f.message))
+}
+
+/// Two plates spanning the width between mirror sides, `g` mm apart (coupling -eps0 W / g).
+const PLATES: &str = r#"
+unit = "mm"
+[parameters]
+g = 0.5
+[tolerances]
+g = 0.05
+[grid]
+x = [0.0, 4.0]
+y = [0.0, "g + 0.6"]
+cell = 0.1
+[sides]
+left = "symmetry"
+right = "symmetry"
+[[conductor]]
+name = "lower"
+potential = 0.0
+rect = { x = [0.0, 4.0], y = [0.0, 0.2] }
+[[conductor]]
+name = "upper"
+potential = 1.0
+rect = { x = [0.0, 4.0], y = ["0.2 + g", "0.4 + g"] }
+"#;
+
+#[test]
+fn a_target_outside_the_bracket_is_refused_with_the_values_at_its_ends() {
+    let dir = scratch(SCRATCH, "outside");
+    let design = write(&dir, "plates.toml", PLATES);
+    let out = dir.join("out");
+    // Between g = 0.3 and 1.5 mm the coupling runs from -1.18e-10 to -2.36e-11 F/m.
+    let (code, message) = failure_of(&[
+        "target",
+        &design,
+        "--quantity",
+        "C[lower,upper]",
+        "--value",
+        "-1e-9",
+        "--vary",
+        "g=0.3:1.5",
+        "--out",
+        s(&out),
+        "--quiet",
+    ])
+    .unwrap_err();
+    assert_eq!(code, 2, "{message}");
+    assert!(message.contains("outside the bracket"), "{message}");
+    assert!(
+        message.contains("at g = 0.3") && message.contains("at g = 1.5"),
+        "{message}"
+    );
+    assert!(message.contains("-1.1806e-10 F/m"), "{message}");
+    assert!(!out.join("target.json").exists());
+    assert!(!out.exists() || std::fs::read_dir(&out).unwrap().next().is_none());
+}
+
+#[test]
+fn target_refuses_unknown_names_and_mismatched_options() {
+    let dir = scratch(SCRATCH, "refusals");
+    let design = write(&dir, "plates.toml", PLATES);
+    let out = dir.join("out");
+    let o = s(&out);
+    let cases: [(&[&str], &str); 5] = [
+        (
+            &["--quantity", "C[a,b]", "--value", "1", "--vary", "g=0.3:1"],
+            "no such quantity",
+        ),
+        (
+            &[
+                "--quantity",
+                "energy",
+                "--value",
+                "1",
+                "--vary",
+                "gap=0.3:1",
+            ],
+            "no parameter of that name",
+        ),
+        (
+            &[
+                "--quantity",
+                "energy",
+                "--quantity",
+                "peak_field",
+                "--value",
+                "1",
+                "--vary",
+                "g=0.3:1",
+            ],
+            "as many --value and --vary",
+        ),
+        (
+            &["--quantity", "Z0", "--value", "50", "--vary", "g=0.3:1"],
+            "needs --signal",
+        ),
+        (
+            &["--quantity", "energy", "--value", "1", "--vary", "g=1:0.3"],
+            "LO must be below HI",
+        ),
+    ];
+    for (extra, want) in cases {
+        let mut args = vec!["target", design.as_str(), "--out", o, "--quiet"];
+        args.extend_from_slice(extra);
+        let (code, message) = failure_of(&args).unwrap_err();
+        assert_eq!(code, 2, "{extra:?}: {message}");
+        assert!(message.contains(want), "{extra:?}: {message}");
+    }
+    let (code, message) =
+        failure_of(&["solve", &design, "--sensitivity", "gap", "--out", o]).unwrap_err();
+    assert_eq!(code, 2);
+    assert!(message.contains("no parameter of that name"), "{message}");
+}
+
+/// The demo microstrip with its permittivity a parameter, coarse cells.
+const MICROSTRIP: &str = r#"
+unit = "mm"
+[parameters]
+h = 0.6
+w = 1.35
+eps = 3.5
+room = 3.0
+[grid]
+x = [0.0, "w/2 + room"]
+y = [0.0, "h + room"]
+cell = 0.03
+[sides]
+left = "symmetry"
+right = "open"
+top = "open"
+bottom = "ground"
+[[dielectric]]
+name = "laminate"
+permittivity = "eps"
+rect = { x = [0.0, "w/2 + room"], y = [0.0, "h"] }
+[[conductor]]
+name = "trace"
+potential = 1.0
+polyline = [[0.0, "h"], ["w/2", "h"]]
+"#;
+
+#[test]
+fn two_targets_are_met_with_two_parameters_at_once() {
+    let dir = scratch(SCRATCH, "two");
+    let design = write(&dir, "microstrip.toml", MICROSTRIP);
+    let out = dir.join("out");
+    expect(
+        run(&[
+            "target",
+            &design,
+            "--signal",
+            "trace",
+            "--quantity",
+            "Z0",
+            "--value",
+            "45",
+            "--vary",
+            "w=1.0:2.5",
+            "--quantity",
+            "eps_eff",
+            "--value",
+            "3.2",
+            "--vary",
+            "eps=3.0:5.0",
+            "--out",
+            s(&out),
+            "--quiet",
+        ]),
+        0,
+    );
+    let t = read_json(&out.join("target.json"));
+    let targets = t["targets"].as_array().unwrap();
+    assert_eq!(targets.len(), 2);
+    for x in targets {
+        let (achieved, wanted) = (
+            x["achieved"].as_f64().unwrap(),
+            x["target"].as_f64().unwrap(),
+        );
+        assert!(
+            (achieved - wanted).abs() <= x["tolerance"].as_f64().unwrap(),
+            "{x}"
+        );
+    }
+    // An independent solve at the values found gives both.
+    let check = dir.join("check");
+    let sets: Vec<String> = targets
+        .iter()
+        .map(|x| format!("{}={}", x["parameter"].as_str().unwrap(), x["value"]))
+        .collect();
+    expect(
+        run(&[
+            "impedance",
+            &design,
+            "--signal",
+            "trace",
+            "--set",
+            &sets[0],
+            "--set",
+            &sets[1],
+            "--out",
+            s(&check),
+            "--quiet",
+        ]),
+        0,
+    );
+    let line = &summary(&check)["line"];
+    for (x, key) in targets.iter().zip(["z0", "eps_eff"]) {
+        let v = line[key].as_f64().unwrap();
+        assert!(
+            (v - x["target"].as_f64().unwrap()).abs() <= x["tolerance"].as_f64().unwrap(),
+            "{key} = {v}"
+        );
+    }
+}
+
+fn coupling_tolerances(
+    dir: &std::path::Path,
+    name: &str,
+    extra: &[&str],
+) -> (Vec<u8>, serde_json::Value) {
+    let design = write(dir, "plates.toml", PLATES);
+    let out = dir.join(name);
+    let mut args = vec![
+        "solve",
+        design.as_str(),
+        "--out",
+        s(&out),
+        "--quiet",
+        "--no-error-estimate",
+    ];
+    args.extend_from_slice(extra);
+    expect(run(&args), 0);
+    (
+        std::fs::read(out.join("tolerances.csv")).unwrap(),
+        summary(&out),
+    )
+}
+
+#[test]
+fn monte_carlo_is_seeded_and_reproducible_bit_for_bit() {
+    let dir = scratch(SCRATCH, "monte-carlo");
+    let mc = |name: &str, seed: &str| {
+        coupling_tolerances(
+            &dir,
+            name,
+            &[
+                "--tolerance",
+                "g=0.05",
+                "--monte-carlo",
+                "4",
+                "--seed",
+                seed,
+            ],
+        )
+    };
+    let (a, sa) = mc("a", "7");
+    let (b, _) = mc("b", "7");
+    let (c, _) = mc("c", "8");
+    assert_eq!(a, b, "the same seed gives the same table");
+    assert_ne!(a, c, "another seed draws other points");
+    let q = &sa["tolerances"]["quantities"]["C[lower,upper]"];
+    let m = &q["monte_carlo"];
+    assert_eq!(m["count"], 4);
+    // Every drawn gap lies within 0.45..0.55 mm, so every coupling within the values there
+    // (the coupling is monotonic in the gap).
+    let (lo, hi) = (
+        q["worst_low"].as_f64().unwrap(),
+        q["worst_high"].as_f64().unwrap(),
+    );
+    let slack = 0.02 * (hi - lo);
+    assert!(
+        m["min"].as_f64().unwrap() >= lo - slack && m["max"].as_f64().unwrap() <= hi + slack,
+        "{q}"
+    );
+    assert_eq!(sa["tolerances"]["monte_carlo"]["seed"], 7);
+}
+
+#[test]
+fn design_file_tolerances_are_used_and_the_command_line_replaces_them() {
+    let dir = scratch(SCRATCH, "design-file");
+    // The design's [tolerances] alone ask for nothing; --sensitivity brings them in.
+    let design = write(&dir, "plates.toml", PLATES);
+    let plain = dir.join("plain");
+    expect(
+        run(&[
+            "solve",
+            &design,
+            "--out",
+            s(&plain),
+            "--quiet",
+            "--no-error-estimate",
+        ]),
+        0,
+    );
+    assert!(summary(&plain).get("tolerances").is_none());
+    let (_, from_file) = coupling_tolerances(&dir, "file", &["--sensitivity"]);
+    assert_eq!(from_file["tolerances"]["parameters"]["g"], 0.05);
+    let (_, replaced) = coupling_tolerances(&dir, "cli", &["--tolerance", "g=0.1"]);
+    assert_eq!(replaced["tolerances"]["parameters"]["g"], 0.1);
+    // Twice the tolerance, twice the linear spread.
+    let spread = |s: &serde_json::Value| {
+        let q = &s["tolerances"]["quantities"]["C[lower,upper]"];
+        q["worst_high"].as_f64().unwrap() - q["worst_low"].as_f64().unwrap()
+    };
+    assert!((spread(&replaced) / spread(&from_file) - 2.0).abs() < 1e-9);
+    for (bad, want) in [
+        ("[tolerances]\nnope = 0.1\n", "not a parameter"),
+        ("[tolerances]\ng = -0.1\n", "positive number"),
+        ("[tolerances]\ng = \"x\"\n", "expected a number"),
+    ] {
+        let text = PLATES.replace("[tolerances]\ng = 0.05\n", bad);
+        let path = write(&dir, "bad.toml", &text);
+        let (code, message) =
+            failure_of(&["solve", &path, "--out", s(&dir.join("bad")), "--quiet"]).unwrap_err();
+        assert_eq!(code, 2, "{message}");
+        assert!(
+            message.contains(want) && message.contains("tolerances"),
+            "{message}"
+        );
+    }
+}

@@ -1,0 +1,357 @@
+//! Design targets, sensitivities and tolerances (`fieldgrid target`, `--sensitivity`,
+//! `--tolerance`) against closed forms: the parallel-plate gap for a wanted capacitance, the
+//! microstrip width for 50 ohm against Hammerstad and Jensen's formulas, the coaxial line's
+//! dC/da against the derivative of its exact capacitance and against independent solves, and
+//! the microstrip's worst case and RSS spread against the closed form's derivatives. Each
+//! check names its source beside it.
+
+use crate::line::hammerstad_jensen;
+use fieldgrid_solver::EPS0;
+use fieldgrid_tests::cli::{expect, read_json, run, s, scratch, summary, write};
+use std::f64::consts::PI;
+
+/// The prefix of this file's scratch directories.
+const SCRATCH: &str = "fieldgrid-targets";
+
+/// Two plates spanning the whole width between mirror sides, `g` mm apart: the field
+/// between them is uniform, so the coupling per metre is exactly eps0 W / g (W = 4 mm).
+const PLATES: &str = r#"
+unit = "mm"
+[parameters]
+g = 0.5
+[grid]
+x = [0.0, 4.0]
+y = [0.0, "g + 0.6"]
+cell = 0.1
+[sides]
+left = "symmetry"
+right = "symmetry"
+[[conductor]]
+name = "lower"
+potential = 0.0
+rect = { x = [0.0, 4.0], y = [0.0, 0.2] }
+[[conductor]]
+name = "upper"
+potential = 1.0
+rect = { x = [0.0, 4.0], y = ["0.2 + g", "0.4 + g"] }
+"#;
+
+#[test]
+fn plate_gap_for_a_wanted_capacitance_matches_the_closed_form() {
+    let dir = scratch(SCRATCH, "gap");
+    let design = write(&dir, "plates.toml", PLATES);
+    let out = dir.join("out");
+    // Maxwell coupling C[lower,upper] = -eps0 W / g (uniform field between the plates:
+    // common practice, the parallel-plate capacitor without fringing, which the mirror sides
+    // remove). Wanted -5e-11 F/m: g = eps0 * 4e-3 / 5e-11 = 0.7083 mm.
+    let wanted = -5e-11;
+    let value = wanted.to_string();
+    expect(
+        run(&[
+            "target",
+            &design,
+            "--quantity",
+            "C[lower,upper]",
+            "--value",
+            &value,
+            "--vary",
+            "g=0.3:1.5",
+            "--value-tol",
+            "1e-15",
+            "--out",
+            s(&out),
+            "--quiet",
+        ]),
+        0,
+    );
+    let t = read_json(&out.join("target.json"));
+    let g = t["value"].as_f64().unwrap();
+    let want_g = EPS0 * 4e-3 / -wanted * 1e3;
+    println!("gap for C = {wanted:e} F/m: {g:.6} mm (closed form {want_g:.6} mm), {t}");
+    assert_eq!(t["parameter"], "g");
+    assert!((t["achieved"].as_f64().unwrap() - wanted).abs() <= 1e-15);
+    // The cut-cell operator holds a linear potential exactly, so only the solver tolerance
+    // (1e-8 relative residual) and the value tolerance (2e-5 relative) separate them.
+    assert!(
+        (g - want_g).abs() / want_g < 1e-4,
+        "gap {g} mm, closed form {want_g} mm"
+    );
+    // The final solve's files sit beside target.json, at the gap found.
+    let sum = summary(&out);
+    let p = &sum["parameters"][0];
+    assert_eq!(
+        (p["name"].as_str(), p["value"].as_f64()),
+        (Some("g"), Some(g))
+    );
+}
+
+/// H&J's Z0 of a zero-thickness microstrip of width w on height h (same units).
+fn hj_z0(w: f64, h: f64, eps_r: f64) -> f64 {
+    hammerstad_jensen(w / h, eps_r).0
+}
+
+/// The width ratio u = w/h for which H&J's Z0 is `z0` (bisection: Z0 falls with u).
+fn hj_synthesis(z0: f64, eps_r: f64) -> f64 {
+    let (mut lo, mut hi) = (0.1, 10.0);
+    for _ in 0..100 {
+        let mid = 0.5 * (lo + hi);
+        if hj_z0(mid, 1.0, eps_r) > z0 {
+            lo = mid;
+        } else {
+            hi = mid;
+        }
+    }
+    0.5 * (lo + hi)
+}
+
+#[test]
+fn microstrip_width_for_50_ohm_matches_hammerstad_jensen() {
+    let dir = scratch(SCRATCH, "microstrip");
+    let out = dir.join("out");
+    let design = fieldgrid_tests::designs::demo_path("microstrip.toml");
+    expect(
+        run(&[
+            "target",
+            &design,
+            "--signal",
+            "trace",
+            "--quantity",
+            "Z0",
+            "--value",
+            "50",
+            "--vary",
+            "w=0.8:2.0",
+            "--out",
+            s(&out),
+            "--quiet",
+        ]),
+        0,
+    );
+    let t = read_json(&out.join("target.json"));
+    let w = t["value"].as_f64().unwrap();
+    let achieved = t["achieved"].as_f64().unwrap();
+    let err = t["error_estimate"].as_f64().unwrap();
+    let f_tol = t["tolerance"].as_f64().unwrap();
+    assert!((achieved - 50.0).abs() <= f_tol, "{t}");
+    // The demo: h = 0.6 mm, eps_r = 3.5. E. Hammerstad, O. Jensen, "Accurate models for
+    // microstrip computer-aided design", IEEE MTT-S 1980 (Z01 and eps_eff, inverted here by
+    // bisection). The width may differ by the Z0 difference the line reference accepts
+    // between solver and closed form (1 %, `line.rs`), plus the search's tolerance and the
+    // estimated discretisation error, turned into width by H&J's dZ0/dw.
+    let (h, eps_r) = (0.6, 3.5);
+    let w_hj = hj_synthesis(50.0, eps_r) * h;
+    let dz_dw = (hj_z0(w_hj + 1e-4, h, eps_r) - hj_z0(w_hj - 1e-4, h, eps_r)) / 2e-4;
+    let allowed = (0.01 * 50.0 + f_tol + err) / dz_dw.abs();
+    println!(
+        "50 ohm microstrip: w = {w:.5} mm, H&J {w_hj:.5} mm (allowed +/- {allowed:.4} mm), {t}"
+    );
+    assert!((w - w_hj).abs() <= allowed, "w {w} mm, H&J {w_hj} mm");
+    // An independent solve at the width found gives the same impedance.
+    let check = dir.join("check");
+    let set = format!("w={w}");
+    expect(
+        run(&[
+            "impedance",
+            &design,
+            "--signal",
+            "trace",
+            "--set",
+            &set,
+            "--out",
+            s(&check),
+            "--quiet",
+        ]),
+        0,
+    );
+    let z = summary(&check)["line"]["z0"].as_f64().unwrap();
+    assert!((z - 50.0).abs() <= f_tol, "independent solve: Z0 = {z} ohm");
+}
+
+/// The coaxial line of `tests/support/designs.rs` with its radii as parameters.
+const COAX: &str = r#"
+unit = "mm"
+[parameters]
+a = 1.0
+b = 2.5
+[grid]
+x = [-2.8, 2.8]
+y = [-2.8, 2.8]
+cell = 0.05
+[[conductor]]
+name = "inner"
+potential = 1.0
+circle = { center = [0.0, 0.0], radius = "a" }
+[[conductor]]
+name = "outer"
+potential = 0.0
+ring = { center = [0.0, 0.0], inner = "b", outer = 2.8 }
+"#;
+
+fn c_inner(out: &std::path::Path) -> f64 {
+    summary(out)["capacitance"]["matrix"][0][0]
+        .as_f64()
+        .unwrap()
+}
+
+#[test]
+fn coax_sensitivity_matches_the_derivative_of_the_exact_capacitance() {
+    let dir = scratch(SCRATCH, "coax");
+    let design = write(&dir, "coax.toml", COAX);
+    let out = dir.join("out");
+    expect(
+        run(&[
+            "solve",
+            &design,
+            "--sensitivity",
+            "a,b",
+            "--out",
+            s(&out),
+            "--quiet",
+            "--no-error-estimate",
+        ]),
+        0,
+    );
+    let sum = summary(&out);
+    let d = &sum["sensitivities"];
+    let dca = d["a"]["C[inner,inner]"].as_f64().unwrap();
+    let dcb = d["b"]["C[inner,inner]"].as_f64().unwrap();
+    // C = 2 pi eps0 / ln(b/a) (common practice: the coaxial capacitor per length, Gauss's
+    // law); dC/da = C / (a ln(b/a)), dC/db = -C / (b ln(b/a)), per metre of radius; the
+    // parameters are in mm, so per mm multiply by 1e-3.
+    let (a, b): (f64, f64) = (1e-3, 2.5e-3);
+    let l = (b / a).ln();
+    let c = 2.0 * PI * EPS0 / l;
+    let (want_a, want_b) = (c / (a * l) * 1e-3, -c / (b * l) * 1e-3);
+    println!("coax dC/da = {dca:e} (exact {want_a:e}), dC/db = {dcb:e} (exact {want_b:e})");
+    // The capacitance itself is within 0.1 % at 20 cells per radius (planar reference);
+    // its derivative takes a difference over four cells, so a few tenths of a percent more.
+    assert!((dca - want_a).abs() / want_a < 1e-2, "dC/da {dca:e}");
+    assert!((dcb - want_b).abs() / want_b.abs() < 1e-2, "dC/db {dcb:e}");
+    assert!(sum["sensitivity_steps"]["a"].as_f64().unwrap() > 0.0);
+    let csv = std::fs::read_to_string(out.join("sensitivities.csv")).unwrap();
+    assert!(csv
+        .lines()
+        .any(|l| l.starts_with("\"C[inner,inner]\",F/m,a,")));
+
+    // Against central differences of independent solves, with a step of its own (0.15 mm):
+    // the same derivative within the curvature between the two steps.
+    let mut at = Vec::new();
+    for v in ["0.85", "1.15"] {
+        let o = dir.join(format!("a{v}"));
+        let set = format!("a={v}");
+        expect(
+            run(&[
+                "solve",
+                &design,
+                "--set",
+                &set,
+                "--out",
+                s(&o),
+                "--quiet",
+                "--no-error-estimate",
+            ]),
+            0,
+        );
+        at.push(c_inner(&o));
+    }
+    let independent = (at[1] - at[0]) / 0.3;
+    println!("independent central difference: {independent:e}");
+    assert!((dca - independent).abs() / independent < 1e-2);
+}
+
+/// The demo microstrip with its permittivity a parameter, coarser cells for speed.
+const MICROSTRIP: &str = r#"
+unit = "mm"
+[parameters]
+h = 0.6
+w = 1.35
+eps = 3.5
+room = 4.2
+[grid]
+x = [0.0, "w/2 + room"]
+y = [0.0, "h + room"]
+cell = 0.02
+[sides]
+left = "symmetry"
+right = "open"
+top = "open"
+bottom = "ground"
+[[dielectric]]
+name = "laminate"
+permittivity = "eps"
+rect = { x = [0.0, "w/2 + room"], y = [0.0, "h"] }
+[[conductor]]
+name = "trace"
+potential = 1.0
+polyline = [[0.0, "h"], ["w/2", "h"]]
+"#;
+
+#[test]
+fn microstrip_tolerances_match_hammerstad_jensen_derivatives() {
+    let dir = scratch(SCRATCH, "tolerances");
+    let design = write(&dir, "microstrip.toml", MICROSTRIP);
+    let out = dir.join("out");
+    let tol = [("w", 0.05), ("h", 0.06), ("eps", 0.2)];
+    let args: Vec<String> = tol.iter().map(|(n, t)| format!("{n}={t}")).collect();
+    let mut cmd = vec![
+        "impedance",
+        &design,
+        "--signal",
+        "trace",
+        "--out",
+        s(&out),
+        "--quiet",
+        "--no-error-estimate",
+    ];
+    for a in &args {
+        cmd.extend(["--tolerance", a.as_str()]);
+    }
+    expect(run(&cmd), 0);
+    let sum = summary(&out);
+    let z = &sum["tolerances"]["quantities"]["Z0"];
+    let nominal = z["nominal"].as_f64().unwrap();
+    // Derivatives of Hammerstad and Jensen's Z0 (IEEE MTT-S 1980) by central differences of
+    // the closed form itself.
+    let (w, h, eps) = (1.35, 0.6, 3.5);
+    let dz = [
+        (hj_z0(w + 1e-5, h, eps) - hj_z0(w - 1e-5, h, eps)) / 2e-5,
+        (hj_z0(w, h + 1e-5, eps) - hj_z0(w, h - 1e-5, eps)) / 2e-5,
+        (hj_z0(w, h, eps + 1e-5) - hj_z0(w, h, eps - 1e-5)) / 2e-5,
+    ];
+    let contrib: Vec<f64> = dz
+        .iter()
+        .zip(&tol)
+        .map(|(d, (_, t))| (d * t).abs())
+        .collect();
+    let want_worst: f64 = contrib.iter().sum();
+    let want_rss = contrib.iter().map(|c| c * c).sum::<f64>().sqrt();
+    let worst = z["worst_high"].as_f64().unwrap() - nominal;
+    let rss = z["rss"].as_f64().unwrap();
+    for (i, (n, _)) in tol.iter().enumerate() {
+        let d = sum["sensitivities"][n]["Z0"].as_f64().unwrap();
+        println!("dZ0/d{n} = {d:.4} (H&J {:.4})", dz[i]);
+        // The closed form's values are within 0.2-1 % of exact (the line reference sees
+        // under 1 %) and its slopes were not fitted themselves, so 2 % is allowed for each
+        // derivative: loose, for that reason (0.4 % was seen when this was written).
+        assert!(
+            (d - dz[i]).abs() / dz[i].abs() < 2e-2,
+            "dZ0/d{n} {d}, H&J {}",
+            dz[i]
+        );
+    }
+    println!(
+        "Z0 {nominal:.3} ohm: worst case +/- {worst:.4} (H&J {want_worst:.4}), RSS {rss:.4} \
+         (H&J {want_rss:.4})"
+    );
+    assert!((worst - want_worst).abs() / want_worst < 2e-2);
+    assert!((rss - want_rss).abs() / want_rss < 2e-2);
+    assert!((z["worst_low"].as_f64().unwrap() - (nominal - worst)).abs() < 1e-9);
+    // The height (relative tolerance 10 %) moves Z0 most here, as the closed form says.
+    let dominant = contrib
+        .iter()
+        .enumerate()
+        .max_by(|a, b| a.1.total_cmp(b.1))
+        .unwrap()
+        .0;
+    assert_eq!(z["dominant"], tol[dominant].0);
+}
