@@ -60,6 +60,9 @@ pub struct Summary {
     /// `--sensitivity`: parameter -> quantity -> derivative (SI per design unit).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub sensitivities: Option<serde_json::Value>,
+    /// `--sensitivity`: parameter -> quantity -> the derivative's error estimate.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub sensitivity_errors: Option<serde_json::Value>,
     /// `--sensitivity`: parameter -> difference step (design units).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub sensitivity_steps: Option<serde_json::Value>,
@@ -409,6 +412,7 @@ impl Summary {
             line: None,
             sensitivities: None,
             sensitivity_steps: None,
+            sensitivity_errors: None,
             tolerances: None,
         };
         sol.warnings.iter().for_each(|w| summary.warn(w));

@@ -6,7 +6,8 @@
 //! d_i = dQ/dp_i, the linear worst case is Q +/- sum |d_i| t_i (every parameter at the end
 //! that moves Q the same way) and the RSS spread is sqrt(sum (d_i t_i)^2), the usual
 //! statistical stack-up of independent contributions (common practice in tolerance
-//! analysis). Both are first-order: a result that curves within the tolerances is better
+//! analysis). Each |d_i| is first widened by its error estimate e_i, so a derivative the
+//! discretisation blurs makes the spread wider, never narrower. Both are first-order: a result that curves within the tolerances is better
 //! served by the Monte Carlo samples, which solve the design at each drawn point.
 //!
 //! Monte Carlo draws each toleranced parameter uniformly in [p - t, p + t] from SplitMix64
@@ -24,24 +25,31 @@
 pub struct Spread {
     /// The nominal value.
     pub nominal: f64,
-    /// Linear worst case, low end: nominal - sum |d_i t_i|.
+    /// Linear worst case, low end: nominal - sum of the contributions.
     pub low: f64,
-    /// Linear worst case, high end: nominal + sum |d_i t_i|.
+    /// Linear worst case, high end: nominal + sum of the contributions.
     pub high: f64,
-    /// Root-sum-square spread sqrt(sum (d_i t_i)^2) (same unit as the quantity).
+    /// Root-sum-square of the contributions (same unit as the quantity).
     pub rss: f64,
-    /// Each parameter's contribution |d_i t_i|, in parameter order.
+    /// Each parameter's contribution (|d_i| + e_i) t_i, in parameter order.
     pub contributions: Vec<f64>,
     /// The index of the largest contribution (`None` when every contribution is zero).
     pub dominant: Option<usize>,
 }
 
 /// The spread of a quantity of value `nominal` with derivatives `d` (per unit of each
-/// parameter) under tolerances `t` (same units as the parameters). A NaN derivative (the
-/// quantity missing at a perturbed point) makes the spread NaN rather than optimistic.
-pub fn spread(nominal: f64, d: &[f64], t: &[f64]) -> Spread {
+/// parameter) and their error estimates `e` under tolerances `t` (same units as the
+/// parameters). A NaN derivative (the quantity missing at a perturbed point) makes the
+/// spread NaN rather than optimistic.
+pub fn spread(nominal: f64, d: &[f64], e: &[f64], t: &[f64]) -> Spread {
     assert_eq!(d.len(), t.len(), "one derivative per tolerance");
-    let contributions: Vec<f64> = d.iter().zip(t).map(|(d, t)| (d * t).abs()).collect();
+    assert_eq!(e.len(), t.len(), "one error estimate per tolerance");
+    let contributions: Vec<f64> = d
+        .iter()
+        .zip(e)
+        .zip(t)
+        .map(|((d, e), t)| (d.abs() + e.abs()) * t.abs())
+        .collect();
     let sum: f64 = contributions.iter().sum();
     let rss = contributions.iter().map(|c| c * c).sum::<f64>().sqrt();
     let dominant = contributions
@@ -148,13 +156,17 @@ mod tests {
     #[test]
     fn worst_case_and_rss_of_two_contributions() {
         // d = (3, -4), t = (1, 1): contributions 3 and 4, worst case +/- 7, RSS 5.
-        let s = spread(10.0, &[3.0, -4.0], &[1.0, 1.0]);
+        let s = spread(10.0, &[3.0, -4.0], &[0.0, 0.0], &[1.0, 1.0]);
         assert_eq!(
             (s.low, s.high, s.rss, s.dominant),
             (3.0, 17.0, 5.0, Some(1))
         );
-        assert_eq!(spread(1.0, &[0.0], &[1.0]).dominant, None);
-        assert!(spread(1.0, &[f64::NAN], &[1.0]).rss.is_nan());
+        assert_eq!(spread(1.0, &[0.0], &[0.0], &[1.0]).dominant, None);
+        assert!(spread(1.0, &[f64::NAN], &[0.0], &[1.0]).rss.is_nan());
+        // Error estimates widen each contribution: 3 + 1 and 4 + 2 -> +/- 10, RSS sqrt(52).
+        let w = spread(10.0, &[3.0, -4.0], &[1.0, 2.0], &[1.0, 1.0]);
+        assert_eq!((w.low, w.high), (0.0, 20.0));
+        assert!((w.rss - 52f64.sqrt()).abs() < 1e-12);
     }
 
     #[test]

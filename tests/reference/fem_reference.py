@@ -266,7 +266,7 @@ def check_design(path, expect):
         "sides": dict(t["sides"]),
         "background": float(t.get("background", {}).get("permittivity", 1.0)),
         "dielectrics": [
-            (e["name"], float(e["permittivity"]), tuple(map(val, e["rect"]["x"])),
+            (e["name"], val(e["permittivity"]), tuple(map(val, e["rect"]["x"])),
              tuple(map(val, e["rect"]["y"])))
             for e in t.get("dielectric", [])
         ],

@@ -210,10 +210,10 @@ pub fn study_quantities(s: &Summary) -> Vec<Named> {
     let cap = &s.capacitance;
     let mut out: Vec<Named> = super::compare::quantities(s)
         .into_iter()
-        .map(|(name, unit, value, _)| Named {
-            name,
-            unit,
-            value,
+        .map(|q| Named {
+            name: q.name,
+            unit: q.unit,
+            value: q.value,
             error: None,
         })
         .collect();

@@ -4,13 +4,15 @@
 //!
 //! Derivatives are central differences of paired solves at p +/- h, the step h from
 //! [`fieldgrid_solver::sensitivity::step`] (the bodies move two coarsest cells; a parameter
-//! that moves no body steps 1 % of its value). Spreads are the linear worst case, the RSS
+//! that moves no body steps 1 % of its value); a second pair at p +/- 2h gives each its
+//! error estimate, which widens the spreads. Spreads are the linear worst case, the RSS
 //! and the dominant parameter ([`fieldgrid_solver::tolerance::spread`]); Monte Carlo solves
 //! seeded uniform samples ([`fieldgrid_solver::tolerance::samples`]).
 //!
 //! Output: summary.json `sensitivities` (parameter -> quantity -> derivative, SI per design
 //! unit of the parameter; null where a quantity is missing at a perturbed point) with
-//! `sensitivity_steps` (parameter -> step), `tolerances` (quantity -> nominal, worst-case
+//! `sensitivity_errors` (the same shape: error estimates) and `sensitivity_steps`
+//! (parameter -> step), `tolerances` (quantity -> nominal, worst-case
 //! low and high, rss, dominant parameter, and `monte_carlo` statistics);
 //! `sensitivities.csv` (one row per quantity and parameter) and `tolerances.csv` (one row
 //! per quantity).
@@ -54,6 +56,8 @@ pub struct Analysis {
     pub quantities: Vec<Named>,
     /// `derivatives[p][q]`: dQ/dp, SI per design unit (NaN when missing at a perturbed point).
     pub derivatives: Vec<Vec<f64>>,
+    /// `errors[p][q]`: the derivative's error estimate, same units.
+    pub errors: Vec<Vec<f64>>,
     /// Per quantity, when tolerances were given.
     pub spreads: Vec<tolerance::Spread>,
     /// Per quantity, when Monte Carlo was asked for.
@@ -275,14 +279,26 @@ pub fn analyse(
             .collect()
     };
     let mut derivatives = Vec::new();
+    let mut errors = Vec::new();
     for (i, name) in req.parameters.iter().enumerate() {
-        let (up, down) = (
-            sensitivity::stepped(values[i], steps[i]),
-            sensitivity::stepped(values[i], -steps[i]),
-        );
-        let plus = pick(&solve_at(vec![(name.clone(), up)])?);
-        let minus = pick(&solve_at(vec![(name.clone(), down)])?);
-        derivatives.push(sensitivity::central(&plus, &minus, 0.5 * (up - down)));
+        let mut difference = |h: f64| -> Result<Vec<f64>, Failure> {
+            let (up, down) = (
+                sensitivity::stepped(values[i], h),
+                sensitivity::stepped(values[i], -h),
+            );
+            let plus = pick(&solve_at(vec![(name.clone(), up)])?);
+            let minus = pick(&solve_at(vec![(name.clone(), down)])?);
+            Ok(sensitivity::central(&plus, &minus, 0.5 * (up - down)))
+        };
+        let d1 = difference(steps[i])?;
+        let d2 = difference(2.0 * steps[i])?;
+        let (d, e): (Vec<f64>, Vec<f64>) = d1
+            .iter()
+            .zip(&d2)
+            .map(|(&a, &b)| sensitivity::with_error(a, b))
+            .unzip();
+        derivatives.push(d);
+        errors.push(e);
     }
     let tol_index: Vec<(usize, f64)> = req
         .tolerances
@@ -302,8 +318,9 @@ pub fn analyse(
             .enumerate()
             .map(|(q, named)| {
                 let d: Vec<f64> = tol_index.iter().map(|&(p, _)| derivatives[p][q]).collect();
+                let e: Vec<f64> = tol_index.iter().map(|&(p, _)| errors[p][q]).collect();
                 let t: Vec<f64> = tol_index.iter().map(|&(_, t)| t).collect();
-                tolerance::spread(named.value, &d, &t)
+                tolerance::spread(named.value, &d, &e, &t)
             })
             .collect()
     };
@@ -338,6 +355,7 @@ pub fn analyse(
         steps,
         quantities: nominal.to_vec(),
         derivatives,
+        errors,
         spreads,
         monte_carlo,
         converged,
@@ -361,6 +379,21 @@ impl Analysis {
                 .quantities
                 .iter()
                 .zip(&self.derivatives[p])
+                .map(|(q, &d)| (q.name.clone(), finite(d)))
+                .collect();
+            out.insert(name.clone(), Value::Object(row));
+        }
+        Value::Object(out)
+    }
+
+    /// summary.json `sensitivity_errors`: parameter -> quantity -> error estimate.
+    pub fn errors_json(&self) -> Value {
+        let mut out = Map::new();
+        for (p, name) in self.parameters.iter().enumerate() {
+            let row: Map<String, Value> = self
+                .quantities
+                .iter()
+                .zip(&self.errors[p])
                 .map(|(q, &d)| (q.name.clone(), finite(d)))
                 .collect();
             out.insert(name.clone(), Value::Object(row));
@@ -406,7 +439,7 @@ impl Analysis {
             quantities.insert(q.name.clone(), v);
         }
         let mut out = json!({
-            "method": "linear worst case and root-sum-square from the sensitivities; \
+            "method": "linear worst case and root-sum-square from the sensitivities, each widened by its error estimate; \
                        each parameter within +/- its tolerance",
             "parameters": tolerances.iter().map(|(n, t)| (n.clone(), json!(t)))
                 .collect::<Map<String, Value>>(),
@@ -425,6 +458,7 @@ impl Analysis {
         for (qi, q) in self.quantities.iter().enumerate() {
             for (p, name) in self.parameters.iter().enumerate() {
                 let d = self.derivatives[p][qi];
+                let e = self.errors[p][qi];
                 rows.push(vec![
                     q.name.clone(),
                     q.unit.clone(),
@@ -432,6 +466,7 @@ impl Analysis {
                     num(self.values[p]),
                     num(self.steps[p]),
                     if d.is_finite() { num(d) } else { String::new() },
+                    if e.is_finite() { num(e) } else { String::new() },
                 ]);
             }
         }
@@ -443,6 +478,7 @@ impl Analysis {
                 "parameter value",
                 "step",
                 "derivative (unit per parameter unit)",
+                "error estimate (unit per parameter unit)",
             ],
             rows,
         )
@@ -493,6 +529,7 @@ impl Analysis {
     pub fn attach(&self, summary: &mut crate::summary::Summary, tolerances: &[(String, f64)]) {
         summary.sensitivities = Some(self.sensitivities_json());
         summary.sensitivity_steps = Some(self.steps_json());
+        summary.sensitivity_errors = Some(self.errors_json());
         summary.tolerances = self.tolerances_json(tolerances);
         summary.solver.converged &= self.converged;
     }
@@ -513,7 +550,7 @@ impl Analysis {
         let shown = |q: &Named| !q.name.starts_with("F[") || q.value != 0.0;
         let _ = writeln!(
             s,
-            "sensitivities (per design unit; steps {}):",
+            "sensitivities (per design unit, +/- estimated error; steps {}):",
             self.parameters
                 .iter()
                 .zip(&self.steps)
@@ -526,7 +563,12 @@ impl Analysis {
                 .parameters
                 .iter()
                 .enumerate()
-                .map(|(p, n)| format!("d/d{n} {:11.4e}", self.derivatives[p][qi]))
+                .map(|(p, n)| {
+                    format!(
+                        "d/d{n} {:11.4e} +/- {:.1e}",
+                        self.derivatives[p][qi], self.errors[p][qi]
+                    )
+                })
                 .collect();
             let _ = writeln!(s, "  {:>16}  {}", q.name, d.join("  "));
         }
@@ -595,9 +637,10 @@ mod tests {
             steps: vec![0.01, 0.02],
             quantities: vec![named("C[a,a]", 1e-10), named("energy", 2e-10)],
             derivatives: vec![vec![3e-12, f64::NAN], vec![-1e-12, 2e-12]],
+            errors: vec![vec![1e-14, f64::NAN], vec![1e-14, 1e-14]],
             spreads: vec![
-                tolerance::spread(1e-10, &[3e-12], &[0.1]),
-                tolerance::spread(2e-10, &[f64::NAN], &[0.1]),
+                tolerance::spread(1e-10, &[3e-12], &[1e-14], &[0.1]),
+                tolerance::spread(2e-10, &[f64::NAN], &[0.0], &[0.1]),
             ],
             monte_carlo: None,
             converged: true,
