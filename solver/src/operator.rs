@@ -586,3 +586,6 @@ fn check_reference(s: &Stencil5, links: &[Link], grid: &Grid) -> Result<(), Oper
         None => Ok(()),
     }
 }
+
+#[cfg(test)]
+mod tests;
