@@ -1,7 +1,7 @@
 //! Robustness of the command and the solvers, one module per concern: interrupted runs
 //! (fault injection), refusals before any work, bounded and extreme inputs, non-convergence,
-//! reproducible numbers, and the fuzzing findings replayed as regression tests. The helpers
-//! and the design they share are here.
+//! stretched cells of graded lattices, reproducible numbers, and the fuzzing findings
+//! replayed as regression tests. The helpers and the design they share are here.
 
 mod bounded_inputs;
 mod convergence;
@@ -12,6 +12,7 @@ pub(crate) mod interrupted;
 mod refusals;
 mod reproducible;
 pub(crate) mod result_sets;
+mod stretched_cells;
 
 use clap::Parser;
 use fieldgrid_cli::args::{Cli, Command as Cmd};
