@@ -345,3 +345,58 @@ fn design_file_tolerances_are_used_and_the_command_line_replaces_them() {
         );
     }
 }
+
+/// A disc electrode at 20 kV with a rounded rim over a grounded floor (axisymmetric), air
+/// with a strength of 3 MV/m: the rim's rounding sets the worst margin.
+const RIM: &str = r#"
+unit = "mm"
+mode = "axisymmetric"
+[parameters]
+rim = 4.0
+[grid]
+x = [0.0, 60.0]
+y = [0.0, 60.0]
+cell = 0.5
+[sides]
+right = "open"
+top = "open"
+bottom = "ground"
+[background]
+strength = 3.0e6
+[[conductor]]
+name = "disc"
+potential = 20.0e3
+rect = { x = [-20.0, 20.0], y = [12.0, 24.0], round = "rim" }
+"#;
+
+#[test]
+fn a_margin_target_is_met_from_above() {
+    let dir = scratch(SCRATCH, "margin");
+    let design = write(&dir, "rim.toml", RIM);
+    let out = dir.join("out");
+    let code = failure_of(&[
+        "target",
+        &design,
+        "--quantity",
+        "worst_margin",
+        "--value",
+        "0.9",
+        "--vary",
+        "rim=1:6",
+        "--out",
+        s(&out),
+        "--quiet",
+    ]);
+    assert_eq!(code, Ok(0), "{code:?}");
+    let t = read_json(&out.join("target.json"));
+    let (achieved, tol) = (
+        t["achieved"].as_f64().unwrap(),
+        t["tolerance"].as_f64().unwrap(),
+    );
+    assert!((0.9..=0.9 + tol).contains(&achieved), "{t}");
+    // The files beside it are those of the point found: its worst margin is the one achieved.
+    assert_eq!(
+        summary(&out)["worst_margin"]["margin"].as_f64().unwrap(),
+        achieved
+    );
+}

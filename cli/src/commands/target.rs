@@ -17,7 +17,9 @@
 //! pair) with `iterations` and `solves`.
 //!
 //! Invariants: the tolerance on a quantity is `--value-tol`, else its estimated
-//! discretisation error at the bracket ends (the smaller), else 1e-6 of the wanted value;
+//! discretisation error at the bracket ends (the smaller), else 1e-6 of the wanted value; a
+//! `worst_margin` target is met from above (the point kept has a margin at least the wanted
+//! one whenever a point solved has);
 //! every solve is cold (each point plans its own grid, whose size may change with the
 //! parameter); exit 0 when every target was met, 3 when the search stopped first or a solve
 //! did not converge (the files then hold the best point and say so).
@@ -97,6 +99,9 @@ struct Search<'a> {
     best: Option<(Vec<f64>, Evaluation)>,
     /// The quantities of the last evaluation.
     last: Vec<evaluate::Named>,
+    /// One target that must not fall short (a margin): an evaluation at or above it beats
+    /// every one below it.
+    at_least: bool,
     solves: usize,
     unconverged: bool,
 }
@@ -127,7 +132,12 @@ impl Search<'_> {
         }
         let score = |r: &[f64]| -> f64 { r.iter().zip(tol).map(|(r, t)| (r / t).powi(2)).sum() };
         self.last = ev.quantities.clone();
-        if self.best.as_ref().is_none_or(|(b, _)| score(&r) < score(b)) {
+        let short = |r: &[f64]| self.at_least && r[0] < 0.0;
+        if self
+            .best
+            .as_ref()
+            .is_none_or(|(b, _)| (short(&r), score(&r)) < (short(b), score(b)))
+        {
             self.best = Some((r.clone(), ev));
         }
         Ok(r)
@@ -220,6 +230,7 @@ pub fn run(args: &TargetArgs) -> Result<u8, Failure> {
         wanted: args.value.clone(),
         best: None,
         last: Vec::new(),
+        at_least: n == 1 && args.quantity[0].eq_ignore_ascii_case("worst_margin"),
         solves: 0,
         unconverged: false,
     };
@@ -294,6 +305,17 @@ fn one_target(search: &mut Search, args: &TargetArgs) -> Result<(Report, bool), 
         (None, Some(e), None) | (None, None, Some(e)) => e,
         (None, None, None) => 1e-6 * wanted.abs().max(f64::MIN_POSITIVE),
     };
+    // A margin is met from above: the search aims half a tolerance above the wanted value
+    // (when that is still bracketed), so the point kept, which is never below it when any
+    // point is not, lies within [wanted, wanted + tolerance].
+    let tolerance = f_tol;
+    let (mut f_lo, mut f_hi, mut f_tol) = (f_lo, f_hi, f_tol);
+    if search.at_least && (f_lo - 0.5 * f_tol) * (f_hi - 0.5 * f_tol) < 0.0 {
+        search.wanted[0] += 0.5 * f_tol;
+        f_lo -= 0.5 * f_tol;
+        f_hi -= 0.5 * f_tol;
+        f_tol *= 0.5;
+    }
     let p = root::Params::default()
         .with_f_tol(f_tol)
         .with_x_tol(1e-9 * (b.hi - b.lo))
@@ -325,7 +347,7 @@ fn one_target(search: &mut Search, args: &TargetArgs) -> Result<(Report, bool), 
         "target": wanted,
         "achieved": q.value,
         "error_estimate": q.error,
-        "tolerance": f_tol,
+        "tolerance": tolerance,
         "unit": q.unit,
         "iterations": info.evaluations,
         "solves": search.solves,
@@ -346,7 +368,7 @@ fn one_target(search: &mut Search, args: &TargetArgs) -> Result<(Report, bool), 
         if converged {
             String::new()
         } else {
-            format!("; stopped at --max-solves before |error| <= {f_tol:.1e}")
+            format!("; stopped at --max-solves before |error| <= {tolerance:.1e}")
         }
     );
     Ok(((json, text), converged))
