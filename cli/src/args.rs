@@ -123,8 +123,9 @@ pub struct SolveArgs {
     /// Also write the full-grid table `field.csv` (one row per node).
     #[arg(long)]
     pub field_table: bool,
-    /// Also write `field.vti` (VTK image data: potential, field, permittivity, conductor
-    /// index per node) for general-purpose 3-D viewers.
+    /// Also write `field.vti` (VTK image data; `field.vtr`, a rectilinear grid, when the
+    /// grid is graded: potential, field, permittivity, conductor index per node) for
+    /// general-purpose 3-D viewers.
     #[arg(long)]
     pub vtk: bool,
     /// Draw field.png on a logarithmic scale (four decades below the peak) instead of a
@@ -229,6 +230,9 @@ pub struct CheckArgs {
     /// Write a preview picture `preview.png` (and `check.json`) here.
     #[arg(long)]
     pub out: Option<PathBuf>,
+    /// Draw the grid's node lines on `preview.png`.
+    #[arg(long)]
+    pub grid_lines: bool,
     /// Picture options.
     #[command(flatten)]
     pub pictures: PictureArgs,

@@ -6,6 +6,7 @@ use crate::render::{
     PreviewInput, RenderOptions, Scale,
 };
 use fieldgrid_solver::design::{Design, Mode};
+use fieldgrid_solver::grid::Grid;
 use fieldgrid_solver::study::Solution;
 use image::RgbImage;
 
@@ -164,8 +165,8 @@ pub fn field_maps(
     rayon::join(potential_map, field_map)
 }
 
-/// The geometry preview of `check`.
-pub fn preview(src: &DesignSource, opts: &RenderOptions) -> RgbImage {
+/// The geometry preview of `check`, with the node lines of `grid` when given.
+pub fn preview(src: &DesignSource, grid: Option<&Grid>, opts: &RenderOptions) -> RgbImage {
     let design = &src.design;
     let (conductors, _) = outlines(design);
     let tol = tolerance(design);
@@ -197,6 +198,7 @@ pub fn preview(src: &DesignSource, opts: &RenderOptions) -> RgbImage {
     input.dielectrics = &materials;
     input.conductors = &conductors;
     input.markers = &markers;
+    input.grid_lines = grid.map(|g| [g.xs(), g.ys()]);
     render::render_preview(&input, opts)
 }
 

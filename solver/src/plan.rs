@@ -55,6 +55,13 @@ impl Plan {
         &self.grid
     }
 
+    /// The same plan on another lattice over the same domain (a graded one, say); the
+    /// memory estimate follows its node count.
+    pub fn with_grid(mut self, grid: Grid) -> Plan {
+        self.grid = grid;
+        self
+    }
+
     /// The same plan with one more study's solution held while this one runs (the line
     /// study's two studies on one lattice).
     pub fn holding_a_solution(mut self) -> Plan {

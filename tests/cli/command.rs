@@ -136,6 +136,25 @@ fn check_reports_grid_without_solving() {
     assert_eq!(s["grid"]["nx"], 41);
     assert_eq!(s["grid"]["ny"], 21);
     assert!(!out.join("summary.json").exists());
+    // The node lines and the cell range; the preview draws the lines when asked.
+    let g = &s["grid"];
+    assert_eq!(g["x_lines"].as_array().unwrap().len(), 41);
+    assert_eq!(g["y_lines"].as_array().unwrap().len(), 21);
+    assert_eq!(g["uniform"], true);
+    assert_eq!(g["min_cell"], g["max_cell"]);
+    let plain = std::fs::read(out.join("preview.png")).unwrap();
+    expect(
+        run(&[
+            "check",
+            &design,
+            "--out",
+            out.to_str().unwrap(),
+            "--quiet",
+            "--grid-lines",
+        ]),
+        0,
+    );
+    assert_ne!(std::fs::read(out.join("preview.png")).unwrap(), plain);
 }
 
 #[test]

@@ -29,6 +29,9 @@ pub fn run(args: &CheckArgs) -> Result<u8, Failure> {
             "hy": grid.max_dy(),
             "min_cell": grid.min_cell(),
             "max_cell": grid.max_cell(),
+            "uniform": grid.is_uniform(),
+            "x_lines": grid.xs(),
+            "y_lines": grid.ys(),
         },
         "unknowns_at_most": grid.len(),
         "memory_mib": mib,
@@ -39,7 +42,11 @@ pub fn run(args: &CheckArgs) -> Result<u8, Failure> {
         let mut out = OutDir::prepare(dir)?;
         out.write_png(
             "preview.png",
-            &crate::pictures::preview(&src, &args.pictures.render_options()),
+            &crate::pictures::preview(
+                &src,
+                args.grid_lines.then_some(grid),
+                &args.pictures.render_options(),
+            ),
         )?;
         out.write(
             "check.json",
@@ -49,13 +56,20 @@ pub fn run(args: &CheckArgs) -> Result<u8, Failure> {
         out.commit()?;
     }
     if !args.quiet {
+        let cells = if grid.is_uniform() {
+            format!("cell {:.4e} m x {:.4e} m", grid.max_dx(), grid.max_dy())
+        } else {
+            format!(
+                "graded: cells {:.4e} m to {:.4e} m",
+                grid.min_cell(),
+                grid.max_cell()
+            )
+        };
         println!(
-            "{}: valid; grid {} x {} nodes (cell {:.4e} m x {:.4e} m), about {:.0} MiB to solve",
+            "{}: valid; grid {} x {} nodes ({cells}), about {:.0} MiB to solve",
             args.design.display(),
             grid.nx,
             grid.ny,
-            grid.max_dx(),
-            grid.max_dy(),
             mib
         );
     }

@@ -95,9 +95,10 @@ pub fn run_timed_with(
     })?;
     if args.vtk {
         timings.time("vtk", || {
-            let bytes = crate::vtk::vti_bytes(&sol, &src.design)
-                .map_err(|e| Failure::io("encoding field.vti", e))?;
-            out.write("field.vti", &bytes)
+            let name = crate::vtk::file_name(&sol.grid);
+            let bytes = crate::vtk::bytes(&sol, &src.design)
+                .map_err(|e| Failure::io(format!("encoding {name}"), e))?;
+            out.write(name, &bytes)
         })?;
     }
     // Both pictures drawn and encoded at the same time, on the threads the solve had.

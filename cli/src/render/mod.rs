@@ -220,6 +220,8 @@ pub struct PreviewInput<'a> {
     pub conductors: &'a [Outline],
     /// Numbered marks (e.g. probes).
     pub markers: &'a [Marker],
+    /// Node lines to draw over the materials: x of the columns and y of the rows, m.
+    pub grid_lines: Option<[&'a [f64]; 2]>,
 }
 
 impl<'a> PreviewInput<'a> {
@@ -235,6 +237,7 @@ impl<'a> PreviewInput<'a> {
             dielectrics: &[],
             conductors: &[],
             markers: &[],
+            grid_lines: None,
         }
     }
 }

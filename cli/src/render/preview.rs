@@ -1,5 +1,6 @@
-//! The geometry preview of `check`: materials painted by permittivity, conductors filled and
-//! named, marks, axes, and a legend of the materials beside the plot.
+//! The geometry preview of `check`: materials painted by permittivity, optionally the grid's
+//! node lines, conductors filled and named, marks, axes, and a legend of the materials
+//! beside the plot.
 //!
 //! Invariants: dielectrics are painted in the given order (a later one covers an earlier
 //! one); a permittivity's colour is monotone on a log scale between the design's extremes,
@@ -122,6 +123,20 @@ pub(super) fn swatch_rect(plot: &Plot, k: usize) -> [i64; 4] {
     ]
 }
 
+/// Thin lines at the node columns `xs` and rows `ys` across the plot (where lines are closer
+/// than a pixel they merge into a shade that shows the refinement).
+fn grid_layer(plot: &Plot, [w, h]: [usize; 2], xs: &[f64], ys: &[f64]) -> canvas::Layer {
+    let mut layer = canvas::Layer::new(w as u32, h as u32);
+    let (x, y) = (plot.xr, plot.yr);
+    for &c in xs {
+        layer.segment(plot.px([c, y[0]]), plot.px([c, y[1]]), 1.0);
+    }
+    for &c in ys {
+        layer.segment(plot.px([x[0], c]), plot.px([x[1], c]), 1.0);
+    }
+    layer
+}
+
 pub(super) fn preview_layout(input: &PreviewInput, opts: &RenderOptions) -> (Layout, Legend) {
     let legend = Legend::new(input);
     (
@@ -179,6 +194,9 @@ pub(super) fn draw_preview(input: &PreviewInput, opts: &RenderOptions) -> (RgbIm
         .collect();
     // Shapes may reach past the domain (a sphere centred on the axis): clip to the plot.
     let off_plot = |x: usize, y: usize| plot.local(x, y).is_none();
+    if let Some([xs, ys]) = input.grid_lines {
+        grid_layer(&plot, [iw, ih], xs, ys).composite(&mut img, GREY_INK, 0.6, off_plot);
+    }
     let cl = conductor_layers(&img, &plot, input.conductors);
     cl.fill.composite(&mut img, NO_VALUE, 1.0, off_plot);
     outline_dielectrics(&mut img, &plot, &outlines, &|x, y| {

@@ -148,6 +148,29 @@ mod tests {
     }
 
     #[test]
+    fn graded_grids_interpolate_within_their_cells() {
+        // Cells from 0.05 to 2 wide: a bilinear field is reproduced at every pixel centre,
+        // inside the large cells too (no blocks).
+        let xs = vec![0.0, 0.05, 0.1, 0.3, 1.0, 3.0, 4.0];
+        let ys = vec![-1.0, 0.5, 0.55, 1.0];
+        let g = Grid::from_lines(xs.clone(), ys.clone()).unwrap();
+        let f = |x: f64, y: f64| 2.0 * x - 3.0 * y + 0.5 * x * y;
+        let vals: Vec<f64> = (0..g.len())
+            .map(|k| f(xs[k % g.nx], ys[k / g.nx]))
+            .collect();
+        let (w, h) = (80, 40);
+        let s = resample(&g, &vals, [0.0, 4.0], [-1.0, 1.0], w, h);
+        for py in 0..h {
+            for px in 0..w {
+                let x = 4.0 * (px as f64 + 0.5) / w as f64;
+                let y = 1.0 - 2.0 * (py as f64 + 0.5) / h as f64;
+                let got = s.at(px, py);
+                assert!((got - f(x, y)).abs() < 1e-12, "pixel ({px}, {py}): {got}");
+            }
+        }
+    }
+
+    #[test]
     fn missing_values_keep_their_extent() {
         let g = grid(3, 3);
         let mut vals = vec![1.0; 9];

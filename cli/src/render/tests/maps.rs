@@ -281,3 +281,44 @@ fn a_colour_range_narrower_than_the_values_caps_that_end_of_the_bar() {
     assert_eq!(bar_cap_pixel(&img, &plot, true), sequential().rgb[LEN - 1]);
     assert_eq!(bar_cap_pixel(&img, &plot, false), sequential().rgb[0]);
 }
+
+#[test]
+fn graded_grid_maps_read_the_field_at_each_pixel() {
+    // Cells from 0.05 mm to 4 mm: probes at known places show the colour of the value there
+    // (the field x + y/2 interpolated from the lines), and a large cell shades smoothly.
+    let xs: Vec<f64> = [0.0, 0.05, 0.1, 0.3, 1.0, 5.0, 9.0, 10.0]
+        .iter()
+        .map(|v| v * MM)
+        .collect();
+    let ys: Vec<f64> = [0.0, 0.2, 0.25, 2.0, 5.0].iter().map(|v| v * MM).collect();
+    let grid = Grid::from_lines(xs, ys).unwrap();
+    let f = |x: f64, y: f64| x + 0.5 * y;
+    let v: Vec<f64> = (0..grid.len())
+        .map(|k| f(grid.x(k % grid.nx), grid.y(k / grid.nx)))
+        .collect();
+    let inp = MapInput {
+        unit: "V",
+        quantity: "potential",
+        ..MapInput::new(&grid, &v)
+    };
+    let cs = ColorScale::new(&inp);
+    let (img, plot) = draw_map(&inp, &RenderOptions::default());
+    keep("graded-map", &img);
+    let colour_at = |p: Point| {
+        let q = plot.px(p);
+        let (lx, ly) = (q[0].floor() - plot.x0 as f64, q[1].floor() - plot.y0 as f64);
+        let x = plot.xr[0] + (lx + 0.5) / plot.w as f64 * (plot.xr[1] - plot.xr[0]);
+        let y = plot.yr[1] - (ly + 0.5) / plot.h as f64 * (plot.yr[1] - plot.yr[0]);
+        (px(&img, q), cs.color(f(x, y)))
+    };
+    for p in [[0.07, 0.22], [0.6, 1.0], [3.3, 4.1], [7.7, 0.1], [9.5, 3.0]] {
+        let (got, want) = colour_at([p[0] * MM, p[1] * MM]);
+        assert_eq!(got, want, "at {p:?} mm");
+    }
+    // Across the 4 mm cell from x = 1 to 5 mm the colour changes many times.
+    let mut seen: Vec<_> = (0..40)
+        .map(|k| colour_at([(1.05 + 0.1 * k as f64) * MM, 3.5 * MM]).0)
+        .collect();
+    seen.dedup();
+    assert!(seen.len() > 10, "{} colours", seen.len());
+}

@@ -171,3 +171,30 @@ fn shapes_reaching_past_the_axis_are_clipped_to_the_plot() {
         assert_eq!(px(img, plot.px([0.3 * MM, 5.5 * MM])), NO_VALUE);
     }
 }
+
+#[test]
+fn preview_draws_the_node_lines_when_asked() {
+    // Columns at 2, 5 and 6 mm, rows at 1 and 8 mm inside a 10 mm square.
+    let xs = [0.0, 2.0 * MM, 5.0 * MM, 6.0 * MM, 10.0 * MM];
+    let ys = [0.0, 1.0 * MM, 8.0 * MM, 10.0 * MM];
+    let bare = PreviewInput::new([0.0, 10.0 * MM], [0.0, 10.0 * MM]);
+    let lined = PreviewInput {
+        grid_lines: Some([&xs, &ys]),
+        ..bare
+    };
+    let (plain, plot) = draw_preview(&bare, &RenderOptions::default());
+    let (img, _) = draw_preview(&lined, &RenderOptions::default());
+    keep("preview-grid-lines", &img);
+    let bg = px(&plain, plot.px([3.5 * MM, 4.5 * MM]));
+    let darker = |c: image::Rgb<u8>| {
+        c.0.iter().map(|&v| v as u32).sum::<u32>() + 60
+            < bg.0.iter().map(|&v| v as u32).sum::<u32>()
+    };
+    for p in [[2.0, 4.5], [5.0, 3.0], [6.0, 7.0], [3.5, 1.0], [7.5, 8.0]] {
+        let c = px(&img, plot.px([p[0] * MM, p[1] * MM]));
+        assert!(darker(c), "no line at {p:?} mm: {c:?} on {bg:?}");
+    }
+    for p in [[3.5, 4.5], [5.5, 5.0], [8.0, 3.0]] {
+        assert_eq!(px(&img, plot.px([p[0] * MM, p[1] * MM])), bg, "at {p:?} mm");
+    }
+}
