@@ -474,3 +474,6 @@ pub fn singular_points(design: &Design, samples: &[SurfaceSample]) -> Vec<Point>
     }
     out
 }
+
+#[cfg(test)]
+mod tests;

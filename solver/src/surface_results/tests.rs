@@ -1,0 +1,172 @@
+//! Surface fields, peaks and hot spots on graded (stretched) lattices against closed forms.
+
+use crate::design::{Conductor, Design, Domain, Drive, Mode, Shape, Side, Sides};
+use crate::grid::Grid;
+use crate::study::{self, Solution, StudyParams};
+use crate::surface::SurfaceKind;
+use std::f64::consts::PI;
+
+/// Lines over [a, b] mapped smoothly from `cells` equal steps of s in [-1, 1] by
+/// `s + amplitude (sin(pi s + phase) + sin(phase))` (monotone for amplitudes below 1/pi).
+fn stretched(a: f64, b: f64, cells: usize, amplitude: f64, phase: f64) -> Vec<f64> {
+    let f = |s: f64| s + amplitude * ((PI * s + phase).sin() + phase.sin());
+    let (m, r) = (0.5 * (a + b), 0.5 * (b - a));
+    (0..=cells)
+        .map(|k| match k {
+            0 => a,
+            k if k == cells => b,
+            k => m + r * f(-1.0 + 2.0 * k as f64 / cells as f64),
+        })
+        .collect()
+}
+
+fn conductor(name: &str, v: f64, shape: Shape) -> Conductor {
+    Conductor {
+        name: name.into(),
+        drive: Drive::Fixed(v),
+        shape,
+    }
+}
+
+/// The study of `design` on `grid`.
+fn solve_on(design: &Design, grid: Grid) -> Solution {
+    let params = StudyParams::default();
+    let plan = study::plan(design, &params).unwrap().with_grid(grid);
+    study::run_planned(design, &plan, &params).unwrap()
+}
+
+/// Largest relative deviation from `want` of the field of conductor 0's surface samples,
+/// and of the reported peak field.
+fn deviations(s: &Solution, want: f64) -> (f64, f64) {
+    let worst = s
+        .surface
+        .iter()
+        .filter(|p| p.kind == SurfaceKind::Conductor(0))
+        .map(|p| (p.magnitude() - want).abs() / want)
+        .fold(0.0, f64::max);
+    let peak = s.peak_field.as_ref().expect("a peak").magnitude;
+    (worst, (peak - want).abs() / want)
+}
+
+#[test]
+fn coax_surface_field_and_peak_on_a_stretched_grid() {
+    // Field at the inner conductor of a coaxial line, E(a) = V / (a ln(b/a)) (Gauss's law for
+    // a line charge; D. J. Griffiths, Introduction to Electrodynamics, 4th ed., 2017,
+    // sec. 2.2.3). Centre off the lines; cells from about 13 to 36 across the inner radius.
+    let (a, b, c) = (1.0e-3, 2.5e-3, [0.0137e-3, -0.0291e-3]);
+    let design = Design {
+        domain: Domain {
+            x: [-2.8e-3, 2.8e-3],
+            y: [-2.8e-3, 2.8e-3],
+            cell: 0.05e-3,
+        },
+        conductors: vec![
+            conductor(
+                "inner",
+                1.0,
+                Shape::Circle {
+                    center: c,
+                    radius: a,
+                },
+            ),
+            conductor(
+                "outer",
+                0.0,
+                Shape::Ring {
+                    center: c,
+                    inner: b,
+                    outer: 2.75e-3,
+                },
+            ),
+        ],
+        ..Design::default()
+    };
+    let grid = Grid::from_lines(
+        stretched(-2.8e-3, 2.8e-3, 112, 0.12, 0.4),
+        stretched(-2.8e-3, 2.8e-3, 112, 0.09, 1.1),
+    )
+    .unwrap();
+    assert!(grid.max_cell() > 2.0 * grid.min_cell());
+    let s = solve_on(&design, grid);
+    let want = 1.0 / (a * (b / a).ln());
+    let (worst, peak) = deviations(&s, want);
+    eprintln!("coax on a stretched grid: worst sample {worst:.3e}, peak {peak:.3e}");
+    assert!(
+        worst < 5e-3 && peak < 5e-3,
+        "worst {worst:e}, peak {peak:e}"
+    );
+    let spot = s.peak_field.as_ref().unwrap();
+    eprintln!(
+        "coax: peak {:e} V/m, estimate {:?}",
+        spot.magnitude, spot.error_estimate
+    );
+    // What a margin divides by is never below the true field.
+    assert!(spot.magnitude + spot.error_estimate.unwrap() >= want);
+    let r = (spot.x - c[0]).hypot(spot.y - c[1]);
+    // On the surface (the peak is placed between samples, on their chord).
+    assert!((r - a).abs() < 1e-6, "peak at r = {r:e}");
+    assert!(!spot.singular && !spot.under_resolved);
+}
+
+#[test]
+fn sphere_surface_field_and_peak_on_a_stretched_grid() {
+    // Field at the inner sphere of a spherical capacitor, E(a) = V b / (a (b - a)) (Gauss's
+    // law; D. J. Griffiths, Introduction to Electrodynamics, 4th ed., 2017, sec. 2.2.3;
+    // common practice).
+    let (a, b) = (1.0e-3, 2.0e-3);
+    let design = Design {
+        mode: Mode::Axisymmetric,
+        domain: Domain {
+            x: [0.0, 3.0e-3],
+            y: [-3.0e-3, 3.0e-3],
+            cell: 0.05e-3,
+        },
+        sides: Sides {
+            left: Side::Axis,
+            ..Sides::default()
+        },
+        conductors: vec![
+            conductor(
+                "inner",
+                1.0,
+                Shape::Circle {
+                    center: [0.0, 0.0],
+                    radius: a,
+                },
+            ),
+            conductor(
+                "shell",
+                0.0,
+                Shape::Ring {
+                    center: [0.0, 0.0],
+                    inner: b,
+                    outer: 3.0e-3,
+                },
+            ),
+        ],
+        ..Design::default()
+    };
+    let grid = Grid::from_lines(
+        stretched(0.0, 3.0e-3, 60, 0.1, 0.7),
+        stretched(-3.0e-3, 3.0e-3, 120, 0.1, 0.2),
+    )
+    .unwrap();
+    assert!(grid.max_cell() > 1.5 * grid.min_cell());
+    let s = solve_on(&design, grid);
+    let want = b / (a * (b - a));
+    let (worst, peak) = deviations(&s, want);
+    eprintln!("spheres on a stretched grid: worst sample {worst:.3e}, peak {peak:.3e}");
+    assert!(
+        worst < 5e-3 && peak < 5e-3,
+        "worst {worst:e}, peak {peak:e}"
+    );
+    let spot = s.peak_field.as_ref().unwrap();
+    eprintln!(
+        "spheres: peak {:e} V/m, estimate {:?}",
+        spot.magnitude, spot.error_estimate
+    );
+    // What a margin divides by is never below the true field.
+    assert!(spot.magnitude + spot.error_estimate.unwrap() >= want);
+    let r = spot.x.hypot(spot.y);
+    assert!((r - a).abs() < 1e-6, "peak at r = {r:e}");
+}
