@@ -31,7 +31,9 @@ mod solves;
 
 use estimate::CoarseStudies;
 pub use estimate::ErrorModel;
+pub use solves::WarmStart;
 use solves::{solve_on, Core};
+use std::sync::Arc;
 
 /// What to run. Start from `StudyParams::default()` and set the fields that matter (more
 /// may be added).
@@ -50,6 +52,12 @@ pub struct StudyParams {
     pub hotspots: HotspotParams,
     /// Told as each stage of the study starts and ends.
     pub stages: Option<StageMonitor>,
+    /// Starting guesses for the solves on the study's lattice (from an earlier study of a
+    /// nearby design); used only when they fit the lattice (same node counts and
+    /// conductors), else every solve starts from zero.
+    pub warm_start: Option<Arc<WarmStart>>,
+    /// Keep the lattice's solves in [`Solution::warm_start`], to start a later study from.
+    pub keep_warm_start: bool,
 }
 
 impl Default for StudyParams {
@@ -61,6 +69,8 @@ impl Default for StudyParams {
             error_estimate: true,
             hotspots: HotspotParams::default(),
             stages: None,
+            warm_start: None,
+            keep_warm_start: false,
         }
     }
 }
@@ -76,6 +86,15 @@ impl StudyParams {
     pub fn with_solver(mut self, solver: Params) -> Self {
         self.solver = solver;
         self
+    }
+
+    /// These settings without a warm start and keeping nothing for one.
+    pub(crate) fn cold(&self) -> StudyParams {
+        StudyParams {
+            warm_start: None,
+            keep_warm_start: false,
+            ..self.clone()
+        }
     }
 
     /// These settings with the error estimate on or off.
@@ -196,6 +215,8 @@ pub struct Solution {
     pub solve: SolveSummary,
     /// Warnings for the user.
     pub warnings: Vec<Warning>,
+    /// The lattice's solves, when [`StudyParams::keep_warm_start`] asked for them.
+    pub warm_start: Option<Arc<WarmStart>>,
 }
 
 impl Solution {
@@ -239,7 +260,8 @@ pub fn run_planned(
     }
     let coarse = CoarseStudies::run(design, &grid, params, corners.is_empty())?;
     stages.leave();
-    let core = solve_on(design, &grid, params, monitor)?;
+    let mut core = solve_on(design, &grid, params, monitor)?;
+    let warm_start = core.warm.take().map(Arc::new);
     let capacitance = capacitance(design, &grid, &core, &coarse, !corners.is_empty());
     let mut warnings = match &capacitance.error_estimate {
         Some(err) => estimate::capacitance_warnings(&capacitance.names, &core.maxwell, err),
@@ -302,6 +324,7 @@ pub fn run_planned(
         magnitude,
         raster: core.raster,
         operator: core.op,
+        warm_start,
     })
 }
 

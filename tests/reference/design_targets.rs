@@ -371,3 +371,67 @@ fn microstrip_tolerances_match_hammerstad_jensen_derivatives() {
         .0;
     assert_eq!(z["dominant"], tol[dominant].0);
 }
+
+#[test]
+fn coax_radius_for_a_wanted_capacitance_warm_started_matches_the_closed_form() {
+    let dir = scratch(SCRATCH, "coax-target");
+    let design = write(&dir, "coax.toml", COAX);
+    let out = dir.join("out");
+    // The domain does not move with the inner radius, so every solve after the first starts
+    // from the previous one's solutions.
+    let wanted = 7e-11;
+    expect(
+        run(&[
+            "target",
+            &design,
+            "--quantity",
+            "C[inner,inner]",
+            "--value",
+            "7e-11",
+            "--vary",
+            "a=0.5:2.0",
+            "--out",
+            s(&out),
+            "--quiet",
+        ]),
+        0,
+    );
+    let t = read_json(&out.join("target.json"));
+    let a = t["value"].as_f64().unwrap();
+    // C = 2 pi eps0 / ln(b/a) (common practice, as above): a = b exp(-2 pi eps0 / C).
+    let want_a = 2.5 * (-2.0 * PI * EPS0 / wanted).exp();
+    println!("coax inner radius for {wanted:e} F/m: {a:.5} mm (closed form {want_a:.5}), {t}");
+    assert!(t["warm_starts"].as_u64().unwrap() >= 3, "{t}");
+    // The capacitance is within 0.5 % at these cells (the sensitivity check above sees
+    // 0.4 % in its derivative); a relative error e in C moves a by e ln(b/a), under 0.5 %.
+    assert!(
+        (a - want_a).abs() / want_a < 5e-3,
+        "a {a} mm, closed form {want_a} mm"
+    );
+    // The final solve, started from its neighbour's solutions, needed no more iterations
+    // than the same design solved from zero.
+    let cold = dir.join("cold");
+    let set = format!("a={a}");
+    expect(
+        run(&[
+            "solve",
+            &design,
+            "--set",
+            &set,
+            "--out",
+            s(&cold),
+            "--quiet",
+        ]),
+        0,
+    );
+    let iterations = |o: &std::path::Path| summary(o)["solver"]["iterations"].as_u64().unwrap();
+    println!(
+        "iterations: warm {}, cold {}",
+        iterations(&out),
+        iterations(&cold)
+    );
+    assert!(iterations(&out) <= iterations(&cold));
+    let c = |o: &std::path::Path| summary(o)["capacitance"]["matrix"][0][0].as_f64().unwrap();
+    // Both stop at the same relative residual (1e-8): the same capacitance to about that.
+    assert!((c(&out) - c(&cold)).abs() / c(&cold) < 1e-6);
+}

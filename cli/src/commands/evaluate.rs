@@ -9,7 +9,8 @@
 //!
 //! Invariants: every evaluation reads the design file again with the overrides applied
 //! (the `--set` values first, the varied ones after, so the varied ones win), plans its own
-//! grid (a parameter may change the grid's size) and solves cold; the first failing
+//! grid (a parameter may change the grid's size) and solves, from the warm start the
+//! setup's study settings carry when it fits that grid, else from zero; the first failing
 //! evaluation names the parameter values it was at.
 
 use super::{check_memory, load_design, with_threads};

@@ -20,8 +20,9 @@
 //! discretisation error at the bracket ends (the smaller), else 1e-6 of the wanted value; a
 //! `worst_margin` target is met from above (the point kept has a margin at least the wanted
 //! one whenever a point solved has);
-//! every solve is cold (each point plans its own grid, whose size may change with the
-//! parameter); exit 0 when every target was met, 3 when the search stopped first or a solve
+//! each solve starts from the previous one's solutions when its lattice has the same node
+//! counts (`warm_starts` counts them), else from zero (each point plans its own grid, whose
+//! size may change with the parameter); either way it stops at the same relative residual; exit 0 when every target was met, 3 when the search stopped first or a solve
 //! did not converge (the files then hold the best point and say so).
 
 use super::evaluate::{self, Evaluation, Setup, Solved};
@@ -102,6 +103,10 @@ struct Search<'a> {
     /// One target that must not fall short (a margin): an evaluation at or above it beats
     /// every one below it.
     at_least: bool,
+    /// The last solve's solutions, to start the next one from.
+    warm: Option<std::sync::Arc<fieldgrid_solver::study::WarmStart>>,
+    /// Solves that started from the previous one's solutions.
+    warm_starts: usize,
     solves: usize,
     unconverged: bool,
 }
@@ -123,7 +128,13 @@ impl Search<'_> {
             .zip(x)
             .map(|(b, &v)| (b.name.clone(), v))
             .collect();
+        self.setup.params.warm_start = self.warm.take();
         let ev = evaluate::evaluate(&self.setup, &values)?;
+        let sol = ev.solved.solution();
+        if let Some(w) = &self.setup.params.warm_start {
+            self.warm_starts += usize::from(w.fits(&sol.grid, sol.conductors.len()));
+        }
+        self.warm = sol.warm_start.clone();
         self.solves += 1;
         self.unconverged |= !ev.converged();
         let mut r = Vec::new();
@@ -199,6 +210,7 @@ pub fn run(args: &TargetArgs) -> Result<u8, Failure> {
     }
     let mut params = study_params(&args.opts)?;
     params.solver.monitor = None;
+    params.keep_warm_start = true;
     let setup = Setup {
         design: &args.design,
         base: super::parameter_overrides(&args.set)?,
@@ -231,6 +243,8 @@ pub fn run(args: &TargetArgs) -> Result<u8, Failure> {
         best: None,
         last: Vec::new(),
         at_least: n == 1 && args.quantity[0].eq_ignore_ascii_case("worst_margin"),
+        warm: None,
+        warm_starts: 0,
         solves: 0,
         unconverged: false,
     };
@@ -351,6 +365,7 @@ fn one_target(search: &mut Search, args: &TargetArgs) -> Result<(Report, bool), 
         "unit": q.unit,
         "iterations": info.evaluations,
         "solves": search.solves,
+        "warm_starts": search.warm_starts,
         "bracket": [b.lo, b.hi],
         "converged": converged && !search.unconverged,
     });
@@ -472,6 +487,7 @@ fn several_targets(search: &mut Search, args: &TargetArgs) -> Result<(Report, bo
         "targets": targets,
         "iterations": info.iterations,
         "solves": search.solves,
+        "warm_starts": search.warm_starts,
         "converged": info.converged && !search.unconverged,
     });
     Ok(((json, text), info.converged))

@@ -82,6 +82,8 @@ impl CoarseStudies {
         params: &StudyParams,
         smooth: bool,
     ) -> Result<CoarseStudies, StudyError> {
+        // The coarse lattices start cold and keep nothing for a later study.
+        let params = &params.cold();
         let coarse_grid = grid.coarsened();
         let coarser_grid = coarse_grid.coarsened();
         let coarse = if params.error_estimate && grid.nx > 8 && grid.ny > 8 {

@@ -30,6 +30,28 @@ pub(super) struct Core {
     pub(super) maxwell: Vec<Vec<f64>>,
     /// One record per linear solve.
     pub(super) infos: Vec<Info>,
+    /// The solves, when the study keeps them for a later one.
+    pub(super) warm: Option<WarmStart>,
+}
+
+/// The solutions of a study's solves on its lattice, to start the solves of a nearby
+/// design's study from: one per conductor at 1 V (every other at 0 V) and the sides and
+/// free charge's. Any starting guess converges to the same tolerance (the solvers stop on the
+/// residual relative to the right-hand side), so a guess changes the iteration count only.
+#[derive(Clone, Debug, PartialEq)]
+pub struct WarmStart {
+    nx: usize,
+    ny: usize,
+    unit: Vec<Vec<f64>>,
+    background: Option<Vec<f64>>,
+}
+
+impl WarmStart {
+    /// True when these solves fit a lattice of `grid`'s node counts with `conductors`
+    /// conductors.
+    pub fn fits(&self, grid: &Grid, conductors: usize) -> bool {
+        self.nx == grid.nx && self.ny == grid.ny && self.unit.len() == conductors
+    }
 }
 
 impl Operator {
@@ -76,6 +98,13 @@ pub(super) fn solve_on(
     let mut phi = vec![0.0; n];
     let mut response = vec![Vec::new(); nc];
     let mut kept: Vec<(usize, Vec<f64>)> = Vec::new();
+    let warm = params.warm_start.as_deref().filter(|w| w.fits(grid, nc));
+    let mut keep = WarmStart {
+        nx: grid.nx,
+        ny: grid.ny,
+        unit: Vec::new(),
+        background: None,
+    };
     let record = |r: Result<Info, solvers::SolveError>, infos: &mut Vec<Info>| match r {
         Ok(i) => infos.push(i),
         Err(e) => infos.push(e.info().clone()),
@@ -85,12 +114,15 @@ pub(super) fn solve_on(
         unit[k] = 1.0;
         let values = op.target_values(&unit, false);
         let b = op.rhs(&values, false);
-        let mut x = vec![0.0; n];
+        let mut x = warm.map_or_else(|| vec![0.0; n], |w| w.unit[k].clone());
         record(
             prepared.solve(&op.stencil, &b, &mut x, &params.solver),
             &mut infos,
         );
         response[k] = op.reactions(&x, &values, false);
+        if params.keep_warm_start {
+            keep.unit.push(x.clone());
+        }
         match design.conductors[k].drive {
             Drive::Fixed(v) => {
                 if v != 0.0 {
@@ -104,11 +136,16 @@ pub(super) fn solve_on(
     let values0 = op.target_values(&zero, true);
     let b0 = op.rhs(&values0, true);
     let background = if b0.iter().any(|&v| v != 0.0) {
-        let mut x0 = vec![0.0; n];
+        let mut x0 = warm
+            .and_then(|w| w.background.clone())
+            .unwrap_or_else(|| vec![0.0; n]);
         record(
             prepared.solve(&op.stencil, &b0, &mut x0, &params.solver),
             &mut infos,
         );
+        if params.keep_warm_start {
+            keep.background = Some(x0.clone());
+        }
         let q = op.reactions(&x0, &values0, true);
         phi.iter_mut().zip(&x0).for_each(|(p, x)| *p += x);
         q
@@ -209,6 +246,7 @@ pub(super) fn solve_on(
         background,
         maxwell,
         infos,
+        warm: params.keep_warm_start.then_some(keep),
     })
 }
 
