@@ -175,6 +175,10 @@ pub struct SensitivityArgs {
     /// Seed of --monte-carlo.
     #[arg(long, default_value_t = 1, value_name = "SEED")]
     pub seed: u64,
+    /// Also solve every corner of the tolerance box (2^k solves for k toleranced
+    /// parameters, at most 6) and give each quantity's extremes there.
+    #[arg(long)]
+    pub vertices: bool,
 }
 
 /// `fieldgrid target`.

@@ -112,6 +112,30 @@ pub fn samples(nominal: &[f64], tol: &[f64], count: usize, seed: u64) -> Vec<Vec
         .collect()
 }
 
+/// Most toleranced parameters whose corners [`vertices`] lists (2^6 = 64 corners).
+pub const MAX_VERTEX_PARAMETERS: usize = 6;
+
+/// Every corner of the box [nominal - tol, nominal + tol]: corner k has parameter i at its
+/// upper end when bit i of k is set. Their extremes are the vertex worst case, exact for a
+/// result monotonic in each parameter, where the linear worst case is only first-order.
+///
+/// # Panics
+/// When more than [`MAX_VERTEX_PARAMETERS`] parameters are given.
+pub fn vertices(nominal: &[f64], tol: &[f64]) -> Vec<Vec<f64>> {
+    assert_eq!(nominal.len(), tol.len(), "one tolerance per parameter");
+    assert!(nominal.len() <= MAX_VERTEX_PARAMETERS, "too many corners");
+    (0..1usize << nominal.len())
+        .map(|k| {
+            nominal
+                .iter()
+                .zip(tol)
+                .enumerate()
+                .map(|(i, (p, t))| if k >> i & 1 == 1 { p + t } else { p - t })
+                .collect()
+        })
+        .collect()
+}
+
 /// Sample statistics of one quantity.
 #[derive(Clone, Debug, PartialEq)]
 pub struct Stats {
@@ -194,6 +218,21 @@ mod tests {
             .collect();
         let st = stats(&u).unwrap();
         assert!(st.mean.abs() < 0.02 && (st.std - 3f64.sqrt().recip()).abs() < 0.01);
+    }
+
+    #[test]
+    fn vertices_are_every_corner_once() {
+        let v = vertices(&[1.0, 10.0], &[0.5, 2.0]);
+        assert_eq!(
+            v,
+            vec![
+                vec![0.5, 8.0],
+                vec![1.5, 8.0],
+                vec![0.5, 12.0],
+                vec![1.5, 12.0]
+            ]
+        );
+        assert_eq!(vertices(&[], &[]), vec![Vec::<f64>::new()]);
     }
 
     #[test]

@@ -400,3 +400,46 @@ fn a_margin_target_is_met_from_above() {
         achieved
     );
 }
+
+#[test]
+fn vertices_give_the_exact_extremes_of_a_nonlinear_result() {
+    let dir = scratch(SCRATCH, "vertices");
+    let (csv, sum) = coupling_tolerances(&dir, "v", &["--tolerance", "g=0.05", "--vertices"]);
+    let q = &sum["tolerances"]["quantities"]["C[lower,upper]"];
+    let corners = &q["vertices"];
+    assert_eq!(corners["count"], 2);
+    // The coupling -eps0 W / g (uniform field between plates spanning the mirror box,
+    // common practice) at the corners g = 0.45 and 0.55 mm: the cut-cell operator holds the
+    // linear potential exactly, so only the solver tolerance separates them.
+    let c = |g: f64| -fieldgrid_solver::EPS0 * 4e-3 / (g * 1e-3);
+    let (lo, hi) = (
+        corners["min"].as_f64().unwrap(),
+        corners["max"].as_f64().unwrap(),
+    );
+    assert!((lo - c(0.45)).abs() < 1e-6 * lo.abs(), "{corners}");
+    assert!((hi - c(0.55)).abs() < 1e-6 * hi.abs(), "{corners}");
+    // 1/g curves: the corners are not symmetric about the nominal value, the linear worst
+    // case is.
+    let nominal = q["nominal"].as_f64().unwrap();
+    assert!((nominal - lo) > 1.1 * (hi - nominal), "{q}");
+    let text = String::from_utf8(csv).unwrap();
+    assert!(text
+        .lines()
+        .next()
+        .unwrap()
+        .ends_with("vertex min,vertex max"));
+    let (code, message) = failure_of(&[
+        "solve",
+        &write(
+            &dir,
+            "plain.toml",
+            &PLATES.replace("[tolerances]\ng = 0.05\n", ""),
+        ),
+        "--vertices",
+        "--out",
+        s(&dir.join("none")),
+    ])
+    .unwrap_err();
+    assert_eq!(code, 2);
+    assert!(message.contains("--vertices needs tolerances"), "{message}");
+}

@@ -13,7 +13,8 @@
 //! unit of the parameter; null where a quantity is missing at a perturbed point) with
 //! `sensitivity_errors` (the same shape: error estimates) and `sensitivity_steps`
 //! (parameter -> step), `tolerances` (quantity -> nominal, worst-case
-//! low and high, rss, dominant parameter, and `monte_carlo` statistics);
+//! low and high, rss, dominant parameter, `monte_carlo` statistics and, with `--vertices`,
+//! the extremes over the corners of the tolerance box);
 //! `sensitivities.csv` (one row per quantity and parameter) and `tolerances.csv` (one row
 //! per quantity).
 //!
@@ -41,6 +42,8 @@ pub struct Request {
     pub tolerances: Vec<(String, f64)>,
     /// Monte Carlo points and seed.
     pub monte_carlo: Option<(usize, u64)>,
+    /// Solve every corner of the tolerance box.
+    pub vertices: bool,
 }
 
 /// The results.
@@ -62,6 +65,8 @@ pub struct Analysis {
     pub spreads: Vec<tolerance::Spread>,
     /// Per quantity, when Monte Carlo was asked for.
     pub monte_carlo: Option<(usize, u64, Vec<Option<tolerance::Stats>>)>,
+    /// Per quantity, the extremes over the corners of the tolerance box, when asked for.
+    pub vertices: Option<Vec<Option<tolerance::Stats>>>,
     /// Whether every solve converged.
     pub converged: bool,
 }
@@ -180,8 +185,23 @@ pub fn request(args: &SensitivityArgs, src: &DesignSource) -> Result<Option<Requ
              in the design)",
         ));
     }
-    if !asked && args.monte_carlo.is_none() {
+    if !asked && args.monte_carlo.is_none() && !args.vertices {
         return Ok(None);
+    }
+    if args.vertices && tolerances.is_empty() {
+        return Err(Failure::input(
+            "--vertices needs tolerances: give --tolerance NAME=VALUE (or [tolerances] in \
+             the design)",
+        ));
+    }
+    if args.vertices && tolerances.len() > tolerance::MAX_VERTEX_PARAMETERS {
+        return Err(Failure::input(format!(
+            "--vertices: {} toleranced parameters have {} corners; at most {} parameters \
+             (use --monte-carlo for more)",
+            tolerances.len(),
+            1u64 << tolerances.len().min(63),
+            tolerance::MAX_VERTEX_PARAMETERS
+        )));
     }
     for (name, _) in &tolerances {
         if !parameters.contains(name) {
@@ -214,6 +234,7 @@ pub fn request(args: &SensitivityArgs, src: &DesignSource) -> Result<Option<Requ
         parameters,
         tolerances,
         monte_carlo,
+        vertices: args.vertices,
     }))
 }
 
@@ -349,7 +370,28 @@ pub fn analyse(
             ))
         }
     };
+    let vertices = if req.vertices {
+        let centre: Vec<f64> = tol_index.iter().map(|&(p, _)| values[p]).collect();
+        let tol: Vec<f64> = tol_index.iter().map(|&(_, t)| t).collect();
+        let mut columns = vec![Vec::new(); nominal.len()];
+        for corner in tolerance::vertices(&centre, &tol) {
+            let over = tol_index
+                .iter()
+                .zip(&corner)
+                .map(|(&(p, _), &v)| (req.parameters[p].clone(), sensitivity::stepped(v, 0.0)))
+                .collect();
+            for (c, v) in columns.iter_mut().zip(pick(&solve_at(over)?)) {
+                if v.is_finite() {
+                    c.push(v);
+                }
+            }
+        }
+        Some(columns.iter().map(|c| tolerance::stats(c)).collect())
+    } else {
+        None
+    };
     Ok(Analysis {
+        vertices,
         parameters: req.parameters.clone(),
         values,
         steps,
@@ -427,8 +469,11 @@ impl Analysis {
                 "rss": finite(s.rss),
                 "dominant": s.dominant.map(|i| tolerances[i].0.clone()),
             });
+            let i = self.quantities.iter().position(|x| x.name == q.name);
+            if let Some(Some(st)) = self.vertices.as_ref().zip(i).map(|(v, i)| &v[i]) {
+                v["vertices"] = json!({ "count": st.count, "min": st.min, "max": st.max });
+            }
             if let Some((_, _, stats)) = &self.monte_carlo {
-                let i = self.quantities.iter().position(|x| x.name == q.name);
                 if let Some(Some(st)) = i.map(|i| &stats[i]) {
                     v["monte_carlo"] = json!({
                         "count": st.count, "mean": st.mean, "std": st.std,
@@ -491,6 +536,9 @@ impl Analysis {
             let s = &self.spreads[i];
             let st = mc.and_then(|m| m.2[i].as_ref());
             let opt = |f: fn(&tolerance::Stats) -> f64| st.map(|s| num(f(s))).unwrap_or_default();
+            let corners = self.vertices.as_ref().and_then(|v| v[i].as_ref());
+            let corner =
+                |f: fn(&tolerance::Stats) -> f64| corners.map(|s| num(f(s))).unwrap_or_default();
             vec![
                 q.name.clone(),
                 q.unit.clone(),
@@ -505,6 +553,8 @@ impl Analysis {
                 opt(|s| s.std),
                 opt(|s| s.min),
                 opt(|s| s.max),
+                corner(|s| s.min),
+                corner(|s| s.max),
             ]
         });
         csv_bytes(
@@ -520,6 +570,8 @@ impl Analysis {
                 "monte carlo std",
                 "monte carlo min",
                 "monte carlo max",
+                "vertex min",
+                "vertex max",
             ],
             rows,
         )
@@ -595,9 +647,15 @@ impl Analysis {
                     .and_then(|m| m.2[qi].as_ref())
                     .map(|st| format!("  mc {:.4e} +/- {:.2e}", st.mean, st.std))
                     .unwrap_or_default();
+                let corners = self
+                    .vertices
+                    .as_ref()
+                    .and_then(|v| v[qi].as_ref())
+                    .map(|st| format!("  corners {:.4e} .. {:.4e}", st.min, st.max))
+                    .unwrap_or_default();
                 let _ = writeln!(
                     s,
-                    "  {:>16}  {:.4e} .. {:.4e}  rss {:.2e}  {}{mc}",
+                    "  {:>16}  {:.4e} .. {:.4e}  rss {:.2e}  {}{mc}{corners}",
                     q.name,
                     sp.low,
                     sp.high,
@@ -643,6 +701,7 @@ mod tests {
                 tolerance::spread(2e-10, &[f64::NAN], &[0.0], &[0.1]),
             ],
             monte_carlo: None,
+            vertices: None,
             converged: true,
         };
         let csv = String::from_utf8(a.sensitivities_csv()).unwrap();
