@@ -76,6 +76,21 @@ pub struct Domain {
     pub cell: f64,
 }
 
+/// How the node lines of the lattice are laid out.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Default)]
+#[non_exhaustive]
+pub enum Lattice {
+    /// Equal cells, as close to the domain's `cell` as a whole number of cells allows (the
+    /// default of a design built in code).
+    #[default]
+    Uniform,
+    /// Node lines on the geometry, graded towards its singular points
+    /// ([`crate::grading`]); the domain's `cell` is the coarsest spacing. The lattice is a
+    /// twice-bisected base grid, so the error estimate's coarser lattices (every other
+    /// line) hold the same geometry lines.
+    Graded,
+}
+
 /// A point in the plane, m.
 pub type Point = [f64; 2];
 
@@ -213,6 +228,8 @@ pub struct Design {
     pub depth: Option<f64>,
     /// Domain and cell size.
     pub domain: Domain,
+    /// Uniform or graded node lines.
+    pub lattice: Lattice,
     /// Side conditions.
     pub sides: Sides,
     /// Background material.

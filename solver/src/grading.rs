@@ -8,9 +8,10 @@
 //!   conductor give a node line (the geometry is held exactly; no cut cell on those edges);
 //! - between two neighbouring node lines the size is at most their distance over
 //!   `min_cells` (every thin layer gets that many cells across);
-//! - every sharp corner of a conductor, end or kink of a polyline and point where a
-//!   conductor's outline meets a dielectric's gets the size `corner_fraction` times its local
-//!   feature size (the distance to the nearest other node line, either axis);
+//! - every sharp corner of a conductor and point where a conductor's outline meets a
+//!   dielectric's gets the size `corner_fraction` times its local feature size (the distance
+//!   to the nearest other node line, either axis), every end or kink of a polyline
+//!   `thin_end_fraction` times it (a point graded twice keeps the smaller size);
 //! - every circular arc (fillets, circles, rings) gets at most `radius / cells_per_radius`
 //!   over its extent.
 //!
@@ -25,7 +26,7 @@
 
 use crate::design::{Design, Point};
 use crate::geometry::{outline, sharp_corners, BBox, Outline, Piece};
-use crate::grid::GridError;
+use crate::grid::{Grid, GridError};
 
 /// How finely to grade. Start from `Params::default()`.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -35,6 +36,9 @@ pub struct Params {
     pub growth: f64,
     /// Target size at a singular point over its local feature size, in (0, 1].
     pub corner_fraction: f64,
+    /// The same at the ends and kinks of a thin (polyline) conductor, whose field is the
+    /// most singular (as the inverse square root of the distance), in (0, 1].
+    pub thin_end_fraction: f64,
     /// Fewest cells between two neighbouring node lines, >= 1.
     pub min_cells: usize,
     /// Fewest cells per radius along a circular arc, >= 1.
@@ -46,6 +50,7 @@ impl Default for Params {
         Params {
             growth: 1.2,
             corner_fraction: 1.0 / 16.0,
+            thin_end_fraction: 1.0 / 128.0,
             min_cells: 4,
             cells_per_radius: 8,
         }
@@ -57,6 +62,13 @@ impl Params {
     /// feature size.
     pub fn with_corner_fraction(mut self, fraction: f64) -> Self {
         self.corner_fraction = fraction;
+        self
+    }
+
+    /// These settings with the target size at the ends of thin conductors `fraction` of
+    /// the local feature size.
+    pub fn with_thin_end_fraction(mut self, fraction: f64) -> Self {
+        self.thin_end_fraction = fraction;
         self
     }
 
@@ -73,6 +85,24 @@ pub struct Lines {
     pub x: Vec<f64>,
     /// y of every node row, strictly increasing.
     pub y: Vec<f64>,
+}
+
+/// Bisections from the base grid to the lattice a study solves on: the error estimate's
+/// coarser lattices (every other line, twice) are then the base bisected once and the base.
+pub const BISECTIONS: usize = 2;
+
+/// The lattice of a graded study of `design`: the base grid of [`lines`] with cells up to
+/// `2^BISECTIONS` times the domain's `cell`, bisected [`BISECTIONS`] times, so that its
+/// largest cell is about `cell` and every coarser lattice of the error estimate holds every
+/// geometry line.
+pub fn grid(design: &Design, params: &Params) -> Result<Grid, GridError> {
+    let scale = (1usize << BISECTIONS) as f64;
+    let base = lines(design, scale * design.domain.cell, params)?;
+    let mut g = Grid::from_lines(base.x, base.y)?;
+    for _ in 0..BISECTIONS {
+        g = g.bisected();
+    }
+    Ok(g)
 }
 
 /// Most cells along one axis.
@@ -114,6 +144,8 @@ pub fn lines(design: &Design, coarsest: f64, params: &Params) -> Result<Lines, G
         params.growth > 1.0
             && params.corner_fraction > 0.0
             && params.corner_fraction <= 1.0
+            && params.thin_end_fraction > 0.0
+            && params.thin_end_fraction <= 1.0
             && params.min_cells >= 1
             && params.cells_per_radius >= 1,
         "grading parameters out of range: {params:?}"
@@ -142,23 +174,32 @@ pub fn lines(design: &Design, coarsest: f64, params: &Params) -> Result<Lines, G
                 ax.lines.push(p[0]);
                 ay.lines.push(p[1]);
             }
-            points.extend(corners);
+            let fraction = if o.open {
+                params.thin_end_fraction
+            } else {
+                params.corner_fraction
+            };
+            points.extend(corners.into_iter().map(|p| (p, fraction)));
             conductors.push(o);
         } else {
             dielectrics.push(o);
         }
     }
-    points.extend(junctions(&conductors, &dielectrics));
+    points.extend(
+        junctions(&conductors, &dielectrics)
+            .into_iter()
+            .map(|p| (p, params.corner_fraction)),
+    );
     let (x, y) = (d.x, d.y);
     ax.lines = merged(ax.lines, x, MERGE * lx);
     ay.lines = merged(ay.lines, y, MERGE * ly);
     let floor = MERGE * lx.max(ly) * 10.0;
-    for p in points {
+    for (p, fraction) in points {
         if !(p[0] >= x[0] && p[0] <= x[1] && p[1] >= y[0] && p[1] <= y[1]) {
             continue;
         }
         let lfs = nearest_other(&ax.lines, p[0]).min(nearest_other(&ay.lines, p[1]));
-        let size = (params.corner_fraction * lfs).max(floor);
+        let size = (fraction * lfs).max(floor);
         ax.features.push(Feature {
             lo: p[0],
             hi: p[0],

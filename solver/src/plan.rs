@@ -1,7 +1,8 @@
 //! The plan of a study, made before anything is solved: its lattice and an estimate of the
 //! memory the study needs.
 //!
-//! The lattice is fitted here once ([`Grid::fit`]); a study run from a plan
+//! The lattice is fitted here once ([`Grid::fit`], or [`crate::grading::grid`] for a graded
+//! design); a study run from a plan
 //! ([`crate::study::run_planned`]) uses that lattice, so what a user was told about the grid
 //! and its memory is what runs.
 //!
@@ -22,7 +23,7 @@
 //! Invariant: the estimate never falls as the lattice grows, and the configuration that
 //! needs the most (multigrid with the error estimate) is never cheaper than another.
 
-use crate::design::Design;
+use crate::design::{Design, Lattice};
 use crate::grid::{Grid, GridError};
 use crate::solvers::Method;
 
@@ -91,7 +92,10 @@ impl Plan {
 /// settings).
 pub fn plan(design: &Design, method: Method, error_estimate: bool) -> Result<Plan, GridError> {
     let d = &design.domain;
-    let grid = Grid::fit(d.x, d.y, d.cell)?;
+    let grid = match design.lattice {
+        Lattice::Uniform => Grid::fit(d.x, d.y, d.cell)?,
+        Lattice::Graded => crate::grading::grid(design, &crate::grading::Params::default())?,
+    };
     let mut bytes_per_node = STUDY_BYTES_PER_NODE;
     if method == Method::Multigrid {
         bytes_per_node += MULTIGRID_BYTES_PER_NODE;
@@ -146,5 +150,35 @@ mod tests {
             plan(&design(-1.0), Method::Multigrid, true),
             Err(GridError::Cell(-1.0))
         );
+    }
+
+    #[test]
+    fn a_graded_lattice_and_its_coarser_lattices_hold_the_geometry_lines() {
+        use crate::design::{Conductor, Drive, Shape};
+        let mut d = design(0.05);
+        d.lattice = Lattice::Graded;
+        d.conductors.push(Conductor {
+            name: "c".into(),
+            drive: Drive::Fixed(1.0),
+            shape: Shape::Rect {
+                x: [0.3, 0.55],
+                y: [0.4, 0.41],
+                round: 0.0,
+            },
+        });
+        let g = plan(&d, Method::Multigrid, true).unwrap().grid().clone();
+        assert!(!g.is_uniform());
+        assert!(g.max_cell() <= 0.05 * (1.0 + 1e-12), "{}", g.max_cell());
+        let coarse = g.coarsened();
+        let coarser = coarse.coarsened();
+        assert_eq!(coarser.bisected().bisected(), g);
+        for lattice in [&g, &coarse, &coarser] {
+            for x in [0.0, 0.3, 0.55, 1.0] {
+                assert!(lattice.xs().contains(&x), "x = {x}");
+            }
+            for y in [0.0, 0.4, 0.41, 1.0] {
+                assert!(lattice.ys().contains(&y), "y = {y}");
+            }
+        }
     }
 }

@@ -183,6 +183,7 @@ impl Scene {
                 y: [y0, y0 + LY],
                 cell: CELL,
             },
+            lattice: Default::default(),
             sides,
             background: Background::default(),
             conductors,

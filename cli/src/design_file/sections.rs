@@ -13,7 +13,8 @@ pub const MAX_NAME_BYTES: usize = 200;
 use std::collections::HashMap;
 
 use fieldgrid_solver::design::{
-    Background, Charge, Conductor, Design, Dielectric, Domain, Drive, Mode, Probe, Side, Sides,
+    Background, Charge, Conductor, Design, Dielectric, Domain, Drive, Lattice, Mode, Probe, Side,
+    Sides,
 };
 
 use super::expr;
@@ -93,7 +94,7 @@ impl Reader<'_> {
                 "missing [grid] table (the domain x, y and the cell size)",
             )
         })?;
-        d.domain = self.grid(&grid.node)?;
+        (d.domain, d.lattice) = self.grid(&grid.node)?;
         self.cell = d.domain.cell;
         if let Some(e) = get(top, "sides") {
             d.sides = self.sides(&e.node)?;
@@ -271,8 +272,8 @@ impl Reader<'_> {
         Ok(out)
     }
 
-    pub(super) fn grid(&self, node: &Node) -> Res<Domain> {
-        let t = self.table(node, "grid", &["x", "y", "cell"])?;
+    pub(super) fn grid(&self, node: &Node) -> Res<(Domain, Lattice)> {
+        let t = self.table(node, "grid", &["x", "y", "cell", "lattice"])?;
         let x = self.required(t, node, "grid", "x", "the domain extent [x0, x1]")?;
         let y = self.required(t, node, "grid", "y", "the domain extent [y0, y1]")?;
         let cell = self.required(t, node, "grid", "cell", "the target cell size")?;
@@ -286,11 +287,26 @@ impl Reader<'_> {
         }
         let ys = self.extent(&y.node, "grid.y")?;
         let c = self.size(&cell.node, "grid.cell", "the cell size", false)?;
-        Ok(Domain {
+        let lattice = match t.iter().find(|e| e.key == "lattice") {
+            None => Lattice::Uniform,
+            Some(e) => match self.string(&e.node, "grid.lattice")? {
+                "graded" => Lattice::Graded,
+                "uniform" => Lattice::Uniform,
+                s => {
+                    return Err(self.err(
+                        &e.node.span,
+                        "grid.lattice",
+                        format!("unknown lattice \"{s}\": use graded or uniform"),
+                    ))
+                }
+            },
+        };
+        let domain = Domain {
             x: xs,
             y: ys,
             cell: c,
-        })
+        };
+        Ok((domain, lattice))
     }
 
     pub(super) fn sides(&self, node: &Node) -> Res<Sides> {

@@ -2,7 +2,9 @@
 //! design; parameters, overrides, units and positions behave as documented.
 
 use super::*;
-use fieldgrid_solver::design::{Background, Charge, Dielectric, Domain, Drive, Shape, Side, Sides};
+use fieldgrid_solver::design::{
+    Background, Charge, Dielectric, Domain, Drive, Lattice, Shape, Side, Sides,
+};
 
 const EVERY_KEY: &str = r#"
 unit = "mm"
@@ -220,6 +222,21 @@ fn defaults_are_metres_planar_grounded_vacuum() {
         }
     );
     assert!(src.parameters.is_empty());
+    assert_eq!(src.design.lattice, Lattice::Uniform);
+}
+
+#[test]
+fn the_grid_lattice_is_uniform_or_graded() {
+    let grid = |extra: &str| {
+        read(&format!(
+            "[grid]\nx = [0, 1]\ny = [0, 2]\ncell = 0.1\n{extra}"
+        ))
+    };
+    let at = |extra: &str| grid(extra).unwrap().design.lattice;
+    assert_eq!(at("lattice = \"graded\"\n"), Lattice::Graded);
+    assert_eq!(at("lattice = \"uniform\"\n"), Lattice::Uniform);
+    let e = grid("lattice = \"stretched\"\n").unwrap_err();
+    assert_eq!(e.key, "grid.lattice");
 }
 
 #[test]

@@ -152,7 +152,7 @@ fn grading_reaches_the_target_at_corners_and_trace_ends() {
     // The trace end: the nearest other line is the left side, 0.6 mm below is the ground.
     let d = trace();
     let l = lines(&d, d.domain.cell, &p).unwrap();
-    let target = p.corner_fraction * 0.6e-3;
+    let target = p.thin_end_fraction * 0.6e-3;
     for c in cells_beside(&l.x, 0.675e-3) {
         assert!(c <= p.growth * target, "trace end: {c} for {target}");
     }
@@ -160,7 +160,7 @@ fn grading_reaches_the_target_at_corners_and_trace_ends() {
     let fine = lines(
         &d,
         d.domain.cell,
-        &p.with_corner_fraction(p.corner_fraction / 4.0),
+        &p.with_thin_end_fraction(p.thin_end_fraction / 4.0),
     )
     .unwrap();
     assert!(cells_beside(&fine.x, 0.675e-3)[1] < 0.5 * cells_beside(&l.x, 0.675e-3)[1]);

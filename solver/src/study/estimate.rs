@@ -1,12 +1,15 @@
 //! The discretisation-error estimate of a study: the same study on lattices twice (and four
 //! times) as coarse, and Richardson's extrapolation from their capacitance matrices.
 //!
-//! Invariants: the coarse lattices cover the same domain (`Grid::coarsened`); the estimate is
-//! never optimistic by construction of the order (1 wherever the field is singular).
+//! Invariants: the coarse lattices cover the same domain (`Grid::coarsened`); on a uniform
+//! lattice the estimate is never optimistic by construction of the order (1 wherever the
+//! field is singular). On a graded lattice the coarse lattices are the base grid bisected
+//! once and the base itself, so all three hold the same geometry lines and the order is the
+//! one observed from the three.
 
 use super::solves::{solve_on, Core};
 use super::{StudyError, StudyParams};
-use crate::design::Design;
+use crate::design::{Design, Lattice};
 use crate::grid::Grid;
 use crate::warning::Warning;
 
@@ -17,7 +20,10 @@ use crate::warning::Warning;
 /// The order `p`: 1 for designs with sharp corners or thin conductors (their singular
 /// fields make the scheme first order); for smooth designs the order observed from a third,
 /// twice coarser lattice when the three results converge monotonically, clamped to [1, 2]
-/// (the five-point scheme is second order), and 2 when no such order can be read.
+/// (the five-point scheme is second order), and 2 when no such order can be read. On a
+/// graded lattice (a family of bisections that all hold the geometry's lines, so that the
+/// error constant does not jump with where edges fall in their cells) the order observed
+/// from the three lattices, clamped to [0.5, 2], always; 1 when none can be read.
 #[derive(Clone, Debug, PartialEq)]
 pub struct ErrorModel {
     /// Maxwell matrix on the coarse lattice, same order and units as the fine one.
@@ -66,7 +72,7 @@ fn observed_order(
 }
 
 /// The studies on the coarse lattices: twice as coarse when the error estimate is asked for
-/// (and the lattice is large enough), and four times as coarse as well for smooth designs
+/// (and the lattice is large enough), and four times as coarse as well for smooth designs and graded lattices
 /// (to read the order), with their lattices.
 pub(super) struct CoarseStudies {
     coarse: Option<(Grid, Core)>,
@@ -75,7 +81,8 @@ pub(super) struct CoarseStudies {
 
 impl CoarseStudies {
     /// Runs the coarse studies of `design` around the fine lattice `grid`. `smooth`: the
-    /// design has no sharp corner or thin conductor.
+    /// design has no sharp corner or thin conductor. The third lattice runs for smooth
+    /// designs and for every graded lattice.
     pub(super) fn run(
         design: &Design,
         grid: &Grid,
@@ -94,7 +101,8 @@ impl CoarseStudies {
         } else {
             None
         };
-        let coarser = if smooth && coarse.is_some() && coarse_grid.nx > 8 && coarse_grid.ny > 8 {
+        let third = smooth || design.lattice == Lattice::Graded;
+        let coarser = if third && coarse.is_some() && coarse_grid.nx > 8 && coarse_grid.ny > 8 {
             let core = solve_on(design, &coarser_grid, params, None)?;
             Some((coarser_grid, core))
         } else {
@@ -127,7 +135,12 @@ impl CoarseStudies {
         // then converges at first order, with an error constant that depends on where the
         // singular points fall within their cells, so an order read from three lattices
         // would not be trustworthy there.
+        // On a graded family the edges stay on lines, so the observed order is read
+        // wherever it can be.
+        let graded = design.lattice == Lattice::Graded;
         let order = match observed_order {
+            Some(p) if graded => p.clamp(0.5, 2.0),
+            None if graded => 1.0,
             _ if singular => 1.0,
             Some(p) => p.clamp(1.0, 2.0),
             None => 2.0,
