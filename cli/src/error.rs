@@ -9,6 +9,8 @@ pub struct Failure {
     pub code: u8,
     /// The message printed to standard error.
     pub message: String,
+    /// The place in the design file, for a bad design (its message is `message`).
+    pub location: Option<Box<crate::design_file::InputError>>,
 }
 
 impl Failure {
@@ -17,6 +19,7 @@ impl Failure {
         Failure {
             code: crate::EXIT_BAD_INPUT,
             message: message.into(),
+            location: None,
         }
     }
 
@@ -25,6 +28,7 @@ impl Failure {
         Failure {
             code: crate::EXIT_BAD_INPUT,
             message: format!("{context}: {err}"),
+            location: None,
         }
     }
 }
@@ -37,6 +41,9 @@ impl fmt::Display for Failure {
 
 impl From<crate::design_file::InputError> for Failure {
     fn from(e: crate::design_file::InputError) -> Self {
-        Failure::input(e.to_string())
+        Failure {
+            location: Some(Box::new(e.clone())),
+            ..Failure::input(e.to_string())
+        }
     }
 }

@@ -2,16 +2,18 @@
 
 use super::{check_memory, load_design};
 use crate::args::CheckArgs;
+use crate::design_file::DesignSource;
 use crate::error::Failure;
 use crate::outdir::OutDir;
 use crate::EXIT_OK;
+use fieldgrid_solver::plan::Plan;
 use fieldgrid_solver::study::StudyParams;
 
-/// Runs the command, returning the exit code.
-pub fn run(args: &CheckArgs) -> Result<u8, Failure> {
-    let src = load_design(&args.design, &super::parameter_overrides(&args.set)?)?;
+/// The checks of `check` on a design read: its plan (grid fitted once), the memory a solve
+/// needs, MiB, and what check.json holds.
+pub fn check(src: &DesignSource) -> Result<(Plan, f64, serde_json::Value), Failure> {
     let (plan, mib) = check_memory(
-        &src,
+        src,
         fieldgrid_solver::study::plan(&src.design, &StudyParams::default()),
         None,
         0.0,
@@ -38,6 +40,14 @@ pub fn run(args: &CheckArgs) -> Result<u8, Failure> {
         "conductors": d.conductors.iter().map(|c| c.name.clone()).collect::<Vec<_>>(),
         "dielectrics": d.dielectrics.iter().map(|c| c.name.clone()).collect::<Vec<_>>(),
     });
+    Ok((plan, mib, report))
+}
+
+/// Runs the command, returning the exit code.
+pub fn run(args: &CheckArgs) -> Result<u8, Failure> {
+    let src = load_design(&args.design, &super::parameter_overrides(&args.set)?)?;
+    let (plan, mib, report) = check(&src)?;
+    let grid = plan.grid();
     if let Some(dir) = &args.out {
         let mut out = OutDir::prepare(dir)?;
         out.write_png(

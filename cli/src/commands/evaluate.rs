@@ -203,6 +203,7 @@ fn at_values(values: &[(String, f64)], f: Failure) -> Failure {
     Failure {
         code: f.code,
         message: format!("at {}: {message}", at.join(", ")),
+        location: f.location,
     }
 }
 

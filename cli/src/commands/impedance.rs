@@ -8,14 +8,17 @@
 
 use super::solve::{study_failure, write_results};
 use super::{check_memory, load_design, study_params, with_threads};
-use crate::args::ImpedanceArgs;
+use crate::args::{ImpedanceArgs, SolveOptions};
+use crate::design_file::DesignSource;
 use crate::error::Failure;
 use crate::outdir::{csv_bytes, num, OutDir};
 use crate::summary::Summary;
 use crate::{EXIT_NOT_CONVERGED, EXIT_OK};
 use fieldgrid_solver::design::{Design, Mode};
 use fieldgrid_solver::line::{self, LineParams};
-use fieldgrid_solver::line_study::{self, LineStudyError, SignalError};
+use fieldgrid_solver::line_study::{self, LineStudy, LineStudyError, SignalError};
+use fieldgrid_solver::plan::Plan;
+use fieldgrid_solver::study::StudyParams;
 use fieldgrid_solver::warning::Warning;
 use serde_json::{json, Value};
 use std::time::Instant;
@@ -39,32 +42,15 @@ pub fn run(args: &ImpedanceArgs) -> Result<u8, Failure> {
 /// Runs the command with `extra` results, returning the exit code.
 pub fn run_with(args: &ImpedanceArgs, extra: Option<Extra>) -> Result<u8, Failure> {
     let src = load_design(&args.design, &super::parameter_overrides(&args.set)?)?;
-    let design = &src.design;
-    if design.mode != Mode::Planar {
-        return Err(Failure::input(format!(
-            "{}: `impedance` needs a planar cross-section (mode = \"planar\")",
-            args.design.display()
-        )));
-    }
-    check_signals(design, &args.signal)?;
-    let params = study_params(&args.opts)?;
-    let (plan, _) = check_memory(
-        &src,
-        line_study::plan(design, &params),
-        args.opts.max_memory,
-        0.0,
-    )?;
+    let (params, plan) = prepare(&src, &args.signal, &args.opts)?;
     let mut out = OutDir::prepare(&args.out)?;
-    let start = Instant::now();
-    let ls = with_threads(args.opts.threads, || {
-        line_study::run_planned(design, &plan, &args.signal, &params)
-    })?
-    .map_err(|e| line_failure(&src, &args.signal, e))?;
-    let seconds = start.elapsed().as_secs_f64();
+    let LineSolved {
+        study: ls,
+        mut summary,
+    } = study(&src, &plan, &args.signal, &params, args.opts.threads)?;
     if !args.opts.quiet && std::io::IsTerminal::is_terminal(&std::io::stderr()) {
         eprint!("\r{:60}\r", "");
     }
-    let mut summary = line_summary(&src, &ls, &args.signal, seconds);
     let extra_text = match extra {
         Some(f) => Some(f(&src, &ls, &mut summary, &out)?),
         None => None,
@@ -91,6 +77,57 @@ pub fn run_with(args: &ImpedanceArgs, extra: Option<Extra>) -> Result<u8, Failur
         return Ok(EXIT_NOT_CONVERGED);
     }
     Ok(EXIT_OK)
+}
+
+/// A finished line study and its summary ([`line_summary`]).
+pub struct LineSolved {
+    /// Both studies and the line parameters.
+    pub study: LineStudy,
+    /// What summary.json holds.
+    pub summary: Summary,
+}
+
+/// Checks that the design is planar and the signals name fixed conductors, then the study's
+/// settings and its plan's memory (as [`super::solve::prepare`]).
+pub fn prepare(
+    src: &DesignSource,
+    signals: &[String],
+    opts: &SolveOptions,
+) -> Result<(StudyParams, Plan), Failure> {
+    let design = &src.design;
+    if design.mode != Mode::Planar {
+        return Err(Failure::input(format!(
+            "{}: `impedance` needs a planar cross-section (mode = \"planar\")",
+            src.file
+        )));
+    }
+    check_signals(design, signals)?;
+    let params = study_params(opts)?;
+    let (plan, _) = check_memory(
+        src,
+        line_study::plan(design, &params),
+        opts.max_memory,
+        0.0,
+    )?;
+    Ok((params, plan))
+}
+
+/// Runs a prepared line study on `threads` worker threads and builds its summary.
+pub fn study(
+    src: &DesignSource,
+    plan: &Plan,
+    signals: &[String],
+    params: &StudyParams,
+    threads: Option<usize>,
+) -> Result<LineSolved, Failure> {
+    let start = Instant::now();
+    let ls = with_threads(threads, || {
+        line_study::run_planned(&src.design, plan, signals, params)
+    })?
+    .map_err(|e| line_failure(src, signals, e))?;
+    let seconds = start.elapsed().as_secs_f64();
+    let summary = line_summary(src, &ls, signals, seconds);
+    Ok(LineSolved { study: ls, summary })
 }
 
 /// The summary of a line study: the design's own study, the vacuum study's solver record

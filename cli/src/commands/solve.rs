@@ -1,14 +1,16 @@
 //! `fieldgrid solve DESIGN --out DIR`: solve and write every result.
 
 use super::{load_design, study_params, with_threads};
-use crate::args::SolveArgs;
+use crate::args::{SolveArgs, SolveOptions};
 use crate::design_file::DesignSource;
 use crate::error::Failure;
 use crate::outdir::{csv_bytes, num, png_bytes, OutDir};
 use crate::summary::Summary;
 use crate::timings::Timings;
 use crate::{EXIT_CHANGED, EXIT_NOT_CONVERGED, EXIT_OK};
-use fieldgrid_solver::study::{self, Solution, StudyError};
+use fieldgrid_solver::circuit::NoCircuit;
+use fieldgrid_solver::plan::Plan;
+use fieldgrid_solver::study::{self, Solution, StudyError, StudyParams};
 use std::sync::Arc;
 use std::time::Instant;
 
@@ -48,18 +50,12 @@ pub fn run_timed_with(
     let src = timings.time("read", || {
         load_design(&args.design, &super::parameter_overrides(&args.set)?)
     })?;
-    let mut params = study_params(&args.opts)?;
     let extra = if args.field_table {
         super::FIELD_TABLE_BYTES_PER_NODE
     } else {
         0.0
     };
-    let (plan, _) = super::check_memory(
-        &src,
-        study::plan(&src.design, &params),
-        args.opts.max_memory,
-        extra,
-    )?;
+    let (mut params, plan) = prepare(&src, &args.opts, extra)?;
     params.stages = Some(timings.monitor());
     if args.circuit {
         if let Err(why) = fieldgrid_solver::circuit::exportable(src.design.mode, src.design.depth) {
@@ -74,59 +70,24 @@ pub fn run_timed_with(
         check_min_margin(&src.design, min, &args.design)?;
     }
     let mut out = OutDir::prepare(&args.out)?;
-    let start = Instant::now();
-    let sol = with_threads(args.opts.threads, || {
-        study::run_planned(&src.design, &plan, &params)
-    })?
-    .map_err(|e| study_failure(&src, e))?;
-    let seconds = start.elapsed().as_secs_f64();
+    let (sol, mut summary) = solve_planned(&src, &plan, &params, args.opts.threads)?;
     if !args.opts.quiet && std::io::IsTerminal::is_terminal(&std::io::stderr()) {
         eprint!("\r{:60}\r", "");
     }
-    let mut summary = Summary::from_solution(&sol, src.design.depth, seconds, &src.text_hash);
-    summary.parameters = crate::summary::parameters(&src);
-    summary.part = Some(crate::summary::PartSummary::of(&src.design));
     let extra_text = match more {
         Some(f) => Some(f(&src, &mut summary, &out)?),
         None => None,
     };
-    timings.time("results", || {
-        write_results(&out, &sol, &summary, &src.design, args.field_table)
-    })?;
-    if args.vtk {
-        timings.time("vtk", || {
-            let name = crate::vtk::file_name(&sol.grid);
-            let bytes = crate::vtk::bytes(&sol, &src.design)
-                .map_err(|e| Failure::io(format!("encoding {name}"), e))?;
-            out.write(name, &bytes)
-        })?;
-    }
-    // Both pictures drawn and encoded at the same time, on the threads the solve had.
-    let (potential_png, field_png) = timings.time("pictures", || {
-        with_threads(args.opts.threads, || {
-            let opts = args.pictures.render_options();
-            crate::pictures::field_maps(&src, &sol, args.log_field, &opts)
-        })
-    })?;
-    timings.time("png", || {
-        let (potential, field) = with_threads(args.opts.threads, || {
-            rayon::join(
-                || png_bytes("potential.png", &potential_png),
-                || png_bytes("field.png", &field_png),
-            )
-        })?;
-        out.write("potential.png", &potential?)?;
-        out.write("field.png", &field?)
-    })?;
-    let circuit = crate::spice::for_solution(
-        &sol,
-        &src.design,
-        &subcircuit_name(&args.design),
-        &args.design.display().to_string(),
-    );
-    if let Ok(net) = &circuit {
-        out.write("capacitance.cir", net.text.as_bytes())?;
-    }
+    let files = Files {
+        field_table: args.field_table,
+        vtk: args.vtk,
+        log_field: args.log_field,
+        pictures: args.pictures.render_options(),
+        threads: args.opts.threads,
+        subcircuit: subcircuit_name(&args.design),
+        source: args.design.display().to_string(),
+    };
+    let circuit = write_files(&out, &src, &sol, &summary, &files, timings)?;
     timings.time("commit", || out.commit())?;
     if !args.opts.quiet {
         print!("{}", report(&sol, &summary, &out));
@@ -177,6 +138,105 @@ pub fn subcircuit_name(design: &std::path::Path) -> String {
         .file_stem()
         .map(|s| s.to_string_lossy().into_owned())
         .unwrap_or_else(|| "fieldgrid".into())
+}
+
+/// A study's settings from the solve options, checked, and its plan with the memory it
+/// needs (`extra` bytes per node held beside the study) checked against `--max-memory`.
+pub fn prepare(
+    src: &DesignSource,
+    opts: &SolveOptions,
+    extra: f64,
+) -> Result<(StudyParams, Plan), Failure> {
+    let params = study_params(opts)?;
+    let (plan, _) = super::check_memory(
+        src,
+        study::plan(&src.design, &params),
+        opts.max_memory,
+        extra,
+    )?;
+    Ok((params, plan))
+}
+
+/// Solves a prepared study on `threads` worker threads: the solution and its summary (with
+/// the design's parameters and the wall time of the study).
+pub fn solve_planned(
+    src: &DesignSource,
+    plan: &Plan,
+    params: &StudyParams,
+    threads: Option<usize>,
+) -> Result<(Solution, Summary), Failure> {
+    let start = Instant::now();
+    let sol = with_threads(threads, || study::run_planned(&src.design, plan, params))?
+        .map_err(|e| study_failure(src, e))?;
+    let seconds = start.elapsed().as_secs_f64();
+    let mut summary = Summary::from_solution(&sol, src.design.depth, seconds, &src.text_hash);
+    summary.parameters = crate::summary::parameters(src);
+    summary.part = Some(crate::summary::PartSummary::of(&src.design));
+    Ok((sol, summary))
+}
+
+/// What `solve` writes besides summary.json, the tables and the pictures.
+#[derive(Clone, Debug)]
+pub struct Files {
+    /// Also `field.csv`, one row per node.
+    pub field_table: bool,
+    /// Also the VTK file (`field.vti`, or `field.vtr` on a graded grid).
+    pub vtk: bool,
+    /// field.png on a logarithmic scale.
+    pub log_field: bool,
+    /// Picture options.
+    pub pictures: crate::render::RenderOptions,
+    /// Worker threads for drawing (default: every core).
+    pub threads: Option<usize>,
+    /// Subcircuit name in capacitance.cir.
+    pub subcircuit: String,
+    /// The design as named in capacitance.cir's comments.
+    pub source: String,
+}
+
+/// Writes every file of a solve into `out` (not yet committed), timing each stage; returns
+/// the circuit export (written as capacitance.cir when there is one) or why there is none.
+pub fn write_files(
+    out: &OutDir,
+    src: &DesignSource,
+    sol: &Solution,
+    summary: &Summary,
+    files: &Files,
+    timings: &Timings,
+) -> Result<Result<crate::spice::Netlist, NoCircuit>, Failure> {
+    timings.time("results", || {
+        write_results(out, sol, summary, &src.design, files.field_table)
+    })?;
+    if files.vtk {
+        timings.time("vtk", || {
+            let name = crate::vtk::file_name(&sol.grid);
+            let bytes = crate::vtk::bytes(sol, &src.design)
+                .map_err(|e| Failure::io(format!("encoding {name}"), e))?;
+            out.write(name, &bytes)
+        })?;
+    }
+    // Both pictures drawn and encoded at the same time, on the threads the solve had.
+    let (potential_png, field_png) = timings.time("pictures", || {
+        with_threads(files.threads, || {
+            crate::pictures::field_maps(src, sol, files.log_field, &files.pictures)
+        })
+    })?;
+    timings.time("png", || {
+        let (potential, field) = with_threads(files.threads, || {
+            rayon::join(
+                || png_bytes("potential.png", &potential_png),
+                || png_bytes("field.png", &field_png),
+            )
+        })?;
+        out.write("potential.png", &potential?)?;
+        out.write("field.png", &field?)
+    })?;
+    let circuit =
+        crate::spice::for_solution(sol, &src.design, &files.subcircuit, &files.source);
+    if let Ok(net) = &circuit {
+        out.write("capacitance.cir", net.text.as_bytes())?;
+    }
+    Ok(circuit)
 }
 
 /// Refuses `--min-margin` values that are not positive numbers, and designs that give no

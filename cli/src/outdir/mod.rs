@@ -121,11 +121,23 @@ pub fn clean_up_interrupted() -> (MutexGuard<'static, Pending>, String) {
     (p, what)
 }
 
+/// Whether this process has decided about the interrupt clean-up (installed it, or chose to
+/// leave signals alone).
+static INTERRUPT_CLEANUP: Once = Once::new();
+
+/// Leaves the process's signal handling alone: no results directory of this process starts
+/// the interrupt clean-up, so SIGINT, SIGTERM and SIGHUP keep the host's meaning (a Python
+/// interpreter notes SIGINT and raises KeyboardInterrupt once the running call returns, after
+/// the set is committed or dropped). Takes effect when called before the first
+/// [`OutDir::prepare`].
+pub fn leave_signals_alone() {
+    INTERRUPT_CLEANUP.call_once(|| {});
+}
+
 /// Starts (once per process) the thread that cleans up on SIGINT, SIGTERM and SIGHUP and
 /// then ends the process with 128 + the signal number.
 fn install_interrupt_cleanup() {
-    static ONCE: Once = Once::new();
-    ONCE.call_once(|| {
+    INTERRUPT_CLEANUP.call_once(|| {
         #[cfg(unix)]
         {
             use signal_hook::consts::{SIGHUP, SIGINT, SIGTERM};

@@ -315,6 +315,7 @@ fn point_failure(p: usize, vary: &[Vary], values: &[f64], f: Failure) -> Failure
     Failure {
         code: f.code,
         message: format!("sweep point {p} ({}): {message}", at.join(", ")),
+        location: f.location,
     }
 }
 
