@@ -43,6 +43,26 @@ pub fn check(src: &DesignSource) -> Result<(Plan, f64, serde_json::Value), Failu
     Ok((plan, mib, report))
 }
 
+/// Writes preview.png (with the node lines of `grid_lines` drawn, when given) and
+/// check.json into `out` (not yet committed).
+pub fn write_files(
+    out: &OutDir,
+    src: &DesignSource,
+    report: &serde_json::Value,
+    grid_lines: Option<&fieldgrid_solver::grid::Grid>,
+    pictures: &crate::render::RenderOptions,
+) -> Result<(), Failure> {
+    out.write_png(
+        "preview.png",
+        &crate::pictures::preview(src, grid_lines, pictures),
+    )?;
+    out.write(
+        "check.json",
+        &serde_json::to_vec_pretty(report).map_err(|e| Failure::io("encoding check.json", e))?,
+    )?;
+    Ok(())
+}
+
 /// Runs the command, returning the exit code.
 pub fn run(args: &CheckArgs) -> Result<u8, Failure> {
     let src = load_design(&args.design, &super::parameter_overrides(&args.set)?)?;
@@ -50,18 +70,12 @@ pub fn run(args: &CheckArgs) -> Result<u8, Failure> {
     let grid = plan.grid();
     if let Some(dir) = &args.out {
         let mut out = OutDir::prepare(dir)?;
-        out.write_png(
-            "preview.png",
-            &crate::pictures::preview(
-                &src,
-                args.grid_lines.then_some(grid),
-                &args.pictures.render_options(),
-            ),
-        )?;
-        out.write(
-            "check.json",
-            &serde_json::to_vec_pretty(&report)
-                .map_err(|e| Failure::io("encoding check.json", e))?,
+        write_files(
+            &out,
+            &src,
+            &report,
+            args.grid_lines.then_some(grid),
+            &args.pictures.render_options(),
         )?;
         out.commit()?;
     }

@@ -1,0 +1,178 @@
+"""fieldgrid from Python: 2-D electrostatic fields around electrodes.
+
+Read a design (:class:`Design`), solve it (:func:`solve`, :func:`impedance`) or check it
+(:func:`check`), and get the capacitance matrix, conductors, energy, hot spots and margins,
+probes, warnings, line parameters and the node arrays as numpy arrays (:class:`Solution`).
+The numbers are those of the ``fieldgrid`` command for the same design and options, bit for
+bit: the package runs the same library code. Solves release the GIL.
+
+    >>> import fieldgrid
+    >>> design = fieldgrid.Design.from_file("geometries/sensor_pad.toml")
+    >>> result = fieldgrid.solve(design.with_parameters(overlay=3))
+    >>> result.capacitance            # numpy array, F/m
+    >>> result.write("out/pad")       # the files `fieldgrid solve` writes
+
+Results are estimates from a discretised field (see their error estimates); margins to
+breakdown and clearances follow the applicable standards and licensed engineering practice.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+from typing import Any, Callable, NamedTuple, Optional, Sequence
+
+from . import _fieldgrid
+from .design import Design, DesignLike, as_design
+from .errors import DesignError, FieldgridError, NotConvergedWarning
+from .results import (
+    Conductor,
+    HotSpot,
+    LineParameters,
+    Probe,
+    Solution,
+    SolveWarning,
+    WorstMargin,
+)
+
+__version__: str = _fieldgrid.VERSION
+
+__all__ = [
+    "Design",
+    "Solution",
+    "Progress",
+    "solve",
+    "impedance",
+    "check",
+    "Conductor",
+    "HotSpot",
+    "WorstMargin",
+    "Probe",
+    "SolveWarning",
+    "LineParameters",
+    "FieldgridError",
+    "DesignError",
+    "NotConvergedWarning",
+]
+
+
+class Progress(NamedTuple):
+    """What a progress callback is given: the study's current stage (``error_estimate``,
+    ``raster``, ``assembly``, ``solver_setup``, ``solves``, ...), and within a linear solve
+    the iteration and its relative residual (None as a stage starts)."""
+
+    stage: str
+    iteration: Optional[int]
+    relative_residual: Optional[float]
+
+
+ProgressCallback = Callable[[Progress], Any]
+
+
+def _progress(callback: Optional[ProgressCallback]) -> Optional[Callable[[str, Optional[int], Optional[float]], Any]]:
+    if callback is None:
+        return None
+    return lambda stage, it, rel: callback(Progress(stage, it, rel))
+
+
+def solve(
+    design: DesignLike,
+    *,
+    solver: str = "multigrid",
+    tol: float = 1e-8,
+    threads: Optional[int] = None,
+    max_iterations: Optional[int] = None,
+    error_estimate: bool = True,
+    max_memory: Optional[float] = None,
+    progress: Optional[ProgressCallback] = None,
+) -> Solution:
+    """Solves a design as ``fieldgrid solve`` does.
+
+    Args:
+        design: a :class:`Design`, or the path of a design file.
+        solver: ``"multigrid"`` (default), ``"cg"`` or ``"sor"`` (``--solver``).
+        tol: relative residual at which a linear solve stops (``--tol``).
+        threads: worker threads (``--threads``; default every core). Results do not depend
+            on it.
+        max_iterations: stop a linear solve after this many iterations (``--max-iterations``).
+        error_estimate: run the coarser-grid solves that estimate discretisation errors
+            (``--no-error-estimate`` is ``False``).
+        max_memory: refuse designs whose estimated memory exceeds this many MiB
+            (``--max-memory``; default half the memory available).
+        progress: called as ``progress(Progress(stage, iteration, relative_residual))`` as
+            stages start and at every iteration, with the GIL held; an exception it raises
+            stops further calls and is raised when the study returns.
+
+    Returns:
+        the :class:`Solution`. When a linear solve did not converge it is still returned
+        (``converged`` false) and a :class:`NotConvergedWarning` is issued.
+
+    Raises:
+        DesignError: a design too large for ``max_memory`` or refused by the study, placed
+            at its key.
+        FieldgridError: any other failure the command reports with exit code 2.
+        ValueError: an option out of range.
+    """
+    d = as_design(design)
+    native = _fieldgrid.solve(
+        d._native,
+        solver=solver,
+        tol=tol,
+        threads=threads,
+        max_iterations=max_iterations,
+        error_estimate=error_estimate,
+        max_memory=max_memory,
+        progress=_progress(progress),
+    )
+    return Solution(native)
+
+
+def impedance(
+    design: DesignLike,
+    signals: Sequence[str] | str,
+    *,
+    solver: str = "multigrid",
+    tol: float = 1e-8,
+    threads: Optional[int] = None,
+    max_iterations: Optional[int] = None,
+    error_estimate: bool = True,
+    max_memory: Optional[float] = None,
+    progress: Optional[ProgressCallback] = None,
+) -> Solution:
+    """Line parameters of a planar cross-section, as ``fieldgrid impedance --signal``.
+
+    ``signals`` names the signal conductors (a name or a list of names; every other
+    conductor is grounded). The options are those of :func:`solve`. The result's
+    :attr:`Solution.line` holds the matrices and impedances; the rest is the design's own
+    study, as summary.json has it.
+    """
+    d = as_design(design)
+    names = [signals] if isinstance(signals, str) else list(signals)
+    native = _fieldgrid.impedance(
+        d._native,
+        names,
+        solver=solver,
+        tol=tol,
+        threads=threads,
+        max_iterations=max_iterations,
+        error_estimate=error_estimate,
+        max_memory=max_memory,
+        progress=_progress(progress),
+    )
+    return Solution(native)
+
+
+def check(
+    design: DesignLike,
+    *,
+    out: Optional[str | os.PathLike[str]] = None,
+    picture_width: int = 1200,
+) -> dict[str, Any]:
+    """What ``fieldgrid check`` reports, as check.json's dict: the grid (``nx``, ``ny``,
+    ``cell``, ``hx``, ``hy``), ``unknowns_at_most``, ``memory_mib``, conductor and
+    dielectric names. With ``out``, writes preview.png and check.json there."""
+    d = as_design(design)
+    text = _fieldgrid.check(
+        d._native, None if out is None else os.fspath(out), picture_width
+    )
+    return json.loads(text)

@@ -1,0 +1,190 @@
+//! `solve`, `impedance` and `check`: the commands' own steps (prepare, study, summary) run
+//! with the GIL released, the options checked exactly as the command checks them.
+//!
+//! Invariants: the study settings come from `fieldgrid_cli::commands::study_params` on a
+//! `SolveOptions` built from the keywords, so a result equals the command's bit for bit; the
+//! progress callback only observes (it is called with the GIL held, its first exception
+//! stops further calls and is raised when the study returns).
+
+use crate::design::NativeDesign;
+use crate::errors::check as py_check;
+use crate::result::{Kind, NativeResult};
+use clap::ValueEnum;
+use fieldgrid_cli::args::{SolveOptions, SolverChoice};
+use fieldgrid_cli::commands::{impedance as line_cmd, solve as solve_cmd};
+use fieldgrid_solver::stages::{Event, StageMonitor};
+use fieldgrid_solver::study::StudyParams;
+use pyo3::exceptions::PyValueError;
+use pyo3::prelude::*;
+use std::sync::{Arc, Mutex};
+
+/// The command-line options a keyword call stands for (`quiet`: no terminal progress line).
+fn options(
+    solver: &str,
+    tol: f64,
+    threads: Option<usize>,
+    max_iterations: Option<usize>,
+    error_estimate: bool,
+    max_memory: Option<f64>,
+) -> PyResult<SolveOptions> {
+    let solver = SolverChoice::from_str(solver, false).map_err(|_| {
+        let names: Vec<String> = SolverChoice::value_variants()
+            .iter()
+            .filter_map(|v| v.to_possible_value().map(|p| p.get_name().to_string()))
+            .collect();
+        PyValueError::new_err(format!(
+            "solver {solver:?}: not a solver (choose one of {})",
+            names.join(", ")
+        ))
+    })?;
+    Ok(SolveOptions {
+        solver,
+        tol,
+        threads,
+        max_iterations,
+        quiet: true,
+        no_error_estimate: !error_estimate,
+        max_memory,
+    })
+}
+
+/// The user's progress callback and the first exception it raised.
+struct Progress {
+    callback: Py<PyAny>,
+    stage: Mutex<&'static str>,
+    error: Mutex<Option<PyErr>>,
+}
+
+impl Progress {
+    fn call(&self, iteration: Option<usize>, residual: Option<f64>) {
+        let mut error = self.error.lock().expect("progress lock");
+        if error.is_some() {
+            return;
+        }
+        let stage = *self.stage.lock().expect("progress lock");
+        Python::attach(|py| {
+            if let Err(e) = self.callback.call1(py, (stage, iteration, residual)) {
+                *error = Some(e);
+            }
+        });
+    }
+
+    /// Hooks the callback onto the study's stage and iteration monitors.
+    fn install(self: &Arc<Self>, params: &mut StudyParams) {
+        let me = Arc::clone(self);
+        params.stages = Some(StageMonitor(Arc::new(move |stage, event| {
+            if event == Event::Start {
+                *me.stage.lock().expect("progress lock") = stage.key();
+                me.call(None, None);
+            }
+        })));
+        let me = Arc::clone(self);
+        params.solver.monitor = Some(Arc::new(move |it, rel| me.call(Some(it), Some(rel))));
+    }
+
+    fn raised(&self) -> PyResult<()> {
+        match self.error.lock().expect("progress lock").take() {
+            Some(e) => Err(e),
+            None => Ok(()),
+        }
+    }
+}
+
+fn progress_of(callback: Option<Py<PyAny>>) -> Option<Arc<Progress>> {
+    callback.map(|callback| {
+        Arc::new(Progress {
+            callback,
+            stage: Mutex::new("start"),
+            error: Mutex::new(None),
+        })
+    })
+}
+
+/// Solves a design as `fieldgrid solve` does.
+#[pyfunction]
+#[pyo3(signature = (design, *, solver="multigrid", tol=1e-8, threads=None, max_iterations=None,
+                    error_estimate=true, max_memory=None, progress=None))]
+#[allow(clippy::too_many_arguments)]
+pub fn solve(
+    py: Python<'_>,
+    design: &NativeDesign,
+    solver: &str,
+    tol: f64,
+    threads: Option<usize>,
+    max_iterations: Option<usize>,
+    error_estimate: bool,
+    max_memory: Option<f64>,
+    progress: Option<Py<PyAny>>,
+) -> PyResult<NativeResult> {
+    let opts = options(solver, tol, threads, max_iterations, error_estimate, max_memory)?;
+    let src = Arc::clone(&design.src);
+    let (mut params, plan) = py_check(py, solve_cmd::prepare(&src, &opts, 0.0))?;
+    let progress = progress_of(progress);
+    if let Some(p) = &progress {
+        p.install(&mut params);
+    }
+    let solved = py.detach(|| solve_cmd::solve_planned(&src, &plan, &params, opts.threads));
+    if let Some(p) = &progress {
+        p.raised()?;
+    }
+    let (sol, summary) = py_check(py, solved)?;
+    Ok(NativeResult::new(src, Kind::Solve(Box::new(sol)), summary))
+}
+
+/// Line parameters of a planar design as `fieldgrid impedance` computes them.
+#[pyfunction]
+#[pyo3(signature = (design, signals, *, solver="multigrid", tol=1e-8, threads=None,
+                    max_iterations=None, error_estimate=true, max_memory=None, progress=None))]
+#[allow(clippy::too_many_arguments)]
+pub fn impedance(
+    py: Python<'_>,
+    design: &NativeDesign,
+    signals: Vec<String>,
+    solver: &str,
+    tol: f64,
+    threads: Option<usize>,
+    max_iterations: Option<usize>,
+    error_estimate: bool,
+    max_memory: Option<f64>,
+    progress: Option<Py<PyAny>>,
+) -> PyResult<NativeResult> {
+    let opts = options(solver, tol, threads, max_iterations, error_estimate, max_memory)?;
+    let src = Arc::clone(&design.src);
+    let (mut params, plan) = py_check(py, line_cmd::prepare(&src, &signals, &opts))?;
+    let progress = progress_of(progress);
+    if let Some(p) = &progress {
+        p.install(&mut params);
+    }
+    let solved = py.detach(|| line_cmd::study(&src, &plan, &signals, &params, opts.threads));
+    if let Some(p) = &progress {
+        p.raised()?;
+    }
+    let solved = py_check(py, solved)?;
+    let summary = solved.summary.clone();
+    Ok(NativeResult::new(src, Kind::Line(Box::new(solved)), summary))
+}
+
+/// What `fieldgrid check` reports (check.json's text); with `out`, writes preview.png and
+/// check.json there as the command does.
+#[pyfunction]
+#[pyo3(signature = (design, out=None, picture_width=1200))]
+pub fn check(
+    py: Python<'_>,
+    design: &NativeDesign,
+    out: Option<std::path::PathBuf>,
+    picture_width: u32,
+) -> PyResult<String> {
+    let src = Arc::clone(&design.src);
+    let render = crate::result::render_options(picture_width)?;
+    let report = py.detach(|| -> Result<serde_json::Value, fieldgrid_cli::error::Failure> {
+        let (_, _, report) = fieldgrid_cli::commands::check::check(&src)?;
+        if let Some(dir) = &out {
+            let mut o = fieldgrid_cli::outdir::OutDir::prepare(dir)?;
+            fieldgrid_cli::commands::check::write_files(&o, &src, &report, &render)?;
+            o.commit()?;
+        }
+        Ok(report)
+    });
+    let report = py_check(py, report)?;
+    Ok(report.to_string())
+}
