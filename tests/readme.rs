@@ -18,6 +18,12 @@
 //!   `<!-- not checked: WHY -->`. Every quoted line must appear, as a whole line, in what was
 //!   printed or written; lines holding `...` mark a cut and are not compared.
 //! - ```` ```toml ````: design-file excerpts, not run.
+//! - Python: the commands `pip ...` and `python3 ...` of an ```` ```sh ```` block and the
+//!   scripts of ```` ```python ```` blocks run in the repository's root (so `pip install
+//!   ./python` installs this tree) inside the virtual environment `python-venv` of the
+//!   target directory (made when missing; `.ci/run` makes the same one, so the extension is
+//!   built once), with `fieldgrid` on PATH. Where `python3 -m venv` fails they are skipped
+//!   and the run says so.
 //! - any other fence, or a block with no kind, fails the test: a command cannot slip past it.
 //!
 //! The file has its own `main` (no test harness): started under the name `fieldgrid` (the
@@ -36,6 +42,8 @@ enum Kind {
     Output(Check),
     /// A design; with a `<!-- file: PATH -->` announcement, every line must be in that file.
     Toml(Option<String>),
+    /// A Python script, run by the virtual environment's `python3`.
+    Python,
 }
 
 #[derive(Debug, PartialEq)]
@@ -86,9 +94,10 @@ fn blocks(text: &str) -> Vec<Block> {
                 _ => None,
             }),
             "text" => Kind::Output(announcement(&lines, start)),
+            "python" => Kind::Python,
             other => panic!(
                 "README line {}: a fenced block of kind {other:?}; use sh (commands), bash \
-                 (a script), text (output) or toml (a design)",
+                 (a script), python (a script), text (output) or toml (a design)",
                 start + 1
             ),
         };
@@ -187,13 +196,69 @@ fn commands(block: &Block) -> Vec<(String, u8)> {
                 None => cmd,
             };
             assert!(
-                cmd.starts_with("fieldgrid "),
+                cmd.starts_with("fieldgrid ") || is_python(&cmd),
                 "README line {}: `{cmd}` is not a fieldgrid command",
                 block.line
             );
             Some((cmd, code))
         })
         .collect()
+}
+
+/// A Python command: run in the virtual environment, from the repository's root.
+fn is_python(cmd: &str) -> bool {
+    cmd.starts_with("pip ") || cmd.starts_with("python3 ")
+}
+
+/// The target directory this program was built in (`TARGET/debug/deps/readme-HASH`).
+fn target_dir() -> PathBuf {
+    let exe = std::env::current_exe().unwrap();
+    exe.ancestors().nth(3).unwrap().to_path_buf()
+}
+
+/// The virtual environment's `bin` directory, made when missing; `None` where Python cannot
+/// make one (the Python parts of the README are then skipped).
+fn python_env() -> Option<PathBuf> {
+    let venv = target_dir().join("python-venv");
+    let bin = venv.join("bin");
+    if !bin.join("python3").exists() {
+        let made = Command::new("python3")
+            .args(["-m", "venv"])
+            .arg(&venv)
+            .status()
+            .map(|s| s.success())
+            .unwrap_or(false);
+        if !made {
+            return None;
+        }
+    }
+    Some(bin)
+}
+
+/// Runs a Python command or script in the repository's root inside the virtual environment
+/// `bin`, `fieldgrid` on PATH; the variables cargo sets for this test are left out, so a
+/// build that `pip` starts is an ordinary one.
+fn run_python(bin: &Path, path: &str, program: &str, script: &str) -> (i32, String) {
+    let mut c = Command::new(program);
+    c.arg("-c")
+        .arg(script)
+        .current_dir(repo())
+        .env("PATH", format!("{}:{path}", bin.display()))
+        .env("VIRTUAL_ENV", bin.parent().unwrap())
+        .env("RAYON_NUM_THREADS", "2");
+    for (k, _) in std::env::vars() {
+        if k == "CARGO" || (k.starts_with("CARGO_") && k != "CARGO_HOME" && k != "CARGO_TARGET_DIR")
+        {
+            c.env_remove(&k);
+        }
+    }
+    let o = c.output().expect("run a Python command");
+    let printed = format!(
+        "{}{}",
+        String::from_utf8_lossy(&o.stdout),
+        String::from_utf8_lossy(&o.stderr)
+    );
+    (o.status.code().unwrap_or(-1), printed)
 }
 
 /// The scratch directory: `geometries/` linked, `bin/fieldgrid` the program under test.
@@ -280,9 +345,25 @@ fn every_readme_command_runs_as_written_and_prints_what_the_readme_quotes() {
     let mut ran: Vec<(String, String)> = Vec::new();
     let mut files_checked = 0;
     let mut count = 0;
+    let mut python_skipped = 0;
+    let python = std::sync::OnceLock::new();
+    let python = || python.get_or_init(python_env).clone();
     for b in &blocks {
         match &b.kind {
             Kind::Toml(None) => {}
+            Kind::Python => {
+                let Some(bin) = python() else {
+                    python_skipped += 1;
+                    continue;
+                };
+                let (code, printed) = run_python(&bin, &path, "python3", &b.body.join("\n"));
+                assert_eq!(
+                    code, 0,
+                    "README line {}: the Python script failed:\n{printed}",
+                    b.line
+                );
+                count += 1;
+            }
             Kind::Toml(Some(f)) => {
                 let body = std::fs::read_to_string(work.join(f))
                     .unwrap_or_else(|e| panic!("README line {}: {f}: {e}", b.line));
@@ -291,7 +372,15 @@ fn every_readme_command_runs_as_written_and_prints_what_the_readme_quotes() {
             }
             Kind::Commands => {
                 for (cmd, want) in commands(b) {
-                    let (code, printed) = run_shell(&work, &path, "sh", &cmd, &[]);
+                    let (code, printed) = if is_python(&cmd) {
+                        let Some(bin) = python() else {
+                            python_skipped += 1;
+                            continue;
+                        };
+                        run_python(&bin, &path, "sh", &cmd)
+                    } else {
+                        run_shell(&work, &path, "sh", &cmd, &[])
+                    };
                     assert_eq!(
                         code,
                         i32::from(want),
@@ -340,6 +429,9 @@ fn every_readme_command_runs_as_written_and_prints_what_the_readme_quotes() {
             }
             Kind::Output(Check::Unchecked) => {}
             Kind::Output(Check::OutputOf(prefix)) => {
+                if is_python(prefix) && python().is_none() {
+                    continue;
+                }
                 let (_, r) = ran
                     .iter()
                     .find(|(c, _)| c.starts_with(prefix.as_str()))
@@ -368,6 +460,9 @@ fn every_readme_command_runs_as_written_and_prints_what_the_readme_quotes() {
         "only {count} commands found in the README: is the parser still reading it?"
     );
     println!("{count} README commands ran; {files_checked} quoted files checked");
+    if python_skipped > 0 {
+        println!("{python_skipped} Python commands and scripts skipped: `python3 -m venv` failed");
+    }
     let _ = std::fs::remove_dir_all(work.parent().unwrap());
 }
 
