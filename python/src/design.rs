@@ -27,7 +27,12 @@ pub struct NativeDesign {
     overrides: Vec<(String, f64)>,
 }
 
-fn read(py: Python<'_>, text: String, file: &str, overrides: Vec<(String, f64)>) -> PyResult<NativeDesign> {
+fn read(
+    py: Python<'_>,
+    text: String,
+    file: &str,
+    overrides: Vec<(String, f64)>,
+) -> PyResult<NativeDesign> {
     if let Some((name, v)) = overrides.iter().find(|(_, v)| !v.is_finite()) {
         return Err(PyValueError::new_err(format!(
             "parameter {name}: {v} is not a finite number"

@@ -60,9 +60,9 @@ fn table(d: &Bound<'_, PyDict>, path: &str) -> PyResult<Table> {
         let here = join(path, &key);
         let item = if let Ok(sub) = v.cast::<PyDict>() {
             Item::Table(table(sub, &here)?)
-        } else if let Some(list) = items(&v).filter(|l| {
-            !l.is_empty() && l.iter().all(|x| x.cast::<PyDict>().is_ok())
-        }) {
+        } else if let Some(list) =
+            items(&v).filter(|l| !l.is_empty() && l.iter().all(|x| x.cast::<PyDict>().is_ok()))
+        {
             let mut a = ArrayOfTables::new();
             for (n, x) in list.iter().enumerate() {
                 let sub = x.cast::<PyDict>().expect("checked: every item is a dict");

@@ -101,7 +101,10 @@ impl NativeResult {
         let sol = self.sol();
         let (ex, ey): (Vec<f64>, Vec<f64>) = py.detach(|| {
             let f = sol.field();
-            (0..sol.grid.len()).map(|p| f.at(p)).map(|e| (e[0], e[1])).unzip()
+            (0..sol.grid.len())
+                .map(|p| f.at(p))
+                .map(|e| (e[0], e[1]))
+                .unzip()
         });
         (f64_bytes(py, ex), f64_bytes(py, ey))
     }

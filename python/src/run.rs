@@ -116,7 +116,14 @@ pub fn solve(
     max_memory: Option<f64>,
     progress: Option<Py<PyAny>>,
 ) -> PyResult<NativeResult> {
-    let opts = options(solver, tol, threads, max_iterations, error_estimate, max_memory)?;
+    let opts = options(
+        solver,
+        tol,
+        threads,
+        max_iterations,
+        error_estimate,
+        max_memory,
+    )?;
     let src = Arc::clone(&design.src);
     let (mut params, plan) = py_check(py, solve_cmd::prepare(&src, &opts, 0.0))?;
     let progress = progress_of(progress);
@@ -148,7 +155,14 @@ pub fn impedance(
     max_memory: Option<f64>,
     progress: Option<Py<PyAny>>,
 ) -> PyResult<NativeResult> {
-    let opts = options(solver, tol, threads, max_iterations, error_estimate, max_memory)?;
+    let opts = options(
+        solver,
+        tol,
+        threads,
+        max_iterations,
+        error_estimate,
+        max_memory,
+    )?;
     let src = Arc::clone(&design.src);
     let (mut params, plan) = py_check(py, line_cmd::prepare(&src, &signals, &opts))?;
     let progress = progress_of(progress);
@@ -161,7 +175,11 @@ pub fn impedance(
     }
     let solved = py_check(py, solved)?;
     let summary = solved.summary.clone();
-    Ok(NativeResult::new(src, Kind::Line(Box::new(solved)), summary))
+    Ok(NativeResult::new(
+        src,
+        Kind::Line(Box::new(solved)),
+        summary,
+    ))
 }
 
 /// What `fieldgrid check` reports (check.json's text); with `out`, writes preview.png and
@@ -176,15 +194,17 @@ pub fn check(
 ) -> PyResult<String> {
     let src = Arc::clone(&design.src);
     let render = crate::result::render_options(picture_width)?;
-    let report = py.detach(|| -> Result<serde_json::Value, fieldgrid_cli::error::Failure> {
-        let (_, _, report) = fieldgrid_cli::commands::check::check(&src)?;
-        if let Some(dir) = &out {
-            let mut o = fieldgrid_cli::outdir::OutDir::prepare(dir)?;
-            fieldgrid_cli::commands::check::write_files(&o, &src, &report, &render)?;
-            o.commit()?;
-        }
-        Ok(report)
-    });
+    let report = py.detach(
+        || -> Result<serde_json::Value, fieldgrid_cli::error::Failure> {
+            let (_, _, report) = fieldgrid_cli::commands::check::check(&src)?;
+            if let Some(dir) = &out {
+                let mut o = fieldgrid_cli::outdir::OutDir::prepare(dir)?;
+                fieldgrid_cli::commands::check::write_files(&o, &src, &report, &render)?;
+                o.commit()?;
+            }
+            Ok(report)
+        },
+    );
     let report = py_check(py, report)?;
     Ok(report.to_string())
 }

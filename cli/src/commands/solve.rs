@@ -231,8 +231,7 @@ pub fn write_files(
         out.write("potential.png", &potential?)?;
         out.write("field.png", &field?)
     })?;
-    let circuit =
-        crate::spice::for_solution(sol, &src.design, &files.subcircuit, &files.source);
+    let circuit = crate::spice::for_solution(sol, &src.design, &files.subcircuit, &files.source);
     if let Ok(net) = &circuit {
         out.write("capacitance.cir", net.text.as_bytes())?;
     }
