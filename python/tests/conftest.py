@@ -1,9 +1,9 @@
 """Shared fixtures: the repository, its demo designs and the `fieldgrid` command.
 
 The command line is the reference the package is compared with. The tests use the binary at
-$FIELDGRID_BIN when set, else `release/fieldgrid` under $CARGO_TARGET_DIR (or the
-repository's `target/`), and build it with `cargo build --release -p fieldgrid-cli` when it
-is not there.
+$FIELDGRID_BIN when set, else the one `cargo build --release -p fieldgrid-cli` makes (run
+first, so it is never older than the sources: `release/fieldgrid` under $CARGO_TARGET_DIR or
+the repository's `target/`).
 """
 
 from __future__ import annotations
@@ -25,14 +25,10 @@ def fieldgrid_bin() -> Path:
     if os.environ.get("FIELDGRID_BIN"):
         return Path(os.environ["FIELDGRID_BIN"])
     target = Path(os.environ.get("CARGO_TARGET_DIR", ROOT / "target"))
-    exe = target / "release" / "fieldgrid"
-    if not exe.exists():
-        subprocess.run(
-            ["cargo", "build", "--release", "--quiet", "-p", "fieldgrid-cli"],
-            cwd=ROOT,
-            check=True,
-        )
-    return exe
+    subprocess.run(
+        ["cargo", "build", "--release", "--quiet", "-p", "fieldgrid-cli"], cwd=ROOT, check=True
+    )
+    return target / "release" / "fieldgrid"
 
 
 @pytest.fixture(scope="session")
