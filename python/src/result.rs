@@ -185,7 +185,16 @@ impl NativeResult {
                             "field_table, vtk and log_field are options of a solve's files",
                         ));
                     }
-                    fieldgrid_cli::commands::impedance::write_files(&dir, src, line, &pictures)?
+                    let pictures = fieldgrid_cli::args::PictureArgs {
+                        picture_width: pictures.width,
+                    };
+                    fieldgrid_cli::commands::impedance::write_line_results(
+                        &dir,
+                        src,
+                        &line.study,
+                        &line.summary,
+                        &pictures,
+                    )?
                 }
             }
             dir.commit()?;

@@ -103,12 +103,7 @@ pub fn prepare(
     }
     check_signals(design, signals)?;
     let params = study_params(opts)?;
-    let (plan, _) = check_memory(
-        src,
-        line_study::plan(design, &params),
-        opts.max_memory,
-        0.0,
-    )?;
+    let (plan, _) = check_memory(src, line_study::plan(design, &params), opts.max_memory, 0.0)?;
     Ok((params, plan))
 }
 
