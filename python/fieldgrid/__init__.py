@@ -167,12 +167,15 @@ def check(
     *,
     out: Optional[str | os.PathLike[str]] = None,
     picture_width: int = 1200,
+    grid_lines: bool = False,
 ) -> dict[str, Any]:
     """What ``fieldgrid check`` reports, as check.json's dict: the grid (``nx``, ``ny``,
-    ``cell``, ``hx``, ``hy``), ``unknowns_at_most``, ``memory_mib``, conductor and
-    dielectric names. With ``out``, writes preview.png and check.json there."""
+    ``cell``, ``min_cell``, ``max_cell``, ``uniform``, the node lines ``x_lines`` and
+    ``y_lines``), ``unknowns_at_most``, ``memory_mib``, conductor and dielectric names. With
+    ``out``, writes preview.png (the node lines drawn with ``grid_lines``, as
+    ``--grid-lines``) and check.json there."""
     d = as_design(design)
     text = _fieldgrid.check(
-        d._native, None if out is None else os.fspath(out), picture_width
+        d._native, None if out is None else os.fspath(out), picture_width, grid_lines
     )
     return json.loads(text)

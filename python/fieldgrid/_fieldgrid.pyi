@@ -78,4 +78,9 @@ def impedance(
     max_memory: Optional[float] = ...,
     progress: Optional[ProgressFn] = ...,
 ) -> NativeResult: ...
-def check(design: NativeDesign, out: Optional[str] = ..., picture_width: int = ...) -> str: ...
+def check(
+    design: NativeDesign,
+    out: Optional[str] = ...,
+    picture_width: int = ...,
+    grid_lines: bool = ...,
+) -> str: ...

@@ -81,14 +81,12 @@ impl NativeResult {
 
     /// Node x (r) coordinates, m.
     fn xs<'py>(&self, py: Python<'py>) -> Bound<'py, PyBytes> {
-        let g = &self.sol().grid;
-        f64_bytes(py, (0..g.nx).map(|i| g.x(i)))
+        f64_bytes(py, self.sol().grid.xs().iter().copied())
     }
 
     /// Node y (z) coordinates, m.
     fn ys<'py>(&self, py: Python<'py>) -> Bound<'py, PyBytes> {
-        let g = &self.sol().grid;
-        f64_bytes(py, (0..g.ny).map(|j| g.y(j)))
+        f64_bytes(py, self.sol().grid.ys().iter().copied())
     }
 
     /// Potential at every node, V.

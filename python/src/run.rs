@@ -182,24 +182,26 @@ pub fn impedance(
     ))
 }
 
-/// What `fieldgrid check` reports (check.json's text); with `out`, writes preview.png and
-/// check.json there as the command does.
+/// What `fieldgrid check` reports (check.json's text); with `out`, writes preview.png (with
+/// the node lines drawn when `grid_lines`) and check.json there as the command does.
 #[pyfunction]
-#[pyo3(signature = (design, out=None, picture_width=1200))]
+#[pyo3(signature = (design, out=None, picture_width=1200, grid_lines=false))]
 pub fn check(
     py: Python<'_>,
     design: &NativeDesign,
     out: Option<std::path::PathBuf>,
     picture_width: u32,
+    grid_lines: bool,
 ) -> PyResult<String> {
     let src = Arc::clone(&design.src);
     let render = crate::result::render_options(picture_width)?;
     let report = py.detach(
         || -> Result<serde_json::Value, fieldgrid_cli::error::Failure> {
-            let (_, _, report) = fieldgrid_cli::commands::check::check(&src)?;
+            let (plan, _, report) = fieldgrid_cli::commands::check::check(&src)?;
             if let Some(dir) = &out {
                 let mut o = fieldgrid_cli::outdir::OutDir::prepare(dir)?;
-                fieldgrid_cli::commands::check::write_files(&o, &src, &report, &render)?;
+                let lines = grid_lines.then_some(plan.grid());
+                fieldgrid_cli::commands::check::write_files(&o, &src, &report, lines, &render)?;
                 o.commit()?;
             }
             Ok(report)
