@@ -339,3 +339,39 @@ fn an_absolute_tolerance_per_unit_holds_back_small_changes() {
         expect_for(run(&args), 2, bad);
     }
 }
+
+#[test]
+fn compare_on_different_grids_maps_the_change_on_the_new_grid() {
+    let dir = scratch(SCRATCH, "grids");
+    let design = |cell: f64| {
+        format!(
+            "unit = \"mm\"\n[grid]\nx = [0.0, 6.0]\ny = [0.0, 4.0]\ncell = {cell}\n\
+             [[conductor]]\nname = \"wire\"\npotential = 1.0\n\
+             circle = {{ center = [3.0, 2.0], radius = 0.5 }}\n"
+        )
+    };
+    let (a, b) = (
+        fieldgrid_tests::cli::write(&dir, "coarse.toml", &design(0.1)),
+        fieldgrid_tests::cli::write(&dir, "fine.toml", &design(0.08)),
+    );
+    let out = dir.join("out");
+    let args = [
+        "compare",
+        &a,
+        &b,
+        "--out",
+        s(&out),
+        "--quiet",
+        "--no-error-estimate",
+    ];
+    // Exit 0 or 1 (the discretisation moves some results): both sides were solved.
+    let c = fieldgrid_tests::cli::code(run(&args));
+    assert!(c.contains("(0)") || c.contains("(1)"), "{c}");
+    assert!(
+        out.join("field_change.png").is_file(),
+        "a change picture on the new grid"
+    );
+    let json = read_json(&out.join("compare.json"));
+    let remarks = json["remarks"].to_string();
+    assert!(remarks.contains("grids differ"), "{remarks}");
+}

@@ -13,8 +13,9 @@
 //! change over |base| (zero when both are zero, infinite when only the base is zero). A
 //! quantity is beyond tolerance when |relative change| > `--rel-tol` and |change| exceeds the
 //! `--abs-tol` of its unit (when given); the net charge of a floating conductor, zero by
-//! definition, is never beyond tolerance. With `--out`, and both sides design files on the same grid, the picture
-//! `field_change.png` maps |E|(NEW) - |E|(BASE). Exit 0: nothing beyond tolerance; 1: something is; 2: bad input; 3: a solve
+//! definition, is never beyond tolerance. With `--out`, and both sides design files over the same domain, the picture
+//! `field_change.png` maps |E|(NEW) - |E|(BASE) on NEW's grid (BASE's field carried onto it
+//! bilinearly when the grid lines differ). Exit 0: nothing beyond tolerance; 1: something is; 2: bad input; 3: a solve
 //! (now, or recorded in a summary) did not converge.
 
 use super::{check_memory, load_design, study_params, with_threads};
@@ -503,11 +504,15 @@ pub fn run(args: &CompareArgs) -> Result<u8, Failure> {
     }
     let picture = match (&base.solution, &new.solution, &out) {
         (Some((sb, _)), Some((sn, src)), Some(_)) => {
-            if sb.grid == sn.grid {
+            let (gb, gn) = (&sb.grid, &sn.grid);
+            let same_domain =
+                [gb.x0(), gb.x1(), gb.y0(), gb.y1()] == [gn.x0(), gn.x1(), gn.y0(), gn.y1()];
+            if same_domain {
                 Some(change_picture(sb, sn, src, &args.pictures.render_options()))
             } else {
-                remarks
-                    .push("no field_change.png: the two designs have different grids".to_string());
+                remarks.push(
+                    "no field_change.png: the two designs have different domains".to_string(),
+                );
                 None
             }
         }
@@ -540,7 +545,14 @@ fn change_picture(
     opts: &crate::render::RenderOptions,
 ) -> image::RgbImage {
     use crate::render::{self, ContourStyle, MapInput, Palette};
-    let eb = base.field_magnitude();
+    // On NEW's lattice; BASE's field carried onto it when the lines differ.
+    let carried;
+    let eb = if base.grid == new.grid {
+        base.field_magnitude()
+    } else {
+        carried = crate::render::sample::onto(&base.grid, base.field_magnitude(), &new.grid);
+        &carried
+    };
     let en = new.field_magnitude();
     let diff: Vec<f64> = eb.iter().zip(en).map(|(b, n)| n - b).collect();
     // Colour range: the 99th percentile of |change|, so that the few nodes at sharp edges

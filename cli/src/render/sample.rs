@@ -58,33 +58,51 @@ pub fn resample(
     let rows: Vec<(usize, f64)> = pixel_centres(h, yr[0], yr[1], true)
         .map(|y| grid.locate_y(y))
         .collect();
-    let nx = grid.nx;
-    let (sx, sy) = (usize::from(grid.nx > 1), usize::from(grid.ny > 1));
     let mut v = Vec::with_capacity(w * h);
-    for &(j, fy) in &rows {
-        for &(i, fx) in &cols {
-            let k = i + j * nx;
-            let corners = [
-                (values[k], (1.0 - fx) * (1.0 - fy)),
-                (values[k + sx], fx * (1.0 - fy)),
-                (values[k + sy * nx], (1.0 - fx) * fy),
-                (values[k + sx + sy * nx], fx * fy),
-            ];
-            let (mut sum, mut wt) = (0.0, 0.0);
-            for (val, wgt) in corners {
-                if val.is_finite() {
-                    sum += val * wgt;
-                    wt += wgt;
-                }
-            }
-            v.push(if wt >= 0.5 - 1e-12 {
-                sum / wt
-            } else {
-                f64::NAN
-            });
+    for &row in &rows {
+        for &col in &cols {
+            v.push(bilinear(grid, values, col, row));
         }
     }
     Samples { w, h, v }
+}
+
+/// The value in cell (i, j) at fractions (fx, fy) across it, from the corners that have a
+/// value when they carry at least half of the weight; NaN otherwise.
+fn bilinear(grid: &Grid, values: &[f64], (i, fx): (usize, f64), (j, fy): (usize, f64)) -> f64 {
+    let nx = grid.nx;
+    let k = i + j * nx;
+    let corners = [
+        (values[k], (1.0 - fx) * (1.0 - fy)),
+        (values[k + 1], fx * (1.0 - fy)),
+        (values[k + nx], (1.0 - fx) * fy),
+        (values[k + 1 + nx], fx * fy),
+    ];
+    let (mut sum, mut wt) = (0.0, 0.0);
+    for (val, wgt) in corners {
+        if val.is_finite() {
+            sum += val * wgt;
+            wt += wgt;
+        }
+    }
+    if wt >= 0.5 - 1e-12 {
+        sum / wt
+    } else {
+        f64::NAN
+    }
+}
+
+/// `values` on the nodes of `from` carried to the nodes of `to` (a lattice over the same
+/// domain) by the rule of [`resample`]; points of `to` outside `from` take its nearest edge.
+pub fn onto(from: &Grid, values: &[f64], to: &Grid) -> Vec<f64> {
+    assert_eq!(values.len(), from.len(), "one value per grid node");
+    let cols: Vec<(usize, f64)> = to.xs().iter().map(|&x| from.locate_x(x)).collect();
+    let mut v = Vec::with_capacity(to.len());
+    for &y in to.ys() {
+        let row = from.locate_y(y);
+        v.extend(cols.iter().map(|&col| bilinear(from, values, col, row)));
+    }
+    v
 }
 
 /// Smallest and largest finite value, or `None` when there is none.
@@ -167,6 +185,22 @@ mod tests {
                 let got = s.at(px, py);
                 assert!((got - f(x, y)).abs() < 1e-12, "pixel ({px}, {py}): {got}");
             }
+        }
+    }
+
+    #[test]
+    fn values_carried_onto_other_lines_keep_a_bilinear_field() {
+        let from = Grid::from_lines(vec![0.0, 1.0, 1.5, 4.0], vec![0.0, 0.5, 2.0]).unwrap();
+        let to = Grid::from_lines(vec![0.0, 0.2, 2.0, 3.9, 4.0], vec![0.0, 1.0, 1.9, 2.0]).unwrap();
+        let f = |x: f64, y: f64| 1.0 + x - 2.0 * y + 0.25 * x * y;
+        let at = |g: &Grid| -> Vec<f64> {
+            (0..g.len())
+                .map(|k| f(g.x(k % g.nx), g.y(k / g.nx)))
+                .collect()
+        };
+        let got = onto(&from, &at(&from), &to);
+        for (g, w) in got.iter().zip(at(&to)) {
+            assert!((g - w).abs() < 1e-12, "{g} vs {w}");
         }
     }
 
