@@ -105,6 +105,29 @@ pub fn grid(design: &Design, params: &Params) -> Result<Grid, GridError> {
     Ok(g)
 }
 
+/// True when every outline of the design (conductors, dielectrics, charge regions) is made
+/// of axis-parallel straight pieces only: a graded lattice then holds every edge on a node
+/// line, at every level of its family of bisections.
+pub fn is_rectilinear(design: &Design) -> bool {
+    let shapes = design
+        .conductors
+        .iter()
+        .map(|c| &c.shape)
+        .chain(design.dielectrics.iter().map(|e| &e.shape))
+        .chain(design.charges.iter().filter_map(|c| match c {
+            crate::design::Charge::Region { shape, .. } => Some(shape),
+            _ => None,
+        }));
+    shapes.into_iter().all(|s| {
+        outline(s).is_ok_and(|o| {
+            o.pieces().all(|p| match *p {
+                Piece::Line { a, b } => a[0] == b[0] || a[1] == b[1],
+                Piece::Arc { .. } => false,
+            })
+        })
+    })
+}
+
 /// Most cells along one axis.
 const MAX_CELLS: f64 = 1.0e8;
 

@@ -375,6 +375,50 @@ fn error_estimate_brackets_true_error_on_coax_microstrip_and_stripline() {
     );
 }
 
+/// The design with a graded lattice (`cell` then the coarsest spacing).
+fn graded(text: &str) -> String {
+    assert!(text.contains("[grid]\n"));
+    text.replacen("[grid]\n", "[grid]\nlattice = \"graded\"\n", 1)
+}
+
+#[test]
+fn graded_lattice_estimates_bracket_the_true_error() {
+    // The same closed forms as above, on graded lattices: the error estimate of a graded
+    // lattice uses the order observed on its family of bisections.
+    let coax = graded(&fieldgrid_tests::designs::coax(0.4));
+    let (c, e, p) = estimated(&coax);
+    assert_brackets(
+        &format!("graded coax (order {p})"),
+        c,
+        e,
+        2.0 * PI * EPS0 / 2.5f64.ln(),
+    );
+    let (c, e, p) = estimated(&graded(&stripline_in(1.0, 1.0, 0.2, 2.0)));
+    assert_brackets(
+        &format!("graded stripline (order {p})"),
+        2.0 * c,
+        2.0 * e,
+        1.0 / (c_light() * cohn_stripline(1.0, 1.0)),
+    );
+    // The microstrip demo against the finite-element value of tests/reference/
+    // fem_values.json (NGSolve 6.2.2608, high order on geometrically graded meshes; see the
+    // README there): Z0 within 0.1 % at the coarsest cell 0.2 mm, the estimate within a
+    // factor 3 of the true error.
+    let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("..");
+    let fem: serde_json::Value = serde_json::from_str(
+        &std::fs::read_to_string(root.join("tests/reference/fem_values.json")).unwrap(),
+    )
+    .unwrap();
+    let z0_fem = fem["microstrip"]["values"]["z0"].as_f64().unwrap();
+    let text = std::fs::read_to_string(root.join("geometries/microstrip.toml")).unwrap();
+    let text = graded(&text.replacen("cell = 0.015", "cell = 0.2", 1));
+    let ls = run_line(&text, &["trace"], true);
+    let z0 = ls.line.z0.unwrap();
+    let e = ls.errors.iter().find(|e| e.0 == "z0").unwrap().1;
+    assert!(rel_err(z0, z0_fem) < 1e-3, "Z0 {z0} against {z0_fem}");
+    assert_brackets("graded microstrip demo Z0", z0, e, z0_fem);
+}
+
 // ---- the `impedance` command end to end ----
 
 /// The prefix of this file's scratch directories.

@@ -260,3 +260,18 @@ fn lines_are_a_pure_function_of_the_design() {
         lines(&d, d.domain.cell, &p).unwrap()
     );
 }
+
+#[test]
+fn rectilinear_designs_are_told_apart_from_curved_and_slanted_ones() {
+    assert!(is_rectilinear(&pads()) && is_rectilinear(&trace()));
+    let mut d = pads();
+    d.conductors[0].shape = Shape::Rect {
+        x: [6e-3, 10e-3],
+        y: [1.6e-3, 1.635e-3],
+        round: 5e-6,
+    };
+    assert!(!is_rectilinear(&d));
+    let mut d = trace();
+    d.conductors[0].shape = Shape::Polyline(vec![[0.0, 0.6e-3], [0.675e-3, 0.7e-3]]);
+    assert!(!is_rectilinear(&d));
+}

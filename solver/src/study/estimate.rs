@@ -21,9 +21,10 @@ use crate::warning::Warning;
 /// fields make the scheme first order); for smooth designs the order observed from a third,
 /// twice coarser lattice when the three results converge monotonically, clamped to [1, 2]
 /// (the five-point scheme is second order), and 2 when no such order can be read. On a
-/// graded lattice (a family of bisections that all hold the geometry's lines, so that the
-/// error constant does not jump with where edges fall in their cells) the order observed
-/// from the three lattices, clamped to [0.5, 2], always; 1 when none can be read.
+/// graded lattice of a rectilinear design (a family of bisections that all hold every edge
+/// on a line, so that the error constant does not jump with where edges fall in their
+/// cells) the order observed from the three lattices, clamped to [0.5, 2], always; 1 when
+/// none can be read.
 #[derive(Clone, Debug, PartialEq)]
 pub struct ErrorModel {
     /// Maxwell matrix on the coarse lattice, same order and units as the fine one.
@@ -135,9 +136,10 @@ impl CoarseStudies {
         // then converges at first order, with an error constant that depends on where the
         // singular points fall within their cells, so an order read from three lattices
         // would not be trustworthy there.
-        // On a graded family the edges stay on lines, so the observed order is read
-        // wherever it can be.
-        let graded = design.lattice == Lattice::Graded;
+        // On a graded family of a rectilinear design the edges stay on lines, so the
+        // observed order is read wherever it can be; curved or slanted edges fall within
+        // cells differently at each level, as on a uniform lattice.
+        let graded = design.lattice == Lattice::Graded && crate::grading::is_rectilinear(design);
         let order = match observed_order {
             Some(p) if graded => p.clamp(0.5, 2.0),
             None if graded => 1.0,
