@@ -19,6 +19,50 @@ impl Coded for Warning {
     }
 }
 
+/// The report's warning lines: a failure to converge first (the only warning of an
+/// unconverged study), capacitance entries with large estimated errors grouped on one line,
+/// every line with its stable code.
+pub fn report_lines(warnings: &[Warning]) -> Vec<String> {
+    let mut lines = Vec::new();
+    let mut ordered: Vec<&Warning> = warnings
+        .iter()
+        .filter(|w| w.code() == "not-converged")
+        .collect();
+    ordered.extend(warnings.iter().filter(|w| w.code() != "not-converged"));
+    let mut grouped = false;
+    for w in &ordered {
+        match w {
+            Warning::CapacitanceError { .. } if grouped => {}
+            Warning::CapacitanceError { .. } => {
+                grouped = true;
+                let entries: Vec<String> = warnings
+                    .iter()
+                    .filter_map(|w| match w {
+                        Warning::CapacitanceError {
+                            row,
+                            column,
+                            percent,
+                        } => Some(format!("({row}, {column}) {percent:.1} %")),
+                        _ => None,
+                    })
+                    .collect();
+                if entries.len() == 1 {
+                    lines.push(format!("warning [{}]: {w}", w.code()));
+                } else {
+                    lines.push(format!(
+                        "warning [{}]: estimated discretisation errors above 1 % in capacitance \
+                         {}: refine the cell",
+                        w.code(),
+                        entries.join(", ")
+                    ));
+                }
+            }
+            _ => lines.push(format!("warning [{}]: {w}", w.code())),
+        }
+    }
+    lines
+}
+
 /// Warnings made by the tool rather than the library.
 #[derive(Clone, Debug, PartialEq)]
 #[non_exhaustive]
@@ -51,6 +95,28 @@ impl fmt::Display for ToolWarning {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn non_convergence_comes_first_and_capacitance_errors_are_grouped() {
+        let ce = |row: &str, column: &str| Warning::CapacitanceError {
+            row: row.into(),
+            column: column.into(),
+            percent: 2.0,
+        };
+        let lines = report_lines(&[
+            ce("a", "b"),
+            Warning::AsymmetricPair,
+            ce("a", "c"),
+            Warning::NotConverged(fieldgrid_solver::warning::SolveFailure::NonFinite(
+                fieldgrid_solver::warning::NonFiniteIn::Energy,
+            )),
+        ]);
+        assert_eq!(lines.len(), 3, "{lines:?}");
+        assert!(lines[0].starts_with("warning [not-converged]"));
+        assert!(lines[1].starts_with("warning [capacitance-error]"));
+        assert!(lines[1].contains("(a, b) 2.0 %, (a, c) 2.0 %"));
+        assert!(lines[2].starts_with("warning [asymmetric-pair]"));
+    }
 
     #[test]
     fn tool_codes_differ_from_library_codes() {

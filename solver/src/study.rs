@@ -305,6 +305,10 @@ pub fn run_planned(
             solve.failure = Some(why);
         }
     }
+    // Unconverged numbers support no diagnosis: the failure is the one warning.
+    if let Some(why) = &solve.failure {
+        warnings = vec![Warning::NotConverged(why.clone())];
+    }
     Ok(Solution {
         mode: design.mode,
         grid,

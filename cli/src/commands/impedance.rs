@@ -51,6 +51,7 @@ pub fn run_with(args: &ImpedanceArgs, extra: Option<Extra>) -> Result<u8, Failur
     if !args.opts.quiet && std::io::IsTerminal::is_terminal(&std::io::stderr()) {
         eprint!("\r{:60}\r", "");
     }
+    let warnings = line_warnings(&ls, &args.signal);
     let extra_text = match extra {
         Some(f) => Some(f(&src, &ls, &mut summary, &out)?),
         None => None,
@@ -66,6 +67,7 @@ pub fn run_with(args: &ImpedanceArgs, extra: Option<Extra>) -> Result<u8, Failur
                 &ls.line,
                 &ls.errors,
                 &summary,
+                &warnings,
                 &out
             )
         );
@@ -135,16 +137,13 @@ pub fn line_summary(
 ) -> Summary {
     let (sol, sol0, lp, errors) = (&ls.solution, &ls.vacuum, &ls.line, &ls.errors);
     let design = &src.design;
-    let mut warnings = ls.warnings.clone();
-    for w in &sol0.warnings {
-        // The same sentence as the design's own study says nothing new.
-        if !sol.warnings.iter().any(|x| x.to_string() == w.to_string()) {
-            warnings.push(Warning::VacuumStudy(Box::new(w.clone())));
-        }
-    }
     let mut summary = Summary::from_solution(sol, design.depth, seconds, &src.text_hash);
     summary.parameters = crate::summary::parameters(src);
-    warnings.iter().for_each(|w| summary.warn(w));
+    summary.warnings.clear();
+    summary.warning_details.clear();
+    line_warnings(ls, signals)
+        .iter()
+        .for_each(|w| summary.warn(w));
     summary.solver.converged &= sol0.solve.converged;
     summary.solver.solves += sol0.solve.solves;
     summary.solver.iterations = summary.solver.iterations.max(sol0.solve.iterations);
@@ -157,6 +156,35 @@ pub fn line_summary(
     }
     summary.line = Some(line_json(signals, &ls.mirrored, lp, errors));
     summary
+}
+
+/// The warnings of a line study about what it reports: capacitance entries between signals
+/// only, the vacuum study's where they say something new, and the line's own diagnoses only
+/// from converged numbers.
+pub fn line_warnings(ls: &line_study::LineStudy, signals: &[String]) -> Vec<Warning> {
+    let (sol, sol0) = (&ls.solution, &ls.vacuum);
+    let reported = |w: &Warning| match w {
+        Warning::CapacitanceError { row, column, .. } => {
+            signals.contains(row) && signals.contains(column)
+        }
+        _ => true,
+    };
+    let mut warnings: Vec<Warning> = sol
+        .warnings
+        .iter()
+        .filter(|w| reported(w))
+        .cloned()
+        .collect();
+    for w in sol0.warnings.iter().filter(|w| reported(w)) {
+        // The same sentence as the design's own study says nothing new.
+        if !sol.warnings.iter().any(|x| x.to_string() == w.to_string()) {
+            warnings.push(Warning::VacuumStudy(Box::new(w.clone())));
+        }
+    }
+    if sol.solve.converged && sol0.solve.converged {
+        warnings.extend(ls.warnings.iter().cloned());
+    }
+    warnings
 }
 
 /// Writes the files of a line study (everything `solve` writes for the design as drawn,
@@ -274,10 +302,20 @@ fn report(
     lp: &LineParams,
     errors: &[(&str, f64)],
     summary: &Summary,
+    warnings: &[Warning],
     out: &OutDir,
 ) -> String {
     use std::fmt::Write;
     let mut s = String::new();
+    let lines = crate::warning::report_lines(warnings);
+    // A failure to converge is said first: every number below it is unreliable.
+    let (first, rest) = match summary.solver.converged {
+        true => (&[][..], &lines[..]),
+        false => lines.split_at(lines.len().min(1)),
+    };
+    for w in first {
+        let _ = writeln!(s, "{w}: the numbers below are not reliable");
+    }
     let _ = writeln!(
         s,
         "line parameters of {} ({} x {} nodes, {} solves in {:.2} s):",
@@ -334,8 +372,8 @@ fn report(
     if signals.len() > 1 {
         matrix(&mut s, "characteristic impedance Z", &lp.z, "ohm");
     }
-    for w in &summary.warnings {
-        let _ = writeln!(s, "warning: {w}");
+    for w in rest {
+        let _ = writeln!(s, "{w}");
     }
     let _ = writeln!(s, "results in {}", out.path().display());
     s

@@ -95,7 +95,12 @@ pub fn run_timed_with(
             print!("{text}");
         }
         match &circuit {
-            Ok(net) => net.warnings.iter().for_each(|w| println!("warning: {w}")),
+            // Diagnoses of the netlist's values (whole-part farads) only from converged numbers.
+            Ok(net) if sol.solve.converged => net
+                .warnings
+                .iter()
+                .for_each(|w| println!("warning [{}]: capacitance.cir: {w}", w.code())),
+            Ok(_) => {}
             Err(why) => println!("note: {}", crate::spice::no_export(*why)),
         }
     }
@@ -415,6 +420,15 @@ fn report(sol: &Solution, summary: &Summary, out: &OutDir) -> String {
     use std::fmt::Write;
     let mut s = String::new();
     let unit = &summary.capacitance.unit;
+    let warnings = crate::warning::report_lines(&sol.warnings);
+    // A failure to converge is said first: every number below it is unreliable.
+    let (first, rest) = match sol.solve.converged {
+        true => (&[][..], &warnings[..]),
+        false => warnings.split_at(warnings.len().min(1)),
+    };
+    for w in first {
+        let _ = writeln!(s, "{w}: the numbers below are not reliable");
+    }
     let _ = writeln!(
         s,
         "solved {} x {} nodes with {} in {:.2} s ({} solves, at most {} iterations, residual {:.1e})",
@@ -449,7 +463,12 @@ fn report(sol: &Solution, summary: &Summary, out: &OutDir) -> String {
             c.charge
         );
     }
-    if let Some(p) = &sol.peak_field {
+    if sol.peak_field.as_ref().is_some_and(|p| p.magnitude == 0.0) {
+        let _ = writeln!(
+            s,
+            "no field: every conductor and side is at 0 V and the design holds no charge"
+        );
+    } else if let Some(p) = &sol.peak_field {
         let _ = writeln!(
             s,
             "peak field {:.3e}{} V/m at ({:.4e} m, {:.4e} m) in {}{}",
@@ -482,8 +501,8 @@ fn report(sol: &Solution, summary: &Summary, out: &OutDir) -> String {
             p.name, p.x, p.y, p.potential
         );
     }
-    for w in &sol.warnings {
-        let _ = writeln!(s, "warning: {w}");
+    for w in rest {
+        let _ = writeln!(s, "{w}");
     }
     let _ = writeln!(s, "results in {}", out.path().display());
     s

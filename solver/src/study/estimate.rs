@@ -175,24 +175,63 @@ pub(super) fn matrix_errors(model: &ErrorModel, maxwell: &[Vec<f64>]) -> Vec<Vec
         .collect()
 }
 
-/// A warning for every capacitance entry whose estimated error is above 1 % of it.
+/// A warning for every capacitance entry whose estimated error is above 1 % of it; a
+/// symmetric pair (i, j) and (j, i) is warned once, as (i, j) with i <= j in matrix order,
+/// with the larger of the two percentages.
 pub(super) fn capacitance_warnings(
     names: &[String],
     maxwell: &[Vec<f64>],
     errors: &[Vec<f64>],
 ) -> Vec<Warning> {
+    let percent = |i: usize, j: usize| {
+        let c = maxwell[i][j];
+        let e = errors[i][j];
+        (c != 0.0 && e > 0.01 * c.abs()).then(|| 100.0 * e / c.abs())
+    };
     let mut out = Vec::new();
-    for (i, row) in errors.iter().enumerate() {
-        for (j, e) in row.iter().enumerate() {
-            let c = maxwell[i][j];
-            if c != 0.0 && *e > 0.01 * c.abs() {
+    for i in 0..errors.len() {
+        for j in i..errors.len() {
+            let worst = [percent(i, j), percent(j, i)]
+                .into_iter()
+                .flatten()
+                .fold(None, |m: Option<f64>, p| Some(m.map_or(p, |m| m.max(p))));
+            if let Some(percent) = worst {
                 out.push(Warning::CapacitanceError {
                     row: names[i].clone(),
                     column: names[j].clone(),
-                    percent: 100.0 * e / c.abs(),
+                    percent,
                 });
             }
         }
     }
     out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_symmetric_pair_is_warned_once_with_the_larger_percentage() {
+        let names: Vec<String> = ["a", "b", "c"].iter().map(|s| s.to_string()).collect();
+        let m = vec![
+            vec![10.0, -2.0, -1.0],
+            vec![-2.0, 10.0, -1.0],
+            vec![-1.0, -1.0, 10.0],
+        ];
+        let e = vec![
+            vec![0.01, 0.05, 0.0],
+            vec![0.06, 0.01, 0.0],
+            vec![0.0, 0.0, 0.01],
+        ];
+        let w = capacitance_warnings(&names, &m, &e);
+        assert_eq!(
+            w,
+            [Warning::CapacitanceError {
+                row: "a".into(),
+                column: "b".into(),
+                percent: 3.0
+            }]
+        );
+    }
 }

@@ -205,3 +205,30 @@ fn iteration_limit_exits_3_in_a_sweep_with_the_point_flagged() {
         "{table}"
     );
 }
+
+#[test]
+fn an_unconverged_run_reports_non_convergence_alone() {
+    // Converged, the sensor pad warns about its couplings' estimated errors; stopped after
+    // three iterations, those numbers support no diagnosis and only the failure is reported.
+    let dir = scratch(SCRATCH, "alone");
+    let design = fieldgrid_tests::designs::demo_path("sensor_pad.toml");
+    let out = dir.join("out");
+    let args = [
+        "solve",
+        &design,
+        "--out",
+        out.to_str().unwrap(),
+        "--quiet",
+        "--max-iterations",
+        "3",
+    ];
+    expect(run(&args), 3);
+    let s = summary(&out);
+    let codes: Vec<&str> = s["warning_details"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|w| w["code"].as_str().unwrap())
+        .collect();
+    assert_eq!(codes, ["not-converged"]);
+}

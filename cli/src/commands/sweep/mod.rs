@@ -276,7 +276,7 @@ pub fn run(args: &SweepArgs) -> Result<u8, Failure> {
             let w = crate::warning::ToolWarning::SweepNotConverged {
                 points: unconverged,
             };
-            println!("warning: {w}");
+            println!("warning [{}]: {w}", crate::warning::Coded::code(&w));
         }
     }
     Ok(if unconverged > 0 {
@@ -552,7 +552,7 @@ fn merge(dirs: &[std::path::PathBuf], out: &Path, quiet: bool) -> Result<u8, Fai
             let w = crate::warning::ToolWarning::SweepNotConverged {
                 points: unconverged,
             };
-            println!("warning: {w}");
+            println!("warning [{}]: {w}", crate::warning::Coded::code(&w));
         }
     }
     Ok(if unconverged > 0 {
