@@ -243,6 +243,10 @@ pub struct CheckArgs {
     /// Print nothing but errors.
     #[arg(long)]
     pub quiet: bool,
+    /// Refuse designs whose estimated memory exceeds this many MiB (default: half of the
+    /// memory available), as a solve would.
+    #[arg(long, value_name = "MIB")]
+    pub max_memory: Option<f64>,
 }
 
 /// `fieldgrid impedance`.
@@ -326,6 +330,12 @@ pub struct SweepArgs {
     /// Join the results directories of the shards of one sweep into --out, in point order.
     #[arg(long, value_name = "DIR", num_args = 1.., conflicts_with_all = ["design", "vary"])]
     pub merge: Vec<PathBuf>,
+    /// Parameter values fixed for every point.
+    #[command(flatten)]
+    pub set: SetArgs,
+    /// Also write each point's summary.json, as point-P.summary.json.
+    #[arg(long, conflicts_with = "merge")]
+    pub point_summaries: bool,
     /// Solver options.
     #[command(flatten)]
     pub opts: SolveOptions,

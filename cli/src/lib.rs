@@ -10,6 +10,7 @@ pub mod design_file;
 pub mod error;
 pub mod outdir;
 pub mod pictures;
+pub mod progress;
 pub mod render;
 pub mod spice;
 pub mod summary;

@@ -197,7 +197,7 @@ pub fn check(
     let render = crate::result::render_options(picture_width)?;
     let report = py.detach(
         || -> Result<serde_json::Value, fieldgrid_cli::error::Failure> {
-            let (plan, _, report) = fieldgrid_cli::commands::check::check(&src)?;
+            let (plan, _, report) = fieldgrid_cli::commands::check::check(&src, None)?;
             if let Some(dir) = &out {
                 let mut o = fieldgrid_cli::outdir::OutDir::prepare(dir)?;
                 let lines = grid_lines.then_some(plan.grid());

@@ -313,10 +313,13 @@ impl OutsideDomain {
         } else {
             "the domain"
         };
-        format!(
-            "the shape ({sx0}..{sx1} {unit} by {sy0}..{sy1} {unit}) does not lie inside {what} \
-             ({dx0}..{dx1} {unit} by {dy0}..{dy1} {unit})"
-        )
+        let place = if self.shape[0][0] == self.shape[0][1] && self.shape[1][0] == self.shape[1][1]
+        {
+            format!("the point ({sx0} {unit}, {sy0} {unit})")
+        } else {
+            format!("the shape ({sx0}..{sx1} {unit} by {sy0}..{sy1} {unit})")
+        };
+        format!("{place} does not lie inside {what} ({dx0}..{dx1} {unit} by {dy0}..{dy1} {unit})")
     }
 }
 

@@ -317,3 +317,105 @@ fn picture_width_sets_every_picture_and_out_of_range_widths_are_refused() {
         assert!(!o.exists());
     }
 }
+
+#[test]
+fn set_takes_an_arithmetic_expression_of_numbers() {
+    let dir = scratch(SCRATCH, "set-expr");
+    let design = write(&dir, "gapped.toml", GAPPED);
+    let solve = |set: &str, name: &str| {
+        let out = dir.join(name);
+        let args = [
+            "solve",
+            &design,
+            "--set",
+            set,
+            "--out",
+            out.to_str().unwrap(),
+        ];
+        expect(
+            run(&[&args[..], &["--quiet", "--no-error-estimate"]].concat()),
+            0,
+        );
+        summary(&out)
+    };
+    let (a, b) = (solve("gap=2*0.75", "expr"), solve("gap=1.5", "number"));
+    assert_eq!(a["parameters"][0]["value"], 1.5);
+    assert_eq!(a["capacitance"], b["capacitance"]);
+    // A name other than a constant is not known on the command line.
+    let out = dir.join("bad");
+    expect(
+        run(&[
+            "solve",
+            &design,
+            "--set",
+            "gap=gap*2",
+            "--out",
+            out.to_str().unwrap(),
+        ]),
+        2,
+    );
+}
+
+#[test]
+fn a_mil_design_equals_the_same_design_in_mm() {
+    // A trace 10 mil wide, 2 mil thick, 5.5 mil over a ground plane in a 200 x 100 mil box
+    // (edges and the interface half-way between node lines, where a rounding of the last
+    // digit moves nothing); the same design in mm (1 mil = 0.0254 mm exactly), its numbers
+    // written as exact decimals.
+    let design = |unit: &str, k: f64| {
+        let n = |v: f64| format!("{:.7}", v * k);
+        format!(
+            "unit = \"{unit}\"\ndepth = {}\n[grid]\nx = [0, {}]\ny = [0, {}]\ncell = {}\n\
+             [[dielectric]]\nname = \"laminate\"\npermittivity = 4.0\n\
+             rect = {{ x = [0, {}], y = [0, {}] }}\n\
+             [[conductor]]\nname = \"trace\"\npotential = 1.0\n\
+             rect = {{ x = [{}, {}], y = [{}, {}] }}\n",
+            n(1000.0),
+            n(200.0),
+            n(100.0),
+            n(1.0),
+            n(200.0),
+            n(5.5),
+            n(94.5),
+            n(104.5),
+            n(5.5),
+            n(7.5),
+        )
+    };
+    let dir = scratch(SCRATCH, "mil");
+    let solve = |name: &str, text: &str| {
+        let file = write(&dir, &format!("{name}.toml"), text);
+        let out = dir.join(name);
+        expect(
+            run(&["solve", &file, "--out", out.to_str().unwrap(), "--quiet"]),
+            0,
+        );
+        summary(&out)
+    };
+    let mil = solve("mil", &design("mil", 1.0));
+    let mm = solve("mm", &design("mm", 0.0254));
+    assert_eq!(mil["grid"]["nx"], mm["grid"]["nx"]);
+    assert!((mil["depth"].as_f64().unwrap() / 25.4e-3 - 1.0).abs() < 1e-12);
+    let c = |s: &serde_json::Value| s["capacitance"]["matrix"][0][0].as_f64().unwrap();
+    let rel = (c(&mil) / c(&mm) - 1.0).abs();
+    assert!(
+        rel < 1e-9,
+        "mil {} and mm {} differ by {rel:e}",
+        c(&mil),
+        c(&mm)
+    );
+}
+
+#[test]
+fn check_takes_the_memory_limit_it_reports_against() {
+    let dir = scratch(SCRATCH, "check-memory");
+    let design = write(&dir, "gapped.toml", GAPPED);
+    expect(
+        run(&["check", &design, "--quiet", "--max-memory", "4096"]),
+        0,
+    );
+    expect(
+        run(&["check", &design, "--quiet", "--max-memory", "0.01"]),
+        2,
+    );
+}

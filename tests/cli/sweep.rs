@@ -68,8 +68,9 @@ fn sharded_sweep_merges_into_the_unsharded_table_row_for_row() {
     let whole = dir.join("whole");
     expect_for(sweep(&design, &whole, &[]), 0, "unsharded sweep");
     let (header, table) = rows(&whole);
+    // The contract's columns first, in their order; the other reported quantities follow.
     assert_eq!(
-        header,
+        header[..9],
         [
             "point",
             "gap",
@@ -250,4 +251,123 @@ fn sweep_refuses_bad_arguments_before_solving() {
         assert!(!out.join("sweep.csv").exists(), "{what}: no rows");
     }
     expect_for(run(&["sweep", "--out", o]), 2, "no design");
+}
+
+/// A driven strip, a floating shield above it, a probe and an air strength: every kind of
+/// quantity `solve` reports.
+const SHIELDED: &str = r#"
+unit = "mm"
+[parameters]
+h = 2.0
+v = 1.0
+[grid]
+x = [0.0, 6.0]
+y = [0.0, 4.0]
+cell = 0.1
+[background]
+strength = 3.0e6
+[[conductor]]
+name = "strip"
+potential = "v"
+rect = { x = [2.0, 4.0], y = [1.0, 1.2] }
+[[conductor]]
+name = "shield"
+floating = true
+rect = { x = [1.0, 5.0], y = ["h", "h + 0.2"] }
+[[probe]]
+name = "above"
+at = [3.0, 3.5]
+"#;
+
+#[test]
+fn a_sweep_records_every_quantity_solve_reports() {
+    let dir = scratch(SCRATCH, "every");
+    let design = write(&dir, "shielded.toml", SHIELDED);
+    let out = dir.join("out");
+    let args = [
+        "sweep",
+        &design,
+        "--vary",
+        "h=2:2.5:2",
+        "--set",
+        "v=2*5",
+        "--point-summaries",
+        "--out",
+        s(&out),
+        "--quiet",
+    ];
+    expect_for(run(&args), 0, "sweep");
+    let (header, table) = rows(&out);
+    let col = |name: &str| {
+        header
+            .iter()
+            .position(|h| h == name)
+            .unwrap_or_else(|| panic!("no column {name} in {header:?}"))
+    };
+    for (k, row) in table.iter().enumerate() {
+        let point: serde_json::Value = serde_json::from_slice(
+            &std::fs::read(out.join(format!("point-{k}.summary.json"))).unwrap(),
+        )
+        .unwrap();
+        // --set holds for every point.
+        assert_eq!(point["parameters"][1]["value"], 10.0);
+        let cell = |name: &str| row[col(name)].parse::<f64>().unwrap();
+        let close = |a: f64, b: &serde_json::Value| {
+            let b = b.as_f64().unwrap();
+            assert!(
+                (a - b).abs() <= 1e-12 * b.abs().max(1e-30),
+                "{a} against {b}"
+            );
+        };
+        let strip = &point["conductors"][0];
+        let shield = &point["conductors"][1];
+        close(cell("Q[strip] (C/m)"), &strip["charge"]);
+        close(cell("Q[strip] error (C/m)"), &strip["charge_error"]);
+        close(cell("F[shield] y (N/m)"), &shield["force"][1]);
+        close(cell("V[shield] (V)"), &shield["potential"]);
+        close(
+            cell("probe[above] potential (V)"),
+            &point["probes"][0]["potential"],
+        );
+        close(
+            cell("probe[above] Ey (V/m)"),
+            &point["probes"][0]["field"][1],
+        );
+        close(cell("energy (J/m)"), &point["energy"]);
+        close(cell("peak_field x (m)"), &point["peak_field"]["x"]);
+        close(
+            cell("peak_field error (V/m)"),
+            &point["peak_field"]["error_estimate"],
+        );
+        close(
+            cell("worst_margin margin"),
+            &point["worst_margin"]["margin"],
+        );
+        close(cell("worst_margin y (m)"), &point["worst_margin"]["y"]);
+        close(
+            cell("C[strip,strip] error (F/m)"),
+            &point["capacitance"]["error_estimate"][0][0],
+        );
+        assert_eq!(
+            row[col("peak_field singular")],
+            point["peak_field"]["singular"].to_string()
+        );
+        assert_eq!(row[col("worst_margin material")], "background");
+    }
+    // The strip at 10 V: the floating shield settles between it and the grounded box.
+    let v: f64 = table[0][col("V[shield] (V)")].parse().unwrap();
+    assert!(v > 0.0 && v < 10.0, "{v}");
+    // A parameter both set and varied is refused.
+    let bad = dir.join("bad");
+    let args = [
+        "sweep",
+        &design,
+        "--vary",
+        "h=2:2.5:2",
+        "--set",
+        "h=1",
+        "--out",
+        s(&bad),
+    ];
+    expect_for(run(&args), 2, "--set of a varied parameter");
 }

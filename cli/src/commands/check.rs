@@ -10,12 +10,16 @@ use fieldgrid_solver::plan::Plan;
 use fieldgrid_solver::study::StudyParams;
 
 /// The checks of `check` on a design read: its plan (grid fitted once), the memory a solve
-/// needs, MiB, and what check.json holds.
-pub fn check(src: &DesignSource) -> Result<(Plan, f64, serde_json::Value), Failure> {
+/// needs, MiB, and what check.json holds; a design needing more than `max_memory` MiB (by
+/// default half of the available memory) is refused, as a solve would refuse it.
+pub fn check(
+    src: &DesignSource,
+    max_memory: Option<f64>,
+) -> Result<(Plan, f64, serde_json::Value), Failure> {
     let (plan, mib) = check_memory(
         src,
         fieldgrid_solver::study::plan(&src.design, &StudyParams::default()),
-        None,
+        max_memory,
         0.0,
     )?;
     let grid = plan.grid();
@@ -66,7 +70,8 @@ pub fn write_files(
 /// Runs the command, returning the exit code.
 pub fn run(args: &CheckArgs) -> Result<u8, Failure> {
     let src = load_design(&args.design, &super::parameter_overrides(&args.set)?)?;
-    let (plan, mib, report) = check(&src)?;
+    let (plan, mib, report) = check(&src, args.max_memory)?;
+    let d = &src.design;
     let grid = plan.grid();
     if let Some(dir) = &args.out {
         let mut out = OutDir::prepare(dir)?;
@@ -80,18 +85,29 @@ pub fn run(args: &CheckArgs) -> Result<u8, Failure> {
         out.commit()?;
     }
     if !args.quiet {
+        // Lengths in the file's unit, to six significant digits.
+        let u = src.unit;
+        let len = |v: f64| {
+            let six: f64 = format!("{:.5e}", v / u.scale()).parse().unwrap_or(f64::NAN);
+            format!("{six} {}", u.name())
+        };
         let cells = if grid.is_uniform() {
-            format!("cell {:.4e} m x {:.4e} m", grid.max_dx(), grid.max_dy())
+            format!("cell {} x {}", len(grid.max_dx()), len(grid.max_dy()))
         } else {
             format!(
-                "graded: cells {:.4e} m to {:.4e} m",
-                grid.min_cell(),
-                grid.max_cell()
+                "graded: cells {} to {}",
+                len(grid.min_cell()),
+                len(grid.max_cell())
             )
         };
         println!(
-            "{}: valid; grid {} x {} nodes ({cells}), about {:.0} MiB to solve",
+            "{}: valid; domain x {} to {}, y {} to {}; grid {} x {} nodes ({cells}), about \
+             {:.0} MiB to solve",
             args.design.display(),
+            len(d.domain.x[0]),
+            len(d.domain.x[1]),
+            len(d.domain.y[0]),
+            len(d.domain.y[1]),
             grid.nx,
             grid.ny,
             mib

@@ -225,24 +225,23 @@ fn load(path: &Path, args: &CompareArgs, role: &str) -> Result<Revision, Failure
         }),
         InputKind::Design => {
             let src = load_design(&file, &[])?;
-            let params = study_params(&args.opts)?;
+            let mut params = study_params(&args.opts)?;
+            let progress = crate::progress::Progress::new(args.opts.quiet)
+                .labelled(&format!("{role} {}", file.display()));
+            params.stages = progress.stages(params.stages.take());
+            params.solver.monitor = progress.iterations();
             let (plan, _) = check_memory(
                 &src,
                 study::plan(&src.design, &params),
                 args.opts.max_memory,
                 0.0,
             )?;
-            if !args.opts.quiet && std::io::IsTerminal::is_terminal(&std::io::stderr()) {
-                eprint!("\rsolving {role} {} ...", file.display());
-            }
             let start = Instant::now();
             let sol = with_threads(args.opts.threads, || {
                 study::run_planned(&src.design, &plan, &params)
             })?
             .map_err(|e| super::solve::study_failure(&src, e))?;
-            if !args.opts.quiet && std::io::IsTerminal::is_terminal(&std::io::stderr()) {
-                eprint!("\r{:70}\r", "");
-            }
+            progress.finish();
             let summary = Summary::from_solution(
                 &sol,
                 src.design.depth,

@@ -42,15 +42,17 @@ pub fn run(args: &ImpedanceArgs) -> Result<u8, Failure> {
 /// Runs the command with `extra` results, returning the exit code.
 pub fn run_with(args: &ImpedanceArgs, extra: Option<Extra>) -> Result<u8, Failure> {
     let src = load_design(&args.design, &super::parameter_overrides(&args.set)?)?;
-    let (params, plan) = prepare(&src, &args.signal, &args.opts)?;
+    let (mut params, plan) = prepare(&src, &args.signal, &args.opts)?;
+    let progress = crate::progress::Progress::new(args.opts.quiet);
+    params.stages = progress.stages(params.stages.take());
+    params.solver.monitor = progress.iterations();
     let mut out = OutDir::prepare(&args.out)?;
+    let solved = study(&src, &plan, &args.signal, &params, args.opts.threads);
+    progress.finish();
     let LineSolved {
         study: ls,
         mut summary,
-    } = study(&src, &plan, &args.signal, &params, args.opts.threads)?;
-    if !args.opts.quiet && std::io::IsTerminal::is_terminal(&std::io::stderr()) {
-        eprint!("\r{:60}\r", "");
-    }
+    } = solved?;
     let warnings = line_warnings(&ls, &args.signal);
     let extra_text = match extra {
         Some(f) => Some(f(&src, &ls, &mut summary, &out)?),

@@ -18,10 +18,7 @@ use fieldgrid_solver::grid::GridError;
 use fieldgrid_solver::plan::Plan;
 use fieldgrid_solver::solvers::Params;
 use fieldgrid_solver::study::StudyParams;
-use std::io::IsTerminal;
 use std::path::Path;
-use std::sync::Arc;
-use std::time::Instant;
 
 /// Largest design file read, bytes (a path such as /dev/zero never ends).
 pub const MAX_DESIGN_BYTES: u64 = 64 << 20;
@@ -86,13 +83,17 @@ pub fn parameter_overrides(set: &crate::args::SetArgs) -> Result<Vec<(String, f6
                     "--set {s}: no parameter name: {form}"
                 )));
             }
-            match value.trim().parse::<f64>() {
-                Ok(v) if v.is_finite() => Ok((name.to_string(), v)),
-                _ => Err(Failure::input(format!(
-                    "--set {s}: `{}` is not a finite number",
-                    value.trim()
-                ))),
-            }
+            // A number or arithmetic of numbers (`2*1.5`, `sqrt(2)/2`); parameters of the
+            // design are not known here, so a name other than a constant is refused.
+            crate::design_file::expr::eval(value.trim(), &|_| None)
+                .map(|v| (name.to_string(), v))
+                .map_err(|e| {
+                    Failure::input(format!(
+                        "--set {s}: `{}` is not a number or an arithmetic expression of \
+                         numbers: {e}",
+                        value.trim()
+                    ))
+                })
         })
         .collect()
 }
@@ -227,14 +228,6 @@ pub fn study_params(opts: &SolveOptions) -> Result<StudyParams, Failure> {
     let mut solver = Params::default();
     solver.tol = opts.tol;
     solver.max_iter = opts.max_iterations;
-    if !opts.quiet && std::io::stderr().is_terminal() {
-        let start = Instant::now();
-        solver.monitor = Some(Arc::new(move |it, rel| {
-            if start.elapsed().as_secs_f64() > 1.0 {
-                eprint!("\r  iteration {it:6}  relative residual {rel:.2e}   ");
-            }
-        }));
-    }
     let mut params = StudyParams::default();
     params.method = opts.solver.into();
     params.solver = solver;

@@ -56,7 +56,9 @@ pub fn run_timed_with(
         0.0
     };
     let (mut params, plan) = prepare(&src, &args.opts, extra)?;
-    params.stages = Some(timings.monitor());
+    let progress = crate::progress::Progress::new(args.opts.quiet);
+    params.stages = progress.stages(Some(timings.monitor()));
+    params.solver.monitor = progress.iterations();
     if args.circuit {
         if let Err(why) = fieldgrid_solver::circuit::exportable(src.design.mode, src.design.depth) {
             return Err(Failure::input(format!(
@@ -70,10 +72,9 @@ pub fn run_timed_with(
         check_min_margin(&src.design, min, &args.design)?;
     }
     let mut out = OutDir::prepare(&args.out)?;
-    let (sol, mut summary) = solve_planned(&src, &plan, &params, args.opts.threads)?;
-    if !args.opts.quiet && std::io::IsTerminal::is_terminal(&std::io::stderr()) {
-        eprint!("\r{:60}\r", "");
-    }
+    let solved = solve_planned(&src, &plan, &params, args.opts.threads);
+    progress.finish();
+    let (sol, mut summary) = solved?;
     let extra_text = match more {
         Some(f) => Some(f(&src, &mut summary, &out)?),
         None => None,
@@ -431,8 +432,10 @@ fn report(sol: &Solution, summary: &Summary, out: &OutDir) -> String {
     }
     let _ = writeln!(
         s,
-        "solved {} x {} nodes with {} in {:.2} s ({} solves, at most {} iterations, residual {:.1e})",
-        sol.grid.nx, sol.grid.ny, summary.solver.method, summary.solver.seconds, summary.solver.solves, summary.solver.iterations, summary.solver.relative_residual
+        "solved {} x {} nodes with {} in {:.2} s ({} solve{}, at most {} iterations, residual {:.1e})",
+        sol.grid.nx, sol.grid.ny, summary.solver.method, summary.solver.seconds, summary.solver.solves,
+        if summary.solver.solves == 1 { "" } else { "s" },
+        summary.solver.iterations, summary.solver.relative_residual
     );
     let _ = writeln!(s, "capacitance matrix ({unit}):");
     for (i, name) in sol.capacitance.names.iter().enumerate() {
@@ -508,18 +511,17 @@ fn report(sol: &Solution, summary: &Summary, out: &OutDir) -> String {
     s
 }
 
-/// `v` to six decimals, trailing zeros dropped: "12", "4.334617".
+/// `v` to six significant digits, trailing zeros dropped: "12", "4.33462", "34112.8".
 /// Magnitudes outside [1e-4, 1e9) in exponent form ("1e300", not 301 digits).
 fn trimmed(v: f64) -> String {
-    if v != 0.0 && !(1e-4..1e9).contains(&v.abs()) {
-        return format!("{v:e}");
+    let six: f64 = format!("{v:.5e}").parse().unwrap_or(v);
+    if six != 0.0 && !(1e-4..1e9).contains(&six.abs()) {
+        return format!("{six:e}");
     }
-    let s = format!("{v:.6}");
-    let s = s.trim_end_matches('0').trim_end_matches('.');
-    if s == "-0" {
+    if six == 0.0 {
         "0".to_string()
     } else {
-        s.to_string()
+        format!("{six}")
     }
 }
 
@@ -582,4 +584,18 @@ pub fn hotspot_report(hotspots: &[fieldgrid_solver::post::Hotspot], shown: usize
         let _ = writeln!(s, "{MARGIN_CAUTION}");
     }
     s
+}
+
+#[cfg(test)]
+mod tests {
+    use super::trimmed;
+
+    #[test]
+    fn potentials_are_printed_to_six_significant_digits() {
+        assert_eq!(trimmed(34112.766006), "34112.8");
+        assert_eq!(trimmed(12.0), "12");
+        assert_eq!(trimmed(0.43660218), "0.436602");
+        assert_eq!(trimmed(-0.0), "0");
+        assert_eq!(trimmed(1e300), "1e300");
+    }
 }

@@ -53,7 +53,7 @@ impl Reader<'_> {
                 self.err(
                     &e.node.span,
                     "unit",
-                    format!("unknown unit \"{s}\": use m, cm, mm or um"),
+                    format!("unknown unit \"{s}\": use m, cm, mm, um, mil or in"),
                 )
             })?;
         }

@@ -247,6 +247,8 @@ fn every_unit_scales_lengths_only() {
         ("mm", 1e-3),
         ("um", 1e-6),
         ("µm", 1e-6),
+        ("mil", 25.4e-6),
+        ("in", 25.4e-3),
     ] {
         let text = format!(
             "unit = \"{unit}\"\n[grid]\nx = [0, 4]\ny = [0, 4]\ncell = 1\n[[conductor]]\n\
@@ -259,7 +261,7 @@ fn every_unit_scales_lengths_only() {
         assert_eq!(src.design.conductors[0].drive, Drive::Fixed(7.0));
     }
     assert_eq!(LengthUnit::Um.name(), "um");
-    assert_eq!(LengthUnit::parse("in"), None);
+    assert_eq!(LengthUnit::parse("inch"), None);
 }
 
 #[test]
@@ -389,4 +391,32 @@ fn a_shape_outside_the_domain_is_described_in_the_files_unit() {
     let e = design::validate(&d).unwrap_err();
     assert!(e.message.contains("5e-1..1.5e0 m"), "{}", e.message);
     assert_eq!(e.outside.unwrap().shape, [[0.5, 1.5], [0.0, 0.5]]);
+}
+
+#[test]
+fn an_unknown_key_suggests_the_nearest_allowed_key() {
+    let e = read("[side]\nleft = \"ground\"\n[grid]\nx = [0, 1]\ny = [0, 1]\ncell = 0.1\n")
+        .unwrap_err();
+    assert!(e.message.contains("did you mean `sides`"), "{}", e.message);
+}
+
+#[test]
+fn a_probe_outside_the_domain_is_told_the_domains_extent() {
+    let text = "unit = \"mm\"\n[grid]\nx = [0, 4]\ny = [0, 2]\ncell = 0.1\n\
+                [[probe]]\nname = \"p\"\nat = [5, 1]\n";
+    let e = read(text).unwrap_err();
+    assert_eq!(e.key, "probe.at");
+    assert!(
+        e.message.contains("the point (5 mm, 1 mm)") && e.message.contains("(0..4 mm by 0..2 mm)"),
+        "{}",
+        e.message
+    );
+}
+
+#[test]
+fn a_permittivity_below_vacuums_is_refused_at_its_key() {
+    let text = "[grid]\nx = [0, 1]\ny = [0, 1]\ncell = 0.1\n[[dielectric]]\nname = \"d\"\n\
+                permittivity = 0.8\nrect = { x = [0, 1], y = [0, 0.5] }\n";
+    let e = read(text).unwrap_err();
+    assert_eq!((e.line, e.key.as_str()), (7, "dielectric.permittivity"));
 }

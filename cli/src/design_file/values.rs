@@ -103,9 +103,11 @@ impl Reader<'_> {
         for e in entries {
             if !allowed.contains(&e.key.as_str()) {
                 let mut m = format!("unknown key `{}`", e.key);
+                // The nearest allowed key (`[side]` is `sides`, not `mode`).
                 let near = allowed
                     .iter()
-                    .find(|k| distance(k, &e.key) <= 2.min(k.len() / 2));
+                    .filter(|k| distance(k, &e.key) <= 2.min(k.len() / 2))
+                    .min_by_key(|k| distance(k, &e.key));
                 match near {
                     Some(k) => m += &format!(" (did you mean `{k}`?)"),
                     None => m += &format!("; allowed here: {}", list(allowed)),

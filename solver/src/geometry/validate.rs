@@ -19,9 +19,10 @@ pub const MAX_LENGTH: f64 = 1e100;
 /// Smallest width or height of a domain, m.
 pub const MIN_LENGTH: f64 = 1e-100;
 
-/// Smallest relative permittivity accepted (far below any material; a subnormal one would
-/// make the operator's weights vanish).
-pub const MIN_PERMITTIVITY: f64 = 1e-12;
+/// Smallest relative permittivity accepted: vacuum's. Every material's static relative
+/// permittivity is at least 1 (a polarisable medium only adds to the vacuum's displacement;
+/// common practice), so a smaller value is a typing slip, not a material.
+pub const MIN_PERMITTIVITY: f64 = 1.0;
 /// Largest relative permittivity accepted (far above any material; near the double range
 /// the operator's weights overflow).
 pub const MAX_PERMITTIVITY: f64 = 1e12;
@@ -30,8 +31,13 @@ pub const MAX_PERMITTIVITY: f64 = 1e12;
 fn permittivity_out_of_range(eps: f64) -> Option<String> {
     (!(MIN_PERMITTIVITY..=MAX_PERMITTIVITY).contains(&eps)).then(|| {
         format!(
-            "the relative permittivity must lie between {MIN_PERMITTIVITY:e} and \
-             {MAX_PERMITTIVITY:e}, got {eps:e}"
+            "the relative permittivity must lie between {MIN_PERMITTIVITY} (vacuum; no \
+             material's static permittivity is smaller) and {MAX_PERMITTIVITY:e}, got {}",
+            if (1e-4..1e6).contains(&eps.abs()) {
+                format!("{eps}")
+            } else {
+                format!("{eps:e}")
+            }
         )
     })
 }
@@ -269,11 +275,16 @@ pub fn validate_design(d: &Design) -> Result<(), DesignError> {
     }
     for (i, p) in d.probes.iter().enumerate() {
         if !in_domain(p.at, &ctx) {
-            return Err(err(
-                Item::Probe(i),
-                "at",
-                "the probe must lie inside the domain",
-            ));
+            let out = crate::design::OutsideDomain {
+                shape: [[p.at[0], p.at[0]], [p.at[1], p.at[1]]],
+                domain: [ctx.x, ctx.y],
+                axisymmetric: ctx.axisymmetric,
+            };
+            return Err(DesignError {
+                message: out.describe(|v| format!("{v:e}"), "m"),
+                outside: Some(Box::new(out)),
+                ..err(Item::Probe(i), "at", "")
+            });
         }
     }
     Ok(())

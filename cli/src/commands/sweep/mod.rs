@@ -4,8 +4,11 @@
 //! The points are the cartesian product of the varied parameters, numbered from 0 with the
 //! first `--vary` varying slowest. `sweep.csv` holds one row per point: the point index, the
 //! varied parameters (in the design's own units), every capacitance entry `C[a,b]` (F/m planar,
-//! F axisymmetric), the peak field and whether every solve converged. `sweep.json` holds the
-//! sweep's definition (design hash, varied parameters, solver and tolerance) and the shard.
+//! F axisymmetric), the peak field and whether every solve converged, then every other
+//! quantity `solve` reports ([`columns`]). `--set` fixes parameters for every point;
+//! `--point-summaries` writes each point's `summary.json` as `point-P.summary.json`.
+//! `sweep.json` holds the sweep's definition (design hash, varied and set parameters, solver
+//! and tolerance) and the shard.
 //!
 //! Invariants:
 //! - `--shard I/N` runs the points with index % N == I, with 0 <= I < N (I counts from 0,
@@ -25,7 +28,7 @@ use super::{check_memory, load_design, study_params, with_threads};
 use crate::args::{SolverChoice, SweepArgs};
 use crate::design_file::DesignSource;
 use crate::error::Failure;
-use crate::outdir::{csv_bytes, num, OutDir};
+use crate::outdir::{csv_bytes, OutDir};
 use crate::{EXIT_NOT_CONVERGED, EXIT_OK};
 use fieldgrid_solver::design::Drive;
 use fieldgrid_solver::plan::Plan;
@@ -35,7 +38,9 @@ use std::collections::BTreeMap;
 use std::io::IsTerminal;
 use std::path::Path;
 
+mod columns;
 mod points;
+pub use columns::Layout;
 pub use points::{point_count, point_values, Shard, Vary, MAX_POINTS};
 
 /// `sweep.json`: what identifies a sweep, and which part of it a directory holds.
@@ -60,6 +65,9 @@ pub struct SweepFile {
     /// The shard this directory holds; absent for a whole (or merged) sweep.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub shard: Option<Shard>,
+    /// Parameters fixed for every point with `--set`, in the design's own units.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub set: Vec<crate::summary::ParameterSummary>,
 }
 
 impl SweepFile {
@@ -72,6 +80,7 @@ impl SweepFile {
             && self.solver == other.solver
             && self.tol == other.tol
             && self.columns == other.columns
+            && self.set == other.set
     }
 
     /// What differs between two sweeps, for messages.
@@ -82,6 +91,8 @@ impl SweepFile {
             "the varied parameters differ".into()
         } else if self.solver != other.solver || self.tol != other.tol {
             "the solver or its tolerance differs".into()
+        } else if self.set != other.set {
+            "the parameters given with --set differ".into()
         } else if self.columns != other.columns {
             "the columns differ".into()
         } else if self.shard != other.shard {
@@ -135,11 +146,16 @@ pub fn run(args: &SweepArgs) -> Result<u8, Failure> {
     // The sweep's own progress bar replaces the per-solve residual display.
     params.solver.monitor = None;
     let mine = || (0..points).filter(move |&p| shard.is_none_or(|s| s.runs(p)));
+    let set = super::parameter_overrides(&args.set)?;
+    if let Some((name, _)) = set.iter().find(|(n, _)| vary.iter().any(|v| &v.name == n)) {
+        return Err(Failure::input(format!(
+            "--set {name}: the parameter is also varied (--vary {name}=...)"
+        )));
+    }
     let overrides = |values: &[f64]| -> Vec<(String, f64)> {
-        vary.iter()
-            .zip(values)
-            .map(|(v, &x)| (v.name.clone(), x))
-            .collect()
+        let mut o = set.clone();
+        o.extend(vary.iter().zip(values).map(|(v, &x)| (v.name.clone(), x)));
+        o
     };
     let load_point = |p: usize| -> Result<(Vec<f64>, DesignSource, Plan), Failure> {
         let values = point_values(&vary, p);
@@ -158,15 +174,12 @@ pub fn run(args: &SweepArgs) -> Result<u8, Failure> {
     // Every point of this shard is read and checked before anything is solved; the points
     // are generated one at a time and nothing of a checked point is kept, so memory does not
     // grow with the number of points.
-    let first = load_design(design, &[])?;
+    let first = load_design(design, &set)?;
     let names = fixed_names(&first);
-    let mut mode = first.design.mode;
+    let layout = Layout::of(&first.design);
     let mut count = 0usize;
     for p in mine() {
         let (values, src, _) = load_point(p)?;
-        if count == 0 {
-            mode = src.design.mode;
-        }
         if fixed_names(&src) != names {
             return Err(point_failure(
                 p,
@@ -179,19 +192,8 @@ pub fn run(args: &SweepArgs) -> Result<u8, Failure> {
     }
     let hash = first.text_hash.clone();
     drop(first);
-    let mut columns = vec!["point".to_string()];
-    columns.extend(vary.iter().map(|v| v.name.clone()));
-    let unit = match mode {
-        fieldgrid_solver::design::Mode::Axisymmetric => "F",
-        _ => "F/m",
-    };
-    for a in &names {
-        for b in &names {
-            columns.push(format!("C[{a},{b}] ({unit})"));
-        }
-    }
-    columns.push("peak_field (V/m)".into());
-    columns.push("converged".into());
+    let varied: Vec<String> = vary.iter().map(|v| v.name.clone()).collect();
+    let columns = layout.columns(&varied);
     let def = SweepFile {
         version: 1,
         design: design.display().to_string(),
@@ -202,6 +204,13 @@ pub fn run(args: &SweepArgs) -> Result<u8, Failure> {
         tol: args.opts.tol,
         columns: columns.clone(),
         shard,
+        set: set
+            .iter()
+            .map(|(name, value)| crate::summary::ParameterSummary {
+                name: name.clone(),
+                value: *value,
+            })
+            .collect(),
     };
 
     let mut out = OutDir::prepare_in_place(&args.out)?;
@@ -239,18 +248,17 @@ pub fn run(args: &SweepArgs) -> Result<u8, Failure> {
             study::run_planned(&src.design, &plan, &params)
         })?
         .map_err(|e| super::solve::study_failure(&src, e))?;
-        let mut row = vec![p.to_string()];
-        row.extend(values.iter().map(|&v| value_text(v)));
-        for r in &sol.capacitance.matrix {
-            row.extend(r.iter().map(|&v| num(v)));
+        let texts: Vec<String> = values.iter().map(|&v| value_text(v)).collect();
+        let row = layout.row(p, &texts, &sol);
+        if args.point_summaries {
+            let mut summary =
+                crate::summary::Summary::from_solution(&sol, src.design.depth, 0.0, &src.text_hash);
+            summary.parameters = crate::summary::parameters(&src);
+            summary.part = Some(crate::summary::PartSummary::of(&src.design));
+            let json = serde_json::to_vec_pretty(&summary)
+                .map_err(|e| Failure::io("encoding a point's summary.json", e))?;
+            out.write(&format!("point-{p}.summary.json"), &json)?;
         }
-        row.push(
-            sol.peak_field
-                .as_ref()
-                .map(|h| num(h.magnitude))
-                .unwrap_or_default(),
-        );
-        row.push(sol.solve.converged.to_string());
         if !sol.solve.converged {
             unconverged += 1;
         }
@@ -424,9 +432,11 @@ fn resume(out: &OutDir, def: &SweepFile) -> Result<(Vec<bool>, usize), Failure> 
             if old.same_sweep(def) && old.shard == def.shard {
                 let mut done = vec![false; def.points];
                 let mut unconverged = 0;
+                let at = columns::converged_column(&old.columns);
                 for (p, r) in rows {
                     done[p] = true;
-                    unconverged += usize::from(r.last().is_some_and(|c| c == "false"));
+                    let cell = at.and_then(|k| r.get(k));
+                    unconverged += usize::from(cell.is_some_and(|c| c == "false"));
                 }
                 Ok((done, unconverged))
             } else {
@@ -537,9 +547,10 @@ fn merge(dirs: &[std::path::PathBuf], out: &Path, quiet: bool) -> Result<u8, Fai
     outdir.write("sweep.csv", &table_bytes(&def.columns, &rows))?;
     outdir.write("sweep.json", &json)?;
     outdir.commit()?;
+    let at = columns::converged_column(&def.columns);
     let unconverged = rows
         .values()
-        .filter(|r| r.last().is_some_and(|c| c == "false"))
+        .filter(|r| at.and_then(|k| r.get(k)).is_some_and(|c| c == "false"))
         .count();
     if !quiet {
         println!(
