@@ -351,3 +351,29 @@ circle = { center = [5.01, 3.5], radius = 1.0 }
     assert!(!at_junction.is_empty(), "no hot spot at a junction");
     assert!(at_junction.iter().all(|h| h.singular));
 }
+
+#[test]
+fn a_rounded_tip_keeps_its_gap() {
+    // The demo draws its apex lower by r (1 / sin(a) - 1), the distance a fillet of radius r
+    // cuts a wedge of half-angle a back by (common practice of plane geometry), so the
+    // rounded tip's lowest point stays 2 mm above the plate whatever the radius.
+    for round in [0.0, 0.1, 0.25, 0.5] {
+        let overrides = [("tip_round".to_string(), round)];
+        let src = read_design(HV_TIP, "hv_tip.toml", &overrides).expect("demo design reads");
+        let o = fieldgrid_solver::geometry::outline(&src.design.conductors[0].shape).unwrap();
+        let lowest = o.bbox().min[1];
+        assert!(
+            (lowest - TIP[1]).abs() < 1e-12,
+            "tip_round {round} mm: the tip's lowest point is at {lowest} m"
+        );
+    }
+    // And the rounded tip's peak field sits at that lowest point, within a cell.
+    let s = tip(0.05, 0.5);
+    let top = &s.hotspots[0];
+    assert!(
+        distance(top, TIP) < 0.05e-3,
+        "peak at ({}, {})",
+        top.x,
+        top.y
+    );
+}

@@ -197,7 +197,10 @@ pub fn validate_design(d: &Design) -> Result<(), DesignError> {
                     item,
                     key,
                     format!(
-                        "conductor `{}` {how} conductor `{}`: conductors must not touch or overlap",
+                        "conductor `{}` {how} conductor `{}`: conductors must not touch or \
+                         overlap; if they are one piece of metal (a pour and its via fence, \
+                         say), draw them as one `polygon` that outlines both, and if they are \
+                         separate, leave a gap between them",
                         c.name, d.conductors[j].name
                     ),
                 ));
