@@ -1,4 +1,4 @@
-//! Progress of a single solve on a terminal: the study's stage and the solver's iteration.
+//! Progress on a terminal: a single solve's stage and solver iteration, and a sweep's points.
 //!
 //! The library never prints: it tells the [`StageMonitor`] of its `StudyParams` when each
 //! stage starts and ends, and the solver's monitor each iteration's relative residual. This
@@ -90,6 +90,21 @@ impl Progress {
             bar.finish_and_clear();
         }
     }
+}
+
+/// A bar counting a sweep's points on standard error (`done` of `total` already there), or
+/// `None` when `quiet` or when standard error is not a terminal.
+pub fn counter(quiet: bool, total: usize, done: usize) -> Option<ProgressBar> {
+    (!quiet && std::io::stderr().is_terminal()).then(|| {
+        let bar = ProgressBar::with_draw_target(Some(total as u64), ProgressDrawTarget::stderr());
+        bar.set_style(
+            ProgressStyle::with_template("[{bar:24}] {pos}/{len} {elapsed:>4} {msg}")
+                .unwrap_or_else(|_| ProgressStyle::default_bar())
+                .progress_chars("#>-"),
+        );
+        bar.set_position(done as u64);
+        bar
+    })
 }
 
 /// The words shown for a stage.

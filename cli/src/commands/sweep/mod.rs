@@ -35,7 +35,6 @@ use fieldgrid_solver::plan::Plan;
 use fieldgrid_solver::study;
 use serde::{Deserialize, Serialize};
 use std::collections::BTreeMap;
-use std::io::IsTerminal;
 use std::path::Path;
 
 mod columns;
@@ -233,16 +232,18 @@ pub fn run(args: &SweepArgs) -> Result<u8, Failure> {
         out.write("sweep.csv", &table_bytes(&columns, &Rows::new()))?;
     }
 
-    let progress = !args.opts.quiet && std::io::stderr().is_terminal();
     let skipped = mine().filter(|&p| done[p]).count();
+    let bar = crate::progress::counter(args.opts.quiet, count, skipped);
     let mut solved = 0;
     for p in mine().filter(|&p| !done[p]) {
         let (values, src, plan) = load_point(p)?;
-        if progress {
-            eprint!(
-                "\r{}",
-                progress_bar(skipped + solved, count, p, &vary, &values)
-            );
+        if let Some(bar) = &bar {
+            let at: Vec<String> = vary
+                .iter()
+                .zip(&values)
+                .map(|(v, &x)| format!("{}={}", v.name, value_text(x)))
+                .collect();
+            bar.set_message(format!("point {p}: {}", at.join(" ")));
         }
         let sol = with_threads(args.opts.threads, || {
             study::run_planned(&src.design, &plan, &params)
@@ -265,9 +266,12 @@ pub fn run(args: &SweepArgs) -> Result<u8, Failure> {
         // One whole row per point, appended: the table is never rewritten.
         out.append("sweep.csv", &row_bytes(&row))?;
         solved += 1;
+        if let Some(bar) = &bar {
+            bar.inc(1);
+        }
     }
-    if progress {
-        eprint!("\r{:78}\r", "");
+    if let Some(bar) = &bar {
+        bar.finish_and_clear();
     }
     out.commit()?;
     if !args.opts.quiet {
@@ -325,24 +329,6 @@ fn point_failure(p: usize, vary: &[Vary], values: &[f64], f: Failure) -> Failure
         message: format!("sweep point {p} ({}): {message}", at.join(", ")),
         location: f.location,
     }
-}
-
-fn progress_bar(done: usize, total: usize, p: usize, vary: &[Vary], values: &[f64]) -> String {
-    const WIDTH: usize = 24;
-    let filled = (done * WIDTH).checked_div(total).unwrap_or(WIDTH);
-    let at: Vec<String> = vary
-        .iter()
-        .zip(values)
-        .map(|(v, &x)| format!("{}={}", v.name, value_text(x)))
-        .collect();
-    let mut line = format!(
-        "[{}{}] {done}/{total}  point {p}: {}",
-        "#".repeat(filled),
-        "-".repeat(WIDTH - filled),
-        at.join(" ")
-    );
-    line.truncate(78);
-    format!("{line:78}")
 }
 
 /// One CSV row, with its line end.
