@@ -1,7 +1,8 @@
 //! Design targets, sensitivities and tolerances (`fieldgrid target`, `--sensitivity`,
 //! `--tolerance`) against closed forms: the parallel-plate gap for a wanted capacitance, the
 //! microstrip width for 50 ohm against Hammerstad and Jensen's formulas, the coaxial line's
-//! dC/da against the derivative of its exact capacitance and against independent solves, and
+//! dC/da against the derivative of its exact capacitance and against independent solves, the
+//! stripline pair's gap for a 100 ohm differential impedance against Cohn's closed form, and
 //! the microstrip's worst case and RSS spread against the closed form's derivatives. Each
 //! check names its source beside it.
 
@@ -434,4 +435,115 @@ fn coax_radius_for_a_wanted_capacitance_warm_started_matches_the_closed_form() {
     let c = |o: &std::path::Path| summary(o)["capacitance"]["matrix"][0][0].as_f64().unwrap();
     // Both stop at the same relative residual (1e-8): the same capacitance to about that.
     assert!((c(&out) - c(&cold)).abs() / c(&cold) < 1e-6);
+}
+
+/// The edge-coupled stripline pair of `geometries/coupled_stripline.toml` at a coarser cell:
+/// zero-thickness strips w = 0.16 mm wide midway between planes b = 0.5 mm apart, eps_r 3.8.
+const PAIR: &str = r#"
+unit = "mm"
+[parameters]
+b = 0.5
+w = 0.16
+s = 0.2
+room = 1.5
+[grid]
+x = ["-(s/2 + w + room)", "s/2 + w + room"]
+y = [0.0, "b"]
+cell = 0.005
+[sides]
+left = "open"
+right = "open"
+bottom = "ground"
+top = "ground"
+[background]
+permittivity = 3.8
+[[conductor]]
+name = "p"
+potential = 0.5
+polyline = [["-(s/2 + w)", "b/2"], ["-s/2", "b/2"]]
+[[conductor]]
+name = "n"
+potential = -0.5
+polyline = [["s/2", "b/2"], ["s/2 + w", "b/2"]]
+"#;
+
+#[test]
+fn stripline_pair_spacing_for_100_ohm_differential_matches_cohn() {
+    let dir = scratch(SCRATCH, "pair");
+    let design = write(&dir, "pair.toml", PAIR);
+    let out = dir.join("out");
+    expect(
+        run(&[
+            "target",
+            &design,
+            "--signal",
+            "p,n",
+            "--quantity",
+            "Z_diff",
+            "--value",
+            "100",
+            "--vary",
+            "s=0.05:0.6",
+            "--value-tol",
+            "0.5",
+            "--out",
+            s(&out),
+            "--quiet",
+        ]),
+        0,
+    );
+    let t = read_json(&out.join("target.json"));
+    let gap = t["value"].as_f64().unwrap();
+    let achieved = t["achieved"].as_f64().unwrap();
+    let err = t["error_estimate"].as_f64().unwrap();
+    let f_tol = t["tolerance"].as_f64().unwrap();
+    assert!((achieved - 100.0).abs() <= f_tol, "{t}");
+    // S. B. Cohn, "Shielded coupled-strip transmission line", IRE Trans. MTT 3 (1955) 29-38:
+    // Z_diff = 2 Z_odd, inverted for the gap by bisection (Z_odd rises with the gap).
+    let (w, b, eps_r) = (0.16, 0.5, 3.8);
+    let z_diff = |gap: f64| 2.0 * crate::line::cohn_coupled(w, gap, b, eps_r).1;
+    let (mut lo, mut hi) = (0.01, 2.0);
+    for _ in 0..200 {
+        let mid = 0.5 * (lo + hi);
+        if z_diff(mid) < 100.0 {
+            lo = mid;
+        } else {
+            hi = mid;
+        }
+    }
+    let gap_cohn = 0.5 * (lo + hi);
+    let dz_ds = (z_diff(gap_cohn + 1e-4) - z_diff(gap_cohn - 1e-4)) / 2e-4;
+    // The gap may differ by the Z difference the line reference accepts between solver and
+    // closed form (1 %, `line.rs`), plus the search's tolerance and the estimated
+    // discretisation error, turned into gap by Cohn's dZ_diff/ds.
+    let allowed = (0.01 * 100.0 + f_tol + err) / dz_ds.abs();
+    println!(
+        "100 ohm pair: s = {gap:.5} mm, Cohn {gap_cohn:.5} mm (allowed +/- {allowed:.4} mm), {t}"
+    );
+    assert!(
+        (gap - gap_cohn).abs() <= allowed,
+        "s {gap} mm, Cohn {gap_cohn} mm"
+    );
+    // An independent solve at the gap found gives the same differential impedance.
+    let check = dir.join("check");
+    let set = format!("s={gap}");
+    expect(
+        run(&[
+            "impedance",
+            &design,
+            "--signal",
+            "p,n",
+            "--set",
+            &set,
+            "--out",
+            s(&check),
+            "--quiet",
+        ]),
+        0,
+    );
+    let z = summary(&check)["line"]["z_diff"].as_f64().unwrap();
+    assert!(
+        (z - 100.0).abs() <= f_tol,
+        "independent solve: Z_diff = {z} ohm"
+    );
 }

@@ -40,7 +40,7 @@ fn cohn_stripline(w_over_b: f64, eps_r: f64) -> f64 {
 /// S. B. Cohn, "Shielded coupled-strip transmission line", IRE Trans. MTT 3 (1955) 29-38:
 /// Z_even = 30 pi K(k_e') / (sqrt(eps_r) K(k_e)), k_e = tanh(pi w/2b) tanh(pi (w+s)/2b);
 /// Z_odd the same with k_o = tanh(pi w/2b) coth(pi (w+s)/2b). Returns (Z_even, Z_odd).
-fn cohn_coupled(w: f64, s: f64, b: f64, eps_r: f64) -> (f64, f64) {
+pub(crate) fn cohn_coupled(w: f64, s: f64, b: f64, eps_r: f64) -> (f64, f64) {
     let t1 = (PI * w / (2.0 * b)).tanh();
     let t2 = (PI * (w + s) / (2.0 * b)).tanh();
     let z = |k: f64| eta0() / 4.0 / k_ratio(k) / eps_r.sqrt();
