@@ -47,6 +47,10 @@ pub struct SurfaceSample {
     pub curve: usize,
     /// Position along the curve, m.
     pub arc: f64,
+    /// The curve is a closed loop sampled all the way round: its last sample neighbours its
+    /// first. False for the sides of the domain and for loops of which a part was left out
+    /// (outside the domain, covered, or with the same material on both sides).
+    pub whole_loop: bool,
     /// Length of surface the sample stands for, m.
     pub length: f64,
     /// Material on the sample's side (index as in [`Raster::material`]).
@@ -211,6 +215,7 @@ pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec
         for &face in faces {
             for lp in &o.loops {
                 let mut arc = 0.0;
+                let (first, mut whole) = (out.len(), !o.open);
                 for piece in lp {
                     let len = piece.length();
                     let m = count(piece, len);
@@ -221,9 +226,11 @@ pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec
                         let front = [p[0] + probe * normal[0], p[1] + probe * normal[1]];
                         let here = arc + (s as f64 + 0.5) * len / m as f64;
                         if !mats.inside_domain(p) {
+                            whole = false;
                             continue;
                         }
                         let Some(mat) = mats.material(front) else {
+                            whole = false;
                             continue;
                         };
                         let across = Across::Conductor {
@@ -251,6 +258,7 @@ pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec
                             kind: SurfaceKind::Conductor(k),
                             curve,
                             arc: here,
+                            whole_loop: false,
                             length: len / m as f64,
                             material: mat,
                             field: [f64::NAN; 2],
@@ -259,6 +267,7 @@ pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec
                     }
                     arc += len;
                 }
+                out[first..].iter_mut().for_each(|s| s.whole_loop = whole);
                 curve += 1;
             }
         }
@@ -329,6 +338,7 @@ pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec
                 kind: SurfaceKind::Side(sid),
                 curve,
                 arc: (s as f64 + 0.5) * len / m as f64,
+                whole_loop: false,
                 length: len / m as f64,
                 material: mat,
                 field: [f64::NAN; 2],
@@ -343,6 +353,7 @@ pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec
             let mut arc = 0.0;
             let mut two: [Vec<SurfaceSample>; 2] = [Vec::new(), Vec::new()];
             let mut pending = Vec::new();
+            let mut whole = true;
             for piece in lp {
                 let len = piece.length();
                 let m = count(piece, len);
@@ -351,15 +362,18 @@ pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec
                     let normal = [t[1], -t[0]];
                     let here = arc + (s as f64 + 0.5) * len / m as f64;
                     if !mats.inside_domain(p) {
+                        whole = false;
                         continue;
                     }
                     let probe = 1e-3 * g.spacing_at(p);
                     let back = [p[0] - probe * normal[0], p[1] - probe * normal[1]];
                     let front = [p[0] + probe * normal[0], p[1] + probe * normal[1]];
                     let (Some(m1), Some(m2)) = (mats.material(back), mats.material(front)) else {
+                        whole = false;
                         continue;
                     };
                     if m1 == m2 {
+                        whole = false;
                         continue;
                     }
                     let across = Across::Interface {
@@ -386,6 +400,7 @@ pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec
                             kind: SurfaceKind::Interface,
                             curve: curve + side,
                             arc: here,
+                            whole_loop: false,
                             length: len / m as f64,
                             material: mat,
                             field: [f64::NAN; 2],
@@ -395,7 +410,10 @@ pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec
                 }
                 arc += len;
             }
-            let [a, b] = two;
+            let [mut a, mut b] = two;
+            a.iter_mut()
+                .chain(b.iter_mut())
+                .for_each(|s| s.whole_loop = whole);
             let (first, second) = (out.len(), out.len() + a.len());
             fits.extend(
                 pending.into_iter().map(|(j, frame, across)| {
