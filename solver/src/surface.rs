@@ -2,8 +2,9 @@
 //! sides and dielectric interfaces, with the field at each sample from
 //! [`crate::surface_field`].
 //!
-//! Samples lie at the midpoints of equal stretches of each outline piece, about half a cell
-//! apart; each stands for the length of its stretch. Only the parts of an outline inside the
+//! Samples lie at the midpoints of stretches of each outline piece about half the local cell
+//! long (equal stretches on a uniform grid), so their number grows with the cells a piece
+//! crosses; each stands for the length of its stretch. Only the parts of an outline inside the
 //! domain count (in axisymmetric mode those at r >= 0). A conductor's outline is sampled where
 //! free space lies in front of it (not where it touches another conductor or a side); a
 //! dielectric outline where the materials on its two sides differ (not where a later
@@ -17,6 +18,7 @@
 
 use crate::design::{Charge, Design, Mode, Point, Shape};
 use crate::geometry::{outline, Outline, Piece};
+use crate::grid::Grid;
 use crate::operator::{Operator, SideId};
 use crate::post::FieldEval;
 use crate::surface_field::{self, Across, FitParams, Frame, Lattice, SurfaceField};
@@ -183,18 +185,66 @@ fn on_piece(piece: &Piece, u: f64) -> (Point, Point, f64) {
     }
 }
 
+/// The stretches a piece is sampled in: (parameter of the midpoint, arc length to the
+/// midpoint, stretch length), in order along the piece; the stretches tile the piece.
+///
+/// On a uniform grid the piece is cut into equal stretches no longer than the spacing over
+/// `per_cell`. On a graded grid each stretch is at most the spacing where it lies (the
+/// smaller of the spacings at its two ends) over `per_cell`, so that the number of stretches
+/// grows with the cells the piece crosses, not with its length over the finest cell.
+fn stretches(piece: &Piece, g: &Grid, per_cell: f64) -> Vec<(f64, f64, f64)> {
+    let len = piece.length();
+    if g.is_uniform() {
+        let h = (0..=16)
+            .map(|k| g.spacing_at(on_piece(piece, k as f64 / 16.0).0))
+            .fold(f64::INFINITY, f64::min);
+        let m = (len / (h / per_cell)).ceil().max(1.0) as usize;
+        return (0..m)
+            .map(|s| {
+                let u = (s as f64 + 0.5) / m as f64;
+                (u, (s as f64 + 0.5) * len / m as f64, len / m as f64)
+            })
+            .collect();
+    }
+    let step_at = |t: f64| g.spacing_at(on_piece(piece, (t / len).min(1.0)).0) / per_cell;
+    let mut out = Vec::new();
+    let mut t = 0.0;
+    while t < len {
+        // The step is the spacing at the start, shrunk while its far end lies in a finer
+        // cell (a graded grid changes spacing by a bounded ratio per cell).
+        let mut h = step_at(t);
+        for _ in 0..64 {
+            let far = step_at((t + h).min(len));
+            if far >= h {
+                break;
+            }
+            h = far;
+        }
+        let half = 0.5 * (len - t);
+        let end = if t + h >= len * (1.0 - 1e-12) {
+            len
+        } else if half < h && step_at(t + half) >= half {
+            // No sliver at the end: the rest in two halves, each shorter than a step.
+            t + half
+        } else {
+            t + h
+        };
+        let mid = 0.5 * (t + end);
+        out.push((mid / len, mid, end - t));
+        t = end;
+    }
+    if out.is_empty() {
+        out.push((0.5, 0.5 * len, len));
+    }
+    out
+}
+
 /// Samples every surface of a solved design and evaluates the field at each.
 pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec<SurfaceSample> {
     let op = field.op;
     let g = &op.grid;
-    // Samples per piece follow the finest spacing along it; probes step off the surface by
-    // a thousandth of the local spacing.
-    let count = |piece: &Piece, len: f64| {
-        let h = (0..=16)
-            .map(|k| g.spacing_at(on_piece(piece, k as f64 / 16.0).0))
-            .fold(f64::INFINITY, f64::min);
-        (len / (h / params.per_cell)).ceil().max(1.0) as usize
-    };
+    // Probes step off the surface by a thousandth of the local spacing.
+    let stretches = |piece: &Piece| stretches(piece, g, params.per_cell);
     let mats = Materials::new(design);
     let lat = Lattice {
         grid: g,
@@ -218,13 +268,12 @@ pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec
                 let (first, mut whole) = (out.len(), !o.open);
                 for piece in lp {
                     let len = piece.length();
-                    let m = count(piece, len);
-                    for s in 0..m {
-                        let (p, t, kappa) = on_piece(piece, (s as f64 + 0.5) / m as f64);
+                    for (u, mid, step) in stretches(piece) {
+                        let (p, t, kappa) = on_piece(piece, u);
                         let normal = [face * t[1], -face * t[0]];
                         let probe = 1e-3 * g.spacing_at(p);
                         let front = [p[0] + probe * normal[0], p[1] + probe * normal[1]];
-                        let here = arc + (s as f64 + 0.5) * len / m as f64;
+                        let here = arc + mid;
                         if !mats.inside_domain(p) {
                             whole = false;
                             continue;
@@ -259,7 +308,7 @@ pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec
                             curve,
                             arc: here,
                             whole_loop: false,
-                            length: len / m as f64,
+                            length: step,
                             material: mat,
                             field: [f64::NAN; 2],
                             curvature: face * kappa,
@@ -309,10 +358,8 @@ pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec
         }
         let v = field.values[op.side_target(sid) as usize];
         let piece = Piece::Line { a, b };
-        let len = piece.length();
-        let m = count(&piece, len);
-        for s in 0..m {
-            let (p, _, _) = on_piece(&piece, (s as f64 + 0.5) / m as f64);
+        for (u, mid, step) in stretches(&piece) {
+            let (p, _, _) = on_piece(&piece, u);
             let probe = 1e-3 * g.spacing_at(p);
             let front = [p[0] + probe * normal[0], p[1] + probe * normal[1]];
             let Some(mat) = mats.material(front) else {
@@ -337,9 +384,9 @@ pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec
                 normal,
                 kind: SurfaceKind::Side(sid),
                 curve,
-                arc: (s as f64 + 0.5) * len / m as f64,
+                arc: mid,
                 whole_loop: false,
-                length: len / m as f64,
+                length: step,
                 material: mat,
                 field: [f64::NAN; 2],
                 curvature: 0.0,
@@ -356,11 +403,10 @@ pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec
             let mut whole = true;
             for piece in lp {
                 let len = piece.length();
-                let m = count(piece, len);
-                for s in 0..m {
-                    let (p, t, kappa) = on_piece(piece, (s as f64 + 0.5) / m as f64);
+                for (u, mid, step) in stretches(piece) {
+                    let (p, t, kappa) = on_piece(piece, u);
                     let normal = [t[1], -t[0]];
-                    let here = arc + (s as f64 + 0.5) * len / m as f64;
+                    let here = arc + mid;
                     if !mats.inside_domain(p) {
                         whole = false;
                         continue;
@@ -401,7 +447,7 @@ pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec
                             curve: curve + side,
                             arc: here,
                             whole_loop: false,
-                            length: len / m as f64,
+                            length: step,
                             material: mat,
                             field: [f64::NAN; 2],
                             curvature: k,
@@ -520,5 +566,79 @@ mod tests {
         // The outward normal (right of travel) of a counter-clockwise circle points out.
         let n = [t[1], -t[0]];
         assert!(n[0] > 0.0 && n[1] > 0.0);
+    }
+
+    /// Node lines graded from 1/128 of `coarse` at `x = 0` up to `coarse` by a factor of 1.25
+    /// per cell, then uniform to `len`; three lines in y, as fine as the finest in x, so that
+    /// the spacing along `y = 0` is the cell width.
+    fn graded_towards_origin(coarse: f64, len: f64) -> Grid {
+        let mut xs = vec![0.0];
+        let mut h = coarse / 128.0;
+        while *xs.last().unwrap() < len - coarse {
+            let x = xs.last().unwrap() + h;
+            xs.push(x);
+            h = (1.25 * h).min(coarse);
+        }
+        if len - xs.last().unwrap() < 0.5 * coarse {
+            xs.pop();
+        }
+        xs.push(len);
+        Grid::from_lines(xs, vec![-coarse / 128.0, 0.0, coarse / 128.0]).unwrap()
+    }
+
+    #[test]
+    fn samples_on_a_graded_grid_grow_with_the_cells_a_piece_crosses_not_with_its_length_over_the_finest_cell(
+    ) {
+        let (coarse, len, per_cell) = (2e-4, 2e-2, 2.0);
+        let g = graded_towards_origin(coarse, len);
+        assert!(!g.is_uniform());
+        assert!((g.spacing_at([0.5 * len, 0.0]) - coarse).abs() < 1e-12);
+        let piece = Piece::Line {
+            a: [0.0, 0.0],
+            b: [len, 0.0],
+        };
+        let st = stretches(&piece, &g, per_cell);
+        // The stretches tile the piece in order, the midpoint of each at its parameter.
+        let mut t = 0.0;
+        for &(u, mid, step) in &st {
+            assert!(step > 0.0);
+            assert!((mid - (t + 0.5 * step)).abs() <= 1e-12 * len);
+            assert!((u * len - mid).abs() <= 1e-12 * len);
+            // Never longer than the spacing at either end over the samples per cell (to the
+            // rounding of the last stretch, the rest of the piece).
+            for end in [t, t + step] {
+                let h = g.spacing_at([end.min(len), 0.0]);
+                assert!(step <= h / per_cell * (1.0 + 1e-9), "{step} at {end}");
+            }
+            t += step;
+        }
+        assert!((t - len).abs() <= 1e-12 * len);
+        // About per_cell samples per cell crossed (the halved end adds at most one); the
+        // finest-cell rule would take len / (min_cell / per_cell) = 25 600.
+        let cells = g.nx() - 1;
+        assert!(
+            st.len() <= (per_cell as usize) * cells + 2,
+            "{} for {cells}",
+            st.len()
+        );
+        assert!(st.len() >= (per_cell as usize) * cells / 2);
+        assert!(((len / (g.min_cell() / per_cell)) as usize) > 50 * st.len());
+    }
+
+    #[test]
+    fn samples_on_a_uniform_grid_are_equal_stretches_no_longer_than_half_a_cell() {
+        let g = Grid::fit([0.0, 1.0], [0.0, 1.0], 0.1).unwrap();
+        let piece = Piece::Line {
+            a: [0.05, 0.5],
+            b: [0.9, 0.5],
+        };
+        let st = stretches(&piece, &g, 2.0);
+        // 0.85 / 0.05 = 17 stretches, midpoints at (s + 1/2) / 17.
+        assert_eq!(st.len(), 17);
+        for (s, &(u, mid, step)) in st.iter().enumerate() {
+            assert_eq!(u, (s as f64 + 0.5) / 17.0);
+            assert_eq!(mid, (s as f64 + 0.5) * piece.length() / 17.0);
+            assert_eq!(step, piece.length() / 17.0);
+        }
     }
 }
