@@ -474,12 +474,13 @@ pub fn singular_points(design: &Design, samples: &[SurfaceSample]) -> Vec<Point>
             out.push([0.5 * (a.x + b.x), 0.5 * (a.y + b.y)]);
         }
     }
-    let step = samples.iter().map(|s| s.length).fold(0.0f64, f64::max);
     for d in &design.dielectrics {
         for c in crate::geometry::sharp_corners(&d.shape) {
-            // The corner separates materials when interface samples lie next to it.
+            // The corner separates materials when interface samples lie next to it: within
+            // two of their own stretches (local lengths on a graded grid, where the longest
+            // stretch anywhere would reach far past the corner's fine cells).
             let near = samples.iter().any(|s| {
-                s.kind == SurfaceKind::Interface && (s.x - c[0]).hypot(s.y - c[1]) <= 2.0 * step
+                s.kind == SurfaceKind::Interface && (s.x - c[0]).hypot(s.y - c[1]) <= 2.0 * s.length
             });
             if near {
                 out.push(c);

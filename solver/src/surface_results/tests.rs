@@ -254,3 +254,46 @@ mod fit_bias {
         }
     }
 }
+
+#[test]
+fn dielectric_corners_count_as_singular_only_with_interface_samples_within_their_own_stretches() {
+    use crate::design::Dielectric;
+    use crate::surface::SurfaceSample;
+    // A dielectric square; interface samples of graded lengths: a fine one half its length
+    // from corner (0, 0), a fine one 0.3 from corner (1, 1) (not next to it) and a coarse one
+    // far from both.
+    let design = Design {
+        dielectrics: vec![Dielectric {
+            name: "block".into(),
+            permittivity: 4.0,
+            strength: None,
+            shape: Shape::Rect {
+                x: [0.0, 1.0],
+                y: [0.0, 1.0],
+                round: 0.0,
+            },
+        }],
+        ..Design::default()
+    };
+    let sample = |x: f64, y: f64, length: f64| SurfaceSample {
+        x,
+        y,
+        normal: [0.0, 1.0],
+        kind: SurfaceKind::Interface,
+        curve: 0,
+        arc: x,
+        whole_loop: false,
+        length,
+        material: 1,
+        field: [0.0, 0.0],
+        curvature: 0.0,
+    };
+    let samples = [
+        sample(0.005, 0.0, 0.01),
+        sample(0.7, 1.0, 0.01),
+        sample(0.5, 0.0, 0.5),
+    ];
+    let found = super::singular_points(&design, &samples);
+    assert!(found.contains(&[0.0, 0.0]), "{found:?}");
+    assert!(!found.contains(&[1.0, 1.0]), "{found:?}");
+}
