@@ -415,27 +415,22 @@ fn finite(v: f64) -> Value {
 impl Analysis {
     /// summary.json `sensitivities`: parameter -> quantity -> derivative.
     pub fn sensitivities_json(&self) -> Value {
-        let mut out = Map::new();
-        for (p, name) in self.parameters.iter().enumerate() {
-            let row: Map<String, Value> = self
-                .quantities
-                .iter()
-                .zip(&self.derivatives[p])
-                .map(|(q, &d)| (q.name.clone(), finite(d)))
-                .collect();
-            out.insert(name.clone(), Value::Object(row));
-        }
-        Value::Object(out)
+        self.by_parameter(&self.derivatives)
     }
 
     /// summary.json `sensitivity_errors`: parameter -> quantity -> error estimate.
     pub fn errors_json(&self) -> Value {
+        self.by_parameter(&self.errors)
+    }
+
+    /// parameter -> quantity -> value, from one row of values per parameter.
+    fn by_parameter(&self, rows: &[Vec<f64>]) -> Value {
         let mut out = Map::new();
-        for (p, name) in self.parameters.iter().enumerate() {
+        for (name, row) in self.parameters.iter().zip(rows) {
             let row: Map<String, Value> = self
                 .quantities
                 .iter()
-                .zip(&self.errors[p])
+                .zip(row)
                 .map(|(q, &d)| (q.name.clone(), finite(d)))
                 .collect();
             out.insert(name.clone(), Value::Object(row));
