@@ -10,3 +10,4 @@ mod line;
 mod manufactured;
 mod open;
 mod planar;
+mod uniform_field;
