@@ -107,6 +107,9 @@ pub struct FieldEval<'a> {
     pub phi: &'a [f64],
     /// Potential of every target (conductors, then sides), V.
     pub values: Vec<f64>,
+    /// The offset `phi` and `values` are relative to, V (zero unless set by
+    /// [`FieldEval::with_reference`]): added to the potentials probes read.
+    reference: f64,
     /// |E| at every node, computed once on first use.
     magnitude: std::sync::OnceLock<Vec<f64>>,
 }
@@ -125,8 +128,16 @@ impl<'a> FieldEval<'a> {
             raster,
             phi,
             values: op.target_values(conductor_potentials, true),
+            reference: 0.0,
             magnitude: std::sync::OnceLock::new(),
         }
+    }
+
+    /// The same evaluation of potentials given relative to `reference` (V), which probes
+    /// add back to what they read.
+    pub fn with_reference(mut self, reference: f64) -> Self {
+        self.reference = reference;
+        self
     }
 
     /// Potential of target t at the operating point.
@@ -318,7 +329,11 @@ pub fn probe(field: &FieldEval, probe: &Probe) -> ProbeResult {
         name: probe.name.clone(),
         x: probe.at[0],
         y: probe.at[1],
-        potential: v,
+        potential: if field.reference == 0.0 {
+            v
+        } else {
+            v + field.reference
+        },
         field: fieldv,
     }
 }

@@ -27,6 +27,7 @@ use crate::warning::{NonFiniteIn, SolveFailure, Warning};
 use crate::EPS0;
 
 mod estimate;
+mod reference;
 mod solves;
 
 use estimate::CoarseStudies;
@@ -184,6 +185,14 @@ pub struct Solution {
     pub operator: Operator,
     /// Potential at every node at the operating point, V (fixed nodes hold their values).
     pub potential: Vec<f64>,
+    /// The common offset of the fixed potentials that the solves left out, V: zero unless
+    /// every fixed potential lies on one side of zero and no side is open (see
+    /// [`Solution::field`]).
+    pub reference: f64,
+    /// `potential` minus `reference` at every node, V, kept when `reference` is not zero:
+    /// the potential the solves found, whose differences are not rounded to the offset's
+    /// last place.
+    pub relative_potential: Option<Vec<f64>>,
     /// |E| at every node at the operating point, V/m (NaN inside conductors and at fixed
     /// nodes), as [`post::FieldEval::magnitudes`] gives it.
     pub magnitude: Vec<f64>,
@@ -220,10 +229,21 @@ pub struct Solution {
 }
 
 impl Solution {
-    /// Field evaluation at the operating point (every conductor at its potential).
+    /// Field evaluation at the operating point (every conductor at its potential). It works
+    /// on the potential relative to [`Solution::reference`] (the operator holds the sides
+    /// relative to it), so fields carry no rounding of a large common offset; its probes
+    /// read absolute potentials.
     pub fn field(&self) -> post::FieldEval<'_> {
-        let v: Vec<f64> = self.conductors.iter().map(|c| c.potential).collect();
-        post::FieldEval::new(&self.operator, &self.raster, &self.potential, &v)
+        let v: Vec<f64> = self
+            .conductors
+            .iter()
+            .map(|c| c.potential - self.reference)
+            .collect();
+        let phi = self
+            .relative_potential
+            .as_deref()
+            .unwrap_or(&self.potential);
+        post::FieldEval::new(&self.operator, &self.raster, phi, &v).with_reference(self.reference)
     }
 
     /// |E| at every node, V/m (NaN inside conductors and at fixed nodes).
@@ -244,13 +264,49 @@ pub fn run(design: &Design, params: &StudyParams) -> Result<Solution, StudyError
 }
 
 /// Runs the study of a validated design on the lattice of its `plan` (made by [`plan`] for
-/// this design, so the lattice is fitted once).
+/// this design, so the lattice is fitted once). A common offset of every fixed potential is
+/// left out of the solves and added back to the reported potentials ([`reference`]).
 pub fn run_planned(
     design: &Design,
     plan: &Plan,
     params: &StudyParams,
 ) -> Result<Solution, StudyError> {
     crate::design::validate(design)?;
+    let offset = reference::common(design);
+    let floor = reference::rounding_floor(design);
+    let mut sol = if offset == 0.0 {
+        run_relative(design, plan, params)?
+    } else {
+        run_relative(&reference::relative(design, offset), plan, params)?
+    };
+    if let Some((spread, largest, relative)) = floor {
+        if sol.solve.converged {
+            sol.warnings.push(Warning::PotentialRounding {
+                spread,
+                largest,
+                relative,
+            });
+        }
+    }
+    if offset != 0.0 {
+        let relative = std::mem::take(&mut sol.potential);
+        sol.potential = relative.iter().map(|v| v + offset).collect();
+        sol.relative_potential = Some(relative);
+        sol.reference = offset;
+        sol.conductors
+            .iter_mut()
+            .for_each(|c| c.potential += offset);
+        sol.probes.iter_mut().for_each(|p| p.potential += offset);
+    }
+    Ok(sol)
+}
+
+/// The study of a design solved as written (its potentials relative to zero).
+fn run_relative(
+    design: &Design,
+    plan: &Plan,
+    params: &StudyParams,
+) -> Result<Solution, StudyError> {
     let grid = plan.grid().clone();
     let corners = post::sharp_corners(design);
     let monitor = params.stages.as_ref();
@@ -325,6 +381,8 @@ pub fn run_planned(
         solve,
         warnings,
         potential: core.phi,
+        reference: 0.0,
+        relative_potential: None,
         magnitude,
         raster: core.raster,
         operator: core.op,

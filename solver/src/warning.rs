@@ -66,6 +66,17 @@ pub enum Warning {
         /// The value, F.
         value: f64,
     },
+    /// The fixed potentials differ by little against their size: rounding them to doubles
+    /// (half a unit in the last place of the largest) limits the relative accuracy of every
+    /// field, charge and energy, however the study solves.
+    PotentialRounding {
+        /// Highest minus lowest fixed potential, V.
+        spread: f64,
+        /// The largest fixed potential in magnitude, V.
+        largest: f64,
+        /// The relative accuracy left to fields and charges (to one).
+        relative: f64,
+    },
 }
 
 impl Warning {
@@ -82,6 +93,7 @@ impl Warning {
             Warning::VacuumStudy(w) => w.code(),
             Warning::NegativeGroundCapacitance { .. } => "negative-ground-capacitance",
             Warning::NegativeMutualCapacitance { .. } => "negative-mutual-capacitance",
+            Warning::PotentialRounding { .. } => "potential-rounding",
         }
     }
 }
@@ -134,6 +146,16 @@ impl fmt::Display for Warning {
                 "the mutual capacitance of {a} and {b} is negative ({value:e} F): they are \
                  shielded from each other and the value is at the level of the discretisation \
                  error"
+            ),
+            Warning::PotentialRounding {
+                spread,
+                largest,
+                relative,
+            } => write!(
+                f,
+                "the fixed potentials differ by {spread:.3e} V at {largest:.6e} V: their rounding \
+                 to double precision alone leaves fields, charges and energy a relative \
+                 uncertainty of {relative:.1e} (state potentials relative to a nearer reference)"
             ),
         }
     }
