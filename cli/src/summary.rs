@@ -69,6 +69,11 @@ pub struct Summary {
     /// `--tolerance`: each quantity's worst case, RSS spread, dominant parameter.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub tolerances: Option<serde_json::Value>,
+    /// `--sensitivity`, `--tolerance`: the solves around the nominal design (`studies`,
+    /// `warm_starts`: those started from the nominal solves, `iterations` on the fine
+    /// lattices).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub perturbed_solves: Option<serde_json::Value>,
 }
 
 /// The drawn part and the whole part: symmetry sides mirror the drawn design.
@@ -414,6 +419,7 @@ impl Summary {
             sensitivity_steps: None,
             sensitivity_errors: None,
             tolerances: None,
+            perturbed_solves: None,
         };
         sol.warnings.iter().for_each(|w| summary.warn(w));
         summary

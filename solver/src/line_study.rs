@@ -18,8 +18,9 @@ use crate::design::{Design, Drive, Mode, Side};
 use crate::grid::GridError;
 use crate::line::{self, LineError, LineParams};
 use crate::plan::Plan;
-use crate::study::{self, Solution, StudyError, StudyParams};
+use crate::study::{self, Solution, StudyError, StudyParams, WarmStart};
 use crate::warning::Warning;
+use std::sync::Arc;
 
 /// The two studies of a line and what follows from them.
 #[derive(Clone, Debug)]
@@ -38,6 +39,26 @@ pub struct LineStudy {
     pub mirrored: Vec<&'static str>,
     /// Warnings about the line parameters (the two studies keep their own).
     pub warnings: Vec<Warning>,
+}
+
+/// Starting guesses for a line study's two studies, from a nearby design's line study
+/// ([`LineStudy::warm_start`]): each used only when it fits its study's lattice.
+#[derive(Clone, Debug, Default)]
+pub struct LineWarmStart {
+    /// For the study of the design as drawn.
+    pub design: Option<Arc<WarmStart>>,
+    /// For the study with every permittivity 1.
+    pub vacuum: Option<Arc<WarmStart>>,
+}
+
+impl LineStudy {
+    /// Both studies' solves, when [`StudyParams::keep_warm_start`] asked for them.
+    pub fn warm_start(&self) -> LineWarmStart {
+        LineWarmStart {
+            design: self.solution.warm_start.clone(),
+            vacuum: self.vacuum.warm_start.clone(),
+        }
+    }
 }
 
 /// Signals that cannot make a line.
@@ -112,16 +133,36 @@ pub fn run(
 }
 
 /// [`run`] on the lattice of a `plan` made for this design by [`plan`] (both studies share
-/// it).
+/// it); both studies start from `params.warm_start` when it fits.
 pub fn run_planned(
     design: &Design,
     plan: &Plan,
     signals: &[String],
     params: &StudyParams,
 ) -> Result<LineStudy, LineStudyError> {
+    let start = LineWarmStart {
+        design: params.warm_start.clone(),
+        vacuum: params.warm_start.clone(),
+    };
+    run_planned_from(design, plan, signals, params, &start)
+}
+
+/// [`run_planned`] with each study started from its own guess in `start` (in place of
+/// `params.warm_start`): a guess changes the iteration count only, every solve stops at the
+/// same relative residual.
+pub fn run_planned_from(
+    design: &Design,
+    plan: &Plan,
+    signals: &[String],
+    params: &StudyParams,
+    start: &LineWarmStart,
+) -> Result<LineStudy, LineStudyError> {
     check_signals(design, signals)?;
-    let solution = study::run_planned(design, plan, params)?;
-    let vacuum = study::run_planned(&without_dielectrics(design), plan, params)?;
+    let mut p = params.clone();
+    p.warm_start = start.design.clone();
+    let solution = study::run_planned(design, plan, &p)?;
+    p.warm_start = start.vacuum.clone();
+    let vacuum = study::run_planned(&without_dielectrics(design), plan, &p)?;
     let (mirrored, mut warnings) = mirrors(design, signals);
     let factor = 2f64.powi(mirrored.len() as i32);
     let pick = |sol: &Solution, m: &[Vec<f64>]| {

@@ -10,7 +10,8 @@
 //! Invariants: every evaluation reads the design file again with the overrides applied
 //! (the `--set` values first, the varied ones after, so the varied ones win), plans its own
 //! grid (a parameter may change the grid's size) and solves, from the warm start the
-//! setup's study settings carry when it fits that grid, else from zero; the first failing
+//! setup's study settings carry when it fits that grid (a line study's study with every
+//! permittivity 1 from `vacuum_warm_start` when given), else from zero; the first failing
 //! evaluation names the parameter values it was at.
 
 use super::{check_memory, load_design, with_threads};
@@ -36,6 +37,9 @@ pub struct Setup<'a> {
     pub opts: &'a SolveOptions,
     /// The signal conductors, for a line study; empty for a plain study.
     pub signals: Vec<String>,
+    /// The starting guess of a line study's study with every permittivity 1; `None`: the
+    /// design study's (`params.warm_start`).
+    pub vacuum_warm_start: Option<std::sync::Arc<fieldgrid_solver::study::WarmStart>>,
 }
 
 /// The solved results of one evaluation.
@@ -91,6 +95,14 @@ impl Evaluation {
     /// True when every solve converged.
     pub fn converged(&self) -> bool {
         self.summary.solver.converged
+    }
+
+    /// The iterations of every solve on the fine lattice (both studies of a line study).
+    pub fn iterations(&self) -> usize {
+        match &self.solved {
+            Solved::Study(s) => s.solve.total_iterations,
+            Solved::Line(l) => l.solution.solve.total_iterations + l.vacuum.solve.total_iterations,
+        }
     }
 }
 
@@ -169,8 +181,12 @@ pub fn evaluate(setup: &Setup, values: &[(String, f64)]) -> Result<Evaluation, F
             0.0,
         )
         .map_err(at)?;
+        let guess = line_study::LineWarmStart {
+            design: setup.params.warm_start.clone(),
+            vacuum: (setup.vacuum_warm_start.clone()).or_else(|| setup.params.warm_start.clone()),
+        };
         let ls = with_threads(setup.opts.threads, || {
-            line_study::run_planned(&src.design, &plan, &setup.signals, &setup.params)
+            line_study::run_planned_from(&src.design, &plan, &setup.signals, &setup.params, &guess)
         })?
         .map_err(|e| at(super::impedance::line_failure(&src, &setup.signals, e)))?;
         let summary = super::impedance::line_summary(

@@ -24,7 +24,8 @@ use serde_json::{json, Value};
 use std::time::Instant;
 
 /// More results computed around the nominal line study (sensitivities, tolerances): given
-/// the design as read and the study, it adds to the summary and writes its own files into
+/// the design as read and the study (which keeps its solves, to start nearby solves from),
+/// it adds to the summary and writes its own files into
 /// the results directory before the summary is written, and returns the lines to print after
 /// the report.
 pub type Extra<'a> = &'a dyn Fn(
@@ -46,6 +47,7 @@ pub fn run_with(args: &ImpedanceArgs, extra: Option<Extra>) -> Result<u8, Failur
     let progress = crate::progress::Progress::new(args.opts.quiet);
     params.stages = progress.stages(params.stages.take());
     params.solver.monitor = progress.iterations();
+    params.keep_warm_start = extra.is_some();
     let mut out = OutDir::prepare(&args.out)?;
     let solved = study(&src, &plan, &args.signal, &params, args.opts.threads);
     progress.finish();

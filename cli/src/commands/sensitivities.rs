@@ -18,15 +18,22 @@
 //! `sensitivities.csv` (one row per quantity and parameter) and `tolerances.csv` (one row
 //! per quantity).
 //!
+//! Every solve around the nominal design (paired, Monte Carlo, corner) starts from the
+//! nominal solves when its lattice has their node counts (a line study's two studies each
+//! from its own), else from zero; summary.json `perturbed_solves` counts the studies, those
+//! started so and their iterations.
+//!
 //! Invariants: every toleranced parameter gets a derivative; the paired solves use the
-//! same settings as the nominal one; Monte Carlo samples depend only on the seed, the count
-//! and the tolerances.
+//! same settings as the nominal one and stop at the same relative residual whatever they
+//! start from (a start changes the iterations, not the accuracy); Monte Carlo samples
+//! depend only on the seed, the count and the tolerances.
 
 use super::evaluate::{self, Named, Setup};
 use crate::args::{ImpedanceArgs, SensitivityArgs, SolveArgs};
 use crate::design_file::DesignSource;
 use crate::error::Failure;
 use crate::outdir::{csv_bytes, num, OutDir};
+use fieldgrid_solver::line_study::LineWarmStart;
 use fieldgrid_solver::{sensitivity, tolerance};
 use serde_json::{json, Map, Value};
 
@@ -69,6 +76,8 @@ pub struct Analysis {
     pub vertices: Option<Vec<Option<tolerance::Stats>>>,
     /// Whether every solve converged.
     pub converged: bool,
+    /// The solves made around the nominal design.
+    pub solves: Solves,
 }
 
 /// `fieldgrid solve`, with the sensitivities and tolerances asked for.
@@ -85,10 +94,18 @@ pub fn solve(args: &SolveArgs) -> Result<u8, Failure> {
         params,
         opts: &args.opts,
         signals: Vec::new(),
+        vacuum_warm_start: None,
     };
-    let extra = |src: &DesignSource, summary: &mut crate::summary::Summary, out: &OutDir| {
+    let extra = |src: &DesignSource,
+                 sol: &fieldgrid_solver::study::Solution,
+                 summary: &mut crate::summary::Summary,
+                 out: &OutDir| {
         let nominal = evaluate::study_quantities(summary);
-        let a = analyse(&setup, src, &nominal, &req)?;
+        let start = LineWarmStart {
+            design: sol.warm_start.clone(),
+            vacuum: None,
+        };
+        let a = analyse(&setup, src, &nominal, &req, &start)?;
         a.attach(summary, &req.tolerances);
         a.write(out, &req.tolerances)?;
         Ok(a.report(&req.tolerances))
@@ -110,6 +127,7 @@ pub fn impedance(args: &ImpedanceArgs) -> Result<u8, Failure> {
         params,
         opts: &args.opts,
         signals: args.signal.clone(),
+        vacuum_warm_start: None,
     };
     let extra = |src: &DesignSource,
                  ls: &fieldgrid_solver::line_study::LineStudy,
@@ -117,7 +135,7 @@ pub fn impedance(args: &ImpedanceArgs) -> Result<u8, Failure> {
                  out: &OutDir| {
         let mut nominal = evaluate::study_quantities(summary);
         nominal.extend(evaluate::line_quantities(ls));
-        let a = analyse(&setup, src, &nominal, &req)?;
+        let a = analyse(&setup, src, &nominal, &req, &ls.warm_start())?;
         a.attach(summary, &req.tolerances);
         a.write(out, &req.tolerances)?;
         Ok(a.report(&req.tolerances))
@@ -268,12 +286,14 @@ pub fn steps(setup: &Setup, names: &[String], values: &[f64]) -> Result<Vec<f64>
 }
 
 /// Runs the paired solves (and the Monte Carlo points) around the nominal design `src`
-/// whose quantities are `nominal`.
+/// whose quantities are `nominal`, each started from the nominal solves `start` when its
+/// lattice has their node counts.
 pub fn analyse(
     setup: &Setup,
     src: &DesignSource,
     nominal: &[Named],
     req: &Request,
+    start: &LineWarmStart,
 ) -> Result<Analysis, Failure> {
     let values: Vec<f64> = req
         .parameters
@@ -288,9 +308,12 @@ pub fn analyse(
         .collect();
     let steps = steps(setup, &req.parameters, &values)?;
     let mut converged = true;
+    let mut solves = Solves::default();
+    let warm = warm_setup(setup, start);
     let mut solve_at = |over: Vec<(String, f64)>| -> Result<Vec<Named>, Failure> {
-        let ev = evaluate::evaluate(setup, &over)?;
+        let ev = evaluate::evaluate(&warm, &over)?;
         converged &= ev.converged();
+        solves.count(&ev, start);
         Ok(ev.quantities)
     };
     let pick = |list: &[Named]| -> Vec<f64> {
@@ -401,7 +424,50 @@ pub fn analyse(
         spreads,
         monte_carlo,
         converged,
+        solves,
     })
+}
+
+/// The solves around a nominal design: how many, how many started from the nominal
+/// solves, and their iterations on the fine lattices.
+#[derive(Clone, Copy, Debug, Default, PartialEq)]
+pub struct Solves {
+    /// Designs solved (a line study counts once).
+    pub studies: usize,
+    /// Those whose lattice fitted the nominal solves, started from them.
+    pub warm_starts: usize,
+    /// Iterations of every linear solve on the fine lattices.
+    pub iterations: usize,
+}
+
+impl Solves {
+    /// Counts one evaluation started from `start`.
+    fn count(&mut self, ev: &evaluate::Evaluation, start: &LineWarmStart) {
+        let sol = ev.solved.solution();
+        self.studies += 1;
+        self.iterations += ev.iterations();
+        let fits = start
+            .design
+            .as_ref()
+            .is_some_and(|w| w.fits(&sol.grid, sol.conductors.len()));
+        self.warm_starts += usize::from(fits);
+    }
+}
+
+/// `setup` with every solve started from the nominal solves `start` (each study from its
+/// own: the design's, and a line study's with every permittivity 1), keeping none.
+fn warm_setup<'a>(setup: &Setup<'a>, start: &LineWarmStart) -> Setup<'a> {
+    let mut params = setup.params.clone();
+    params.warm_start = start.design.clone();
+    params.keep_warm_start = false;
+    Setup {
+        design: setup.design,
+        base: setup.base.clone(),
+        params,
+        opts: setup.opts,
+        signals: setup.signals.clone(),
+        vacuum_warm_start: start.vacuum.clone(),
+    }
 }
 
 fn finite(v: f64) -> Value {
@@ -578,6 +644,11 @@ impl Analysis {
         summary.sensitivity_steps = Some(self.steps_json());
         summary.sensitivity_errors = Some(self.errors_json());
         summary.tolerances = self.tolerances_json(tolerances);
+        summary.perturbed_solves = Some(json!({
+            "studies": self.solves.studies,
+            "warm_starts": self.solves.warm_starts,
+            "iterations": self.solves.iterations,
+        }));
         summary.solver.converged &= self.converged;
     }
 
@@ -698,6 +769,7 @@ mod tests {
             monte_carlo: None,
             vertices: None,
             converged: true,
+            solves: Solves::default(),
         };
         let csv = String::from_utf8(a.sensitivities_csv()).unwrap();
         assert_eq!(csv.lines().count(), 5, "{csv}");

@@ -15,10 +15,11 @@ use std::sync::Arc;
 use std::time::Instant;
 
 /// More results computed around the nominal solve (sensitivities, tolerances): given the
-/// design as read, it adds to the summary and writes its own files into the results
-/// directory before the summary is written, and returns the lines to print after the
-/// report.
-pub type Extra<'a> = &'a dyn Fn(&DesignSource, &mut Summary, &OutDir) -> Result<String, Failure>;
+/// design as read and its solution (which keeps its solves, to start nearby solves from),
+/// it adds to the summary and writes its own files into the results directory before the
+/// summary is written, and returns the lines to print after the report.
+pub type Extra<'a> =
+    &'a dyn Fn(&DesignSource, &Solution, &mut Summary, &OutDir) -> Result<String, Failure>;
 
 /// Runs the command, returning the exit code; with `--timings`, prints the stage times.
 pub fn run(args: &SolveArgs) -> Result<u8, Failure> {
@@ -59,6 +60,7 @@ pub fn run_timed_with(
     let progress = crate::progress::Progress::new(args.opts.quiet);
     params.stages = progress.stages(Some(timings.monitor()));
     params.solver.monitor = progress.iterations();
+    params.keep_warm_start = more.is_some();
     if args.circuit {
         if let Err(why) = fieldgrid_solver::circuit::exportable(src.design.mode, src.design.depth) {
             return Err(Failure::input(format!(
@@ -76,7 +78,7 @@ pub fn run_timed_with(
     progress.finish();
     let (sol, mut summary) = solved?;
     let extra_text = match more {
-        Some(f) => Some(f(&src, &mut summary, &out)?),
+        Some(f) => Some(f(&src, &sol, &mut summary, &out)?),
         None => None,
     };
     let files = Files {

@@ -217,6 +217,7 @@ pub fn run(args: &TargetArgs) -> Result<u8, Failure> {
         params,
         opts: &args.opts,
         signals: args.signal.clone(),
+        vacuum_warm_start: None,
     };
     // The design as given, and every varied name a parameter of it, before any solve.
     let nominal = super::load_design(&args.design, &setup.base)?;
