@@ -21,7 +21,7 @@ use crate::geometry::{outline, Outline, Piece};
 use crate::grid::Grid;
 use crate::operator::{Operator, SideId};
 use crate::post::FieldEval;
-use crate::surface_field::{self, Across, FitParams, Frame, Lattice, SurfaceField};
+use crate::surface_field::{self, Across, Anchor, FitParams, Frame, Lattice, SurfaceField};
 
 /// What a surface sample lies on.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -287,12 +287,12 @@ pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec
                             material: mat,
                             eps: mats.eps(mat),
                             rho: mats.rho(front),
-                            surface_points: cut_points(
-                                op,
-                                k,
-                                p,
-                                params.fit.radius_cells * g.spacing_at(p),
-                            ),
+                            // Only a fit that uses the cut points pays for finding them.
+                            surface_points: if params.fit.anchor == Anchor::Free {
+                                Vec::new()
+                            } else {
+                                cut_points(op, k, p, params.fit.radius_cells * g.spacing_at(p))
+                            },
                         };
                         let frame = Frame {
                             at: p,

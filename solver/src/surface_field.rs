@@ -149,12 +149,22 @@ fn monomials(d: usize) -> Vec<(i32, i32)> {
     m
 }
 
+/// x^k for k >= 0 (0 for k < 0), by the same products as `powi` (repeated squaring), so the
+/// values do not depend on which of the two the compiler was given.
 fn pw(x: f64, k: i32) -> f64 {
-    if k < 0 {
-        0.0
-    } else {
-        x.powi(k)
+    match k {
+        ..=-1 => 0.0,
+        0 => 1.0,
+        1 => x,
+        2 => x * x,
+        3 => x * (x * x),
+        _ => x.powi(k),
     }
+}
+
+/// Value of n^a t^b at (n, t): the first entry of [`mono`].
+fn mono_value(a: i32, b: i32, n: f64, t: f64) -> f64 {
+    pw(n, a) * pw(t, b)
 }
 
 /// Value, first and second derivatives of n^a t^b at (n, t).
@@ -171,9 +181,11 @@ fn mono(a: i32, b: i32, n: f64, t: f64) -> [f64; 6] {
 }
 
 /// Weighted linear least squares by Householder reflections; `None` when rank-deficient.
+/// Rows are kept in one buffer: a fit on a graded grid can take thousands of rows.
 struct Lsq {
     cols: usize,
-    rows: Vec<Vec<f64>>,
+    /// Row-major, `cols` values per row, each times its weight.
+    rows: Vec<f64>,
     rhs: Vec<f64>,
 }
 
@@ -186,53 +198,68 @@ impl Lsq {
         }
     }
 
-    fn row(&mut self, coeffs: Vec<f64>, value: f64, weight: f64) {
-        debug_assert_eq!(coeffs.len(), self.cols);
-        self.rows
-            .push(coeffs.into_iter().map(|c| c * weight).collect());
+    fn row(&mut self, coeffs: impl IntoIterator<Item = f64>, value: f64, weight: f64) {
+        let before = self.rows.len();
+        self.rows.extend(coeffs.into_iter().map(|c| c * weight));
+        debug_assert_eq!(self.rows.len() - before, self.cols);
         self.rhs.push(value * weight);
     }
 
-    fn solve(mut self) -> Option<Vec<f64>> {
-        let (m, n) = (self.rows.len(), self.cols);
+    fn solve(self) -> Option<Vec<f64>> {
+        let (m, n) = (self.rhs.len(), self.cols);
         if m < n {
             return None;
         }
-        let scale = self
-            .rows
-            .iter()
-            .flatten()
-            .fold(0.0f64, |s, v| s.max(v.abs()));
+        let scale = self.rows.iter().fold(0.0f64, |s, v| s.max(v.abs()));
         if scale == 0.0 {
             return None;
         }
+        // Row-major with the right-hand side as column n, so that one pass over the rows
+        // reflects every column at once; each column's sums still run over the rows in order.
+        let w = n + 1;
+        let mut a = Vec::with_capacity(m * w);
+        for (row, &r) in self.rows.chunks_exact(n).zip(&self.rhs) {
+            a.extend_from_slice(row);
+            a.push(r);
+        }
+        // The value `Iterator::sum` starts from, so that the sums below are its sums.
+        let zero = std::iter::empty::<f64>().sum::<f64>();
+        let (mut v, mut s) = (vec![0.0; m], vec![0.0; w]);
         for k in 0..n {
-            let norm = (k..m).map(|i| self.rows[i][k].powi(2)).sum::<f64>().sqrt();
+            let v = &mut v[..m - k];
+            for (i, x) in v.iter_mut().enumerate() {
+                *x = a[(k + i) * w + k];
+            }
+            let norm = v.iter().map(|x| x.powi(2)).sum::<f64>().sqrt();
             if norm <= 1e-11 * scale {
                 return None;
             }
-            let alpha = if self.rows[k][k] > 0.0 { -norm } else { norm };
-            let mut v: Vec<f64> = (k..m).map(|i| self.rows[i][k]).collect();
+            let alpha = if v[0] > 0.0 { -norm } else { norm };
             v[0] -= alpha;
             let vv: f64 = v.iter().map(|x| x * x).sum();
             if vv == 0.0 {
                 continue;
             }
-            for c in k..n {
-                let s: f64 = (k..m).map(|i| v[i - k] * self.rows[i][c]).sum::<f64>() * 2.0 / vv;
-                for i in k..m {
-                    self.rows[i][c] -= s * v[i - k];
+            let s = &mut s[k..];
+            s.fill(zero);
+            for (row, &vi) in a[k * w..].chunks_exact(w).zip(v.iter()) {
+                for (acc, x) in s.iter_mut().zip(&row[k..]) {
+                    *acc += vi * x;
                 }
             }
-            let s: f64 = (k..m).map(|i| v[i - k] * self.rhs[i]).sum::<f64>() * 2.0 / vv;
-            for i in k..m {
-                self.rhs[i] -= s * v[i - k];
+            for acc in s.iter_mut() {
+                *acc = *acc * 2.0 / vv;
+            }
+            for (row, &vi) in a[k * w..].chunks_exact_mut(w).zip(v.iter()) {
+                for (x, sc) in row[k..].iter_mut().zip(s.iter()) {
+                    *x -= sc * vi;
+                }
             }
         }
         let mut x = vec![0.0; n];
         for k in (0..n).rev() {
-            let s: f64 = (k + 1..n).map(|c| self.rows[k][c] * x[c]).sum();
-            x[k] = (self.rhs[k] - s) / self.rows[k][k];
+            let s: f64 = (k + 1..n).map(|c| a[k * w + c] * x[c]).sum();
+            x[k] = (a[k * w + n] - s) / a[k * w + k];
         }
         x.iter().all(|v| v.is_finite()).then_some(x)
     }
@@ -328,8 +355,11 @@ pub fn conductor_field(
                 return;
             }
             let w = data_weight(n.hypot(t), reach);
-            let row = ms.iter().map(|&(a, b)| mono(a, b, n, t)[0]).collect();
-            lsq.row(row, lat.phi[p] - potential, w);
+            lsq.row(
+                ms.iter().map(|&(a, b)| mono_value(a, b, n, t)),
+                lat.phi[p] - potential,
+                w,
+            );
             data += 1;
         });
         if data < ms.len() {
@@ -347,33 +377,27 @@ pub fn conductor_field(
                         if (a, b) == (0, 0) {
                             0.0
                         } else {
-                            mono(a, b, n, t)[0]
+                            mono_value(a, b, n, t)
                         }
                     })
-                    .collect();
+                    .collect::<Vec<_>>();
                 lsq.row(row, 0.0, EXACT * data_weight(n.hypot(t), reach));
             }
         }
         // Along the surface: a_t = 0 and c_tt = kappa a_n / 2 (cells).
         let kh = frame.curvature * h;
-        lsq.row(
-            ms.iter().map(|&m| f64::from(m == (0, 1))).collect(),
-            0.0,
-            EXACT,
-        );
+        lsq.row(ms.iter().map(|&m| f64::from(m == (0, 1))), 0.0, EXACT);
         if d >= 2 {
             lsq.row(
-                ms.iter()
-                    .map(|&m| {
-                        if m == (0, 2) {
-                            1.0
-                        } else if m == (1, 0) {
-                            -0.5 * kh
-                        } else {
-                            0.0
-                        }
-                    })
-                    .collect(),
+                ms.iter().map(|&m| {
+                    if m == (0, 2) {
+                        1.0
+                    } else if m == (1, 0) {
+                        -0.5 * kh
+                    } else {
+                        0.0
+                    }
+                }),
                 0.0,
                 EXACT,
             );
@@ -421,7 +445,7 @@ pub fn interface_field(
         row[1] = t;
         row[2] = if side == 0 { n } else { ratio * n };
         for (k, &(a, b)) in high.iter().enumerate() {
-            row[3 + side * nh + k] = mono(a, b, n, t)[0];
+            row[3 + side * nh + k] = mono_value(a, b, n, t);
         }
         row
     };
@@ -495,10 +519,23 @@ fn for_nodes_near(g: &Grid, at: Point, radius: f64, mut f: impl FnMut(usize, Poi
     let Some(rows) = g.rows_within(at[1] - radius, at[1] + radius) else {
         return;
     };
+    // The squared distance decides all but the nodes within rounding of the circle, which
+    // `hypot` decides as it always has.
+    let r2 = radius * radius;
+    let (inside, outside) = (r2 * (1.0 - 1e-9), r2 * (1.0 + 1e-9));
+    let careful = !(r2 > 1e-200 && r2.is_finite());
     for j in rows {
+        let (y, dy) = (g.y(j), g.y(j) - at[1]);
         for i in cols.clone() {
-            let x = [g.x(i), g.y(j)];
-            if (x[0] - at[0]).hypot(x[1] - at[1]) <= radius {
+            let x = [g.x(i), y];
+            let dx = x[0] - at[0];
+            let d2 = dx * dx + dy * dy;
+            let near = if careful || (d2 > inside && d2 <= outside) {
+                dx.hypot(dy) <= radius
+            } else {
+                d2 <= inside
+            };
+            if near {
                 f(g.idx(i, j), x);
             }
         }
