@@ -113,6 +113,7 @@ pub fn read_design(
         mode: Mode::Planar,
         cell: 0.0,
         params: Vec::new(),
+        param_index: Default::default(),
     };
     let (design, unit) = r.design(&tree, overrides)?;
     let tolerances = r.tolerances(&tree)?;

@@ -185,7 +185,7 @@ impl Reader<'_> {
                 ));
             }
         }
-        self.params = entries.iter().map(|e| (e.key.clone(), f64::NAN)).collect();
+        self.set_param_names(entries.iter().map(|e| e.key.as_str()));
         for (i, e) in entries.iter().enumerate() {
             let key = join("parameters", &e.key);
             let v = match overrides.iter().rev().find(|(n, _)| *n == e.key) {
@@ -209,7 +209,7 @@ impl Reader<'_> {
         }
         if let Some((n, _)) = overrides
             .iter()
-            .find(|(n, _)| !self.params.iter().any(|(p, _)| p == n))
+            .find(|(n, _)| self.param_position(n).is_none())
         {
             let names: Vec<&str> = self.params.iter().map(|(p, _)| p.as_str()).collect();
             let known = if names.is_empty() {
@@ -238,7 +238,7 @@ impl Reader<'_> {
         let mut out = Vec::new();
         for t in entries {
             let key = join("tolerances", &t.key);
-            if !self.params.iter().any(|(p, _)| *p == t.key) {
+            if self.param_position(&t.key).is_none() {
                 let names: Vec<&str> = self.params.iter().map(|(p, _)| p.as_str()).collect();
                 return Err(self.err(
                     &t.key_span,
@@ -327,7 +327,7 @@ impl Reader<'_> {
                 Kind::Str(v) if v == "open" => Side::Open,
                 Kind::Str(v)
                     if expr::is_identifier(v.trim())
-                        && !self.params.iter().any(|(p, _)| p == v.trim())
+                        && self.param_position(v.trim()).is_none()
                         && !expr::is_reserved(v.trim()) =>
                 {
                     return Err(self.err(

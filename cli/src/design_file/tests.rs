@@ -301,6 +301,35 @@ fn overrides_replace_parameters_and_flow_into_later_ones() {
 }
 
 #[test]
+fn a_hundred_thousand_chained_parameters_evaluate_in_order() {
+    // Each parameter refers to the one above it; lookups by name once scanned every earlier
+    // parameter, so reading this file grew with the square of its length (47 s).
+    const N: usize = 100_000;
+    let mut text = String::from("[parameters]\np0 = 0\n");
+    for i in 1..N {
+        text += &format!("p{i} = \"p{} + 1\"\n", i - 1);
+    }
+    text += &format!(
+        "[grid]\nx = [0, 4]\ny = [0, 4]\ncell = 0.1\n[[conductor]]\nname = \"c\"\n\
+         potential = \"p{last} / {last}\"\ncircle = {{ center = [2, 2], radius = \"p{last} / {N}\" }}\n",
+        last = N - 1
+    );
+    let src = read(&text).unwrap();
+    assert_eq!(src.parameters.len(), N);
+    for (i, (name, v)) in src.parameters.iter().enumerate() {
+        assert_eq!((name.as_str(), *v), (format!("p{i}").as_str(), i as f64));
+    }
+    assert_eq!(src.design.conductors[0].drive, Drive::Fixed(1.0));
+    let Shape::Circle { radius, .. } = src.design.conductors[0].shape else {
+        panic!()
+    };
+    assert_eq!(radius, (N - 1) as f64 / N as f64);
+    // A reference to a parameter further down is still named as such.
+    let e = read("[parameters]\na = \"b + 1\"\nb = 1\n").unwrap_err();
+    assert!(e.message.contains("`b` is defined later"), "{e}");
+}
+
+#[test]
 fn text_hash_is_stable_fnv1a() {
     // FNV-1a 64-bit of the empty string is the offset basis and of "a" is 0xaf63dc4c8601ec8c
     // (Fowler, Noll, Vo: the FNV hash test vectors; recalled from memory and recomputed by hand
