@@ -95,6 +95,12 @@ pub struct SurfacePoint {
     pub field: f64,
     /// Surface the sample stands for: planar m^2 per metre of depth, axisymmetric m^2.
     pub area: f64,
+    /// The curve of surface samples the point belongs to ([`crate::surface::SurfaceSample`]).
+    pub curve: usize,
+    /// Position along that curve, m.
+    pub arc: f64,
+    /// Estimated discretisation error of `density`, C/m^2, when an error estimate was made.
+    pub error_estimate: Option<f64>,
 }
 
 /// Field evaluation on a solved operator.

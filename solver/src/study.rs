@@ -510,7 +510,7 @@ fn field_results(
         .map(|p| post::probe(field, p))
         .collect();
     let surface = surface::sample(field, design, &SurfaceParams::default());
-    let surface_charge = surface_results::surface_charge(&surface, design, charges);
+    let mut surface_charge = surface_results::surface_charge(&surface, design, charges);
     let closed = surface::without_thin_conductors(&surface, design);
     stages.enter(Stage::HotSpots);
     // Triple junctions and dielectric corners are singular too.
@@ -520,6 +520,18 @@ fn field_results(
         surface_results::peak_and_hotspots(field, design, &corners, &params.hotspots, &closed);
     if let Some((m, cf)) = estimate {
         let all = surface::sample(cf, design, &SurfaceParams::default());
+        surface_results::surface_charge_errors(
+            &mut surface_charge,
+            &surface,
+            design,
+            &field.op.grid,
+            &surface_results::CoarseSurface {
+                samples: &all,
+                charges: &m.coarse_charges,
+                ratio: m.ratio,
+                order: m.order,
+            },
+        );
         let coarse_surface = surface::without_thin_conductors(&all, design);
         surface_results::estimate_errors(
             &mut peak_field,

@@ -54,6 +54,9 @@ pub fn surface_charge(
                     density: EPS0 * eps(s.material) * s.normal_field(),
                     field: s.magnitude(),
                     area: area(s, design.mode),
+                    curve: s.curve,
+                    arc: s.arc,
+                    error_estimate: None,
                 })
             }
             _ => None,
@@ -74,6 +77,111 @@ pub fn surface_charge(
         }
     }
     out
+}
+
+/// The surface of the study on a coarser lattice, for error estimates.
+#[derive(Clone, Copy, Debug)]
+pub struct CoarseSurface<'a> {
+    /// Its surface samples.
+    pub samples: &'a [SurfaceSample],
+    /// Its conductor charges at the operating point.
+    pub charges: &'a [f64],
+    /// Coarse over fine spacing.
+    pub ratio: f64,
+    /// The convergence order of the error model.
+    pub order: f64,
+}
+
+/// Error estimates of the surface charge (`points`, from `samples` by [`surface_charge`])
+/// from the study on a coarser lattice (`coarse`), with its ratio and order as for the
+/// capacitance: `|sigma_h - sigma_coarse| / (ratio^order - 1)`, where
+/// `sigma_coarse` is the coarse surface charge at the same place of the same curve (the
+/// parabola through the three coarse samples nearest along the curve, so that placing the
+/// samples differently adds an error of third order only), plus the surface fit's model bias
+/// on convex surfaces ([`FIT_BIAS`] `(h kappa)^2` of the value, h the fine spacing) as for
+/// the hot spots. A point with no coarse sample within two of its stretches along its curve
+/// (a face the coarse lattice does not resolve) gets none.
+pub fn surface_charge_errors(
+    points: &mut [SurfacePoint],
+    samples: &[SurfaceSample],
+    design: &Design,
+    grid: &Grid,
+    coarse: &CoarseSurface,
+) {
+    let coarse_samples = coarse.samples;
+    let factor = coarse.ratio.powf(coarse.order) - 1.0;
+    let coarse = surface_charge(coarse_samples, design, coarse.charges);
+    // Per curve: the coarse (arc, density, stretch) in order, and the loop length of a curve
+    // sampled all the way round (the sum of its stretches), across which arcs wrap.
+    let curves = samples
+        .iter()
+        .chain(coarse_samples)
+        .map(|s| s.curve + 1)
+        .max()
+        .unwrap_or(0);
+    let mut by_curve: Vec<Vec<(f64, f64)>> = vec![Vec::new(); curves];
+    let mut stretch = vec![0.0f64; curves];
+    for p in &coarse {
+        by_curve[p.curve].push((p.arc, p.density));
+    }
+    let mut length = vec![0.0f64; curves];
+    let mut whole = vec![false; curves];
+    for s in coarse_samples {
+        length[s.curve] += s.length;
+        whole[s.curve] = s.whole_loop;
+        stretch[s.curve] = stretch[s.curve].max(s.length);
+    }
+    let period: Vec<Option<f64>> = (0..curves).map(|c| whole[c].then_some(length[c])).collect();
+    let fine: std::collections::HashMap<(usize, u64), &SurfaceSample> = samples
+        .iter()
+        .map(|s| ((s.curve, s.arc.to_bits()), s))
+        .collect();
+    for p in points.iter_mut() {
+        let near = coarse_near(&by_curve[p.curve], period[p.curve], p.arc);
+        let Some(sc) = near.filter(|n| n.0 <= 2.0 * stretch[p.curve]).map(|n| n.1) else {
+            continue;
+        };
+        let bias = fine.get(&(p.curve, p.arc.to_bits())).map_or(0.0, |s| {
+            let h = grid.spacing_at([s.x, s.y]);
+            FIT_BIAS * (h * s.curvature.max(0.0)).powi(2) * p.density.abs()
+        });
+        p.error_estimate = Some((p.density - sc).abs() / factor + bias);
+    }
+}
+
+/// The coarse value at `arc` on one curve: (distance to the nearest coarse sample, value of
+/// the parabola through the three nearest). `pts` are ordered by arc; on a whole loop of
+/// length `period` the arcs wrap.
+fn coarse_near(pts: &[(f64, f64)], period: Option<f64>, arc: f64) -> Option<(f64, f64)> {
+    let n = pts.len();
+    if n == 0 {
+        return None;
+    }
+    let i = pts.partition_point(|p| p.0 < arc) as isize;
+    let at = |k: isize| -> Option<(f64, f64)> {
+        match period {
+            Some(l) => {
+                let wraps = k.div_euclid(n as isize) as f64;
+                let p = pts[k.rem_euclid(n as isize) as usize];
+                Some((p.0 + wraps * l, p.1))
+            }
+            None => (k >= 0 && (k as usize) < n).then(|| pts[k as usize]),
+        }
+    };
+    let reach = 3.min(n as isize);
+    let mut near: Vec<(f64, f64)> = (i - reach..i + reach).filter_map(at).collect();
+    near.sort_by(|a, b| (a.0 - arc).abs().total_cmp(&(b.0 - arc).abs()));
+    near.dedup_by(|a, b| a.0 == b.0);
+    let d = (near[0].0 - arc).abs();
+    if near.len() < 3 {
+        return Some((d, near[0].1));
+    }
+    let [(x0, y0), (x1, y1), (x2, y2)] = [near[0], near[1], near[2]];
+    let l = |xa: f64, xb: f64, xc: f64| (arc - xb) * (arc - xc) / ((xa - xb) * (xa - xc));
+    Some((
+        d,
+        y0 * l(x0, x1, x2) + y1 * l(x1, x0, x2) + y2 * l(x2, x0, x1),
+    ))
 }
 
 /// A maximum of the field along a curve of samples, refined between samples.

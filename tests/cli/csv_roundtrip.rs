@@ -108,9 +108,45 @@ fn every_csv_reads_back_with_default_options() {
         "surface_charge.csv",
         &h,
         &rows,
-        &["x (m)", "y (m)", "surface charge (C/m^2)", "field (V/m)"],
+        &[
+            "x (m)",
+            "y (m)",
+            "surface charge (C/m^2)",
+            "field (V/m)",
+            "error estimate (C/m^2)",
+        ],
     );
     assert!(rows.iter().all(|r| &r[0] == "strip"));
+    // The columns kept where they were, the estimate after them; every estimate is a
+    // magnitude; the samples integrate to the conductor's charge in summary.json.
+    assert_eq!(
+        &h[..6],
+        [
+            "conductor",
+            "x (m)",
+            "y (m)",
+            "surface charge (C/m^2)",
+            "field (V/m)",
+            "area (m^2/m planar, m^2 axisymmetric)"
+        ]
+    );
+    let (sigma, area, est) = (
+        column(&h, "surface charge (C/m^2)"),
+        column(&h, "area (m^2/m planar, m^2 axisymmetric)"),
+        column(&h, "error estimate (C/m^2)"),
+    );
+    assert!(rows.iter().all(|r| r[est].parse::<f64>().unwrap() >= 0.0));
+    let total: f64 = rows
+        .iter()
+        .map(|r| r[sigma].parse::<f64>().unwrap() * r[area].parse::<f64>().unwrap())
+        .sum();
+    let q = fieldgrid_tests::cli::summary(&out)["conductors"][0]["charge"]
+        .as_f64()
+        .unwrap();
+    assert!(
+        (total - q).abs() <= 1e-6 * q.abs(),
+        "surface_charge.csv integrates to {total:e}, the charge is {q:e}"
+    );
 
     let (h, rows) = read(&out.join("field.csv"));
     // 41 x 21 nodes, one row each.

@@ -369,6 +369,7 @@ pub fn write_results(
             "surface charge (C/m^2)",
             "field (V/m)",
             "area (m^2/m planar, m^2 axisymmetric)",
+            "error estimate (C/m^2)",
         ],
         sol.surface_charge.iter().map(|s| {
             vec![
@@ -378,6 +379,7 @@ pub fn write_results(
                 num(s.density),
                 num(s.field),
                 num(s.area),
+                s.error_estimate.map(num).unwrap_or_default(),
             ]
         }),
     );

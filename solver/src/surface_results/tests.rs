@@ -1,5 +1,7 @@
-//! Surface fields, peaks and hot spots on graded (stretched) lattices against closed forms.
+//! Surface fields, peaks and hot spots on graded (stretched) lattices against closed forms;
+//! the coarse reading behind the surface-charge error estimate.
 
+use super::coarse_near;
 use crate::design::{Conductor, Design, Domain, Drive, Mode, Shape, Side, Sides};
 use crate::grid::Grid;
 use crate::study::{self, Solution, StudyParams};
@@ -296,4 +298,33 @@ fn dielectric_corners_count_as_singular_only_with_interface_samples_within_their
     let found = super::singular_points(&design, &samples);
     assert!(found.contains(&[0.0, 0.0]), "{found:?}");
     assert!(!found.contains(&[1.0, 1.0]), "{found:?}");
+}
+
+#[test]
+fn coarse_value_is_the_parabola_through_the_nearest_samples_and_wraps_on_a_loop() {
+    // A quadratic in the arc is reproduced exactly between and beyond the samples.
+    let f = |a: f64| 1.0 + 2.0 * a - 0.5 * a * a;
+    let pts: Vec<(f64, f64)> = (0..8)
+        .map(|k| (0.5 + k as f64, f(0.5 + k as f64)))
+        .collect();
+    for arc in [0.2, 3.3, 7.9] {
+        let (d, v) = coarse_near(&pts, None, arc).unwrap();
+        assert!((v - f(arc)).abs() < 1e-12, "{arc}: {v} vs {}", f(arc));
+        assert!(d <= 0.5 + 1e-12);
+    }
+    // On a loop of length 8 the samples at arcs 7.5 and 6.5 neighbour those at 0.5 and 1.5:
+    // a value periodic in the arc (here a parabola symmetric about the seam) is read across it.
+    let g = |a: f64| {
+        let u = if a > 4.0 { a - 8.0 } else { a };
+        u * u
+    };
+    let pts: Vec<(f64, f64)> = (0..8)
+        .map(|k| (0.5 + k as f64, g(0.5 + k as f64)))
+        .collect();
+    let (d, v) = coarse_near(&pts, Some(8.0), 0.1).unwrap();
+    assert!(
+        (v - 0.01).abs() < 1e-12 && (d - 0.4).abs() < 1e-12,
+        "{v} {d}"
+    );
+    assert_eq!(coarse_near(&[], None, 1.0), None);
 }
