@@ -8,7 +8,9 @@
 //! signal does not touch mirrors that signal into an in-phase image, which a warning says.
 //! With the error estimate, the coarse-lattice matrices of both studies give the line
 //! parameters once more, and their difference the estimated discretisation error of each
-//! scalar parameter (with the more cautious of the two studies' orders).
+//! scalar parameter (with the more cautious of the two studies' orders); on a graded family
+//! the four times coarser matrices give them a third time, and each scalar's own order
+//! ([`crate::study::ErrorModel::estimate_derived`]).
 //!
 //! Invariants: signals are distinct fixed-potential conductors of a planar design (checked by
 //! [`check_signals`] before anything is solved); every number is per metre of line (F/m,
@@ -179,17 +181,32 @@ pub fn run_planned_from(
         &vacuum.capacitance.error_model,
     ) {
         (Some(m), Some(m0)) => {
-            match line::parameters(&pick(&solution, &m.coarse), &pick(&vacuum, &m0.coarse)) {
-                Ok(coarse) => {
-                    // The more cautious of the two studies' orders.
+            let at = |a: &[Vec<f64>], b: &[Vec<f64>]| {
+                line::parameters(&pick(&solution, a), &pick(&vacuum, b)).ok()
+            };
+            let coarser = match (&m.coarser, &m0.coarser) {
+                (Some(a), Some(b)) => at(a, b),
+                _ => None,
+            };
+            match at(&m.coarse, &m0.coarse) {
+                Some(coarse) => {
+                    // The more cautious of the two studies' orders where a scalar's own
+                    // values cannot give one.
                     let model = if m0.order < m.order { m0 } else { m };
+                    let coarser = coarser.as_ref().map(line::scalars);
                     line::scalars(&line)
                         .into_iter()
                         .zip(line::scalars(&coarse))
-                        .map(|((k, f), (_, c))| (k, model.estimate(f, c)))
+                        .map(|((key, f), (_, c))| {
+                            let cc = coarser
+                                .as_ref()
+                                .and_then(|v| v.iter().find(|e| e.0 == key))
+                                .map(|e| e.1);
+                            (key, model.estimate_derived(f, c, cc))
+                        })
                         .collect()
                 }
-                Err(_) => Vec::new(),
+                None => Vec::new(),
             }
         }
         _ => Vec::new(),

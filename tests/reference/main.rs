@@ -4,6 +4,7 @@
 
 mod axisymmetric;
 mod design_targets;
+mod fem_demos;
 mod floating;
 mod hotspots;
 mod line;

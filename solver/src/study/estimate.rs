@@ -5,7 +5,11 @@
 //! lattice the estimate is never optimistic by construction of the order (1 wherever the
 //! field is singular). On a graded lattice the coarse lattices are the base grid bisected
 //! once and the base itself, so all three hold the same geometry lines and the order is the
-//! one observed from the three.
+//! one observed from the three. A quantity derived from the matrices (a line's Z0 and
+//! eps_eff) reads its own order from its own three values on such a family
+//! ([`ErrorModel::estimate_derived`]): a ratio such as eps_eff = C / C0 cancels most of the
+//! errors of its two studies, and what is left converges at an order (and from a grid on)
+//! of its own.
 
 use super::solves::{solve_on, Core};
 use super::{StudyError, StudyParams};
@@ -37,12 +41,42 @@ pub struct ErrorModel {
     pub order: f64,
     /// The order observed from three lattices, when a third one was solved.
     pub observed_order: Option<f64>,
+    /// Maxwell matrix on the lattice four times as coarse, when it was solved.
+    pub coarser: Option<Vec<Vec<f64>>>,
+    /// The three lattices are bisections of one graded base of a rectilinear design, every
+    /// edge on a line at every level: orders are read from them.
+    pub graded_family: bool,
 }
 
 impl ErrorModel {
     /// Estimated error of a fine-lattice result from its coarse-lattice counterpart.
     pub fn estimate(&self, fine: f64, coarse: f64) -> f64 {
         (fine - coarse).abs() / (self.ratio.powf(self.order) - 1.0)
+    }
+
+    /// Estimated error of a fine-lattice quantity derived from the matrices, from its values
+    /// on the coarse and (when solved) the four times coarser lattice.
+    ///
+    /// On a graded family the quantity's own three values decide: converging monotonically,
+    /// Richardson's estimate with the order they show, clamped to [0.5, 2] as the matrix's;
+    /// oscillating (the two differences of opposite sign, as when errors of two studies
+    /// cancel on one lattice and not on the next), the larger of the two differences, the
+    /// rule for oscillatory convergence (F. Stern, R. V. Wilson, H. W. Coleman, E. G.
+    /// Paterson, "Comprehensive approach to verification and validation of CFD simulations,
+    /// part 1", J. Fluids Eng. 123 (2001) 793-802, eq. 13 takes half the range; the whole
+    /// range here, so that the estimate is never the optimistic half). Elsewhere, or with two
+    /// lattices only, [`ErrorModel::estimate`].
+    pub fn estimate_derived(&self, fine: f64, coarse: f64, coarser: Option<f64>) -> f64 {
+        let Some(coarser) = coarser.filter(|_| self.graded_family) else {
+            return self.estimate(fine, coarse);
+        };
+        let (d1, d2) = (fine - coarse, coarse - coarser);
+        if d1 * d2 > 0.0 {
+            let p = ((d2 / d1).ln() / self.ratio.ln()).clamp(0.5, 2.0);
+            d1.abs() / (self.ratio.powf(p) - 1.0)
+        } else {
+            d1.abs().max(d2.abs())
+        }
     }
 }
 
@@ -140,6 +174,7 @@ impl CoarseStudies {
         // observed order is read wherever it can be; curved or slanted edges fall within
         // cells differently at each level, as on a uniform lattice.
         let graded = design.lattice == Lattice::Graded && crate::grading::is_rectilinear(design);
+        let coarser = self.coarser.as_ref().map(|(_, cc)| cc.maxwell.clone());
         let order = match observed_order {
             Some(p) if graded => p.clamp(0.5, 2.0),
             None if graded => 1.0,
@@ -157,6 +192,8 @@ impl CoarseStudies {
             ratio,
             order,
             observed_order,
+            graded_family: graded && coarser.is_some(),
+            coarser,
         })
     }
 }
@@ -210,6 +247,46 @@ pub(super) fn capacitance_warnings(
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    fn model(graded_family: bool) -> ErrorModel {
+        ErrorModel {
+            coarse: vec![vec![1.0]],
+            coarse_charges: vec![0.0],
+            ratio: 2.0,
+            order: 1.5,
+            observed_order: Some(1.5),
+            coarser: Some(vec![vec![1.0]]),
+            graded_family,
+        }
+    }
+
+    #[test]
+    fn a_derived_quantity_reads_its_own_order_on_a_graded_family() {
+        let m = model(true);
+        // Errors 4, 2, 1: first order, so the fine value's error is the last difference.
+        assert!((m.estimate_derived(1.0, 2.0, Some(4.0)) - 1.0).abs() < 1e-12);
+        // Errors 16, 4, 1: second order, a third of the last difference.
+        assert!((m.estimate_derived(1.0, 4.0, Some(16.0)) - 1.0).abs() < 1e-12);
+        // Differences growing: the order clamps at 0.5.
+        let e = m.estimate_derived(0.0, 1.0, Some(1.1));
+        assert!((e - 1.0 / (2f64.sqrt() - 1.0)).abs() < 1e-12, "{e}");
+    }
+
+    #[test]
+    fn an_oscillating_derived_quantity_takes_the_larger_difference() {
+        // Cancelling errors: up by 1.2, then down by 0.4; the fine value's error can be as
+        // large as the larger step, not the last step over 2^p - 1.
+        let e = model(true).estimate_derived(1.0, 1.4, Some(0.2));
+        assert!((e - 1.2).abs() < 1e-12, "{e}");
+    }
+
+    #[test]
+    fn off_a_graded_family_a_derived_quantity_uses_the_matrix_order() {
+        let m = model(false);
+        let want = m.estimate(1.0, 1.4);
+        assert_eq!(m.estimate_derived(1.0, 1.4, Some(0.2)), want);
+        assert_eq!(model(true).estimate_derived(1.0, 1.4, None), want);
+    }
 
     #[test]
     fn a_symmetric_pair_is_warned_once_with_the_larger_percentage() {
