@@ -13,5 +13,6 @@ mod robustness;
 mod spice;
 mod svg_import;
 mod sweep;
+mod sweep_streams;
 mod target;
 mod vtk;

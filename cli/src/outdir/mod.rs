@@ -406,6 +406,16 @@ impl OutDir {
     /// Writes `name` whole: into the staging directory, or in place under a temporary name
     /// renamed at the end.
     pub fn write(&self, name: &str, bytes: &[u8]) -> Result<PathBuf, Failure> {
+        self.write_with(name, |w| w.write_all(bytes))
+    }
+
+    /// Writes `name` whole as [`OutDir::write`] does, its bytes produced by `fill` through a
+    /// buffer (a file larger than memory is never held whole).
+    pub fn write_with(
+        &self,
+        name: &str,
+        fill: impl FnOnce(&mut dyn Write) -> std::io::Result<()>,
+    ) -> Result<PathBuf, Failure> {
         let final_path = self.dir.join(name);
         let tmp = if self.staged {
             final_path.clone()
@@ -424,12 +434,13 @@ impl OutDir {
         };
         fault::step(false);
         let result = (|| -> std::io::Result<()> {
-            let mut f = file?;
+            let f = file?;
             if fault::write_fails() {
                 return Err(std::io::Error::from_raw_os_error(28));
             }
-            f.write_all(bytes)?;
-            f.sync_all()?;
+            let mut w = std::io::BufWriter::new(f);
+            fill(&mut w)?;
+            w.into_inner().map_err(|e| e.into_error())?.sync_all()?;
             if !self.staged {
                 fs::rename(&tmp, &final_path)?;
             }

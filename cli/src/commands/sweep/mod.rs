@@ -19,10 +19,10 @@
 //! - After each point its row is appended to `sweep.csv` in one write, synced, rows in point
 //!   order; an interrupted run leaves a valid table (a last row cut short by a crash is
 //!   dropped on resume) and a re-run with the same arguments resumes by skipping the points
-//!   already there. A results directory of a different sweep is refused. One writer at a
+//!   already there, read as a stream (one bit per point kept). A results directory of a different sweep is refused. One writer at a
 //!   time: the directory is locked ([`crate::outdir::lock`]).
 //! - A merge checks that every part belongs to the same sweep, that points given twice agree
-//!   exactly, and that together they cover every point.
+//!   exactly, and that together they cover every point; it streams the tables ([`merge`]).
 
 use super::{check_memory, load_design, study_params, with_threads};
 use crate::args::{SolverChoice, SweepArgs};
@@ -34,11 +34,13 @@ use fieldgrid_solver::design::Drive;
 use fieldgrid_solver::plan::Plan;
 use fieldgrid_solver::study;
 use serde::{Deserialize, Serialize};
-use std::collections::BTreeMap;
 use std::path::Path;
+use table::PointSet;
 
 mod columns;
+mod merge;
 mod points;
+mod table;
 pub use columns::Layout;
 pub use points::{point_count, point_values, Shard, Vary, MAX_POINTS};
 
@@ -102,9 +104,6 @@ impl SweepFile {
     }
 }
 
-/// The rows of a sweep.csv, keyed by point index.
-type Rows = BTreeMap<usize, Vec<String>>;
-
 fn solver_name(c: SolverChoice) -> &'static str {
     fieldgrid_solver::solvers::Method::from(c).name()
 }
@@ -112,7 +111,7 @@ fn solver_name(c: SolverChoice) -> &'static str {
 /// Runs the command, returning the exit code.
 pub fn run(args: &SweepArgs) -> Result<u8, Failure> {
     if !args.merge.is_empty() {
-        return merge(&args.merge, &args.out, args.opts.quiet);
+        return merge::merge(&args.merge, &args.out, args.opts.quiet);
     }
     let design = args
         .design
@@ -214,28 +213,17 @@ pub fn run(args: &SweepArgs) -> Result<u8, Failure> {
 
     let mut out = OutDir::prepare_in_place(&args.out)?;
     let (done, mut unconverged) = resume(&out, &def)?;
-    if let Some(p) = done
-        .iter()
-        .position(|&d| d)
-        .filter(|&p| shard.is_some_and(|s| !s.runs(p)))
-    {
-        return Err(Failure::input(format!(
-            "{}: sweep.csv holds point {p}, which is not in this shard: remove it or use \
-             another --out",
-            out.path().display()
-        )));
-    }
     let def_json =
         serde_json::to_vec_pretty(&def).map_err(|e| Failure::io("encoding sweep.json", e))?;
     out.write("sweep.json", &def_json)?;
     if !out.path().join("sweep.csv").exists() {
-        out.write("sweep.csv", &table_bytes(&columns, &Rows::new()))?;
+        out.write("sweep.csv", &empty_table(&columns))?;
     }
 
-    let skipped = mine().filter(|&p| done[p]).count();
+    let skipped = mine().filter(|&p| done.contains(p)).count();
     let bar = crate::progress::counter(args.opts.quiet, count, skipped);
     let mut solved = 0;
-    for p in mine().filter(|&p| !done[p]) {
+    for p in mine().filter(|&p| !done.contains(p)) {
         let (values, src, plan) = load_point(p)?;
         if let Some(bar) = &bar {
             let at: Vec<String> = vary
@@ -340,13 +328,14 @@ fn row_bytes(row: &[String]) -> Vec<u8> {
     w.into_inner().expect("in-memory CSV flush")
 }
 
-fn table_bytes(columns: &[String], rows: &Rows) -> Vec<u8> {
+/// A table of no rows: the header alone.
+fn empty_table(columns: &[String]) -> Vec<u8> {
     let header: Vec<&str> = columns.iter().map(|s| s.as_str()).collect();
-    csv_bytes(&header, rows.values().cloned())
+    csv_bytes(&header, std::iter::empty())
 }
 
-/// Reads `sweep.json` and `sweep.csv` of a directory, if present.
-fn read_dir(dir: &Path) -> Result<Option<(SweepFile, Rows)>, Failure> {
+/// Reads `sweep.json` of a directory, if present (its rows are streamed by [`table`]).
+fn read_dir(dir: &Path) -> Result<Option<SweepFile>, Failure> {
     let json = dir.join("sweep.json");
     let csv = dir.join("sweep.csv");
     if !json.exists() {
@@ -366,75 +355,45 @@ fn read_dir(dir: &Path) -> Result<Option<(SweepFile, Rows)>, Failure> {
             json.display()
         ))
     })?;
-    let mut rows = Rows::new();
-    if csv.exists() {
-        let mut r = csv::Reader::from_path(&csv)
-            .map_err(|e| Failure::input(format!("{}: {e}", csv.display())))?;
-        let header: Vec<String> = r
-            .headers()
-            .map_err(|e| Failure::input(format!("{}: {e}", csv.display())))?
-            .iter()
-            .map(str::to_string)
-            .collect();
-        if header != def.columns {
-            return Err(Failure::input(format!(
-                "{}: the columns do not match sweep.json",
-                csv.display()
-            )));
-        }
-        for rec in r.records() {
-            let rec = rec.map_err(|e| Failure::input(format!("{}: {e}", csv.display())))?;
-            let row: Vec<String> = rec.iter().map(str::to_string).collect();
-            let p: usize = row
-                .first()
-                .and_then(|s| s.parse().ok())
-                .filter(|&p| p < def.points)
-                .ok_or_else(|| {
-                    Failure::input(format!(
-                        "{}: a row without a valid point index (0 to {})",
-                        csv.display(),
-                        def.points.saturating_sub(1)
-                    ))
-                })?;
-            if rows.insert(p, row).is_some() {
-                return Err(Failure::input(format!(
-                    "{}: point {p} appears twice",
-                    csv.display()
-                )));
-            }
-        }
-    }
-    Ok(Some((def, rows)))
+    Ok(Some(def))
 }
 
-/// Which points `out` already holds (by index) and how many of them did not converge, when
+/// Which points `out` already holds and how many of them did not converge, when
 /// it holds this very sweep (and shard); an error when it holds another one. A last row cut
 /// short by a crash (no line end) is dropped first: it is solved again.
-fn resume(out: &OutDir, def: &SweepFile) -> Result<(Vec<bool>, usize), Failure> {
-    drop_torn_row(&out.path().join("sweep.csv"))?;
-    match read_dir(out.path())? {
-        None => Ok((vec![false; def.points], 0)),
-        Some((old, rows)) => {
-            if old.same_sweep(def) && old.shard == def.shard {
-                let mut done = vec![false; def.points];
-                let mut unconverged = 0;
-                let at = columns::converged_column(&old.columns);
-                for (p, r) in rows {
-                    done[p] = true;
-                    let cell = at.and_then(|k| r.get(k));
-                    unconverged += usize::from(cell.is_some_and(|c| c == "false"));
-                }
-                Ok((done, unconverged))
-            } else {
-                Err(Failure::input(format!(
-                    "{} holds another sweep ({}): use another --out, or remove sweep.json and \
-                     sweep.csv there to start over",
-                    out.path().display(),
-                    old.difference(def)
-                )))
-            }
-        }
+fn resume(out: &OutDir, def: &SweepFile) -> Result<(PointSet, usize), Failure> {
+    let csv = out.path().join("sweep.csv");
+    drop_torn_row(&csv)?;
+    let mut done = PointSet::new(def.points);
+    let Some(old) = read_dir(out.path())? else {
+        return Ok((done, 0));
+    };
+    if !(old.same_sweep(def) && old.shard == def.shard) {
+        return Err(Failure::input(format!(
+            "{} holds another sweep ({}): use another --out, or remove sweep.json and \
+             sweep.csv there to start over",
+            out.path().display(),
+            old.difference(def)
+        )));
     }
+    if !csv.exists() {
+        return Ok((done, 0));
+    }
+    let mut unconverged = 0;
+    let at = columns::converged_column(&old.columns);
+    table::for_each_row(&csv, &old, |p, rec| {
+        if def.shard.is_some_and(|s| !s.runs(p)) {
+            return Err(Failure::input(format!(
+                "{}: sweep.csv holds point {p}, which is not in this shard: remove it or use \
+                 another --out",
+                out.path().display()
+            )));
+        }
+        done.insert(p);
+        unconverged += usize::from(at.and_then(|k| rec.get(k)) == Some("false"));
+        Ok(())
+    })?;
+    Ok((done, unconverged))
 }
 
 /// Cuts `table` after its last line end (a row appended when the machine stopped may be
@@ -475,86 +434,4 @@ fn drop_torn_row(table: &Path) -> Result<(), Failure> {
         end = start;
     }
     Ok(())
-}
-
-/// Joins the directories of one sweep's shards into `out`.
-fn merge(dirs: &[std::path::PathBuf], out: &Path, quiet: bool) -> Result<u8, Failure> {
-    let mut first: Option<SweepFile> = None;
-    let mut rows = Rows::new();
-    for d in dirs {
-        let (def, part) = read_dir(d)?.ok_or_else(|| {
-            Failure::input(format!(
-                "{}: no sweep.json: not a sweep directory",
-                d.display()
-            ))
-        })?;
-        if let Some(f) = &first {
-            if !f.same_sweep(&def) {
-                return Err(Failure::input(format!(
-                    "{} belongs to another sweep than {} ({})",
-                    d.display(),
-                    dirs[0].display(),
-                    f.difference(&def)
-                )));
-            }
-        } else {
-            first = Some(def);
-        }
-        for (p, row) in part {
-            if let Some(old) = rows.get(&p) {
-                if *old != row {
-                    return Err(Failure::input(format!(
-                        "point {p} is in two directories with different values (the second is {})",
-                        d.display()
-                    )));
-                }
-            } else {
-                rows.insert(p, row);
-            }
-        }
-    }
-    let mut def = first.ok_or_else(|| Failure::input("--merge needs at least one directory"))?;
-    let missing: Vec<usize> = (0..def.points).filter(|p| !rows.contains_key(p)).collect();
-    if !missing.is_empty() {
-        let shown: Vec<String> = missing.iter().take(10).map(|p| p.to_string()).collect();
-        return Err(Failure::input(format!(
-            "the merged sweep lacks {} of {} points ({}{}): run the missing shards (a re-run \
-             resumes where it stopped) and merge again",
-            missing.len(),
-            def.points,
-            shown.join(", "),
-            if missing.len() > 10 { ", ..." } else { "" }
-        )));
-    }
-    def.shard = None;
-    let mut outdir = OutDir::prepare(out)?;
-    let json =
-        serde_json::to_vec_pretty(&def).map_err(|e| Failure::io("encoding sweep.json", e))?;
-    outdir.write("sweep.csv", &table_bytes(&def.columns, &rows))?;
-    outdir.write("sweep.json", &json)?;
-    outdir.commit()?;
-    let at = columns::converged_column(&def.columns);
-    let unconverged = rows
-        .values()
-        .filter(|r| at.and_then(|k| r.get(k)).is_some_and(|c| c == "false"))
-        .count();
-    if !quiet {
-        println!(
-            "merged {} points from {} directories into {}",
-            rows.len(),
-            dirs.len(),
-            outdir.path().join("sweep.csv").display()
-        );
-        if unconverged > 0 {
-            let w = crate::warning::ToolWarning::SweepNotConverged {
-                points: unconverged,
-            };
-            println!("warning [{}]: {w}", crate::warning::Coded::code(&w));
-        }
-    }
-    Ok(if unconverged > 0 {
-        EXIT_NOT_CONVERGED
-    } else {
-        EXIT_OK
-    })
 }
