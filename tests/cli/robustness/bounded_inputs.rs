@@ -1,4 +1,5 @@
-//! Bounded inputs and small refusals: non-regular files, non-UTF-8 text, over-long names,
+//! Bounded inputs and small refusals: non-regular files, files beyond their size caps,
+//! non-UTF-8 text, over-long names,
 //! thread and iteration counts that cannot be meant, duplicate names in a compared summary,
 //! and huge numbers written in exponent form. Each is refused with exit 2 before any work,
 //! leaving no directory behind.
@@ -41,6 +42,61 @@ fn a_fifo_or_device_as_input_is_refused_not_read() {
         &["compare", json.to_str().unwrap(), &good],
         "not a regular file",
     );
+}
+
+/// A sparse file of `mib` MiB and one byte: it takes no disk space, and a reader that did
+/// not check the size first would read it all.
+fn oversized(path: &Path, mib: u64) -> String {
+    let f = std::fs::File::create(path).unwrap();
+    f.set_len((mib << 20) + 1).unwrap();
+    path.to_str().unwrap().to_string()
+}
+
+#[test]
+fn an_input_beyond_its_size_cap_is_refused_without_being_read() {
+    let dir = scratch(SCRATCH, "size-caps");
+    let good = write(&dir, "plates.toml", PLATES);
+    let mib = |b: u64| b >> 20;
+    let design = oversized(
+        &dir.join("huge.toml"),
+        mib(fieldgrid_cli::commands::MAX_DESIGN_BYTES),
+    );
+    refused(&["check", &design], "larger than 64 MiB");
+    let summary = oversized(
+        &dir.join("summary.json"),
+        mib(fieldgrid_cli::commands::MAX_RESULT_BYTES),
+    );
+    refused(&["compare", &summary, &good], "larger than 256 MiB");
+    refused(&["compare", &good, &summary], "larger than 256 MiB");
+    let part = dir.join("part");
+    std::fs::create_dir(&part).unwrap();
+    oversized(
+        &part.join("sweep.json"),
+        mib(fieldgrid_cli::commands::MAX_RESULT_BYTES),
+    );
+    let out = dir.join("merged");
+    refused(
+        &[
+            "sweep",
+            "--merge",
+            part.to_str().unwrap(),
+            "--out",
+            out.to_str().unwrap(),
+        ],
+        "larger than 256 MiB",
+    );
+    assert!(!out.exists());
+    let svg = oversized(
+        &dir.join("huge.svg"),
+        mib(fieldgrid_cli::design_file::MAX_SVG_BYTES),
+    );
+    let text = format!(
+        "[grid]\nx = [0.0, 1.0]\ny = [0.0, 1.0]\ncell = 0.1\n[[conductor]]\nname = \"c\"\n\
+         potential = 1.0\nsvg = {{ file = \"{svg}\", id = \"a\" }}\n"
+    );
+    let e = fieldgrid_cli::design_file::read_design(&text, "svg.toml", &[]).unwrap_err();
+    assert_eq!(e.key, "conductor.svg.file", "{e}");
+    assert!(e.message.contains("64 MiB"), "{e}");
 }
 
 #[test]
@@ -89,6 +145,13 @@ fn zero_or_absurd_threads_and_zero_iterations_are_refused_leaving_no_directory()
     refused(
         &["solve", &design, "--out", o, "--threads", "100000"],
         "--threads 100000",
+    );
+    // 1000 threads ran 35 times slower on two cores: more than four per processor (at least
+    // 16) is refused.
+    let many = (fieldgrid_cli::commands::max_threads().max(16) + 1).to_string();
+    refused(
+        &["solve", &design, "--out", o, "--threads", &many],
+        &format!("--threads {many}"),
     );
     refused(
         &["solve", &design, "--out", o, "--max-iterations", "0"],

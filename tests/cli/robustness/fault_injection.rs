@@ -167,7 +167,9 @@ fn every_interruption_of_a_solve_leaves_the_old_or_the_new_complete_set() {
         "solve: {points} interruption points: {kept_old} kept the previous set, {got_new} \
          left the new set, {nothing} left no directory"
     );
-    assert!(points >= 120, "{points}");
+    // With the sweep's at least 70, at least 200 interruption points in all (134 and 72
+    // when this was written; the counts are enumerated, so they change only with the code).
+    assert!(points >= 130, "{points}");
     assert!(kept_old > 0 && got_new > 0 && nothing > 0);
 }
 
@@ -263,5 +265,6 @@ fn every_interruption_of_a_sweep_leaves_whole_rows_and_the_rerun_completes_it() 
     eprintln!(
         "sweep: {points} interruption points, each left whole rows and resumed to the full table"
     );
-    assert!(points >= 60, "{points}");
+    // With the solve's at least 130, at least 200 interruption points in all.
+    assert!(points >= 70, "{points}");
 }
