@@ -27,6 +27,7 @@ fn design(cell: f64) -> Design {
     let c = |name: &str, shape: Shape| Conductor {
         name: name.into(),
         drive: Drive::Fixed(1.0),
+        joined: Vec::new(),
         shape,
     };
     let conductors = vec![

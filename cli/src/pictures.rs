@@ -15,14 +15,23 @@ fn tolerance(design: &Design) -> f64 {
     Outline::picture_tolerance(design.domain.x, design.domain.y)
 }
 
-/// The outlines of the conductors and of the dielectrics, for drawing.
+/// The outlines of the conductors and of the dielectrics, for drawing: one per conductor in
+/// its order, then the further pieces of conductors drawn in several (unnamed, so each
+/// conductor's name is placed once).
 pub fn outlines(design: &Design) -> (Vec<Outline>, Vec<Outline>) {
     let tol = tolerance(design);
-    let conductors = design
+    let mut conductors: Vec<Outline> = design
         .conductors
         .iter()
         .map(|c| Outline::from_shape(&c.name, &c.shape, tol))
         .collect();
+    conductors.extend(
+        design
+            .conductors
+            .iter()
+            .flat_map(|c| &c.joined)
+            .map(|s| Outline::from_shape("", s, tol)),
+    );
     let dielectrics = design
         .dielectrics
         .iter()

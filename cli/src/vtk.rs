@@ -162,6 +162,7 @@ mod tests {
             conductors: vec![Conductor {
                 name: "lid".into(),
                 drive: Drive::Fixed(50.0),
+                joined: Vec::new(),
                 shape: rect([0.0, 4e-3], [1.8e-3, 2e-3]),
             }],
             ..Design::default()

@@ -2,7 +2,8 @@
 //!
 //! A [`Design`] is produced by a reader (the command-line crate parses TOML into it) and is
 //! checked by [`validate`] for the geometric rules of the contract: shapes inside the domain,
-//! conductors not overlapping, polygons simple, materials physical. Errors name the item and
+//! conductors not touching or overlapping each other (the pieces of one conductor may),
+//! polygons simple, materials physical. Errors name the item and
 //! the key so the reader can point at the file span.
 
 /// Planar cross-section or body of revolution.
@@ -144,15 +145,26 @@ pub enum Drive {
     Floating,
 }
 
-/// An electrode.
+/// An electrode: one body of metal at one potential (one net), drawn as one shape or as
+/// several that may touch or overlap (a ground pour and its via fence). It is their union:
+/// one conductor in the raster, one row of the capacitance matrix, one charge.
 #[derive(Clone, Debug, PartialEq)]
 pub struct Conductor {
     /// Unique name.
     pub name: String,
     /// Fixed potential or floating.
     pub drive: Drive,
-    /// Its outline.
+    /// Its outline (its first piece).
     pub shape: Shape,
+    /// Further pieces of the same metal, after `shape`; each may touch or overlap the others.
+    pub joined: Vec<Shape>,
+}
+
+impl Conductor {
+    /// Every piece: `shape`, then `joined` (piece p is `Item::ConductorPiece(_, p)` in errors).
+    pub fn shapes(&self) -> impl Iterator<Item = &Shape> {
+        std::iter::once(&self.shape).chain(&self.joined)
+    }
 }
 
 /// A region of different permittivity. Later dielectrics cover earlier ones.
@@ -266,8 +278,10 @@ pub enum Item {
     Sides,
     /// The `[background]` table.
     Background,
-    /// `[[conductor]]` number i (0-based, file order).
+    /// Conductor i (0-based, in the order of `Design::conductors`); its first piece.
     Conductor(usize),
+    /// Piece p >= 1 of conductor i (`joined[p - 1]`).
+    ConductorPiece(usize, usize),
     /// `[[dielectric]]` number i.
     Dielectric(usize),
     /// `[[charge]]` number i.

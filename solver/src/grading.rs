@@ -112,7 +112,7 @@ pub fn is_rectilinear(design: &Design) -> bool {
     let shapes = design
         .conductors
         .iter()
-        .map(|c| &c.shape)
+        .flat_map(|c| c.shapes())
         .chain(design.dielectrics.iter().map(|e| &e.shape))
         .chain(design.charges.iter().filter_map(|c| match c {
             crate::design::Charge::Region { shape, .. } => Some(shape),
@@ -182,7 +182,7 @@ pub fn lines(design: &Design, coarsest: f64, params: &Params) -> Result<Lines, G
     let shapes = design
         .conductors
         .iter()
-        .map(|c| (&c.shape, true))
+        .flat_map(|c| c.shapes().map(|s| (s, true)))
         .chain(design.dielectrics.iter().map(|e| (&e.shape, false)))
         .chain(design.charges.iter().filter_map(|c| match c {
             crate::design::Charge::Region { shape, .. } => Some((shape, false)),

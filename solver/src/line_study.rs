@@ -249,7 +249,8 @@ fn mirrors(design: &Design, signals: &[String]) -> (Vec<&'static str>, Vec<Warni
                     .iter()
                     .find(|c| &c.name == *sig)
                     .expect("signals checked before the study");
-                !crate::unfold::touches(design, &c.shape, axis, at)
+                !c.shapes()
+                    .any(|s| crate::unfold::touches(design, s, axis, at))
             })
             .cloned()
             .collect();
@@ -310,6 +311,7 @@ mod tests {
         d.conductors.push(Conductor {
             name: "strip".into(),
             drive: Drive::Fixed(1.0),
+            joined: Vec::new(),
             shape: Shape::Rect {
                 x: [0.0, 1e-3],
                 y: [0.5e-3, 0.6e-3],
@@ -320,6 +322,7 @@ mod tests {
             d.conductors.push(Conductor {
                 name: "other".into(),
                 drive: Drive::Fixed(0.0),
+                joined: Vec::new(),
                 shape: Shape::Rect {
                     x,
                     y: [0.5e-3, 0.6e-3],

@@ -140,7 +140,7 @@ pub fn centre(design: &Design) -> Point {
         }
     };
     for c in &design.conductors {
-        shape_corners(&c.shape).into_iter().for_each(&mut grow);
+        c.shapes().flat_map(shape_corners).for_each(&mut grow);
     }
     for q in &design.charges {
         match q {

@@ -160,6 +160,7 @@ mod tests {
         d.conductors.push(Conductor {
             name: "c".into(),
             drive: Drive::Fixed(1.0),
+            joined: Vec::new(),
             shape: Shape::Rect {
                 x: [0.3, 0.55],
                 y: [0.4, 0.41],

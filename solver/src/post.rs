@@ -243,36 +243,74 @@ fn derivative(minus: Option<(f64, f64)>, f0: f64, plus: Option<(f64, f64)>) -> f
 /// Sharp corners of the conductors, where the field is singular: unfilleted rectangle
 /// corners, the convex vertices of unfilleted polygon outlines (and the reflex vertices of
 /// their holes, which are convex as seen from the conductor), polyline ends and polyline kinks.
-/// Straight-through vertices and re-entrant corners (where the field tends to zero) are not.
+/// Straight-through vertices and re-entrant corners (where the field tends to zero) are not,
+/// nor is a corner of one piece of a conductor that another piece of it covers or meets: there
+/// the union's metal spans at least a half-plane around the point, so the field does not grow.
 pub fn sharp_corners(design: &Design) -> Vec<Point> {
+    let d = &design.domain;
+    // Points this close around a corner tell whether another piece meets it.
+    let reach = 1e-9 * (d.x[1] - d.x[0]).max(d.y[1] - d.y[0]);
     let mut out = Vec::new();
     for c in &design.conductors {
-        match &c.shape {
-            Shape::Rect { x, y, round } if *round == 0.0 => {
-                out.extend([[x[0], y[0]], [x[1], y[0]], [x[1], y[1]], [x[0], y[1]]]);
+        let pieces: Vec<crate::geometry::Outline> = if c.joined.is_empty() {
+            Vec::new()
+        } else {
+            c.shapes()
+                .map(|s| crate::geometry::outline(s).expect("a validated design"))
+                .collect()
+        };
+        for (p, shape) in c.shapes().enumerate() {
+            let first = out.len();
+            piece_corners(shape, &mut out);
+            if pieces.is_empty() {
+                continue;
             }
-            Shape::Polygon {
-                outer,
-                holes,
-                round,
-            } if *round == 0.0 => {
-                out.extend(convex_vertices(outer, true));
-                holes
-                    .iter()
-                    .for_each(|h| out.extend(convex_vertices(h, false)));
-            }
-            Shape::Polyline(pts) => {
-                let n = pts.len();
-                for (k, p) in pts.iter().enumerate() {
-                    if k == 0 || k + 1 == n || turn(pts[k - 1], *p, pts[k + 1]) != 0.0 {
-                        out.push(*p);
-                    }
-                }
-            }
-            _ => {}
+            let met = |q: &Point| {
+                let around = (0..8).map(|k| {
+                    let a = k as f64 * std::f64::consts::FRAC_PI_4;
+                    [q[0] + reach * a.cos(), q[1] + reach * a.sin()]
+                });
+                pieces.iter().enumerate().any(|(o, piece)| {
+                    o != p
+                        && std::iter::once(*q)
+                            .chain(around.clone())
+                            .any(|t| piece.contains(t))
+                })
+            };
+            let kept: Vec<Point> = out[first..].iter().copied().filter(|q| !met(q)).collect();
+            out.truncate(first);
+            out.extend(kept);
         }
     }
     out
+}
+
+/// The sharp corners of one shape (see [`sharp_corners`]).
+fn piece_corners(shape: &Shape, out: &mut Vec<Point>) {
+    match shape {
+        Shape::Rect { x, y, round } if *round == 0.0 => {
+            out.extend([[x[0], y[0]], [x[1], y[0]], [x[1], y[1]], [x[0], y[1]]]);
+        }
+        Shape::Polygon {
+            outer,
+            holes,
+            round,
+        } if *round == 0.0 => {
+            out.extend(convex_vertices(outer, true));
+            holes
+                .iter()
+                .for_each(|h| out.extend(convex_vertices(h, false)));
+        }
+        Shape::Polyline(pts) => {
+            let n = pts.len();
+            for (k, p) in pts.iter().enumerate() {
+                if k == 0 || k + 1 == n || turn(pts[k - 1], *p, pts[k + 1]) != 0.0 {
+                    out.push(*p);
+                }
+            }
+        }
+        _ => {}
+    }
 }
 
 /// Cross product of the edges into and out of `b`, zero when they are collinear to rounding.
@@ -464,6 +502,7 @@ mod tests {
             conductors: vec![Conductor {
                 name: "c".into(),
                 drive: Drive::Fixed(1.0),
+                joined: Vec::new(),
                 shape,
             }],
             ..Design::default()
@@ -526,6 +565,7 @@ mod tests {
         d.conductors.push(Conductor {
             name: "r".into(),
             drive: Drive::Fixed(-0.5),
+            joined: Vec::new(),
             shape: Shape::Rect {
                 x: [0.6, 0.83],
                 y: [0.41, 0.47],

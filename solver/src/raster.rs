@@ -21,6 +21,9 @@
 //!   from every surface. A node belongs to a conductor when its column or its row says so
 //!   (the lowest index wins should two claim it within rounding); every edge is then cut with
 //!   the intervals of its own line, so classification and crossings agree.
+//! - A conductor drawn in several pieces (one net) is their union: on each line the closed
+//!   intervals of its pieces merged where they overlap or touch, so the result is the one of a
+//!   single outline around them all.
 //! - Thin (polyline) conductors leave points on a line; a solid conductor thinner than a cell
 //!   leaves an interval inside an edge. Either gives both free ends a half-link ending on it.
 //! - Materials: dielectrics are painted in file order on the nodes of their closed regions,
@@ -147,6 +150,20 @@ impl Sections {
         Sections {
             cols: LineSets::build(o, xs, sides),
             rows: LineSets::build(&o.transposed(), ys, sides),
+        }
+    }
+
+    /// Closed cross-sections of the union of the pieces of one conductor.
+    fn union(pieces: &[Outline], xs: &[f64], ys: &[f64]) -> Sections {
+        let parts: Vec<Sections> = pieces
+            .iter()
+            .map(|o| Sections::new(o, xs, ys, false))
+            .collect();
+        let (cols, rows): (Vec<LineSets>, Vec<LineSets>) =
+            parts.into_iter().map(|s| (s.cols, s.rows)).unzip();
+        Sections {
+            cols: LineSets::union(&cols),
+            rows: LineSets::union(&rows),
         }
     }
 }
@@ -296,10 +313,10 @@ fn class_changes(
 pub fn rasterize(design: &Design, grid: &Grid) -> Raster {
     let (nx, ny) = (grid.nx, grid.ny);
     let (xs, ys) = (grid.xs(), grid.ys());
-    let cond_outlines: Vec<Outline> = design
+    let cond_outlines: Vec<Vec<Outline>> = design
         .conductors
         .iter()
-        .map(|c| outline_of(&c.shape))
+        .map(|c| c.shapes().map(outline_of).collect())
         .collect();
     let diel_outlines: Vec<Outline> = design
         .dielectrics
@@ -308,7 +325,10 @@ pub fn rasterize(design: &Design, grid: &Grid) -> Raster {
         .collect();
     let cond: Vec<Sections> = cond_outlines
         .par_iter()
-        .map(|o| Sections::new(o, xs, ys, false))
+        .map(|pieces| match pieces.as_slice() {
+            [o] => Sections::new(o, xs, ys, false),
+            _ => Sections::union(pieces, xs, ys),
+        })
         .collect();
     let diel: Vec<Sections> = diel_outlines
         .par_iter()

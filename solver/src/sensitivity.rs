@@ -78,7 +78,11 @@ pub fn with_error(d_h: f64, d_2h: f64) -> (f64, f64) {
 pub fn displacement(a: &Design, b: &Design) -> Option<f64> {
     let mut most = 0.0f64;
     let shapes = |d: &Design| -> Vec<Shape> {
-        let mut v: Vec<Shape> = d.conductors.iter().map(|c| c.shape.clone()).collect();
+        let mut v: Vec<Shape> = d
+            .conductors
+            .iter()
+            .flat_map(|c| c.shapes().cloned())
+            .collect();
         v.extend(d.dielectrics.iter().map(|c| c.shape.clone()));
         v.extend(d.charges.iter().map(|c| match c {
             Charge::Region { shape, .. } => shape.clone(),
@@ -148,6 +152,7 @@ mod tests {
             conductors: vec![Conductor {
                 name: "a".into(),
                 drive: Drive::Fixed(1.0),
+                joined: Vec::new(),
                 shape: Shape::Rect {
                     x: [0.1, x1],
                     y: [0.1, 0.2],

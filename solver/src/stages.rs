@@ -115,6 +115,7 @@ mod tests {
             conductors: vec![crate::design::Conductor {
                 name: "c".into(),
                 drive: crate::design::Drive::Fixed(1.0),
+                joined: Vec::new(),
                 shape: crate::design::Shape::Circle {
                     center: [0.5, 0.5],
                     radius: 0.2,

@@ -6,7 +6,8 @@
 //! long (equal stretches on a uniform grid), so their number grows with the cells a piece
 //! crosses; each stands for the length of its stretch. Only the parts of an outline inside the
 //! domain count (in axisymmetric mode those at r >= 0). A conductor's outline is sampled where
-//! free space lies in front of it (not where it touches another conductor or a side); a
+//! free space lies in front of it (not where it touches another conductor, a side or another
+//! piece of itself; where two pieces' outlines run together only the first is sampled); a
 //! dielectric outline where the materials on its two sides differ (not where a later
 //! dielectric or a conductor covers it). An interface gives two samples at each point, one per
 //! side, each with its material and the field in it; a conductor or a fixed side gives one,
@@ -97,7 +98,8 @@ impl Default for SurfaceParams {
 /// The material at a point: `None` inside a conductor (or outside the domain).
 struct Materials<'a> {
     design: &'a Design,
-    conductors: Vec<Outline>,
+    /// Per conductor, the outlines of its pieces.
+    conductors: Vec<Vec<Outline>>,
     dielectrics: Vec<Outline>,
     charges: Vec<(Outline, f64)>,
 }
@@ -107,7 +109,11 @@ impl<'a> Materials<'a> {
         let out = |s: &Shape| outline(s).expect("a validated design has valid shapes");
         Materials {
             design,
-            conductors: design.conductors.iter().map(|c| out(&c.shape)).collect(),
+            conductors: design
+                .conductors
+                .iter()
+                .map(|c| c.shapes().map(out).collect())
+                .collect(),
             dielectrics: design.dielectrics.iter().map(|d| out(&d.shape)).collect(),
             charges: design
                 .charges
@@ -131,7 +137,7 @@ impl<'a> Materials<'a> {
     }
 
     fn material(&self, p: Point) -> Option<u16> {
-        if !self.inside_domain(p) || self.conductors.iter().any(|o| o.contains(p)) {
+        if !self.inside_domain(p) || self.conductors.iter().flatten().any(|o| o.contains(p)) {
             return None;
         }
         let m = self.dielectrics.iter().rposition(|o| o.contains(p));
@@ -259,7 +265,16 @@ pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec
     // Conductors: the outward normal is the right of the direction of travel. A zero-thickness
     // conductor (an open path) has two faces, each sampled as a curve of its own: the right of
     // the direction of travel, then the left.
-    for (k, o) in mats.conductors.iter().enumerate() {
+    // A conductor drawn in pieces is sampled where free space lies in front of a piece (so not
+    // where one piece touches or enters another); a stretch where two pieces' outlines run
+    // together on the same side is sampled on the first of them only.
+    for (k, (q, o)) in mats
+        .conductors
+        .iter()
+        .enumerate()
+        .flat_map(|(k, pieces)| pieces.iter().enumerate().map(move |p| (k, p)))
+    {
+        let earlier = &mats.conductors[k][..q];
         let v = field.values[k];
         let faces: &[f64] = if o.open { &[1.0, -1.0] } else { &[1.0] };
         for &face in faces {
@@ -282,6 +297,11 @@ pub fn sample(field: &FieldEval, design: &Design, params: &SurfaceParams) -> Vec
                             whole = false;
                             continue;
                         };
+                        let back = [p[0] - probe * normal[0], p[1] - probe * normal[1]];
+                        if earlier.iter().any(|e| e.contains(back)) {
+                            whole = false;
+                            continue;
+                        }
                         let across = Across::Conductor {
                             potential: v,
                             material: mat,
@@ -508,14 +528,41 @@ enum Fit {
 /// these: at a polyline the largest field sits at its ends, where the lattice reads the
 /// singular edge higher than a fit to the faces (which serve the surface charge).
 pub fn without_thin_conductors(samples: &[SurfaceSample], design: &Design) -> Vec<SurfaceSample> {
+    let d = &design.domain;
+    let near = 1e-9 * (d.x[1] - d.x[0]).max(d.y[1] - d.y[0]);
     samples
         .iter()
         .filter(|s| match s.kind {
-            SurfaceKind::Conductor(k) => !matches!(design.conductors[k].shape, Shape::Polyline(_)),
+            SurfaceKind::Conductor(k) => {
+                let c = &design.conductors[k];
+                match (&c.shape, c.joined.is_empty()) {
+                    (Shape::Polyline(_), true) => false,
+                    (_, true) => true,
+                    // Pieces: a sample on a polyline piece is on a thin face.
+                    _ => !c.shapes().any(|sh| match sh {
+                        Shape::Polyline(pts) => pts
+                            .windows(2)
+                            .any(|w| distance_to_segment([s.x, s.y], w[0], w[1]) <= near),
+                        _ => false,
+                    }),
+                }
+            }
             _ => true,
         })
         .cloned()
         .collect()
+}
+
+/// Distance from `p` to the segment `a`-`b`, m.
+fn distance_to_segment(p: Point, a: Point, b: Point) -> f64 {
+    let (u, w) = ([b[0] - a[0], b[1] - a[1]], [p[0] - a[0], p[1] - a[1]]);
+    let len2 = u[0] * u[0] + u[1] * u[1];
+    let t = if len2 > 0.0 {
+        ((w[0] * u[0] + w[1] * u[1]) / len2).clamp(0.0, 1.0)
+    } else {
+        0.0
+    };
+    (w[0] - t * u[0]).hypot(w[1] - t * u[1])
 }
 
 /// Where the operator's links to conductor k cut its surface within `reach` of `at`, m.

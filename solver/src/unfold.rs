@@ -52,7 +52,7 @@ pub fn unfolding(design: &Design) -> Unfolding {
     let mut axes = [false; 2];
     let mut joined: Vec<String> = Vec::new();
     for (name, side, axis, at, mirror) in candidates {
-        let cut = |c: &crate::design::Conductor| touches(design, &c.shape, axis, at);
+        let cut = |c: &crate::design::Conductor| c.shapes().any(|s| touches(design, s, axis, at));
         if side != Side::Symmetry || !mirror || !design.conductors.iter().any(cut) {
             continue;
         }
@@ -106,11 +106,13 @@ mod tests {
                 Conductor {
                     name: "centre".into(),
                     drive: Drive::Fixed(1.0),
+                    joined: Vec::new(),
                     shape: rect([0.0, 0.3]),
                 },
                 Conductor {
                     name: "apart".into(),
                     drive: Drive::Fixed(0.0),
+                    joined: Vec::new(),
                     shape: rect([0.5, 0.7]),
                 },
             ],

@@ -8,6 +8,7 @@ mod bad_input;
 mod command;
 mod compare;
 mod csv_roundtrip;
+mod nets;
 mod pictures;
 mod robustness;
 mod spice;

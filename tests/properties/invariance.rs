@@ -185,6 +185,7 @@ fn polygon_vertex_order_does_not_matter() {
                 Some(_) => d.conductors.push(Conductor {
                     name: "poly".into(),
                     drive: Drive::Fixed(1.0),
+                    joined: Vec::new(),
                     shape: s,
                 }),
                 None => d.dielectrics[0].shape = s,

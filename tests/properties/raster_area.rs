@@ -59,6 +59,7 @@ fn rasterised_polygon_area_matches_its_geometric_area_within_the_cut_cell_error(
                 conductors: vec![Conductor {
                     name: "p".into(),
                     drive: Drive::Fixed(1.0),
+                    joined: Vec::new(),
                     shape: Shape::Polygon {
                         outer: poly.clone(),
                         holes: Vec::new(),

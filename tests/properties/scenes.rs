@@ -138,6 +138,7 @@ impl Scene {
                     Drive::Fixed(10.0 * v[k] - 5.0)
                 },
                 shape: shape_in(self.kinds[k], &self.shapes[k], boxes[k]),
+                joined: Vec::new(),
             })
             .collect();
         let dx = [0.3 * v[4], 0.3 * v[4] + 0.2 + 0.5 * v[5]];

@@ -151,6 +151,7 @@ fn planar_problem(n: usize) -> Problem {
             conductors: vec![Conductor {
                 name: "circle".into(),
                 drive: Drive::Fixed(0.0),
+                joined: Vec::new(),
                 shape: Shape::Circle {
                     center: C,
                     radius: A,
@@ -185,6 +186,7 @@ fn axi_problem(n: usize) -> Problem {
             conductors: vec![Conductor {
                 name: "sphere".into(),
                 drive: Drive::Fixed(0.0),
+                joined: Vec::new(),
                 shape: Shape::Circle {
                     center: [0.0, ZC],
                     radius: RA,

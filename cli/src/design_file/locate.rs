@@ -20,7 +20,8 @@ pub(super) fn item_node(tree: &Node, item: Item) -> Option<(&Node, String)> {
         Item::Grid => ("grid", None),
         Item::Sides => ("sides", None),
         Item::Background => ("background", None),
-        Item::Conductor(i) => ("conductor", Some(i)),
+        Item::Conductor(i) => ("conductor", conductor_table(top, i, 0)),
+        Item::ConductorPiece(i, p) => ("conductor", conductor_table(top, i, p)),
         Item::Dielectric(i) => ("dielectric", Some(i)),
         Item::Charge(i) => ("charge", Some(i)),
         Item::Probe(i) => ("probe", Some(i)),
@@ -34,6 +35,30 @@ pub(super) fn item_node(tree: &Node, item: Item) -> Option<(&Node, String)> {
             _ => None,
         },
     }
+}
+
+/// The index among the `[[conductor]]` tables of piece `p` of conductor `i`: tables with one
+/// name are the pieces of one conductor, conductors numbered by their first table.
+fn conductor_table(top: &[super::spans::Entry], i: usize, p: usize) -> Option<usize> {
+    let Kind::Array(tables) = &get(top, "conductor")?.node.kind else {
+        return None;
+    };
+    let name = |t: &Node| match t
+        .entries()
+        .and_then(|e| get(e, "name"))
+        .map(|e| &e.node.kind)
+    {
+        Some(Kind::Str(s)) => Some(s.clone()),
+        _ => None,
+    };
+    let names: Vec<Option<String>> = tables.iter().map(name).collect();
+    let firsts: Vec<usize> = (0..names.len())
+        .filter(|&k| !names[..k].contains(&names[k]))
+        .collect();
+    let first = *firsts.get(i)?;
+    (first..names.len())
+        .filter(|&k| names[k] == names[first])
+        .nth(p)
 }
 
 /// An error about `key` of `item`, placed at that key (searched in the item's table, then one

@@ -4,7 +4,9 @@
 //!
 //! Invariants: sections are read in the order that makes later ones well defined (unit and
 //! mode, then parameters, then the grid, whose cell size ties SVG flattening); names are
-//! unique within each kind of item; an axisymmetric design's left side is the axis.
+//! unique within each kind of item, except that `[[conductor]]` tables sharing a name are the
+//! pieces of one conductor (one net) and must give it one potential; an axisymmetric
+//! design's left side is the axis.
 
 /// Longest name of a conductor, dielectric, probe or charge, bytes (names are written into
 /// every row of the result tables and onto the pictures).
@@ -105,11 +107,14 @@ impl Reader<'_> {
         if let Some(e) = get(top, "background") {
             d.background = self.background(&e.node)?;
         }
-        let mut names = Names::default();
-        for (i, node) in self.items(top, "conductor")?.iter().enumerate() {
+        // Tables with one name are the pieces of one conductor (one net), at one potential.
+        for node in self.items(top, "conductor")? {
             let c = self.conductor(node)?;
-            names.check(self, &c.name, node, "conductor", i)?;
-            d.conductors.push(c);
+            match d.conductors.iter_mut().find(|o| o.name == c.name) {
+                None => d.conductors.push(c),
+                Some(first) if first.drive == c.drive => first.joined.push(c.shape),
+                Some(first) => return Err(self.unequal_pieces(node, first, &c)),
+            }
         }
         let mut names = Names::default();
         for (i, node) in self.items(top, "dielectric")?.iter().enumerate() {
@@ -463,7 +468,37 @@ impl Reader<'_> {
             }
         };
         let shape = self.shape(t, node, p, Owner::Conductor)?;
-        Ok(Conductor { name, drive, shape })
+        Ok(Conductor {
+            name,
+            drive,
+            shape,
+            joined: Vec::new(),
+        })
+    }
+
+    /// A piece of a conductor whose potential differs from its first piece's.
+    fn unequal_pieces(&self, node: &Node, first: &Conductor, piece: &Conductor) -> InputError {
+        let t = node.entries().unwrap_or(&[]);
+        let at = get(t, "potential")
+            .or_else(|| get(t, "floating"))
+            .map_or_else(|| table_span(node), |e| e.key_span.clone());
+        let says = |d: Drive| match d {
+            Drive::Fixed(v) => format!("potential {v} V"),
+            Drive::Floating => "floating".to_string(),
+        };
+        self.err(
+            &at,
+            "conductor.potential",
+            format!(
+                "conductor `{}` is drawn in several pieces (tables with one name form one \
+                 conductor), so every piece needs the same potential: its first piece is {}, \
+                 this one {}; give them one potential, or different names if they are separate \
+                 conductors",
+                piece.name,
+                says(first.drive),
+                says(piece.drive)
+            ),
+        )
     }
 
     pub(super) fn dielectric(&self, node: &Node) -> Res<Dielectric> {

@@ -107,6 +107,33 @@ impl LineSets {
         s
     }
 
+    /// The closed cross-sections of the union of several regions (the pieces of one
+    /// conductor): on each line the union of their closed intervals, overlapping or touching
+    /// ones merged. Closed sections only: the one-sided ones are left empty.
+    pub(crate) fn union(parts: &[LineSets]) -> LineSets {
+        let spans: Vec<(usize, usize)> = parts
+            .iter()
+            .map(LineSets::span)
+            .filter(|s| s.0 < s.1)
+            .collect();
+        let mut s = LineSets::default();
+        let (Some(lo), Some(hi)) = (
+            spans.iter().map(|s| s.0).min(),
+            spans.iter().map(|s| s.1).max(),
+        ) else {
+            return s;
+        };
+        s.first = lo;
+        let mut cl = Vec::new();
+        for m in lo..hi {
+            cl.clear();
+            parts.iter().for_each(|p| cl.extend_from_slice(p.closed(m)));
+            merge(&mut cl);
+            s.closed.push_line(&cl);
+        }
+        s
+    }
+
     /// Index of the first line that meets the outline, and one past the last.
     pub(crate) fn span(&self) -> (usize, usize) {
         (
@@ -202,6 +229,45 @@ mod tests {
         assert_eq!(s.closed(1), &[[0.5, 0.5]]);
         assert_eq!(s.closed(2), &[[1.0, 2.0]]);
         assert_eq!(s.closed(3), &[[2.0, 2.0]]);
+    }
+
+    #[test]
+    fn union_of_touching_and_overlapping_pieces_is_the_merged_region() {
+        let rect = |x: [f64; 2], y: [f64; 2]| outline(&Shape::Rect { x, y, round: 0.0 }).unwrap();
+        let lines = [0.0, 1.0, 2.0, 3.0, 4.0];
+        // A pour [0, 4] x [0, 1] with a post [1, 2] x [1, 3] standing on it, and a post
+        // [3, 4] x [0.5, 2] sunk into it: the union equals the one outline of them all.
+        let parts: Vec<LineSets> = [
+            rect([0.0, 4.0], [0.0, 1.0]),
+            rect([1.0, 2.0], [1.0, 3.0]),
+            rect([3.0, 4.0], [0.5, 2.0]),
+        ]
+        .iter()
+        .map(|o| LineSets::build(o, &lines, false))
+        .collect();
+        let whole = outline(&Shape::Polygon {
+            outer: vec![
+                [0.0, 0.0],
+                [4.0, 0.0],
+                [4.0, 2.0],
+                [3.0, 2.0],
+                [3.0, 1.0],
+                [2.0, 1.0],
+                [2.0, 3.0],
+                [1.0, 3.0],
+                [1.0, 1.0],
+                [0.0, 1.0],
+            ],
+            holes: vec![],
+            round: 0.0,
+        })
+        .unwrap();
+        let one = LineSets::build(&whole, &lines, false);
+        let u = LineSets::union(&parts);
+        assert_eq!(u.span(), one.span());
+        for m in 0..lines.len() {
+            assert_eq!(u.closed(m), one.closed(m), "line {m}");
+        }
     }
 
     #[test]

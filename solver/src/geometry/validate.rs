@@ -42,6 +42,15 @@ fn permittivity_out_of_range(eps: f64) -> Option<String> {
     })
 }
 
+/// The item of piece `p` of conductor `i` in errors.
+fn piece_item(i: usize, p: usize) -> Item {
+    if p == 0 {
+        Item::Conductor(i)
+    } else {
+        Item::ConductorPiece(i, p)
+    }
+}
+
 /// Checks the geometric and physical rules of the contract (see [`crate::design::validate`]).
 pub fn validate_design(d: &Design) -> Result<(), DesignError> {
     let axisymmetric = d.mode == Mode::Axisymmetric;
@@ -170,12 +179,13 @@ pub fn validate_design(d: &Design) -> Result<(), DesignError> {
         tol: 1e-12 * scale,
     };
 
-    let mut outlines: Vec<Outline> = Vec::with_capacity(d.conductors.len());
+    // Every piece of every earlier conductor; the pieces of one conductor may touch and
+    // overlap each other (the conductor is their union), pieces of two conductors may not.
+    let mut outlines: Vec<(usize, Outline)> = Vec::new();
     for (i, c) in d.conductors.iter().enumerate() {
-        let item = Item::Conductor(i);
         if d.conductors[..i].iter().any(|o| o.name == c.name) {
             return Err(err(
-                item,
+                Item::Conductor(i),
                 "name",
                 format!("a conductor named `{}` already exists", c.name),
             ));
@@ -183,30 +193,33 @@ pub fn validate_design(d: &Design) -> Result<(), DesignError> {
         if let Drive::Fixed(v) = c.drive {
             if !v.is_finite() {
                 return Err(err(
-                    item,
+                    Item::Conductor(i),
                     "potential",
                     format!("the potential must be a finite number, got {v}"),
                 ));
             }
         }
-        let o = checked_outline(&c.shape, &ctx, item)?;
-        for (j, prev) in outlines.iter().enumerate() {
-            if let Some(how) = overlap(prev, &o, &ctx) {
-                let key = shape_key(&c.shape);
-                return Err(err(
-                    item,
-                    key,
-                    format!(
-                        "conductor `{}` {how} conductor `{}`: conductors must not touch or \
-                         overlap; if they are one piece of metal (a pour and its via fence, \
-                         say), draw them as one `polygon` that outlines both, and if they are \
-                         separate, leave a gap between them",
-                        c.name, d.conductors[j].name
-                    ),
-                ));
+        let mine = outlines.len();
+        for (p, shape) in c.shapes().enumerate() {
+            let item = piece_item(i, p);
+            let o = checked_outline(shape, &ctx, item)?;
+            for (j, prev) in &outlines[..mine] {
+                if let Some(how) = overlap(prev, &o, &ctx) {
+                    return Err(err(
+                        item,
+                        shape_key(shape),
+                        format!(
+                            "conductor `{}` {how} conductor `{}`: two conductors must not touch \
+                             or overlap; if they are one piece of metal (a pour and its via \
+                             fence, say), give both the same `name` and potential so they form \
+                             one conductor, and if they are separate, leave a gap between them",
+                            c.name, d.conductors[*j].name
+                        ),
+                    ));
+                }
             }
+            outlines.push((i, o));
         }
-        outlines.push(o);
     }
     for (i, e) in d.dielectrics.iter().enumerate() {
         let item = Item::Dielectric(i);

@@ -137,6 +137,7 @@ fn wire_over_ground(a: f64, h: f64, reach: f64, cell: f64) -> Design {
         conductors: vec![Conductor {
             name: "wire".into(),
             drive: Drive::Fixed(1.0),
+            joined: Vec::new(),
             shape: Shape::Circle {
                 center: [0.0, h],
                 radius: a,
@@ -217,6 +218,7 @@ fn sphere_in_open_box(a: f64, reach: f64, cell: f64) -> Design {
         conductors: vec![Conductor {
             name: "ball".into(),
             drive: Drive::Fixed(1.0),
+            joined: Vec::new(),
             shape: Shape::Circle {
                 center: [0.0, 0.0],
                 radius: a,
@@ -297,6 +299,7 @@ fn wire_design(sides: Sides) -> Design {
         conductors: vec![Conductor {
             name: "w".into(),
             drive: Drive::Fixed(1.0),
+            joined: Vec::new(),
             shape: Shape::Circle {
                 center: [0.2, 0.5],
                 radius: 0.1,

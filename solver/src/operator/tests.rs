@@ -51,6 +51,7 @@ fn conductor(name: &str, v: f64, shape: Shape) -> Conductor {
     Conductor {
         name: name.into(),
         drive: Drive::Fixed(v),
+        joined: Vec::new(),
         shape,
     }
 }

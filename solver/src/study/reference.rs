@@ -115,6 +115,7 @@ mod tests {
             conductors: vec![Conductor {
                 name: "pad".into(),
                 drive: Drive::Fixed(pad),
+                joined: Vec::new(),
                 shape: Shape::Rect {
                     x: [0.4, 0.6],
                     y: [0.4, 0.6],

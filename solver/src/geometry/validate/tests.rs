@@ -19,6 +19,7 @@ fn cond(name: &str, shape: Shape) -> Conductor {
     Conductor {
         name: name.into(),
         drive: Drive::Fixed(1.0),
+        joined: Vec::new(),
         shape,
     }
 }
@@ -125,6 +126,7 @@ fn conductor_number_rules() {
     d.conductors.push(Conductor {
         name: "a".into(),
         drive: Drive::Fixed(f64::NAN),
+        joined: Vec::new(),
         shape: rect([1.0, 2.0], [1.0, 2.0]),
     });
     fails(&d, Item::Conductor(0), "potential");

@@ -26,6 +26,7 @@ fn conductor(name: &str, shape: Shape) -> Conductor {
     Conductor {
         name: name.into(),
         drive: Drive::Fixed(1.0),
+        joined: Vec::new(),
         shape,
     }
 }
