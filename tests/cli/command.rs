@@ -126,7 +126,10 @@ fn non_convergence_exits_3_with_results_written_and_flagged() {
 #[test]
 fn check_reports_grid_without_solving() {
     let dir = scratch(SCRATCH, "check");
-    let design = write(&dir, "plates.toml", PLATES);
+    // Asked for uniform: the report of equal cells (one cell size, 4 mm / 0.1 mm cells) is
+    // the subject; graded grids' reports are checked by robustness::stretched_cells.
+    let uniform = PLATES.replacen("[grid]\n", "[grid]\nlattice = \"uniform\"\n", 1);
+    let design = write(&dir, "plates.toml", &uniform);
     let out = dir.join("out");
     expect(
         run(&["check", &design, "--out", out.to_str().unwrap(), "--quiet"]),
@@ -417,5 +420,44 @@ fn check_takes_the_memory_limit_it_reports_against() {
     expect(
         run(&["check", &design, "--quiet", "--max-memory", "0.01"]),
         2,
+    );
+}
+
+#[test]
+fn a_uniform_lattice_reproduces_the_former_default_bit_for_bit() {
+    // The subject is the uniform lattice itself (so it is asked for by name, whatever the
+    // default): the microstrip demo on its uniform lattice of cell 0.015 mm, and the numbers
+    // the version before graded lattices existed wrote to summary.json, bit for bit.
+    let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("..");
+    let text = std::fs::read_to_string(root.join("geometries/microstrip.toml")).unwrap();
+    let (head, tail) = text.split_once("\ncell = ").expect("one cell line");
+    let tail = tail.split_once('\n').expect("a line after the cell").1;
+    let text = format!("{head}\ncell = 0.015\nlattice = \"uniform\"\n{tail}");
+    let dir = scratch(SCRATCH, "uniform-bits");
+    let design = write(&dir, "microstrip.toml", &text);
+    let out = dir.join("out");
+    expect(
+        run(&[
+            "impedance",
+            &design,
+            "--signal",
+            "trace",
+            "--out",
+            out.to_str().unwrap(),
+            "--quiet",
+        ]),
+        0,
+    );
+    let v = summary(&out);
+    let bits = |x: &serde_json::Value| x.as_f64().expect("number").to_bits();
+    assert_eq!(bits(&v["line"]["z0"]), 49.87667891780741f64.to_bits());
+    assert_eq!(bits(&v["line"]["eps_eff"]), 2.7564536414598546f64.to_bits());
+    assert_eq!(
+        bits(&v["line"]["error_estimate"]["z0"]),
+        0.05545577929173436f64.to_bits()
+    );
+    assert_eq!(
+        bits(&v["capacitance"]["matrix"][0][0]),
+        5.5517144456218735e-11f64.to_bits()
     );
 }
