@@ -175,6 +175,12 @@ pub struct SensitivityArgs {
     /// Seed of --monte-carlo.
     #[arg(long, default_value_t = 1, value_name = "SEED")]
     pub seed: u64,
+    /// I/K (0 <= I < K): solve only the --monte-carlo samples k with k % K == I and append
+    /// them to --out's sweep.csv (a re-run resumes), for a batch scheduler's array task;
+    /// join the shards with `fieldgrid sweep --merge`, which gives the statistics of the
+    /// unsharded run. Nothing else is solved but the nominal design.
+    #[arg(long, value_name = "I/K")]
+    pub shard: Option<String>,
     /// Also solve every corner of the tolerance box (2^k solves for k toleranced
     /// parameters, at most 6) and give each quantity's extremes there.
     #[arg(long)]

@@ -16,9 +16,13 @@
 //! a crate because its exact stream is part of the results (the same seed gives the same
 //! samples, bit for bit, in every version of this library).
 //!
+//! The generator's state after m steps is the seed plus m times its constant, so draw m of
+//! the stream is computed directly ([`SplitMix64::draw`]): sample k ([`sample`]) needs no
+//! earlier sample, and the samples of a run divided into shards are those of the whole run.
+//!
 //! Invariants: `low <= nominal <= high` for every spread; samples depend only on the seed,
-//! the count and the nominal values and tolerances, and sample k is the same whatever the
-//! count.
+//! the nominal values and tolerances and their own index, so sample k is the same whatever
+//! the count and whichever samples are drawn before it.
 
 /// The spread of one quantity under the tolerances.
 #[derive(Clone, Debug, PartialEq)]
@@ -82,33 +86,54 @@ impl SplitMix64 {
 
     /// The next 64 random bits.
     pub fn next_u64(&mut self) -> u64 {
-        self.state = self.state.wrapping_add(0x9E37_79B9_7F4A_7C15);
-        let mut z = self.state;
-        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-        z ^ (z >> 31)
+        self.state = self.state.wrapping_add(GAMMA);
+        mix(self.state)
     }
 
     /// A number uniform in [0, 1): the top 53 bits.
     pub fn next_unit(&mut self) -> f64 {
-        (self.next_u64() >> 11) as f64 * (1.0 / (1u64 << 53) as f64)
+        unit(self.next_u64())
+    }
+
+    /// Draw `m` (counted from 0) of the stream seeded with `seed`, as [`Self::next_unit`]
+    /// gives it after m earlier draws, without them.
+    pub fn draw(seed: u64, m: u64) -> f64 {
+        unit(mix(seed.wrapping_add(m.wrapping_add(1).wrapping_mul(GAMMA))))
     }
 }
 
+/// SplitMix64's increment of the state (the odd constant 2^64 / golden ratio).
+const GAMMA: u64 = 0x9E37_79B9_7F4A_7C15;
+
+/// SplitMix64's output function of a state.
+fn mix(mut z: u64) -> u64 {
+    z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
+    z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
+    z ^ (z >> 31)
+}
+
+/// 64 random bits to a number uniform in [0, 1): the top 53 bits.
+fn unit(bits: u64) -> f64 {
+    (bits >> 11) as f64 * (1.0 / (1u64 << 53) as f64)
+}
+
 /// `count` parameter points, each parameter uniform in [nominal - tol, nominal + tol], from
-/// the generator seeded with `seed`. Sample k holds the draws k * n .. (k + 1) * n of the
-/// stream (n parameters), so the first samples do not change when `count` grows.
+/// the generator seeded with `seed`: samples 0 to count - 1 of [`sample`].
 pub fn samples(nominal: &[f64], tol: &[f64], count: usize, seed: u64) -> Vec<Vec<f64>> {
+    (0..count).map(|k| sample(nominal, tol, seed, k)).collect()
+}
+
+/// Sample `k` (counted from 0) of the parameter points of [`samples`]: the draws k * n ..
+/// (k + 1) * n of the stream seeded with `seed` (n parameters), parameter i uniform in
+/// [nominal_i - tol_i, nominal_i + tol_i].
+pub fn sample(nominal: &[f64], tol: &[f64], seed: u64, k: usize) -> Vec<f64> {
     assert_eq!(nominal.len(), tol.len(), "one tolerance per parameter");
-    let mut rng = SplitMix64::new(seed);
-    (0..count)
-        .map(|_| {
-            nominal
-                .iter()
-                .zip(tol)
-                .map(|(p, t)| p + t * (2.0 * rng.next_unit() - 1.0))
-                .collect()
-        })
+    let first = (k as u64).wrapping_mul(nominal.len() as u64);
+    nominal
+        .iter()
+        .zip(tol)
+        .enumerate()
+        .map(|(i, (p, t))| p + t * (2.0 * SplitMix64::draw(seed, first + i as u64) - 1.0))
         .collect()
 }
 
@@ -218,6 +243,26 @@ mod tests {
             .collect();
         let st = stats(&u).unwrap();
         assert!(st.mean.abs() < 0.02 && (st.std - 3f64.sqrt().recip()).abs() < 0.01);
+    }
+
+    #[test]
+    fn sample_k_is_the_stream_read_in_order() {
+        // The stream read one draw after another, as the generator gives it.
+        let mut rng = SplitMix64::new(99);
+        let (nominal, tol) = ([1.0, 5.0, -2.0], [0.1, 0.5, 0.3]);
+        for k in 0..50 {
+            let read: Vec<f64> = nominal
+                .iter()
+                .zip(&tol)
+                .map(|(p, t)| p + t * (2.0 * rng.next_unit() - 1.0))
+                .collect();
+            assert_eq!(sample(&nominal, &tol, 99, k), read, "sample {k}");
+        }
+        // Any subset, in any order, draws the same points: a run divided into shards.
+        let all = samples(&nominal, &tol, 12, 5);
+        for k in (0..12).rev().filter(|k| k % 3 == 1) {
+            assert_eq!(sample(&nominal, &tol, 5, k), all[k]);
+        }
     }
 
     #[test]

@@ -443,3 +443,187 @@ fn vertices_give_the_exact_extremes_of_a_nonlinear_result() {
     assert_eq!(code, 2);
     assert!(message.contains("--vertices needs tolerances"), "{message}");
 }
+
+/// A coaxial line whose domain does not move with its radii, so that every sample starts
+/// from the nominal solves.
+const COAX: &str = r#"
+unit = "mm"
+[parameters]
+a = 1.0
+b = 2.5
+[tolerances]
+a = 0.02
+b = 0.03
+[grid]
+x = [-2.8, 2.8]
+y = [-2.8, 2.8]
+cell = 0.05
+[[conductor]]
+name = "inner"
+potential = 1.0
+circle = { center = [0.0, 0.0], radius = "a" }
+[[conductor]]
+name = "outer"
+potential = 0.0
+ring = { center = [0.0, 0.0], inner = "b", outer = 2.8 }
+"#;
+
+#[test]
+fn monte_carlo_shards_merged_give_the_unsharded_statistics_bit_for_bit() {
+    let dir = scratch(SCRATCH, "monte-carlo-shards");
+    let design = write(&dir, "coax.toml", COAX);
+    let mc = |out: &std::path::Path, extra: &[&str]| {
+        let mut args = vec![
+            "solve",
+            design.as_str(),
+            "--monte-carlo",
+            "5",
+            "--seed",
+            "11",
+            "--out",
+            s(out),
+            "--quiet",
+            "--no-error-estimate",
+        ];
+        args.extend_from_slice(extra);
+        run(&args)
+    };
+    let whole = dir.join("whole");
+    expect(mc(&whole, &[]), 0);
+    let shards: Vec<_> = (0..3).map(|i| dir.join(format!("shard-{i}"))).collect();
+    // Shards run in any order; one runs twice (the second run resumes: nothing left).
+    for i in [2, 0, 1, 1] {
+        expect(mc(&shards[i], &["--shard", &format!("{i}/3")]), 0);
+    }
+    let rows = |d: &std::path::Path| std::fs::read_to_string(d.join("sweep.csv")).unwrap();
+    assert_eq!(
+        rows(&shards[1]).lines().count(),
+        3,
+        "samples 1 and 4, once each"
+    );
+    let all = dir.join("all");
+    let mut merge = vec!["sweep", "--merge"];
+    merge.extend(shards.iter().rev().map(|d| s(d)));
+    merge.extend(["--out", s(&all), "--quiet"]);
+    expect(run(&merge), 0);
+    // Sample k is drawn from the seed and k alone and solved from the nominal solves in every
+    // shard: the merged table is the unsharded one, text for text, and so are the statistics.
+    let read = |p: std::path::PathBuf| std::fs::read(p).unwrap();
+    assert_eq!(
+        read(all.join("sweep.csv")),
+        read(whole.join("monte_carlo.csv"))
+    );
+    let stats = read(all.join("monte_carlo_statistics.csv"));
+    assert_eq!(stats, read(whole.join("monte_carlo_statistics.csv")));
+    // ... and equal to the summary's, bit for bit.
+    let sum = summary(&whole);
+    let text = String::from_utf8(stats).unwrap();
+    let line = text
+        .lines()
+        .find(|l| l.starts_with("\"C[inner,inner]\""))
+        .unwrap();
+    let cells: Vec<f64> = line
+        .rsplit(',')
+        .take(4)
+        .map(|c| c.parse().unwrap())
+        .collect();
+    let m = &sum["tolerances"]["quantities"]["C[inner,inner]"]["monte_carlo"];
+    let (mean, std, min, max) = (cells[3], cells[2], cells[1], cells[0]);
+    assert_eq!(m["count"], 5);
+    // The JSON's numbers read by the standard library's parser (correctly rounded; the JSON
+    // reader's default one may miss by a unit in the last place).
+    let json = std::fs::read_to_string(whole.join("summary.json")).unwrap();
+    let path = ["tolerances", "quantities", "C[inner,inner]", "monte_carlo"];
+    assert_eq!(
+        [mean, std, min, max],
+        ["mean", "std", "min", "max"].map(|k| raw_number(&json, &[&path[..], &[k]].concat()))
+    );
+    // Every sample started from the nominal solves, and its result is that of a solve
+    // started from zero, to the solver's tolerance.
+    let solves = &sum["perturbed_solves"];
+    assert_eq!(
+        solves["studies"],
+        4 * 2 + 5,
+        "two pairs per parameter, five samples"
+    );
+    assert_eq!(solves["warm_starts"], solves["studies"]);
+    let table = rows(&all);
+    let sample = table.lines().nth(3).unwrap();
+    let cell: Vec<&str> = sample.split(',').collect();
+    let (a, b, c): (f64, f64, f64) = (
+        cell[1].parse().unwrap(),
+        cell[2].parse().unwrap(),
+        cell[3].parse().unwrap(),
+    );
+    let cold = dir.join("cold");
+    let (sa, sb) = (format!("a={a:e}"), format!("b={b:e}"));
+    expect(
+        run(&[
+            "solve",
+            &design,
+            "--set",
+            &sa,
+            "--set",
+            &sb,
+            "--out",
+            s(&cold),
+            "--quiet",
+            "--no-error-estimate",
+        ]),
+        0,
+    );
+    let c_cold = summary(&cold)["capacitance"]["matrix"][0][0]
+        .as_f64()
+        .unwrap();
+    // Both stop at a relative residual of 1e-8 (measured: 1e-7 apart in C).
+    assert!((c - c_cold).abs() <= 1e-6 * c_cold, "{c:e} {c_cold:e}");
+
+    // Parts of another run (another seed) are refused, and so are --shard without
+    // --monte-carlo and --shard with --sensitivity.
+    let other = dir.join("other");
+    expect(
+        run(&[
+            "solve",
+            &design,
+            "--monte-carlo",
+            "5",
+            "--seed",
+            "12",
+            "--shard",
+            "0/3",
+            "--out",
+            s(&other),
+            "--quiet",
+            "--no-error-estimate",
+        ]),
+        0,
+    );
+    let bad_out = dir.join("bad");
+    let mut bad = vec!["sweep", "--merge", s(&other)];
+    bad.extend(shards[1..].iter().map(|d| s(d)));
+    bad.extend(["--out", s(&bad_out), "--quiet"]);
+    expect(run(&bad), 2);
+    let refused = |extra: &[&str]| {
+        let mut args = vec!["solve", design.as_str(), "--out", s(&other)];
+        args.extend_from_slice(extra);
+        failure_of(&args).unwrap_err().0
+    };
+    assert_eq!(refused(&["--shard", "0/2"]), 2);
+    assert_eq!(
+        refused(&["--monte-carlo", "4", "--sensitivity", "--shard", "0/2"]),
+        2
+    );
+}
+
+/// The number at the end of a path of keys in JSON text, each key searched for after the
+/// previous one (enough for the files written here, whose keys are unique along the path).
+fn raw_number(text: &str, path: &[&str]) -> f64 {
+    let mut at = 0;
+    for key in path {
+        let quoted = format!("\"{key}\"");
+        at += text[at..].find(&quoted).expect("key present") + quoted.len();
+    }
+    let rest = text[at..].trim_start_matches([':', ' ']);
+    let end = rest.find([',', '\n', '}']).expect("a number");
+    rest[..end].trim().parse().expect("a number")
+}

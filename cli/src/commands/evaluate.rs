@@ -20,7 +20,7 @@ use crate::design_file::DesignSource;
 use crate::error::Failure;
 use crate::summary::Summary;
 use fieldgrid_solver::design::Mode;
-use fieldgrid_solver::line_study::{self, LineStudy};
+use fieldgrid_solver::line_study::{self, LineStudy, LineWarmStart};
 use fieldgrid_solver::study::{self, Solution, StudyParams};
 use std::path::Path;
 use std::time::Instant;
@@ -42,6 +42,51 @@ pub struct Setup<'a> {
     pub vacuum_warm_start: Option<std::sync::Arc<fieldgrid_solver::study::WarmStart>>,
 }
 
+impl Setup<'_> {
+    /// These settings with every solve started from the nominal solves `start` (each study
+    /// from its own: the design's, and a line study's with every permittivity 1), keeping
+    /// none.
+    pub fn started_from(&self, start: &LineWarmStart) -> Setup<'_> {
+        let mut params = self.params.clone();
+        params.warm_start = start.design.clone();
+        params.keep_warm_start = false;
+        Setup {
+            design: self.design,
+            base: self.base.clone(),
+            params,
+            opts: self.opts,
+            signals: self.signals.clone(),
+            vacuum_warm_start: start.vacuum.clone(),
+        }
+    }
+}
+
+/// The solves around a nominal design: how many, how many started from the nominal
+/// solves, and their iterations on the fine lattices.
+#[derive(Clone, Copy, Debug, Default, PartialEq)]
+pub struct Solves {
+    /// Designs solved (a line study counts once).
+    pub studies: usize,
+    /// Those whose lattice fitted the nominal solves, started from them.
+    pub warm_starts: usize,
+    /// Iterations of every linear solve on the fine lattices.
+    pub iterations: usize,
+}
+
+impl Solves {
+    /// Counts one evaluation started from `start`.
+    pub fn count(&mut self, ev: &Evaluation, start: &LineWarmStart) {
+        let sol = ev.solved.solution();
+        self.studies += 1;
+        self.iterations += ev.iterations();
+        let fits = start
+            .design
+            .as_ref()
+            .is_some_and(|w| w.fits(&sol.grid, sol.conductors.len()));
+        self.warm_starts += usize::from(fits);
+    }
+}
+
 /// The solved results of one evaluation.
 pub enum Solved {
     /// A plain study.
@@ -56,6 +101,17 @@ impl Solved {
         match self {
             Solved::Study(s) => s,
             Solved::Line(l) => &l.solution,
+        }
+    }
+
+    /// The solves kept to start nearby designs from (when the study settings asked).
+    pub fn warm_start(&self) -> LineWarmStart {
+        match self {
+            Solved::Study(s) => LineWarmStart {
+                design: s.warm_start.clone(),
+                vacuum: None,
+            },
+            Solved::Line(l) => l.warm_start(),
         }
     }
 }
@@ -111,6 +167,14 @@ pub fn find<'q>(list: &'q [Named], name: &str) -> Option<&'q Named> {
     list.iter()
         .find(|q| q.name == name)
         .or_else(|| list.iter().find(|q| q.name.eq_ignore_ascii_case(name)))
+}
+
+/// The values in `list` of the quantities named as in `nominal` (NaN where missing).
+pub fn pick(nominal: &[Named], list: &[Named]) -> Vec<f64> {
+    nominal
+        .iter()
+        .map(|q| find(list, &q.name).map_or(f64::NAN, |x| x.value))
+        .collect()
 }
 
 /// The message for a quantity name that `list` does not hold.
@@ -181,7 +245,7 @@ pub fn evaluate(setup: &Setup, values: &[(String, f64)]) -> Result<Evaluation, F
             0.0,
         )
         .map_err(at)?;
-        let guess = line_study::LineWarmStart {
+        let guess = LineWarmStart {
             design: setup.params.warm_start.clone(),
             vacuum: (setup.vacuum_warm_start.clone()).or_else(|| setup.params.warm_start.clone()),
         };

@@ -5,6 +5,8 @@ pub mod check;
 pub mod compare;
 pub mod evaluate;
 pub mod impedance;
+pub mod monte_carlo;
+pub mod monte_carlo_run;
 pub mod sensitivities;
 pub mod solve;
 pub mod sweep;

@@ -16,7 +16,9 @@
 //! low and high, rss, dominant parameter, `monte_carlo` statistics and, with `--vertices`,
 //! the extremes over the corners of the tolerance box);
 //! `sensitivities.csv` (one row per quantity and parameter) and `tolerances.csv` (one row
-//! per quantity).
+//! per quantity); with `--monte-carlo`, `monte_carlo.csv` (every sample) and
+//! `monte_carlo_statistics.csv` ([`super::monte_carlo`]). With `--shard I/K` only that
+//! shard's samples are solved, as a part of a sweep ([`super::monte_carlo_run::shard`]).
 //!
 //! Every solve around the nominal design (paired, Monte Carlo, corner) starts from the
 //! nominal solves when its lattice has their node counts (a line study's two studies each
@@ -28,7 +30,9 @@
 //! start from (a start changes the iterations, not the accuracy); Monte Carlo samples
 //! depend only on the seed, the count and the tolerances.
 
-use super::evaluate::{self, Named, Setup};
+use super::evaluate::{self, Named, Setup, Solves};
+use super::monte_carlo;
+use super::monte_carlo_run;
 use crate::args::{ImpedanceArgs, SensitivityArgs, SolveArgs};
 use crate::design_file::DesignSource;
 use crate::error::Failure;
@@ -36,9 +40,10 @@ use crate::outdir::{csv_bytes, num, OutDir};
 use fieldgrid_solver::line_study::LineWarmStart;
 use fieldgrid_solver::{sensitivity, tolerance};
 use serde_json::{json, Map, Value};
+use std::collections::BTreeMap;
 
 /// Most Monte Carlo points.
-pub const MAX_MONTE_CARLO: usize = 10_000;
+pub const MAX_MONTE_CARLO: usize = monte_carlo::MAX_SAMPLES;
 
 /// The parameters, tolerances and options asked for.
 #[derive(Clone, Debug, PartialEq)]
@@ -51,6 +56,8 @@ pub struct Request {
     pub monte_carlo: Option<(usize, u64)>,
     /// Solve every corner of the tolerance box.
     pub vertices: bool,
+    /// Solve only this shard's Monte Carlo samples (and the nominal design).
+    pub shard: Option<super::sweep::Shard>,
 }
 
 /// The results.
@@ -70,14 +77,30 @@ pub struct Analysis {
     pub errors: Vec<Vec<f64>>,
     /// Per quantity, when tolerances were given.
     pub spreads: Vec<tolerance::Spread>,
-    /// Per quantity, when Monte Carlo was asked for.
-    pub monte_carlo: Option<(usize, u64, Vec<Option<tolerance::Stats>>)>,
+    /// The Monte Carlo samples, when asked for.
+    pub monte_carlo: Option<MonteCarlo>,
     /// Per quantity, the extremes over the corners of the tolerance box, when asked for.
     pub vertices: Option<Vec<Option<tolerance::Stats>>>,
     /// Whether every solve converged.
     pub converged: bool,
     /// The solves made around the nominal design.
     pub solves: Solves,
+}
+
+/// The samples of an unsharded Monte Carlo run.
+#[derive(Clone, Debug, PartialEq)]
+pub struct MonteCarlo {
+    /// Number of samples.
+    pub count: usize,
+    /// The generator's seed.
+    pub seed: u64,
+    /// Per quantity (its column, in the order of the nominal quantities), the statistics of
+    /// the samples, from `rows`.
+    pub stats: Vec<(String, Option<tolerance::Stats>)>,
+    /// The columns of the samples table.
+    pub columns: Vec<String>,
+    /// Its rows, by sample.
+    pub rows: BTreeMap<usize, Vec<String>>,
 }
 
 /// `fieldgrid solve`, with the sensitivities and tolerances asked for.
@@ -96,6 +119,9 @@ pub fn solve(args: &SolveArgs) -> Result<u8, Failure> {
         signals: Vec::new(),
         vacuum_warm_start: None,
     };
+    if let Some(code) = shard(&setup, &req, &args.out)? {
+        return Ok(code);
+    }
     let extra = |src: &DesignSource,
                  sol: &fieldgrid_solver::study::Solution,
                  summary: &mut crate::summary::Summary,
@@ -129,6 +155,9 @@ pub fn impedance(args: &ImpedanceArgs) -> Result<u8, Failure> {
         signals: args.signal.clone(),
         vacuum_warm_start: None,
     };
+    if let Some(code) = shard(&setup, &req, &args.out)? {
+        return Ok(code);
+    }
     let extra = |src: &DesignSource,
                  ls: &fieldgrid_solver::line_study::LineStudy,
                  summary: &mut crate::summary::Summary,
@@ -141,6 +170,15 @@ pub fn impedance(args: &ImpedanceArgs) -> Result<u8, Failure> {
         Ok(a.report(&req.tolerances))
     };
     super::impedance::run_with(args, Some(&extra))
+}
+
+/// With `--shard`, runs that shard's Monte Carlo samples alone and returns the exit code.
+fn shard(setup: &Setup, req: &Request, out: &std::path::Path) -> Result<Option<u8>, Failure> {
+    let (Some(shard), Some((count, seed))) = (req.shard, req.monte_carlo) else {
+        return Ok(None);
+    };
+    let def = monte_carlo_run::definition(setup, count, seed, &req.tolerances);
+    monte_carlo_run::shard(setup, &def, shard, out).map(Some)
 }
 
 /// Checks the options against the design: `None` when nothing was asked for.
@@ -159,6 +197,12 @@ pub fn request(args: &SensitivityArgs, src: &DesignSource) -> Result<Option<Requ
             }
         )))
     };
+    if args.shard.is_some() && args.monte_carlo.is_none() {
+        return Err(Failure::input(
+            "--shard divides the samples of --monte-carlo N between runs: give --monte-carlo \
+             N (and its --seed) too",
+        ));
+    }
     let mut tolerances: Vec<(String, f64)> = src.tolerances.clone();
     for t in &args.tolerance {
         let (name, value) = t.split_once('=').ok_or_else(|| {
@@ -248,11 +292,22 @@ pub fn request(args: &SensitivityArgs, src: &DesignSource) -> Result<Option<Requ
             )))
         }
     };
+    let shard = match &args.shard {
+        None => None,
+        Some(_) if args.sensitivity.is_some() || args.vertices => {
+            return Err(Failure::input(
+                "--shard solves one shard's Monte Carlo samples only: take --sensitivity and \
+                 --vertices in a run without --shard",
+            ))
+        }
+        Some(s) => Some(super::sweep::Shard::parse(s).map_err(Failure::input)?),
+    };
     Ok(Some(Request {
         parameters,
         tolerances,
         monte_carlo,
         vertices: args.vertices,
+        shard,
     }))
 }
 
@@ -309,19 +364,15 @@ pub fn analyse(
     let steps = steps(setup, &req.parameters, &values)?;
     let mut converged = true;
     let mut solves = Solves::default();
-    let warm = warm_setup(setup, start);
-    let mut solve_at = |over: Vec<(String, f64)>| -> Result<Vec<Named>, Failure> {
+    let warm = setup.started_from(start);
+    let mut solve_at = |over: Vec<(String, f64)>| -> Result<(Vec<Named>, bool), Failure> {
         let ev = evaluate::evaluate(&warm, &over)?;
         converged &= ev.converged();
         solves.count(&ev, start);
-        Ok(ev.quantities)
+        let ok = ev.converged();
+        Ok((ev.quantities, ok))
     };
-    let pick = |list: &[Named]| -> Vec<f64> {
-        nominal
-            .iter()
-            .map(|q| evaluate::find(list, &q.name).map_or(f64::NAN, |x| x.value))
-            .collect()
-    };
+    let pick = |list: &[Named]| evaluate::pick(nominal, list);
     let mut derivatives = Vec::new();
     let mut errors = Vec::new();
     for (i, name) in req.parameters.iter().enumerate() {
@@ -330,8 +381,8 @@ pub fn analyse(
                 sensitivity::stepped(values[i], h),
                 sensitivity::stepped(values[i], -h),
             );
-            let plus = pick(&solve_at(vec![(name.clone(), up)])?);
-            let minus = pick(&solve_at(vec![(name.clone(), down)])?);
+            let plus = pick(&solve_at(vec![(name.clone(), up)])?.0);
+            let minus = pick(&solve_at(vec![(name.clone(), down)])?.0);
             Ok(sensitivity::central(&plus, &minus, 0.5 * (up - down)))
         };
         let d1 = difference(steps[i])?;
@@ -371,26 +422,23 @@ pub fn analyse(
     let monte_carlo = match req.monte_carlo {
         None => None,
         Some((count, seed)) => {
-            let centre: Vec<f64> = tol_index.iter().map(|&(p, _)| values[p]).collect();
-            let tol: Vec<f64> = tol_index.iter().map(|&(_, t)| t).collect();
-            let mut columns = vec![Vec::new(); nominal.len()];
-            for point in tolerance::samples(&centre, &tol, count, seed) {
-                let over = tol_index
-                    .iter()
-                    .zip(&point)
-                    .map(|(&(p, _), &v)| (req.parameters[p].clone(), v))
-                    .collect();
-                for (c, v) in columns.iter_mut().zip(pick(&solve_at(over)?)) {
-                    if v.is_finite() {
-                        c.push(v);
-                    }
-                }
+            let def = monte_carlo_run::definition(setup, count, seed, &req.tolerances);
+            let centre = monte_carlo_run::centre(&def, src);
+            let mut rows = BTreeMap::new();
+            for k in 0..count {
+                let point = monte_carlo_run::point(&def, &centre, k);
+                let (list, ok) = solve_at(monte_carlo_run::overrides(&def, &point))?;
+                rows.insert(k, monte_carlo::row(k, &point, &pick(&list), ok));
             }
-            Some((
+            let columns = monte_carlo_run::columns(&def, nominal);
+            let stats = monte_carlo::statistics(&columns, def.tolerances.len(), rows.values());
+            Some(MonteCarlo {
                 count,
                 seed,
-                columns.iter().map(|c| tolerance::stats(c)).collect(),
-            ))
+                stats,
+                columns,
+                rows,
+            })
         }
     };
     let vertices = if req.vertices {
@@ -403,7 +451,7 @@ pub fn analyse(
                 .zip(&corner)
                 .map(|(&(p, _), &v)| (req.parameters[p].clone(), sensitivity::stepped(v, 0.0)))
                 .collect();
-            for (c, v) in columns.iter_mut().zip(pick(&solve_at(over)?)) {
+            for (c, v) in columns.iter_mut().zip(pick(&solve_at(over)?.0)) {
                 if v.is_finite() {
                     c.push(v);
                 }
@@ -426,48 +474,6 @@ pub fn analyse(
         converged,
         solves,
     })
-}
-
-/// The solves around a nominal design: how many, how many started from the nominal
-/// solves, and their iterations on the fine lattices.
-#[derive(Clone, Copy, Debug, Default, PartialEq)]
-pub struct Solves {
-    /// Designs solved (a line study counts once).
-    pub studies: usize,
-    /// Those whose lattice fitted the nominal solves, started from them.
-    pub warm_starts: usize,
-    /// Iterations of every linear solve on the fine lattices.
-    pub iterations: usize,
-}
-
-impl Solves {
-    /// Counts one evaluation started from `start`.
-    fn count(&mut self, ev: &evaluate::Evaluation, start: &LineWarmStart) {
-        let sol = ev.solved.solution();
-        self.studies += 1;
-        self.iterations += ev.iterations();
-        let fits = start
-            .design
-            .as_ref()
-            .is_some_and(|w| w.fits(&sol.grid, sol.conductors.len()));
-        self.warm_starts += usize::from(fits);
-    }
-}
-
-/// `setup` with every solve started from the nominal solves `start` (each study from its
-/// own: the design's, and a line study's with every permittivity 1), keeping none.
-fn warm_setup<'a>(setup: &Setup<'a>, start: &LineWarmStart) -> Setup<'a> {
-    let mut params = setup.params.clone();
-    params.warm_start = start.design.clone();
-    params.keep_warm_start = false;
-    Setup {
-        design: setup.design,
-        base: setup.base.clone(),
-        params,
-        opts: setup.opts,
-        signals: setup.signals.clone(),
-        vacuum_warm_start: start.vacuum.clone(),
-    }
 }
 
 fn finite(v: f64) -> Value {
@@ -534,8 +540,8 @@ impl Analysis {
             if let Some(Some(st)) = self.vertices.as_ref().zip(i).map(|(v, i)| &v[i]) {
                 v["vertices"] = json!({ "count": st.count, "min": st.min, "max": st.max });
             }
-            if let Some((_, _, stats)) = &self.monte_carlo {
-                if let Some(Some(st)) = i.map(|i| &stats[i]) {
+            if let Some(mc) = &self.monte_carlo {
+                if let Some((_, Some(st))) = i.map(|i| &mc.stats[i]) {
                     v["monte_carlo"] = json!({
                         "count": st.count, "mean": st.mean, "std": st.std,
                         "min": st.min, "max": st.max,
@@ -551,7 +557,7 @@ impl Analysis {
                 .collect::<Map<String, Value>>(),
             "quantities": quantities,
         });
-        if let Some((count, seed, _)) = &self.monte_carlo {
+        if let Some(MonteCarlo { count, seed, .. }) = &self.monte_carlo {
             out["monte_carlo"] = json!({ "count": count, "seed": seed,
                 "distribution": "uniform within +/- the tolerance" });
         }
@@ -595,7 +601,7 @@ impl Analysis {
         let mc = self.monte_carlo.as_ref();
         let rows = self.quantities.iter().enumerate().map(|(i, q)| {
             let s = &self.spreads[i];
-            let st = mc.and_then(|m| m.2[i].as_ref());
+            let st = mc.and_then(|m| m.stats[i].1.as_ref());
             let opt = |f: fn(&tolerance::Stats) -> f64| st.map(|s| num(f(s))).unwrap_or_default();
             let corners = self.vertices.as_ref().and_then(|v| v[i].as_ref());
             let corner =
@@ -652,11 +658,23 @@ impl Analysis {
         summary.solver.converged &= self.converged;
     }
 
-    /// Writes sensitivities.csv (and tolerances.csv when tolerances were given).
+    /// Writes sensitivities.csv (and tolerances.csv when tolerances were given; the Monte
+    /// Carlo samples and their statistics when asked for).
     pub fn write(&self, out: &OutDir, tolerances: &[(String, f64)]) -> Result<(), Failure> {
         out.write("sensitivities.csv", &self.sensitivities_csv())?;
         if !self.spreads.is_empty() {
             out.write("tolerances.csv", &self.tolerances_csv(tolerances))?;
+        }
+        if let Some(mc) = &self.monte_carlo {
+            let header: Vec<&str> = mc.columns.iter().map(String::as_str).collect();
+            out.write(
+                "monte_carlo.csv",
+                &csv_bytes(&header, mc.rows.values().cloned()),
+            )?;
+            out.write(
+                "monte_carlo_statistics.csv",
+                &monte_carlo::statistics_csv(&mc.stats),
+            )?;
         }
         Ok(())
     }
@@ -710,7 +728,7 @@ impl Analysis {
                 let mc = self
                     .monte_carlo
                     .as_ref()
-                    .and_then(|m| m.2[qi].as_ref())
+                    .and_then(|m| m.stats[qi].1.as_ref())
                     .map(|st| format!("  mc {:.4e} +/- {:.2e}", st.mean, st.std))
                     .unwrap_or_default();
                 let corners = self

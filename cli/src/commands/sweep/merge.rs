@@ -5,8 +5,11 @@
 //! order) and merged a row at a time, twice: once to check that every part belongs to the
 //! same sweep, that points given twice agree exactly and that together they cover every
 //! point, and once to write the table. Nothing of a row is kept after it is written, so a
-//! merge needs memory independent of the number of points; bad parts leave no `--out`.
+//! merge needs memory independent of the number of points (but for a Monte Carlo run's
+//! samples, at most [`monte_carlo::MAX_SAMPLES`], whose statistics it writes as
+//! `monte_carlo_statistics.csv`); bad parts leave no `--out`.
 
+use super::super::monte_carlo;
 use super::table::Cursor;
 use super::{columns, read_dir, SweepFile};
 use crate::error::Failure;
@@ -41,6 +44,14 @@ pub(super) fn merge(dirs: &[PathBuf], out: &Path, quiet: bool) -> Result<u8, Fai
     }
     let mut def = first.ok_or_else(|| Failure::input("--merge needs at least one directory"))?;
     def.shard = None;
+    if def.monte_carlo.is_some() && def.points > monte_carlo::MAX_SAMPLES {
+        return Err(Failure::input(format!(
+            "{}: a Monte Carlo run of {} samples (at most {})",
+            dirs[0].display(),
+            def.points,
+            monte_carlo::MAX_SAMPLES
+        )));
+    }
 
     // First pass: coverage and agreement, nothing written.
     let at = columns::converged_column(&def.columns);
@@ -69,12 +80,17 @@ pub(super) fn merge(dirs: &[PathBuf], out: &Path, quiet: bool) -> Result<u8, Fai
         )));
     }
 
-    // Second pass: the table, streamed into the new set.
+    // Second pass: the table, streamed into the new set; a Monte Carlo run's rows (at most
+    // MAX_SAMPLES) are kept for its statistics.
     let mut outdir = OutDir::prepare(out)?;
+    let mut samples: Vec<Vec<String>> = Vec::new();
     outdir.write_with("sweep.csv", |w| {
         let mut table = csv::Writer::from_writer(w);
         table.write_record(&def.columns)?;
         walk(dirs, &def, |_, rec| {
+            if def.monte_carlo.is_some() {
+                samples.push(rec.iter().map(str::to_string).collect());
+            }
             table
                 .write_record(rec)
                 .map_err(|e| Failure::io("writing the merged table", e))
@@ -85,6 +101,16 @@ pub(super) fn merge(dirs: &[PathBuf], out: &Path, quiet: bool) -> Result<u8, Fai
     let json =
         serde_json::to_vec_pretty(&def).map_err(|e| Failure::io("encoding sweep.json", e))?;
     outdir.write("sweep.json", &json)?;
+    let statistics = def
+        .monte_carlo
+        .as_ref()
+        .map(|mc| monte_carlo::statistics(&def.columns, mc.tolerances.len(), samples.iter()));
+    if let Some(st) = &statistics {
+        outdir.write(
+            "monte_carlo_statistics.csv",
+            &monte_carlo::statistics_csv(st),
+        )?;
+    }
     outdir.commit()?;
     if !quiet {
         println!(
@@ -92,6 +118,14 @@ pub(super) fn merge(dirs: &[PathBuf], out: &Path, quiet: bool) -> Result<u8, Fai
             dirs.len(),
             outdir.path().join("sweep.csv").display()
         );
+        if let (Some(st), Some(mc)) = (&statistics, &def.monte_carlo) {
+            print!(
+                "Monte Carlo statistics of {rows} samples (seed {}), also in \
+                 monte_carlo_statistics.csv:\n{}",
+                mc.seed,
+                monte_carlo::report(st)
+            );
+        }
         if unconverged > 0 {
             let w = crate::warning::ToolWarning::SweepNotConverged {
                 points: unconverged,

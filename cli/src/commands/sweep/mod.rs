@@ -23,6 +23,10 @@
 //!   time: the directory is locked ([`crate::outdir::lock`]).
 //! - A merge checks that every part belongs to the same sweep, that points given twice agree
 //!   exactly, and that together they cover every point; it streams the tables ([`merge`]).
+//! - A Monte Carlo run divided with `--shard` (`solve`/`impedance --monte-carlo N --shard
+//!   I/K`) writes its samples as such a part, its definition under `monte_carlo`
+//!   ([`super::monte_carlo`]); merging its parts also writes the statistics of the merged
+//!   samples, `monte_carlo_statistics.csv`.
 
 use super::{check_memory, load_design, study_params, with_threads};
 use crate::args::{SolverChoice, SweepArgs};
@@ -35,7 +39,7 @@ use fieldgrid_solver::plan::Plan;
 use fieldgrid_solver::study;
 use serde::{Deserialize, Serialize};
 use std::path::Path;
-use table::PointSet;
+pub use table::PointSet;
 
 mod columns;
 mod merge;
@@ -69,6 +73,9 @@ pub struct SweepFile {
     /// Parameters fixed for every point with `--set`, in the design's own units.
     #[serde(default, skip_serializing_if = "Vec::is_empty")]
     pub set: Vec<crate::summary::ParameterSummary>,
+    /// A Monte Carlo run's definition, when the points are its samples.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub monte_carlo: Option<super::monte_carlo::Definition>,
 }
 
 impl SweepFile {
@@ -82,6 +89,7 @@ impl SweepFile {
             && self.tol == other.tol
             && self.columns == other.columns
             && self.set == other.set
+            && self.monte_carlo == other.monte_carlo
     }
 
     /// What differs between two sweeps, for messages.
@@ -94,6 +102,8 @@ impl SweepFile {
             "the solver or its tolerance differs".into()
         } else if self.set != other.set {
             "the parameters given with --set differ".into()
+        } else if self.monte_carlo != other.monte_carlo {
+            "the Monte Carlo runs differ (seed, tolerances, signals or error estimate)".into()
         } else if self.columns != other.columns {
             "the columns differ".into()
         } else if self.shard != other.shard {
@@ -209,16 +219,11 @@ pub fn run(args: &SweepArgs) -> Result<u8, Failure> {
                 value: *value,
             })
             .collect(),
+        monte_carlo: None,
     };
 
     let mut out = OutDir::prepare_in_place(&args.out)?;
-    let (done, mut unconverged) = resume(&out, &def)?;
-    let def_json =
-        serde_json::to_vec_pretty(&def).map_err(|e| Failure::io("encoding sweep.json", e))?;
-    out.write("sweep.json", &def_json)?;
-    if !out.path().join("sweep.csv").exists() {
-        out.write("sweep.csv", &empty_table(&columns))?;
-    }
+    let (done, mut unconverged) = open_part(&out, &def)?;
 
     let skipped = mine().filter(|&p| done.contains(p)).count();
     let bar = crate::progress::counter(args.opts.quiet, count, skipped);
@@ -286,6 +291,21 @@ pub fn run(args: &SweepArgs) -> Result<u8, Failure> {
     })
 }
 
+/// Starts or resumes the part `def` in the results directory `out` (prepared in place):
+/// which points it already holds and how many of them did not converge. Refuses a directory
+/// holding another sweep or points outside the shard; writes `sweep.json` and the table's
+/// header when missing.
+pub fn open_part(out: &OutDir, def: &SweepFile) -> Result<(PointSet, usize), Failure> {
+    let (done, unconverged) = resume(out, def)?;
+    let def_json =
+        serde_json::to_vec_pretty(def).map_err(|e| Failure::io("encoding sweep.json", e))?;
+    out.write("sweep.json", &def_json)?;
+    if !out.path().join("sweep.csv").exists() {
+        out.write("sweep.csv", &empty_table(&def.columns))?;
+    }
+    Ok((done, unconverged))
+}
+
 /// A parameter value as written in the table and messages: the shortest decimal form, in
 /// exponent form for magnitudes outside [1e-9, 1e15) (1e300 is not written as 301 digits).
 pub fn value_text(v: f64) -> String {
@@ -320,7 +340,7 @@ fn point_failure(p: usize, vary: &[Vary], values: &[f64], f: Failure) -> Failure
 }
 
 /// One CSV row, with its line end.
-fn row_bytes(row: &[String]) -> Vec<u8> {
+pub fn row_bytes(row: &[String]) -> Vec<u8> {
     let mut w = csv::WriterBuilder::new()
         .has_headers(false)
         .from_writer(Vec::new());

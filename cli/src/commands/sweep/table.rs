@@ -15,7 +15,7 @@ use std::io::{Seek, SeekFrom};
 use std::path::{Path, PathBuf};
 
 /// A set of point indices of one sweep, one bit per point.
-pub(super) struct PointSet {
+pub struct PointSet {
     bits: Vec<u64>,
 }
 
@@ -28,7 +28,7 @@ impl PointSet {
     }
 
     /// True when `p` is in the set.
-    pub(super) fn contains(&self, p: usize) -> bool {
+    pub fn contains(&self, p: usize) -> bool {
         self.bits[p / 64] & (1 << (p % 64)) != 0
     }
 
