@@ -292,8 +292,10 @@ fn references(file_module: &Module, src: &str) -> Vec<Reference> {
     out
 }
 
-/// The module graph of one crate: `sources` maps each module file's module to its text.
-fn module_graph(sources: &BTreeMap<Module, String>) -> BTreeMap<Module, BTreeSet<Module>> {
+/// Every reference between two module files of one crate, as (from, to), tests, public
+/// re-exports and a file's references to itself left out; references of a submodule to its
+/// ancestors included. `sources` maps each module file's module to its text.
+fn module_edges(sources: &BTreeMap<Module, String>) -> BTreeSet<(Module, Module)> {
     let files: BTreeSet<Module> = sources.keys().cloned().collect();
     let mut children: BTreeMap<Module, BTreeSet<String>> = BTreeMap::new();
     for m in &files {
@@ -371,8 +373,7 @@ fn module_graph(sources: &BTreeMap<Module, String>) -> BTreeMap<Module, BTreeSet
         }
         m
     };
-    let mut graph: BTreeMap<Module, BTreeSet<Module>> =
-        files.iter().map(|m| (m.clone(), BTreeSet::new())).collect();
+    let mut edges = BTreeSet::new();
     for r in &refs {
         if is_test(&r.from) {
             continue;
@@ -392,10 +393,26 @@ fn module_graph(sources: &BTreeMap<Module, String>) -> BTreeMap<Module, BTreeSet
         };
         let from = file_of(&r.from);
         let to = file_of(&resolve(cur, &rest, &children, &imported, 8));
-        if to == from || is_test(&to) || r.public_use || from.starts_with(&to) {
+        if to == from || is_test(&to) || r.public_use {
             continue;
         }
-        graph.entry(from).or_default().insert(to);
+        edges.insert((from, to));
+    }
+    edges
+}
+
+/// The module graph of one crate: a node per module file, an edge per dependency between
+/// files, a submodule's references to its ancestors left out (a parent owns its submodules,
+/// which work on the parent's types).
+fn module_graph(sources: &BTreeMap<Module, String>) -> BTreeMap<Module, BTreeSet<Module>> {
+    let mut graph: BTreeMap<Module, BTreeSet<Module>> = sources
+        .keys()
+        .map(|m| (m.clone(), BTreeSet::new()))
+        .collect();
+    for (from, to) in module_edges(sources) {
+        if !from.starts_with(&to) {
+            graph.entry(from).or_default().insert(to);
+        }
     }
     graph
 }
@@ -518,6 +535,58 @@ fn module_graphs_have_no_cycle() {
     }
 }
 
+/// The loops that references to ancestors close, if any leaves a module's own subtree: with
+/// every reference counted (a submodule's to its ancestors too), each reference that lies on a
+/// loop must join a module and one of its own submodules. A loop of such references only
+/// (`raster` uses `raster::edges`, which works on `raster`'s types) stays inside one module:
+/// the submodules are the parent's parts, declared by it and reached through it, so no two
+/// modules outside that subtree depend on each other through it. A loop that also runs
+/// between siblings or across branches (`a::x` -> `a` -> `a::y` -> `a::x`, or through a module
+/// elsewhere) is a cycle the sibling check would miss; this returns one reference of each such
+/// loop, as (from, to).
+fn cycles_through_ancestors(edges: &BTreeSet<(Module, Module)>) -> Vec<(Module, Module)> {
+    let mut next: BTreeMap<&Module, Vec<&Module>> = BTreeMap::new();
+    for (a, b) in edges {
+        next.entry(a).or_default().push(b);
+    }
+    let reaches = |from: &Module, to: &Module| {
+        let (mut seen, mut stack) = (BTreeSet::new(), vec![from]);
+        while let Some(m) = stack.pop() {
+            if m == to {
+                return true;
+            }
+            if seen.insert(m) {
+                stack.extend(next.get(m).into_iter().flatten().copied());
+            }
+        }
+        false
+    };
+    edges
+        .iter()
+        .filter(|(a, b)| !a.starts_with(b) && !b.starts_with(a) && reaches(b, a))
+        .cloned()
+        .collect()
+}
+
+#[test]
+fn references_to_ancestors_close_loops_only_inside_a_module() {
+    for krate in ["solver/src", "cli/src"] {
+        let edges = module_edges(&crate_sources(&repo().join(krate)));
+        let upward = edges.iter().filter(|(a, b)| a.starts_with(b)).count();
+        assert!(upward > 0, "{krate}: submodules using their parents' items found");
+        let bad = cycles_through_ancestors(&edges);
+        let shown: Vec<String> = bad
+            .iter()
+            .map(|(a, b)| format!("{} -> {}", show(a), show(b)))
+            .collect();
+        assert!(
+            bad.is_empty(),
+            "{krate}: with submodules' references to their ancestors counted, these \
+             references lie on loops that leave a module's subtree: {shown:?}"
+        );
+    }
+}
+
 /// The reader of the graph sees the kinds of reference a cycle can hide in.
 #[test]
 fn cycle_check_finds_cycles_through_uses_paths_and_re_exports() {
@@ -558,6 +627,34 @@ fn cycle_check_finds_cycles_through_uses_paths_and_re_exports() {
         ("a", "use super::P;"),
     ]);
     assert_eq!(find_cycle(&g), None);
+    // ... but a loop through the parent and a sibling is found once those references count.
+    let edges_of = |files: &[(&str, &str)]| {
+        module_edges(&files.iter().map(|(k, v)| (m(k), v.to_string())).collect())
+    };
+    let e = edges_of(&[
+        ("", "mod a; mod b;"),
+        ("a", "mod x; mod y; pub struct T; fn f() { y::g() }"),
+        ("a::x", "use super::T;"),
+        ("a::y", "fn g() { crate::a::x::h(); }"),
+        ("b", "use crate::a::x;"),
+    ]);
+    assert_eq!(find_cycle(&graph_of(&[
+        ("", "mod a; mod b;"),
+        ("a", "mod x; mod y; pub struct T; fn f() { y::g() }"),
+        ("a::x", "use super::T;"),
+        ("a::y", "fn g() { crate::a::x::h(); }"),
+        ("b", "use crate::a::x;"),
+    ])), None);
+    assert_eq!(cycles_through_ancestors(&e), vec![(m("a::y"), m("a::x"))]);
+    // A parent and its submodule using each other close a loop inside the parent alone.
+    let e = edges_of(&[
+        ("", "mod a; mod b;"),
+        ("a", "mod x; pub struct T; fn f() { x::g() }"),
+        ("a::x", "use super::T; use crate::b::B;"),
+        ("b", "pub struct B;"),
+    ]);
+    assert!(e.contains(&(m("a::x"), m("a"))) && e.contains(&(m("a"), m("a::x"))));
+    assert!(cycles_through_ancestors(&e).is_empty());
     // Not dependencies: a facade re-export, comments, strings, test modules.
     let g = graph_of(&[
         ("", "mod a; mod b; pub use a::A;"),

@@ -17,6 +17,7 @@ pub mod design;
 pub mod geometry;
 pub mod grading;
 pub mod grid;
+mod hotspot_search;
 pub mod line;
 pub mod line_study;
 mod links;

@@ -22,6 +22,7 @@
 
 use crate::design::{Design, Mode, Point};
 use crate::grid::Grid;
+use crate::hotspot_search::{coarse_value, search, Reading, Readings};
 use crate::post::{FieldEval, Hotspot, HotspotParams, SurfacePoint};
 use crate::surface::{SurfaceKind, SurfaceSample};
 use crate::EPS0;
@@ -332,39 +333,31 @@ fn faces_sampled_surface(field: &FieldEval, samples: &[SurfaceSample]) -> Vec<bo
     out
 }
 
-/// Every place the field is read: (position, |E|, material, persistence). Lattice nodes with
-/// their persistence on the lattice, surface maxima with theirs along their curve, and every
-/// other surface sample with persistence 0 (a candidate for the worst margin only).
-fn candidates(field: &FieldEval, samples: &[SurfaceSample]) -> Vec<(Point, f64, u16, f64)> {
-    let g = &field.op.grid;
+/// |E| at every node as the hot-spot search reads it: NaN at nodes facing a sampled surface.
+fn lattice_magnitudes(field: &FieldEval, samples: &[SurfaceSample]) -> Vec<f64> {
     let skip = faces_sampled_surface(field, samples);
-    let mag: Vec<f64> = field
+    field
         .magnitudes()
         .iter()
         .zip(&skip)
         .map(|(&m, &skip)| if skip { f64::NAN } else { m })
+        .collect()
+}
+
+/// The surface's readings: its maxima with their persistence along their curve, then every
+/// sample with persistence 0 (a candidate for the worst margin only).
+fn surface_readings(samples: &[SurfaceSample]) -> Vec<Reading> {
+    let mut out: Vec<Reading> = curve_maxima(samples)
+        .into_iter()
+        .map(|m| (m.at, m.magnitude, m.material, m.persistence))
         .collect();
-    let node_xy = |p: usize| [g.x(p % g.nx), g.y(p / g.nx)];
-    let mut persistence = vec![0.0; g.len()];
-    for pk in crate::peaks::peaks(&mag, g.nx, g.ny) {
-        persistence[pk.node] = pk.persistence;
-    }
-    let mut cand: Vec<(Point, f64, u16, f64)> = (0..g.len())
-        .filter(|&p| mag[p].is_finite() && mag[p] > 0.0)
-        .map(|p| (node_xy(p), mag[p], field.raster.material[p], persistence[p]))
-        .collect();
-    cand.extend(
-        curve_maxima(samples)
-            .into_iter()
-            .map(|m| (m.at, m.magnitude, m.material, m.persistence)),
-    );
-    cand.extend(
+    out.extend(
         samples
             .iter()
             .filter(|s| s.magnitude().is_finite())
             .map(|s| ([s.x, s.y], s.magnitude(), s.material, 0.0)),
     );
-    cand
+    out
 }
 
 /// True when some material of the design has a breakdown strength.
@@ -402,54 +395,18 @@ pub fn peak_and_hotspots(
     let g = &field.op.grid;
     // Distances in cells are in the local spacing of the candidate.
     let reach = |at: Point| params.corner_cells * g.spacing_at(at);
-    let cand = candidates(field, samples);
-    let strength = |m: u16| crate::material::of(design, m).strength;
-    let by_margin = any_strength(design);
-    let key = |c: &(Point, f64, u16, f64)| match (by_margin, strength(c.2)) {
-        (true, Some(s)) => (0, s / c.1),
-        (true, None) => (1, -c.1),
-        (false, _) => (0, -c.1),
+    let magnitude = lattice_magnitudes(field, samples);
+    let surface = surface_readings(samples);
+    let strength = strengths(design);
+    let readings = Readings {
+        grid: g,
+        magnitude: &magnitude,
+        material: &field.raster.material,
+        surface: &surface,
+        strength: &strength,
     };
-    let peak = cand
-        .iter()
-        .max_by(|a, b| {
-            a.1.total_cmp(&b.1)
-                .then(b.0[0].total_cmp(&a.0[0]))
-                .then(b.0[1].total_cmp(&a.0[1]))
-        })
-        .map(|c| spot(design, corners, reach(c.0), c.0, c.1, c.2));
-    let order = |a: &(Point, f64, u16, f64), b: &(Point, f64, u16, f64)| {
-        let (ka, kb) = (key(a), key(b));
-        ka.0.cmp(&kb.0)
-            .then(ka.1.total_cmp(&kb.1))
-            .then(a.0[0].total_cmp(&b.0[0]))
-            .then(a.0[1].total_cmp(&b.0[1]))
-    };
-    // Only the persistent candidates and the first in rank order (the lowest margin) can be
-    // chosen: those are sorted (stably, so in the order a sort of every candidate gives them).
-    let first = by_margin
-        .then(|| (0..cand.len()).min_by(|&a, &b| order(&cand[a], &cand[b])))
-        .flatten();
-    let mut cand: Vec<(Point, f64, u16, f64)> = cand
-        .iter()
-        .enumerate()
-        .filter(|&(k, c)| c.3 >= params.persistence || Some(k) == first)
-        .map(|(k, c)| (c.0, c.1, c.2, if Some(k) == first { 1.0 } else { c.3 }))
-        .collect();
-    cand.sort_by(order);
-    let mut chosen: Vec<(Point, f64, u16, f64)> = Vec::new();
-    for c in cand.into_iter().filter(|c| c.3 >= params.persistence) {
-        if chosen.len() >= params.count {
-            break;
-        }
-        let sep = params.separation_cells * g.spacing_at(c.0);
-        if chosen
-            .iter()
-            .all(|q| (q.0[0] - c.0[0]).hypot(q.0[1] - c.0[1]) >= sep)
-        {
-            chosen.push(c);
-        }
-    }
+    let (peak, chosen) = search(&readings, params);
+    let peak = peak.map(|c| spot(design, corners, reach(c.0), c.0, c.1, c.2));
     let spots = chosen
         .into_iter()
         .map(|c| spot(design, corners, reach(c.0), c.0, c.1, c.2))
@@ -457,14 +414,11 @@ pub fn peak_and_hotspots(
     (peak, spots)
 }
 
-/// The field a coarser solve gives near `at` in material `m`: the largest of its surface
-/// samples and lattice readings within `radius` (its own cell and a half).
-fn coarse_value(coarse: &[(Point, f64, u16, f64)], at: Point, m: u16, radius: f64) -> Option<f64> {
-    coarse
-        .iter()
-        .filter(|c| c.2 == m && (c.0[0] - at[0]).hypot(c.0[1] - at[1]) <= radius)
-        .map(|c| c.1)
-        .reduce(f64::max)
+/// Breakdown strength of every material, by material index.
+fn strengths(design: &Design) -> Vec<Option<f64>> {
+    (0..=design.dielectrics.len())
+        .map(|m| crate::material::of(design, m as u16).strength)
+        .collect()
 }
 
 /// Error estimates of the peak and the hot spots from the solve on a coarser lattice
@@ -484,7 +438,8 @@ pub fn estimate_errors(
 ) {
     let cg = &coarse.op.grid;
     let radius = |at: Point| 1.5 * cg.spacing_at(at);
-    let cand = candidates(coarse, coarse_samples);
+    let magnitude = lattice_magnitudes(coarse, coarse_samples);
+    let surface = surface_readings(coarse_samples);
     let factor = ratio.powf(order) - 1.0;
     let material = |name: &str| -> u16 {
         design
@@ -495,8 +450,17 @@ pub fn estimate_errors(
     };
     let apply = |h: &mut Hotspot| {
         let m = material(&h.material);
-        h.error_estimate = coarse_value(&cand, [h.x, h.y], m, radius([h.x, h.y]))
-            .map(|c| (h.magnitude - c).abs() / factor);
+        let at = [h.x, h.y];
+        h.error_estimate = coarse_value(
+            cg,
+            &magnitude,
+            &coarse.raster.material,
+            &surface,
+            at,
+            m,
+            radius(at),
+        )
+        .map(|c| (h.magnitude - c).abs() / factor);
     };
     if let Some(p) = peak.as_mut() {
         apply(p);
