@@ -568,21 +568,43 @@ fn cycles_through_ancestors(edges: &BTreeSet<(Module, Module)>) -> Vec<(Module, 
         .collect()
 }
 
+/// The loops that references to ancestors close outside a module-and-submodule pair, known
+/// and why each is no dependency of code on itself: `study::solves` and `study::estimate` use
+/// the study's types `StudyParams` and `StudyError`, which live in `study.rs` beside the
+/// orchestration that calls `study::estimate`; the types themselves refer to no sibling but
+/// `study::solves::WarmStart` (a parent/child pair), so no item reaches itself through the
+/// loop `study::solves` -> `study` -> `study::estimate` -> `study::solves`. It closes at file
+/// level only, and goes when those types move to a module of their own. Likewise
+/// `commands::sweep::table` and `commands::sweep::merge` use the sweep's record `SweepFile`,
+/// which lives in `commands/sweep/mod.rs` beside the command that calls the merge and refers
+/// to neither: the loop `table` -> `sweep` -> `merge` -> `table` closes at file level only.
+const KNOWN_LOOPS: [(&str, &[&str]); 2] = [
+    ("solver/src", &["study::estimate -> study::solves"]),
+    (
+        "cli/src",
+        &["commands::sweep::merge -> commands::sweep::table"],
+    ),
+];
+
 #[test]
 fn references_to_ancestors_close_loops_only_inside_a_module() {
-    for krate in ["solver/src", "cli/src"] {
+    for (krate, known) in KNOWN_LOOPS {
         let edges = module_edges(&crate_sources(&repo().join(krate)));
         let upward = edges.iter().filter(|(a, b)| a.starts_with(b)).count();
-        assert!(upward > 0, "{krate}: submodules using their parents' items found");
-        let bad = cycles_through_ancestors(&edges);
-        let shown: Vec<String> = bad
+        assert!(
+            upward > 0,
+            "{krate}: submodules using their parents' items found"
+        );
+        eprintln!("{krate}: {upward} references of submodules to their ancestors");
+        let shown: Vec<String> = cycles_through_ancestors(&edges)
             .iter()
             .map(|(a, b)| format!("{} -> {}", show(a), show(b)))
             .collect();
-        assert!(
-            bad.is_empty(),
+        assert_eq!(
+            shown, known,
             "{krate}: with submodules' references to their ancestors counted, these \
-             references lie on loops that leave a module's subtree: {shown:?}"
+             references lie on loops that leave a module's subtree (break a new one by moving \
+             the shared items to a module of their own; take a broken one off KNOWN_LOOPS)"
         );
     }
 }
@@ -638,13 +660,16 @@ fn cycle_check_finds_cycles_through_uses_paths_and_re_exports() {
         ("a::y", "fn g() { crate::a::x::h(); }"),
         ("b", "use crate::a::x;"),
     ]);
-    assert_eq!(find_cycle(&graph_of(&[
-        ("", "mod a; mod b;"),
-        ("a", "mod x; mod y; pub struct T; fn f() { y::g() }"),
-        ("a::x", "use super::T;"),
-        ("a::y", "fn g() { crate::a::x::h(); }"),
-        ("b", "use crate::a::x;"),
-    ])), None);
+    assert_eq!(
+        find_cycle(&graph_of(&[
+            ("", "mod a; mod b;"),
+            ("a", "mod x; mod y; pub struct T; fn f() { y::g() }"),
+            ("a::x", "use super::T;"),
+            ("a::y", "fn g() { crate::a::x::h(); }"),
+            ("b", "use crate::a::x;"),
+        ])),
+        None
+    );
     assert_eq!(cycles_through_ancestors(&e), vec![(m("a::y"), m("a::x"))]);
     // A parent and its submodule using each other close a loop inside the parent alone.
     let e = edges_of(&[

@@ -8,6 +8,7 @@ pub mod args;
 pub mod commands;
 pub mod design_file;
 pub mod error;
+pub mod exit;
 pub mod outdir;
 pub mod pictures;
 pub mod progress;
@@ -22,14 +23,7 @@ use clap::Parser;
 use std::ffi::OsString;
 use std::process::ExitCode;
 
-/// Exit code: done.
-pub const EXIT_OK: u8 = 0;
-/// Exit code: `compare` found a change beyond tolerance (or a margin below `--min-margin`).
-pub const EXIT_CHANGED: u8 = 1;
-/// Exit code: bad input or usage.
-pub const EXIT_BAD_INPUT: u8 = 2;
-/// Exit code: the solver did not converge (results written and flagged).
-pub const EXIT_NOT_CONVERGED: u8 = 3;
+pub use exit::{EXIT_BAD_INPUT, EXIT_CHANGED, EXIT_NOT_CONVERGED, EXIT_OK};
 
 /// Runs the tool on the given arguments (the first is the program name).
 pub fn main_with_args<I, T>(args: I) -> ExitCode

@@ -13,11 +13,12 @@
 //! union-find sweep over sorted values is the zero-dimensional case, cited from memory).
 //!
 //! The sweep orders the nodes lazily: one counting pass places them in buckets of nearby
-//! values (the leading bits of the value, which order positive doubles), and a bucket is sorted
-//! only when the sweep reaches it. A caller that needs only the highest persistent peaks
-//! ([`persistent`]) sorts and joins only the nodes above the level where those peaks are
-//! decided: a peak of height m is known to reach persistence q once the sweep level is below
-//! m (1 - q). The work is linear in the nodes plus the sorting of the buckets swept.
+//! values (the leading bits of the value's offset from the lowest, which order positive
+//! doubles), and a bucket is sorted only when the sweep reaches it. A caller that needs only
+//! the highest persistent peaks ([`persistent`]) sorts and joins only the nodes above the
+//! level where those peaks are decided: a peak of height m is known to reach persistence q
+//! once the sweep level is below m (1 - q). The work is linear in the nodes plus the sorting
+//! of the buckets swept.
 //!
 //! Invariants: nodes are 8-connected; values that are not finite or not positive (conductor
 //! interiors, fixed nodes) are not part of the lattice; ties in value are broken by node index,
@@ -98,12 +99,21 @@ impl<'a> Sweep<'a> {
             values.len() < NONE as usize,
             "lattice too large for u32 indices"
         );
-        // A positive finite double's bits order like its value; the leading `bits` of the 63
-        // that vary pick the bucket (about one bucket per four nodes, at most 2^20).
+        // A positive finite double's bits order like its value; the leading `bits` of the
+        // span of bits the values cover pick the bucket (about one bucket per four nodes, at
+        // most 2^20), so that the buckets spread over the values present, not over every
+        // double.
         let bits = (values.len() / 4).max(2).ilog2().clamp(4, 20);
-        let shift = 63 - bits;
         let buckets = 1usize << bits;
-        let rank = |v: f64| buckets - 1 - (v.to_bits() >> shift) as usize;
+        let (lo, hi) = values
+            .iter()
+            .filter(|v| on_lattice(**v))
+            .fold((u64::MAX, 0u64), |(lo, hi), v| {
+                (lo.min(v.to_bits()), hi.max(v.to_bits()))
+            });
+        let span = hi.saturating_sub(lo);
+        let shift = (u64::BITS - span.leading_zeros()).saturating_sub(bits);
+        let rank = |v: f64| buckets - 1 - ((v.to_bits() - lo) >> shift) as usize;
         let mut starts = vec![0u32; buckets + 1];
         for &v in values.iter().filter(|v| on_lattice(**v)) {
             starts[rank(v) + 1] += 1;
