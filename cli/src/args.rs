@@ -98,6 +98,11 @@ pub struct PictureArgs {
     #[arg(long, value_name = "PX", default_value_t = 1200,
           value_parser = clap::value_parser!(u32).range(400..=8000))]
     pub picture_width: u32,
+    /// Draw the pictures of this window of the domain only: X0,X1,Y0,Y1 in the design's
+    /// length unit (r and z in axisymmetric designs); the part outside the domain is cut off.
+    #[arg(long, value_name = "X0,X1,Y0,Y1", allow_hyphen_values = true,
+          value_parser = parse_zoom)]
+    pub zoom: Option<[f64; 4]>,
 }
 
 impl PictureArgs {
@@ -105,8 +110,27 @@ impl PictureArgs {
     pub fn render_options(&self) -> crate::render::RenderOptions {
         crate::render::RenderOptions {
             width: self.picture_width,
+            zoom: self.zoom,
         }
     }
+}
+
+/// `X0,X1,Y0,Y1`: four finite numbers, X0 < X1 and Y0 < Y1.
+fn parse_zoom(s: &str) -> Result<[f64; 4], String> {
+    let v: Vec<f64> = s
+        .split(',')
+        .map(|t| t.trim().parse::<f64>())
+        .collect::<Result<_, _>>()
+        .map_err(|_| format!("{s:?}: expected four numbers X0,X1,Y0,Y1"))?;
+    let [x0, x1, y0, y1] = v[..] else {
+        return Err(format!("{s:?}: expected four numbers X0,X1,Y0,Y1"));
+    };
+    if !v.iter().all(|x| x.is_finite()) || x0 >= x1 || y0 >= y1 {
+        return Err(format!(
+            "{s:?}: the window needs X0 < X1 and Y0 < Y1, finite, in the design's unit"
+        ));
+    }
+    Ok([x0, x1, y0, y1])
 }
 
 /// `fieldgrid solve`.

@@ -2,11 +2,13 @@
 
 use crate::design_file::DesignSource;
 use crate::render::{
-    self, axes, sample, ContourStyle, FieldLines, LengthUnit, MapInput, Marker, Material, Outline,
-    PreviewInput, RenderOptions, Scale,
+    self, axes, sample, ContourStyle, Edge, FieldLines, LengthUnit, MapInput, Marker, Material,
+    Outline, Palette, Pin, PinKind, PreviewInput, RenderOptions, Scale,
 };
-use fieldgrid_solver::design::{Design, Mode};
+use fieldgrid_solver::design::{Design, Drive, Mode};
 use fieldgrid_solver::grid::Grid;
+use fieldgrid_solver::margin_map;
+use fieldgrid_solver::post::Hotspot;
 use fieldgrid_solver::study::Solution;
 use image::RgbImage;
 
@@ -40,6 +42,45 @@ pub fn outlines(design: &Design) -> (Vec<Outline>, Vec<Outline>) {
     (conductors, dielectrics)
 }
 
+/// The conductors' outlines named with their potentials ("rod, 50 kV"); a floating conductor
+/// dashed and named "foil, floating" or, with the solve's `settled` potentials (one per
+/// conductor, design order), "foil, floating at 34.1 kV". One per conductor in its order,
+/// then the further pieces of conductors drawn in several, unnamed and in their
+/// conductor's edge style.
+pub fn named_conductors(design: &Design, settled: Option<&[f64]>) -> Vec<Outline> {
+    let tol = tolerance(design);
+    let edge_of = |c: &fieldgrid_solver::design::Conductor| match c.drive {
+        Drive::Fixed(_) => Edge::Solid,
+        Drive::Floating => Edge::Dashed,
+    };
+    let pieces = design.conductors.iter().flat_map(|c| {
+        c.joined.iter().map(move |s| Outline {
+            edge: edge_of(c),
+            ..Outline::from_shape("", s, tol)
+        })
+    });
+    design
+        .conductors
+        .iter()
+        .enumerate()
+        .map(|(k, c)| {
+            let (name, edge) = match (c.drive, settled) {
+                (Drive::Fixed(v), _) => (format!("{}, {}", c.name, with_unit(v, "V")), Edge::Solid),
+                (Drive::Floating, Some(v)) => (
+                    format!("{}, floating at {}", c.name, with_unit(v[k], "V")),
+                    Edge::Dashed,
+                ),
+                (Drive::Floating, None) => (format!("{}, floating", c.name), Edge::Dashed),
+            };
+            Outline {
+                edge,
+                ..Outline::from_shape(name, &c.shape, tol)
+            }
+        })
+        .chain(pieces)
+        .collect()
+}
+
 /// The names of a design's axes: x, y in the plane, r, z in axisymmetric mode.
 pub fn axis_names(design: &Design) -> [&'static str; 2] {
     match design.mode {
@@ -48,15 +89,19 @@ pub fn axis_names(design: &Design) -> [&'static str; 2] {
     }
 }
 
-/// Share of the free nodes whose field magnitude sets the top of a linear `field.png` scale:
-/// the few nodes at sharp corners, whose values are singular, saturate instead of washing out
-/// the rest of the map.
+/// Share of the free nodes whose field magnitude sets the top of a linear `field.png` scale
+/// (unless a hot spot off the sharp corners is higher): the few nodes at sharp corners, whose
+/// values are singular, saturate instead of washing out the rest of the map.
 pub const FIELD_PERCENTILE: f64 = 0.995;
 
-/// The top of a linear field colour scale: the [`FIELD_PERCENTILE`] quantile of the finite
-/// magnitudes, or `None` (the whole range) when the peak is within 1.5 times of it and
-/// saturating would hide more than it shows.
-pub fn field_saturation(magnitude: &[f64]) -> Option<f64> {
+/// At most this many hot spots are marked on a picture (the rest are in `hotspots.csv`).
+pub const MARKED_HOTSPOTS: usize = 5;
+
+/// The top of a linear field colour scale: the larger of the [`FIELD_PERCENTILE`] quantile of
+/// the finite magnitudes and `floor` (the largest hot spot off the sharp corners, V/m), or
+/// `None` (the whole range) when the peak is within 1.5 times of it and saturating would
+/// hide more than it shows.
+pub fn field_saturation(magnitude: &[f64], floor: f64) -> Option<f64> {
     let mut m: Vec<f64> = magnitude
         .iter()
         .copied()
@@ -68,7 +113,8 @@ pub fn field_saturation(magnitude: &[f64]) -> Option<f64> {
     let k = ((m.len() - 1) as f64 * FIELD_PERCENTILE).round() as usize;
     let q = sample::rank(&mut m, k)?;
     let peak = m[k..].iter().copied().fold(q, f64::max);
-    (q > 0.0 && peak > 1.5 * q).then_some(q)
+    let top = q.max(floor);
+    (top > 0.0 && peak > 1.5 * top).then_some(top)
 }
 
 /// `v` with an SI prefix and its unit: "721 V/m", "4.8 kV/m".
@@ -81,6 +127,105 @@ fn with_unit(v: f64, unit: &str) -> String {
     }
 }
 
+/// What every picture of a solution shares: outlines, marks, units.
+struct Scene<'a> {
+    conductors: Vec<Outline>,
+    dielectrics: Vec<Outline>,
+    markers: Vec<Marker>,
+    unit: LengthUnit<'a>,
+    axis_names: [&'static str; 2],
+    /// " (5 of 8 hot spots marked; all in hotspots.csv)" when not all are marked.
+    marks_note: String,
+}
+
+impl<'a> Scene<'a> {
+    fn new(src: &'a DesignSource, sol: &Solution, opts: &RenderOptions) -> Scene<'a> {
+        let design = &src.design;
+        let unit = LengthUnit {
+            label: src.unit.name(),
+            metres: src.unit.scale(),
+        };
+        let settled: Vec<f64> = sol.conductors.iter().map(|c| c.potential).collect();
+        let (_, dielectrics) = outlines(design);
+        // Hot spots in the picture's window, in their ranking; the first few marked.
+        let (x, y) = opts.shown(design.domain.x, design.domain.y, unit);
+        let inside = |h: &&Hotspot| (x[0]..=x[1]).contains(&h.x) && (y[0]..=y[1]).contains(&h.y);
+        let shown: Vec<(usize, &Hotspot)> = sol
+            .hotspots
+            .iter()
+            .enumerate()
+            .filter(|(_, h)| inside(h))
+            .collect();
+        let markers = shown
+            .iter()
+            .take(MARKED_HOTSPOTS)
+            .map(|(k, h)| Marker {
+                at: [h.x, h.y],
+                number: *k as u32 + 1,
+            })
+            .collect();
+        let marks_note = if shown.len() > MARKED_HOTSPOTS {
+            format!(
+                " ({MARKED_HOTSPOTS} of {} hot spots marked; all in hotspots.csv)",
+                shown.len()
+            )
+        } else {
+            String::new()
+        };
+        Scene {
+            conductors: named_conductors(design, Some(&settled)),
+            dielectrics,
+            markers,
+            unit,
+            axis_names: axis_names(design),
+            marks_note,
+        }
+    }
+
+    fn map<'b>(&'b self, grid: &'b Grid, values: &'b [f64], title: &'b str) -> MapInput<'b> {
+        MapInput {
+            title,
+            length_unit: self.unit,
+            axis_names: self.axis_names,
+            conductors: &self.conductors,
+            dielectrics: &self.dielectrics,
+            markers: &self.markers,
+            ..MapInput::new(grid, values)
+        }
+    }
+}
+
+/// The probes as pins, each labelled by its name and, when given, its reading.
+fn probe_pins(design: &Design, reading: impl Fn(usize) -> Option<String>) -> Vec<Pin> {
+    design
+        .probes
+        .iter()
+        .enumerate()
+        .map(|(k, p)| Pin {
+            at: p.at,
+            label: match reading(k) {
+                Some(r) => format!("{}: {r}", p.name),
+                None => p.name.clone(),
+            },
+            kind: PinKind::Probe,
+        })
+        .collect()
+}
+
+/// The worst-margin point as a pin: "worst margin 0.30", with `field` appended when given.
+fn worst_pin(sol: &Solution, field: Option<String>) -> Option<Pin> {
+    let w = sol.worst_margin.as_ref()?;
+    let m = w.margin?;
+    Some(Pin {
+        at: [w.x, w.y],
+        label: match field {
+            Some(f) => format!("worst margin {m:.2} at {f}"),
+            None => format!("worst margin {m:.2}"),
+        },
+        kind: PinKind::WorstMargin,
+    })
+}
+
 /// `potential.png` and `field.png` of a solution; `log_field` draws the field on a
 /// logarithmic scale. The two pictures are drawn at the same time (each on its own).
 pub fn field_maps(
@@ -90,20 +235,7 @@ pub fn field_maps(
     opts: &RenderOptions,
 ) -> (RgbImage, RgbImage) {
     let design = &src.design;
-    let (conductors, dielectrics) = outlines(design);
-    let unit = LengthUnit {
-        label: src.unit.name(),
-        metres: src.unit.scale(),
-    };
-    let markers: Vec<Marker> = sol
-        .hotspots
-        .iter()
-        .enumerate()
-        .map(|(k, h)| Marker {
-            at: [h.x, h.y],
-            number: k as u32 + 1,
-        })
-        .collect();
+    let scene = Scene::new(src, sol, opts);
     let potential_map = || {
         let potential: Vec<f64> = sol
             .potential
@@ -117,15 +249,15 @@ pub fn field_maps(
                 }
             })
             .collect();
-        let mut map = MapInput::new(&sol.grid, &potential);
-        map.title = "Potential";
+        let pins = probe_pins(design, |k| {
+            let v = sol.probes.get(k)?.potential;
+            v.is_finite().then(|| with_unit(v, "V"))
+        });
+        let title = format!("Potential{}", scene.marks_note);
+        let mut map = scene.map(&sol.grid, &potential, &title);
         map.quantity = "potential";
         map.unit = "V";
-        map.length_unit = unit;
-        map.axis_names = axis_names(design);
-        map.conductors = &conductors;
-        map.dielectrics = &dielectrics;
-        map.markers = &markers;
+        map.pins = &pins;
         map.contours = ContourStyle::Auto;
         let eps: Vec<f64> = sol
             .raster
@@ -142,31 +274,52 @@ pub fn field_maps(
     };
     let field_map = || {
         let magnitude = sol.field_magnitude();
+        let windowed = render::shown_values(&sol.grid, magnitude, scene.unit, opts);
+        let shown = windowed.as_deref().unwrap_or(magnitude);
+        // Never below the largest hot spot off the sharp corners (in the window).
+        let (x, y) = opts.shown(design.domain.x, design.domain.y, scene.unit);
+        let floor = sol
+            .hotspots
+            .iter()
+            .filter(|h| !h.singular && (x[0]..=x[1]).contains(&h.x) && (y[0]..=y[1]).contains(&h.y))
+            .map(|h| h.magnitude)
+            .fold(0.0, f64::max);
         let top = if log_field {
             None
         } else {
-            field_saturation(magnitude)
+            field_saturation(shown, floor)
         };
-        let peak = sample::finite_range(magnitude).map_or(0.0, |r| r.1);
-        let title = match top {
-            _ if log_field => "Field magnitude (logarithmic scale)".to_string(),
-            Some(q) => format!(
-                "Field magnitude (colours saturate above {}; peak {})",
-                with_unit(q, "V/m"),
-                with_unit(peak, "V/m")
-            ),
-            None => "Field magnitude".to_string(),
+        let worst = worst_pin(
+            sol,
+            sol.worst_margin.as_ref().map(|w| {
+                let beyond = top.is_some_and(|t| w.magnitude > t);
+                format!(
+                    "{}{}",
+                    with_unit(w.magnitude, "V/m"),
+                    if beyond {
+                        ", above the colour scale"
+                    } else {
+                        ""
+                    }
+                )
+            }),
+        );
+        let mut pins = probe_pins(design, |k| {
+            let f = sol.probes.get(k)?.field;
+            let e = f[0].hypot(f[1]);
+            e.is_finite().then(|| with_unit(e, "V/m"))
+        });
+        pins.extend(worst);
+        let title = if log_field {
+            format!("Field magnitude, logarithmic scale{}", scene.marks_note)
+        } else {
+            format!("Field magnitude{}", scene.marks_note)
         };
-        let mut map = MapInput::new(&sol.grid, magnitude);
-        map.title = &title;
+        let mut map = scene.map(&sol.grid, magnitude, &title);
         map.range = top.map(|q| [0.0, q]);
         map.quantity = "|E|";
         map.unit = "V/m";
-        map.length_unit = unit;
-        map.axis_names = axis_names(design);
-        map.conductors = &conductors;
-        map.dielectrics = &dielectrics;
-        map.markers = &markers;
+        map.pins = &pins;
         map.contours = ContourStyle::None;
         map.scale = if log_field { Scale::Log } else { Scale::Linear };
         render::render_map(&map, opts)
@@ -174,10 +327,45 @@ pub fn field_maps(
     rayon::join(potential_map, field_map)
 }
 
+/// Decades of margin a `margin.png` colour bar spans above the lowest margin.
+pub const MARGIN_DECADES: i32 = 3;
+
+/// `margin.png`: the local margin to breakdown (strength over |E|) wherever a material has a
+/// strength, on a logarithmic scale from the lowest margin (node values and the surface
+/// search's worst margin, whichever is lower: the danger end, never clipped) up
+/// [`MARGIN_DECADES`] decades; the worst-margin point ringed. `None` when no material has a
+/// strength or the field is zero everywhere.
+pub fn margin_map(src: &DesignSource, sol: &Solution, opts: &RenderOptions) -> Option<RgbImage> {
+    let design = &src.design;
+    let margins = margin_map::node_margins(design, &sol.raster.material, sol.field_magnitude())?;
+    let lowest = margins
+        .iter()
+        .copied()
+        .chain(sol.worst_margin.as_ref().and_then(|w| w.margin))
+        .filter(|m| m.is_finite() && *m > 0.0)
+        .fold(f64::INFINITY, f64::min);
+    if !lowest.is_finite() {
+        return None;
+    }
+    let scene = Scene::new(src, sol, opts);
+    let mut pins = probe_pins(design, |_| None);
+    pins.extend(worst_pin(sol, None));
+    let title = format!("Margin to breakdown, strength / |E|{}", scene.marks_note);
+    let mut map = scene.map(&sol.grid, &margins, &title);
+    let quantity = format!("margin (lowest {lowest:.2}, at the bottom)");
+    map.quantity = &quantity;
+    map.pins = &pins;
+    map.scale = Scale::Log;
+    map.palette = Palette::Sequential;
+    map.range = Some([lowest, lowest * 10f64.powi(MARGIN_DECADES)]);
+    map.contours = ContourStyle::Auto;
+    Some(render::render_map(&map, opts))
+}
+
 /// The geometry preview of `check`, with the node lines of `grid` when given.
 pub fn preview(src: &DesignSource, grid: Option<&Grid>, opts: &RenderOptions) -> RgbImage {
     let design = &src.design;
-    let (conductors, _) = outlines(design);
+    let conductors = named_conductors(design, None);
     let tol = tolerance(design);
     let materials: Vec<Material> = design
         .dielectrics
@@ -187,15 +375,7 @@ pub fn preview(src: &DesignSource, grid: Option<&Grid>, opts: &RenderOptions) ->
             permittivity: d.permittivity,
         })
         .collect();
-    let markers: Vec<Marker> = design
-        .probes
-        .iter()
-        .enumerate()
-        .map(|(k, p)| Marker {
-            at: p.at,
-            number: k as u32 + 1,
-        })
-        .collect();
+    let pins = probe_pins(design, |_| None);
     let mut input = PreviewInput::new(design.domain.x, design.domain.y);
     input.title = "Design preview";
     input.length_unit = LengthUnit {
@@ -206,7 +386,7 @@ pub fn preview(src: &DesignSource, grid: Option<&Grid>, opts: &RenderOptions) ->
     input.background_permittivity = design.background.permittivity;
     input.dielectrics = &materials;
     input.conductors = &conductors;
-    input.markers = &markers;
+    input.pins = &pins;
     input.grid_lines = grid.map(|g| [g.xs(), g.ys()]);
     render::render_preview(&input, opts)
 }
@@ -219,15 +399,45 @@ mod tests {
     fn a_few_singular_nodes_saturate_the_field_scale_a_smooth_field_does_not() {
         // 1000 nodes of a smooth field from 1 to 2 V/m.
         let smooth: Vec<f64> = (0..1000).map(|k| 1.0 + k as f64 / 999.0).collect();
-        assert_eq!(field_saturation(&smooth), None);
+        assert_eq!(field_saturation(&smooth, 0.0), None);
         // The same with three corner nodes at 50 V/m and conductor nodes (NaN).
         let mut spiky = smooth.clone();
         spiky.extend([50.0, 50.0, 50.0, f64::NAN, f64::NAN]);
-        let q = field_saturation(&spiky).expect("saturates");
+        let q = field_saturation(&spiky, 0.0).expect("saturates");
         assert!((1.9..=2.0).contains(&q), "{q}");
+        // A hot spot off the corners at 20 V/m is never saturated; one at 40 V/m leaves
+        // nothing worth saturating.
+        assert_eq!(field_saturation(&spiky, 20.0), Some(20.0));
+        assert_eq!(field_saturation(&spiky, 40.0), None);
         // Nothing to scale.
-        assert_eq!(field_saturation(&[f64::NAN, 0.0]), None);
-        assert_eq!(field_saturation(&[0.0; 10]), None);
+        assert_eq!(field_saturation(&[f64::NAN, 0.0], 0.0), None);
+        assert_eq!(field_saturation(&[0.0; 10], 0.0), None);
+    }
+
+    #[test]
+    fn conductors_are_named_with_their_potentials_floating_ones_dashed() {
+        use fieldgrid_solver::design::{Conductor, Shape};
+        let rect = Shape::Rect {
+            x: [0.0, 1.0],
+            y: [0.0, 1.0],
+            round: 0.0,
+        };
+        let mut d = Design::default();
+        for (name, drive) in [("rod", Drive::Fixed(5e4)), ("foil", Drive::Floating)] {
+            d.conductors.push(Conductor {
+                name: name.into(),
+                drive,
+                shape: rect.clone(),
+                joined: Vec::new(),
+            });
+        }
+        let before = named_conductors(&d, None);
+        assert_eq!(before[0].name, "rod, 50 kV");
+        assert_eq!(before[0].edge, Edge::Solid);
+        assert_eq!(before[1].name, "foil, floating");
+        assert_eq!(before[1].edge, Edge::Dashed);
+        let after = named_conductors(&d, Some(&[5e4, 34112.766]));
+        assert_eq!(after[1].name, "foil, floating at 34.1 kV");
     }
 
     #[test]

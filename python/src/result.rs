@@ -42,7 +42,10 @@ pub fn render_options(width: u32) -> PyResult<RenderOptions> {
             "picture_width {width}: must lie between 400 and 8000 px"
         )));
     }
-    Ok(RenderOptions { width })
+    Ok(RenderOptions {
+        width,
+        ..RenderOptions::default()
+    })
 }
 
 fn f64_bytes<'py>(py: Python<'py>, v: impl IntoIterator<Item = f64>) -> Bound<'py, PyBytes> {

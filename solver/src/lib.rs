@@ -21,6 +21,7 @@ mod hotspot_search;
 pub mod line;
 pub mod line_study;
 mod links;
+pub mod margin_map;
 pub mod material;
 pub mod newton;
 pub mod open;

@@ -10,6 +10,7 @@ mod compare;
 mod csv_roundtrip;
 mod nets;
 mod pictures;
+mod pictures_review;
 mod robustness;
 mod spice;
 mod svg_import;

@@ -502,12 +502,16 @@ pub fn run(args: &CompareArgs) -> Result<u8, Failure> {
         ));
     }
     let picture = match (&base.solution, &new.solution, &out) {
-        (Some((sb, _)), Some((sn, src)), Some(_)) => {
+        (Some((sb, base_src)), Some((sn, src)), Some(_)) => {
             let (gb, gn) = (&sb.grid, &sn.grid);
             let same_domain =
                 [gb.x0(), gb.x1(), gb.y0(), gb.y1()] == [gn.x0(), gn.x1(), gn.y0(), gn.y1()];
             if same_domain {
-                Some(change_picture(sb, sn, src, &args.pictures.render_options()))
+                Some(change_picture(
+                    (sb, base_src),
+                    (sn, src),
+                    &args.pictures.render_options(),
+                ))
             } else {
                 remarks.push(
                     "no field_change.png: the two designs have different domains".to_string(),
@@ -536,14 +540,15 @@ pub fn run(args: &CompareArgs) -> Result<u8, Failure> {
     })
 }
 
-/// The map of |E|(NEW) - |E|(BASE) on their common grid, NEW's outlines drawn.
+/// The map of |E|(NEW) - |E|(BASE) on their common grid, NEW's conductors filled and
+/// named, and every BASE conductor that NEW lacks or has in another shape outlined dotted and
+/// named "(BASE)".
 fn change_picture(
-    base: &Solution,
-    new: &Solution,
-    src: &DesignSource,
+    (base, base_src): (&Solution, &DesignSource),
+    (new, src): (&Solution, &DesignSource),
     opts: &crate::render::RenderOptions,
 ) -> image::RgbImage {
-    use crate::render::{self, ContourStyle, MapInput, Palette};
+    use crate::render::{self, ContourStyle, MapInput, Outline, Palette};
     // On NEW's lattice; BASE's field carried onto it when the lines differ.
     let carried;
     let eb = if base.grid == new.grid {
@@ -563,9 +568,33 @@ fn change_picture(
         .collect();
     let k = ((mags.len() as f64 * 0.99) as usize).min(mags.len().saturating_sub(1));
     let top = crate::render::sample::rank(&mut mags, k).unwrap_or(0.0);
-    let (conductors, dielectrics) = crate::pictures::outlines(&src.design);
+    let (_, dielectrics) = crate::pictures::outlines(&src.design);
+    let settled: Vec<f64> = new.conductors.iter().map(|c| c.potential).collect();
+    let conductors = crate::pictures::named_conductors(&src.design, Some(&settled));
+    let tol = Outline::picture_tolerance(src.design.domain.x, src.design.domain.y);
+    let former: Vec<Outline> = base_src
+        .design
+        .conductors
+        .iter()
+        .filter_map(|b| {
+            let same = src.design.conductors.iter().find(|n| n.name == b.name);
+            let label = match same {
+                Some(n) if n.shape == b.shape && n.joined == b.joined => return None,
+                Some(_) => format!("{} (BASE)", b.name),
+                None => format!("{} (BASE only)", b.name),
+            };
+            // Every piece, under one name (the outline is dotted, never filled).
+            let mut o = Outline::from_shape(label, &b.shape, tol);
+            for piece in &b.joined {
+                let p = Outline::from_shape("", piece, tol);
+                o.rings.extend(p.rings);
+                o.lines.extend(p.lines);
+            }
+            Some(o)
+        })
+        .collect();
     let input = MapInput {
-        title: "change in field magnitude, NEW minus BASE (colours saturate at the largest 1 %)",
+        title: "Change in field magnitude, NEW minus BASE (colours saturate at the largest 1 %)",
         quantity: "change of |E|",
         unit: "V/m",
         length_unit: render::LengthUnit {
@@ -575,6 +604,7 @@ fn change_picture(
         axis_names: crate::pictures::axis_names(&src.design),
         conductors: &conductors,
         dielectrics: &dielectrics,
+        former: &former,
         palette: Palette::Diverging,
         contours: ContourStyle::None,
         range: (top > 0.0).then_some([-top, top]),

@@ -206,6 +206,9 @@ pub fn write_line_results(
         crate::pictures::field_maps(src, &ls.solution, false, &pictures.render_options());
     out.write_png("potential.png", &potential_png)?;
     out.write_png("field.png", &field_png)?;
+    if let Some(img) = crate::pictures::margin_map(src, &ls.solution, &pictures.render_options()) {
+        out.write_png("margin.png", &img)?;
+    }
     Ok(())
 }
 

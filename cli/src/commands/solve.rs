@@ -223,10 +223,13 @@ pub fn write_files(
             out.write(name, &bytes)
         })?;
     }
-    // Both pictures drawn and encoded at the same time, on the threads the solve had.
-    let (potential_png, field_png) = timings.time("pictures", || {
+    // The pictures drawn and encoded at the same time, on the threads the solve had.
+    let ((potential_png, field_png), margin_png) = timings.time("pictures", || {
         with_threads(files.threads, || {
-            crate::pictures::field_maps(src, sol, files.log_field, &files.pictures)
+            rayon::join(
+                || crate::pictures::field_maps(src, sol, files.log_field, &files.pictures),
+                || crate::pictures::margin_map(src, sol, &files.pictures),
+            )
         })
     })?;
     timings.time("png", || {
@@ -237,7 +240,11 @@ pub fn write_files(
             )
         })?;
         out.write("potential.png", &potential?)?;
-        out.write("field.png", &field?)
+        out.write("field.png", &field?)?;
+        match &margin_png {
+            Some(img) => out.write_png("margin.png", img).map(|_| ()),
+            None => Ok(()),
+        }
     })?;
     let circuit = crate::spice::for_solution(sol, &src.design, &files.subcircuit, &files.source);
     if let Ok(net) = &circuit {

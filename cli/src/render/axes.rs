@@ -186,9 +186,41 @@ pub fn si(v: f64) -> String {
     }
 }
 
+/// A number without a unit to three significant digits, trailing zeros dropped: 0.5, 20,
+/// 1000, 0.0012; mantissa and exponent beyond 1e-4 ..= 1e6 ("2.5e7").
+pub fn plain(v: f64) -> String {
+    if v == 0.0 || !v.is_finite() {
+        return fixed(v, 0);
+    }
+    let e = v.abs().log10().floor() as i32;
+    if !(-4..=6).contains(&e) {
+        let m = v / 10f64.powi(e);
+        let s = fixed(m, 2);
+        let s = s.trim_end_matches('0').trim_end_matches('.');
+        return format!("{s}e{}", fixed(f64::from(e), 0));
+    }
+    let s = fixed(v, (2 - e).max(0) as usize);
+    if s.contains('.') {
+        s.trim_end_matches('0').trim_end_matches('.').to_string()
+    } else {
+        s
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn plain_numbers_keep_three_digits_and_no_prefix() {
+        assert_eq!(plain(0.5), "0.5");
+        assert_eq!(plain(0.304), "0.304");
+        assert_eq!(plain(20.0), "20");
+        assert_eq!(plain(1000.0), "1000");
+        assert_eq!(plain(123456.0), "123456");
+        assert_eq!(plain(2.5e7), "2.5e7");
+        assert_eq!(plain(-1.25), "\u{2212}1.25");
+    }
 
     #[test]
     fn ticks_of_subnormal_huge_and_non_finite_ranges_do_not_panic() {

@@ -28,6 +28,8 @@ pub(super) struct ColorScale {
     /// gets a pointed cap at that end.
     pub(super) over: bool,
     pub(super) under: bool,
+    /// The values have no unit: numbers are written plainly, without SI prefixes.
+    pub(super) plain: bool,
 }
 
 impl ColorScale {
@@ -96,6 +98,42 @@ impl ColorScale {
             exp3,
             over,
             under,
+            plain: input.unit.is_empty(),
+        }
+    }
+
+    /// A value as the bar writes it outside its ticks: with its unit and prefix, or plain.
+    pub(super) fn value_text(&self, v: f64, unit: &str) -> String {
+        if self.plain || unit.is_empty() {
+            return axes::plain(v);
+        }
+        let s = axes::si(v);
+        if s.ends_with(|c: char| c.is_ascii_digit()) {
+            format!("{s} {unit}")
+        } else {
+            format!("{s}{unit}")
+        }
+    }
+
+    /// What the bar says about its clipped ends: "clipped at 2.1 MV/m", "clipped at ±3 V/m",
+    /// "clipped below 0.3"; `None` when nothing is clipped.
+    pub(super) fn clip_note(&self, unit: &str) -> Option<[String; 2]> {
+        match (self.over, self.under) {
+            (true, true) if self.lo == -self.hi => Some([
+                "clipped at".into(),
+                format!("\u{b1}{}", self.value_text(self.hi, unit)),
+            ]),
+            (true, true) => Some([
+                "clipped to".into(),
+                format!(
+                    "{} \u{2026} {}",
+                    self.value_text(self.lo, unit),
+                    self.value_text(self.hi, unit)
+                ),
+            ]),
+            (true, false) => Some(["clipped at".into(), self.value_text(self.hi, unit)]),
+            (false, true) => Some(["clipped below".into(), self.value_text(self.lo, unit)]),
+            (false, false) => None,
         }
     }
 
@@ -152,7 +190,14 @@ impl ColorScale {
             if v.len() < 2 {
                 v = vec![self.lo, self.hi];
             }
-            v.into_iter().map(|x| (x, axes::si(x))).collect()
+            let text = |x: f64| {
+                if self.plain {
+                    axes::plain(x)
+                } else {
+                    axes::si(x)
+                }
+            };
+            v.into_iter().map(|x| (x, text(x))).collect()
         } else {
             let s = self.scale();
             let (step, t) = axes::ticks(self.lo / s, self.hi / s, max);
@@ -180,7 +225,7 @@ impl ColorScale {
                     (
                         v,
                         if unit.is_empty() {
-                            axes::si(v)
+                            axes::plain(v)
                         } else {
                             format!("{}{unit}", axes::si(v))
                         },
@@ -230,6 +275,7 @@ pub(super) fn draw_bar(
     cs: &ColorScale,
     ticks: &[(f64, String)],
     label: &str,
+    unit: &str,
 ) {
     let x0 = plot.right() + BAR_GAP;
     let (y0, h) = (plot.y0, plot.h as i64);
@@ -280,6 +326,21 @@ pub(super) fn draw_bar(
             VAlign::Middle,
         );
         widest = widest.max(b[2] - b[0]);
+    }
+    // What is clipped, under the bar (below its lower cap).
+    if let Some(note) = cs.clip_note(unit) {
+        let top = y0 + h + 6 + if cs.under { BAR_CAP } else { 0 };
+        for (k, line) in note.iter().enumerate() {
+            text::draw(
+                img,
+                line,
+                st,
+                (x0 - 1) as f32,
+                (top + 14 * k as i64) as f32,
+                HAlign::Left,
+                VAlign::Top,
+            );
+        }
     }
     let cx = (x0 + BAR_W + 8) as f32 + widest + 10.0 + 9.0;
     text::draw_vertical(

@@ -9,8 +9,9 @@ use fieldgrid_solver::design::Point;
 use image::RgbImage;
 
 use super::canvas::{Layer, P};
+use super::labels::{boxed_label, label_box, Taken};
 use super::layout::Plot;
-use super::overlay::{boxed_label, contrast_ink, label_box, Taken};
+use super::overlay::contrast_ink;
 use super::text::{self, Style};
 use super::{contour, fieldlines, sample, FieldLines, MapInput, INK};
 

@@ -2,20 +2,23 @@
 //! then the overlays and lines in a fixed order, the axes, the bar and the title.
 //!
 //! Invariants: one value per grid node; a map's frame depends on the grid, the length unit
-//! and the options only; drawing order is colours, conductor fill, field lines, contours,
-//! dielectric outlines, conductor outlines, names, marks, axes, bar, title.
+//! and the options only; with a zoom window the colour range follows the nodes in the window
+//! (and one node line around it); drawing order is colours, conductor fill, field lines,
+//! contours, dielectric outlines, another revision's outlines, conductor outlines, names,
+//! pins, marks, axes, bar, title.
 
 use fieldgrid_solver::grid::Grid;
 use image::RgbImage;
 
 use super::color_scale::{bar_rect, bar_ticks, draw_bar, ColorScale, BAR_BLOCK};
 use super::colormap::NO_VALUE;
+use super::labels::{draw_names, place_names, place_pin_labels, Owners};
 use super::layout::{draw_axes, draw_title, layout, Frame, Layout, Plot};
 use super::lines::{draw_contours, draw_field_lines};
 use super::overlay::{
-    conductor_layers, draw_markers, draw_names, mark_boxes, outline_dielectrics, place_names,
+    conductor_layers, draw_markers, draw_pins, mark_boxes, outline_dielectrics, outline_former,
 };
-use super::{sample, LengthUnit, MapInput, RenderOptions, INK, PAPER};
+use super::{sample, LengthUnit, MapInput, PinKind, RenderOptions, INK, PAPER};
 
 /// The frame [`render_map`] uses for a grid: it depends on the grid, the length unit and the
 /// options only, not on the values.
@@ -29,13 +32,39 @@ pub fn map_frame(grid: &Grid, length_unit: LengthUnit, opts: &RenderOptions) -> 
 }
 
 pub(super) fn map_layout(grid: &Grid, unit: LengthUnit, opts: &RenderOptions) -> Layout {
-    layout(
-        [grid.x0(), grid.x1()],
-        [grid.y0(), grid.y1()],
-        unit,
-        BAR_BLOCK,
-        opts,
-    )
+    let (x, y) = opts.shown([grid.x0(), grid.x1()], [grid.y0(), grid.y1()], unit);
+    layout(x, y, unit, BAR_BLOCK, opts)
+}
+
+/// With a zoom window in `opts`, the values of the nodes in it (and one node line around it)
+/// with NaN for the others, as the colour range sees them; `None` without a window.
+pub fn shown_values(
+    grid: &Grid,
+    values: &[f64],
+    unit: LengthUnit,
+    opts: &RenderOptions,
+) -> Option<Vec<f64>> {
+    let whole = ([grid.x0(), grid.x1()], [grid.y0(), grid.y1()]);
+    let (x, y) = opts.shown(whole.0, whole.1, unit);
+    ((x, y) != whole).then(|| in_window(grid, values, x, y))
+}
+
+/// The values of the nodes in the window `x` by `y` and one node line around it; NaN for the
+/// others (they set no colour range).
+fn in_window(grid: &Grid, values: &[f64], x: [f64; 2], y: [f64; 2]) -> Vec<f64> {
+    let span = |lines: &[f64], r: [f64; 2]| {
+        let a = lines.partition_point(|&v| v < r[0]).saturating_sub(1);
+        let b = (lines.partition_point(|&v| v <= r[1]) + 1).min(lines.len());
+        a..b
+    };
+    let (xs, ys) = (span(grid.xs(), x), span(grid.ys(), y));
+    let mut out = vec![f64::NAN; values.len()];
+    for j in ys {
+        for i in xs.clone() {
+            out[grid.idx(i, j)] = values[grid.idx(i, j)];
+        }
+    }
+    out
 }
 /// Draws a field map.
 pub fn render_map(input: &MapInput, opts: &RenderOptions) -> RgbImage {
@@ -52,7 +81,16 @@ pub(super) fn draw_map(input: &MapInput, opts: &RenderOptions) -> (RgbImage, Plo
         width,
         height,
     } = map_layout(grid, input.length_unit, opts);
-    let cs = ColorScale::new(input);
+    let whole = plot.xr == [grid.x0(), grid.x1()] && plot.yr == [grid.y0(), grid.y1()];
+    let cs = if whole {
+        ColorScale::new(input)
+    } else {
+        let shown = in_window(grid, input.values, plot.xr, plot.yr);
+        ColorScale::new(&MapInput {
+            values: &shown,
+            ..*input
+        })
+    };
     let bar_ticks = bar_ticks(&cs, plot.h);
     let (xr, yr, pw, ph) = (plot.xr, plot.yr, plot.w, plot.h);
     let mut img = RgbImage::from_pixel(width as u32, height as u32, PAPER);
@@ -81,8 +119,24 @@ pub(super) fn draw_map(input: &MapInput, opts: &RenderOptions) -> (RgbImage, Plo
         Some((lx, ly)) => samples.at(lx, ly).is_nan() || cl.fill.get(x, y) > 0.0,
         None => true,
     };
-    let mut taken = mark_boxes(&plot, input.markers);
-    let names = place_names(&plot, input.conductors, input.dielectrics, &mut taken);
+    let mut taken = mark_boxes(&plot, input.markers, input.pins);
+    let owners = Owners::new(&img, &plot, input.conductors);
+    let mut names = place_pin_labels(&plot, input.pins, PinKind::WorstMargin, &owners, &mut taken);
+    names.extend(place_names(
+        &plot,
+        input.conductors,
+        input.dielectrics,
+        input.former,
+        &owners,
+        &mut taken,
+    ));
+    names.extend(place_pin_labels(
+        &plot,
+        input.pins,
+        PinKind::Probe,
+        &owners,
+        &mut taken,
+    ));
     if let Some(fl) = input.field_lines {
         draw_field_lines(&mut img, &plot, input, &fl, &samples, &masked);
     }
@@ -91,8 +145,10 @@ pub(super) fn draw_map(input: &MapInput, opts: &RenderOptions) -> (RgbImage, Plo
         draw_contours(&mut img, &plot, &samples, &levels, &masked, &mut taken);
     }
     outline_dielectrics(&mut img, &plot, input.dielectrics, &masked);
+    outline_former(&mut img, &plot, input.former, &off_plot);
     cl.edge.composite(&mut img, INK, 1.0, off_plot);
     cl.thin.composite(&mut img, INK, 1.0, off_plot);
+    draw_pins(&mut img, &plot, input.pins);
     draw_names(&mut img, &names);
     draw_markers(&mut img, &plot, input.markers, &mut taken);
 
@@ -103,7 +159,7 @@ pub(super) fn draw_map(input: &MapInput, opts: &RenderOptions) -> (RgbImage, Plo
         (false, true) => input.quantity.to_string(),
         (true, _) => unit,
     };
-    draw_bar(&mut img, &plot, &cs, &bar_ticks, &bar_label);
+    draw_bar(&mut img, &plot, &cs, &bar_ticks, &bar_label, input.unit);
     draw_title(&mut img, input.title, (left + 10) as i64, plot.distorted);
     (img, plot)
 }

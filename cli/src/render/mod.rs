@@ -4,9 +4,11 @@
 //! A map is the node values resampled to the plot's pixels ([`sample`]), coloured with one of
 //! our perceptually uniform maps ([`colormap`]), with equipotential lines at round values
 //! ([`contour`]), optional field lines seeded by surface charge ([`fieldlines`]), conductors
-//! filled grey, outlined and named, dielectric outlines dashed, hot spots marked and numbered,
-//! round axis ticks in the design's length unit ([`axes`]), a colour bar with values and the
-//! SI unit, and a title, in an embedded open font ([`text`]).
+//! filled grey, outlined and named (a floating one with a dashed outline), dielectric outlines
+//! dashed, another revision's outlines dotted, hot spots marked and numbered, pins (probes and
+//! the worst-margin point) marked and named, round axis ticks in the design's length unit
+//! ([`axes`]), a colour bar with values, the SI unit and what it clips, and a title, in an
+//! embedded open font ([`text`]). [`RenderOptions::zoom`] draws a window of the domain.
 //!
 //! Invariants:
 //! - The output is a pure function of the input: same input, same pixels.
@@ -17,12 +19,16 @@
 //!   only linearly with the node count (one pass for the value range).
 //! - A pixel without a value (NaN node values, e.g. inside conductors) is painted
 //!   [`colormap::NO_VALUE`], never a colour of the map; lines are not drawn over such pixels.
+//! - A name sits inside its own conductor or beside it (with a leader line when it had to
+//!   move away), never on another conductor, another label or off the plot; a name that finds
+//!   no such place is left out rather than drawn over something.
+//! - A colour range narrower than the values says so on the bar ("clipped at ...").
 //!
 //! This file holds what callers pass in; the drawing is split by concern: `layout` places the
 //! plot, axes and title (and reports the [`Frame`]), `color_scale` maps values to colours and
 //! draws the bar, `overlay` draws conductors, outlines, names and marks and keeps labels
-//! apart, `lines` draws equipotentials and field lines, and `map` and `preview` put the two
-//! kinds of picture together.
+//! apart (`labels` finds the places), `lines` draws equipotentials and field lines, and `map`
+//! and `preview` put the two kinds of picture together.
 
 pub mod axes;
 pub mod canvas;
@@ -30,6 +36,7 @@ mod color_scale;
 pub mod colormap;
 pub mod contour;
 pub mod fieldlines;
+mod labels;
 mod layout;
 mod lines;
 mod map;
@@ -44,8 +51,8 @@ use fieldgrid_solver::grid::Grid;
 use image::Rgb;
 
 pub use layout::Frame;
-pub use map::{map_frame, render_map};
-pub use outline::Outline;
+pub use map::{map_frame, render_map, shown_values};
+pub use outline::{Edge, Outline};
 pub use preview::{preview_frame, render_preview, LEGEND_PITCH};
 
 /// Shortest plot side, px, before the aspect ratio gives way.
@@ -65,6 +72,26 @@ pub struct Marker {
     pub at: Point,
     /// Number written beside it.
     pub number: u32,
+}
+
+/// What a [`Pin`] marks.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum PinKind {
+    /// A probe point: a small diamond.
+    Probe,
+    /// The point of lowest margin to breakdown: a double ring, its label in bold.
+    WorstMargin,
+}
+
+/// A named mark: a probe, or the worst-margin point.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Pin {
+    /// Position, m.
+    pub at: Point,
+    /// Text written beside it.
+    pub label: String,
+    /// Its symbol.
+    pub kind: PinKind,
 }
 
 /// The design's length unit for tick labels.
@@ -154,6 +181,10 @@ pub struct MapInput<'a> {
     pub dielectrics: &'a [Outline],
     /// Numbered marks.
     pub markers: &'a [Marker],
+    /// Named marks (probes, the worst-margin point).
+    pub pins: &'a [Pin],
+    /// Outlines of another revision: dotted, not filled, named.
+    pub former: &'a [Outline],
     /// Iso-value lines.
     pub contours: ContourStyle,
     /// Colour scale.
@@ -181,6 +212,8 @@ impl<'a> MapInput<'a> {
             conductors: &[],
             dielectrics: &[],
             markers: &[],
+            pins: &[],
+            former: &[],
             contours: ContourStyle::Auto,
             scale: Scale::Linear,
             palette: Palette::Auto,
@@ -218,8 +251,10 @@ pub struct PreviewInput<'a> {
     pub dielectrics: &'a [Material],
     /// Conductors.
     pub conductors: &'a [Outline],
-    /// Numbered marks (e.g. probes).
+    /// Numbered marks.
     pub markers: &'a [Marker],
+    /// Named marks (e.g. probes).
+    pub pins: &'a [Pin],
     /// Node lines to draw over the materials: x of the columns and y of the rows, m.
     pub grid_lines: Option<[&'a [f64]; 2]>,
 }
@@ -237,6 +272,7 @@ impl<'a> PreviewInput<'a> {
             dielectrics: &[],
             conductors: &[],
             markers: &[],
+            pins: &[],
             grid_lines: None,
         }
     }
@@ -248,11 +284,37 @@ pub struct RenderOptions {
     /// Picture width, px (clamped to 400..=8000); a tall, narrow domain gets a narrower
     /// picture.
     pub width: u32,
+    /// Draw only this window of the domain: [x0, x1, y0, y1] in the input's
+    /// [`LengthUnit`]; cut to the domain, ignored when nothing of it is left. The colour
+    /// range follows the values in the window.
+    pub zoom: Option<[f64; 4]>,
 }
 
 impl Default for RenderOptions {
     fn default() -> Self {
-        RenderOptions { width: 1200 }
+        RenderOptions {
+            width: 1200,
+            zoom: None,
+        }
+    }
+}
+
+impl RenderOptions {
+    /// The part of the domain `x` by `y` (m) shown: the zoom window (in `unit`) cut to the
+    /// domain, or the whole domain.
+    pub fn shown(&self, x: [f64; 2], y: [f64; 2], unit: LengthUnit) -> ([f64; 2], [f64; 2]) {
+        let Some(z) = self.zoom else {
+            return (x, y);
+        };
+        let m = unit.metres;
+        let (zx, zy) = ([z[0] * m, z[1] * m], [z[2] * m, z[3] * m]);
+        let cx = [zx[0].min(zx[1]).max(x[0]), zx[0].max(zx[1]).min(x[1])];
+        let cy = [zy[0].min(zy[1]).max(y[0]), zy[0].max(zy[1]).min(y[1])];
+        if cx[1] > cx[0] && cy[1] > cy[0] {
+            (cx, cy)
+        } else {
+            (x, y)
+        }
     }
 }
 

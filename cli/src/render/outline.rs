@@ -8,6 +8,16 @@
 use fieldgrid_solver::design::{Point, Shape};
 use fieldgrid_solver::geometry::outline_polylines;
 
+/// How an outline's edge is drawn.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Default)]
+pub enum Edge {
+    /// A solid line (a conductor held at a potential, a dielectric's dashes).
+    #[default]
+    Solid,
+    /// A dashed line (a floating conductor).
+    Dashed,
+}
+
 /// A named outline in metres.
 #[derive(Clone, Debug, PartialEq, Default)]
 pub struct Outline {
@@ -17,6 +27,8 @@ pub struct Outline {
     pub rings: Vec<Vec<Point>>,
     /// Open polylines (thin conductors).
     pub lines: Vec<Vec<Point>>,
+    /// Edge style of a conductor.
+    pub edge: Edge,
 }
 
 impl Outline {
@@ -26,6 +38,7 @@ impl Outline {
             name: name.into(),
             rings: vec![ring],
             lines: Vec::new(),
+            edge: Edge::Solid,
         }
     }
 
@@ -35,6 +48,7 @@ impl Outline {
             name: name.into(),
             rings: Vec::new(),
             lines: vec![line],
+            edge: Edge::Solid,
         }
     }
 
@@ -47,6 +61,7 @@ impl Outline {
                 name: name.into(),
                 rings: Vec::new(),
                 lines: loops,
+                edge: Edge::Solid,
             };
         }
         // Closed loops come with their first point repeated at the end; rings close implicitly.
@@ -59,6 +74,7 @@ impl Outline {
             name: name.into(),
             rings: loops,
             lines: Vec::new(),
+            edge: Edge::Solid,
         }
     }
 

@@ -10,12 +10,11 @@ use image::{Rgb, RgbImage};
 
 use super::canvas::{self, fill_rect, rect_outline, P};
 use super::colormap::{self, NO_VALUE};
+use super::labels::{draw_names, place_names, place_pin_labels, Owners};
 use super::layout::{draw_axes, draw_title, ellipsize, layout, Frame, Layout, Plot};
-use super::overlay::{
-    conductor_layers, draw_markers, draw_names, mark_boxes, outline_dielectrics, place_names,
-};
+use super::overlay::{conductor_layers, draw_markers, draw_pins, mark_boxes, outline_dielectrics};
 use super::text::{self, HAlign, Style, VAlign};
-use super::{Outline, PreviewInput, RenderOptions, GREY_INK, INK, PAPER};
+use super::{Outline, PinKind, PreviewInput, RenderOptions, GREY_INK, INK, PAPER};
 
 /// The frame [`render_preview`] uses for this input.
 pub fn preview_frame(input: &PreviewInput, opts: &RenderOptions) -> Frame {
@@ -139,8 +138,9 @@ fn grid_layer(plot: &Plot, [w, h]: [usize; 2], xs: &[f64], ys: &[f64]) -> canvas
 
 pub(super) fn preview_layout(input: &PreviewInput, opts: &RenderOptions) -> (Layout, Legend) {
     let legend = Legend::new(input);
+    let (x, y) = opts.shown(input.x, input.y, input.length_unit);
     (
-        layout(input.x, input.y, input.length_unit, legend.width(), opts),
+        layout(x, y, input.length_unit, legend.width(), opts),
         legend,
     )
 }
@@ -204,8 +204,17 @@ pub(super) fn draw_preview(input: &PreviewInput, opts: &RenderOptions) -> (RgbIm
     });
     cl.edge.composite(&mut img, INK, 1.0, off_plot);
     cl.thin.composite(&mut img, INK, 1.0, off_plot);
-    let mut taken = mark_boxes(&plot, input.markers);
-    let names = place_names(&plot, input.conductors, &outlines, &mut taken);
+    let mut taken = mark_boxes(&plot, input.markers, input.pins);
+    let owners = Owners::new(&img, &plot, input.conductors);
+    let mut names = place_names(&plot, input.conductors, &outlines, &[], &owners, &mut taken);
+    names.extend(place_pin_labels(
+        &plot,
+        input.pins,
+        PinKind::Probe,
+        &owners,
+        &mut taken,
+    ));
+    draw_pins(&mut img, &plot, input.pins);
     draw_names(&mut img, &names);
     draw_markers(&mut img, &plot, input.markers, &mut taken);
     draw_axes(&mut img, &plot, &ax, input.length_unit, input.axis_names);

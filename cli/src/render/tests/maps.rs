@@ -160,7 +160,13 @@ fn extreme_aspect_ratios_and_tiny_grids_render() {
     // All values missing, and a constant field: still a picture.
     let g = Grid::regular([0.0, 0.0], [1.0, 1.0], [3, 3]);
     for v in [vec![f64::NAN; 9], vec![2.5; 9]] {
-        let img = render_map(&MapInput::new(&g, &v), &RenderOptions { width: 400 });
+        let img = render_map(
+            &MapInput::new(&g, &v),
+            &RenderOptions {
+                width: 400,
+                ..RenderOptions::default()
+            },
+        );
         assert_eq!(img.width(), 400);
     }
 }

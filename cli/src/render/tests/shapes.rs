@@ -66,7 +66,13 @@ fn shapes_from_the_design_are_drawn_where_they_are() {
         conductors: &c,
         ..MapInput::new(&grid, &v)
     };
-    let (img, plot) = draw_map(&inp, &RenderOptions { width: 800 });
+    let (img, plot) = draw_map(
+        &inp,
+        &RenderOptions {
+            width: 800,
+            ..RenderOptions::default()
+        },
+    );
     keep("ring", &img);
     // Filled between the radii, open in the middle, ink on both circles.
     assert_eq!(px(&img, plot.px([5.0 * MM, 7.5 * MM])), NO_VALUE);
