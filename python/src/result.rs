@@ -188,6 +188,7 @@ impl NativeResult {
                     }
                     let pictures = fieldgrid_cli::args::PictureArgs {
                         picture_width: pictures.width,
+                        zoom: pictures.zoom,
                     };
                     fieldgrid_cli::commands::impedance::write_line_results(
                         &dir,
