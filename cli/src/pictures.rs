@@ -219,8 +219,8 @@ fn worst_pin(sol: &Solution, field: Option<String>) -> Option<Pin> {
     Some(Pin {
         at: [w.x, w.y],
         label: match field {
-            Some(f) => format!("worst margin {m:.2} at {f}"),
-            None => format!("worst margin {m:.2}"),
+            Some(f) => format!("worst margin {} at {f}", axes::plain(m)),
+            None => format!("worst margin {}", axes::plain(m)),
         },
         kind: PinKind::WorstMargin,
     })
@@ -352,7 +352,7 @@ pub fn margin_map(src: &DesignSource, sol: &Solution, opts: &RenderOptions) -> O
     pins.extend(worst_pin(sol, None));
     let title = format!("Margin to breakdown, strength / |E|{}", scene.marks_note);
     let mut map = scene.map(&sol.grid, &margins, &title);
-    let quantity = format!("margin (lowest {lowest:.2}, at the bottom)");
+    let quantity = format!("margin (lowest {}, at the bottom)", axes::plain(lowest));
     map.quantity = &quantity;
     map.pins = &pins;
     map.scale = Scale::Log;

@@ -132,8 +132,9 @@ pub fn prefix_exponent(magnitude: f64) -> i32 {
         return 0;
     }
     // A hair of slack so that 999.9999999 and 1000 pick the same prefix.
-    let e = ((magnitude * (1.0 + 1e-9)).log10() / 3.0).floor() as i32 * 3;
-    e.clamp(-15, 15)
+    // (In floats: the largest doubles overflow the slack to infinity.)
+    let e = ((magnitude * (1.0 + 1e-9)).log10() / 3.0).floor() * 3.0;
+    e.clamp(-15.0, 15.0) as i32
 }
 
 /// `v` (> 0) rounded up to one significant digit: 0.993 -> 1, 0.85 -> 0.9, 1.2e6 -> 2e6.
@@ -195,6 +196,9 @@ pub fn plain(v: f64) -> String {
     let e = v.abs().log10().floor() as i32;
     if !(-4..=6).contains(&e) {
         let m = v / 10f64.powi(e);
+        if !m.is_finite() {
+            return format!("{v:.2e}");
+        }
         let s = fixed(m, 2);
         let s = s.trim_end_matches('0').trim_end_matches('.');
         return format!("{s}e{}", fixed(f64::from(e), 0));
@@ -220,6 +224,8 @@ mod tests {
         assert_eq!(plain(123456.0), "123456");
         assert_eq!(plain(2.5e7), "2.5e7");
         assert_eq!(plain(-1.25), "\u{2212}1.25");
+        // The largest double takes the largest prefix (its slack overflows to infinity).
+        assert_eq!(prefix_exponent(f64::MAX), 15);
     }
 
     #[test]

@@ -7,7 +7,8 @@
 //! Invariants: a placed box lies inside the plot, clear of every box already taken and of
 //! every pixel of a conductor other than its own (a dielectric's or a pin's label of every
 //! conductor); a label that finds no such place is left out (except where a caller forces a
-//! place, see [`place_pin_labels`]); a leader line joins the box to a pixel of its own shape.
+//! place, see [`place_pin_labels`]); a leader line joins the box to a pixel of its own shape
+//! and crosses no other conductor.
 
 use image::{Rgb, RgbImage};
 
@@ -113,6 +114,19 @@ impl Owners {
                 let o = self.at(x, y);
                 o == 0 || o == own
             })
+        })
+    }
+
+    /// True when the segment a..b crosses no pixel of a conductor other than `own`.
+    fn path_clear(&self, a: P, b: P, own: u16) -> bool {
+        let n = (b[0] - a[0]).hypot(b[1] - a[1]).ceil().max(1.0) as usize;
+        (0..=n).all(|k| {
+            let t = k as f64 / n as f64;
+            let o = self.at(
+                (a[0] + t * (b[0] - a[0])).floor() as i64,
+                (a[1] + t * (b[1] - a[1])).floor() as i64,
+            );
+            o == 0 || o == own
         })
     }
 
@@ -252,7 +266,11 @@ fn place(
                     f64::from(centre[0].clamp(pb[0], pb[2])),
                     f64::from(centre[1].clamp(pb[1], pb[3])),
                 ]);
-                return Some((b, Some([edge_point(b, anchor), anchor])));
+                // A leader crossing another conductor would point at the wrong one.
+                let from = edge_point(b, anchor);
+                if owners.path_clear(from, anchor, t.own) {
+                    return Some((b, Some([from, anchor])));
+                }
             }
         }
     }
@@ -498,7 +516,8 @@ mod tests {
         let names = place_names(&p, &cs[..1], &[], &[], &owners, &mut taken);
         let n = &names[0];
         assert!(owners.clear(n.at, 1));
-        let [_, b] = n.leader.expect("moved away with a leader");
+        let [a, b] = n.leader.expect("moved away with a leader");
         assert_eq!(owners.at(b[0] as i64, b[1] as i64), 1);
+        assert!(owners.path_clear(a, b, 1), "the leader crosses a plate");
     }
 }
