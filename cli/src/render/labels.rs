@@ -7,8 +7,8 @@
 //! Invariants: a placed box lies inside the plot, clear of every box already taken and of
 //! every pixel of a conductor other than its own (a dielectric's or a pin's label of every
 //! conductor); a label that finds no such place is left out (except where a caller forces a
-//! place, see [`place_pin_labels`]); a leader line joins the box to a pixel of its own shape
-//! and crosses no other conductor.
+//! place, see [`place_pin_labels`]); a leader line joins the box to a pixel of its own shape,
+//! crossing no other conductor wherever such a place exists.
 
 use image::{Rgb, RgbImage};
 
@@ -237,25 +237,31 @@ fn place(
         (1.0, 1.0),
         (-1.0, 1.0),
     ];
-    for step in 1..=16 {
-        let d = 14.0 * step as f32;
-        for (dx, dy) in dirs {
-            let x = if dx > 0.0 {
-                pb[2] + d + bw / 2.0
-            } else if dx < 0.0 {
-                pb[0] - d - bw / 2.0
-            } else {
-                cx
-            };
-            let y = if dy > 0.0 {
-                pb[3] + d + bh / 2.0
-            } else if dy < 0.0 {
-                pb[1] - d - bh / 2.0
-            } else {
-                cy
-            };
-            let b = boxed(x, y);
-            if ok(b) {
+    // First with leaders that cross no other conductor (one that does could be read as
+    // pointing at it), then, rather than leave the name out, with any leader: its dot sits
+    // on its own shape.
+    for crossing in [false, true] {
+        for step in 1..=20 {
+            let d = 14.0 * step as f32;
+            for (dx, dy) in dirs {
+                let x = if dx > 0.0 {
+                    pb[2] + d + bw / 2.0
+                } else if dx < 0.0 {
+                    pb[0] - d - bw / 2.0
+                } else {
+                    cx
+                };
+                let y = if dy > 0.0 {
+                    pb[3] + d + bh / 2.0
+                } else if dy < 0.0 {
+                    pb[1] - d - bh / 2.0
+                } else {
+                    cy
+                };
+                let b = boxed(x, y);
+                if !ok(b) {
+                    continue;
+                }
                 let centre = [(b[0] + b[2]) / 2.0, (b[1] + b[3]) / 2.0];
                 let anchor = if t.own > 0 {
                     owners.nearest(t.own, t.pb, centre)
@@ -266,9 +272,8 @@ fn place(
                     f64::from(centre[0].clamp(pb[0], pb[2])),
                     f64::from(centre[1].clamp(pb[1], pb[3])),
                 ]);
-                // A leader crossing another conductor would point at the wrong one.
                 let from = edge_point(b, anchor);
-                if owners.path_clear(from, anchor, t.own) {
+                if crossing || owners.path_clear(from, anchor, t.own) {
                     return Some((b, Some([from, anchor])));
                 }
             }
