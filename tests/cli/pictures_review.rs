@@ -169,6 +169,16 @@ fn zoom_window_draws_only_the_window_with_axes_in_design_units() {
     // A window beyond the domain is cut to it.
     let cut = frame(Some([-5.0, 6.0, 3.0, 7.0]));
     assert_eq!(cut.x, [0.0, 6.0 * MM]);
+    // An empty or malformed window is refused as bad input.
+    let dir = scratch(SCRATCH, "zoom-refused");
+    let design = write(&dir, "design.toml", ROD);
+    let out = dir.join("out");
+    for bad in ["6,2,3,7", "2,6,3", "2,6,a,7"] {
+        expect(
+            run(&["solve", &design, "--out", s(&out), "--quiet", "--zoom", bad]),
+            2,
+        );
+    }
 }
 
 #[test]
