@@ -73,8 +73,8 @@ fn sharded_sweep_merges_into_the_unsharded_table_row_for_row() {
         header[..9],
         [
             "point",
-            "gap",
-            "w",
+            "gap (mm)",
+            "w (mm)",
             "C[a,a] (F/m)",
             "C[a,b] (F/m)",
             "C[b,a] (F/m)",
@@ -370,4 +370,50 @@ fn a_sweep_records_every_quantity_solve_reports() {
         s(&bad),
     ];
     expect_for(run(&args), 2, "--set of a varied parameter");
+}
+
+#[test]
+fn varied_parameter_columns_carry_the_declared_unit_or_the_file_unit_of_a_length() {
+    let text = r#"
+unit = "mil"
+[parameters]
+w = 20.0                # named in lengths only, through `half`: the file's unit
+half = "w/2"
+eps = 4.2               # a permittivity: no unit
+v = 5.0                 # a potential, declared below
+n = 2.0                 # named in a length and in a potential: no unit unless declared
+[parameter_units]
+v = "V"
+[grid]
+x = [0.0, 200.0]
+y = [0.0, 100.0]
+cell = 4.0
+[[dielectric]]
+name = "board"
+permittivity = "eps"
+rect = { x = [0.0, 200.0], y = [0.0, "n*10"] }
+[[conductor]]
+name = "trace"
+potential = "v*n"
+rect = { x = ["100 - half", "100 + half"], y = [20.0, 22.0] }
+"#;
+    let src = fieldgrid_cli::design_file::read_design(text, "units.toml", &[]).unwrap();
+    let unit = |p: &str| src.parameter_unit(p).to_string();
+    assert_eq!(
+        ["w", "half", "eps", "v", "n"].map(unit),
+        ["mil", "mil", "", "V", ""].map(String::from)
+    );
+    assert_eq!(
+        fieldgrid_cli::commands::sweep::varied_column("w", &unit("w")),
+        "w (mil)"
+    );
+    assert_eq!(
+        fieldgrid_cli::commands::sweep::varied_column("eps", ""),
+        "eps"
+    );
+
+    // A unit for a name that is not a parameter is refused at its key.
+    let bad = text.replace("v = \"V\"", "volts = \"V\"");
+    let e = fieldgrid_cli::design_file::read_design(&bad, "units.toml", &[]).unwrap_err();
+    assert!(e.to_string().contains("parameter_units.volts"), "{e}");
 }

@@ -46,6 +46,10 @@ pub struct DesignSource {
     pub text_hash: String,
     /// The parameter values used (overrides applied), in file order, in the file's units.
     pub parameters: Vec<(String, f64)>,
+    /// The unit of each parameter (as `parameters`; empty for none): the one
+    /// `[parameter_units]` declares, else the file's length unit for a parameter named only in
+    /// lengths. Sweep columns of varied parameters carry it.
+    pub parameter_units: Vec<String>,
     /// `[tolerances]`: (parameter, +/- tolerance in the file's units), in file order.
     pub tolerances: Vec<(String, f64)>,
     /// The file name as given.
@@ -55,6 +59,15 @@ pub struct DesignSource {
 }
 
 impl DesignSource {
+    /// The unit of parameter `name` (empty when it has none or the design has no such
+    /// parameter); see [`DesignSource::parameter_units`].
+    pub fn parameter_unit(&self, name: &str) -> &str {
+        self.parameters
+            .iter()
+            .position(|(n, _)| n == name)
+            .map_or("", |i| self.parameter_units[i].as_str())
+    }
+
     /// The length of the file text, bytes (the memory guard counts what the text holds:
     /// vertices, parameters, names).
     pub fn text_bytes(&self) -> usize {
@@ -114,9 +127,13 @@ pub fn read_design(
         cell: 0.0,
         params: Vec::new(),
         param_index: Default::default(),
+        reading: std::cell::Cell::new(values::Reading::Other),
+        uses: Default::default(),
+        refs: Default::default(),
     };
     let (design, unit) = r.design(&tree, overrides)?;
     let tolerances = r.tolerances(&tree)?;
+    let parameter_units = r.parameter_units(&tree, unit)?;
     let parameters = std::mem::take(&mut r.params);
     if let Err(e) = design::validate(&design) {
         return Err(design_error(text, file, &tree, &e, unit));
@@ -126,6 +143,7 @@ pub fn read_design(
         unit,
         text_hash: text_hash(text),
         parameters,
+        parameter_units,
         tolerances,
         file: file.to_string(),
         text: text.to_string(),

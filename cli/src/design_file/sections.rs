@@ -23,7 +23,7 @@ use super::expr;
 use super::shapes::{Owner, SHAPE_KEYS};
 use super::spans::{get, Entry, InputError, Kind, Node};
 use super::unit::LengthUnit;
-use super::values::{join, list, table_span, Reader, Res};
+use super::values::{join, list, table_span, Reader, Reading, Res, LENGTH};
 
 pub(super) const TOP_KEYS: &[&str] = &[
     "unit",
@@ -34,6 +34,7 @@ pub(super) const TOP_KEYS: &[&str] = &[
     "background",
     "parameters",
     "tolerances",
+    "parameter_units",
     "conductor",
     "dielectric",
     "charge",
@@ -205,10 +206,10 @@ impl Reader<'_> {
                         ),
                     ))
                 }
-                None => match &e.node.kind {
-                    Kind::Str(s) => self.expression(s, &e.node, &key, i)?,
-                    _ => self.number(&e.node, &key)?,
-                },
+                None => self.reading_as(Reading::Parameter(i), || match &e.node.kind {
+                    Kind::Str(s) => self.expression(s, &e.node, &key, i),
+                    _ => self.number(&e.node, &key),
+                })?,
             };
             self.params[i].1 = v;
         }
@@ -273,6 +274,53 @@ impl Reader<'_> {
                 ));
             }
             out.push((t.key.clone(), v));
+        }
+        Ok(out)
+    }
+
+    /// The unit of each parameter, in file order, for the columns of a sweep: the one
+    /// `[parameter_units]` gives it (NAME = "text"), else the file's length unit when it is
+    /// named only in lengths (directly or through other parameters), else none (empty).
+    pub(super) fn parameter_units(&self, root: &Node, unit: LengthUnit) -> Res<Vec<String>> {
+        let uses = self.parameter_uses();
+        let mut out: Vec<String> = uses
+            .iter()
+            .map(|&u| {
+                if u == LENGTH {
+                    unit.name().to_string()
+                } else {
+                    String::new()
+                }
+            })
+            .collect();
+        let Some(e) = root.entries().and_then(|top| get(top, "parameter_units")) else {
+            return Ok(out);
+        };
+        let Some(entries) = e.node.entries() else {
+            return Err(self.wrong_type(&e.node, "parameter_units", "a table"));
+        };
+        for t in entries {
+            let key = join("parameter_units", &t.key);
+            let Some(i) = self.param_position(&t.key) else {
+                return Err(self.err(
+                    &t.key_span,
+                    &key,
+                    format!(
+                        "`{}` is not a parameter of the design (units are given for [parameters])",
+                        t.key
+                    ),
+                ));
+            };
+            let s = self.string(&t.node, &key)?;
+            if s.len() > 32 || s.chars().any(char::is_control) {
+                return Err(self.err(
+                    &t.node.span,
+                    &key,
+                    "a unit is a short text (at most 32 bytes, no control characters), such as \
+                     \"mm\", \"V\" or \"deg\"; \"\" for none",
+                ));
+            }
+            out[i] = s.trim().to_string();
         }
         Ok(out)
     }

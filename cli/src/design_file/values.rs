@@ -8,6 +8,7 @@
 //! defined above them.
 
 use fieldgrid_solver::design::{Mode, Point};
+use std::cell::{Cell, RefCell};
 use std::collections::HashMap;
 
 use super::expr;
@@ -30,7 +31,30 @@ pub(super) struct Reader<'a> {
     /// The position of every parameter name in `params` (names are unique): lookups in
     /// constant time, so a file of chained parameters reads in time linear in its length.
     pub(super) param_index: HashMap<String, usize>,
+    /// What the value being read is, so that the parameters its expression names are known
+    /// as lengths or not (the unit of a varied parameter's sweep column).
+    pub(super) reading: Cell<Reading>,
+    /// Per parameter: named in a length ([`LENGTH`]) and in another value ([`OTHER`]).
+    pub(super) uses: RefCell<Vec<u8>>,
+    /// (i, j): parameter i's expression names parameter j.
+    pub(super) refs: RefCell<Vec<(usize, usize)>>,
 }
+
+/// The kind of value being read.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub(super) enum Reading {
+    /// A length (scaled by the file's unit).
+    Length,
+    /// Any other number (a potential, a permittivity, a strength, a charge).
+    Other,
+    /// The value of parameter i.
+    Parameter(usize),
+}
+
+/// A parameter named in a length.
+pub(super) const LENGTH: u8 = 1;
+/// A parameter named in a value that is not a length.
+pub(super) const OTHER: u8 = 2;
 
 impl Reader<'_> {
     /// The position of parameter `name` in file order, if the design has it.
@@ -47,6 +71,28 @@ impl Reader<'_> {
             .enumerate()
             .map(|(i, (n, _))| (n.clone(), i))
             .collect();
+        *self.uses.borrow_mut() = vec![0; self.params.len()];
+    }
+
+    /// Reads with `kind` as the kind of value being read.
+    pub(super) fn reading_as<T>(&self, kind: Reading, read: impl FnOnce() -> T) -> T {
+        let before = self.reading.replace(kind);
+        let out = read();
+        self.reading.set(before);
+        out
+    }
+
+    /// Per parameter, its uses ([`LENGTH`], [`OTHER`]) directly and through the parameters
+    /// whose expressions name it.
+    pub(super) fn parameter_uses(&self) -> Vec<u8> {
+        let mut uses = self.uses.borrow().clone();
+        let mut refs = self.refs.borrow().clone();
+        // A parameter names only those above it: from the last down, each passes its uses on.
+        refs.sort_unstable_by(|a, b| b.cmp(a));
+        for (i, j) in refs {
+            uses[j] |= uses[i];
+        }
+        uses
     }
 }
 
@@ -190,9 +236,13 @@ impl Reader<'_> {
     pub(super) fn expression(&self, s: &str, node: &Node, key: &str, visible: usize) -> Res<f64> {
         let known = &self.params[..visible];
         let lookup = |name: &str| {
-            self.param_position(name)
-                .filter(|&i| i < visible)
-                .map(|i| known[i].1)
+            let i = self.param_position(name).filter(|&i| i < visible)?;
+            match self.reading.get() {
+                Reading::Length => self.uses.borrow_mut()[i] |= LENGTH,
+                Reading::Other => self.uses.borrow_mut()[i] |= OTHER,
+                Reading::Parameter(k) => self.refs.borrow_mut().push((k, i)),
+            }
+            Some(known[i].1)
         };
         expr::eval(s, &lookup).map_err(|e| {
             let span = self.inner_span(node, s, e.offset, e.len);
@@ -234,7 +284,7 @@ impl Reader<'_> {
 
     pub(super) fn length(&self, node: &Node, key: &str) -> Res<f64> {
         // Scales are at most 1: a finite number stays finite.
-        Ok(self.number(node, key)? * self.scale)
+        Ok(self.reading_as(Reading::Length, || self.number(node, key))? * self.scale)
     }
 
     pub(super) fn positive(&self, v: f64, node: &Node, key: &str, what: &str) -> Res<f64> {
@@ -252,7 +302,7 @@ impl Reader<'_> {
     /// A length that must be positive (or, with `zero_ok`, not negative), in metres. The
     /// check is made on the value as written so the message speaks the file's unit.
     pub(super) fn size(&self, node: &Node, key: &str, what: &str, zero_ok: bool) -> Res<f64> {
-        let v = self.number(node, key)?;
+        let v = self.reading_as(Reading::Length, || self.number(node, key))?;
         let unit = self.unit.name();
         if zero_ok && v < 0.0 {
             let m = format!("{what} must not be negative, found {} {unit}", show(v));

@@ -12,12 +12,22 @@
 //! probe and fixed-conductor names); a point whose design lacks a named item leaves its cells
 //! empty; a cell without a value (no estimate, no strength) is empty; every column but
 //! `point`, `converged`, the parameters, materials and flags carries its SI unit in
-//! parentheses; a varied parameter's column is its name, its values in the design's own units
-//! (a parameter declares no unit).
+//! parentheses; a varied parameter's column is its name with its unit in parentheses when it
+//! has one (declared in `[parameter_units]`, or the file's length unit for a parameter named
+//! only in lengths), its values in the design's own units.
 
 use crate::outdir::num;
 use fieldgrid_solver::design::{Design, Drive, Mode};
 use fieldgrid_solver::study::Solution;
+
+/// The column of a varied parameter: its name, then its unit in parentheses when it has one.
+pub fn varied_column(name: &str, unit: &str) -> String {
+    if unit.is_empty() {
+        name.to_string()
+    } else {
+        format!("{name} ({unit})")
+    }
+}
 
 /// The names a sweep's columns are made of, from the design read without overrides.
 #[derive(Clone, Debug, PartialEq)]

@@ -45,7 +45,7 @@ mod columns;
 mod merge;
 mod points;
 mod table;
-pub use columns::Layout;
+pub use columns::{varied_column, Layout};
 pub use points::{point_count, point_values, Shard, Vary, MAX_POINTS};
 
 /// `sweep.json`: what identifies a sweep, and which part of it a directory holds.
@@ -199,8 +199,11 @@ pub fn run(args: &SweepArgs) -> Result<u8, Failure> {
         count += 1;
     }
     let hash = first.text_hash.clone();
+    let varied: Vec<String> = vary
+        .iter()
+        .map(|v| varied_column(&v.name, first.parameter_unit(&v.name)))
+        .collect();
     drop(first);
-    let varied: Vec<String> = vary.iter().map(|v| v.name.clone()).collect();
     let columns = layout.columns(&varied);
     let def = SweepFile {
         version: 1,
