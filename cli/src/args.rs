@@ -80,6 +80,13 @@ pub struct SolveOptions {
     /// memory available).
     #[arg(long, value_name = "MIB")]
     pub max_memory: Option<f64>,
+    /// Refine the graded grid until every reported quantity (capacitance entries, forces,
+    /// fields at hot spots not at sharp corners; Z0 and eps_eff for `impedance`) has an
+    /// estimated relative error below REL (1e-3 for 0.1 %), counting the solver and, where a
+    /// side is open, the truncation of the far field; exit code 3 with the results written
+    /// and flagged when the memory limit stops it first. Wins over `accuracy` in [grid].
+    #[arg(long, value_name = "REL")]
+    pub accuracy: Option<f64>,
 }
 
 /// Parameter values given on the command line.

@@ -4,6 +4,7 @@
 //! and message. Exit codes follow the contract: 0 done, 1 a change or margin beyond tolerance,
 //! 2 bad input or usage, 3 the solver did not converge.
 
+pub mod accuracy;
 pub mod args;
 pub mod commands;
 pub mod design_file;

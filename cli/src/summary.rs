@@ -74,6 +74,10 @@ pub struct Summary {
     /// lattices).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub perturbed_solves: Option<serde_json::Value>,
+    /// `--accuracy`: the target, whether it was met, the rounds, the grid settled on and
+    /// each quantity's estimated error.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub accuracy: Option<serde_json::Value>,
 }
 
 /// The drawn part and the whole part: symmetry sides mirror the drawn design.
@@ -420,6 +424,7 @@ impl Summary {
             sensitivity_errors: None,
             tolerances: None,
             perturbed_solves: None,
+            accuracy: None,
         };
         sol.warnings.iter().for_each(|w| summary.warn(w));
         summary

@@ -84,6 +84,7 @@ def solve(
     max_iterations: Optional[int] = None,
     error_estimate: bool = True,
     max_memory: Optional[float] = None,
+    accuracy: Optional[float] = None,
     progress: Optional[ProgressCallback] = None,
 ) -> Solution:
     """Solves a design as ``fieldgrid solve`` does.
@@ -99,6 +100,9 @@ def solve(
             (``--no-error-estimate`` is ``False``).
         max_memory: refuse designs whose estimated memory exceeds this many MiB
             (``--max-memory``; default half the memory available).
+        accuracy: refine the graded grid until every reported quantity's estimated relative
+            error is below this (``--accuracy``; e.g. ``1e-3``); ``summary["accuracy"]``
+            says whether it was met, the grid settled on and each quantity's estimate.
         progress: called as ``progress(Progress(stage, iteration, relative_residual))`` as
             stages start and at every iteration, with the GIL held; an exception it raises
             stops further calls and is raised when the study returns.
@@ -122,6 +126,7 @@ def solve(
         max_iterations=max_iterations,
         error_estimate=error_estimate,
         max_memory=max_memory,
+        accuracy=accuracy,
         progress=_progress(progress),
     )
     return Solution(native)
@@ -137,6 +142,7 @@ def impedance(
     max_iterations: Optional[int] = None,
     error_estimate: bool = True,
     max_memory: Optional[float] = None,
+    accuracy: Optional[float] = None,
     progress: Optional[ProgressCallback] = None,
 ) -> Solution:
     """Line parameters of a planar cross-section, as ``fieldgrid impedance --signal``.
@@ -157,6 +163,7 @@ def impedance(
         max_iterations=max_iterations,
         error_estimate=error_estimate,
         max_memory=max_memory,
+        accuracy=accuracy,
         progress=_progress(progress),
     )
     return Solution(native)

@@ -64,6 +64,7 @@ def solve(
     max_iterations: Optional[int] = ...,
     error_estimate: bool = ...,
     max_memory: Optional[float] = ...,
+    accuracy: Optional[float] = ...,
     progress: Optional[ProgressFn] = ...,
 ) -> NativeResult: ...
 def impedance(
@@ -76,6 +77,7 @@ def impedance(
     max_iterations: Optional[int] = ...,
     error_estimate: bool = ...,
     max_memory: Optional[float] = ...,
+    accuracy: Optional[float] = ...,
     progress: Optional[ProgressFn] = ...,
 ) -> NativeResult: ...
 def check(

@@ -26,6 +26,7 @@ fn options(
     max_iterations: Option<usize>,
     error_estimate: bool,
     max_memory: Option<f64>,
+    accuracy: Option<f64>,
 ) -> PyResult<SolveOptions> {
     let solver = SolverChoice::from_str(solver, false).map_err(|_| {
         let names: Vec<String> = SolverChoice::value_variants()
@@ -45,6 +46,7 @@ fn options(
         quiet: true,
         no_error_estimate: !error_estimate,
         max_memory,
+        accuracy,
     })
 }
 
@@ -103,7 +105,7 @@ fn progress_of(callback: Option<Py<PyAny>>) -> Option<Arc<Progress>> {
 /// Solves a design as `fieldgrid solve` does.
 #[pyfunction]
 #[pyo3(signature = (design, *, solver="multigrid", tol=1e-8, threads=None, max_iterations=None,
-                    error_estimate=true, max_memory=None, progress=None))]
+                    error_estimate=true, max_memory=None, accuracy=None, progress=None))]
 #[allow(clippy::too_many_arguments)]
 pub fn solve(
     py: Python<'_>,
@@ -114,6 +116,7 @@ pub fn solve(
     max_iterations: Option<usize>,
     error_estimate: bool,
     max_memory: Option<f64>,
+    accuracy: Option<f64>,
     progress: Option<Py<PyAny>>,
 ) -> PyResult<NativeResult> {
     let opts = options(
@@ -123,14 +126,22 @@ pub fn solve(
         max_iterations,
         error_estimate,
         max_memory,
+        accuracy,
     )?;
-    let src = Arc::clone(&design.src);
+    let mut src = Arc::clone(&design.src);
+    let target = py_check(
+        py,
+        fieldgrid_cli::accuracy::target(Arc::make_mut(&mut src), &opts),
+    )?;
     let (mut params, plan) = py_check(py, solve_cmd::prepare(&src, &opts, 0.0))?;
     let progress = progress_of(progress);
     if let Some(p) = &progress {
         p.install(&mut params);
     }
-    let solved = py.detach(|| solve_cmd::solve_planned(&src, &plan, &params, opts.threads));
+    let solved = py.detach(|| match target {
+        Some(rel) => solve_cmd::solve_accurate(&src, &params, &opts, rel).map(|(s, m, _)| (s, m)),
+        None => solve_cmd::solve_planned(&src, &plan, &params, opts.threads),
+    });
     if let Some(p) = &progress {
         p.raised()?;
     }
@@ -141,7 +152,8 @@ pub fn solve(
 /// Line parameters of a planar design as `fieldgrid impedance` computes them.
 #[pyfunction]
 #[pyo3(signature = (design, signals, *, solver="multigrid", tol=1e-8, threads=None,
-                    max_iterations=None, error_estimate=true, max_memory=None, progress=None))]
+                    max_iterations=None, error_estimate=true, max_memory=None, accuracy=None,
+                    progress=None))]
 #[allow(clippy::too_many_arguments)]
 pub fn impedance(
     py: Python<'_>,
@@ -153,6 +165,7 @@ pub fn impedance(
     max_iterations: Option<usize>,
     error_estimate: bool,
     max_memory: Option<f64>,
+    accuracy: Option<f64>,
     progress: Option<Py<PyAny>>,
 ) -> PyResult<NativeResult> {
     let opts = options(
@@ -162,14 +175,22 @@ pub fn impedance(
         max_iterations,
         error_estimate,
         max_memory,
+        accuracy,
     )?;
-    let src = Arc::clone(&design.src);
+    let mut src = Arc::clone(&design.src);
+    let target = py_check(
+        py,
+        fieldgrid_cli::accuracy::target(Arc::make_mut(&mut src), &opts),
+    )?;
     let (mut params, plan) = py_check(py, line_cmd::prepare(&src, &signals, &opts))?;
     let progress = progress_of(progress);
     if let Some(p) = &progress {
         p.install(&mut params);
     }
-    let solved = py.detach(|| line_cmd::study(&src, &plan, &signals, &params, opts.threads));
+    let solved = py.detach(|| match target {
+        Some(rel) => line_cmd::study_accurate(&src, &signals, &params, &opts, rel).map(|(s, _)| s),
+        None => line_cmd::study(&src, &plan, &signals, &params, opts.threads),
+    });
     if let Some(p) = &progress {
         p.raised()?;
     }

@@ -12,6 +12,7 @@
 // Lattice code indexes several arrays by node number in one loop; iterator chains would hide it.
 #![allow(clippy::needless_range_loop)]
 
+pub mod accuracy;
 pub mod circuit;
 pub mod design;
 pub mod geometry;

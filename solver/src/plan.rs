@@ -96,6 +96,12 @@ pub fn plan(design: &Design, method: Method, error_estimate: bool) -> Result<Pla
         Lattice::Uniform => Grid::fit(d.x, d.y, d.cell)?,
         Lattice::Graded => crate::grading::grid(design, &crate::grading::Params::default())?,
     };
+    Ok(on_grid(grid, method, error_estimate))
+}
+
+/// The plan of a study on a given lattice (one the caller fitted, such as a finer member of
+/// a graded family) with the linear solver `method`, with or without the error estimate.
+pub fn on_grid(grid: Grid, method: Method, error_estimate: bool) -> Plan {
     let mut bytes_per_node = STUDY_BYTES_PER_NODE;
     if method == Method::Multigrid {
         bytes_per_node += MULTIGRID_BYTES_PER_NODE;
@@ -103,10 +109,10 @@ pub fn plan(design: &Design, method: Method, error_estimate: bool) -> Result<Pla
     if error_estimate {
         bytes_per_node += ERROR_ESTIMATE_BYTES_PER_NODE;
     }
-    Ok(Plan {
+    Plan {
         grid,
         bytes_per_node,
-    })
+    }
 }
 
 #[cfg(test)]

@@ -77,6 +77,34 @@ pub enum Warning {
         /// The relative accuracy left to fields and charges (to one).
         relative: f64,
     },
+    /// An accuracy was asked for and a limit stopped the refinement first.
+    AccuracyNotMet {
+        /// The quantity farthest beyond the target, by its short name.
+        quantity: String,
+        /// Its estimated relative error.
+        relative: f64,
+        /// The relative target.
+        target: f64,
+        /// What stopped the refinement.
+        limit: AccuracyLimit,
+    },
+}
+
+/// What stopped a refinement before the accuracy asked for was reached.
+#[derive(Clone, Debug, PartialEq)]
+#[non_exhaustive]
+pub enum AccuracyLimit {
+    /// The next lattice would need more memory than allowed.
+    Memory {
+        /// Estimated memory of the next lattice, MiB.
+        needed_mib: f64,
+        /// The limit, MiB.
+        limit_mib: f64,
+    },
+    /// The lattice has been refined as often as allowed.
+    Refinements,
+    /// The truncation of the far field beyond the open sides is above the target.
+    Truncation,
 }
 
 impl Warning {
@@ -94,6 +122,7 @@ impl Warning {
             Warning::NegativeGroundCapacitance { .. } => "negative-ground-capacitance",
             Warning::NegativeMutualCapacitance { .. } => "negative-mutual-capacitance",
             Warning::PotentialRounding { .. } => "potential-rounding",
+            Warning::AccuracyNotMet { .. } => "accuracy-not-met",
         }
     }
 }
@@ -157,6 +186,37 @@ impl fmt::Display for Warning {
                  to double precision alone leaves fields, charges and energy a relative \
                  uncertainty of {relative:.1e} (state potentials relative to a nearer reference)"
             ),
+            Warning::AccuracyNotMet {
+                quantity,
+                relative,
+                target,
+                limit,
+            } => {
+                write!(
+                    f,
+                    "accuracy {target:e} not met: {quantity} is known to {relative:.1e} ({:.1} \
+                     times the target) when ",
+                    relative / target
+                )?;
+                match limit {
+                    AccuracyLimit::Memory {
+                        needed_mib,
+                        limit_mib,
+                    } => write!(
+                        f,
+                        "the next grid would need about {needed_mib:.0} MiB, more than the \
+                         {limit_mib:.0} MiB allowed (--max-memory)"
+                    ),
+                    AccuracyLimit::Refinements => {
+                        f.write_str("the grid is refined as far as allowed")
+                    }
+                    AccuracyLimit::Truncation => f.write_str(
+                        "the open sides cannot move farther out: their truncation of the far \
+                         field is above the target",
+                    ),
+                }?;
+                f.write_str("; the results are those of the last grid")
+            }
         }
     }
 }
@@ -244,6 +304,12 @@ mod tests {
                 signals: vec!["s".into()],
             },
             Warning::AsymmetricPair,
+            Warning::AccuracyNotMet {
+                quantity: "C[a,b]".into(),
+                relative: 2e-3,
+                target: 1e-3,
+                limit: AccuracyLimit::Refinements,
+            },
             Warning::NegativeGroundCapacitance {
                 conductor: "a".into(),
                 value: -1e-15,

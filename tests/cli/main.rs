@@ -4,6 +4,7 @@
 //! findings). One module per command or concern; shared designs and helpers live in
 //! `tests/support/`. Each module names its scratch directories with a prefix of its own.
 
+mod accuracy;
 mod bad_input;
 mod command;
 mod compare;

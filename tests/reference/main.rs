@@ -2,6 +2,7 @@
 //! literature, manufactured solutions, and agreement between the solvers. One module per
 //! family of cases; shared designs and helpers live in `tests/support/`.
 
+mod accuracy;
 mod axisymmetric;
 mod design_targets;
 mod fem_demos;

@@ -224,7 +224,8 @@ fn load(path: &Path, args: &CompareArgs, role: &str) -> Result<Revision, Failure
             solution: None,
         }),
         InputKind::Design => {
-            let src = load_design(&file, &[])?;
+            let mut src = load_design(&file, &[])?;
+            let accuracy = crate::accuracy::target(&mut src, &args.opts)?;
             let mut params = study_params(&args.opts)?;
             let progress = crate::progress::Progress::new(args.opts.quiet)
                 .labelled(&format!("{role} {}", file.display()));
@@ -237,17 +238,27 @@ fn load(path: &Path, args: &CompareArgs, role: &str) -> Result<Revision, Failure
                 0.0,
             )?;
             let start = Instant::now();
-            let sol = with_threads(args.opts.threads, || {
-                study::run_planned(&src.design, &plan, &params)
-            })?
-            .map_err(|e| super::solve::study_failure(&src, e))?;
+            let (sol, summary) = match accuracy {
+                Some(rel) => {
+                    let (sol, summary, _) =
+                        super::solve::solve_accurate(&src, &params, &args.opts, rel)?;
+                    (sol, summary)
+                }
+                None => {
+                    let sol = with_threads(args.opts.threads, || {
+                        study::run_planned(&src.design, &plan, &params)
+                    })?
+                    .map_err(|e| super::solve::study_failure(&src, e))?;
+                    let summary = Summary::from_solution(
+                        &sol,
+                        src.design.depth,
+                        start.elapsed().as_secs_f64(),
+                        &src.text_hash,
+                    );
+                    (sol, summary)
+                }
+            };
             progress.finish();
-            let summary = Summary::from_solution(
-                &sol,
-                src.design.depth,
-                start.elapsed().as_secs_f64(),
-                &src.text_hash,
-            );
             Ok(Revision {
                 path: path.to_path_buf(),
                 summary,
@@ -255,6 +266,14 @@ fn load(path: &Path, args: &CompareArgs, role: &str) -> Result<Revision, Failure
             })
         }
     }
+}
+
+/// True when the summary's solve was refined to an accuracy and did not reach it.
+fn accuracy_short(summary: &Summary) -> bool {
+    summary
+        .accuracy
+        .as_ref()
+        .is_some_and(|a| a["met"] == serde_json::Value::Bool(false))
 }
 
 /// The named quantities of a summary, in report order.
@@ -501,6 +520,19 @@ pub fn run(args: &CompareArgs) -> Result<u8, Failure> {
             unconverged.join(" and ")
         ));
     }
+    // A revision whose accuracy target was not met is flagged as an unconverged one is.
+    let short: Vec<String> = [(&base, "BASE"), (&new, "NEW")]
+        .iter()
+        .filter(|(r, _)| accuracy_short(&r.summary))
+        .map(|(r, role)| format!("{role} ({})", r.path.display()))
+        .collect();
+    if !short.is_empty() {
+        remarks.push(format!(
+            "the accuracy asked of {} was not met (see its summary's `accuracy`)",
+            short.join(" and ")
+        ));
+    }
+    let unconverged: Vec<String> = unconverged.into_iter().chain(short).collect();
     let picture = match (&base.solution, &new.solution, &out) {
         (Some((sb, base_src)), Some((sn, src)), Some(_)) => {
             let (gb, gn) = (&sb.grid, &sn.grid);

@@ -42,19 +42,28 @@ pub fn run(args: &ImpedanceArgs) -> Result<u8, Failure> {
 
 /// Runs the command with `extra` results, returning the exit code.
 pub fn run_with(args: &ImpedanceArgs, extra: Option<Extra>) -> Result<u8, Failure> {
-    let src = load_design(&args.design, &super::parameter_overrides(&args.set)?)?;
+    let mut src = load_design(&args.design, &super::parameter_overrides(&args.set)?)?;
+    let accuracy = crate::accuracy::target(&mut src, &args.opts)?;
     let (mut params, plan) = prepare(&src, &args.signal, &args.opts)?;
     let progress = crate::progress::Progress::new(args.opts.quiet);
     params.stages = progress.stages(params.stages.take());
     params.solver.monitor = progress.iterations();
     params.keep_warm_start = extra.is_some();
     let mut out = OutDir::prepare(&args.out)?;
-    let solved = study(&src, &plan, &args.signal, &params, args.opts.threads);
+    let solved = match accuracy {
+        Some(rel) => {
+            study_accurate(&src, &args.signal, &params, &args.opts, rel).map(|(s, i)| (s, Some(i)))
+        }
+        None => study(&src, &plan, &args.signal, &params, args.opts.threads).map(|s| (s, None)),
+    };
     progress.finish();
-    let LineSolved {
-        study: ls,
-        mut summary,
-    } = solved?;
+    let (
+        LineSolved {
+            study: ls,
+            mut summary,
+        },
+        accuracy,
+    ) = solved?;
     let warnings = line_warnings(&ls, &args.signal);
     let extra_text = match extra {
         Some(f) => Some(f(&src, &ls, &mut summary, &out)?),
@@ -75,11 +84,14 @@ pub fn run_with(args: &ImpedanceArgs, extra: Option<Extra>) -> Result<u8, Failur
                 &out
             )
         );
+        if let Some(info) = &accuracy {
+            print!("{}", crate::accuracy::report(info));
+        }
         if let Some(text) = &extra_text {
             print!("{text}");
         }
     }
-    if !summary.solver.converged {
+    if !summary.solver.converged || accuracy.as_ref().is_some_and(|i| !i.met()) {
         return Ok(EXIT_NOT_CONVERGED);
     }
     Ok(EXIT_OK)
@@ -129,6 +141,33 @@ pub fn study(
     let seconds = start.elapsed().as_secs_f64();
     let summary = line_summary(src, &ls, signals, seconds);
     Ok(LineSolved { study: ls, summary })
+}
+
+/// Runs a line study refined to the relative accuracy `rel` of its line parameters, on the
+/// options' threads and under their memory limit, and builds its summary (with the
+/// `accuracy` object, and the warning when the target was not met).
+pub fn study_accurate(
+    src: &DesignSource,
+    signals: &[String],
+    params: &StudyParams,
+    opts: &SolveOptions,
+    rel: f64,
+) -> Result<(LineSolved, fieldgrid_solver::accuracy::Info), Failure> {
+    use fieldgrid_solver::accuracy::{self, AccuracyError};
+    let start = Instant::now();
+    let acc = crate::accuracy::params(src, opts, rel);
+    let (mut ls, info) = with_threads(opts.threads, || {
+        accuracy::solve_line(&src.design, signals, params, &acc)
+    })?
+    .map_err(|e| match e {
+        AccuracyError::Line(e) => line_failure(src, signals, e),
+        e => super::solve::accuracy_failure(src, e),
+    })?;
+    ls.warnings.extend(info.warning());
+    let seconds = start.elapsed().as_secs_f64();
+    let mut summary = line_summary(src, &ls, signals, seconds);
+    summary.accuracy = Some(crate::accuracy::summary(&info));
+    Ok((LineSolved { study: ls, summary }, info))
 }
 
 /// The summary of a line study: the design's own study, the vacuum study's solver record

@@ -48,9 +48,10 @@ pub fn run_timed_with(
     timings: &Arc<Timings>,
     more: Option<Extra>,
 ) -> Result<u8, Failure> {
-    let src = timings.time("read", || {
+    let mut src = timings.time("read", || {
         load_design(&args.design, &super::parameter_overrides(&args.set)?)
     })?;
+    let accuracy = crate::accuracy::target(&mut src, &args.opts)?;
     let extra = if args.field_table {
         super::FIELD_TABLE_BYTES_PER_NODE
     } else {
@@ -74,9 +75,14 @@ pub fn run_timed_with(
         check_min_margin(&src.design, min, &args.design)?;
     }
     let mut out = OutDir::prepare(&args.out)?;
-    let solved = solve_planned(&src, &plan, &params, args.opts.threads);
+    let solved = match accuracy {
+        Some(rel) => {
+            solve_accurate(&src, &params, &args.opts, rel).map(|(s, m, i)| (s, m, Some(i)))
+        }
+        None => solve_planned(&src, &plan, &params, args.opts.threads).map(|(s, m)| (s, m, None)),
+    };
     progress.finish();
-    let (sol, mut summary) = solved?;
+    let (sol, mut summary, accuracy) = solved?;
     let extra_text = match more {
         Some(f) => Some(f(&src, &sol, &mut summary, &out)?),
         None => None,
@@ -94,6 +100,9 @@ pub fn run_timed_with(
     timings.time("commit", || out.commit())?;
     if !args.opts.quiet {
         print!("{}", report(&sol, &summary, &out));
+        if let Some(info) = &accuracy {
+            print!("{}", crate::accuracy::report(info));
+        }
         if let Some(text) = &extra_text {
             print!("{text}");
         }
@@ -107,7 +116,7 @@ pub fn run_timed_with(
             Err(why) => println!("note: {}", crate::spice::no_export(*why)),
         }
     }
-    if !summary.solver.converged {
+    if !summary.solver.converged || accuracy.as_ref().is_some_and(|i| !i.met()) {
         return Ok(EXIT_NOT_CONVERGED);
     }
     if let Some(min) = args.min_margin {
@@ -181,6 +190,42 @@ pub fn solve_planned(
     summary.parameters = crate::summary::parameters(src);
     summary.part = Some(crate::summary::PartSummary::of(&src.design));
     Ok((sol, summary))
+}
+
+/// Solves a design refined to the relative accuracy `rel` (the loop's lattices checked
+/// against the options' memory limit): the solution of the last round, its summary with the
+/// `accuracy` object (and the warning when the target was not met), and the loop's record.
+pub fn solve_accurate(
+    src: &DesignSource,
+    params: &StudyParams,
+    opts: &crate::args::SolveOptions,
+    rel: f64,
+) -> Result<(Solution, Summary, fieldgrid_solver::accuracy::Info), Failure> {
+    let start = Instant::now();
+    let acc = crate::accuracy::params(src, opts, rel);
+    let (mut sol, info) = with_threads(opts.threads, || {
+        fieldgrid_solver::accuracy::solve(&src.design, params, &acc)
+    })?
+    .map_err(|e| accuracy_failure(src, e))?;
+    sol.warnings.extend(info.warning());
+    let seconds = start.elapsed().as_secs_f64();
+    let mut summary = Summary::from_solution(&sol, src.design.depth, seconds, &src.text_hash);
+    summary.parameters = crate::summary::parameters(src);
+    summary.part = Some(crate::summary::PartSummary::of(&src.design));
+    summary.accuracy = Some(crate::accuracy::summary(&info));
+    Ok((sol, summary, info))
+}
+
+/// Maps a failure of the accuracy loop to the user's message.
+pub fn accuracy_failure(
+    src: &DesignSource,
+    e: fieldgrid_solver::accuracy::AccuracyError,
+) -> Failure {
+    use fieldgrid_solver::accuracy::AccuracyError;
+    match e {
+        AccuracyError::Study(e) => study_failure(src, e),
+        e => Failure::input(format!("{}: {e}", src.file)),
+    }
 }
 
 /// What `solve` writes besides summary.json, the tables and the pictures.

@@ -52,6 +52,8 @@ pub struct DesignSource {
     pub parameter_units: Vec<String>,
     /// `[tolerances]`: (parameter, +/- tolerance in the file's units), in file order.
     pub tolerances: Vec<(String, f64)>,
+    /// `[grid] accuracy`: the relative error every reported quantity is refined to.
+    pub accuracy: Option<f64>,
     /// The file name as given.
     pub file: String,
     text: String,
@@ -134,6 +136,7 @@ pub fn read_design(
     let (design, unit) = r.design(&tree, overrides)?;
     let tolerances = r.tolerances(&tree)?;
     let parameter_units = r.parameter_units(&tree, unit)?;
+    let accuracy = r.accuracy(&tree)?;
     let parameters = std::mem::take(&mut r.params);
     if let Err(e) = design::validate(&design) {
         return Err(design_error(text, file, &tree, &e, unit));
@@ -145,6 +148,7 @@ pub fn read_design(
         parameters,
         parameter_units,
         tolerances,
+        accuracy,
         file: file.to_string(),
         text: text.to_string(),
         tree,

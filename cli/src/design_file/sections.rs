@@ -232,6 +232,28 @@ impl Reader<'_> {
         Ok(())
     }
 
+    /// `[grid] accuracy`: the relative error every reported quantity is refined to, a
+    /// number between 0 and 1 (`--accuracy` on the command line wins).
+    pub(super) fn accuracy(&self, root: &Node) -> Res<Option<f64>> {
+        let Some(grid) = root.entries().and_then(|top| get(top, "grid")) else {
+            return Ok(None);
+        };
+        let Some(e) = grid.node.entries().and_then(|t| get(t, "accuracy")) else {
+            return Ok(None);
+        };
+        let v = self.number(&e.node, "grid.accuracy")?;
+        if !(v > 0.0 && v < 1.0) {
+            return Err(self.err(
+                &e.node.span,
+                "grid.accuracy",
+                format!(
+                    "the accuracy is a relative error between 0 and 1 (1e-3 for 0.1 %), found {v}"
+                ),
+            ));
+        }
+        Ok(Some(v))
+    }
+
     /// `[tolerances]`: NAME = VALUE, each a parameter's tolerance (+/- VALUE, in the
     /// file's units), a positive number.
     pub(super) fn tolerances(&self, root: &Node) -> Res<Vec<(String, f64)>> {
@@ -326,7 +348,7 @@ impl Reader<'_> {
     }
 
     pub(super) fn grid(&self, node: &Node) -> Res<(Domain, Lattice)> {
-        let t = self.table(node, "grid", &["x", "y", "cell", "lattice"])?;
+        let t = self.table(node, "grid", &["x", "y", "cell", "lattice", "accuracy"])?;
         let x = self.required(t, node, "grid", "x", "the domain extent [x0, x1]")?;
         let y = self.required(t, node, "grid", "y", "the domain extent [y0, y1]")?;
         let cell = self.required(t, node, "grid", "cell", "the target cell size")?;

@@ -167,7 +167,9 @@ pub fn run(args: &SweepArgs) -> Result<u8, Failure> {
     };
     let load_point = |p: usize| -> Result<(Vec<f64>, DesignSource, Plan), Failure> {
         let values = point_values(&vary, p);
-        let src = load_design(design, &overrides(&values))
+        let mut src = load_design(design, &overrides(&values))
+            .map_err(|f| point_failure(p, &vary, &values, f))?;
+        crate::accuracy::target(&mut src, &args.opts)
             .map_err(|f| point_failure(p, &vary, &values, f))?;
         let (plan, _) = check_memory(
             &src,
@@ -241,10 +243,21 @@ pub fn run(args: &SweepArgs) -> Result<u8, Failure> {
                 .collect();
             bar.set_message(format!("point {p}: {}", at.join(" ")));
         }
-        let sol = with_threads(args.opts.threads, || {
-            study::run_planned(&src.design, &plan, &params)
-        })?
-        .map_err(|e| super::solve::study_failure(&src, e))?;
+        let rel = args.opts.accuracy.or(src.accuracy);
+        let (sol, short, accuracy) = match rel {
+            Some(rel) => {
+                let (sol, sm, info) = super::solve::solve_accurate(&src, &params, &args.opts, rel)?;
+                (sol, !info.met(), sm.accuracy)
+            }
+            None => (
+                with_threads(args.opts.threads, || {
+                    study::run_planned(&src.design, &plan, &params)
+                })?
+                .map_err(|e| super::solve::study_failure(&src, e))?,
+                false,
+                None,
+            ),
+        };
         let texts: Vec<String> = values.iter().map(|&v| value_text(v)).collect();
         let row = layout.row(p, &texts, &sol);
         if args.point_summaries {
@@ -252,11 +265,13 @@ pub fn run(args: &SweepArgs) -> Result<u8, Failure> {
                 crate::summary::Summary::from_solution(&sol, src.design.depth, 0.0, &src.text_hash);
             summary.parameters = crate::summary::parameters(&src);
             summary.part = Some(crate::summary::PartSummary::of(&src.design));
+            summary.accuracy = accuracy;
             let json = serde_json::to_vec_pretty(&summary)
                 .map_err(|e| Failure::io("encoding a point's summary.json", e))?;
             out.write(&format!("point-{p}.summary.json"), &json)?;
         }
-        if !sol.solve.converged {
+        // A point whose accuracy target was not met is counted as one that did not converge.
+        if !sol.solve.converged || short {
             unconverged += 1;
         }
         // One whole row per point, appended: the table is never rewritten.

@@ -1,0 +1,536 @@
+//! An accuracy the user asks for: refine a study until every quantity it reports is known to
+//! within a relative target, or stop at the memory limit and say which quantity is short.
+//!
+//! The loop works on the graded family of the design ([`crate::grading`]): the base lines
+//! with cells up to `2^BISECTIONS` times the design's `cell`, bisected `k` times, starting
+//! at `k = BISECTIONS` (the design's own graded lattice). Every member holds every geometry
+//! line, and the study's error estimate compares the lattice with the two below it in the
+//! family, with the order observed from the three. A design drawn on a uniform lattice is
+//! solved on its graded family here: only a family that keeps its edges on node lines
+//! converges at a rate that can be read and predicted.
+//!
+//! Members finer than the design's own lattice also grade further towards sharp corners and
+//! the ends of thin conductors than bisection alone does ([`CORNER_STEP`],
+//! [`THIN_END_STEP`]), so that the singular points do not set the rate of convergence:
+//! the error falls as the square of the cell, as the number of nodes to the power -1.
+//!
+//! Each round solves on one member and reads every quantity's estimated error
+//! ([`quantities`]): discretisation, linear solver and, where a side is open, truncation of
+//! the far field. While one that is not at a singular point is above the target, the next
+//! round bisects as often as the observed order says is needed (at most three times, at
+//! least once, fewer when the memory limit allows no more), or tightens the solver
+//! tolerance when the solver's share dominates. Before the rounds, a design with open sides
+//! is solved once more on a box with every open side moved out by the domain's extent
+//! ([`far_field`]), at the same lines inside; twice the change bounds the truncation error,
+//! and while it is above half the target the farther box becomes the design's box.
+//!
+//! Invariants: the solver tolerance is never looser than the caller's; the result returned
+//! is always the last round's, solved with the error estimate; a quantity at a singular point
+//! is reported with its estimate but never refined for; the loop ends (bisections, memory
+//! and tolerance are all bounded).
+
+pub mod far_field;
+pub mod quantities;
+
+use crate::design::{Design, Lattice};
+use crate::grading::{self, Lines, BISECTIONS};
+use crate::grid::{Grid, GridError};
+use crate::line_study::{self, LineStudy, LineStudyError};
+use crate::plan::{self, Plan};
+use crate::study::{self, Solution, StudyError, StudyParams};
+use crate::warning::{AccuracyLimit, Warning};
+pub use quantities::{Estimate, Quantities, Quantity};
+
+/// The accuracy asked for and the limits of the search. Start from `Params::default()`.
+#[derive(Clone, Debug, PartialEq)]
+#[non_exhaustive]
+pub struct Params {
+    /// Relative error every quantity must be known to, in (0, 1).
+    pub target: f64,
+    /// Largest estimated memory of a round, MiB.
+    pub max_memory_mib: f64,
+    /// Most bisections of the base lattice (each multiplies the nodes by about 4).
+    pub max_bisections: usize,
+    /// Which quantities of a study the target covers (capacitance entries always).
+    pub quantities: Quantities,
+    /// The grading of the family.
+    pub grading: grading::Params,
+}
+
+impl Default for Params {
+    fn default() -> Self {
+        Params {
+            target: 1e-3,
+            max_memory_mib: f64::INFINITY,
+            max_bisections: 9,
+            quantities: Quantities::default(),
+            grading: grading::Params::default(),
+        }
+    }
+}
+
+impl Params {
+    /// These settings with the relative target `target`.
+    pub fn with_target(mut self, target: f64) -> Self {
+        self.target = target;
+        self
+    }
+
+    /// These settings with no round larger than `mib` MiB.
+    pub fn with_max_memory_mib(mut self, mib: f64) -> Self {
+        self.max_memory_mib = mib;
+        self
+    }
+}
+
+/// One round of the loop: the lattice it solved on.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Round {
+    /// Bisections of the base lattice.
+    pub bisections: usize,
+    /// Node lines along x and y.
+    pub nx: usize,
+    /// Node lines along y.
+    pub ny: usize,
+    /// Smallest and largest cell, m.
+    pub min_cell: f64,
+    /// Largest cell, m.
+    pub max_cell: f64,
+    /// Relative residual the solves stopped at.
+    pub tol: f64,
+    /// Estimated memory of the round, MiB.
+    pub memory_mib: f64,
+    /// The largest ratio of a quantity's estimated relative error to the target (quantities
+    /// at singular points left out).
+    pub worst: f64,
+}
+
+/// Why the loop ended.
+#[derive(Clone, Debug, PartialEq)]
+#[non_exhaustive]
+pub enum Stop {
+    /// Every quantity is within the target.
+    Met,
+    /// The next lattice would need more memory than allowed.
+    MemoryLimit {
+        /// Estimated memory of the smallest finer lattice, MiB.
+        needed_mib: f64,
+        /// The limit, MiB.
+        limit_mib: f64,
+    },
+    /// The family has been bisected as often as allowed.
+    Bisections,
+    /// The far field's truncation alone is above the target, and no farther box fits.
+    Truncation,
+}
+
+/// How the open sides were placed.
+#[derive(Clone, Debug, PartialEq)]
+pub struct FarField {
+    /// Times the open sides were moved out.
+    pub enlargements: usize,
+    /// The domain solved on, m.
+    pub x: [f64; 2],
+    /// The domain solved on, m.
+    pub y: [f64; 2],
+}
+
+/// What the loop did and how accurate its result is.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Info {
+    /// The relative target.
+    pub target: f64,
+    /// Every round, in order; the last one is the result's.
+    pub rounds: Vec<Round>,
+    /// The estimates of the result's quantities.
+    pub estimates: Vec<Estimate>,
+    /// Why the loop ended.
+    pub stop: Stop,
+    /// The far field, when a side is open.
+    pub far_field: Option<FarField>,
+}
+
+impl Info {
+    /// True when every quantity the target covers is within it.
+    pub fn met(&self) -> bool {
+        self.stop == Stop::Met
+    }
+
+    /// The warning that the target was not met, naming the quantity farthest beyond it and
+    /// what stopped the loop; `None` when it was met.
+    pub fn warning(&self) -> Option<Warning> {
+        let limit = match self.stop {
+            Stop::Met => return None,
+            Stop::MemoryLimit {
+                needed_mib,
+                limit_mib,
+            } => AccuracyLimit::Memory {
+                needed_mib,
+                limit_mib,
+            },
+            Stop::Bisections => AccuracyLimit::Refinements,
+            Stop::Truncation => AccuracyLimit::Truncation,
+        };
+        let short = self.shortest()?;
+        Some(Warning::AccuracyNotMet {
+            quantity: short.quantity.to_string(),
+            relative: short.relative(),
+            target: self.target,
+            limit,
+        })
+    }
+
+    /// The quantity the target covers farthest beyond it, if any is.
+    pub fn shortest(&self) -> Option<&Estimate> {
+        self.estimates
+            .iter()
+            .filter(|e| e.held && ratio(e, self.target) > 1.0)
+            .max_by(|a, b| ratio(a, self.target).total_cmp(&ratio(b, self.target)))
+    }
+}
+
+/// A loop that could not run.
+#[derive(Debug, thiserror::Error)]
+#[non_exhaustive]
+pub enum AccuracyError {
+    /// The target is not a number in (0, 1).
+    #[error("the accuracy target must lie between 0 and 1, got {0}")]
+    Target(f64),
+    /// A study failed.
+    #[error(transparent)]
+    Study(#[from] StudyError),
+    /// A line study failed.
+    #[error(transparent)]
+    Line(#[from] LineStudyError),
+}
+
+impl From<GridError> for AccuracyError {
+    fn from(e: GridError) -> Self {
+        AccuracyError::Study(StudyError::Grid(e))
+    }
+}
+
+/// Solves `design` until every capacitance entry (and the forces and hot spots that
+/// `params.quantities` names) is within the target, or a limit stops the loop.
+pub fn solve(
+    design: &Design,
+    study: &StudyParams,
+    params: &Params,
+) -> Result<(Solution, Info), AccuracyError> {
+    let which = params.quantities;
+    let kind = Kind {
+        plan: &|g: Grid, s: &StudyParams| plan::on_grid(g, s.method, s.error_estimate),
+        run: &|d: &Design, p: &Plan, s: &StudyParams| Ok(study::run_planned(d, p, s)?),
+        estimates: &|sol: &Solution| quantities::of_study(sol, which),
+        order: &|sol: &Solution| sol.capacitance.error_model.as_ref().map(|m| m.order),
+    };
+    refine(design, study, params, &kind)
+}
+
+/// Solves the line study of `signals` in `design` until its scalar line parameters (Z0,
+/// eps_eff and, for a pair, the modal ones) are within the target, or a limit stops it.
+pub fn solve_line(
+    design: &Design,
+    signals: &[String],
+    study: &StudyParams,
+    params: &Params,
+) -> Result<(LineStudy, Info), AccuracyError> {
+    line_study::check_signals(design, signals).map_err(LineStudyError::from)?;
+    let kind = Kind {
+        plan: &|g: Grid, s: &StudyParams| {
+            plan::on_grid(g, s.method, s.error_estimate).holding_a_solution()
+        },
+        run: &|d: &Design, p: &Plan, s: &StudyParams| {
+            Ok(line_study::run_planned(d, p, signals, s)?)
+        },
+        estimates: &|ls: &LineStudy| quantities::of_line(ls),
+        order: &|ls: &LineStudy| {
+            let a = ls.solution.capacitance.error_model.as_ref()?.order;
+            let b = ls.vacuum.capacitance.error_model.as_ref()?.order;
+            Some(a.min(b))
+        },
+    };
+    refine(design, study, params, &kind)
+}
+
+/// The lattice of member `k` of the graded family of `design` (member [`BISECTIONS`] is the
+/// design's own graded lattice; the loop solves on that one and finer ones; coarser members
+/// grade the corners less, as the family's rule continued downward).
+pub fn lattice(design: &Design, params: &Params, k: usize) -> Result<Grid, GridError> {
+    let family = Family {
+        design,
+        grading: params.grading,
+        enlargements: 0,
+    };
+    Ok(family.member(k)?.1)
+}
+
+/// The solver tolerance for a target: five decades below it (the capacitance of a small
+/// coupling beside large self capacitances carries a solver error well above the relative
+/// residual), never looser than the caller's and never below what double precision reaches.
+pub fn solver_tolerance(caller: f64, target: f64) -> f64 {
+    caller.min(target * 1e-5).max(MIN_TOL)
+}
+
+/// Tightest relative residual the loop asks for.
+const MIN_TOL: f64 = 1e-13;
+
+/// Share of the target the truncation of the far field may take.
+const TRUNCATION_SHARE: f64 = 0.5;
+
+/// Share of the target above which the solver's error tightens the tolerance.
+const SOLVER_SHARE: f64 = 0.1;
+
+/// Most times the open sides are moved out.
+const MAX_ENLARGEMENTS: usize = 3;
+
+/// Most bisections one round adds.
+const MAX_STEP: usize = 3;
+
+/// What the loop needs of a kind of study.
+struct Kind<'a, T> {
+    plan: &'a dyn Fn(Grid, &StudyParams) -> Plan,
+    run: &'a dyn Fn(&Design, &Plan, &StudyParams) -> Result<T, AccuracyError>,
+    estimates: &'a dyn Fn(&T) -> Vec<Estimate>,
+    order: &'a dyn Fn(&T) -> Option<f64>,
+}
+
+/// The estimated relative error of `e` over the target (0 for an exact zero).
+fn ratio(e: &Estimate, target: f64) -> f64 {
+    let err = e.error();
+    if err == 0.0 {
+        0.0
+    } else {
+        err / (target * e.value.abs())
+    }
+}
+
+/// How much finer the grading at sharp corners gets with each bisection beyond the
+/// design's own lattice: with the corner's cells shrinking by 2 * sqrt(2) per bisection, a
+/// corner whose field goes as r^(-1/3) (a right-angled conductor edge) stops limiting the
+/// rate, and the error keeps falling as the square of the cell.
+const CORNER_STEP: f64 = std::f64::consts::FRAC_1_SQRT_2;
+
+/// The same at the ends of thin conductors, whose field goes as r^(-1/2): their cells
+/// shrink by 4 per bisection.
+const THIN_END_STEP: f64 = 0.5;
+
+/// The graded family of a design. Member `k` is made of the base lines (cells up to
+/// `2^BISECTIONS` times the design's `cell`), graded further towards the singular points
+/// the more `k` exceeds [`BISECTIONS`] (less below it), with the open sides moved out `enlargements` times,
+/// and bisected `k` times; its two coarser lattices (every other line, twice) are the ones
+/// its error estimate compares it with. Member [`BISECTIONS`] of a design whose sides stay
+/// is the design's own graded lattice.
+struct Family<'a> {
+    design: &'a Design,
+    grading: grading::Params,
+    enlargements: usize,
+}
+
+impl Family<'_> {
+    /// The design (its open sides moved out) and the base lines of member `k`.
+    fn lines(&self, k: usize) -> Result<(Design, Lines), GridError> {
+        let extra = k as i32 - BISECTIONS as i32;
+        let fraction = |f: f64, step: f64| (f * step.powi(extra)).min(1.0);
+        let g = self
+            .grading
+            .with_corner_fraction(fraction(self.grading.corner_fraction, CORNER_STEP))
+            .with_thin_end_fraction(fraction(self.grading.thin_end_fraction, THIN_END_STEP));
+        let scale = (1usize << BISECTIONS) as f64;
+        let mut lines = grading::lines(self.design, scale * self.design.domain.cell, &g)?;
+        let mut d = self.design.clone();
+        for _ in 0..self.enlargements {
+            (d, lines) = far_field::enlarged(&d, &lines, self.grading.growth)
+                .expect("only designs with an open side are enlarged");
+        }
+        Ok((d, lines))
+    }
+
+    /// The design and lattice of member `k`.
+    fn member(&self, k: usize) -> Result<(Design, Grid), GridError> {
+        let (d, lines) = self.lines(k)?;
+        let mut g = Grid::from_lines(lines.x, lines.y)?;
+        for _ in 0..k {
+            g = g.bisected();
+        }
+        Ok((d, g))
+    }
+}
+
+/// Hot spots on two lattices are one when this close, in smallest cells of the lattice.
+const SAME_SPOT_CELLS: f64 = 2.0;
+
+fn refine<T>(
+    design: &Design,
+    study: &StudyParams,
+    params: &Params,
+    kind: &Kind<T>,
+) -> Result<(T, Info), AccuracyError> {
+    let target = params.target;
+    if !(target.is_finite() && target > 0.0 && target < 1.0) {
+        return Err(AccuracyError::Target(target));
+    }
+    let mut design = design.clone();
+    design.lattice = Lattice::Graded;
+    let design = design;
+    let mut sp = study.clone().with_error_estimate(true);
+    sp.solver.tol = solver_tolerance(study.solver.tol, target);
+    let limit = params.max_memory_mib;
+    let mut family = Family {
+        design: &design,
+        grading: params.grading,
+        enlargements: 0,
+    };
+
+    // The far field: move open sides out until the truncation is within its share.
+    let mut truncation: Option<Vec<Estimate>> = None;
+    let mut far = None;
+    if far_field::has_open_side(&design) {
+        let quick = sp.cold().with_error_estimate(false);
+        let k = BISECTIONS;
+        let mut near: Option<Vec<Estimate>> = None;
+        for _ in 0..MAX_ENLARGEMENTS {
+            let bigger = Family {
+                enlargements: family.enlargements + 1,
+                ..family
+            };
+            let (big, big_grid) = bigger.member(k)?;
+            if (kind.plan)(big_grid.clone(), &sp).memory_mib() > limit {
+                break;
+            }
+            let (near_design, near_grid) = family.member(k)?;
+            let within = SAME_SPOT_CELLS * near_grid.min_cell();
+            let mut near_est = match near.take() {
+                Some(e) => e,
+                None => {
+                    let p = (kind.plan)(near_grid, &quick);
+                    (kind.estimates)(&(kind.run)(&near_design, &p, &quick)?)
+                }
+            };
+            let p = (kind.plan)(big_grid, &quick);
+            let far_est = (kind.estimates)(&(kind.run)(&big, &p, &quick)?);
+            quantities::add_truncation(&mut near_est, &far_est, within);
+            let fits =
+                |e: &Estimate| !e.held || e.truncation <= TRUNCATION_SHARE * target * e.value.abs();
+            if near_est.iter().all(fits) {
+                truncation = Some(near_est);
+                break;
+            }
+            // The farther box's truncation is at most the change (it falls at least as the
+            // inverse of the box size).
+            let mut moved = far_est.clone();
+            for e in moved.iter_mut() {
+                e.truncation = near_est
+                    .iter()
+                    .find(|n| n.quantity == e.quantity)
+                    .map_or(0.0, |n| 0.5 * n.truncation);
+            }
+            truncation = Some(moved);
+            family = bigger;
+            near = Some(far_est);
+        }
+        let (d, _) = family.lines(BISECTIONS)?;
+        far = Some(FarField {
+            enlargements: family.enlargements,
+            x: d.domain.x,
+            y: d.domain.y,
+        });
+    }
+
+    let mut k = BISECTIONS;
+    let mut rounds = Vec::new();
+    loop {
+        let (member_design, grid) = family.member(k)?;
+        let within = SAME_SPOT_CELLS * grid.min_cell();
+        let mut round = Round {
+            bisections: k,
+            nx: grid.nx,
+            ny: grid.ny,
+            min_cell: grid.min_cell(),
+            max_cell: grid.max_cell(),
+            tol: sp.solver.tol,
+            memory_mib: 0.0,
+            worst: f64::INFINITY,
+        };
+        let plan = (kind.plan)(grid, &sp);
+        round.memory_mib = plan.memory_mib();
+        let out = (kind.run)(&member_design, &plan, &sp)?;
+        let mut estimates = (kind.estimates)(&out);
+        if let Some(t) = &truncation {
+            quantities::carry_truncation(&mut estimates, t, within);
+        }
+        round.worst = estimates
+            .iter()
+            .filter(|e| e.held)
+            .map(|e| ratio(e, target))
+            .fold(0.0, f64::max);
+        let worst = round.worst;
+        rounds.push(round);
+        if worst <= 1.0 {
+            return Ok(done(out, Stop::Met, estimates, rounds, target, &far));
+        }
+        let open = |e: &&Estimate| e.held && ratio(e, target) > 1.0;
+        let short: Vec<&Estimate> = estimates.iter().filter(open).collect();
+        if short.iter().any(|e| e.truncation > target * e.value.abs()) {
+            return Ok(done(out, Stop::Truncation, estimates, rounds, target, &far));
+        }
+        let solver_bound = short
+            .iter()
+            .any(|e| e.solver > SOLVER_SHARE * target * e.value.abs());
+        if solver_bound && sp.solver.tol > MIN_TOL {
+            sp.solver.tol = (sp.solver.tol * 1e-2).max(MIN_TOL);
+            continue;
+        }
+        // Bisections that bring the worst estimate to the target at the observed order.
+        let p = (kind.order)(&out).unwrap_or(1.0).clamp(0.5, 2.0);
+        let want = ((worst.log2() / p).ceil().max(1.0) as usize).min(MAX_STEP);
+        let mut step = None;
+        let mut needed = f64::INFINITY;
+        for m in (1..=want).rev() {
+            if k + m > params.max_bisections {
+                continue;
+            }
+            let mib = (kind.plan)(family.member(k + m)?.1, &sp).memory_mib();
+            if mib <= limit {
+                step = Some(m);
+                break;
+            }
+            needed = needed.min(mib);
+        }
+        match step {
+            Some(m) => k += m,
+            None if k + 1 > params.max_bisections => {
+                return Ok(done(out, Stop::Bisections, estimates, rounds, target, &far));
+            }
+            None => {
+                let stop = Stop::MemoryLimit {
+                    needed_mib: needed,
+                    limit_mib: limit,
+                };
+                return Ok(done(out, stop, estimates, rounds, target, &far));
+            }
+        }
+    }
+}
+
+/// The result of the last round with what the loop did.
+fn done<T>(
+    out: T,
+    stop: Stop,
+    estimates: Vec<Estimate>,
+    rounds: Vec<Round>,
+    target: f64,
+    far: &Option<FarField>,
+) -> (T, Info) {
+    let info = Info {
+        target,
+        rounds,
+        estimates,
+        stop,
+        far_field: far.clone(),
+    };
+    (out, info)
+}
+
+#[cfg(test)]
+mod tests;

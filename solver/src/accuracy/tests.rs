@@ -1,0 +1,175 @@
+use super::*;
+use crate::design::{Conductor, Drive, Shape, Side};
+
+/// A 2 mm x 1 mm bar at 1 V in a 10 mm grounded box, beside a grounded 1 mm square.
+fn bars() -> Design {
+    let mut d = Design::default();
+    d.domain.x = [0.0, 10e-3];
+    d.domain.y = [0.0, 10e-3];
+    d.domain.cell = 1e-3;
+    let rect = |x: [f64; 2], y: [f64; 2]| Shape::Rect { x, y, round: 0.0 };
+    d.conductors.push(Conductor {
+        name: "a".into(),
+        drive: Drive::Fixed(1.0),
+        shape: rect([3e-3, 5e-3], [4e-3, 5e-3]),
+        joined: Vec::new(),
+    });
+    d.conductors.push(Conductor {
+        name: "b".into(),
+        drive: Drive::Fixed(0.0),
+        shape: rect([6e-3, 7e-3], [4e-3, 5e-3]),
+        joined: Vec::new(),
+    });
+    d
+}
+
+fn capacitance_only(target: f64) -> Params {
+    let mut p = Params::default().with_target(target);
+    p.quantities.forces = false;
+    p.quantities.hotspots = false;
+    p
+}
+
+#[test]
+fn a_reachable_target_is_met_and_every_entry_is_within_it() {
+    let (sol, info) = solve(&bars(), &StudyParams::default(), &capacitance_only(2e-3)).unwrap();
+    assert!(info.met(), "{info:?}");
+    assert!(info.shortest().is_none());
+    let last = info.rounds.last().unwrap();
+    assert_eq!((last.nx, last.ny), (sol.grid.nx, sol.grid.ny));
+    assert!(last.worst <= 1.0);
+    let entries = |i: &Info| -> Vec<Estimate> {
+        i.estimates
+            .iter()
+            .filter(|e| matches!(e.quantity, Quantity::Capacitance { .. }))
+            .cloned()
+            .collect()
+    };
+    assert_eq!(entries(&info).len(), 4);
+    for e in info.estimates.iter().filter(|e| e.held) {
+        assert!(e.relative() <= 2e-3, "{e:?}");
+        assert!(e.discretisation.is_finite() && e.truncation == 0.0);
+    }
+    // Forces and hot spots are estimated and reported, though not held here.
+    assert!(info
+        .estimates
+        .iter()
+        .any(|e| matches!(e.quantity, Quantity::Force { .. }) && !e.held));
+    // The tolerance follows the target.
+    assert!(last.tol <= 2e-3 * 1e-5 * (1.0 + 1e-12));
+}
+
+#[test]
+fn a_tighter_target_takes_a_finer_lattice() {
+    let (_, loose) = solve(&bars(), &StudyParams::default(), &capacitance_only(2e-2)).unwrap();
+    let (_, tight) = solve(&bars(), &StudyParams::default(), &capacitance_only(2e-4)).unwrap();
+    assert!(loose.met() && tight.met());
+    let nodes = |i: &Info| {
+        let r = i.rounds.last().unwrap();
+        r.nx * r.ny
+    };
+    assert!(nodes(&tight) > nodes(&loose));
+    assert!(tight.rounds.len() >= 2);
+    assert!(tight
+        .rounds
+        .windows(2)
+        .all(|w| w[1].bisections >= w[0].bisections));
+}
+
+#[test]
+fn the_memory_limit_stops_the_loop_with_the_short_quantity() {
+    let d = bars();
+    let family = Family {
+        design: &d,
+        grading: grading::Params::default(),
+        enlargements: 0,
+    };
+    let first = plan::on_grid(
+        family.member(BISECTIONS).unwrap().1,
+        crate::solvers::Method::Multigrid,
+        true,
+    );
+    let p = capacitance_only(1e-7).with_max_memory_mib(first.memory_mib() + 0.01);
+    let (sol, info) = solve(&bars(), &StudyParams::default(), &p).unwrap();
+    assert!(!info.met());
+    assert_eq!(info.rounds.len(), 1);
+    match info.stop {
+        Stop::MemoryLimit {
+            needed_mib,
+            limit_mib,
+        } => assert!(needed_mib > limit_mib),
+        ref s => panic!("{s:?}"),
+    }
+    let short = info.shortest().unwrap();
+    assert!(short.relative() > 1e-7);
+    assert!(matches!(short.quantity, Quantity::Capacitance { .. }));
+    assert!(sol.solve.converged);
+    let w = info.warning().unwrap();
+    assert_eq!(w.code(), "accuracy-not-met");
+}
+
+#[test]
+fn the_family_starts_at_the_designs_own_graded_lattice() {
+    let mut d = bars();
+    d.lattice = Lattice::Graded;
+    let family = Family {
+        design: &d,
+        grading: grading::Params::default(),
+        enlargements: 0,
+    };
+    let own = plan::plan(&d, crate::solvers::Method::Multigrid, true).unwrap();
+    assert_eq!(&family.member(BISECTIONS).unwrap().1, own.grid());
+    // Finer members grade further at the corners than bisection alone.
+    let (_, next) = family.member(BISECTIONS + 1).unwrap();
+    assert!(next.min_cell() < 0.5 * own.grid().min_cell());
+}
+
+#[test]
+fn a_target_outside_zero_to_one_is_refused() {
+    for t in [0.0, -1e-3, 1.0, f64::NAN] {
+        assert!(matches!(
+            solve(
+                &bars(),
+                &StudyParams::default(),
+                &Params::default().with_target(t)
+            ),
+            Err(AccuracyError::Target(_))
+        ));
+    }
+}
+
+#[test]
+fn open_sides_carry_a_truncation_estimate() {
+    let mut d = bars();
+    d.sides.right = Side::Open;
+    d.sides.top = Side::Open;
+    let (_, info) = solve(&d, &StudyParams::default(), &capacitance_only(1e-2)).unwrap();
+    let far = info.far_field.as_ref().unwrap();
+    assert!(far.x[1] >= d.domain.x[1] && far.y[1] >= d.domain.y[1]);
+    assert!(info
+        .estimates
+        .iter()
+        .filter(|e| matches!(e.quantity, Quantity::Capacitance { .. }))
+        .all(|e| e.truncation.is_finite() && e.truncation > 0.0));
+    assert!(info.met(), "{info:?}");
+}
+
+#[test]
+fn singular_hot_spots_are_reported_and_not_refined_for() {
+    let mut p = capacitance_only(1e-2);
+    p.quantities.hotspots = true;
+    let (sol, info) = solve(&bars(), &StudyParams::default(), &p).unwrap();
+    assert!(info.met(), "{info:?}");
+    let singular = info.estimates.iter().filter(|e| e.singular).count();
+    assert_eq!(singular, sol.hotspots.iter().filter(|h| h.singular).count());
+    assert!(singular > 0);
+    assert!(info.estimates.iter().all(|e| !(e.singular && e.held)));
+}
+
+#[test]
+fn the_solver_tolerance_follows_the_target_within_bounds() {
+    assert_eq!(solver_tolerance(1e-8, 1e-3), 1e-8);
+    assert!((solver_tolerance(1e-8, 1e-4) - 1e-9).abs() < 1e-24);
+    assert_eq!(solver_tolerance(1e-8, 1e-12), MIN_TOL);
+    assert_eq!(solver_tolerance(1e-12, 1e-3), 1e-12);
+}
