@@ -386,6 +386,47 @@ pub fn probe(field: &FieldEval, probe: &Probe) -> ProbeResult {
 /// that encloses the conductor's nodes and the free nodes linked to it. Planar: N/m.
 /// Axisymmetric: N, axial component only (the radial one vanishes by symmetry).
 pub fn force(field: &FieldEval, design: &Design, k: usize) -> [f64; 2] {
+    force_on_path(field, design, k).force
+}
+
+/// The force on a conductor and what its integration path sees.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct PathForce {
+    /// The force, as [`force`] gives it.
+    pub force: [f64; 2],
+    /// The flux of D out through the same path (C/m planar, C axisymmetric): by Gauss's law
+    /// the conductor's charge when the path sees all of its field. Where the conductor faces
+    /// a fixed potential across no free node (a layer thinner than a cell between it and
+    /// another conductor or a fixed side), the field there lies outside the path and so does
+    /// its share of the charge and of the force.
+    pub flux: f64,
+    /// The flux's magnitude summed face by face (the scale of `flux` when the charges on the
+    /// conductor's faces cancel).
+    pub abs_flux: f64,
+}
+
+impl PathForce {
+    /// The share of the conductor's field (of `charge`, its charge from the operator) that
+    /// the path sees, to one: `1 - |flux - charge| / max(|charge|, abs_flux)`, clamped to
+    /// [0, 1].
+    pub fn seen(&self, charge: f64) -> f64 {
+        let scale = charge.abs().max(self.abs_flux);
+        if scale > 0.0 {
+            (1.0 - (self.flux - charge).abs() / scale).clamp(0.0, 1.0)
+        } else {
+            1.0
+        }
+    }
+}
+
+/// A force path that sees less than this share of its conductor's field does not resolve
+/// the force (measured on the demo MEMS actuator: the drive electrode on a nitride layer
+/// one cell thick, 2.5 % seen and the force of the wrong sign; at two cells and more across
+/// the layer 99.95 % and the force within 0.1 %).
+pub const RESOLVED_FORCE_SHARE: f64 = 0.9;
+
+/// [`force`] with the flux through the same path.
+pub fn force_on_path(field: &FieldEval, design: &Design, k: usize) -> PathForce {
     let op = field.op;
     let g = &op.grid;
     let (nx, ny) = (g.nx, g.ny);
@@ -405,6 +446,7 @@ pub fn force(field: &FieldEval, design: &Design, k: usize) -> [f64; 2] {
     let axi = design.mode == Mode::Axisymmetric;
     let eps_of = |p: usize| crate::material::of(design, raster.material[p]).permittivity;
     let mut f = [0.0f64; 2];
+    let (mut flux, mut abs_flux) = (0.0, 0.0);
     // E on the face between p (inside) and q (outside), from node fields on both sides and
     // the potential difference across the face.
     let node_e = |p: usize| {
@@ -483,13 +525,19 @@ pub fn force(field: &FieldEval, design: &Design, k: usize) -> [f64; 2] {
                 };
                 f[0] += t[0] * area;
                 f[1] += t[1] * area;
+                flux += eps * enorm * area;
+                abs_flux += (eps * enorm * area).abs();
             }
         }
     }
     if axi {
         f[0] = 0.0;
     }
-    f
+    PathForce {
+        force: f,
+        flux,
+        abs_flux,
+    }
 }
 
 #[cfg(test)]

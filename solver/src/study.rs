@@ -336,7 +336,8 @@ fn run_relative(
         .coarse_core()
         .map(|c| post::FieldEval::new(&c.op, &c.raster, &c.phi, &c.potentials));
     let estimate = capacitance.error_model.as_ref().zip(coarse_field.as_ref());
-    let point = operating_point(design, &core, &field, estimate);
+    let mut point = operating_point(design, &core, &field, estimate);
+    warnings.append(&mut point.warnings);
     warnings.extend(open_side_warnings(design, &core, &point.conductors));
     let fields = field_results(
         &field,
@@ -419,6 +420,8 @@ fn capacitance(
 /// Conductor results, side charges and energy at the operating point.
 struct OperatingPoint {
     conductors: Vec<ConductorResult>,
+    /// Warnings about the forces.
+    warnings: Vec<Warning>,
     /// Charge of every target (conductors, then sides).
     charges: Vec<f64>,
     side_charge: [f64; 4],
@@ -436,34 +439,43 @@ fn operating_point(
     estimate: Estimate,
 ) -> OperatingPoint {
     let error_model = estimate.map(|(m, _)| m);
+    // The coarse force counts only when its own path sees the conductor's field: a layer
+    // that the coarse lattice does not resolve gives a coarse force unrelated to the fine one.
     let force_error = |k: usize, f: [f64; 2]| -> Option<[f64; 2]> {
         let (m, cf) = estimate?;
-        let c = post::force(cf, design, k);
-        Some([m.estimate(f[0], c[0]), m.estimate(f[1], c[1])])
+        let c = post::force_on_path(cf, design, k);
+        (c.seen(m.coarse_charges[k]) >= post::RESOLVED_FORCE_SHARE)
+            .then(|| [m.estimate(f[0], c.force[0]), m.estimate(f[1], c.force[1])])
     };
     let values = core.op.target_values(&core.potentials, true);
     let charges = core
         .op
         .reactions_total(&core.response, &core.background, &core.potentials);
+    let mut warnings = Vec::new();
     let conductors = design
         .conductors
         .iter()
         .enumerate()
-        .map(|(k, c)| ConductorResult {
-            name: c.name.clone(),
-            potential: core.potentials[k],
-            floating: c.drive == Drive::Floating,
-            charge: charges[k],
-            charge_error: error_model.map(|m| m.estimate(charges[k], m.coarse_charges[k])),
-            force: post::force(field, design, k),
-            force_error: None,
+        .map(|(k, c)| {
+            let path = post::force_on_path(field, design, k);
+            let seen = path.seen(charges[k]);
+            if seen < post::RESOLVED_FORCE_SHARE {
+                warnings.push(Warning::ForceUnresolved {
+                    conductor: c.name.clone(),
+                    seen,
+                });
+            }
+            ConductorResult {
+                name: c.name.clone(),
+                potential: core.potentials[k],
+                floating: c.drive == Drive::Floating,
+                charge: charges[k],
+                charge_error: error_model.map(|m| m.estimate(charges[k], m.coarse_charges[k])),
+                force: path.force,
+                force_error: force_error(k, path.force),
+            }
         })
-        .enumerate()
-        .map(|(k, mut c)| {
-            c.force_error = force_error(k, c.force);
-            c
-        })
-        .collect();
+        .collect::<Vec<_>>();
     let mut side_charge = [0.0; 4];
     for s in SideId::ALL {
         side_charge[s as usize] = charges[core.op.side_target(s) as usize];
@@ -475,11 +487,27 @@ fn operating_point(
         .map(|&(p, s)| s * EPS0 * core.phi[p as usize])
         .sum();
     let energy = 0.5 * (charges.iter().zip(&values).map(|(q, v)| q * v).sum::<f64>() + free);
+    // A force whose estimate exceeds it, where the estimate matters against the design's own
+    // force scale (stored energy over the domain's diagonal): forces that vanish by symmetry
+    // carry rounding both ways and are not flagged.
+    let d = &design.domain;
+    let scale = energy.abs() / (d.x[1] - d.x[0]).hypot(d.y[1] - d.y[0]);
+    for c in &conductors {
+        let Some(e) = c.force_error else { continue };
+        let (err, size) = (e[0].hypot(e[1]), c.force[0].hypot(c.force[1]));
+        if err > size && err > 1e-3 * scale {
+            warnings.push(Warning::ForceUncertain {
+                conductor: c.name.clone(),
+                ratio: err / size.max(f64::MIN_POSITIVE),
+            });
+        }
+    }
     OperatingPoint {
         conductors,
         charges,
         side_charge,
         energy,
+        warnings,
     }
 }
 

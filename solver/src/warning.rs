@@ -88,6 +88,24 @@ pub enum Warning {
         /// What stopped the refinement.
         limit: AccuracyLimit,
     },
+    /// The force on a conductor is not resolved: the path the force is integrated over sees
+    /// only part of the conductor's field (a layer thinner than a cell lies between the
+    /// conductor and a fixed potential, with no free node in it), so the force may be wrong
+    /// in size and even in sign while the capacitance is right.
+    ForceUnresolved {
+        /// The conductor.
+        conductor: String,
+        /// Share of the conductor's field flux (its charge) that the path sees, to one.
+        seen: f64,
+    },
+    /// A force's estimated discretisation error exceeds its magnitude: not even its direction
+    /// is known.
+    ForceUncertain {
+        /// The conductor.
+        conductor: String,
+        /// Estimated error over magnitude, to one (the larger of the components').
+        ratio: f64,
+    },
 }
 
 /// What stopped a refinement before the accuracy asked for was reached.
@@ -123,6 +141,8 @@ impl Warning {
             Warning::NegativeMutualCapacitance { .. } => "negative-mutual-capacitance",
             Warning::PotentialRounding { .. } => "potential-rounding",
             Warning::AccuracyNotMet { .. } => "accuracy-not-met",
+            Warning::ForceUnresolved { .. } => "force-unresolved",
+            Warning::ForceUncertain { .. } => "force-uncertain",
         }
     }
 }
@@ -217,6 +237,20 @@ impl fmt::Display for Warning {
                 }?;
                 f.write_str("; the results are those of the last grid")
             }
+            Warning::ForceUnresolved { conductor, seen } => write!(
+                f,
+                "the force on {conductor} is not resolved: the path it is integrated over sees \
+                 {:.1} % of the conductor's field, the rest crosses a layer thinner than a cell \
+                 between it and a fixed potential; the force may be wrong in size and sign \
+                 (refine the cell until that layer holds free nodes)",
+                100.0 * seen
+            ),
+            Warning::ForceUncertain { conductor, ratio } => write!(
+                f,
+                "the force on {conductor} has an estimated discretisation error of {:.0} % of \
+                 its magnitude: its direction is not known (refine the cell)",
+                100.0 * ratio
+            ),
         }
     }
 }
@@ -318,6 +352,14 @@ mod tests {
                 a: "a".into(),
                 b: "b".into(),
                 value: -1e-15,
+            },
+            Warning::ForceUnresolved {
+                conductor: "a".into(),
+                seen: 0.03,
+            },
+            Warning::ForceUncertain {
+                conductor: "a".into(),
+                ratio: 2.0,
             },
         ];
         let mut codes: Vec<&str> = all.iter().map(Warning::code).collect();

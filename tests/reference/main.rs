@@ -7,6 +7,7 @@ mod axisymmetric;
 mod design_targets;
 mod fem_demos;
 mod floating;
+mod forces;
 mod hotspots;
 mod line;
 mod manufactured;
