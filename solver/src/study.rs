@@ -13,112 +13,29 @@
 //! results hold a NaN or an infinity (every solve converged, yet the numbers overflowed) is
 //! never reported as converged.
 
-use crate::design::{Design, DesignError, Drive, Mode};
+use crate::design::{Design, Drive, Mode};
 use crate::grid::{Grid, GridError};
-use crate::operator::{Operator, OperatorError, SideId};
+use crate::operator::{Operator, SideId};
 use crate::plan::Plan;
-use crate::post::{self, Hotspot, HotspotParams, ProbeResult, SurfacePoint};
+use crate::post::{self, Hotspot, ProbeResult, SurfacePoint};
 use crate::raster::Raster;
-use crate::solvers::{multigrid, Info, Method, Params};
-use crate::stages::{Stage, StageMonitor, Tracker};
+use crate::solvers::{Info, Method};
+use crate::stages::{Stage, Tracker};
 use crate::surface::{self, SurfaceParams, SurfaceSample};
 use crate::surface_results;
 use crate::warning::{NonFiniteIn, SolveFailure, Warning};
 use crate::EPS0;
 
 mod estimate;
+mod params;
 mod reference;
 mod solves;
 
 use estimate::CoarseStudies;
 pub use estimate::ErrorModel;
-pub use solves::WarmStart;
+pub use params::{StudyError, StudyParams, WarmStart};
 use solves::{solve_on, Core};
 use std::sync::Arc;
-
-/// What to run. Start from `StudyParams::default()` and set the fields that matter (more
-/// may be added).
-#[derive(Clone, Debug)]
-#[non_exhaustive]
-pub struct StudyParams {
-    /// Linear solver.
-    pub method: Method,
-    /// Its settings.
-    pub solver: Params,
-    /// The multigrid hierarchy's options (used when `method` is multigrid).
-    pub multigrid: multigrid::Options,
-    /// Also solve on the lattice twice as coarse and estimate discretisation errors.
-    pub error_estimate: bool,
-    /// Hot-spot search settings.
-    pub hotspots: HotspotParams,
-    /// Told as each stage of the study starts and ends.
-    pub stages: Option<StageMonitor>,
-    /// Starting guesses for the solves on the study's lattice (from an earlier study of a
-    /// nearby design); used only when they fit the lattice (same node counts and
-    /// conductors), else every solve starts from zero.
-    pub warm_start: Option<Arc<WarmStart>>,
-    /// Keep the lattice's solves in [`Solution::warm_start`], to start a later study from.
-    pub keep_warm_start: bool,
-}
-
-impl Default for StudyParams {
-    fn default() -> Self {
-        StudyParams {
-            method: Method::default(),
-            solver: Params::default(),
-            multigrid: multigrid::Options::default(),
-            error_estimate: true,
-            hotspots: HotspotParams::default(),
-            stages: None,
-            warm_start: None,
-            keep_warm_start: false,
-        }
-    }
-}
-
-impl StudyParams {
-    /// These settings with the linear solver `method`.
-    pub fn with_method(mut self, method: Method) -> Self {
-        self.method = method;
-        self
-    }
-
-    /// These settings with the solver settings `solver`.
-    pub fn with_solver(mut self, solver: Params) -> Self {
-        self.solver = solver;
-        self
-    }
-
-    /// These settings without a warm start and keeping nothing for one.
-    pub(crate) fn cold(&self) -> StudyParams {
-        StudyParams {
-            warm_start: None,
-            keep_warm_start: false,
-            ..self.clone()
-        }
-    }
-
-    /// These settings with the error estimate on or off.
-    pub fn with_error_estimate(mut self, on: bool) -> Self {
-        self.error_estimate = on;
-        self
-    }
-}
-
-/// A study that could not run.
-#[derive(Debug, thiserror::Error)]
-#[non_exhaustive]
-pub enum StudyError {
-    /// The design breaks a rule.
-    #[error(transparent)]
-    Design(#[from] DesignError),
-    /// The lattice cannot be built.
-    #[error(transparent)]
-    Grid(#[from] GridError),
-    /// The operator cannot be built.
-    #[error(transparent)]
-    Operator(#[from] OperatorError),
-}
 
 /// Per-conductor results at the operating point.
 #[derive(Clone, Debug, PartialEq)]

@@ -11,8 +11,8 @@
 //! errors of its two studies, and what is left converges at an order (and from a grid on)
 //! of its own.
 
+use super::params::{StudyError, StudyParams};
 use super::solves::{solve_on, Core};
-use super::{StudyError, StudyParams};
 use crate::design::{Design, Lattice};
 use crate::grid::Grid;
 use crate::warning::Warning;

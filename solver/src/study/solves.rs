@@ -6,7 +6,7 @@
 //! their own potentials in `phi`; `response[k][t]` is the charge on target t with conductor
 //! k at 1 V and everything else at 0 V.
 
-use super::{StudyError, StudyParams};
+use super::params::{StudyError, StudyParams, WarmStart};
 use crate::design::{Design, Drive};
 use crate::grid::Grid;
 use crate::operator::{self, Operator};
@@ -32,26 +32,6 @@ pub(super) struct Core {
     pub(super) infos: Vec<Info>,
     /// The solves, when the study keeps them for a later one.
     pub(super) warm: Option<WarmStart>,
-}
-
-/// The solutions of a study's solves on its lattice, to start the solves of a nearby
-/// design's study from: one per conductor at 1 V (every other at 0 V) and the sides and
-/// free charge's. Any starting guess converges to the same tolerance (the solvers stop on the
-/// residual relative to the right-hand side), so a guess changes the iteration count only.
-#[derive(Clone, Debug, PartialEq)]
-pub struct WarmStart {
-    nx: usize,
-    ny: usize,
-    unit: Vec<Vec<f64>>,
-    background: Option<Vec<f64>>,
-}
-
-impl WarmStart {
-    /// True when these solves fit a lattice of `grid`'s node counts with `conductors`
-    /// conductors.
-    pub fn fits(&self, grid: &Grid, conductors: usize) -> bool {
-        self.nx == grid.nx && self.ny == grid.ny && self.unit.len() == conductors
-    }
 }
 
 impl Operator {

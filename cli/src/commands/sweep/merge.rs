@@ -10,8 +10,9 @@
 //! `monte_carlo_statistics.csv`); bad parts leave no `--out`.
 
 use super::super::monte_carlo;
+use super::file::SweepFile;
 use super::table::Cursor;
-use super::{columns, read_dir, SweepFile};
+use super::{columns, read_dir};
 use crate::error::Failure;
 use crate::outdir::OutDir;
 use crate::{EXIT_NOT_CONVERGED, EXIT_OK};

@@ -8,7 +8,7 @@
 //! every row has the table's number of fields and a point index below the sweep's count;
 //! a cursor's indices strictly increase (the order every sweep writes its rows in).
 
-use super::SweepFile;
+use super::file::SweepFile;
 use crate::error::Failure;
 use std::collections::VecDeque;
 use std::io::{Seek, SeekFrom};
