@@ -73,6 +73,7 @@ fn design(cell: f64) -> Design {
                     [17.5 * mm, 23.0 * mm],
                 ]],
                 round: 0.3 * mm,
+                corners: None,
             },
         ),
         c(

@@ -129,8 +129,12 @@ pub enum Shape {
         outer: Vec<Point>,
         /// Hole boundaries, each at least 3 vertices, inside the outer boundary.
         holes: Vec<Vec<Point>>,
-        /// Fillet radius of every corner, 0 for sharp corners.
+        /// Fillet radius of the rounded corners, 0 for sharp corners.
         round: f64,
+        /// Which vertices `round` applies to, 0-based, counted through the outer boundary
+        /// and then each hole in order; `None` rounds every corner. Vertices not listed stay
+        /// exactly where they are.
+        corners: Option<Vec<usize>>,
     },
     /// Open polyline: a conductor of zero thickness. Conductors only.
     Polyline(Vec<Point>),

@@ -295,11 +295,15 @@ fn piece_corners(shape: &Shape, out: &mut Vec<Point>) {
             outer,
             holes,
             round,
-        } if *round == 0.0 => {
-            out.extend(convex_vertices(outer, true));
+            corners,
+        } if *round == 0.0 || corners.is_some() => {
+            let sharp =
+                crate::geometry::unrounded_vertices(outer, holes, *round, corners.as_deref());
+            let mut all = convex_vertices(outer, true);
             holes
                 .iter()
-                .for_each(|h| out.extend(convex_vertices(h, false)));
+                .for_each(|h| all.extend(convex_vertices(h, false)));
+            out.extend(all.into_iter().filter(|p| sharp.contains(p)));
         }
         Shape::Polyline(pts) => {
             let n = pts.len();
@@ -573,6 +577,7 @@ mod tests {
             outer: l,
             holes: vec![],
             round: 0.0,
+            corners: None,
         }));
         let want = vec![[0.0, 0.0], [0.0, 2.0], [1.0, 2.0], [2.0, 1.0], [2.0, 0.0]];
         assert_eq!(got, want);
@@ -587,6 +592,7 @@ mod tests {
             outer: outer.clone(),
             holes: vec![hole],
             round: 0.0,
+            corners: None,
         }));
         assert_eq!(got, outer);
     }
@@ -661,6 +667,7 @@ mod tests {
             outer: tri,
             holes: vec![],
             round: 0.1,
+            corners: None,
         }));
         assert!(got.is_empty());
     }

@@ -132,6 +132,7 @@ fn points(s: &Shape) -> Vec<[f64; 2]> {
             outer,
             holes,
             round,
+            ..
         } => {
             let mut v = outer.clone();
             v.extend(holes.iter().flatten());

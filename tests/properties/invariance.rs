@@ -39,6 +39,7 @@ fn map_shape(
             outer,
             holes,
             round,
+            corners,
         } => Shape::Polygon {
             outer: outer.iter().map(|p| f(*p)).collect(),
             holes: holes
@@ -46,6 +47,7 @@ fn map_shape(
                 .map(|h| h.iter().map(|p| f(*p)).collect())
                 .collect(),
             round: *round,
+            corners: corners.clone(),
         },
         Shape::Polyline(v) => Shape::Polyline(v.iter().map(|p| f(*p)).collect()),
     }
@@ -174,6 +176,7 @@ fn polygon_vertex_order_does_not_matter() {
                 outer,
                 holes: vec![hole],
                 round: 0.0,
+                corners: None,
             };
             let slot = if dielectric {
                 None

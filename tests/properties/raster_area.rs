@@ -64,6 +64,7 @@ fn rasterised_polygon_area_matches_its_geometric_area_within_the_cut_cell_error(
                         outer: poly.clone(),
                         holes: Vec::new(),
                         round: 0.0,
+                        corners: None,
                     },
                 }],
                 ..Design::default()

@@ -69,6 +69,7 @@ pub(crate) fn shape_in(kind: usize, f: &Fractions, b: [f64; 4]) -> Shape {
             outer: convex(c, [rx, ry], 3 + (f[7] * 5.0) as usize, &f[8..]),
             holes: Vec::new(),
             round: 0.0,
+            corners: None,
         },
         _ => Shape::Polyline(vec![
             [c[0] - rx, c[1] - ry * f[9]],

@@ -504,6 +504,7 @@ impl Reader<'_> {
                 "svg",
                 "holes",
                 "round",
+                "round_corners",
             ],
         )?;
         let name = self.name(t, node, p)?;
@@ -588,6 +589,7 @@ impl Reader<'_> {
                 "svg",
                 "holes",
                 "round",
+                "round_corners",
             ],
         )?;
         let name = self.name(t, node, p)?;
@@ -617,8 +619,19 @@ impl Reader<'_> {
             node,
             p,
             &[
-                "name", "density", "at", "amount", "rect", "circle", "ring", "polygon", "polyline",
-                "svg", "holes", "round",
+                "name",
+                "density",
+                "at",
+                "amount",
+                "rect",
+                "circle",
+                "ring",
+                "polygon",
+                "polyline",
+                "svg",
+                "holes",
+                "round",
+                "round_corners",
             ],
         )?;
         let name = self.name(t, node, p)?;

@@ -10,7 +10,7 @@ use fieldgrid_solver::design::{Point, Shape};
 
 use super::spans::{get, Entry, Node};
 use super::svg;
-use super::values::{join, table_span, Reader, Res};
+use super::values::{join, show, table_span, Reader, Res};
 
 /// Largest SVG file a design may import, bytes.
 pub const MAX_SVG_BYTES: u64 = 64 << 20;
@@ -84,7 +84,7 @@ impl Reader<'_> {
             }
         };
         let key = join(path, &e.key);
-        for extra in ["holes", "round"] {
+        for extra in ["holes", "round", "round_corners"] {
             if let Some(x) = get(t, extra) {
                 if e.key != "polygon" {
                     let hint = if extra == "round" && e.key == "rect" {
@@ -158,10 +158,13 @@ impl Reader<'_> {
                     }
                 }
                 let round = self.round(t, path)?;
+                let total = outer.len() + holes.iter().map(Vec::len).sum::<usize>();
+                let corners = self.round_corners(t, path, total)?;
                 Ok(Shape::Polygon {
                     outer,
                     holes,
                     round,
+                    corners,
                 })
             }
             "polyline" => {
@@ -221,6 +224,7 @@ impl Reader<'_> {
                 outer: pts,
                 holes: Vec::new(),
                 round: 0.0,
+                corners: None,
             })
         } else if owner == Owner::Conductor {
             Ok(Shape::Polyline(pts))
@@ -243,5 +247,45 @@ impl Reader<'_> {
         };
         let key = join(path, "round");
         self.size(&e.node, &key, "the fillet radius", true)
+    }
+
+    /// `round_corners = [i, ...]`: the 0-based vertices `round` applies to, counted through
+    /// the outer boundary and then each hole; `total` vertices in all.
+    pub(super) fn round_corners(
+        &self,
+        t: &[Entry],
+        path: &str,
+        total: usize,
+    ) -> Res<Option<Vec<usize>>> {
+        let Some(e) = get(t, "round_corners") else {
+            return Ok(None);
+        };
+        let key = join(path, "round_corners");
+        if get(t, "round").is_none() {
+            return Err(self.err(
+                &e.key_span,
+                &key,
+                "`round_corners` chooses the corners `round = r` rounds: give `round` too",
+            ));
+        }
+        let list = self.array(&e.node, &key, "an array of vertex indices [i, j, ...]")?;
+        let mut out = Vec::with_capacity(list.len());
+        for n in list {
+            let v = self.number(n, &key)?;
+            if v.fract() != 0.0 || v < 0.0 || v >= total as f64 {
+                return Err(self.err(
+                    &n.span,
+                    &key,
+                    format!(
+                        "{} is not a vertex: give 0-based indices from 0 to {} (the outer \
+                         boundary's vertices, then each hole's)",
+                        show(v),
+                        total - 1
+                    ),
+                ));
+            }
+            out.push(v as usize);
+        }
+        Ok(Some(out))
     }
 }

@@ -169,6 +169,7 @@ fn every_key_converts_to_si() {
         ref outer,
         ref holes,
         round,
+        ref corners,
     } = sub.shape
     else {
         panic!()
@@ -178,6 +179,7 @@ fn every_key_converts_to_si() {
     assert_eq!(holes.len(), 1);
     assert!(close2(holes[0][1], [5e-3, 0.1e-3]));
     assert!(close(round, 5e-5));
+    assert_eq!(*corners, None);
     assert_eq!(d.dielectrics[1].permittivity, 2.5);
     assert_eq!(d.dielectrics[1].strength, None);
 
@@ -448,4 +450,46 @@ fn a_permittivity_below_vacuums_is_refused_at_its_key() {
                 permittivity = 0.8\nrect = { x = [0, 1], y = [0, 0.5] }\n";
     let e = read(text).unwrap_err();
     assert_eq!((e.line, e.key.as_str()), (7, "dielectric.permittivity"));
+}
+
+/// A rounded polygon touching the mirror plane on the left, with `extra` keys beside it.
+fn mirror_design(extra: &str) -> String {
+    format!(
+        r#"unit = "mm"
+[grid]
+x = [0.0, 10.0]
+y = [0.0, 10.0]
+cell = 0.1
+[sides]
+left = "symmetry"
+[[conductor]]
+name = "bar"
+potential = 1
+polygon = [[0, 4], [3, 4], [3, 6], [0, 6]]
+round = 0.5
+{extra}"#
+    )
+}
+
+#[test]
+fn round_corners_chooses_the_rounded_vertices() {
+    let d = read(&mirror_design("round_corners = [0, 2]"))
+        .unwrap()
+        .design;
+    let Shape::Polygon { ref corners, .. } = d.conductors[0].shape else {
+        panic!()
+    };
+    assert_eq!(corners.as_deref(), Some(&[0, 2][..]));
+    // The unchosen vertices on the mirror plane stay sharp corners.
+    let sharp = fieldgrid_solver::geometry::sharp_corners(&d.conductors[0].shape);
+    assert_eq!(sharp, vec![[3e-3, 4e-3], [0.0, 6e-3]]);
+}
+
+#[test]
+fn round_corners_out_of_range_names_file_line_and_key() {
+    let e = read(&mirror_design("round_corners = [1, 4]")).unwrap_err();
+    let m = e.to_string();
+    assert!(m.contains("t.toml:13"), "{m}");
+    assert!(m.contains("round_corners`"), "{m}");
+    assert!(m.contains("4 is not a vertex"), "{m}");
 }

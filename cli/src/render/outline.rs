@@ -171,6 +171,7 @@ mod tests {
             outer: l,
             holes: Vec::new(),
             round: 0.1,
+            corners: None,
         };
         let f = &Outline::from_shape("l", &s, 1e-6).rings[0];
         // Five convex corners lose (1 - pi/4) r^2 each, the reflex corner gains the same.

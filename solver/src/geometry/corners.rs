@@ -39,9 +39,33 @@ fn loop_corners(v: &[Point], out: &mut Vec<Point>) {
     }
 }
 
+/// The vertices of a polygon (outer boundary, then holes) that `round` and `corners` leave
+/// sharp (see [`Shape::Polygon`]).
+pub(crate) fn unrounded_vertices(
+    outer: &[Point],
+    holes: &[Vec<Point>],
+    round: f64,
+    corners: Option<&[usize]>,
+) -> Vec<Point> {
+    let all: Vec<Point> = outer
+        .iter()
+        .chain(holes.iter().flatten())
+        .copied()
+        .collect();
+    if round <= 0.0 {
+        return all;
+    }
+    let pick = super::outline::rounded_vertices(corners, all.len());
+    all.into_iter()
+        .zip(pick)
+        .filter(|(_, p)| !p)
+        .map(|(v, _)| v)
+        .collect()
+}
+
 /// The sharp corners of a shape: unrounded rectangle and polygon vertices (holes included)
 /// where the outline turns, and a polyline's end points and kinks. Circles, rings and
-/// rounded shapes have none. Points are in metres, in outline order; in axisymmetric mode
+/// rounded shapes have none; a polygon rounded at chosen corners keeps its others. Points are in metres, in outline order; in axisymmetric mode
 /// the caller drops those with x < 0.
 pub fn sharp_corners(shape: &Shape) -> Vec<Point> {
     let mut out = Vec::new();
@@ -53,11 +77,15 @@ pub fn sharp_corners(shape: &Shape) -> Vec<Point> {
             outer,
             holes,
             round,
-        } if *round <= 0.0 => {
-            loop_corners(outer, &mut out);
+            corners,
+        } if *round <= 0.0 || corners.is_some() => {
+            let mut all = Vec::new();
+            loop_corners(outer, &mut all);
             for h in holes {
-                loop_corners(h, &mut out);
+                loop_corners(h, &mut all);
             }
+            let sharp = unrounded_vertices(outer, holes, *round, corners.as_deref());
+            out.extend(all.into_iter().filter(|p| sharp.contains(p)));
         }
         Shape::Polyline(pts) => {
             let mut w: Vec<Point> = Vec::with_capacity(pts.len());
@@ -135,6 +163,7 @@ mod tests {
             outer: vec![[0.0, 0.0], [1.0, 0.0], [2.0, 0.0], [2.0, 1.0], [0.0, 1.0]],
             holes: vec![vec![[0.5, 0.25], [0.75, 0.25], [0.75, 0.5]]],
             round: 0.0,
+            corners: None,
         };
         let c = sharp_corners(&p);
         assert_eq!(c.len(), 7);

@@ -24,9 +24,10 @@ pub(crate) fn plain_loop(v: &[Point]) -> Vec<Piece> {
         .collect()
 }
 
-/// The loop through `v` (closed implicitly, no zero-length edges) with every corner rounded
-/// with radius `r` > 0. The message of an error names the edge that cannot hold its fillets.
-pub(crate) fn rounded_loop(v: &[Point], r: f64) -> Result<Vec<Piece>, String> {
+/// The loop through `v` (closed implicitly, no zero-length edges) with the corners `pick`
+/// selects (one flag per vertex) rounded with radius `r` > 0; the others stay sharp. The
+/// message of an error names the edge that cannot hold its fillets.
+pub(crate) fn rounded_loop(v: &[Point], r: f64, pick: &[bool]) -> Result<Vec<Piece>, String> {
     let n = v.len();
     let edge = |k: usize| {
         let (a, b) = (v[k], v[(k + 1) % n]);
@@ -54,7 +55,7 @@ pub(crate) fn rounded_loop(v: &[Point], r: f64) -> Result<Vec<Piece>, String> {
         let dot = d1[0] * d2[0] + d1[1] * d2[1];
         let turn = cross.abs().atan2(dot);
         let p = v[k];
-        if turn < STRAIGHT {
+        if turn < STRAIGHT || !pick[k] {
             corners.push(Corner {
                 t: 0.0,
                 t1: p,
@@ -127,7 +128,7 @@ mod tests {
     fn fillet_arcs_are_tangent_and_on_radius() {
         let v = vec![[0.0, 0.0], [3.0, 0.0], [3.0, 1.0], [1.5, 2.5], [0.0, 1.0]];
         let r = 0.25;
-        let l = rounded_loop(&v, r).unwrap();
+        let l = rounded_loop(&v, r, &[true; 5]).unwrap();
         for (k, p) in l.iter().enumerate() {
             assert_eq!(p.end(), l[(k + 1) % l.len()].start());
             if let Piece::Arc {
@@ -149,7 +150,7 @@ mod tests {
     #[test]
     fn straight_vertex_gets_no_fillet() {
         let v = vec![[0.0, 0.0], [1.0, 0.0], [2.0, 0.0], [2.0, 2.0], [0.0, 2.0]];
-        let l = rounded_loop(&v, 0.1).unwrap();
+        let l = rounded_loop(&v, 0.1, &[true; 5]).unwrap();
         let arcs = l.iter().filter(|p| matches!(p, Piece::Arc { .. })).count();
         // Four rounded right angles, one quadrant piece each.
         assert_eq!(arcs, 4);
@@ -158,7 +159,23 @@ mod tests {
     #[test]
     fn radius_too_large_names_the_edge() {
         let v = vec![[0.0, 0.0], [1.0, 0.0], [1.0, 5.0], [0.0, 5.0]];
-        let e = rounded_loop(&v, 0.6).unwrap_err();
+        let e = rounded_loop(&v, 0.6, &[true; 4]).unwrap_err();
         assert!(e.contains("edge 1"), "{e}");
+    }
+
+    #[test]
+    fn chosen_corner_rounding_leaves_other_vertices_in_place() {
+        let v = vec![[0.0, 0.0], [2.0, 0.0], [2.0, 1.0], [0.0, 1.0]];
+        let l = rounded_loop(&v, 0.25, &[false, true, false, false]).unwrap();
+        let arcs: Vec<&Piece> = l
+            .iter()
+            .filter(|p| matches!(p, Piece::Arc { .. }))
+            .collect();
+        assert_eq!(arcs.len(), 1);
+        let ends: Vec<Point> = l.iter().map(|p| p.start()).collect();
+        for k in [0, 2, 3] {
+            assert!(ends.contains(&v[k]), "vertex {k} moved: {ends:?}");
+        }
+        assert!(!ends.contains(&v[1]));
     }
 }

@@ -260,6 +260,7 @@ mod tests {
             ],
             holes: vec![],
             round: 0.0,
+            corners: None,
         })
         .unwrap();
         let one = LineSets::build(&whole, &lines, false);

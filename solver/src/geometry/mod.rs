@@ -26,6 +26,7 @@ pub mod outline;
 mod piece;
 mod validate;
 
+pub(crate) use corners::unrounded_vertices;
 pub use corners::{outline_polylines, sharp_corners};
 pub(crate) use intersect::meet;
 pub use outline::{outline, BBox, Outline, Piece, ShapeError};

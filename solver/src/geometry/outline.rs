@@ -68,20 +68,23 @@ pub(crate) fn signed_area2(v: &[Point]) -> f64 {
     s
 }
 
-/// A vertex loop oriented counter-clockwise (`ccw`) or clockwise, corners filleted with
-/// radius `round` (0: sharp).
+/// A vertex loop oriented counter-clockwise (`ccw`) or clockwise, the corners `pick` selects
+/// (one flag per vertex of `v`) filleted with radius `round` (0: sharp).
 fn polygon_loop(
     v: &[Point],
     round: f64,
+    pick: &[bool],
     ccw: bool,
     key: &'static str,
 ) -> Result<Vec<Piece>, ShapeError> {
     let mut v = v.to_vec();
+    let mut pick = pick.to_vec();
     if (signed_area2(&v) > 0.0) != ccw {
         v.reverse();
+        pick.reverse();
     }
     if round > 0.0 {
-        fillet::rounded_loop(&v, round).map_err(|m| ShapeError::new("round", m))
+        fillet::rounded_loop(&v, round, &pick).map_err(|m| ShapeError::new("round", m))
     } else {
         let l = fillet::plain_loop(&v);
         if l.len() < 3 {
@@ -91,6 +94,23 @@ fn polygon_loop(
             ));
         }
         Ok(l)
+    }
+}
+
+/// One flag per vertex of a polygon (outer boundary, then each hole): whether `corners`
+/// (see [`Shape::Polygon`]) selects it for rounding. Indices past `total` select nothing.
+pub fn rounded_vertices(corners: Option<&[usize]>, total: usize) -> Vec<bool> {
+    match corners {
+        None => vec![true; total],
+        Some(list) => {
+            let mut pick = vec![false; total];
+            for &k in list {
+                if let Some(p) = pick.get_mut(k) {
+                    *p = true;
+                }
+            }
+            pick
+        }
     }
 }
 
@@ -108,7 +128,7 @@ pub fn outline(shape: &Shape) -> Result<Outline, ShapeError> {
             }
             let v = [[x[0], y[0]], [x[1], y[0]], [x[1], y[1]], [x[0], y[1]]];
             Ok(Outline {
-                loops: vec![polygon_loop(&v, *round, true, "rect")?],
+                loops: vec![polygon_loop(&v, *round, &[true; 4], true, "rect")?],
                 open: false,
             })
         }
@@ -139,6 +159,7 @@ pub fn outline(shape: &Shape) -> Result<Outline, ShapeError> {
             outer,
             holes,
             round,
+            corners,
         } => {
             if outer.len() < 3 {
                 return Err(ShapeError::new(
@@ -146,12 +167,23 @@ pub fn outline(shape: &Shape) -> Result<Outline, ShapeError> {
                     "a polygon needs at least 3 vertices",
                 ));
             }
-            let mut loops = vec![polygon_loop(outer, *round, true, "polygon")?];
+            let total = outer.len() + holes.iter().map(Vec::len).sum::<usize>();
+            let pick = rounded_vertices(corners.as_deref(), total);
+            let mut loops = vec![polygon_loop(
+                outer,
+                *round,
+                &pick[..outer.len()],
+                true,
+                "polygon",
+            )?];
+            let mut at = outer.len();
             for h in holes {
                 if h.len() < 3 {
                     return Err(ShapeError::new("holes", "a hole needs at least 3 vertices"));
                 }
-                loops.push(polygon_loop(h, *round, false, "holes")?);
+                let p = &pick[at..at + h.len()];
+                at += h.len();
+                loops.push(polygon_loop(h, *round, p, false, "holes")?);
             }
             Ok(Outline { loops, open: false })
         }
@@ -349,6 +381,7 @@ mod tests {
                 outer: outer.clone(),
                 holes: vec![h],
                 round: 0.0,
+                corners: None,
             })
             .unwrap();
             assert!((o.area() - 11.0).abs() < 1e-14);
@@ -373,6 +406,7 @@ mod tests {
             outer: l,
             holes: vec![],
             round: r,
+            corners: None,
         })
         .unwrap();
         assert!(closes(&o) && monotone_arcs(&o));
@@ -390,6 +424,7 @@ mod tests {
             outer: v.clone(),
             holes: vec![],
             round: r,
+            corners: None,
         })
         .unwrap();
         assert!(closes(&o) && monotone_arcs(&o));
@@ -413,6 +448,7 @@ mod tests {
             outer: vec![[0.0, 0.0], [2.0, 1.0], [0.0, 2.0], [1.0, 1.0]],
             holes: vec![],
             round: 0.0,
+            corners: None,
         })
         .unwrap();
         // x = 1 passes through the vertex (1, 1) and crosses two edges.

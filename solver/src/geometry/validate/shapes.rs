@@ -44,6 +44,7 @@ pub(super) fn all_finite(shape: &Shape) -> bool {
             outer,
             holes,
             round,
+            ..
         } => {
             finite_points(outer.iter())
                 && holes.iter().all(|h| finite_points(h.iter()))
@@ -158,7 +159,15 @@ pub(super) fn check_shape(shape: &Shape, ctx: &Ctx) -> Result<Outline, Fail> {
             outer,
             holes,
             round,
+            corners,
         } => {
+            let total = outer.len() + holes.iter().map(Vec::len).sum::<usize>();
+            if let Some(k) = corners.iter().flatten().find(|&&k| k >= total) {
+                return Err((
+                    "round_corners",
+                    format!("vertex {k} does not exist: the polygon has {total} vertices"),
+                ));
+            }
             if outer.len() < 3 {
                 return Err((
                     "polygon",

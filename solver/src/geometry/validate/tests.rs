@@ -33,6 +33,7 @@ fn poly(v: &[[f64; 2]]) -> Shape {
         outer: v.to_vec(),
         holes: vec![],
         round: 0.0,
+        corners: None,
     }
 }
 
@@ -274,6 +275,7 @@ fn hole_rules() {
                 outer: outer.clone(),
                 holes,
                 round: 0.0,
+                corners: None,
             },
         ));
         d
@@ -326,6 +328,7 @@ fn round_too_large_for_a_notch() {
             outer: v.to_vec(),
             holes: vec![],
             round: 0.1,
+            corners: None,
         },
     ));
     validate_design(&d).unwrap();
@@ -336,6 +339,7 @@ fn round_too_large_for_a_notch() {
             outer: v.to_vec(),
             holes: vec![],
             round: 0.15,
+            corners: None,
         },
     ));
     fails(&d, Item::Conductor(0), "round");

@@ -58,6 +58,7 @@ fn rebuilt_area_matches_to_second_order() {
                 outer: v.clone(),
                 holes: vec![],
                 round: 0.0,
+                corners: None,
             },
         ));
         let r = rasterize(&d, &grid_of(&d));
@@ -128,6 +129,7 @@ fn region_charge_sums_to_density_times_area() {
             outer: vec![[0.1, 0.1], [0.9, 0.15], [0.7, 0.9], [0.12, 0.8]],
             holes: vec![vec![[0.3, 0.3], [0.5, 0.6], [0.6, 0.3]]],
             round: 0.02,
+            corners: None,
         },
         // Touching the sides of the domain (halved boxes).
         rect([0.0, 1.0], [0.0, 0.35]),

@@ -73,6 +73,7 @@ fn random_shape(rng: &mut Rng, x0: f64, y0: f64, s: f64, h: f64, snap: bool, thi
                 outer,
                 holes: vec![],
                 round,
+                corners: None,
             }
         }
         _ => {
@@ -300,6 +301,7 @@ fn degenerate_coincidences_stay_well_formed() {
             outer: vec![[1.0, 0.25], [1.75, 0.25], [1.25, 0.75]],
             holes: vec![],
             round: 0.0,
+            corners: None,
         },
     ));
     d.conductors.push(conductor(
@@ -308,6 +310,7 @@ fn degenerate_coincidences_stay_well_formed() {
             outer: vec![[0.5, 1.0], [0.75, 1.25], [0.5, 1.5], [0.25, 1.25]],
             holes: vec![],
             round: 0.0,
+            corners: None,
         },
     ));
     d.conductors
