@@ -12,12 +12,13 @@
 //! names the file, line, column and key path; no input makes the reader panic.
 //!
 //! This file holds the entry point and its result; `values` reads one checked value
-//! (numbers, lengths, points, tables), `sections` the top-level sections and items, `shapes`
-//! an item's shape (SVG outlines included), `locate` places the library's validation errors
-//! at their keys, `spans` keeps the parsed tree with positions, `unit` the file's length
-//! unit.
+//! (numbers, lengths, points, tables), `sections` the top-level sections, `items` the items
+//! (conductors, dielectrics, charges, probes, the background), `shapes` an item's shape (SVG
+//! outlines included), `locate` places the library's validation errors at their keys,
+//! `spans` keeps the parsed tree with positions, `unit` the file's length unit.
 
 pub mod expr;
+mod items;
 mod locate;
 mod sections;
 mod shapes;
