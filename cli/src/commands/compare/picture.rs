@@ -1,0 +1,81 @@
+//! The picture `field_change.png`: |E|(NEW) - |E|(BASE) on NEW's grid.
+//!
+//! Invariants: both solutions cover the same domain (the caller checks); BASE's field is
+//! carried onto NEW's lattice bilinearly when the grid lines differ; the diverging colour
+//! range is symmetric about zero and saturates at the 99th percentile of |change|.
+
+use crate::design_file::DesignSource;
+use fieldgrid_solver::study::Solution;
+
+/// The map of |E|(NEW) - |E|(BASE) on their common grid, NEW's conductors filled and
+/// named, and every BASE conductor that NEW lacks or has in another shape outlined dotted and
+/// named "(BASE)".
+pub(super) fn change_picture(
+    (base, base_src): (&Solution, &DesignSource),
+    (new, src): (&Solution, &DesignSource),
+    opts: &crate::render::RenderOptions,
+) -> image::RgbImage {
+    use crate::render::{self, ContourStyle, MapInput, Outline, Palette};
+    // On NEW's lattice; BASE's field carried onto it when the lines differ.
+    let carried;
+    let eb = if base.grid == new.grid {
+        base.field_magnitude()
+    } else {
+        carried = crate::render::sample::onto(&base.grid, base.field_magnitude(), &new.grid);
+        &carried
+    };
+    let en = new.field_magnitude();
+    let diff: Vec<f64> = eb.iter().zip(en).map(|(b, n)| n - b).collect();
+    // Colour range: the 99th percentile of |change|, so that the few nodes at sharp edges
+    // (whose values are singular) saturate instead of washing out the rest of the map.
+    let mut mags: Vec<f64> = diff
+        .iter()
+        .filter(|v| v.is_finite())
+        .map(|v| v.abs())
+        .collect();
+    let k = ((mags.len() as f64 * 0.99) as usize).min(mags.len().saturating_sub(1));
+    let top = crate::render::sample::rank(&mut mags, k).unwrap_or(0.0);
+    let (_, dielectrics) = crate::pictures::outlines(&src.design);
+    let settled: Vec<f64> = new.conductors.iter().map(|c| c.potential).collect();
+    let conductors = crate::pictures::named_conductors(&src.design, Some(&settled));
+    let tol = Outline::picture_tolerance(src.design.domain.x, src.design.domain.y);
+    let former: Vec<Outline> = base_src
+        .design
+        .conductors
+        .iter()
+        .filter_map(|b| {
+            let same = src.design.conductors.iter().find(|n| n.name == b.name);
+            let label = match same {
+                Some(n) if n.shape == b.shape && n.joined == b.joined => return None,
+                Some(_) => format!("{} (BASE)", b.name),
+                None => format!("{} (BASE only)", b.name),
+            };
+            // Every piece, under one name (the outline is dotted, never filled).
+            let mut o = Outline::from_shape(label, &b.shape, tol);
+            for piece in &b.joined {
+                let p = Outline::from_shape("", piece, tol);
+                o.rings.extend(p.rings);
+                o.lines.extend(p.lines);
+            }
+            Some(o)
+        })
+        .collect();
+    let input = MapInput {
+        title: "Change in field magnitude, NEW minus BASE (colours saturate at the largest 1 %)",
+        quantity: "change of |E|",
+        unit: "V/m",
+        length_unit: render::LengthUnit {
+            label: src.unit.name(),
+            metres: src.unit.scale(),
+        },
+        axis_names: crate::pictures::axis_names(&src.design),
+        conductors: &conductors,
+        dielectrics: &dielectrics,
+        former: &former,
+        palette: Palette::Diverging,
+        contours: ContourStyle::None,
+        range: (top > 0.0).then_some([-top, top]),
+        ..MapInput::new(&new.grid, &diff)
+    };
+    render::render_map(&input, opts)
+}
