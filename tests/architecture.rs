@@ -1,6 +1,6 @@
 //! ARCHITECTURE.md tells the truth about the code: its code map names every module file of
-//! `solver/src` and `cli/src`, and the modules of each crate depend on each other without a
-//! cycle.
+//! `solver/src` and `cli/src`, the modules of each crate depend on each other without a
+//! cycle, and no source file is longer than a reader can hold ([`MAX_LINES`]).
 //!
 //! The module graph is read from the sources: a node per module file (`a.rs`, `a/mod.rs`,
 //! `lib.rs`); an edge for every `use` of another module of the crate and every inline path
@@ -532,6 +532,48 @@ fn module_graphs_have_no_cycle() {
             let path: Vec<String> = cycle.iter().map(show).collect();
             panic!("{krate}: import cycle {}", path.join(" -> "));
         }
+    }
+}
+
+/// Longest source file of `solver/src` and `cli/src`, lines: a file a newcomer can read in one
+/// sitting and hold. A longer file holds more than one concern and is split at them.
+const MAX_LINES: usize = 700;
+
+/// Files allowed past [`MAX_LINES`], each with the reason (tables, which are read by row
+/// rather than as a whole). None today.
+const LONG_FILES: [(&str, &str); 0] = [];
+
+#[test]
+fn no_source_file_is_longer_than_a_reader_can_hold() {
+    let mut long = Vec::new();
+    for krate in ["solver", "cli"] {
+        for rel in rust_files(&repo().join(krate).join("src")) {
+            let name = format!("{krate}/src/{}", rel.to_string_lossy().replace('\\', "/"));
+            let path = repo().join(&name);
+            let lines = std::fs::read_to_string(&path)
+                .expect("source readable")
+                .lines()
+                .count();
+            if lines > MAX_LINES && !LONG_FILES.iter().any(|(f, _)| *f == name) {
+                long.push(format!("{name} ({lines} lines)"));
+            }
+        }
+    }
+    assert!(
+        long.is_empty(),
+        "source files over {MAX_LINES} lines (split each at its concerns, one concept per \
+         file opened by a `//!` paragraph): {long:?}"
+    );
+    for (name, why) in LONG_FILES {
+        assert!(!why.is_empty(), "{name}: an exception names its reason");
+        let lines = std::fs::read_to_string(repo().join(name))
+            .unwrap_or_else(|_| panic!("{name}: an exception names an existing file"))
+            .lines()
+            .count();
+        assert!(
+            lines > MAX_LINES,
+            "{name} is {lines} lines: take it off LONG_FILES"
+        );
     }
 }
 
