@@ -305,8 +305,8 @@ pub struct DesignError {
     pub key: &'static str,
     /// What is wrong, in a sentence for the user (lengths in metres).
     pub message: String,
-    /// For a shape outside the domain: the extents the message quotes, so that a reader can
-    /// restate them in the design file's unit.
+    /// For a shape outside the domain: its extents and the domain's, so that a reader can
+    /// state them in the design file's unit (the message names the fault only).
     pub outside: Option<Box<OutsideDomain>>,
 }
 
@@ -322,22 +322,20 @@ pub struct OutsideDomain {
 }
 
 impl OutsideDomain {
-    /// The sentence for the user, with every length written by `len` followed by `unit`.
-    pub fn describe(&self, len: impl Fn(f64) -> String, unit: &str) -> String {
-        let [[sx0, sx1], [sy0, sy1]] = self.shape.map(|r| r.map(&len));
-        let [[dx0, dx1], [dy0, dy1]] = self.domain.map(|r| r.map(&len));
-        let what = if self.axisymmetric {
-            "the domain (only r >= 0 counts; r is x)"
-        } else {
-            "the domain"
-        };
-        let place = if self.shape[0][0] == self.shape[0][1] && self.shape[1][0] == self.shape[1][1]
-        {
-            format!("the point ({sx0} {unit}, {sy0} {unit})")
-        } else {
-            format!("the shape ({sx0}..{sx1} {unit} by {sy0}..{sy1} {unit})")
-        };
-        format!("{place} does not lie inside {what} ({dx0}..{dx1} {unit} by {dy0}..{dy1} {unit})")
+    /// True when the offending shape is a single point (a probe or a concentrated charge).
+    pub fn is_point(&self) -> bool {
+        self.shape[0][0] == self.shape[0][1] && self.shape[1][0] == self.shape[1][1]
+    }
+
+    /// The error's message for library users: what lies outside, without the extents (those
+    /// are this value's data, for a reader to write in its own units).
+    pub(crate) fn summary(&self) -> &'static str {
+        match (self.is_point(), self.axisymmetric) {
+            (true, false) => "the point does not lie inside the domain",
+            (true, true) => "the point does not lie inside the domain (only r >= 0 counts)",
+            (false, false) => "the shape does not lie inside the domain",
+            (false, true) => "the shape does not lie inside the domain (only r >= 0 counts)",
+        }
     }
 }
 

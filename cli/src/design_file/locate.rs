@@ -5,7 +5,7 @@
 //! level down in its shape table), else at the item's header, else at the start of the file;
 //! extents in messages are restated in the file's length unit.
 
-use fieldgrid_solver::design::{DesignError, Item};
+use fieldgrid_solver::design::{DesignError, Item, OutsideDomain};
 
 use super::spans::InputError;
 use super::spans::{get, Kind, Node};
@@ -87,6 +87,24 @@ pub(super) fn locate(
     InputError::at(text, file, &table_span(node), &join(&path, key), message)
 }
 
+/// The sentence for a shape outside the domain, every length written by `len` followed by
+/// `unit`.
+fn outside_domain(o: &OutsideDomain, len: impl Fn(f64) -> String, unit: &str) -> String {
+    let [[sx0, sx1], [sy0, sy1]] = o.shape.map(|r| r.map(&len));
+    let [[dx0, dx1], [dy0, dy1]] = o.domain.map(|r| r.map(&len));
+    let what = if o.axisymmetric {
+        "the domain (only r >= 0 counts; r is x)"
+    } else {
+        "the domain"
+    };
+    let place = if o.is_point() {
+        format!("the point ({sx0} {unit}, {sy0} {unit})")
+    } else {
+        format!("the shape ({sx0}..{sx1} {unit} by {sy0}..{sy1} {unit})")
+    };
+    format!("{place} does not lie inside {what} ({dx0}..{dx1} {unit} by {dy0}..{dy1} {unit})")
+}
+
 pub(super) fn design_error(
     text: &str,
     file: &str,
@@ -102,7 +120,7 @@ pub(super) fn design_error(
                 let r: f64 = format!("{:.11e}", v / unit.scale()).parse().unwrap_or(v);
                 format!("{r}")
             };
-            o.describe(len, unit.name())
+            outside_domain(o, len, unit.name())
         }
         None => e.message.clone(),
     };

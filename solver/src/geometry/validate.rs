@@ -297,7 +297,7 @@ pub fn validate_design(d: &Design) -> Result<(), DesignError> {
                 axisymmetric: ctx.axisymmetric,
             };
             return Err(DesignError {
-                message: out.describe(|v| format!("{v:e}"), "m"),
+                message: out.summary().to_string(),
                 outside: Some(Box::new(out)),
                 ..err(Item::Probe(i), "at", "")
             });

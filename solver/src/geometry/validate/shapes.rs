@@ -281,7 +281,7 @@ pub(super) fn checked_outline(
     match outside_domain(&o, ctx) {
         None => Ok(o),
         Some(out) => {
-            let message = out.describe(|v| format!("{v:e}"), "m");
+            let message = out.summary();
             Err(DesignError {
                 outside: Some(Box::new(out)),
                 ..err(item, shape_key(shape), message)
