@@ -35,13 +35,14 @@ mod tables;
 use super::evaluate::{self, Named, Setup, Solves};
 use super::monte_carlo;
 use super::monte_carlo_run;
-use crate::args::{ImpedanceArgs, SensitivityArgs, SolveArgs};
+use crate::args::{ImpedanceArgs, SensitivityArgs, SetArgs, SolveArgs, SolveOptions};
 use crate::design_file::DesignSource;
 use crate::error::Failure;
 use crate::outdir::OutDir;
 use fieldgrid_solver::line_study::LineWarmStart;
 use fieldgrid_solver::{sensitivity, tolerance};
 use std::collections::BTreeMap;
+use std::path::Path;
 
 /// Most Monte Carlo points.
 pub const MAX_MONTE_CARLO: usize = monte_carlo::MAX_SAMPLES;
@@ -106,23 +107,18 @@ pub struct MonteCarlo {
 
 /// `fieldgrid solve`, with the sensitivities and tolerances asked for.
 pub fn solve(args: &SolveArgs) -> Result<u8, Failure> {
-    let overrides = super::parameter_overrides(&args.set)?;
-    let Some(req) = request(&args.sens, &super::load_design(&args.design, &overrides)?)? else {
-        return super::solve::run(args);
+    let (setup, req) = match prepare(
+        &args.design,
+        &args.set,
+        &args.sens,
+        &args.opts,
+        &[],
+        &args.out,
+    )? {
+        Prepared::Plain => return super::solve::run(args),
+        Prepared::Done(code) => return Ok(code),
+        Prepared::Analysis(a) => *a,
     };
-    let mut params = super::study_params(&args.opts)?;
-    params.solver.monitor = None;
-    let setup = Setup {
-        design: &args.design,
-        base: overrides,
-        params,
-        opts: &args.opts,
-        signals: Vec::new(),
-        vacuum_warm_start: None,
-    };
-    if let Some(code) = shard(&setup, &req, &args.out)? {
-        return Ok(code);
-    }
     let extra = |src: &DesignSource,
                  sol: &fieldgrid_solver::study::Solution,
                  summary: &mut crate::summary::Summary,
@@ -132,54 +128,94 @@ pub fn solve(args: &SolveArgs) -> Result<u8, Failure> {
             design: sol.warm_start.clone(),
             vacuum: None,
         };
-        let a = analyse(&setup, src, &nominal, &req, &start)?;
-        a.attach(summary, &req.tolerances);
-        a.write(out, &req.tolerances)?;
-        Ok(a.report(&req.tolerances))
+        attach(&setup, &req, src, &nominal, &start, summary, out)
     };
     super::solve::run_with(args, Some(&extra))
 }
 
 /// `fieldgrid impedance`, with the sensitivities and tolerances asked for.
 pub fn impedance(args: &ImpedanceArgs) -> Result<u8, Failure> {
-    let overrides = super::parameter_overrides(&args.set)?;
-    let Some(req) = request(&args.sens, &super::load_design(&args.design, &overrides)?)? else {
-        return super::impedance::run(args);
+    let (setup, req) = match prepare(
+        &args.design,
+        &args.set,
+        &args.sens,
+        &args.opts,
+        &args.signal,
+        &args.out,
+    )? {
+        Prepared::Plain => return super::impedance::run(args),
+        Prepared::Done(code) => return Ok(code),
+        Prepared::Analysis(a) => *a,
     };
-    let mut params = super::study_params(&args.opts)?;
-    params.solver.monitor = None;
-    let setup = Setup {
-        design: &args.design,
-        base: overrides,
-        params,
-        opts: &args.opts,
-        signals: args.signal.clone(),
-        vacuum_warm_start: None,
-    };
-    if let Some(code) = shard(&setup, &req, &args.out)? {
-        return Ok(code);
-    }
     let extra = |src: &DesignSource,
                  ls: &fieldgrid_solver::line_study::LineStudy,
                  summary: &mut crate::summary::Summary,
                  out: &OutDir| {
         let mut nominal = evaluate::study_quantities(summary);
         nominal.extend(evaluate::line_quantities(ls));
-        let a = analyse(&setup, src, &nominal, &req, &ls.warm_start())?;
-        a.attach(summary, &req.tolerances);
-        a.write(out, &req.tolerances)?;
-        Ok(a.report(&req.tolerances))
+        attach(&setup, &req, src, &nominal, &ls.warm_start(), summary, out)
     };
     super::impedance::run_with(args, Some(&extra))
 }
 
-/// With `--shard`, runs that shard's Monte Carlo samples alone and returns the exit code.
-fn shard(setup: &Setup, req: &Request, out: &std::path::Path) -> Result<Option<u8>, Failure> {
-    let (Some(shard), Some((count, seed))) = (req.shard, req.monte_carlo) else {
-        return Ok(None);
+/// What a command with the sensitivity options goes on to do.
+enum Prepared<'a> {
+    /// Nothing was asked for: the plain command.
+    Plain,
+    /// `--shard` with `--monte-carlo`: that shard's samples were solved alone, with this exit
+    /// code.
+    Done(u8),
+    /// The nominal solve, then the analysis around it.
+    Analysis(Box<(Setup<'a>, Request)>),
+}
+
+/// Reads the request against the design (with the `--set` values) and settles the command's
+/// course, running a Monte Carlo shard into `out` at once; `signals` are the line study's
+/// signal conductors (empty for `solve`).
+fn prepare<'a>(
+    design: &'a Path,
+    set: &SetArgs,
+    sens: &SensitivityArgs,
+    opts: &'a SolveOptions,
+    signals: &[String],
+    out: &Path,
+) -> Result<Prepared<'a>, Failure> {
+    let overrides = super::parameter_overrides(set)?;
+    let Some(req) = request(sens, &super::load_design(design, &overrides)?)? else {
+        return Ok(Prepared::Plain);
     };
-    let def = monte_carlo_run::definition(setup, count, seed, &req.tolerances);
-    monte_carlo_run::shard(setup, &def, shard, out).map(Some)
+    let mut params = super::study_params(opts)?;
+    params.solver.monitor = None;
+    let setup = Setup {
+        design,
+        base: overrides,
+        params,
+        opts,
+        signals: signals.to_vec(),
+        vacuum_warm_start: None,
+    };
+    if let (Some(shard), Some((count, seed))) = (req.shard, req.monte_carlo) {
+        let def = monte_carlo_run::definition(&setup, count, seed, &req.tolerances);
+        return monte_carlo_run::shard(&setup, &def, shard, out).map(Prepared::Done);
+    }
+    Ok(Prepared::Analysis(Box::new((setup, req))))
+}
+
+/// The analysis around the nominal solve: added to the summary, written beside it, and its
+/// report returned for printing.
+fn attach(
+    setup: &Setup,
+    req: &Request,
+    src: &DesignSource,
+    nominal: &[Named],
+    start: &LineWarmStart,
+    summary: &mut crate::summary::Summary,
+    out: &OutDir,
+) -> Result<String, Failure> {
+    let a = analyse(setup, src, nominal, req, start)?;
+    a.attach(summary, &req.tolerances);
+    a.write(out, &req.tolerances)?;
+    Ok(a.report(&req.tolerances))
 }
 
 /// Checks the options against the design: `None` when nothing was asked for.
