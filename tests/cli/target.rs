@@ -7,6 +7,7 @@ use clap::Parser;
 use fieldgrid_cli::args::{Cli, Command as Cmd};
 use fieldgrid_cli::commands;
 use fieldgrid_tests::cli::{expect, read_json, run, s, scratch, summary, write};
+use fieldgrid_tests::designs::{microstrip_eps_parameter, GAP_PLATES};
 
 /// The prefix of this file's scratch directories.
 const SCRATCH: &str = "fieldgrid-target";
@@ -26,34 +27,15 @@ fn failure_of(args: &[&str]) -> Result<u8, (u8, String)> {
     r.map_err(|f| (f.code, f.message))
 }
 
-/// Two plates spanning the width between mirror sides, `g` mm apart (coupling -eps0 W / g).
-const PLATES: &str = r#"
-unit = "mm"
-[parameters]
-g = 0.5
-[tolerances]
-g = 0.05
-[grid]
-x = [0.0, 4.0]
-y = [0.0, "g + 0.6"]
-cell = 0.1
-[sides]
-left = "symmetry"
-right = "symmetry"
-[[conductor]]
-name = "lower"
-potential = 0.0
-rect = { x = [0.0, 4.0], y = [0.0, 0.2] }
-[[conductor]]
-name = "upper"
-potential = 1.0
-rect = { x = [0.0, 4.0], y = ["0.2 + g", "0.4 + g"] }
-"#;
+/// The plates of [`GAP_PLATES`] with the gap's tolerance in the design file.
+fn plates() -> String {
+    format!("{GAP_PLATES}[tolerances]\ng = 0.05\n")
+}
 
 #[test]
 fn a_target_outside_the_bracket_is_refused_with_the_values_at_its_ends() {
     let dir = scratch(SCRATCH, "outside");
-    let design = write(&dir, "plates.toml", PLATES);
+    let design = write(&dir, "plates.toml", &plates());
     let out = dir.join("out");
     // Between g = 0.3 and 1.5 mm the coupling runs from -1.18e-10 to -2.36e-11 F/m.
     let (code, message) = failure_of(&[
@@ -84,7 +66,7 @@ fn a_target_outside_the_bracket_is_refused_with_the_values_at_its_ends() {
 #[test]
 fn target_refuses_unknown_names_and_mismatched_options() {
     let dir = scratch(SCRATCH, "refusals");
-    let design = write(&dir, "plates.toml", PLATES);
+    let design = write(&dir, "plates.toml", &plates());
     let out = dir.join("out");
     let o = s(&out);
     let cases: [(&[&str], &str); 5] = [
@@ -138,37 +120,14 @@ fn target_refuses_unknown_names_and_mismatched_options() {
     assert!(message.contains("no parameter of that name"), "{message}");
 }
 
-/// The demo microstrip with its permittivity a parameter, coarse cells.
-const MICROSTRIP: &str = r#"
-unit = "mm"
-[parameters]
-h = 0.6
-w = 1.35
-eps = 3.5
-room = 3.0
-[grid]
-x = [0.0, "w/2 + room"]
-y = [0.0, "h + room"]
-cell = 0.03
-[sides]
-left = "symmetry"
-right = "open"
-top = "open"
-bottom = "ground"
-[[dielectric]]
-name = "laminate"
-permittivity = "eps"
-rect = { x = [0.0, "w/2 + room"], y = [0.0, "h"] }
-[[conductor]]
-name = "trace"
-potential = 1.0
-polyline = [[0.0, "h"], ["w/2", "h"]]
-"#;
-
 #[test]
 fn two_targets_are_met_with_two_parameters_at_once() {
     let dir = scratch(SCRATCH, "two");
-    let design = write(&dir, "microstrip.toml", MICROSTRIP);
+    let design = write(
+        &dir,
+        "microstrip.toml",
+        &microstrip_eps_parameter(3.0, 0.03),
+    );
     let out = dir.join("out");
     expect(
         run(&[
@@ -244,7 +203,7 @@ fn coupling_tolerances(
     name: &str,
     extra: &[&str],
 ) -> (Vec<u8>, serde_json::Value) {
-    let design = write(dir, "plates.toml", PLATES);
+    let design = write(dir, "plates.toml", &plates());
     let out = dir.join(name);
     let mut args = vec![
         "solve",
@@ -305,7 +264,7 @@ fn monte_carlo_is_seeded_and_reproducible_bit_for_bit() {
 fn design_file_tolerances_are_used_and_the_command_line_replaces_them() {
     let dir = scratch(SCRATCH, "design-file");
     // The design's [tolerances] alone ask for nothing; --sensitivity brings them in.
-    let design = write(&dir, "plates.toml", PLATES);
+    let design = write(&dir, "plates.toml", &plates());
     let plain = dir.join("plain");
     expect(
         run(&[
@@ -334,7 +293,7 @@ fn design_file_tolerances_are_used_and_the_command_line_replaces_them() {
         ("[tolerances]\ng = -0.1\n", "positive number"),
         ("[tolerances]\ng = \"x\"\n", "expected a number"),
     ] {
-        let text = PLATES.replace("[tolerances]\ng = 0.05\n", bad);
+        let text = plates().replace("[tolerances]\ng = 0.05\n", bad);
         let path = write(&dir, "bad.toml", &text);
         let (code, message) =
             failure_of(&["solve", &path, "--out", s(&dir.join("bad")), "--quiet"]).unwrap_err();
@@ -430,11 +389,7 @@ fn vertices_give_the_exact_extremes_of_a_nonlinear_result() {
         .ends_with("vertex min,vertex max"));
     let (code, message) = failure_of(&[
         "solve",
-        &write(
-            &dir,
-            "plain.toml",
-            &PLATES.replace("[tolerances]\ng = 0.05\n", ""),
-        ),
+        &write(&dir, "plain.toml", GAP_PLATES),
         "--vertices",
         "--out",
         s(&dir.join("none")),

@@ -9,38 +9,16 @@
 use crate::line::hammerstad_jensen;
 use fieldgrid_solver::EPS0;
 use fieldgrid_tests::cli::{expect, read_json, run, s, scratch, summary, write};
+use fieldgrid_tests::designs::{microstrip_eps_parameter, GAP_PLATES};
 use std::f64::consts::PI;
 
 /// The prefix of this file's scratch directories.
 const SCRATCH: &str = "fieldgrid-targets";
 
-/// Two plates spanning the whole width between mirror sides, `g` mm apart: the field
-/// between them is uniform, so the coupling per metre is exactly eps0 W / g (W = 4 mm).
-const PLATES: &str = r#"
-unit = "mm"
-[parameters]
-g = 0.5
-[grid]
-x = [0.0, 4.0]
-y = [0.0, "g + 0.6"]
-cell = 0.1
-[sides]
-left = "symmetry"
-right = "symmetry"
-[[conductor]]
-name = "lower"
-potential = 0.0
-rect = { x = [0.0, 4.0], y = [0.0, 0.2] }
-[[conductor]]
-name = "upper"
-potential = 1.0
-rect = { x = [0.0, 4.0], y = ["0.2 + g", "0.4 + g"] }
-"#;
-
 #[test]
 fn plate_gap_for_a_wanted_capacitance_matches_the_closed_form() {
     let dir = scratch(SCRATCH, "gap");
-    let design = write(&dir, "plates.toml", PLATES);
+    let design = write(&dir, "plates.toml", GAP_PLATES);
     let out = dir.join("out");
     // Maxwell coupling C[lower,upper] = -eps0 W / g (uniform field between the plates:
     // common practice, the parallel-plate capacitor without fringing, which the mirror sides
@@ -306,37 +284,14 @@ fn sensitivities_started_from_the_nominal_solves_agree_with_cold_solves() {
     );
 }
 
-/// The demo microstrip with its permittivity a parameter, coarser cells for speed.
-const MICROSTRIP: &str = r#"
-unit = "mm"
-[parameters]
-h = 0.6
-w = 1.35
-eps = 3.5
-room = 4.2
-[grid]
-x = [0.0, "w/2 + room"]
-y = [0.0, "h + room"]
-cell = 0.02
-[sides]
-left = "symmetry"
-right = "open"
-top = "open"
-bottom = "ground"
-[[dielectric]]
-name = "laminate"
-permittivity = "eps"
-rect = { x = [0.0, "w/2 + room"], y = [0.0, "h"] }
-[[conductor]]
-name = "trace"
-potential = 1.0
-polyline = [[0.0, "h"], ["w/2", "h"]]
-"#;
-
 #[test]
 fn microstrip_tolerances_match_hammerstad_jensen_derivatives() {
     let dir = scratch(SCRATCH, "tolerances");
-    let design = write(&dir, "microstrip.toml", MICROSTRIP);
+    let design = write(
+        &dir,
+        "microstrip.toml",
+        &microstrip_eps_parameter(4.2, 0.02),
+    );
     let out = dir.join("out");
     let tol = [("w", 0.05), ("h", 0.06), ("eps", 0.2)];
     let args: Vec<String> = tol.iter().map(|(n, t)| format!("{n}={t}")).collect();

@@ -6,7 +6,7 @@ use fieldgrid_solver::solvers::Method;
 use fieldgrid_solver::study::{self, Solution};
 use fieldgrid_solver::warning::Warning;
 use fieldgrid_solver::EPS0;
-use fieldgrid_tests::{design, params, rel_err};
+use fieldgrid_tests::{design, designs, params, rel_err};
 use std::f64::consts::PI;
 
 fn with_estimate(text: &str) -> Solution {
@@ -87,27 +87,6 @@ fn eccentric_rod_force_and_its_estimate_match_the_closed_form() {
     assert!(errs[2] < 1e-4 * want, "{errs:?}");
 }
 
-const PLATES: &str = r#"
-unit = "mm"
-[grid]
-x = [0.0, 4.0]
-y = [0.0, 3.0]
-cell = 0.1
-[sides]
-left = "symmetry"
-right = "symmetry"
-top = 100.0
-bottom = "ground"
-[[conductor]]
-name = "lower"
-potential = 0.0
-rect = { x = [0.0, 4.0], y = [0.0, 1.0137] }
-[[conductor]]
-name = "upper"
-potential = 100.0
-rect = { x = [0.0, 4.0], y = [2.0291, 3.0] }
-"#;
-
 #[test]
 fn parallel_plate_force_is_exact_and_its_estimate_says_so() {
     // Force per length between parallel plates, F' = eps0 w V^2 / (2 d^2) (D. J. Griffiths,
@@ -119,7 +98,7 @@ fn parallel_plate_force_is_exact_and_its_estimate_says_so() {
     let (w, v, gap) = (4e-3, 100.0, (2.0291 - 1.0137) * 1e-3);
     let want = EPS0 * w * v * v / (2.0 * gap * gap);
     for cell in [0.2, 0.1, 0.05] {
-        let s = with_estimate(&PLATES.replace("cell = 0.1", &format!("cell = {cell}")));
+        let s = with_estimate(&designs::plates_at_100_v(1.0137, 2.0291, cell));
         for (c, sign) in s.conductors.iter().zip([1.0, -1.0]) {
             let err = (sign * c.force[1] - want).abs();
             let est = c.force_error.expect("an estimate");

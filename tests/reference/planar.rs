@@ -177,27 +177,9 @@ at = [2.5, 0.0]
 fn parallel_plate_force_matches_closed_form() {
     // Force per unit length between parallel plates F' = eps0 w V^2 / (2 d^2) (Griffiths
     // 2017, sec. 2.5.3, electrostatic pressure sigma^2 / (2 eps0)).
-    let text = r#"
-unit = "mm"
-[grid]
-x = [0.0, 4.0]
-y = [0.0, 3.0]
-cell = 0.1
-[sides]
-left = "symmetry"
-right = "symmetry"
-top = 100.0
-bottom = "ground"
-[[conductor]]
-name = "lower"
-potential = 0.0
-rect = { x = [0.0, 4.0], y = [0.0, 1.0] }
-[[conductor]]
-name = "upper"
-potential = 100.0
-rect = { x = [0.0, 4.0], y = [2.0, 3.0] }
-"#;
-    let s = solve(&design(text));
+    // The plates' faces on node rows.
+    let text = designs::plates_at_100_v(1.0, 2.0, 0.1);
+    let s = solve(&design(&text));
     let (w, v, dgap) = (4e-3, 100.0, 1e-3);
     let want = EPS0 * w * v * v / (2.0 * dgap * dgap);
     let up = &s.conductors[1];

@@ -19,6 +19,92 @@ macro_rules! mirror_box_4x2_mm {
     };
 }
 
+/// Two plates 0.2 mm thick spanning the whole width of a 4 mm box between mirror sides, the
+/// lower grounded and the upper at 1 V, `g` mm apart (a parameter, 0.5 mm): the field between
+/// them is uniform, so their coupling per metre is exactly -eps0 W / g (W = 4 mm).
+pub const GAP_PLATES: &str = r#"
+unit = "mm"
+[parameters]
+g = 0.5
+[grid]
+x = [0.0, 4.0]
+y = [0.0, "g + 0.6"]
+cell = 0.1
+[sides]
+left = "symmetry"
+right = "symmetry"
+[[conductor]]
+name = "lower"
+potential = 0.0
+rect = { x = [0.0, 4.0], y = [0.0, 0.2] }
+[[conductor]]
+name = "upper"
+potential = 1.0
+rect = { x = [0.0, 4.0], y = ["0.2 + g", "0.4 + g"] }
+"#;
+
+/// The demo microstrip (trace 1.35 mm wide on 0.6 mm laminate, half of it beside a mirror
+/// side) with the permittivity a parameter `eps` (3.5), `room` mm of air beside and above
+/// the trace and cells of `cell` mm.
+pub fn microstrip_eps_parameter(room: f64, cell: f64) -> String {
+    format!(
+        r#"
+unit = "mm"
+[parameters]
+h = 0.6
+w = 1.35
+eps = 3.5
+room = {room:?}
+[grid]
+x = [0.0, "w/2 + room"]
+y = [0.0, "h + room"]
+cell = {cell:?}
+[sides]
+left = "symmetry"
+right = "open"
+top = "open"
+bottom = "ground"
+[[dielectric]]
+name = "laminate"
+permittivity = "eps"
+rect = {{ x = [0.0, "w/2 + room"], y = [0.0, "h"] }}
+[[conductor]]
+name = "trace"
+potential = 1.0
+polyline = [[0.0, "h"], ["w/2", "h"]]
+"#
+    )
+}
+
+/// Parallel plates spanning the whole width of a 4 x 3 mm box between mirror sides: the lower
+/// grounded from the bottom (grounded) to `lower_top` mm, the upper at 100 V from
+/// `upper_bottom` mm to the top (at 100 V), cells of `cell` mm. The field between them is
+/// uniform: the gap's pressure is eps0 E^2 / 2 wherever the faces lie on the lattice.
+pub fn plates_at_100_v(lower_top: f64, upper_bottom: f64, cell: f64) -> String {
+    format!(
+        r#"
+unit = "mm"
+[grid]
+x = [0.0, 4.0]
+y = [0.0, 3.0]
+cell = {cell:?}
+[sides]
+left = "symmetry"
+right = "symmetry"
+top = 100.0
+bottom = "ground"
+[[conductor]]
+name = "lower"
+potential = 0.0
+rect = {{ x = [0.0, 4.0], y = [0.0, {lower_top:?}] }}
+[[conductor]]
+name = "upper"
+potential = 100.0
+rect = {{ x = [0.0, 4.0], y = [{upper_bottom:?}, 3.0] }}
+"#
+    )
+}
+
 /// A coaxial line, inner radius 1 mm at 1 V, outer conductor a grounded ring from 2.5 to
 /// 2.8 mm reaching the sides of the square box, cells of `cell` mm.
 pub fn coax(cell: f64) -> String {
