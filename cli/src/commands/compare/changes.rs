@@ -54,7 +54,8 @@ pub fn parse_abs_tol(given: &[String]) -> Result<AbsTol, Failure> {
     for g in given {
         let bad = || {
             Failure::input(format!(
-                "--abs-tol {g}: expected UNIT=X with UNIT one of {} and X a number >= 0 in                  that unit (e.g. --abs-tol F/m=1e-15)",
+                "--abs-tol {g}: expected UNIT=X with UNIT one of {} and X a number >= 0 in \
+                 that unit (e.g. --abs-tol F/m=1e-15)",
                 UNITS.join(", ")
             ))
         };
@@ -386,6 +387,17 @@ mod tests {
         for bad in ["F/m", "ohm=1", "F/m=-1", "F/m=x"] {
             assert!(parse_abs_tol(&[bad.to_string()]).is_err(), "{bad}");
         }
+    }
+
+    #[test]
+    fn a_refused_absolute_tolerance_reads_as_one_sentence() {
+        let e = parse_abs_tol(&["ohm=1".to_string()]).unwrap_err();
+        assert!(
+            e.message
+                .contains("a number >= 0 in that unit (e.g. --abs-tol F/m=1e-15)"),
+            "{}",
+            e.message
+        );
     }
 
     fn summary_of(text: &str) -> Summary {
