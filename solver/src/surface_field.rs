@@ -36,9 +36,7 @@ use crate::EPS0;
 pub struct FitParams {
     /// Polynomial degree of the fit at conductor surfaces (2 or 3).
     pub degree: usize,
-    /// Polynomial degree on each side of a dielectric interface (2 or 3). Fed the exact
-    /// potential of a dielectric cylinder in a uniform field, quadratics are 0.97 % off at
-    /// 20 cells across its radius (order 1.8), cubics 0.065 % (order 2.9).
+    /// Polynomial degree on each side of a dielectric interface (3: third order; 2: second).
     pub interface_degree: usize,
     /// Nodes within this many cells of the point take part.
     pub radius_cells: f64,
