@@ -7,7 +7,7 @@ use clap::Parser;
 use fieldgrid_cli::args::{Cli, Command as Cmd};
 use fieldgrid_cli::commands;
 use fieldgrid_tests::cli::{expect, read_json, run, s, scratch, summary, write};
-use fieldgrid_tests::designs::{microstrip_eps_parameter, GAP_PLATES};
+use fieldgrid_tests::designs::{microstrip_eps_parameter, COAX_RADII, GAP_PLATES};
 
 /// The prefix of this file's scratch directories.
 const SCRATCH: &str = "fieldgrid-target";
@@ -399,34 +399,16 @@ fn vertices_give_the_exact_extremes_of_a_nonlinear_result() {
     assert!(message.contains("--vertices needs tolerances"), "{message}");
 }
 
-/// A coaxial line whose domain does not move with its radii, so that every sample starts
-/// from the nominal solves.
-const COAX: &str = r#"
-unit = "mm"
-[parameters]
-a = 1.0
-b = 2.5
-[tolerances]
-a = 0.02
-b = 0.03
-[grid]
-x = [-2.8, 2.8]
-y = [-2.8, 2.8]
-cell = 0.05
-[[conductor]]
-name = "inner"
-potential = 1.0
-circle = { center = [0.0, 0.0], radius = "a" }
-[[conductor]]
-name = "outer"
-potential = 0.0
-ring = { center = [0.0, 0.0], inner = "b", outer = 2.8 }
-"#;
+/// The coaxial line of [`COAX_RADII`] with both radii's tolerances in the design file; its
+/// domain does not move with the radii, so every sample starts from the nominal solves.
+fn coax() -> String {
+    format!("{COAX_RADII}[tolerances]\na = 0.02\nb = 0.03\n")
+}
 
 #[test]
 fn monte_carlo_shards_merged_give_the_unsharded_statistics_bit_for_bit() {
     let dir = scratch(SCRATCH, "monte-carlo-shards");
-    let design = write(&dir, "coax.toml", COAX);
+    let design = write(&dir, "coax.toml", &coax());
     let mc = |out: &std::path::Path, extra: &[&str]| {
         let mut args = vec![
             "solve",

@@ -9,7 +9,7 @@
 use crate::line::hammerstad_jensen;
 use fieldgrid_solver::EPS0;
 use fieldgrid_tests::cli::{expect, read_json, run, s, scratch, summary, write};
-use fieldgrid_tests::designs::{microstrip_eps_parameter, GAP_PLATES};
+use fieldgrid_tests::designs::{microstrip_eps_parameter, COAX_RADII, GAP_PLATES};
 use std::f64::consts::PI;
 
 /// The prefix of this file's scratch directories.
@@ -146,26 +146,6 @@ fn microstrip_width_for_50_ohm_matches_hammerstad_jensen() {
     assert!((z - 50.0).abs() <= f_tol, "independent solve: Z0 = {z} ohm");
 }
 
-/// The coaxial line of `tests/support/designs.rs` with its radii as parameters.
-const COAX: &str = r#"
-unit = "mm"
-[parameters]
-a = 1.0
-b = 2.5
-[grid]
-x = [-2.8, 2.8]
-y = [-2.8, 2.8]
-cell = 0.05
-[[conductor]]
-name = "inner"
-potential = 1.0
-circle = { center = [0.0, 0.0], radius = "a" }
-[[conductor]]
-name = "outer"
-potential = 0.0
-ring = { center = [0.0, 0.0], inner = "b", outer = 2.8 }
-"#;
-
 fn c_inner(out: &std::path::Path) -> f64 {
     summary(out)["capacitance"]["matrix"][0][0]
         .as_f64()
@@ -175,7 +155,7 @@ fn c_inner(out: &std::path::Path) -> f64 {
 #[test]
 fn coax_sensitivity_matches_the_derivative_of_the_exact_capacitance() {
     let dir = scratch(SCRATCH, "coax");
-    let design = write(&dir, "coax.toml", COAX);
+    let design = write(&dir, "coax.toml", COAX_RADII);
     let out = dir.join("out");
     expect(
         run(&[
@@ -241,7 +221,7 @@ fn coax_sensitivity_matches_the_derivative_of_the_exact_capacitance() {
 #[test]
 fn sensitivities_started_from_the_nominal_solves_agree_with_cold_solves() {
     let dir = scratch(SCRATCH, "coax-warm");
-    let design = write(&dir, "coax.toml", COAX);
+    let design = write(&dir, "coax.toml", COAX_RADII);
     let out = dir.join("out");
     // A tight solver tolerance, so that agreement "to the solver tolerance" is a sharp test.
     let tol = "1e-12";
@@ -377,7 +357,7 @@ fn microstrip_tolerances_match_hammerstad_jensen_derivatives() {
 #[test]
 fn coax_radius_for_a_wanted_capacitance_warm_started_matches_the_closed_form() {
     let dir = scratch(SCRATCH, "coax-target");
-    let design = write(&dir, "coax.toml", COAX);
+    let design = write(&dir, "coax.toml", COAX_RADII);
     let out = dir.join("out");
     // The domain does not move with the inner radius, so every solve after the first starts
     // from the previous one's solutions.

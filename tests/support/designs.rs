@@ -76,6 +76,28 @@ polyline = [[0.0, "h"], ["w/2", "h"]]
     )
 }
 
+/// A coaxial line with its radii as parameters (inner `a` = 1 mm at 1 V, the grounded outer
+/// ring from `b` = 2.5 mm to 2.8 mm), cells of 0.05 mm; the domain, reaching the ring's
+/// outside, does not move with the radii, so every lattice has the same node counts.
+pub const COAX_RADII: &str = r#"
+unit = "mm"
+[parameters]
+a = 1.0
+b = 2.5
+[grid]
+x = [-2.8, 2.8]
+y = [-2.8, 2.8]
+cell = 0.05
+[[conductor]]
+name = "inner"
+potential = 1.0
+circle = { center = [0.0, 0.0], radius = "a" }
+[[conductor]]
+name = "outer"
+potential = 0.0
+ring = { center = [0.0, 0.0], inner = "b", outer = 2.8 }
+"#;
+
 /// Parallel plates spanning the whole width of a 4 x 3 mm box between mirror sides: the lower
 /// grounded from the bottom (grounded) to `lower_top` mm, the upper at 100 V from
 /// `upper_bottom` mm to the top (at 100 V), cells of `cell` mm. The field between them is
