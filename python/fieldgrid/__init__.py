@@ -75,6 +75,19 @@ def _progress(callback: Optional[ProgressCallback]) -> Optional[Callable[[str, O
     return lambda stage, it, rel: callback(Progress(stage, it, rel))
 
 
+class _Options(NamedTuple):
+    """The options :func:`solve` and :func:`impedance` share, as the native module takes
+    them (one dict, every key given)."""
+
+    solver: str
+    tol: float
+    threads: Optional[int]
+    max_iterations: Optional[int]
+    error_estimate: bool
+    max_memory: Optional[float]
+    accuracy: Optional[float]
+
+
 def solve(
     design: DesignLike,
     *,
@@ -117,18 +130,8 @@ def solve(
         FieldgridError: any other failure the command reports with exit code 2.
         ValueError: an option out of range.
     """
-    d = as_design(design)
-    native = _fieldgrid.solve(
-        d._native,
-        solver=solver,
-        tol=tol,
-        threads=threads,
-        max_iterations=max_iterations,
-        error_estimate=error_estimate,
-        max_memory=max_memory,
-        accuracy=accuracy,
-        progress=_progress(progress),
-    )
+    options = _Options(solver, tol, threads, max_iterations, error_estimate, max_memory, accuracy)
+    native = _fieldgrid.solve(as_design(design)._native, options._asdict(), _progress(progress))
     return Solution(native)
 
 
@@ -152,19 +155,10 @@ def impedance(
     :attr:`Solution.line` holds the matrices and impedances; the rest is the design's own
     study, as summary.json has it.
     """
-    d = as_design(design)
     names = [signals] if isinstance(signals, str) else list(signals)
+    options = _Options(solver, tol, threads, max_iterations, error_estimate, max_memory, accuracy)
     native = _fieldgrid.impedance(
-        d._native,
-        names,
-        solver=solver,
-        tol=tol,
-        threads=threads,
-        max_iterations=max_iterations,
-        error_estimate=error_estimate,
-        max_memory=max_memory,
-        accuracy=accuracy,
-        progress=_progress(progress),
+        as_design(design)._native, names, options._asdict(), _progress(progress)
     )
     return Solution(native)
 

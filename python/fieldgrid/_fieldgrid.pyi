@@ -1,6 +1,6 @@
 """Type stub of the native module `fieldgrid._fieldgrid` (use the package `fieldgrid`)."""
 
-from typing import Any, Callable, Optional
+from typing import Any, Callable, Optional, TypedDict
 
 VERSION: str
 
@@ -55,29 +55,24 @@ class NativeResult:
         picture_width: int = ...,
     ) -> str: ...
 
+class _Options(TypedDict):
+    solver: str
+    tol: float
+    threads: Optional[int]
+    max_iterations: Optional[int]
+    error_estimate: bool
+    max_memory: Optional[float]
+    accuracy: Optional[float]
+
 def solve(
     design: NativeDesign,
-    *,
-    solver: str = ...,
-    tol: float = ...,
-    threads: Optional[int] = ...,
-    max_iterations: Optional[int] = ...,
-    error_estimate: bool = ...,
-    max_memory: Optional[float] = ...,
-    accuracy: Optional[float] = ...,
+    options: _Options,
     progress: Optional[ProgressFn] = ...,
 ) -> NativeResult: ...
 def impedance(
     design: NativeDesign,
     signals: list[str],
-    *,
-    solver: str = ...,
-    tol: float = ...,
-    threads: Optional[int] = ...,
-    max_iterations: Optional[int] = ...,
-    error_estimate: bool = ...,
-    max_memory: Optional[float] = ...,
-    accuracy: Optional[float] = ...,
+    options: _Options,
     progress: Optional[ProgressFn] = ...,
 ) -> NativeResult: ...
 def check(

@@ -12,42 +12,54 @@ use crate::result::{Kind, NativeResult};
 use clap::ValueEnum;
 use fieldgrid_cli::args::{SolveOptions, SolverChoice};
 use fieldgrid_cli::commands::{impedance as line_cmd, solve as solve_cmd};
+use fieldgrid_cli::design_file::DesignSource;
+use fieldgrid_cli::error::Failure;
 use fieldgrid_solver::stages::{Event, StageMonitor};
 use fieldgrid_solver::study::StudyParams;
 use pyo3::exceptions::PyValueError;
 use pyo3::prelude::*;
 use std::sync::{Arc, Mutex};
 
-/// The command-line options a keyword call stands for (`quiet`: no terminal progress line).
-fn options(
-    solver: &str,
+/// The options `solve` and `impedance` share, as the Python package passes them (a dict of
+/// every keyword, defaults filled in by the package's signature).
+#[derive(FromPyObject)]
+#[pyo3(from_item_all)]
+pub struct Keywords {
+    solver: String,
     tol: f64,
     threads: Option<usize>,
     max_iterations: Option<usize>,
     error_estimate: bool,
     max_memory: Option<f64>,
     accuracy: Option<f64>,
-) -> PyResult<SolveOptions> {
-    let solver = SolverChoice::from_str(solver, false).map_err(|_| {
-        let names: Vec<String> = SolverChoice::value_variants()
-            .iter()
-            .filter_map(|v| v.to_possible_value().map(|p| p.get_name().to_string()))
-            .collect();
-        PyValueError::new_err(format!(
-            "solver {solver:?}: not a solver (choose one of {})",
-            names.join(", ")
-        ))
-    })?;
-    Ok(SolveOptions {
-        solver,
-        tol,
-        threads,
-        max_iterations,
-        quiet: true,
-        no_error_estimate: !error_estimate,
-        max_memory,
-        accuracy,
-    })
+}
+
+impl Keywords {
+    /// The command-line options these keywords stand for (`quiet`: no terminal progress
+    /// line).
+    fn options(&self) -> PyResult<SolveOptions> {
+        let solver = SolverChoice::from_str(&self.solver, false).map_err(|_| {
+            let names: Vec<String> = SolverChoice::value_variants()
+                .iter()
+                .filter_map(|v| v.to_possible_value().map(|p| p.get_name().to_string()))
+                .collect();
+            PyValueError::new_err(format!(
+                "solver {:?}: not a solver (choose one of {})",
+                self.solver,
+                names.join(", ")
+            ))
+        })?;
+        Ok(SolveOptions {
+            solver,
+            tol: self.tol,
+            threads: self.threads,
+            max_iterations: self.max_iterations,
+            quiet: true,
+            no_error_estimate: !self.error_estimate,
+            max_memory: self.max_memory,
+            accuracy: self.accuracy,
+        })
+    }
 }
 
 /// The user's progress callback and the first exception it raised.
@@ -102,99 +114,76 @@ fn progress_of(callback: Option<Py<PyAny>>) -> Option<Arc<Progress>> {
     })
 }
 
-/// Solves a design as `fieldgrid solve` does.
-#[pyfunction]
-#[pyo3(signature = (design, *, solver="multigrid", tol=1e-8, threads=None, max_iterations=None,
-                    error_estimate=true, max_memory=None, accuracy=None, progress=None))]
-#[allow(clippy::too_many_arguments)]
-pub fn solve(
+/// The design's source with the accuracy target applied (its grid set to the loop's first
+/// lattice), and the target.
+fn targeted(
     py: Python<'_>,
     design: &NativeDesign,
-    solver: &str,
-    tol: f64,
-    threads: Option<usize>,
-    max_iterations: Option<usize>,
-    error_estimate: bool,
-    max_memory: Option<f64>,
-    accuracy: Option<f64>,
-    progress: Option<Py<PyAny>>,
-) -> PyResult<NativeResult> {
-    let opts = options(
-        solver,
-        tol,
-        threads,
-        max_iterations,
-        error_estimate,
-        max_memory,
-        accuracy,
-    )?;
+    opts: &SolveOptions,
+) -> PyResult<(Arc<DesignSource>, Option<f64>)> {
     let mut src = Arc::clone(&design.src);
     let target = py_check(
         py,
-        fieldgrid_cli::accuracy::target(Arc::make_mut(&mut src), &opts),
+        fieldgrid_cli::accuracy::target(Arc::make_mut(&mut src), opts),
     )?;
-    let (mut params, plan) = py_check(py, solve_cmd::prepare(&src, &opts, 0.0))?;
+    Ok((src, target))
+}
+
+/// Runs `study` with the GIL released, the progress callback (if any) hooked onto `params`;
+/// the callback's first exception wins over the study's result.
+fn run_study<T: Send>(
+    py: Python<'_>,
+    mut params: StudyParams,
+    progress: Option<Py<PyAny>>,
+    study: impl FnOnce(&StudyParams) -> Result<T, Failure> + Send,
+) -> PyResult<T> {
     let progress = progress_of(progress);
     if let Some(p) = &progress {
         p.install(&mut params);
     }
-    let solved = py.detach(|| match target {
-        Some(rel) => solve_cmd::solve_accurate(&src, &params, &opts, rel).map(|(s, m, _)| (s, m)),
-        None => solve_cmd::solve_planned(&src, &plan, &params, opts.threads),
-    });
+    let done = py.detach(|| study(&params));
     if let Some(p) = &progress {
         p.raised()?;
     }
-    let (sol, summary) = py_check(py, solved)?;
+    py_check(py, done)
+}
+
+/// Solves a design as `fieldgrid solve` does.
+#[pyfunction]
+#[pyo3(signature = (design, options, progress=None))]
+pub fn solve(
+    py: Python<'_>,
+    design: &NativeDesign,
+    options: Keywords,
+    progress: Option<Py<PyAny>>,
+) -> PyResult<NativeResult> {
+    let opts = options.options()?;
+    let (src, target) = targeted(py, design, &opts)?;
+    let (params, plan) = py_check(py, solve_cmd::prepare(&src, &opts, 0.0))?;
+    let (sol, summary) = run_study(py, params, progress, |params| match target {
+        Some(rel) => solve_cmd::solve_accurate(&src, params, &opts, rel).map(|(s, m, _)| (s, m)),
+        None => solve_cmd::solve_planned(&src, &plan, params, opts.threads),
+    })?;
     Ok(NativeResult::new(src, Kind::Solve(Box::new(sol)), summary))
 }
 
 /// Line parameters of a planar design as `fieldgrid impedance` computes them.
 #[pyfunction]
-#[pyo3(signature = (design, signals, *, solver="multigrid", tol=1e-8, threads=None,
-                    max_iterations=None, error_estimate=true, max_memory=None, accuracy=None,
-                    progress=None))]
-#[allow(clippy::too_many_arguments)]
+#[pyo3(signature = (design, signals, options, progress=None))]
 pub fn impedance(
     py: Python<'_>,
     design: &NativeDesign,
     signals: Vec<String>,
-    solver: &str,
-    tol: f64,
-    threads: Option<usize>,
-    max_iterations: Option<usize>,
-    error_estimate: bool,
-    max_memory: Option<f64>,
-    accuracy: Option<f64>,
+    options: Keywords,
     progress: Option<Py<PyAny>>,
 ) -> PyResult<NativeResult> {
-    let opts = options(
-        solver,
-        tol,
-        threads,
-        max_iterations,
-        error_estimate,
-        max_memory,
-        accuracy,
-    )?;
-    let mut src = Arc::clone(&design.src);
-    let target = py_check(
-        py,
-        fieldgrid_cli::accuracy::target(Arc::make_mut(&mut src), &opts),
-    )?;
-    let (mut params, plan) = py_check(py, line_cmd::prepare(&src, &signals, &opts))?;
-    let progress = progress_of(progress);
-    if let Some(p) = &progress {
-        p.install(&mut params);
-    }
-    let solved = py.detach(|| match target {
-        Some(rel) => line_cmd::study_accurate(&src, &signals, &params, &opts, rel).map(|(s, _)| s),
-        None => line_cmd::study(&src, &plan, &signals, &params, opts.threads),
-    });
-    if let Some(p) = &progress {
-        p.raised()?;
-    }
-    let solved = py_check(py, solved)?;
+    let opts = options.options()?;
+    let (src, target) = targeted(py, design, &opts)?;
+    let (params, plan) = py_check(py, line_cmd::prepare(&src, &signals, &opts))?;
+    let solved = run_study(py, params, progress, |params| match target {
+        Some(rel) => line_cmd::study_accurate(&src, &signals, params, &opts, rel).map(|(s, _)| s),
+        None => line_cmd::study(&src, &plan, &signals, params, opts.threads),
+    })?;
     let summary = solved.summary.clone();
     Ok(NativeResult::new(
         src,
