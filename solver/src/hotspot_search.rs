@@ -86,18 +86,55 @@ impl Readings<'_> {
                 .then(b.0[0].total_cmp(&a.0[0]))
                 .then(b.0[1].total_cmp(&a.0[1]))
         };
-        let (mut peak, mut first) = (None::<Reading>, None::<(usize, Reading)>);
-        self.each(|seq, c| {
-            if peak.is_none_or(|p| higher(&p, &c) != std::cmp::Ordering::Greater) {
-                peak = Some(c);
-            }
-            if by_margin
-                && first.is_none_or(|f| self.order(&f.1, &c) == std::cmp::Ordering::Greater)
+        type Best = (Option<Reading>, Option<(usize, Reading)>);
+        let take_peak = |best: &mut Best, c: Reading| {
+            if best
+                .0
+                .is_none_or(|p| higher(&p, &c) != std::cmp::Ordering::Greater)
             {
-                first = Some((seq, c));
+                best.0 = Some(c);
             }
+        };
+        let take_first = |best: &mut Best, seq: usize, c: Reading| {
+            if best
+                .1
+                .is_none_or(|f| self.order(&f.1, &c) == std::cmp::Ordering::Greater)
+            {
+                best.1 = Some((seq, c));
+            }
+        };
+        let take = |best: &mut Best, seq: usize, c: Reading| {
+            take_peak(best, c);
+            if by_margin {
+                take_first(best, seq, c);
+            }
+        };
+        // The nodes by fixed chunks in parallel; each chunk's two bests are taken in chunk
+        // order by the same rules (the last highest, the first lowest in rank), so the result
+        // is that of one pass in sequence; then the surface's readings.
+        let chunks = crate::parallel::chunks(self.magnitude.len(), |range| {
+            let mut best: Best = (None, None);
+            for p in range {
+                if let Some(c) = self.node(p, 0.0) {
+                    take(&mut best, p, c);
+                }
+            }
+            best
         });
-        (peak, first)
+        let mut best: Best = (None, None);
+        for (peak, first) in chunks {
+            if let Some(c) = peak {
+                take_peak(&mut best, c);
+            }
+            if let Some((seq, c)) = first {
+                take_first(&mut best, seq, c);
+            }
+        }
+        let n = self.magnitude.len();
+        for (k, c) in self.surface.iter().enumerate() {
+            take(&mut best, n + k, *c);
+        }
+        best
     }
 }
 

@@ -28,9 +28,10 @@ use crate::grid::Grid;
 pub use crate::links::{Dir, DirectCoupling, Link, SideId};
 use crate::material;
 use crate::open;
-use crate::raster::{Axis, HalfLink, Raster, NO_CONDUCTOR};
+use crate::raster::{Axis, Raster, NO_CONDUCTOR};
 use crate::stencil::Stencil5;
 use crate::EPS0;
+use rayon::prelude::*;
 
 /// Smallest cut fraction used in a weight; closer surfaces are treated as this close (an
 /// error in the surface position of at most `THETA_MIN * h`, keeping the weights bounded).
@@ -220,7 +221,8 @@ pub fn assemble(design: &Design, raster: &Raster) -> Result<Operator, OperatorEr
     if a.sides.contains(&Side::Open) {
         a.couple_open_sides();
     }
-    a.links.sort_by_key(|l| (l.node, l.dir));
+    // Stable: links of one node and direction keep the order they were gathered in.
+    a.links.par_sort_by_key(|l| (l.node, l.dir));
     a.finish()
 }
 
@@ -276,12 +278,14 @@ impl<'a> Assembly<'a> {
             links: Vec::new(),
             direct: Vec::new(),
         };
-        for j in 0..grid.ny {
-            for i in 0..grid.nx {
+        let mut unknown = std::mem::take(&mut a.unknown);
+        crate::parallel::for_each_row(&mut unknown, grid.nx, |j, row| {
+            for (i, u) in row.iter_mut().enumerate() {
                 let p = grid.idx(i, j);
-                a.unknown[p] = raster.conductor[p] == NO_CONDUCTOR && a.side_of(i, j).is_none();
+                *u = raster.conductor[p] == NO_CONDUCTOR && a.side_of(i, j).is_none();
             }
-        }
+        });
+        a.unknown = unknown;
         a
     }
 
@@ -293,150 +297,32 @@ impl<'a> Assembly<'a> {
         (self.nc + s as usize) as u32
     }
 
-    /// Every lattice edge in node order (x-edge before y-edge), with its cut record if the
-    /// raster has one.
-    fn couple_edges(&mut self) {
-        let raster = self.raster;
-        let (nx, ny) = (self.grid.nx, self.grid.ny);
-        let mut cut = raster.cut_edges.iter().peekable();
-        for j in 0..ny {
-            for i in 0..nx {
-                let a = self.grid.idx(i, j);
-                for axis in [Axis::X, Axis::Y] {
-                    let (b, bi, bj) = match axis {
-                        Axis::X if i + 1 < nx => (a + 1, i + 1, j),
-                        Axis::Y if j + 1 < ny => (a + nx, i, j + 1),
-                        _ => continue,
-                    };
-                    while cut
-                        .peek()
-                        .is_some_and(|c| ((c.node as usize), c.axis) < (a, axis))
-                    {
-                        cut.next();
-                    }
-                    let record = cut.next_if(|c| c.node as usize == a && c.axis == axis);
-                    let (ca, cb) = (raster.conductor[a], raster.conductor[b]);
-                    let (from_a, from_b, direct_link) = match record {
-                        Some(c) => (c.from_a, c.from_b, c.direct),
-                        None if ca == NO_CONDUCTOR && cb == NO_CONDUCTOR => {
-                            let h = HalfLink {
-                                theta: 1.0,
-                                eps: material::of(self.design, raster.material[a]).permittivity,
-                                ends_on: None,
-                            };
-                            (Some(h), Some(h), None)
-                        }
-                        None => (None, None, None),
-                    };
-                    if let Some(d) = direct_link {
-                        let w = d.eps
-                            * geometric_weight(&self.faces, axis, i, j, d.gap.max(THETA_MIN), 1.0);
-                        self.direct.push(DirectCoupling {
-                            a: d.a as u32,
-                            b: d.b as u32,
-                            weight: w,
-                        });
-                    }
-                    // Each free end sees either the other node (None) or a conductor surface.
-                    let ends = [(a, i, j, from_a, b, 1.0), (b, bi, bj, from_b, a, -1.0)];
-                    for (p, pi, pj, half, other, sign) in ends {
-                        if let Some(h) = half {
-                            self.couple_end(axis, (p, pi, pj), h, other, sign);
-                        }
-                    }
-                }
-            }
-        }
-    }
-
-    /// One free end of an edge: node `p` at (pi, pj), its half-link `h` along `axis` towards
-    /// `other` (`sign` +1 towards +x or +y). An unknown node gains the weight on its diagonal
-    /// and a free-free coupling (recorded once, from the lower end) or a link to a target; a
-    /// fixed side node facing a conductor surface gains a direct coupling.
-    fn couple_end(
-        &mut self,
-        axis: Axis,
-        (p, pi, pj): (usize, usize, usize),
-        h: HalfLink,
-        other: usize,
-        sign: f64,
-    ) {
-        let nx = self.grid.nx;
-        let theta = h.theta.clamp(THETA_MIN, 1.0);
-        let w = h.eps * geometric_weight(&self.faces, axis, pi, pj, theta, sign);
-        let dir = match (axis, sign > 0.0) {
-            (Axis::X, true) => Dir::East,
-            (Axis::X, false) => Dir::West,
-            (Axis::Y, true) => Dir::North,
-            (Axis::Y, false) => Dir::South,
-        };
-        let target = match h.ends_on {
-            Some(k) => Some(k as u32),
-            None if self.unknown[other] => None,
-            None => {
-                let (oi, oj) = (other % nx, other / nx);
-                match self.side_of(oi, oj) {
-                    Some(s) => Some(self.side_target(s)),
-                    // The other end is a conductor node reached without a recorded
-                    // surface: the surface is at that node.
-                    None => Some(self.raster.conductor[other] as u32),
-                }
-            }
-        };
-        if self.unknown[p] {
-            self.diag[p] += w;
-            match target {
-                None => {
-                    // Free-free coupling: record once, from the lower end.
-                    if sign > 0.0 {
-                        match axis {
-                            Axis::X => self.east[p] = w,
-                            Axis::Y => self.north[p] = w,
-                        }
-                    }
-                }
-                Some(t) => self.links.push(Link {
-                    node: p as u32,
-                    target: t,
-                    weight: w,
-                    dir,
-                    theta,
-                    eps: h.eps,
-                }),
-            }
-        } else if let (Some(t), Some(s)) = (target, self.side_of(pi, pj)) {
-            // A fixed side node facing a conductor surface.
-            if (t as usize) < self.nc {
-                self.direct.push(DirectCoupling {
-                    a: self.side_target(s),
-                    b: t,
-                    weight: w,
-                });
-            }
-        }
-    }
-
     /// Identity rows for fixed nodes, and no coupling from an unknown to a fixed neighbour
     /// (that coupling is a link). Free-free couplings are symmetric: the upper end added the
     /// same weight to its diagonal from its own half-link (equal by the raster invariant).
     fn fix_rows(&mut self) {
         let n = self.grid.len();
         let nx = self.grid.nx;
-        for p in 0..n {
-            if !self.unknown[p] {
-                self.diag[p] = 1.0;
-                self.east[p] = 0.0;
-                self.north[p] = 0.0;
-            }
-        }
-        for p in 0..n {
-            if p + 1 < n && !self.unknown[p + 1] {
-                self.east[p] = 0.0;
-            }
-            if p + nx < n && !self.unknown[p + nx] {
-                self.north[p] = 0.0;
-            }
-        }
+        let unknown = &self.unknown;
+        self.diag
+            .par_chunks_mut(nx)
+            .zip(self.east.par_chunks_mut(nx))
+            .zip(self.north.par_chunks_mut(nx))
+            .enumerate()
+            .for_each(|(j, ((diag, east), north))| {
+                for i in 0..nx {
+                    let p = j * nx + i;
+                    if !unknown[p] {
+                        (diag[i], east[i], north[i]) = (1.0, 0.0, 0.0);
+                    }
+                    if p + 1 < n && !unknown[p + 1] {
+                        east[i] = 0.0;
+                    }
+                    if p + nx < n && !unknown[p + nx] {
+                        north[i] = 0.0;
+                    }
+                }
+            });
     }
 
     /// Open sides: far-field (Robin) terms on the diagonal, as links to the side at 0 V, and
@@ -587,5 +473,6 @@ fn check_reference(s: &Stencil5, links: &[Link], grid: &Grid) -> Result<(), Oper
     }
 }
 
+mod rows;
 #[cfg(test)]
 mod tests;

@@ -46,6 +46,16 @@ pub fn map<T: Sync, U: Send>(items: &[T], f: impl Fn(&T) -> U + Sync) -> Vec<U> 
     items.par_iter().map(&f).collect()
 }
 
+/// `f` of every fixed chunk of [`CHUNK`] indices of `0..n`, in chunk order, in parallel: a
+/// fold whose chunk results are then combined in this order does not depend on the thread
+/// count.
+pub fn chunks<U: Send>(n: usize, f: impl Fn(std::ops::Range<usize>) -> U + Sync) -> Vec<U> {
+    (0..n.div_ceil(CHUNK))
+        .into_par_iter()
+        .map(|c| f(c * CHUNK..((c + 1) * CHUNK).min(n)))
+        .collect()
+}
+
 /// Dot product, deterministic.
 pub fn dot(a: &[f64], b: &[f64]) -> f64 {
     assert_eq!(a.len(), b.len());
@@ -84,5 +94,14 @@ mod tests {
         };
         assert_eq!(mapped(1), mapped(3));
         assert_eq!(mapped(2)[7], a[7].sqrt().to_bits());
+        let ranges = |t: usize| {
+            rayon::ThreadPoolBuilder::new()
+                .num_threads(t)
+                .build()
+                .unwrap()
+                .install(|| chunks(2 * CHUNK + 5, |r| (r.start, r.end)))
+        };
+        assert_eq!(ranges(1), ranges(3));
+        assert_eq!(ranges(2)[2], (2 * CHUNK, 2 * CHUNK + 5));
     }
 }

@@ -14,7 +14,9 @@
 //!
 //! The sweep orders the nodes lazily: one counting pass places them in buckets of nearby
 //! values (the leading bits of the value's offset from the lowest, which order positive
-//! doubles), and a bucket is sorted only when the sweep reaches it. A caller that needs only
+//! doubles), and a bucket is sorted only when the sweep reaches it. The counting runs in
+//! parts on every thread (integer counts, whatever the parting), and the buckets are filled
+//! in groups each owning its stretch of the order, every group taking its nodes by index. A caller that needs only
 //! the highest persistent peaks ([`persistent`]) sorts and joins only the nodes above the
 //! level where those peaks are decided: a peak of height m is known to reach persistence q
 //! once the sweep level is below m (1 - q). The work is linear in the nodes plus the sorting
@@ -25,6 +27,7 @@
 //! lower first, so that the result does not depend on anything but the values (nor on how the
 //! sweep is bucketed).
 
+use rayon::prelude::*;
 use std::cmp::Ordering;
 
 /// One peak: node index (i + j*nx) and its relative persistence in (0, 1].
@@ -105,31 +108,69 @@ impl<'a> Sweep<'a> {
         // double.
         let bits = (values.len() / 4).max(2).ilog2().clamp(4, 20);
         let buckets = 1usize << bits;
-        let (lo, hi) = values
-            .iter()
-            .filter(|v| on_lattice(**v))
-            .fold((u64::MAX, 0u64), |(lo, hi), v| {
-                (lo.min(v.to_bits()), hi.max(v.to_bits()))
-            });
+        let (lo, hi) = crate::parallel::chunks(values.len(), |range| {
+            values[range]
+                .iter()
+                .filter(|v| on_lattice(**v))
+                .fold((u64::MAX, 0u64), |(lo, hi), v| {
+                    (lo.min(v.to_bits()), hi.max(v.to_bits()))
+                })
+        })
+        .into_iter()
+        .fold((u64::MAX, 0u64), |(lo, hi), (a, b)| (lo.min(a), hi.max(b)));
         let span = hi.saturating_sub(lo);
         let shift = (u64::BITS - span.leading_zeros()).saturating_sub(bits);
         let rank = |v: f64| buckets - 1 - ((v.to_bits() - lo) >> shift) as usize;
+        // Counted in parts, one per thread: the counts are integers, so how the nodes are
+        // parted cannot show in them.
+        let parts = rayon::current_num_threads().clamp(1, 8);
+        let per = values.len().div_ceil(parts).max(1);
+        let counts: Vec<Vec<u32>> = values
+            .par_chunks(per)
+            .map(|part| {
+                let mut c = vec![0u32; buckets];
+                for &v in part.iter().filter(|v| on_lattice(**v)) {
+                    c[rank(v)] += 1;
+                }
+                c
+            })
+            .collect();
         let mut starts = vec![0u32; buckets + 1];
-        for &v in values.iter().filter(|v| on_lattice(**v)) {
-            starts[rank(v) + 1] += 1;
-        }
         for r in 0..buckets {
-            starts[r + 1] += starts[r];
+            starts[r + 1] = starts[r] + counts.iter().map(|c| c[r]).sum::<u32>();
         }
-        let mut fill = starts.clone();
-        let mut order = vec![0u32; starts[buckets] as usize];
-        for (p, &v) in values.iter().enumerate() {
-            if on_lattice(v) {
-                let r = rank(v);
-                order[fill[r] as usize] = p as u32;
-                fill[r] += 1;
+        // Filled in groups of whole buckets with about as many nodes each: a group owns its
+        // stretch of `order` and takes its nodes in index order, as one pass would.
+        let total = starts[buckets] as usize;
+        let mut cuts: Vec<usize> = (1..parts)
+            .map(|k| starts.partition_point(|&s| (s as usize) < k * total / parts))
+            .map(|r| r.min(buckets))
+            .collect();
+        cuts.insert(0, 0);
+        cuts.push(buckets);
+        cuts.dedup();
+        let mut order = vec![0u32; total];
+        let mut groups: Vec<(usize, usize, &mut [u32])> = Vec::new();
+        let mut rest = &mut order[..];
+        for w in cuts.windows(2) {
+            let len = (starts[w[1]] - starts[w[0]]) as usize;
+            let (group, tail) = rest.split_at_mut(len);
+            groups.push((w[0], w[1], group));
+            rest = tail;
+        }
+        groups.into_par_iter().for_each(|(r0, r1, group)| {
+            let base = starts[r0];
+            let mut fill: Vec<u32> = starts[r0..r1].iter().map(|s| s - base).collect();
+            for (p, &v) in values.iter().enumerate() {
+                if on_lattice(v) {
+                    let r = rank(v);
+                    if (r0..r1).contains(&r) {
+                        group[fill[r - r0] as usize] = p as u32;
+                        fill[r - r0] += 1;
+                    }
+                }
             }
-        }
+        });
         Sweep {
             values,
             nx,
@@ -464,5 +505,29 @@ mod tests {
         }
         let v = rough(3, 2, 8);
         assert_eq!(peaks(&v, 3, 2), full_sort_peaks(&v, 3, 2));
+    }
+
+    #[test]
+    fn the_sweep_counted_and_filled_in_parts_does_not_depend_on_the_thread_count() {
+        let v = rough(250, 160, 9);
+        let want = full_sort_peaks(&v, 250, 160);
+        for threads in [1, 2, 3, 5] {
+            let pool = rayon::ThreadPoolBuilder::new()
+                .num_threads(threads)
+                .build()
+                .unwrap();
+            assert_eq!(
+                pool.install(|| peaks(&v, 250, 160)),
+                want,
+                "{threads} threads"
+            );
+            let lazy: Vec<usize> = pool.install(|| persistent(&v, 250, 160, 0.05).collect());
+            let filtered: Vec<usize> = want
+                .iter()
+                .filter(|p| p.persistence >= 0.05)
+                .map(|p| p.node)
+                .collect();
+            assert_eq!(lazy, filtered, "{threads} threads");
+        }
     }
 }

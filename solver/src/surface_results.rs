@@ -317,31 +317,29 @@ fn spot(design: &Design, corners: &[Point], reach: f64, at: Point, mag: f64, m: 
 
 /// Nodes whose field is read better at the surface they face: those linked to a conductor
 /// with sampled (closed) outline.
-fn faces_sampled_surface(field: &FieldEval, samples: &[SurfaceSample]) -> Vec<bool> {
+fn faces_sampled_surface(field: &FieldEval, samples: &[SurfaceSample]) -> Vec<u32> {
     let mut sampled = vec![false; field.op.n_conductors];
     for s in samples {
         if let SurfaceKind::Conductor(k) = s.kind {
             sampled[k] = true;
         }
     }
-    let mut out = vec![false; field.op.grid.len()];
-    for l in &field.op.links {
-        if (l.target as usize) < sampled.len() && sampled[l.target as usize] {
-            out[l.node as usize] = true;
-        }
-    }
-    out
+    field
+        .op
+        .links
+        .iter()
+        .filter(|l| (l.target as usize) < sampled.len() && sampled[l.target as usize])
+        .map(|l| l.node)
+        .collect()
 }
 
 /// |E| at every node as the hot-spot search reads it: NaN at nodes facing a sampled surface.
 fn lattice_magnitudes(field: &FieldEval, samples: &[SurfaceSample]) -> Vec<f64> {
-    let skip = faces_sampled_surface(field, samples);
-    field
-        .magnitudes()
-        .iter()
-        .zip(&skip)
-        .map(|(&m, &skip)| if skip { f64::NAN } else { m })
-        .collect()
+    let mut out = field.magnitudes().to_vec();
+    for p in faces_sampled_surface(field, samples) {
+        out[p as usize] = f64::NAN;
+    }
+    out
 }
 
 /// The surface's readings: its maxima with their persistence along their curve, then every

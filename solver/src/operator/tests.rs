@@ -411,3 +411,62 @@ fn concentric_spheres_on_a_stretched_grid_converge_at_second_order() {
     assert_second_order("spheres on a stretched grid", &errors);
     assert!(errors[3] < 3e-5, "{errors:?}");
 }
+
+#[test]
+fn assembly_by_rows_is_bit_identical_for_any_thread_count() {
+    // Two conductors within a cell of each other (a direct coupling between them), one
+    // within a cell of the grounded bottom (couplings from the side's nodes), a dielectric
+    // across the lattice and an open top (far-field links): every kind of coupling, on a
+    // graded lattice.
+    let mut rng = Rng(0x51_7cc1_b727_220a);
+    let d = Design {
+        domain: Domain {
+            x: [0.0, 1.0],
+            y: [0.0, 1.0],
+            cell: 0.05,
+        },
+        sides: Sides {
+            top: Side::Open,
+            left: Side::Symmetry,
+            ..Sides::default()
+        },
+        conductors: vec![
+            conductor("a", 1.0, rect([0.2, 0.4], [0.3, 0.5])),
+            conductor("b", -1.0, rect([0.41, 0.6], [0.3, 0.5])),
+            conductor(
+                "c",
+                0.5,
+                Shape::Circle {
+                    center: [0.75, 0.21],
+                    radius: 0.2,
+                },
+            ),
+        ],
+        dielectrics: vec![dielectric(3.0, rect([0.0, 1.0], [0.0, 0.37]))],
+        ..Design::default()
+    };
+    let grid = Grid::from_lines(
+        random_lines(&mut rng, 0.0, 1.0, 61),
+        random_lines(&mut rng, 0.0, 1.0, 53),
+    )
+    .unwrap();
+    let raster = rasterize(&d, &grid);
+    let run = |threads: usize| {
+        rayon::ThreadPoolBuilder::new()
+            .num_threads(threads)
+            .build()
+            .unwrap()
+            .install(|| assemble(&d, &raster).unwrap())
+    };
+    let one = run(1);
+    assert!(one.direct.len() >= 2, "{:?}", one.direct);
+    assert!(one
+        .links
+        .iter()
+        .any(|l| l.target == one.side_target(SideId::Top)));
+    // Debug prints every f64 so that it reads back to the same bits.
+    let text = format!("{one:?}");
+    for threads in [2, 3, 5] {
+        assert_eq!(format!("{:?}", run(threads)), text, "{threads} threads");
+    }
+}
