@@ -31,6 +31,9 @@ use crate::grid::Grid;
 use crate::raster::NO_CONDUCTOR;
 use crate::EPS0;
 
+mod lsq;
+use lsq::Lsq;
+
 /// Fit settings.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct FitParams {
@@ -178,91 +181,6 @@ fn mono(a: i32, b: i32, n: f64, t: f64) -> [f64; 6] {
         bf * (bf - 1.0) * pw(n, a) * pw(t, b - 2),
         af * bf * pw(n, a - 1) * pw(t, b - 1),
     ]
-}
-
-/// Weighted linear least squares by Householder reflections; `None` when rank-deficient.
-/// Rows are kept in one buffer: a fit on a graded grid can take thousands of rows.
-struct Lsq {
-    cols: usize,
-    /// Row-major, `cols` values per row, each times its weight.
-    rows: Vec<f64>,
-    rhs: Vec<f64>,
-}
-
-impl Lsq {
-    fn new(cols: usize) -> Lsq {
-        Lsq {
-            cols,
-            rows: Vec::new(),
-            rhs: Vec::new(),
-        }
-    }
-
-    fn row(&mut self, coeffs: impl IntoIterator<Item = f64>, value: f64, weight: f64) {
-        let before = self.rows.len();
-        self.rows.extend(coeffs.into_iter().map(|c| c * weight));
-        debug_assert_eq!(self.rows.len() - before, self.cols);
-        self.rhs.push(value * weight);
-    }
-
-    fn solve(self) -> Option<Vec<f64>> {
-        let (m, n) = (self.rhs.len(), self.cols);
-        if m < n {
-            return None;
-        }
-        let scale = self.rows.iter().fold(0.0f64, |s, v| s.max(v.abs()));
-        if scale == 0.0 {
-            return None;
-        }
-        // Row-major with the right-hand side as column n, so that one pass over the rows
-        // reflects every column at once; each column's sums still run over the rows in order.
-        let w = n + 1;
-        let mut a = Vec::with_capacity(m * w);
-        for (row, &r) in self.rows.chunks_exact(n).zip(&self.rhs) {
-            a.extend_from_slice(row);
-            a.push(r);
-        }
-        // The value `Iterator::sum` starts from, so that the sums below are its sums.
-        let zero = std::iter::empty::<f64>().sum::<f64>();
-        let (mut v, mut s) = (vec![0.0; m], vec![0.0; w]);
-        for k in 0..n {
-            let v = &mut v[..m - k];
-            for (i, x) in v.iter_mut().enumerate() {
-                *x = a[(k + i) * w + k];
-            }
-            let norm = v.iter().map(|x| x.powi(2)).sum::<f64>().sqrt();
-            if norm <= 1e-11 * scale {
-                return None;
-            }
-            let alpha = if v[0] > 0.0 { -norm } else { norm };
-            v[0] -= alpha;
-            let vv: f64 = v.iter().map(|x| x * x).sum();
-            if vv == 0.0 {
-                continue;
-            }
-            let s = &mut s[k..];
-            s.fill(zero);
-            for (row, &vi) in a[k * w..].chunks_exact(w).zip(v.iter()) {
-                for (acc, x) in s.iter_mut().zip(&row[k..]) {
-                    *acc += vi * x;
-                }
-            }
-            for acc in s.iter_mut() {
-                *acc = *acc * 2.0 / vv;
-            }
-            for (row, &vi) in a[k * w..].chunks_exact_mut(w).zip(v.iter()) {
-                for (x, sc) in row[k..].iter_mut().zip(s.iter()) {
-                    *x -= sc * vi;
-                }
-            }
-        }
-        let mut x = vec![0.0; n];
-        for k in (0..n).rev() {
-            let s: f64 = (k + 1..n).map(|c| a[k * w + c] * x[c]).sum();
-            x[k] = (a[k * w + n] - s) / a[k * w + k];
-        }
-        x.iter().all(|v| v.is_finite()).then_some(x)
-    }
 }
 
 /// Weight of a data node at distance `d` cells: smooth, falling to a tenth at the reach.
@@ -439,15 +357,13 @@ pub fn interface_field(
     let nh = high.len();
     let cols = 3 + 2 * nh;
     let ratio = eps[0] / eps[1];
-    let value_row = |side: usize, n: f64, t: f64| -> Vec<f64> {
-        let mut row = vec![0.0; cols];
+    let value_row = |side: usize, n: f64, t: f64, row: &mut [f64]| {
         row[0] = 1.0;
         row[1] = t;
         row[2] = if side == 0 { n } else { ratio * n };
         for (k, &(a, b)) in high.iter().enumerate() {
             row[3 + side * nh + k] = mono_value(a, b, n, t);
         }
-        row
     };
     let mut lsq = Lsq::new(cols);
     let reach = params.radius_cells;
@@ -463,7 +379,7 @@ pub fn interface_field(
             return;
         }
         let w = data_weight(n.hypot(t), reach);
-        lsq.row(value_row(side, n, t), lat.phi[p], w);
+        lsq.row_with(lat.phi[p], w, |row| value_row(side, n, t, row));
         count[side] += 1;
     });
     if count[0] < nh + 2 || count[1] < nh + 2 {
