@@ -464,7 +464,10 @@ fn field_results(
     let (mut peak_field, mut hotspots) =
         surface_results::peak_and_hotspots(field, design, &corners, &params.hotspots, &closed);
     if let Some((m, cf)) = estimate {
-        let all = surface::sample(cf, design, &SurfaceParams::default());
+        // Side and interface readings of the coarse study serve only the hot spots'
+        // estimates; its conductor samples all serve the surface charge's.
+        let points = surface_results::estimate_points(&peak_field, &hotspots, &cf.op.grid);
+        let all = surface::sample_near(cf, design, &SurfaceParams::default(), &points);
         surface_results::surface_charge_errors(
             &mut surface_charge,
             &surface,

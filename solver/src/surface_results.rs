@@ -419,6 +419,26 @@ fn strengths(design: &Design) -> Vec<Option<f64>> {
         .collect()
 }
 
+/// How far from a point the coarse readings that estimate its error are taken: one and a
+/// half coarse cells, m.
+fn coarse_radius(coarse: &Grid, at: Point) -> f64 {
+    1.5 * coarse.spacing_at(at)
+}
+
+/// The points whose errors [`estimate_errors`] estimates (the peak and the hot spots), each
+/// with the distance its coarse readings come from (m): the coarse study's side and interface
+/// samples are needed only there ([`crate::surface::sample_near`]).
+pub fn estimate_points(
+    peak: &Option<Hotspot>,
+    spots: &[Hotspot],
+    coarse: &Grid,
+) -> Vec<(Point, f64)> {
+    peak.iter()
+        .chain(spots)
+        .map(|h| ([h.x, h.y], coarse_radius(coarse, [h.x, h.y])))
+        .collect()
+}
+
 /// Error estimates of the peak and the hot spots from the solve on a coarser lattice
 /// (`coarse`, with its surface samples), Richardson-style with `ratio` and `order` as for the
 /// capacitance: `|E_h - E_coarse| / (ratio^order - 1)`, where `E_coarse` is the largest
@@ -435,7 +455,7 @@ pub fn estimate_errors(
     order: f64,
 ) {
     let cg = &coarse.op.grid;
-    let radius = |at: Point| 1.5 * cg.spacing_at(at);
+    let radius = |at: Point| coarse_radius(cg, at);
     let magnitude = lattice_magnitudes(coarse, coarse_samples);
     let surface = surface_readings(coarse_samples);
     let factor = ratio.powf(order) - 1.0;

@@ -1,7 +1,7 @@
 //! Surface fields, peaks and hot spots on graded (stretched) lattices against closed forms;
 //! the coarse reading behind the surface-charge error estimate.
 
-use super::coarse_near;
+use super::{coarse_near, estimate_points};
 use crate::design::{Conductor, Design, Domain, Drive, Mode, Shape, Side, Sides};
 use crate::grid::Grid;
 use crate::study::{self, Solution, StudyParams};
@@ -328,4 +328,114 @@ fn coarse_value_is_the_parabola_through_the_nearest_samples_and_wraps_on_a_loop(
         "{v} {d}"
     );
     assert_eq!(coarse_near(&[], None, 1.0), None);
+}
+
+#[test]
+fn coarse_side_and_interface_fits_only_near_the_points_give_the_estimates_every_fit_gives() {
+    use crate::design::{Background, Dielectric};
+    use crate::surface::{near_readings, sample, sample_near, SurfaceParams};
+    // A strip over a dielectric disc (a whole loop) and a layer (a cut interface), between a
+    // grounded side and a fixed one, on a stretched lattice: the solved field stands in for a
+    // coarse study's.
+    let design = Design {
+        domain: Domain {
+            x: [0.0, 10e-3],
+            y: [0.0, 6e-3],
+            cell: 0.25e-3,
+        },
+        sides: Sides {
+            left: Side::Symmetry,
+            right: Side::Symmetry,
+            bottom: Side::Ground,
+            top: Side::Fixed(0.3),
+        },
+        background: Background {
+            permittivity: 1.0,
+            strength: Some(3e6),
+        },
+        conductors: vec![conductor(
+            "strip",
+            1.0,
+            Shape::Rect {
+                x: [3.1e-3, 6.2e-3],
+                y: [2.05e-3, 2.4e-3],
+                round: 0.0,
+            },
+        )],
+        dielectrics: vec![
+            Dielectric {
+                name: "layer".into(),
+                permittivity: 4.0,
+                strength: Some(2e7),
+                shape: Shape::Rect {
+                    x: [0.0, 10e-3],
+                    y: [0.0, 2.05e-3],
+                    round: 0.0,
+                },
+            },
+            Dielectric {
+                name: "disc".into(),
+                permittivity: 2.5,
+                strength: Some(1e7),
+                shape: Shape::Circle {
+                    center: [7.3e-3, 3.9e-3],
+                    radius: 0.9e-3,
+                },
+            },
+        ],
+        ..Design::default()
+    };
+    let grid = Grid::from_lines(
+        stretched(0.0, 10e-3, 60, 0.1, 0.3),
+        stretched(0.0, 6e-3, 40, 0.08, 0.9),
+    )
+    .unwrap();
+    let s = solve_on(&design, grid);
+    let field = s.field();
+    let params = SurfaceParams::default();
+    let all = sample(&field, &design, &params);
+    // The study's hot spots and, for reach, points on every fifth side or interface sample.
+    let mut spots = s.hotspots.clone();
+    for p in all
+        .iter()
+        .filter(|p| p.kind != SurfaceKind::Conductor(0))
+        .step_by(5)
+    {
+        let mut h = spots[0].clone();
+        (h.x, h.y, h.magnitude) = (p.x, p.y, p.magnitude().max(1.0));
+        h.material = crate::material::of(&design, p.material).name.to_string();
+        spots.push(h);
+    }
+    for points in [1, 4, spots.len()] {
+        let (peak, spots) = (s.peak_field.clone(), &spots[..points]);
+        let near = estimate_points(&peak, spots, &s.grid);
+        let some = sample_near(&field, &design, &params, &near);
+        // The same samples; conductor fields all evaluated, the others only near the points.
+        assert_eq!(some.len(), all.len());
+        let wanted = near_readings(&all, &near);
+        let mut left_out = 0;
+        for (k, (a, b)) in all.iter().zip(&some).enumerate() {
+            let same = a.field[0].to_bits() == b.field[0].to_bits()
+                && a.field[1].to_bits() == b.field[1].to_bits();
+            if matches!(a.kind, SurfaceKind::Conductor(_)) || wanted[k] {
+                assert!(same, "sample {k} {:?}", a.kind);
+            } else {
+                left_out += usize::from(b.field[0].is_nan());
+            }
+        }
+        if points < spots.len() {
+            assert!(left_out > all.len() / 4, "{left_out} of {}", all.len());
+        }
+        let estimate = |samples: &[crate::surface::SurfaceSample]| {
+            let (mut p, mut h) = (peak.clone(), spots.to_vec());
+            super::estimate_errors(&mut p, &mut h, &design, &field, samples, 2.0, 2.0);
+            p.iter()
+                .chain(&h)
+                .map(|h| h.error_estimate.map(f64::to_bits))
+                .collect::<Vec<_>>()
+        };
+        let want = estimate(&all);
+        assert!(want.iter().filter(|e| e.is_some()).count() >= points);
+        assert_eq!(estimate(&some), want, "{points} points");
+    }
 }
