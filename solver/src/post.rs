@@ -245,7 +245,9 @@ fn derivative(minus: Option<(f64, f64)>, f0: f64, plus: Option<(f64, f64)>) -> f
 /// their holes, which are convex as seen from the conductor), polyline ends and polyline kinks.
 /// Straight-through vertices and re-entrant corners (where the field tends to zero) are not,
 /// nor is a corner of one piece of a conductor that another piece of it covers or meets: there
-/// the union's metal spans at least a half-plane around the point, so the field does not grow.
+/// the union's metal spans at least a half-plane around the point, so the field does not grow,
+/// nor a vertex on a mirror plane or the axis that the unfolded part does not have as a corner
+/// (a stem cut square by the plane).
 pub fn sharp_corners(design: &Design) -> Vec<Point> {
     let d = &design.domain;
     // Points this close around a corner tell whether another piece meets it.
@@ -262,6 +264,13 @@ pub fn sharp_corners(design: &Design) -> Vec<Point> {
         for (p, shape) in c.shapes().enumerate() {
             let first = out.len();
             piece_corners(shape, &mut out);
+            let kept: Vec<Point> = out[first..]
+                .iter()
+                .copied()
+                .filter(|q| !crate::geometry::unfolds_flat(design, shape, *q))
+                .collect();
+            out.truncate(first);
+            out.extend(kept);
             if pieces.is_empty() {
                 continue;
             }
@@ -547,7 +556,7 @@ pub fn force_on_path(field: &FieldEval, design: &Design, k: usize) -> PathForce 
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::design::{Conductor, Drive};
+    use crate::design::{Conductor, Drive, Side};
 
     fn with(shape: Shape) -> Design {
         Design {
@@ -559,6 +568,32 @@ mod tests {
             }],
             ..Design::default()
         }
+    }
+
+    #[test]
+    fn a_corner_on_a_mirror_plane_is_sharp_only_where_the_unfolded_part_has_one() {
+        // Domain [0, 1] x [0, 1] with the top a mirror plane: a stem cut square by it and a
+        // wedge meeting it at 45 degrees (unfolded, a 90 degree corner).
+        let on_top = |outer: Vec<Point>, top: Side| {
+            let mut d = with(Shape::Polygon {
+                outer,
+                holes: vec![],
+                round: 0.0,
+                corners: None,
+            });
+            d.domain.x = [0.0, 1.0];
+            d.domain.y = [0.0, 1.0];
+            d.sides.top = top;
+            sharp_corners(&d)
+        };
+        let stem = vec![[0.4, 0.5], [0.6, 0.5], [0.6, 1.0], [0.4, 1.0]];
+        assert_eq!(
+            on_top(stem.clone(), Side::Symmetry),
+            vec![[0.4, 0.5], [0.6, 0.5]]
+        );
+        assert_eq!(on_top(stem, Side::Ground).len(), 4);
+        let wedge = vec![[0.4, 0.5], [0.9, 1.0], [0.4, 1.0]];
+        assert_eq!(on_top(wedge, Side::Symmetry), vec![[0.4, 0.5], [0.9, 1.0]]);
     }
 
     #[test]

@@ -487,8 +487,7 @@ fn field_results(
             design,
             cf,
             &coarse_surface,
-            m.ratio,
-            m.order,
+            m,
         );
     }
     surface_results::finish(

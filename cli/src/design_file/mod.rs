@@ -14,14 +14,16 @@
 //! This file holds the entry point and its result; `values` reads one checked value
 //! (numbers, lengths, points, tables), `sections` the top-level sections, `items` the items
 //! (conductors, dielectrics, charges, probes, the background), `shapes` an item's shape (SVG
-//! outlines included), `locate` places the library's validation errors at their keys,
-//! `spans` keeps the parsed tree with positions, `unit` the file's length unit.
+//! outlines included), `side_corners` which corners `round` rounds when none are chosen,
+//! `locate` places the library's validation errors at their keys, `spans` keeps the parsed
+//! tree with positions, `unit` the file's length unit.
 
 pub mod expr;
 mod items;
 mod locate;
 mod sections;
 mod shapes;
+mod side_corners;
 mod spans;
 pub mod svg;
 mod unit;
@@ -134,7 +136,8 @@ pub fn read_design(
         uses: Default::default(),
         refs: Default::default(),
     };
-    let (design, unit) = r.design(&tree, overrides)?;
+    let (mut design, unit) = r.design(&tree, overrides)?;
+    side_corners::sharp_on_sides(&mut design);
     let tolerances = r.tolerances(&tree)?;
     let parameter_units = r.parameter_units(&tree, unit)?;
     let accuracy = r.accuracy(&tree)?;

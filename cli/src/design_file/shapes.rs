@@ -106,13 +106,23 @@ impl Reader<'_> {
         let n = &e.node;
         match e.key.as_str() {
             "rect" => {
-                let s = self.table(n, &key, &["x", "y", "round"])?;
+                let s = self.table(n, &key, &["x", "y", "round", "round_corners"])?;
                 let x = self.required(s, n, &key, "x", "the extent [x0, x1]")?;
                 let y = self.required(s, n, &key, "y", "the extent [y0, y1]")?;
                 let x = self.extent(&x.node, &join(&key, "x"))?;
                 let y = self.extent(&y.node, &join(&key, "y"))?;
                 let round = self.round(s, &key)?;
-                Ok(Shape::Rect { x, y, round })
+                match self.round_corners(s, &key, 4)? {
+                    // Chosen corners make the rectangle a polygon: its vertices counted
+                    // counter-clockwise from (x0, y0).
+                    Some(corners) => Ok(Shape::Polygon {
+                        outer: vec![[x[0], y[0]], [x[1], y[0]], [x[1], y[1]], [x[0], y[1]]],
+                        holes: Vec::new(),
+                        round,
+                        corners: Some(corners),
+                    }),
+                    None => Ok(Shape::Rect { x, y, round }),
+                }
             }
             "circle" => {
                 let s = self.table(n, &key, &["center", "radius"])?;
@@ -250,7 +260,8 @@ impl Reader<'_> {
     }
 
     /// `round_corners = [i, ...]`: the 0-based vertices `round` applies to, counted through
-    /// the outer boundary and then each hole; `total` vertices in all.
+    /// the outer boundary and then each hole (a rectangle's four counter-clockwise from
+    /// (x0, y0)); `total` vertices in all.
     pub(super) fn round_corners(
         &self,
         t: &[Entry],
@@ -277,10 +288,14 @@ impl Reader<'_> {
                     &n.span,
                     &key,
                     format!(
-                        "{} is not a vertex: give 0-based indices from 0 to {} (the outer \
-                         boundary's vertices, then each hole's)",
+                        "{} is not a vertex: give 0-based indices from 0 to {} ({})",
                         show(v),
-                        total - 1
+                        total - 1,
+                        if path.ends_with("rect") {
+                            "a rectangle's corners counter-clockwise from (x0, y0)"
+                        } else {
+                            "the outer boundary's vertices, then each hole's"
+                        }
                     ),
                 ));
             }

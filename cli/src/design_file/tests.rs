@@ -179,7 +179,9 @@ fn every_key_converts_to_si() {
     assert_eq!(holes.len(), 1);
     assert!(close2(holes[0][1], [5e-3, 0.1e-3]));
     assert!(close(round, 5e-5));
-    assert_eq!(*corners, None);
+    // Every outer vertex lies on a side of the domain (the left one on the mirror plane):
+    // only the hole's corners are rounded.
+    assert_eq!(corners.as_deref(), Some(&[4, 5, 6][..]));
     assert_eq!(d.dielectrics[1].permittivity, 2.5);
     assert_eq!(d.dielectrics[1].strength, None);
 
@@ -494,4 +496,66 @@ fn round_corners_out_of_range_names_file_line_and_key() {
     assert!(m.contains("t.toml:13"), "{m}");
     assert!(m.contains("round_corners`"), "{m}");
     assert!(m.contains("4 is not a vertex"), "{m}");
+}
+
+#[test]
+fn a_corner_on_a_mirror_plane_is_not_rounded_by_default() {
+    let d = read(&mirror_design("")).unwrap().design;
+    let Shape::Polygon { ref corners, .. } = d.conductors[0].shape else {
+        panic!()
+    };
+    assert_eq!(corners.as_deref(), Some(&[1, 2][..]));
+    // Drawn where they were; unfolded across the plane the bar has no corner there.
+    let sharp = fieldgrid_solver::geometry::sharp_corners(&d.conductors[0].shape);
+    assert_eq!(sharp, vec![[0.0, 4e-3], [0.0, 6e-3]]);
+    assert!(fieldgrid_solver::post::sharp_corners(&d).is_empty());
+}
+
+/// The mirror design with a rectangle in place of the polygon.
+fn mirror_rect(rect: &str) -> String {
+    mirror_design("").replace(
+        "polygon = [[0, 4], [3, 4], [3, 6], [0, 6]]\nround = 0.5\n",
+        &format!("rect = {{ x = [0, 3], y = [4, 6], {rect} }}\n"),
+    )
+}
+
+#[test]
+fn a_rounded_rect_chooses_its_corners_and_keeps_those_on_a_mirror_plane_sharp() {
+    let corners = |text: &str| match read(text).unwrap().design.conductors[0].shape {
+        Shape::Polygon {
+            ref outer,
+            ref corners,
+            round,
+            ..
+        } => {
+            assert_eq!(outer[0], [0.0, 4e-3]);
+            assert!(close(round, 5e-4));
+            corners.clone()
+        }
+        ref s => panic!("{s:?}"),
+    };
+    // Counter-clockwise from (x0, y0): the two off the plane by default, or those chosen.
+    assert_eq!(corners(&mirror_rect("round = 0.5")), Some(vec![1, 2]));
+    assert_eq!(
+        corners(&mirror_rect("round = 0.5, round_corners = [2]")),
+        Some(vec![2])
+    );
+    // Off the sides a rounded rectangle stays one.
+    let inside = mirror_rect("round = 0.5").replace("x = [0, 3]", "x = [1, 3]");
+    assert!(matches!(
+        read(&inside).unwrap().design.conductors[0].shape,
+        Shape::Rect { .. }
+    ));
+}
+
+#[test]
+fn a_rect_round_corners_out_of_range_or_without_round_names_file_line_and_key() {
+    let e = read(&mirror_rect("round = 0.5, round_corners = [4]")).unwrap_err();
+    let m = e.to_string();
+    assert!(m.contains("t.toml:11"), "{m}");
+    assert!(m.contains("conductor.rect.round_corners"), "{m}");
+    assert!(m.contains("4 is not a vertex"), "{m}");
+    assert!(m.contains("counter-clockwise from (x0, y0)"), "{m}");
+    let e = read(&mirror_rect("round_corners = [1]")).unwrap_err();
+    assert!(e.to_string().contains("give `round` too"), "{e}");
 }

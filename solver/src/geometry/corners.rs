@@ -1,8 +1,10 @@
 //! What post-processing and pictures need from a shape: its sharp corners (where the field
-//! is singular and keeps growing under refinement) and its outline as polylines.
+//! is singular and keeps growing under refinement), its vertices on the domain's sides (which
+//! `round` leaves sharp by default, and which a mirror plane may unfold into no corner at
+//! all) and its outline as polylines.
 
 use super::outline::{outline, signed_area2};
-use crate::design::{Point, Shape};
+use crate::design::{Design, Domain, Point, Shape, Side};
 
 /// Turns of less than this (rad) are not corners.
 const STRAIGHT: f64 = 1e-12;
@@ -61,6 +63,75 @@ pub(crate) fn unrounded_vertices(
         .filter(|(_, p)| !p)
         .map(|(v, _)| v)
         .collect()
+}
+
+/// The vertices of a polygon (0-based, outer boundary then holes) that lie off the domain's
+/// sides, or `None` when none lies on a side. A vertex on a side (a mirror plane, a wall, the
+/// axis) is where the drawing cuts the part, not a corner of it: rounding it would add a
+/// hollow or a bump the part does not have. On a side means within 1e-9 of the domain's
+/// larger extent.
+pub fn corners_off_sides(
+    outer: &[Point],
+    holes: &[Vec<Point>],
+    domain: &Domain,
+) -> Option<Vec<usize>> {
+    let on = on_side(domain);
+    let all: Vec<&Point> = outer.iter().chain(holes.iter().flatten()).collect();
+    if !all.iter().any(|p| on(p).is_some()) {
+        return None;
+    }
+    Some((0..all.len()).filter(|&k| on(all[k]).is_none()).collect())
+}
+
+/// Which side of `domain` a point lies on, within 1e-9 of the domain's larger extent:
+/// 0 left, 1 right, 2 bottom, 3 top (the first that matches).
+pub fn on_side(domain: &Domain) -> impl Fn(&Point) -> Option<usize> {
+    let [x0, x1] = domain.x;
+    let [y0, y1] = domain.y;
+    let tol = 1e-9 * (x1 - x0).abs().max((y1 - y0).abs());
+    move |p: &Point| {
+        [p[0] - x0, p[0] - x1, p[1] - y0, p[1] - y1]
+            .iter()
+            .position(|d| d.abs() <= tol)
+    }
+}
+
+/// Whether a vertex `q` of a rectangle or a polygon's outer boundary lies on a mirror plane
+/// (or the axis) where the part, unfolded across it, has no corner: one edge at `q` runs
+/// along that side and the other leaves it at 90 degrees or more through the metal, so the
+/// unfolded outline runs straight on (or turns inwards, where the field tends to zero). A
+/// stem cut square by a mirror plane is such a vertex; a wedge meeting the plane at less
+/// than 90 degrees is not (unfolded, it is a sharp corner of twice its angle).
+pub(crate) fn unfolds_flat(design: &Design, shape: &Shape, q: Point) -> bool {
+    let ring = match shape {
+        Shape::Rect { x, y, .. } => vec![[x[0], y[0]], [x[1], y[0]], [x[1], y[1]], [x[0], y[1]]],
+        Shape::Polygon { outer, .. } => outer.clone(),
+        _ => return false,
+    };
+    let Some(k) = ring.iter().position(|p| *p == q) else {
+        return false;
+    };
+    let n = ring.len();
+    let (prev, next) = (ring[(k + n - 1) % n], ring[(k + 1) % n]);
+    let d = &design.domain;
+    let tol = 1e-9 * (d.x[1] - d.x[0]).abs().max((d.y[1] - d.y[0]).abs());
+    let s = &design.sides;
+    // Each side: its kind, the coordinate across it and where it lies.
+    let sides = [
+        (s.left, 0, d.x[0]),
+        (s.right, 0, d.x[1]),
+        (s.bottom, 1, d.y[0]),
+        (s.top, 1, d.y[1]),
+    ];
+    sides.iter().any(|&(side, axis, at)| {
+        let on = |p: Point| (p[axis] - at).abs() <= tol;
+        matches!(side, Side::Symmetry | Side::Axis)
+            && on(q)
+            && [(prev, next), (next, prev)].iter().any(|&(a, b)| {
+                let (u, v) = ([a[0] - q[0], a[1] - q[1]], [b[0] - q[0], b[1] - q[1]]);
+                on(a) && u[0] * v[0] + u[1] * v[1] <= 1e-12 * u[0].hypot(u[1]) * v[0].hypot(v[1])
+            })
+    })
 }
 
 /// The sharp corners of a shape: unrounded rectangle and polygon vertices (holes included)

@@ -428,7 +428,16 @@ fn coarse_side_and_interface_fits_only_near_the_points_give_the_estimates_every_
         }
         let estimate = |samples: &[crate::surface::SurfaceSample]| {
             let (mut p, mut h) = (peak.clone(), spots.to_vec());
-            super::estimate_errors(&mut p, &mut h, &design, &field, samples, 2.0, 2.0);
+            let model = crate::study::ErrorModel {
+                coarse: Vec::new(),
+                coarse_charges: Vec::new(),
+                ratio: 2.0,
+                order: 2.0,
+                observed_order: None,
+                coarser: None,
+                graded_family: false,
+            };
+            super::estimate_errors(&mut p, &mut h, &design, &field, samples, &model);
             p.iter()
                 .chain(&h)
                 .map(|h| h.error_estimate.map(f64::to_bits))
