@@ -107,17 +107,22 @@ pub struct PictureArgs {
     pub picture_width: u32,
     /// Draw the pictures of this window of the domain only: X0,X1,Y0,Y1 in the design's
     /// length unit (r and z in axisymmetric designs); the part outside the domain is cut off.
+    /// Overrides the design's `[pictures] zoom`.
     #[arg(long, value_name = "X0,X1,Y0,Y1", allow_hyphen_values = true,
           value_parser = parse_zoom)]
     pub zoom: Option<[f64; 4]>,
 }
 
 impl PictureArgs {
-    /// The renderer's options for these arguments.
-    pub fn render_options(&self) -> crate::render::RenderOptions {
+    /// The renderer's options for these arguments and the design `src`: `--zoom`, else the
+    /// design's `[pictures] zoom`.
+    pub fn render_options(
+        &self,
+        src: &crate::design_file::DesignSource,
+    ) -> crate::render::RenderOptions {
         crate::render::RenderOptions {
             width: self.picture_width,
-            zoom: self.zoom,
+            zoom: self.zoom.or(src.zoom),
         }
     }
 }

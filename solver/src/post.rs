@@ -556,7 +556,7 @@ pub fn force_on_path(field: &FieldEval, design: &Design, k: usize) -> PathForce 
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::design::{Conductor, Drive, Side};
+    use crate::design::{Conductor, Drive};
 
     fn with(shape: Shape) -> Design {
         Design {
@@ -568,32 +568,6 @@ mod tests {
             }],
             ..Design::default()
         }
-    }
-
-    #[test]
-    fn a_corner_on_a_mirror_plane_is_sharp_only_where_the_unfolded_part_has_one() {
-        // Domain [0, 1] x [0, 1] with the top a mirror plane: a stem cut square by it and a
-        // wedge meeting it at 45 degrees (unfolded, a 90 degree corner).
-        let on_top = |outer: Vec<Point>, top: Side| {
-            let mut d = with(Shape::Polygon {
-                outer,
-                holes: vec![],
-                round: 0.0,
-                corners: None,
-            });
-            d.domain.x = [0.0, 1.0];
-            d.domain.y = [0.0, 1.0];
-            d.sides.top = top;
-            sharp_corners(&d)
-        };
-        let stem = vec![[0.4, 0.5], [0.6, 0.5], [0.6, 1.0], [0.4, 1.0]];
-        assert_eq!(
-            on_top(stem.clone(), Side::Symmetry),
-            vec![[0.4, 0.5], [0.6, 0.5]]
-        );
-        assert_eq!(on_top(stem, Side::Ground).len(), 4);
-        let wedge = vec![[0.4, 0.5], [0.9, 1.0], [0.4, 1.0]];
-        assert_eq!(on_top(wedge, Side::Symmetry), vec![[0.4, 0.5], [0.9, 1.0]]);
     }
 
     #[test]

@@ -484,8 +484,7 @@ pub fn estimate_errors(
             .filter(|s| (s.x - h.x).hypot(s.y - h.y) <= 2.0 * cg.spacing_at(at))
             .map(|s| s.curvature)
             .fold(0.0f64, f64::max);
-        let order = if read_order && !h.singular && RESOLVED_RADIUS_CELLS * coarsest * kappa > 1.0
-        {
+        let order = if read_order && !h.singular && RESOLVED_RADIUS_CELLS * coarsest * kappa > 1.0 {
             2.0
         } else {
             model.order

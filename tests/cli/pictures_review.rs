@@ -182,6 +182,30 @@ fn zoom_window_draws_only_the_window_with_axes_in_design_units() {
 }
 
 #[test]
+fn the_design_files_zoom_window_draws_as_the_option_does_and_the_option_overrides_it() {
+    let keyed = format!("{ROD}[pictures]\nzoom = [2, 6, 3, 7]\n");
+    let from_key = solve("zoom-key", &keyed, &[]);
+    let from_option = solve("zoom-option", ROD, &["--zoom", "2,6,3,7"]);
+    let overridden = solve("zoom-override", &keyed, &["--zoom", "0,20,0,10"]);
+    let whole = solve("zoom-none", ROD, &[]);
+    for name in ["potential.png", "field.png", "margin.png"] {
+        let key = load(from_key.join(name));
+        assert!(
+            key == load(from_option.join(name)),
+            "{name}: key and option differ"
+        );
+        assert!(
+            load(overridden.join(name)) == load(whole.join(name)),
+            "{name}: not overridden"
+        );
+        assert!(
+            key != load(whole.join(name)),
+            "{name}: the key drew the whole domain"
+        );
+    }
+}
+
+#[test]
 fn probes_are_marked_and_floating_conductors_dashed() {
     let out = solve("probes", ROD, &[]);
     let f = frame(None);

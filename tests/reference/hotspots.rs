@@ -456,7 +456,9 @@ fn round_leaves_the_stems_corners_on_the_mirror_plane_square_and_not_singular() 
     let starts: Vec<[f64; 2]> = o.loops[0].iter().map(|p| p.start()).collect();
     for q in [[8.4e-3, 12e-3], [11.6e-3, 12e-3]] {
         assert!(
-            starts.iter().any(|p| (p[0] - q[0]).hypot(p[1] - q[1]) < 1e-12),
+            starts
+                .iter()
+                .any(|p| (p[0] - q[0]).hypot(p[1] - q[1]) < 1e-12),
             "{q:?} moved: {starts:?}"
         );
     }

@@ -80,7 +80,7 @@ pub fn run(args: &CheckArgs) -> Result<u8, Failure> {
             &src,
             &report,
             args.grid_lines.then_some(grid),
-            &args.pictures.render_options(),
+            &args.pictures.render_options(&src),
         )?;
         out.commit()?;
     }

@@ -242,10 +242,11 @@ pub fn write_line_results(
     write_results(out, &ls.solution, summary, &src.design, false)?;
     out.write("line.csv", &line_csv(&ls.line, &ls.errors))?;
     let (potential_png, field_png) =
-        crate::pictures::field_maps(src, &ls.solution, false, &pictures.render_options());
+        crate::pictures::field_maps(src, &ls.solution, false, &pictures.render_options(src));
     out.write_png("potential.png", &potential_png)?;
     out.write_png("field.png", &field_png)?;
-    if let Some(img) = crate::pictures::margin_map(src, &ls.solution, &pictures.render_options()) {
+    if let Some(img) = crate::pictures::margin_map(src, &ls.solution, &pictures.render_options(src))
+    {
         out.write_png("margin.png", &img)?;
     }
     Ok(())

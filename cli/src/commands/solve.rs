@@ -91,7 +91,7 @@ pub fn run_timed_with(
         field_table: args.field_table,
         vtk: args.vtk,
         log_field: args.log_field,
-        pictures: args.pictures.render_options(),
+        pictures: args.pictures.render_options(&src),
         threads: args.opts.threads,
         subcircuit: subcircuit_name(&args.design),
         source: args.design.display().to_string(),

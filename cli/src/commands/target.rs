@@ -258,8 +258,12 @@ pub fn run(args: &TargetArgs) -> Result<u8, Failure> {
     match &best.solved {
         Solved::Study(sol) => {
             super::solve::write_results(&out, sol, &best.summary, &best.src.design, false)?;
-            let (potential, field) =
-                crate::pictures::field_maps(&best.src, sol, false, &args.pictures.render_options());
+            let (potential, field) = crate::pictures::field_maps(
+                &best.src,
+                sol,
+                false,
+                &args.pictures.render_options(&best.src),
+            );
             out.write_png("potential.png", &potential)?;
             out.write_png("field.png", &field)?;
         }

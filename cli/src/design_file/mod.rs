@@ -14,13 +14,15 @@
 //! This file holds the entry point and its result; `values` reads one checked value
 //! (numbers, lengths, points, tables), `sections` the top-level sections, `items` the items
 //! (conductors, dielectrics, charges, probes, the background), `shapes` an item's shape (SVG
-//! outlines included), `side_corners` which corners `round` rounds when none are chosen,
+//! outlines included), `side_corners` which corners `round` rounds when none are chosen, `pictures` the
+//! `[pictures]` table,
 //! `locate` places the library's validation errors at their keys, `spans` keeps the parsed
 //! tree with positions, `unit` the file's length unit.
 
 pub mod expr;
 mod items;
 mod locate;
+mod pictures;
 mod sections;
 mod shapes;
 mod side_corners;
@@ -57,6 +59,9 @@ pub struct DesignSource {
     pub tolerances: Vec<(String, f64)>,
     /// `[grid] accuracy`: the relative error every reported quantity is refined to.
     pub accuracy: Option<f64>,
+    /// `[pictures] zoom`: the window the pictures show, [x0, x1, y0, y1] in the file's unit
+    /// (`--zoom` overrides it).
+    pub zoom: Option<[f64; 4]>,
     /// The file name as given.
     pub file: String,
     text: String,
@@ -141,6 +146,7 @@ pub fn read_design(
     let tolerances = r.tolerances(&tree)?;
     let parameter_units = r.parameter_units(&tree, unit)?;
     let accuracy = r.accuracy(&tree)?;
+    let zoom = r.picture_zoom(&tree, &design.domain)?;
     let parameters = std::mem::take(&mut r.params);
     if let Err(e) = design::validate(&design) {
         return Err(design_error(text, file, &tree, &e, unit));
@@ -153,6 +159,7 @@ pub fn read_design(
         parameter_units,
         tolerances,
         accuracy,
+        zoom,
         file: file.to_string(),
         text: text.to_string(),
         tree,

@@ -27,6 +27,7 @@ pub(super) const TOP_KEYS: &[&str] = &[
     "parameters",
     "tolerances",
     "parameter_units",
+    "pictures",
     "conductor",
     "dielectric",
     "charge",

@@ -87,10 +87,13 @@ impl Reader<'_> {
         for extra in ["holes", "round", "round_corners"] {
             if let Some(x) = get(t, extra) {
                 if e.key != "polygon" {
-                    let hint = if extra == "round" && e.key == "rect" {
-                        ": for a rect write it inside, rect = { x = ..., y = ..., round = r }"
+                    let hint = if extra != "holes" && e.key == "rect" {
+                        format!(
+                            ": for a rect write it inside, rect = {{ x = ..., y = ..., {extra} \
+                             = ... }}"
+                        )
                     } else {
-                        ""
+                        String::new()
                     };
                     return Err(self.err(
                         &x.key_span,

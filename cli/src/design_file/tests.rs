@@ -559,3 +559,25 @@ fn a_rect_round_corners_out_of_range_or_without_round_names_file_line_and_key() 
     let e = read(&mirror_rect("round_corners = [1]")).unwrap_err();
     assert!(e.to_string().contains("give `round` too"), "{e}");
 }
+
+#[test]
+fn the_pictures_zoom_key_is_read_in_the_files_unit_and_validated_at_its_key() {
+    let with = |zoom: &str| {
+        let text =
+            mirror_design("").replace("[sides]", &format!("[pictures]\nzoom = {zoom}\n[sides]"));
+        read(&text)
+    };
+    let src = with("[1, 4, \"2 + 1\", 7]").unwrap();
+    assert_eq!(src.zoom, Some([1.0, 4.0, 3.0, 7.0]));
+    assert_eq!(read(&mirror_design("")).unwrap().zoom, None);
+    for (bad, says) in [
+        ("[4, 1, 3, 7]", "x0 < x1"),
+        ("[1, 4, 3]", "expected four"),
+        ("[20, 30, 3, 7]", "outside the domain (x 0 to 10"),
+        ("5", "window"),
+    ] {
+        let e = with(bad).unwrap_err();
+        assert_eq!((e.line, e.key.as_str()), (7, "pictures.zoom"), "{bad}: {e}");
+        assert!(e.to_string().contains(says), "{bad}: {e}");
+    }
+}

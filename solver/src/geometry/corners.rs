@@ -211,6 +211,41 @@ pub fn outline_polylines(shape: &Shape, tol: f64) -> Vec<Vec<Point>> {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::design::{Conductor, Drive};
+
+    #[test]
+    fn a_corner_on_a_mirror_plane_is_sharp_only_where_the_unfolded_part_has_one() {
+        // Domain [0, 1] x [0, 1] with the top a mirror plane: a stem cut square by it and a
+        // wedge meeting it at 45 degrees (unfolded, a 90 degree corner).
+        let on_top = |outer: Vec<Point>, top: Side| {
+            let mut d = Design {
+                conductors: vec![Conductor {
+                    name: "c".into(),
+                    drive: Drive::Fixed(1.0),
+                    joined: Vec::new(),
+                    shape: Shape::Polygon {
+                        outer,
+                        holes: vec![],
+                        round: 0.0,
+                        corners: None,
+                    },
+                }],
+                ..Design::default()
+            };
+            d.domain.x = [0.0, 1.0];
+            d.domain.y = [0.0, 1.0];
+            d.sides.top = top;
+            crate::post::sharp_corners(&d)
+        };
+        let stem = vec![[0.4, 0.5], [0.6, 0.5], [0.6, 1.0], [0.4, 1.0]];
+        assert_eq!(
+            on_top(stem.clone(), Side::Symmetry),
+            vec![[0.4, 0.5], [0.6, 0.5]]
+        );
+        assert_eq!(on_top(stem, Side::Ground).len(), 4);
+        let wedge = vec![[0.4, 0.5], [0.9, 1.0], [0.4, 1.0]];
+        assert_eq!(on_top(wedge, Side::Symmetry), vec![[0.4, 0.5], [0.9, 1.0]]);
+    }
 
     #[test]
     fn rect_and_polygon_corners() {

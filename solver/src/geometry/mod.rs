@@ -26,8 +26,8 @@ pub mod outline;
 mod piece;
 mod validate;
 
-pub(crate) use corners::{unfolds_flat, unrounded_vertices};
 pub use corners::{corners_off_sides, on_side, outline_polylines, sharp_corners};
+pub(crate) use corners::{unfolds_flat, unrounded_vertices};
 pub(crate) use intersect::meet;
 pub use outline::{outline, BBox, Outline, Piece, ShapeError};
 pub use validate::validate_design;

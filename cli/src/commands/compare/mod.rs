@@ -274,7 +274,7 @@ pub fn run(args: &CompareArgs) -> Result<u8, Failure> {
                 Some(change_picture(
                     (sb, base_src),
                     (sn, src),
-                    &args.pictures.render_options(),
+                    &args.pictures.render_options(src),
                 ))
             } else {
                 remarks.push(
