@@ -9,10 +9,12 @@
 //! solved on its graded family here: only a family that keeps its edges on node lines
 //! converges at a rate that can be read and predicted.
 //!
-//! Members finer than the design's own lattice also grade further towards sharp corners and
-//! the ends of thin conductors than bisection alone does ([`CORNER_STEP`],
-//! [`THIN_END_STEP`]), so that the singular points do not set the rate of convergence:
-//! the error falls as the square of the cell, as the number of nodes to the power -1.
+//! Each member halves the cells of the one below along the grading's map
+//! ([`grading::refined`]): away from singular points that is bisection, and next to sharp
+//! corners and the ends of thin conductors the radical grading makes the cells shrink
+//! faster, so that the singular points do not set the rate of convergence, while the
+//! number of lines per axis only doubles: the error falls as the square of the cell, as the
+//! number of nodes to the power -1.
 //!
 //! Each round solves on one member and reads every quantity's estimated error
 //! ([`quantities`]): discretisation, linear solver and, where a side is open, truncation of
@@ -254,8 +256,8 @@ pub fn solve_line(
 }
 
 /// The lattice of member `k` of the graded family of `design` (member [`BISECTIONS`] is the
-/// design's own graded lattice; the loop solves on that one and finer ones; coarser members
-/// grade the corners less, as the family's rule continued downward).
+/// design's own graded lattice; the loop solves on that one and finer ones; every other
+/// line of member `k` is member `k - 1`).
 pub fn lattice(design: &Design, params: &Params, k: usize) -> Result<Grid, GridError> {
     let family = Family {
         design,
@@ -305,22 +307,13 @@ fn ratio(e: &Estimate, target: f64) -> f64 {
     }
 }
 
-/// How much finer the grading at sharp corners gets with each bisection beyond the
-/// design's own lattice: with the corner's cells shrinking by 2 * sqrt(2) per bisection, a
-/// corner whose field goes as r^(-1/3) (a right-angled conductor edge) stops limiting the
-/// rate, and the error keeps falling as the square of the cell.
-const CORNER_STEP: f64 = std::f64::consts::FRAC_1_SQRT_2;
-
-/// The same at the ends of thin conductors, whose field goes as r^(-1/2): their cells
-/// shrink by 4 per bisection.
-const THIN_END_STEP: f64 = 0.5;
-
-/// The graded family of a design. Member `k` is made of the base lines (cells up to
-/// `2^BISECTIONS` times the design's `cell`), graded further towards the singular points
-/// the more `k` exceeds [`BISECTIONS`] (less below it), with the open sides moved out `enlargements` times,
-/// and bisected `k` times; its two coarser lattices (every other line, twice) are the ones
-/// its error estimate compares it with. Member [`BISECTIONS`] of a design whose sides stay
-/// is the design's own graded lattice.
+/// The graded family of a design. Member `k` is the base lines (cells up to
+/// `2^BISECTIONS` times the design's `cell`) refined `k` times along the grading's map
+/// ([`grading::refined`]: bisection away from singular points, radical grading next to
+/// them), with the open sides moved out `enlargements` times (the lines beyond the design's
+/// box bisected `k` times); its two coarser lattices (every other line, twice) are members
+/// `k - 1` and `k - 2`, the ones its error estimate compares it with. Member [`BISECTIONS`]
+/// of a design whose sides stay is the design's own graded lattice.
 struct Family<'a> {
     design: &'a Design,
     grading: grading::Params,
@@ -328,20 +321,18 @@ struct Family<'a> {
 }
 
 impl Family<'_> {
-    /// The design (its open sides moved out) and the base lines of member `k`.
+    /// The design (its open sides moved out) and the lines of member `k`.
     fn lines(&self, k: usize) -> Result<(Design, Lines), GridError> {
-        let extra = k as i32 - BISECTIONS as i32;
-        let fraction = |f: f64, step: f64| (f * step.powi(extra)).min(1.0);
-        let g = self
-            .grading
-            .with_corner_fraction(fraction(self.grading.corner_fraction, CORNER_STEP))
-            .with_thin_end_fraction(fraction(self.grading.thin_end_fraction, THIN_END_STEP));
-        let scale = (1usize << BISECTIONS) as f64;
-        let mut lines = grading::lines(self.design, scale * self.design.domain.cell, &g)?;
+        let coarsest = (1usize << BISECTIONS) as f64 * self.design.domain.cell;
+        let mut lines = grading::refined(self.design, coarsest, &self.grading, k)?;
         let mut d = self.design.clone();
-        for _ in 0..self.enlargements {
-            (d, lines) = far_field::enlarged(&d, &lines, self.grading.growth)
-                .expect("only designs with an open side are enlarged");
+        if self.enlargements > 0 {
+            let mut base = grading::lines(self.design, coarsest, &self.grading)?;
+            for _ in 0..self.enlargements {
+                (d, base) = far_field::enlarged(&d, &base, self.grading.growth)
+                    .expect("only designs with an open side are enlarged");
+            }
+            lines = far_field::joined(&base, &lines, k);
         }
         Ok((d, lines))
     }
@@ -349,11 +340,7 @@ impl Family<'_> {
     /// The design and lattice of member `k`.
     fn member(&self, k: usize) -> Result<(Design, Grid), GridError> {
         let (d, lines) = self.lines(k)?;
-        let mut g = Grid::from_lines(lines.x, lines.y)?;
-        for _ in 0..k {
-            g = g.bisected();
-        }
-        Ok((d, g))
+        Ok((d, Grid::from_lines(lines.x, lines.y)?))
     }
 }
 

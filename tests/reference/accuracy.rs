@@ -134,10 +134,11 @@ fn microstrip_impedance_at_accuracy_1e_3_is_within_0_1_percent_of_the_fem_values
 #[test]
 fn sensor_pad_error_falls_at_least_as_one_over_the_node_count() {
     // Members 1, 2 and 3 of the graded family the accuracy loop refines (member 2 is the
-    // design's own graded lattice at a 0.4 mm coarsest cell; each member is the one below
-    // bisected, with the corners graded further), solved to a tight tolerance: the worst
-    // entry's error against the finite-element values falls as the square of the cell
-    // (at least 3.5 times per bisection), copper corners included.
+    // design's own graded lattice at a 0.4 mm coarsest cell; each member halves the cells of
+    // the one below along the grading's map, radically towards the copper corners), solved
+    // to a tight tolerance: the worst entry's error against the finite-element values falls
+    // as the square of the cell (at least 3.5 times per member), copper corners included,
+    // while the nodes grow four times.
     let fem = fem();
     let text = demo_text("sensor_pad.toml").replacen("cell = 0.02", "cell = 0.4", 1);
     let d = design(&text);
@@ -179,8 +180,14 @@ fn sensor_pad_error_falls_at_least_as_one_over_the_node_count() {
             "the error fell only {fall:.2} times in one bisection"
         );
     }
-    // The corner lines of a tensor-product lattice cross the whole domain, so the nodes
-    // grow a little faster than four times per bisection (measured 4.4 to 4.6): the slope
-    // against N is about -0.9 on these members.
-    assert!(slope <= -0.85, "error falls as N^{slope:.2}");
+    // Measured: 97 155, 387 045 and 1 545 033 nodes (3.98x, 3.99x), the worst entry
+    // 1.95e-3, 4.95e-4, 1.25e-4 (3.94x, 3.96x): slope -0.99. The grading exponent 2/3 is
+    // the singularity exponent of a right-angled conductor corner in one medium; where the
+    // copper's corner meets the board (FR-4, 4.4) below and air beside it, the exponent is
+    // about 0.56 (two dielectric wedges, cos^2(lambda pi / 2) = eps_board / (2 (eps_air +
+    // eps_board)), worked out by separation of variables), so a grading exponent of 1/2
+    // gives slope -1.02 (measured) but cells of 13 nm at member 2, which the default
+    // relative residual of 1e-8 leaves unresolved (the matrix 2e-3 asymmetric): the slope
+    // is held at -0.98 rather than pushed to -1 with a grid the solver cannot carry.
+    assert!(slope <= -0.98, "error falls as N^{slope:.2}");
 }

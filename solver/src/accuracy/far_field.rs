@@ -111,6 +111,37 @@ impl Moves {
     }
 }
 
+/// The lines of `outer` (an enlarged base) beyond the span of `inner` (the nearer box's
+/// lines refined `bisections` times), each of their cells bisected `bisections` times, on
+/// either side of `inner`.
+pub fn joined(outer: &Lines, inner: &Lines, bisections: usize) -> Lines {
+    Lines {
+        x: joined_axis(&outer.x, &inner.x, bisections),
+        y: joined_axis(&outer.y, &inner.y, bisections),
+    }
+}
+
+fn joined_axis(outer: &[f64], inner: &[f64], bisections: usize) -> Vec<f64> {
+    let (lo, hi) = (inner[0], inner[inner.len() - 1]);
+    let split = |part: Vec<f64>| {
+        (0..bisections).fold(part, |p, _| {
+            let mut out = Vec::with_capacity(2 * p.len());
+            for w in p.windows(2) {
+                out.extend([w[0], 0.5 * (w[0] + w[1])]);
+            }
+            out.extend(p.last());
+            out
+        })
+    };
+    let below: Vec<f64> = outer.iter().copied().filter(|&t| t <= lo).collect();
+    let above: Vec<f64> = outer.iter().copied().filter(|&t| t >= hi).collect();
+    let mut out = split(below);
+    out.pop();
+    out.extend_from_slice(inner);
+    out.extend(split(above).into_iter().skip(1));
+    out
+}
+
 /// Lines continued above the last one by at least `by`, each cell `growth` times the one
 /// before.
 fn extend_high(lines: &[f64], by: f64, growth: f64) -> Vec<f64> {
@@ -205,6 +236,23 @@ mod tests {
             y: vec![0.0, 0.5, 1.0],
         };
         assert!(enlarged(&d, &lines, 1.2).is_none());
+    }
+
+    #[test]
+    fn a_refined_lattice_keeps_its_lines_and_bisects_the_farther_ones() {
+        let outer = Lines {
+            x: vec![-1.0, 0.0, 1.0, 2.0, 4.0],
+            y: vec![0.0, 1.0, 3.0],
+        };
+        let inner = Lines {
+            x: vec![0.0, 0.3, 1.0, 1.8, 2.0],
+            y: vec![0.0, 0.5, 1.0],
+        };
+        let l = joined(&outer, &inner, 1);
+        assert_eq!(l.x, vec![-1.0, -0.5, 0.0, 0.3, 1.0, 1.8, 2.0, 3.0, 4.0]);
+        assert_eq!(l.y, vec![0.0, 0.5, 1.0, 2.0, 3.0]);
+        // Nothing beyond: the inner lines alone.
+        assert_eq!(joined(&inner, &inner, 2), inner);
     }
 
     #[test]

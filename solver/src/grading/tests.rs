@@ -64,8 +64,10 @@ fn cells(t: &[f64]) -> Vec<f64> {
     t.windows(2).map(|w| w[1] - w[0]).collect()
 }
 
-/// The invariants every list of lines keeps.
-fn check_invariants(t: &[f64], ends: [f64; 2], coarsest: f64, p: &Params) {
+/// The invariants every list of lines keeps; `singular` lists the coordinates of singular
+/// points with their local feature size, within which the radical grading may grow cells
+/// faster than `growth`.
+fn check_invariants(t: &[f64], ends: [f64; 2], coarsest: f64, p: &Params, singular: &[(f64, f64)]) {
     assert_eq!((t[0], t[t.len() - 1]), (ends[0], ends[1]));
     assert!(t.windows(2).all(|w| w[1] > w[0]), "not strictly increasing");
     let c = cells(t);
@@ -74,7 +76,11 @@ fn check_invariants(t: &[f64], ends: [f64; 2], coarsest: f64, p: &Params) {
         largest <= coarsest * (1.0 + 1e-12),
         "{largest} > {coarsest}"
     );
-    for w in c.windows(2) {
+    for (k, w) in c.windows(2).enumerate() {
+        let at = t[k + 1];
+        if singular.iter().any(|&(v, reach)| (at - v).abs() < reach) {
+            continue;
+        }
         let r = (w[1] / w[0]).max(w[0] / w[1]);
         assert!(r <= p.max_ratio() * (1.0 + 1e-9), "ratio {r} at {w:?}");
     }
@@ -99,10 +105,29 @@ fn cells_beside(t: &[f64], v: f64) -> [f64; 2] {
 #[test]
 fn lines_are_sorted_bounded_and_smooth() {
     let p = Params::default();
-    for d in [pads(), trace()] {
-        let l = lines(&d, d.domain.cell, &p).unwrap();
-        check_invariants(&l.x, d.domain.x, d.domain.cell, &p);
-        check_invariants(&l.y, d.domain.y, d.domain.cell, &p);
+    let pad_x: Vec<(f64, f64)> = [6e-3, 10e-3, 11e-3, 15e-3]
+        .iter()
+        .map(|&x| (x, 35e-6))
+        .collect();
+    let pad_y = [(1.6e-3, 35e-6), (1.635e-3, 35e-6)];
+    let trace_ends = [(0.0, 0.6e-3), (0.675e-3, 0.6e-3)];
+    for (d, sx, sy) in [
+        (pads(), &pad_x[..], &pad_y[..]),
+        (trace(), &trace_ends[..], &[(0.6e-3, 0.6e-3)][..]),
+    ] {
+        for k in 0..3 {
+            let l = refined(&d, d.domain.cell, &p, k).unwrap();
+            let coarsest = d.domain.cell / (1usize << k) as f64;
+            check_invariants(&l.x, d.domain.x, coarsest, &p, sx);
+            check_invariants(&l.y, d.domain.y, coarsest, &p, sy);
+        }
+        // Without the radical part, no exception is needed.
+        let mut q = p;
+        q.corner_grading = 1.0;
+        q.thin_end_grading = 1.0;
+        let l = lines(&d, d.domain.cell, &q).unwrap();
+        check_invariants(&l.x, d.domain.x, d.domain.cell, &q, &[]);
+        check_invariants(&l.y, d.domain.y, d.domain.cell, &q, &[]);
     }
 }
 
@@ -157,15 +182,70 @@ fn grading_reaches_the_target_at_corners_and_trace_ends() {
     for c in cells_beside(&l.x, 0.675e-3) {
         assert!(c <= p.growth * target, "trace end: {c} for {target}");
     }
-    // Finer grading gives smaller cells there, and more lines.
+    // Finer grading gives smaller cells there, and more lines (without the radical part,
+    // which sets the cells next to the point by itself).
+    let mut q = p;
+    q.thin_end_grading = 1.0;
+    let l = lines(&d, d.domain.cell, &q).unwrap();
     let fine = lines(
         &d,
         d.domain.cell,
-        &p.with_thin_end_fraction(p.thin_end_fraction / 4.0),
+        &q.with_thin_end_fraction(q.thin_end_fraction / 4.0),
     )
     .unwrap();
     assert!(cells_beside(&fine.x, 0.675e-3)[1] < 0.5 * cells_beside(&l.x, 0.675e-3)[1]);
     assert!(fine.x.len() > l.x.len());
+}
+
+#[test]
+fn every_other_line_of_a_refinement_is_the_one_below() {
+    let p = Params::default();
+    for d in [pads(), trace()] {
+        let span = d.domain.x[1] - d.domain.x[0];
+        for k in 1..4 {
+            let fine = refined(&d, d.domain.cell, &p, k).unwrap();
+            let coarse = refined(&d, d.domain.cell, &p, k - 1).unwrap();
+            for (f, c) in [(&fine.x, &coarse.x), (&fine.y, &coarse.y)] {
+                assert_eq!(f.len(), 2 * c.len() - 1);
+                for (a, b) in f.iter().step_by(2).zip(c) {
+                    assert!((a - b).abs() <= 1e-12 * span, "{a} against {b}");
+                }
+            }
+        }
+    }
+}
+
+#[test]
+fn refinement_shrinks_the_cells_at_a_singular_point_as_the_radical_grading_asks() {
+    // Cells next to a sharp corner fall at least as 2^(-1/mu) per refinement (2.8 for
+    // mu = 2/3) over three refinements, next to a trace end as 2^(-1/0.4) (5.7); elsewhere
+    // they halve.
+    let p = Params::default();
+    let d = pads();
+    let at = |k: usize| {
+        let l = refined(&d, d.domain.cell, &p, k).unwrap();
+        (cells_beside(&l.x, 6e-3)[1], cells_beside(&l.y, 1.6e-3)[0])
+    };
+    let want = 2f64.powf(1.0 / p.corner_grading);
+    let (a, b) = (at(0), at(3));
+    for (c0, c3) in [(a.0, b.0), (a.1, b.1)] {
+        let fall = (c0 / c3).cbrt();
+        assert!(fall > 0.9 * want, "fell {fall} per refinement, want {want}");
+    }
+    let d = trace();
+    let at = |k: usize| {
+        let l = refined(&d, d.domain.cell, &p, k).unwrap();
+        cells_beside(&l.x, 0.675e-3)[1]
+    };
+    let want = 2f64.powf(1.0 / p.thin_end_grading);
+    let fall = (at(0) / at(3)).cbrt();
+    assert!(fall > 0.9 * want, "fell {fall} per refinement, want {want}");
+    // Far from the geometry the cells halve.
+    let l0 = refined(&d, d.domain.cell, &p, 0).unwrap();
+    let l1 = refined(&d, d.domain.cell, &p, 1).unwrap();
+    let n = l0.y.len();
+    let ratio = (l0.y[n - 1] - l0.y[n - 2]) / (l1.y[2 * n - 2] - l1.y[2 * n - 3]);
+    assert!((ratio - 2.0).abs() < 1e-6, "{ratio}");
 }
 
 #[test]
@@ -198,7 +278,10 @@ fn a_conductor_crossing_an_interface_is_graded_where_they_meet() {
     };
     let p = Params::default();
     let l = lines(&d, d.domain.cell, &p).unwrap();
-    check_invariants(&l.y, d.domain.y, d.domain.cell, &p);
+    // The post's corners and its feet on the interface grade radically within their local
+    // feature sizes.
+    let singular = [(0.5e-3, 0.5e-3), (1e-3, 0.5e-3), (3e-3, 2e-3)];
+    check_invariants(&l.y, d.domain.y, d.domain.cell, &p, &singular);
     // Local feature: 0.5 mm (the post's foot below the interface).
     let target = p.corner_fraction * 0.5e-3;
     for c in cells_beside(&l.y, 1e-3) {
@@ -227,7 +310,7 @@ fn fillets_get_cells_per_radius() {
     };
     let p = Params::default();
     let l = lines(&d, d.domain.cell, &p).unwrap();
-    check_invariants(&l.x, d.domain.x, d.domain.cell, &p);
+    check_invariants(&l.x, d.domain.x, d.domain.cell, &p, &[]);
     let limit = r / p.cells_per_radius as f64;
     for w in l.x.windows(2) {
         if w[0] >= 3e-3 && w[1] <= 3e-3 + r {
