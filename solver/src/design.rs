@@ -81,14 +81,13 @@ pub struct Domain {
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Default)]
 #[non_exhaustive]
 pub enum Lattice {
-    /// Equal cells, as close to the domain's `cell` as a whole number of cells allows (the
-    /// default of a design built in code).
-    #[default]
+    /// Equal cells, as close to the domain's `cell` as a whole number of cells allows.
     Uniform,
     /// Node lines on the geometry, graded towards its singular points
     /// ([`crate::grading`]); the domain's `cell` is the coarsest spacing. The lattice is a
     /// twice-bisected base grid, so the error estimate's coarser lattices (every other
-    /// line) hold the same geometry lines.
+    /// line) hold the same geometry lines. The default.
+    #[default]
     Graded,
 }
 

@@ -94,6 +94,10 @@ pub fn plan(design: &Design, method: Method, error_estimate: bool) -> Result<Pla
     let d = &design.domain;
     let grid = match design.lattice {
         Lattice::Uniform => Grid::fit(d.x, d.y, d.cell)?,
+        // The design's own cell is named, not the graded base grid's multiple of it.
+        Lattice::Graded if !(d.cell.is_finite() && d.cell > 0.0) => {
+            return Err(GridError::Cell(d.cell))
+        }
         Lattice::Graded => crate::grading::grid(design, &crate::grading::Params::default())?,
     };
     Ok(on_grid(grid, method, error_estimate))
@@ -127,7 +131,9 @@ mod tests {
 
     #[test]
     fn the_default_study_keeps_128_bytes_per_node() {
-        let p = plan(&design(1e-3), Method::Multigrid, true).unwrap();
+        let mut d = design(1e-3);
+        d.lattice = Lattice::Uniform;
+        let p = plan(&d, Method::Multigrid, true).unwrap();
         assert_eq!(p.bytes_per_node(), 128.0);
         assert_eq!((p.grid().nx, p.grid().ny), (1001, 1001));
         let want = BASE_MIB + 1001.0 * 1001.0 * 128.0 / 1048576.0;
@@ -154,6 +160,12 @@ mod tests {
     fn a_bad_cell_is_a_grid_error() {
         assert_eq!(
             plan(&design(-1.0), Method::Multigrid, true),
+            Err(GridError::Cell(-1.0))
+        );
+        let mut d = design(-1.0);
+        d.lattice = Lattice::Uniform;
+        assert_eq!(
+            plan(&d, Method::Multigrid, true),
             Err(GridError::Cell(-1.0))
         );
     }

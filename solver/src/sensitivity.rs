@@ -35,7 +35,9 @@ pub const STEP_CELLS: f64 = 2.0;
 pub const REL_STEP: f64 = 0.01;
 
 /// The step of a parameter of value `value` whose bodies move `per_unit` metres per unit of
-/// the parameter (zero when it moves none), on a lattice of spacing `cell` metres.
+/// the parameter (zero when it moves none), on a uniform lattice of spacing `cell` metres
+/// (zero on a lattice whose node lines follow the bodies: the step is then [`REL_STEP`] of
+/// the value, as for a parameter that moves no body).
 pub fn step(value: f64, per_unit: f64, cell: f64) -> f64 {
     let h = if per_unit > 0.0 && per_unit.is_finite() && cell > 0.0 {
         STEP_CELLS * cell / per_unit

@@ -8,7 +8,7 @@ use fieldgrid_solver::surface::SurfaceKind;
 use fieldgrid_solver::warning::Warning;
 use fieldgrid_solver::EPS0;
 use fieldgrid_tests::designs::{axisymmetric_in_open_space, demo_text, UNIT_SPHERE};
-use fieldgrid_tests::{design, params, rel_err, solve};
+use fieldgrid_tests::{design, params, rel_err, solve, solve_member, uniform};
 use std::f64::consts::PI;
 
 fn concentric_spheres(cells_per_mm: f64) -> String {
@@ -436,9 +436,13 @@ fn concentric_spheres_converge_at_second_order() {
     // Potential between concentric spheres phi = (1/rho - 1/b)/(1/a - 1/b) (Griffiths 2017,
     // sec. 2.5.4). The cut-cell scheme is second order in r-z as in the plane: the rms error
     // over the gap falls by about 4 per halving of the cell.
+    // Uniform by name: the subject is the order of the cut-cell scheme as equal cells halve.
+    // (On the default graded lattice's family, members 1, 2 and 3 at cell 0.05 mm, the rms
+    // errors fall at order 1.9 and 2.1, but member 1's capacitance is 5.6e-4 off, above
+    // the 1e-4 the uniform cells of 0.1 mm reach.)
     let sols: Vec<Solution> = [0.1, 0.05, 0.025]
         .iter()
-        .map(|&h| solve(&design(&shell_in_open_space(h))))
+        .map(|&h| solve(&design(&uniform(&shell_in_open_space(h)))))
         .collect();
     let errs: Vec<f64> = sols.iter().map(|s| rms_gap_error(s, 1.0, 2.0)).collect();
     eprintln!("concentric spheres: rms potential errors at cells 0.1/0.05/0.025 mm {errs:?}");
@@ -488,24 +492,22 @@ fn error_estimate_is_honest_on_the_sphere_and_the_disc() {
         ),
     ];
     for (k, (want, name)) in spheres.into_iter().enumerate() {
-        for h in [0.1, 0.05, 0.025] {
-            let text = if k == 0 {
-                axisymmetric_in_open_space(4.0, h, UNIT_SPHERE)
-            } else {
-                shell_in_open_space(h)
-            };
-            let s = study::run(&design(&text), &with_error_estimate()).unwrap();
+        // Members 1, 2 and 3 of the default (graded) lattice's family at cell 0.1 mm.
+        let text = if k == 0 {
+            axisymmetric_in_open_space(4.0, 0.1, UNIT_SPHERE)
+        } else {
+            shell_in_open_space(0.1)
+        };
+        for h in [1, 2, 3] {
+            let s = solve_member(&design(&text), h, true);
             let actual = rel_err(s.capacitance.matrix[0][0], want);
             let estimate = s.capacitance.error_estimate.as_ref().unwrap()[0][0] / want;
-            eprintln!("{name}, cell {h} mm: error {actual:e}, estimate {estimate:e} (relative)");
+            eprintln!("{name}, member {h}: error {actual:e}, estimate {estimate:e} (relative)");
             assert!(
                 actual < (3.0 * estimate).max(floor),
-                "{name}, cell {h} mm: error {actual:e}, estimate {estimate:e}"
+                "{name}, member {h}: error {actual:e}, estimate {estimate:e}"
             );
-            assert!(
-                estimate < 1e-3,
-                "{name}, cell {h} mm: estimate {estimate:e}"
-            );
+            assert!(estimate < 1e-3, "{name}, member {h}: estimate {estimate:e}");
             assert!(s.warnings.is_empty(), "{:?}", s.warnings);
         }
     }
@@ -519,9 +521,12 @@ name = "disc"
 potential = 1.0
 polyline = [[0.0, 0.0], [1.0, 0.0]]
 "#;
+    // Uniform by name: the subject is the first-order estimate where the edge's cells are
+    // those of the rest of the lattice. (The default graded lattice grades the edge to 1/128
+    // of its feature size: at cell 0.05 mm the error is 7.8e-4, the estimate 0.87 of it.)
     for (h, warns) in [(0.05, true), (0.025, false)] {
         let s = study::run(
-            &design(&axisymmetric_in_open_space(3.0, h, disc)),
+            &design(&uniform(&axisymmetric_in_open_space(3.0, h, disc))),
             &with_error_estimate(),
         )
         .unwrap();
@@ -581,8 +586,13 @@ fn axis_is_regular_finite_field_zero_radial_field_and_no_loss_of_order() {
     // The unit sphere in open space (phi = R/rho outside, E = R/rho^2; Griffiths 2017,
     // sec. 2.5.4) and the point charge in a grounded sphere (see above): no NaN anywhere, a
     // finite field at every free node, Er exactly 0 on the axis.
-    let coarse = solve(&design(&axisymmetric_in_open_space(4.0, 0.1, UNIT_SPHERE)));
-    let fine = solve(&design(&axisymmetric_in_open_space(4.0, 0.05, UNIT_SPHERE)));
+    // The subject is the operator's treatment of the axis against the same equal cells off
+    // it, so the lattice is uniform by name. (On the default graded lattice, members 1 and 2
+    // at cell 0.05 mm, the orders are 2.1 and 2.0 and the axis error is 1.002 and 1.0005
+    // times the error off it: the cells next to the axis are not those off it there.)
+    let sphere = |h: f64| design(&uniform(&axisymmetric_in_open_space(4.0, h, UNIT_SPHERE)));
+    let coarse = solve(&sphere(0.1));
+    let fine = solve(&sphere(0.05));
     let point = solve(&design(POINT_CHARGE_IN_SPHERE));
     for s in [&coarse, &fine, &point] {
         let g = &s.grid;
@@ -740,8 +750,12 @@ fn sphere_surface_field_is_second_order_at_the_surface() {
     let (a, b) = (1e-3, 2e-3);
     let want = b / (a * (b - a));
     let mut peaks = Vec::new();
+    // Uniform by name: the subject is the surface fit's order as equal cells halve. (On the
+    // default graded lattice's family, members 1, 2 and 3 at 10 cells across a, 16 to 64
+    // cells per radius along the spheres, the peak error falls 1.7e-3, 4.1e-4, 3.1e-4: order
+    // 2.0, then 0.4.)
     for n in [10.0, 20.0, 40.0] {
-        let s = solve(&design(&spheres_off_row(n)));
+        let s = solve(&design(&uniform(&spheres_off_row(n))));
         let mut peak = 0.0f64;
         let mut worst = 0.0f64;
         for p in s

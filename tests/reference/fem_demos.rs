@@ -1,8 +1,8 @@
 //! The two demos the finite-element reference covers (`tests/reference/fem_values.json`,
 //! computed by `tests/reference/fem_reference.py` with NGSolve 6.2.2608 and Netgen 6.2.2608:
 //! order 10 on meshes geometrically graded to every corner, converged below 1e-8; see the
-//! README there), at the settings a user gets: the error estimate of every reported quantity
-//! within a factor 3 of its true error, either way.
+//! README there), at the settings a user gets (the demo files as shipped, default options): the
+//! error estimate of every reported quantity within a factor 3 of its true error, either way.
 
 use fieldgrid_solver::line_study;
 use fieldgrid_solver::study::{self, StudyParams};
@@ -19,19 +19,9 @@ fn fem() -> Value {
     serde_json::from_str(&text).unwrap()
 }
 
-/// The demo design as shipped, on a graded lattice of coarsest cell `cell` (mm).
-fn demo(name: &str, cell: f64) -> String {
-    let text = std::fs::read_to_string(root().join("geometries").join(name)).unwrap();
-    let mut out = String::new();
-    for line in text.lines() {
-        if line.starts_with("cell = ") {
-            out.push_str(&format!("cell = {cell}\nlattice = \"graded\"\n"));
-        } else {
-            out.push_str(line);
-            out.push('\n');
-        }
-    }
-    out
+/// The demo design as shipped (the default graded lattice at the file's own cell).
+fn demo(name: &str) -> String {
+    std::fs::read_to_string(root().join("geometries").join(name)).unwrap()
 }
 
 /// Checks that the estimate lies within a factor 3 of the true error either way, and
@@ -55,11 +45,8 @@ fn within_3x(case: &str, got: f64, estimate: f64, want: f64) -> f64 {
 fn sensor_pad_entry_estimates_are_within_a_factor_3_of_the_finite_element_error() {
     let fem = fem();
     let reference = &fem["sensor_pad"];
-    let s = study::run(
-        &design(&demo("sensor_pad.toml", 0.4)),
-        &StudyParams::default(),
-    )
-    .expect("study runs");
+    let s =
+        study::run(&design(&demo("sensor_pad.toml")), &StudyParams::default()).expect("study runs");
     assert!(s.solve.converged);
     let c = &s.capacitance;
     let errors = c.error_estimate.as_ref().expect("error estimate");
@@ -92,7 +79,7 @@ fn microstrip_z0_and_eps_eff_estimates_are_within_a_factor_3_of_the_finite_eleme
     // rest converges on its own; its estimate reads its own order from three lattices.
     let fem = fem();
     let reference = &fem["microstrip"]["values"];
-    let d = design(&demo("microstrip.toml", 0.2));
+    let d = design(&demo("microstrip.toml"));
     let ls = line_study::run(&d, &["trace".to_string()], &StudyParams::default())
         .expect("line study runs");
     assert!(ls.solution.solve.converged && ls.vacuum.solve.converged);

@@ -298,6 +298,8 @@ pub fn design_target(data: &[u8]) -> String {
     };
     let mut coarse = d.clone();
     coarse.domain.cell = small.dx(0).max(small.dy(0)) * (1.0 + 1e-9);
+    // The cap bounds the uniform lattice's nodes; a graded one follows the geometry.
+    coarse.lattice = fieldgrid_solver::design::Lattice::Uniform;
     let params = StudyParams::default()
         .with_method(Method::Multigrid)
         .with_solver(Params::default().with_tol(1e-8).with_max_iter(400))

@@ -31,6 +31,29 @@ pub fn solve(d: &Design) -> Solution {
     solve_with(d, Method::default())
 }
 
+/// Solves on member `k` of the design's graded family with the default solver and tight
+/// tolerance, with or without the error estimate. Member
+/// [`fieldgrid_solver::grading::BISECTIONS`] is the design's own (default) lattice; each
+/// member is the one below bisected, so a convergence study on the default lattice steps `k`
+/// (halving every cell, those on curved surfaces included) where one on a uniform lattice
+/// halves `cell`. Corners and thin-conductor ends are graded further as `k` grows.
+pub fn solve_member(d: &Design, k: usize, error_estimate: bool) -> Solution {
+    let grid = fieldgrid_solver::accuracy::lattice(d, &Default::default(), k)
+        .expect("graded lattice fits");
+    let p = params(Method::default()).with_error_estimate(error_estimate);
+    let plan = fieldgrid_solver::plan::on_grid(grid, p.method, error_estimate);
+    let s = study::run_planned(d, &plan, &p).expect("study runs");
+    assert!(s.solve.converged, "did not converge: {:?}", s.solve);
+    s
+}
+
+/// The design text with its lattice set to uniform by name (for tests whose subject is the
+/// uniform lattice itself; the default lattice is graded).
+pub fn uniform(text: &str) -> String {
+    assert!(text.contains("[grid]\n"), "no [grid] table");
+    text.replacen("[grid]\n", "[grid]\nlattice = \"uniform\"\n", 1)
+}
+
 /// Solves with the given method and tight tolerance.
 pub fn solve_with(d: &Design, method: Method) -> Solution {
     let s = study::run(d, &params(method)).expect("study runs");

@@ -356,7 +356,7 @@ impl Reader<'_> {
         let ys = self.extent(&y.node, "grid.y")?;
         let c = self.size(&cell.node, "grid.cell", "the cell size", false)?;
         let lattice = match t.iter().find(|e| e.key == "lattice") {
-            None => Lattice::Uniform,
+            None => Lattice::default(),
             Some(e) => match self.string(&e.node, "grid.lattice")? {
                 "graded" => Lattice::Graded,
                 "uniform" => Lattice::Uniform,

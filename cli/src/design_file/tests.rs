@@ -226,7 +226,7 @@ fn defaults_are_metres_planar_grounded_vacuum() {
         }
     );
     assert!(src.parameters.is_empty());
-    assert_eq!(src.design.lattice, Lattice::Uniform);
+    assert_eq!(src.design.lattice, Lattice::Graded);
 }
 
 #[test]

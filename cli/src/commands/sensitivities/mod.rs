@@ -3,8 +3,8 @@
 //! of every quantity under the parameters' tolerances.
 //!
 //! Derivatives are central differences of paired solves at p +/- h, the step h from
-//! [`fieldgrid_solver::sensitivity::step`] (the bodies move two coarsest cells; a parameter
-//! that moves no body steps 1 % of its value); a second pair at p +/- 2h gives each its
+//! [`fieldgrid_solver::sensitivity::step`] (on a uniform lattice the bodies move two cells;
+//! on a graded one, and for a parameter that moves no body, the step is 1 % of the value); a second pair at p +/- 2h gives each its
 //! error estimate, which widens the spreads. Spreads are the linear worst case, the RSS
 //! and the dominant parameter ([`fieldgrid_solver::tolerance::spread`]); Monte Carlo solves
 //! seeded uniform samples ([`fieldgrid_solver::tolerance::samples`]).
@@ -358,7 +358,12 @@ pub fn steps(setup: &Setup, names: &[String], values: &[f64]) -> Result<Vec<f64>
         super::load_design(setup.design, &o)
     };
     let base = read(&at)?;
-    let cell = base.design.domain.cell;
+    // A graded lattice lays its node lines on the bodies' edges and moves them with the
+    // bodies, so no cell size bounds the step from below there (0: a relative step).
+    let cell = match base.design.lattice {
+        fieldgrid_solver::design::Lattice::Uniform => base.design.domain.cell,
+        _ => 0.0,
+    };
     let mut out = Vec::new();
     for (i, &v) in values.iter().enumerate() {
         let nudge = 1e-3 * if v != 0.0 { v.abs() } else { 1.0 };
