@@ -254,8 +254,14 @@ fn probes_are_marked_and_floating_conductors_dashed() {
 fn field_change_outlines_a_conductor_base_has_and_new_lacks() {
     let dir = scratch(SCRATCH, "compare");
     let tab = "[[conductor]]\nname = \"tab\"\npotential = 0.0\nrect = { x = [14.0, 17.0], y = [2.0, 4.0] }\n";
-    let base = write(&dir, "a.toml", &format!("{ROD}{tab}"));
-    let new = write(&dir, "b.toml", ROD);
+    // On a uniform lattice by name, so both sides share one grid whether the tab is there
+    // or not (graded, the tab's edges add node lines to BASE only).
+    let base = write(
+        &dir,
+        "a.toml",
+        &fieldgrid_tests::uniform(&format!("{ROD}{tab}")),
+    );
+    let new = write(&dir, "b.toml", &fieldgrid_tests::uniform(ROD));
     let out = dir.join("out");
     // Exit 1: the tab's charge and the couplings changed.
     expect(

@@ -47,7 +47,9 @@ fn arrays(vtk: vtkio::Vtk) -> (DataSet, Vec<(String, vtkio::IOBuffer)>) {
 #[test]
 fn vti_read_back_has_grid_geometry_and_layered_capacitor_values() {
     let dir = scratch(SCRATCH, "layers");
-    let design = write(&dir, "layers.toml", LAYERS);
+    // Image data (`field.vti`) is what a uniform lattice writes; a graded one writes a
+    // rectilinear grid.
+    let design = write(&dir, "layers.toml", &fieldgrid_tests::uniform(LAYERS));
     let out = dir.join("out");
     expect(
         run(&["solve", &design, "--out", s(&out), "--quiet", "--vtk"]),

@@ -84,7 +84,7 @@ fn memory_guard_refuses_before_allocating_and_reports_the_estimate() {
     let huge = write(
         &dir,
         "huge.toml",
-        "[grid]\nx = [0.0, 1.0]\ny = [0.0, 1.0]\ncell = 1e-5\n[[conductor]]\nname = \"pad\"\n\
+        "[grid]\nx = [0.0, 1.0]\ny = [0.0, 1.0]\ncell = 1e-5\nlattice = \"uniform\"\n[[conductor]]\nname = \"pad\"\n\
          potential = 1.0\nrect = { x = [0.4, 0.6], y = [0.4, 0.5] }\n",
     );
     let out = dir.join("out");

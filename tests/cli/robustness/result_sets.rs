@@ -32,9 +32,12 @@ pub(super) fn snapshot(dir: &Path) -> BTreeMap<String, Vec<u8>> {
     m
 }
 
-/// The plates design at revision `rev`: the pad's potential differs between revisions.
+/// The plates design at revision `rev`: the pad's potential differs between revisions. On a
+/// uniform lattice by name, whose `--vtk` file is `field.vti` (image data).
 pub(super) fn plates_rev(rev: u32) -> String {
-    PLATES.replace("potential = 5.0", &format!("potential = {}.0", 4 + rev))
+    fieldgrid_tests::uniform(
+        &PLATES.replace("potential = 5.0", &format!("potential = {}.0", 4 + rev)),
+    )
 }
 
 #[test]
