@@ -107,6 +107,7 @@ pub fn graded_problem(case: Case, n: usize, ratio: f64) -> (Stencil5, Vec<f64>) 
         east: vec![0.0; len],
         north: vec![0.0; len],
         unknown: vec![false; len],
+        cross: Vec::new(),
     };
     let mut b = vec![0.0; len];
     // Seeded 64-bit linear congruential generator.

@@ -128,6 +128,7 @@ fn staircase(n: usize, conductors: &[Rect], eps: impl Fn(f64, f64) -> f64) -> Pr
         east: vec![0.0; len],
         north: vec![0.0; len],
         unknown: vec![false; len],
+        cross: Vec::new(),
     };
     let mut rhs = vec![vec![0.0; len]; conductors.len()];
     for j in 0..nx {

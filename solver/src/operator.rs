@@ -13,10 +13,13 @@
 //! (2002) 205-227). Symmetry sides close their control volumes with no flux; the axis
 //! carries none either, because the face area there is zero. Open sides add the far-field
 //! (Robin) term of [`crate::open`] to the diagonal of their nodes, recorded as links to the
-//! side's target at 0 V.
+//! side's target at 0 V. In planar cells an oblique dielectric interface cuts, the cell's
+//! five-point share is replaced by immersed linear elements ([`interface`]), the stencil's
+//! `cross` correction among free nodes.
 //!
 //! Invariants:
-//! - `stencil` is symmetric with non-negative couplings; fixed nodes have identity rows.
+//! - `stencil` is symmetric, its five-point couplings non-negative; fixed nodes have identity
+//!   rows and no correction entries.
 //! - For any node potentials `phi` that satisfy the fixed values, the reaction of target `t`
 //!   (the sum of the fluxes leaving it) is its charge, and the reactions of all targets plus
 //!   the free charge sum to zero (Gauss's law for the whole box).
@@ -375,9 +378,26 @@ impl<'a> Assembly<'a> {
         (source, absorbed)
     }
 
+    /// The correction of cells an oblique dielectric interface cuts ([`interface`]); planar
+    /// only (empty in axisymmetric mode, where the five-point shares stay).
+    fn interface_cells(&self) -> Vec<(u32, u32, f64)> {
+        if self.faces.axisymmetric {
+            return Vec::new();
+        }
+        let (design, raster) = (self.design, self.raster);
+        let eps = |p: usize| material::of(design, raster.material[p]).permittivity;
+        interface::correction(&interface::Inputs {
+            grid: &self.grid,
+            unknown: &self.unknown,
+            eps: &eps,
+            cut: &raster.cut_edges,
+        })
+    }
+
     /// The operator, once every region of unknowns is known to touch a fixed potential.
     fn finish(self) -> Result<Operator, OperatorError> {
         let (source, absorbed) = self.sources();
+        let cross = self.interface_cells();
         let stencil = Stencil5 {
             nx: self.grid.nx,
             ny: self.grid.ny,
@@ -385,6 +405,7 @@ impl<'a> Assembly<'a> {
             east: self.east,
             north: self.north,
             unknown: self.unknown,
+            cross,
         };
         check_reference(&stencil, &self.links, &self.grid)?;
         Ok(Operator {
@@ -473,6 +494,7 @@ fn check_reference(s: &Stencil5, links: &[Link], grid: &Grid) -> Result<(), Oper
     }
 }
 
+mod interface;
 mod rows;
 #[cfg(test)]
 mod tests;

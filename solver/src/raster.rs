@@ -104,6 +104,9 @@ pub struct CutEdge {
     pub from_b: Option<HalfLink>,
     /// Present when a and b lie in two different conductors.
     pub direct: Option<DirectLink>,
+    /// On an edge between two free nodes with no conductor on it: the fraction from a of
+    /// its one permittivity change, when it has exactly one and runs along no interface.
+    pub interface: Option<f64>,
 }
 
 /// The rasterised design.

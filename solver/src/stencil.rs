@@ -6,7 +6,10 @@
 //! it, and a zero right-hand side, so the full-lattice matrix is block-diagonal
 //! `[A_free, 0; 0, I]` and SPD whenever every free region reaches a fixed potential.
 //! `east[p]` couples p and p+1 (zero on the last column), `north[p]` couples p and p+nx
-//! (zero on the last row).
+//! (zero on the last row). `cross` adds a symmetric correction with zero row sums among free
+//! nodes only, in the few cells an oblique dielectric interface cuts
+//! (`crate::operator`'s interface cells); the five-point part alone stays SPD and is what
+//! multigrid hierarchies and smoothers are built from, preconditioning the whole.
 
 use crate::parallel;
 use rayon::prelude::*;
@@ -26,6 +29,9 @@ pub struct Stencil5 {
     pub north: Vec<f64>,
     /// True where the node is an unknown (free node); false for fixed nodes.
     pub unknown: Vec<bool>,
+    /// Matrix entries added to the five-point part, (row, column, value) sorted by (row,
+    /// column), each pair once, symmetric, between free nodes; empty for most operators.
+    pub cross: Vec<(u32, u32, f64)>,
 }
 
 impl Stencil5 {
@@ -70,6 +76,14 @@ impl Stencil5 {
                 *out = s;
             }
         });
+        self.add_cross(x, y);
+    }
+
+    /// `y += C x` for the correction `cross` (sequential: it is small).
+    pub fn add_cross(&self, x: &[f64], y: &mut [f64]) {
+        for &(p, q, w) in &self.cross {
+            y[p as usize] += w * x[q as usize];
+        }
     }
 
     /// `r = b - A x`, returning the Euclidean norm of r (deterministic).
@@ -116,6 +130,12 @@ impl Stencil5 {
                 nb(p - nx, self.north[p - nx]);
             }
         }
+        for &(p, q, w) in &self.cross {
+            let (p, q) = (number[p as usize], number[q as usize]);
+            if p != usize::MAX && q != usize::MAX {
+                tri.add_triplet(p, q, w);
+            }
+        }
         (tri.to_csr(), nodes)
     }
 
@@ -130,6 +150,7 @@ impl Stencil5 {
             east: vec![0.0; n],
             north: vec![0.0; n],
             unknown: vec![false; n],
+            cross: Vec::new(),
         };
         let hm = |a: f64, b: f64| 2.0 * a * b / (a + b);
         for j in 1..ny - 1 {

@@ -86,6 +86,7 @@ fn rasterize_circles(design: &Design, grid: &Grid) -> Raster {
                     from_a,
                     from_b,
                     direct: None,
+                    interface: None,
                 });
             }
         }

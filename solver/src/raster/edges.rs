@@ -184,6 +184,16 @@ impl<'a> Line<'a> {
         (q - p) / self.resistance(p, q)
     }
 
+    /// The fraction along [u0, u1] of the one permittivity change inside it, when there is
+    /// exactly one and the line runs along no interface there.
+    fn single_change(&self, u0: f64, u1: f64) -> Option<f64> {
+        let prof = &self.profile;
+        let k = prof.partition_point(|x| x.0 <= u0) - 1;
+        let next = prof.get(k + 1)?;
+        let single = prof.get(k + 2).is_none_or(|n| n.0 >= u1);
+        (next.0 < u1 && single && !prof[k].2 && !next.2).then(|| (next.0 - u0) / (u1 - u0))
+    }
+
     /// Every cut edge of the line, in order. Only candidate edges are visited: those holding
     /// or touching a conductor interval end or a permittivity change (and their neighbours,
     /// against rounding), those along a stretch where the line runs on an interface, and
@@ -291,8 +301,10 @@ impl<'a> Line<'a> {
             from_a: None,
             from_b: None,
             direct: None,
+            interface: None,
         };
         if blocks.is_empty() {
+            rec.interface = self.single_change(u0, u1);
             let h = HalfLink {
                 theta: 1.0,
                 eps: self.eps(u0, u1),

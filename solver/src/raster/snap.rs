@@ -95,6 +95,7 @@ pub(super) fn snap_near_surfaces(r: &mut Raster, design: &Design) {
                 from_a: Some(h),
                 from_b: Some(h),
                 direct: None,
+                interface: None,
             });
             r.cut_edges.len() - 1
         });

@@ -2,6 +2,9 @@
 //!
 //! Invariant: within one colour, every update reads only nodes of the other colour, so the
 //! rows of a colour can be updated in parallel with results independent of the thread count.
+//! Nodes with rows in the operator's correction (`Stencil5::cross`) are left out of the
+//! colour passes and updated one by one after them with their whole row, so every sweep is
+//! point SOR on the whole operator in one fixed order (convergent for SPD matrices).
 
 use super::{Info, Method, Params, Progress, SolveError, StopReason};
 use crate::parallel;
@@ -34,12 +37,52 @@ pub fn default_omega(a: &Stencil5) -> f64 {
 /// red (the adjoint sweep, used to make a symmetric smoother).
 pub(crate) fn sweep(a: &Stencil5, b: &[f64], x: &mut [f64], omega: f64, reverse: bool) {
     let colours = if reverse { [1usize, 0] } else { [0usize, 1] };
+    let mut skip = vec![false; if a.cross.is_empty() { 0 } else { a.len() }];
+    for &(p, _, _) in &a.cross {
+        skip[p as usize] = true;
+    }
     for colour in colours {
-        colour_sweep(a, b, x, omega, colour);
+        colour_sweep(a, b, x, omega, colour, &skip);
+    }
+    cross_sweep(a, b, x, omega);
+}
+
+/// Point SOR updates of the nodes with rows in the correction, in row order, each with its
+/// whole row (five-point part and correction).
+fn cross_sweep(a: &Stencil5, b: &[f64], x: &mut [f64], omega: f64) {
+    let (nx, ny) = (a.nx, a.ny);
+    let mut k = 0;
+    while k < a.cross.len() {
+        let p = a.cross[k].0 as usize;
+        let (i, j) = (p % nx, p / nx);
+        let mut s = b[p];
+        if i + 1 < nx {
+            s += a.east[p] * x[p + 1];
+        }
+        if i > 0 {
+            s += a.east[p - 1] * x[p - 1];
+        }
+        if j + 1 < ny {
+            s += a.north[p] * x[p + nx];
+        }
+        if j > 0 {
+            s += a.north[p - nx] * x[p - nx];
+        }
+        let mut d = a.diag[p];
+        while k < a.cross.len() && a.cross[k].0 as usize == p {
+            let (_, q, w) = a.cross[k];
+            if q as usize == p {
+                d += w;
+            } else {
+                s -= w * x[q as usize];
+            }
+            k += 1;
+        }
+        x[p] += omega * (s / d - x[p]);
     }
 }
 
-fn colour_sweep(a: &Stencil5, b: &[f64], x: &mut [f64], omega: f64, colour: usize) {
+fn colour_sweep(a: &Stencil5, b: &[f64], x: &mut [f64], omega: f64, colour: usize, skip: &[bool]) {
     let (nx, ny) = (a.nx, a.ny);
     let ptr = SharedMut(x.as_mut_ptr());
     (0..ny).into_par_iter().for_each(|j| {
@@ -47,7 +90,7 @@ fn colour_sweep(a: &Stencil5, b: &[f64], x: &mut [f64], omega: f64, colour: usiz
         let start = (colour + j) % 2;
         for i in (start..nx).step_by(2) {
             let p = i + j * nx;
-            if !a.unknown[p] {
+            if !a.unknown[p] || skip.get(p).copied().unwrap_or(false) {
                 continue;
             }
             // SAFETY: p has this colour; all reads below are of the other colour, which no

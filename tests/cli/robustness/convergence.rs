@@ -19,6 +19,7 @@ fn floating_box(n: usize) -> (Stencil5, Vec<f64>) {
         east: vec![0.0; len],
         north: vec![0.0; len],
         unknown: vec![true; len],
+        cross: Vec::new(),
     };
     for j in 0..n {
         for i in 0..n {

@@ -157,6 +157,7 @@ mod tests {
                         .map(|p| if p / nx + 1 < ny { 1.0 } else { 0.0 })
                         .collect(),
                     unknown: vec![true; nx * ny],
+                    cross: Vec::new(),
                 };
             }
             let chol = BandCholesky::new(&s);

@@ -76,7 +76,8 @@ unsafe fn apply_row(a: &Stencil5, x: *const f64, y: *mut f64, j: usize) -> f64 {
     dot
 }
 
-/// `p = z + beta p` and then `w = A p` (w shares its storage with z), returning `p . A p`.
+/// `p = z + beta p` and then `w = A p` (w shares its storage with z), returning `p . A p`;
+/// the five-point part fused with the update, the operator's correction added after it.
 fn direction_and_apply(
     a: &Stencil5,
     zw: &mut [f64],
@@ -100,7 +101,16 @@ fn direction_and_apply(
     };
     let stages: [Stage; 2] = [&update, &apply];
     wavefront(a.ny, a.len() >= PARALLEL_MIN, &stages);
-    parallel::sum(partial)
+    let mut pap = parallel::sum(partial);
+    if !a.cross.is_empty() {
+        // The correction's part of `A p` and of `p . A p`, in its row order.
+        for &(r, c, v) in &a.cross {
+            let t = v * p[c as usize];
+            zw[r as usize] += t;
+            pap += p[r as usize] * t;
+        }
+    }
+    pap
 }
 
 /// `x += alpha p`, `r -= alpha w`, returning `r . r`.

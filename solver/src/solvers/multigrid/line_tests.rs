@@ -95,6 +95,7 @@ impl GradedBox {
             east: vec![0.0; n],
             north: vec![0.0; n],
             unknown: vec![false; n],
+            cross: Vec::new(),
         };
         let mut b = vec![0.0; n];
         let src = noise(n, 17);

@@ -100,6 +100,7 @@ fn hard_problem(h: Hard) -> (Stencil5, Vec<f64>) {
         east: vec![0.0; len],
         north: vec![0.0; len],
         unknown: vec![false; len],
+        cross: Vec::new(),
     };
     let mut b = vec![0.0; len];
     let src = noise(len, 7);
