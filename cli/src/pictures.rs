@@ -97,24 +97,68 @@ pub const FIELD_PERCENTILE: f64 = 0.995;
 /// At most this many hot spots are marked on a picture (the rest are in `hotspots.csv`).
 pub const MARKED_HOTSPOTS: usize = 5;
 
+/// Samples along the longer side of the even raster that colour-scale quantiles are read from.
+const AREA_SAMPLES: usize = 512;
+
+/// `values` (one per node of `grid`) sampled at the centres of an even raster over the window
+/// `x` by `y` (m), [`AREA_SAMPLES`] along its longer side: each sample stands for the same
+/// area however the lattice is graded, so a quantile of them is a share of the picture, not of
+/// the nodes (a graded lattice crowds its nodes at corners and trace ends, where the field is
+/// singular). The raster does not depend on the picture's size.
+pub fn area_samples(grid: &Grid, values: &[f64], x: [f64; 2], y: [f64; 2]) -> Vec<f64> {
+    let (wx, wy) = (x[1] - x[0], y[1] - y[0]);
+    let long = wx.max(wy);
+    if long.is_nan() || long <= 0.0 {
+        return Vec::new();
+    }
+    let n = |side: f64| ((AREA_SAMPLES as f64 * side / long).round() as usize).max(1);
+    sample::resample(grid, values, x, y, n(wx), n(wy)).v
+}
+
 /// The top of a linear field colour scale: the larger of the [`FIELD_PERCENTILE`] quantile of
-/// the finite magnitudes and `floor` (the largest hot spot off the sharp corners, V/m), or
-/// `None` (the whole range) when the peak is within 1.5 times of it and saturating would
-/// hide more than it shows.
-pub fn field_saturation(magnitude: &[f64], floor: f64) -> Option<f64> {
-    let mut m: Vec<f64> = magnitude
-        .iter()
-        .copied()
-        .filter(|v| v.is_finite())
-        .collect();
+/// the finite `area` samples (see [`area_samples`]) and `floor` (the largest hot spot off the
+/// sharp corners, V/m), or `None` (the whole range) when `peak` (the largest node value shown)
+/// is within 1.5 times of it and saturating would hide more than it shows.
+pub fn field_saturation(area: &[f64], peak: f64, floor: f64) -> Option<f64> {
+    let mut m: Vec<f64> = area.iter().copied().filter(|v| v.is_finite()).collect();
     if m.len() < 2 {
         return None;
     }
     let k = ((m.len() - 1) as f64 * FIELD_PERCENTILE).round() as usize;
     let q = sample::rank(&mut m, k)?;
-    let peak = m[k..].iter().copied().fold(q, f64::max);
     let top = q.max(floor);
     (top > 0.0 && peak > 1.5 * top).then_some(top)
+}
+
+/// The field magnitude a picture shows: the solution's, with the nodes on a side of fixed
+/// potential (which carry none) given the value of their neighbour inside the domain, so the
+/// sides are not painted as if they were conductors. Nodes of conductors keep none.
+pub fn shown_field(sol: &Solution) -> Vec<f64> {
+    let e = sol.field_magnitude();
+    let g = &sol.grid;
+    let (nx, ny) = (g.nx, g.ny);
+    let mut out = e.to_vec();
+    if nx < 3 || ny < 3 {
+        return out;
+    }
+    let mut side = |i: usize, j: usize| {
+        let k = g.idx(i, j);
+        if out[k].is_nan() && sol.raster.conductor[k] == fieldgrid_solver::raster::NO_CONDUCTOR {
+            let v = e[g.idx(i.clamp(1, nx - 2), j.clamp(1, ny - 2))];
+            if v.is_finite() {
+                out[k] = v;
+            }
+        }
+    };
+    for i in 0..nx {
+        side(i, 0);
+        side(i, ny - 1);
+    }
+    for j in 1..ny - 1 {
+        side(0, j);
+        side(nx - 1, j);
+    }
+    out
 }
 
 /// `v` with an SI prefix and its unit: "721 V/m", "4.8 kV/m".
@@ -273,9 +317,10 @@ pub fn field_maps(
         render::render_map(&map, opts)
     };
     let field_map = || {
-        let magnitude = sol.field_magnitude();
+        let magnitude = &shown_field(sol)[..];
         let windowed = render::shown_values(&sol.grid, magnitude, scene.unit, opts);
         let shown = windowed.as_deref().unwrap_or(magnitude);
+        let peak = sample::finite_range(shown).map_or(0.0, |r| r.1);
         // Never below the largest hot spot off the sharp corners (in the window).
         let (x, y) = opts.shown(design.domain.x, design.domain.y, scene.unit);
         let floor = sol
@@ -287,7 +332,7 @@ pub fn field_maps(
         let top = if log_field {
             None
         } else {
-            field_saturation(shown, floor)
+            field_saturation(&area_samples(&sol.grid, magnitude, x, y), peak, floor)
         };
         let worst = worst_pin(
             sol,
@@ -331,19 +376,28 @@ pub fn field_maps(
 pub const MARGIN_DECADES: i32 = 3;
 
 /// `margin.png`: the local margin to breakdown (strength over |E|) wherever a material has a
-/// strength, on a logarithmic scale from the lowest margin (node values and the surface
-/// search's worst margin, whichever is lower: the danger end, never clipped) up
-/// [`MARGIN_DECADES`] decades; the worst-margin point ringed. `None` when no material has a
-/// strength or the field is zero everywhere.
+/// strength, on a logarithmic scale from the reported worst margin (the danger end; the lowest
+/// node margin when no worst margin was found) up [`MARGIN_DECADES`] decades; node margins
+/// below the worst margin take the bottom colour under the bar's lower cap; the worst-margin
+/// point ringed. `None` when no material has a strength or the field is zero everywhere.
 pub fn margin_map(src: &DesignSource, sol: &Solution, opts: &RenderOptions) -> Option<RgbImage> {
     let design = &src.design;
-    let margins = margin_map::node_margins(design, &sol.raster.material, sol.field_magnitude())?;
-    let lowest = margins
-        .iter()
-        .copied()
-        .chain(sol.worst_margin.as_ref().and_then(|w| w.margin))
-        .filter(|m| m.is_finite() && *m > 0.0)
-        .fold(f64::INFINITY, f64::min);
+    let margins = margin_map::node_margins(design, &sol.raster.material, &shown_field(sol))?;
+    // The bar starts at the reported worst margin, so the picture and the report agree; a
+    // node reading lower (beside a sharp corner, or a node field on a curved surface above the
+    // surface's own evaluation) takes the bottom colour, and the bar's cap says so.
+    let worst = sol
+        .worst_margin
+        .as_ref()
+        .and_then(|w| w.margin)
+        .filter(|m| m.is_finite() && *m > 0.0);
+    let lowest = worst.unwrap_or_else(|| {
+        margins
+            .iter()
+            .copied()
+            .filter(|m| m.is_finite() && *m > 0.0)
+            .fold(f64::INFINITY, f64::min)
+    });
     if !lowest.is_finite() {
         return None;
     }
@@ -352,7 +406,10 @@ pub fn margin_map(src: &DesignSource, sol: &Solution, opts: &RenderOptions) -> O
     pins.extend(worst_pin(sol, None));
     let title = format!("Margin to breakdown, strength / |E|{}", scene.marks_note);
     let mut map = scene.map(&sol.grid, &margins, &title);
-    let quantity = format!("margin (lowest {}, at the bottom)", axes::plain(lowest));
+    let quantity = match worst {
+        Some(_) => format!("margin (worst {}, at the bottom)", axes::plain(lowest)),
+        None => format!("margin (lowest {}, at the bottom)", axes::plain(lowest)),
+    };
     map.quantity = &quantity;
     map.pins = &pins;
     map.scale = Scale::Log;
@@ -397,21 +454,51 @@ mod tests {
 
     #[test]
     fn a_few_singular_nodes_saturate_the_field_scale_a_smooth_field_does_not() {
-        // 1000 nodes of a smooth field from 1 to 2 V/m.
+        // 1000 samples of a smooth field from 1 to 2 V/m, peaking at 2 V/m.
         let smooth: Vec<f64> = (0..1000).map(|k| 1.0 + k as f64 / 999.0).collect();
-        assert_eq!(field_saturation(&smooth, 0.0), None);
-        // The same with three corner nodes at 50 V/m and conductor nodes (NaN).
+        assert_eq!(field_saturation(&smooth, 2.0, 0.0), None);
+        // The same with three corner samples at 50 V/m and conductor samples (NaN).
         let mut spiky = smooth.clone();
         spiky.extend([50.0, 50.0, 50.0, f64::NAN, f64::NAN]);
-        let q = field_saturation(&spiky, 0.0).expect("saturates");
+        let q = field_saturation(&spiky, 50.0, 0.0).expect("saturates");
         assert!((1.9..=2.0).contains(&q), "{q}");
         // A hot spot off the corners at 20 V/m is never saturated; one at 40 V/m leaves
         // nothing worth saturating.
-        assert_eq!(field_saturation(&spiky, 20.0), Some(20.0));
-        assert_eq!(field_saturation(&spiky, 40.0), None);
+        assert_eq!(field_saturation(&spiky, 50.0, 20.0), Some(20.0));
+        assert_eq!(field_saturation(&spiky, 50.0, 40.0), None);
         // Nothing to scale.
-        assert_eq!(field_saturation(&[f64::NAN, 0.0], 0.0), None);
-        assert_eq!(field_saturation(&[0.0; 10], 0.0), None);
+        assert_eq!(field_saturation(&[f64::NAN, 0.0], 0.0, 0.0), None);
+        assert_eq!(field_saturation(&[0.0; 10], 0.0, 0.0), None);
+    }
+
+    #[test]
+    fn the_field_scale_reads_shares_of_the_area_not_of_the_nodes() {
+        // A field of 1 V/m with 100 V/m in the corner [0, 0.01]^2 of a unit square: a lattice
+        // graded into that corner puts a quarter of its nodes there, so their 99.5th
+        // percentile is the corner's 100 V/m and nothing would saturate; over the area the
+        // corner is 1e-4 of the picture.
+        let mut xs: Vec<f64> = (0..=100).map(|k| 0.01 * f64::from(k) / 100.0).collect();
+        xs.extend((2..=100).map(|k| f64::from(k) / 100.0));
+        let g = Grid::from_lines(xs.clone(), xs).expect("lattice");
+        let e: Vec<f64> = (0..g.len())
+            .map(|k| {
+                let (i, j) = (k % g.nx, k / g.nx);
+                if g.xs()[i] <= 0.01 && g.ys()[j] <= 0.01 {
+                    100.0
+                } else {
+                    1.0
+                }
+            })
+            .collect();
+        assert_eq!(
+            field_saturation(&e, 100.0, 0.0),
+            None,
+            "read from the nodes"
+        );
+        let area = area_samples(&g, &e, [0.0, 1.0], [0.0, 1.0]);
+        assert_eq!(area.len(), AREA_SAMPLES * AREA_SAMPLES);
+        let top = field_saturation(&area, 100.0, 0.0).expect("saturates");
+        assert!((1.0..1.01).contains(&top), "{top}");
     }
 
     #[test]

@@ -288,3 +288,90 @@ fn field_change_outlines_a_conductor_base_has_and_new_lacks() {
     let rod = dark_share(&img, &f, [3.0 * MM, 4.2 * MM], [3.0 * MM, 5.8 * MM]);
     assert!(rod > 0.97, "rod edge {rod}");
 }
+
+#[test]
+fn field_and_margin_maps_paint_the_grounded_sides_with_their_field() {
+    // The nodes of a grounded side carry no field of their own; the maps give them their
+    // inner neighbour's, so no grey band (the conductors' colour) runs along the sides.
+    let out = solve("sides", ROD, &[]);
+    let f = frame(None);
+    let [x, y, w, h] = f.plot;
+    for name in ["field.png", "margin.png"] {
+        let img = load(out.join(name));
+        for (px, py) in [
+            (x + w / 3, y),
+            (x + w / 3, y + h - 1),
+            (x, y + h / 3),
+            (x + w - 1, y + h / 3),
+        ] {
+            assert_ne!(
+                *img.get_pixel(px, py),
+                colormap::NO_VALUE,
+                "{name}: ({px}, {py})"
+            );
+        }
+    }
+}
+
+#[test]
+fn contour_labels_keep_clear_of_a_conductors_outline() {
+    // A 1 V rod of radius 1 mm in a grounded box: the equipotentials crowd round it. Within
+    // 6 px of its outline the potential is above 0.9 V (the light end of the map, where a
+    // label's light box is lighter in every channel than any map colour); no label box may
+    // reach there, away from the hot spots' rings and numbers.
+    let design = r#"
+unit = "mm"
+[grid]
+lattice = "uniform"
+x = [0.0, 20.0]
+y = [0.0, 10.0]
+cell = 0.05
+[[conductor]]
+name = "rod"
+potential = 1.0
+circle = { center = [6.0, 5.0], radius = 1.0 }
+"#;
+    let out = solve("contour-labels", design, &[]);
+    let img = load(out.join("potential.png"));
+    let f = frame(None);
+    let centre = f.pixel([6.0 * MM, 5.0 * MM]);
+    let radius = f.pixel([7.0 * MM, 5.0 * MM])[0] - centre[0];
+    let spots: Vec<[f64; 2]> = std::fs::read_to_string(out.join("hotspots.csv"))
+        .expect("hotspots.csv")
+        .lines()
+        .skip(1)
+        .take(5)
+        .map(|l| {
+            let v: Vec<f64> = l
+                .split(',')
+                .skip(1)
+                .take(2)
+                .map(|c| c.parse().unwrap())
+                .collect();
+            f.pixel([v[0], v[1]])
+        })
+        .collect();
+    let mut probed = 0;
+    for step in 0..720 {
+        let a = f64::from(step) * std::f64::consts::TAU / 720.0;
+        for d in [2.0, 3.0, 4.0, 5.0, 6.0] {
+            let p = [
+                centre[0] + (radius + d) * a.cos(),
+                centre[1] - (radius + d) * a.sin(),
+            ];
+            if spots
+                .iter()
+                .any(|s| (s[0] - p[0]).hypot(s[1] - p[1]) < 40.0)
+            {
+                continue;
+            }
+            probed += 1;
+            let c = img.get_pixel(p[0] as u32, p[1] as u32);
+            assert!(
+                c.0.iter().any(|&v| v < 228),
+                "a label's box at {p:?}, {d} px off the rod: {c:?}"
+            );
+        }
+    }
+    assert!(probed > 1000, "{probed} places probed");
+}

@@ -75,8 +75,10 @@ impl ColorScale {
                 (lo - lo.abs() * 0.05, hi + hi.abs() * 0.05)
             };
         }
+        // On a log scale of its own range the values below its floor are not flagged (the
+        // floor is part of the scale); below a range the caller set they are.
         let (over, under) = match found {
-            Some((flo, fhi)) => (fhi > hi, !log && flo < lo),
+            Some((flo, fhi)) => (fhi > hi, (!log || input.range.is_some()) && flo < lo),
             None => (false, false),
         };
         let table = if diverging {

@@ -33,14 +33,14 @@ pub fn stepped_levels(lo: f64, hi: f64, step: f64, cap: usize) -> Vec<f64> {
     strictly_inside(multiples(lo, hi, step), lo, hi)
 }
 
-/// Levels for a logarithmic scale over (lo, hi), lo > 0: 1, 2 and 5 per decade over up to three
-/// decades, otherwise whole decades.
+/// Levels for a logarithmic scale over (lo, hi), lo > 0: 1, 2 and 5 per decade when hi / lo is at
+/// most a thousand, otherwise whole decades.
 pub fn log_levels(lo: f64, hi: f64) -> Vec<f64> {
     if !(lo > 0.0 && hi > lo) {
         return Vec::new();
     }
     let (d0, d1) = (lo.log10().floor() as i32, hi.log10().ceil() as i32);
-    let mantissas: &[f64] = if d1 - d0 <= 3 {
+    let mantissas: &[f64] = if (hi / lo).log10() <= 3.0 + 1e-9 {
         &[1.0, 2.0, 5.0]
     } else {
         &[1.0]
@@ -184,6 +184,11 @@ mod tests {
         assert!(l.iter().all(|&x| x > -3.7 && x < 12.2) && l.len() >= 4 && l.len() <= 10);
         assert_eq!(log_levels(1.0e3, 1.0e5), vec![2e3, 5e3, 1e4, 2e4, 5e4]);
         assert_eq!(log_levels(1.0, 1.0e6).len(), 5);
+        // Three decades from anywhere (a margin map's range) take 1-2-5 steps.
+        assert_eq!(
+            log_levels(1.27, 1270.0),
+            vec![2.0, 5.0, 10.0, 20.0, 50.0, 100.0, 200.0, 500.0, 1000.0]
+        );
         assert!(stepped_levels(0.0, 1.0, 1e-9, 1000).is_empty());
     }
 

@@ -1,14 +1,16 @@
 //! Where labels go: names of conductors, dielectrics and another revision's outlines, and
 //! the labels of pins, each on a light box, greedily, first come first placed.
 //!
-//! A label is tried inside its own shape, then just beside it (above, below, right, left),
-//! then at growing distances in eight directions with a leader line back to its shape.
+//! A label is tried inside its own shape, then just beside it (above and below from the
+//! middle towards the ends, right, left; slid inside the plot where it sticks out), then at
+//! growing distances in eight directions with a leader line back to its shape.
 //!
 //! Invariants: a placed box lies inside the plot, clear of every box already taken and of
 //! every pixel of a conductor other than its own (a dielectric's or a pin's label of every
 //! conductor); a label that finds no such place is left out (except where a caller forces a
 //! place, see [`place_pin_labels`]); a leader line joins the box to a pixel of its own shape,
-//! crossing no other conductor wherever such a place exists.
+//! crossing no other conductor wherever such a place exists, and never for a dielectric or a
+//! pin.
 
 use image::{Rgb, RgbImage};
 
@@ -207,7 +209,17 @@ fn place(
     let pb = t.pb.map(|v| v as f32);
     let (cx, cy) = ((pb[0] + pb[2]) / 2.0, (pb[1] + pb[3]) / 2.0);
     let ok = |b: [f32; 4]| plot.holds(b) && taken.free(b) && owners.clear(b, t.own);
-    let boxed = |x: f32, y: f32| [x - bw / 2.0, y - bh / 2.0, x + bw / 2.0, y + bh / 2.0];
+    // A box centred on (x, y), moved inside the plot where it sticks out (a label beside a
+    // body that lies along the plot's edge slides along the edge).
+    let (lo, hi) = (
+        [plot.x0 as f32 + 1.0, plot.y0 as f32 + 1.0],
+        [plot.right() as f32 - 1.0, plot.bottom() as f32 - 1.0],
+    );
+    let boxed = |x: f32, y: f32| {
+        let x = x.min(hi[0] - bw / 2.0).max(lo[0] + bw / 2.0);
+        let y = y.min(hi[1] - bh / 2.0).max(lo[1] + bh / 2.0);
+        [x - bw / 2.0, y - bh / 2.0, x + bw / 2.0, y + bh / 2.0]
+    };
     let mut near = Vec::new();
     let fits = t.has_inside && pb[2] - pb[0] >= bw + 4.0 && pb[3] - pb[1] >= bh + 4.0;
     if fits && t.inside_first {
@@ -216,8 +228,13 @@ fn place(
     if fits {
         near.push((cx, cy));
     }
-    near.push((cx, pb[1] - 3.0 - bh / 2.0));
-    near.push((cx, pb[3] + 3.0 + bh / 2.0));
+    // Above and below, from the middle towards the ends (a long, thin body may be covered
+    // in its middle), then right and left.
+    for f in [0.5, 0.25, 0.75, 0.1, 0.9] {
+        let x = pb[0] + f * (pb[2] - pb[0]);
+        near.push((x, pb[1] - 3.0 - bh / 2.0));
+        near.push((x, pb[3] + 3.0 + bh / 2.0));
+    }
     near.push((pb[2] + 4.0 + bw / 2.0, cy));
     near.push((pb[0] - 4.0 - bw / 2.0, cy));
     for (x, y) in near {
@@ -238,9 +255,10 @@ fn place(
         (-1.0, 1.0),
     ];
     // First with leaders that cross no other conductor (one that does could be read as
-    // pointing at it), then, rather than leave the name out, with any leader: its dot sits
-    // on its own shape.
-    for crossing in [false, true] {
+    // pointing at it), then, for a conductor rather than leave its name out, with any leader:
+    // its dot sits on its own shape. A dielectric's or a pin's label is left out instead.
+    let passes: &[bool] = if t.own > 0 { &[false, true] } else { &[false] };
+    for &crossing in passes {
         for step in 1..=20 {
             let d = 14.0 * step as f32;
             for (dx, dy) in dirs {

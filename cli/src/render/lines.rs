@@ -1,74 +1,69 @@
-//! Lines over a map: equipotentials (iso-value lines, labelled on their longest pieces) and
-//! field lines seeded on the conductors, with an arrowhead along E.
+//! Lines over a map: equipotentials (iso-value lines, labelled where `contour_labels` finds
+//! a clear stretch) and field lines seeded on the conductors, with an arrowhead along E.
 //!
 //! Invariants: no line is drawn over a pixel the caller's mask excludes (no value, inside a
-//! conductor, off the plot); a contour label takes a box only where it is free; lengths and
-//! positions are image pixels.
+//! conductor, off the plot); a contour label takes a box only where it is clear of what the
+//! caller blocks, of other lines and of other labels; lengths and positions are image pixels.
 
 use fieldgrid_solver::design::Point;
 use image::RgbImage;
 
 use super::canvas::{Layer, P};
+use super::contour_labels::{self, length, point_at, Obstacles};
 use super::labels::{boxed_label, label_box, Taken};
 use super::layout::Plot;
 use super::overlay::contrast_ink;
-use super::text::{self, Style};
+use super::text::Style;
 use super::{contour, fieldlines, sample, FieldLines, MapInput, INK};
 
-/// Draws the iso-value lines and their labels.
+/// Draws the iso-value lines and their labels; `blocked` tells the pixels no label may cover
+/// (conductors, outlines, no value). Returns each label's level and box.
 pub(super) fn draw_contours(
     img: &mut RgbImage,
     plot: &Plot,
     samples: &sample::Samples,
     levels: &[(f64, String)],
     mask: &dyn Fn(usize, usize) -> bool,
+    blocked: &dyn Fn(usize, usize) -> bool,
     taken: &mut Taken,
-) {
+) -> Vec<(usize, [f32; 4])> {
     let values: Vec<f64> = levels.iter().map(|l| l.0).collect();
     let lines = contour::trace(samples, &values);
     let (w, h) = img.dimensions();
     let mut layer = Layer::new(w, h);
     let off = [plot.x0 as f64, plot.y0 as f64];
-    for iso in &lines {
-        for piece in &iso.pieces {
-            let pts: Vec<P> = piece
+    let shifted: Vec<Vec<Vec<P>>> = lines
+        .iter()
+        .map(|iso| {
+            iso.pieces
                 .iter()
-                .map(|p| [p[0] + off[0], p[1] + off[1]])
-                .collect();
-            layer.polyline(&pts, 1.3, false);
-        }
+                .map(|piece| {
+                    piece
+                        .iter()
+                        .map(|p| [p[0] + off[0], p[1] + off[1]])
+                        .collect()
+                })
+                .collect()
+        })
+        .collect();
+    for pts in shifted.iter().flatten() {
+        layer.polyline(pts, 1.3, false);
     }
     layer.composite_with(img, 0.85, mask, contrast_ink);
-    // Labels: up to two per level, on the longest pieces, clear of everything placed so far.
     let st = Style::new(11.0, INK);
-    for (iso, (_, label)) in lines.iter().zip(levels) {
-        let mut order: Vec<(f64, usize)> = iso
-            .pieces
-            .iter()
-            .enumerate()
-            .map(|(k, p)| (length(p), k))
-            .collect();
-        order.sort_by(|a, b| b.0.total_cmp(&a.0).then(a.1.cmp(&b.1)));
-        let lw = text::measure(label, st).width as f64;
-        let mut placed = 0;
-        for (len, k) in order {
-            if placed >= 2 || len < 3.0 * lw + 30.0 {
-                break;
-            }
-            for frac in [0.5, 0.3, 0.7, 0.15, 0.85] {
-                let p = point_at(&iso.pieces[k], frac * len);
-                let (ix, iy) = (p[0] + off[0], p[1] + off[1]);
-                let b = label_box(label, st, ix as f32, iy as f32, 2.0);
-                let centre_free = !mask(ix as usize, iy as usize);
-                if centre_free && plot.holds(b) && taken.free(b) {
-                    taken.0.push(b);
-                    boxed_label(img, label, st, b, 0.75);
-                    placed += 1;
-                    break;
-                }
-            }
-        }
+    let sizes: Vec<(f32, f32)> = levels
+        .iter()
+        .map(|(_, label)| {
+            let b = label_box(label, st, 0.0, 0.0, 2.0);
+            (b[2] - b[0], b[3] - b[1])
+        })
+        .collect();
+    let obstacles = Obstacles::new(w as usize, h as usize, blocked, &shifted);
+    let placed = contour_labels::place(plot, &shifted, &sizes, &obstacles, taken);
+    for &(k, b) in &placed {
+        boxed_label(img, &levels[k].1, st, b, 0.75);
     }
+    placed
 }
 
 /// Traces and draws field lines with an arrowhead half-way along each.
@@ -170,26 +165,4 @@ pub(super) fn draw_field_lines(
         }
     }
     layer.composite_with(img, 0.55, masked, contrast_ink);
-}
-
-pub(super) fn length(p: &[P]) -> f64 {
-    p.windows(2)
-        .map(|w| (w[1][0] - w[0][0]).hypot(w[1][1] - w[0][1]))
-        .sum()
-}
-
-pub(super) fn point_at(p: &[P], s: f64) -> P {
-    let mut acc = 0.0;
-    for w in p.windows(2) {
-        let l = (w[1][0] - w[0][0]).hypot(w[1][1] - w[0][1]);
-        if acc + l >= s && l > 0.0 {
-            let f = (s - acc) / l;
-            return [
-                w[0][0] + (w[1][0] - w[0][0]) * f,
-                w[0][1] + (w[1][1] - w[0][1]) * f,
-            ];
-        }
-        acc += l;
-    }
-    *p.last().expect("non-empty polyline")
 }

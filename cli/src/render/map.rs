@@ -10,6 +10,7 @@
 use fieldgrid_solver::grid::Grid;
 use image::RgbImage;
 
+use super::canvas::{Layer, P};
 use super::color_scale::{bar_rect, bar_ticks, draw_bar, ColorScale, BAR_BLOCK};
 use super::colormap::NO_VALUE;
 use super::labels::{draw_names, place_names, place_pin_labels, Owners};
@@ -142,7 +143,27 @@ pub(super) fn draw_map(input: &MapInput, opts: &RenderOptions) -> (RgbImage, Plo
     }
     let levels = cs.levels(input.contours, input.unit);
     if !levels.is_empty() {
-        draw_contours(&mut img, &plot, &samples, &levels, &masked, &mut taken);
+        // Contour labels keep off conductors, every outline and value-less pixels.
+        let mut outlines = Layer::new(img.width(), img.height());
+        for o in input.dielectrics.iter().chain(input.former) {
+            for r in &o.rings {
+                let pts: Vec<P> = r.iter().map(|&p| plot.px(p)).collect();
+                outlines.polyline(&pts, 1.5, true);
+            }
+            for l in &o.lines {
+                let pts: Vec<P> = l.iter().map(|&p| plot.px(p)).collect();
+                outlines.polyline(&pts, 1.5, false);
+            }
+        }
+        let blocked = |x: usize, y: usize| {
+            masked(x, y)
+                || cl.edge.get(x, y) > 0.0
+                || cl.thin.get(x, y) > 0.0
+                || outlines.get(x, y) > 0.0
+        };
+        draw_contours(
+            &mut img, &plot, &samples, &levels, &masked, &blocked, &mut taken,
+        );
     }
     outline_dielectrics(&mut img, &plot, input.dielectrics, &masked);
     outline_former(&mut img, &plot, input.former, &off_plot);

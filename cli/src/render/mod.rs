@@ -35,6 +35,7 @@ pub mod canvas;
 mod color_scale;
 pub mod colormap;
 pub mod contour;
+mod contour_labels;
 pub mod fieldlines;
 mod labels;
 mod layout;

@@ -2,7 +2,8 @@
 //!
 //! Invariants: both solutions cover the same domain (the caller checks); BASE's field is
 //! carried onto NEW's lattice bilinearly when the grid lines differ; the diverging colour
-//! range is symmetric about zero and saturates at the 99th percentile of |change|.
+//! range is symmetric about zero and saturates at the 99th percentile of |change| over the
+//! picture's area (an even raster, whatever the lattice's grading).
 
 use crate::design_file::DesignSource;
 use fieldgrid_solver::study::Solution;
@@ -26,12 +27,18 @@ pub(super) fn change_picture(
     };
     let en = new.field_magnitude();
     let diff: Vec<f64> = eb.iter().zip(en).map(|(b, n)| n - b).collect();
-    // Colour range: the 99th percentile of |change|, so that the few nodes at sharp edges
-    // (whose values are singular) saturate instead of washing out the rest of the map.
-    let mut mags: Vec<f64> = diff
-        .iter()
+    // Colour range: the 99th percentile of |change| over the picture's area, so that the few
+    // places at sharp edges (whose values are singular, and where a graded lattice crowds its
+    // nodes) saturate instead of washing out the rest of the map.
+    let unit = render::LengthUnit {
+        label: src.unit.name(),
+        metres: src.unit.scale(),
+    };
+    let (x, y) = opts.shown(src.design.domain.x, src.design.domain.y, unit);
+    let mut mags: Vec<f64> = crate::pictures::area_samples(&new.grid, &diff, x, y)
+        .into_iter()
         .filter(|v| v.is_finite())
-        .map(|v| v.abs())
+        .map(f64::abs)
         .collect();
     let k = ((mags.len() as f64 * 0.99) as usize).min(mags.len().saturating_sub(1));
     let top = crate::render::sample::rank(&mut mags, k).unwrap_or(0.0);
@@ -61,13 +68,10 @@ pub(super) fn change_picture(
         })
         .collect();
     let input = MapInput {
-        title: "Change in field magnitude, NEW minus BASE (colours saturate at the largest 1 %)",
+        title: "Change in field magnitude, NEW minus BASE (colours saturate on the largest 1 % of the area)",
         quantity: "change of |E|",
         unit: "V/m",
-        length_unit: render::LengthUnit {
-            label: src.unit.name(),
-            metres: src.unit.scale(),
-        },
+        length_unit: unit,
         axis_names: crate::pictures::axis_names(&src.design),
         conductors: &conductors,
         dielectrics: &dielectrics,
