@@ -4,7 +4,7 @@
 set -euo pipefail
 cd "$(dirname "$0")/.."
 cargo build --release --quiet
-fieldgrid=target/release/fieldgrid
+fieldgrid=${CARGO_TARGET_DIR:-target}/release/fieldgrid
 work=$(mktemp -d)
 trap 'rm -rf "$work"' EXIT
 # 900 px keeps each picture legible on a README page and small in the repository.

@@ -170,6 +170,24 @@ pub fn seeds(
     offset: f64,
     inside: &dyn Fn(P) -> bool,
 ) -> Vec<Seed> {
+    // Inside the rings' bodies: an odd number of ring edges crossed by a ray to the right
+    // (holes and the rings of several bodies alike).
+    let solid = |p: P| {
+        let crossings: usize = rings
+            .iter()
+            .map(|r| {
+                let n = r.len();
+                (0..n)
+                    .filter(|&k| {
+                        let (a, b) = (r[k], r[(k + 1) % n]);
+                        (a[1] > p[1]) != (b[1] > p[1])
+                            && p[0] < a[0] + (p[1] - a[1]) * (b[0] - a[0]) / (b[1] - a[1])
+                    })
+                    .count()
+            })
+            .sum();
+        crossings % 2 == 1
+    };
     // (seed point, signed flux through this piece)
     let mut pieces: Vec<(P, f64)> = Vec::new();
     // A closed ring seeds on its outer side only (the side away from the conductor); an open
@@ -194,11 +212,11 @@ pub fn seeds(
                     {
                         let nrm = [side * t[1], -side * t[0]];
                         let q = [m[0] + offset * nrm[0], m[1] + offset * nrm[1]];
-                        if inside(q)
-                            || (closed
-                                && inside([m[0] - offset * nrm[0], m[1] - offset * nrm[1]])
-                                    == inside(q))
-                        {
+                        // A ring's own side is told by the outlines themselves, a quarter
+                        // pixel in: a body thinner than two offsets (a copper pad) has free
+                        // space on both sides at the offset.
+                        let own = [m[0] + 0.25 * nrm[0], m[1] + 0.25 * nrm[1]];
+                        if inside(q) || (closed && solid(own)) {
                             continue;
                         }
                         // Physical piece: tangent (tX / kx, -tY / ky) per pixel, normal outward.
@@ -429,5 +447,29 @@ mod tests {
             count(&Potential::new(&s, [1.0, 1.0]).with_permittivity(&eps)),
             8
         );
+    }
+    #[test]
+    fn a_pad_thinner_than_the_seed_offset_seeds_both_faces() {
+        // A 1.6 px thick pad across y = 50 at 1 V between grounds at y = 0 and y = 100, its
+        // seeds 6 px out: both faces face free space at that distance, and each carries half
+        // of the charge.
+        let (w, h) = (100, 100);
+        let v = (0..w * h)
+            .map(|k| (1.0 - ((((k / w) as f64 + 0.5) - 50.0).abs() - 0.8).max(0.0) / 49.2).min(1.0))
+            .collect();
+        let s = Samples { w, h, v };
+        let pad = vec![[10.0, 49.2], [90.0, 49.2], [90.0, 50.8], [10.0, 50.8]];
+        let inside = |p: P| (10.0..=90.0).contains(&p[0]) && (48.5..=51.5).contains(&p[1]);
+        let seeds = seeds(
+            &Potential::new(&s, [1.0, 1.0]),
+            &[pad],
+            &[],
+            10,
+            6.0,
+            &inside,
+        );
+        let below = seeds.iter().filter(|s| s.at[1] > 52.0).count();
+        let above = seeds.iter().filter(|s| s.at[1] < 48.0).count();
+        assert_eq!((above, below), (5, 5), "{seeds:?}");
     }
 }

@@ -18,15 +18,15 @@ pub(super) fn change_picture(
 ) -> image::RgbImage {
     use crate::render::{self, ContourStyle, MapInput, Outline, Palette};
     // On NEW's lattice; BASE's field carried onto it when the lines differ.
-    let carried;
+    // Sides of fixed potential take the field just inside (see `pictures::shown_field`).
+    let eb = crate::pictures::shown_field(base);
     let eb = if base.grid == new.grid {
-        base.field_magnitude()
+        eb
     } else {
-        carried = crate::render::sample::onto(&base.grid, base.field_magnitude(), &new.grid);
-        &carried
+        crate::render::sample::onto(&base.grid, &eb, &new.grid)
     };
-    let en = new.field_magnitude();
-    let diff: Vec<f64> = eb.iter().zip(en).map(|(b, n)| n - b).collect();
+    let en = crate::pictures::shown_field(new);
+    let diff: Vec<f64> = eb.iter().zip(&en).map(|(b, n)| n - b).collect();
     // Colour range: the 99th percentile of |change| over the picture's area, so that the few
     // places at sharp edges (whose values are singular, and where a graded lattice crowds its
     // nodes) saturate instead of washing out the rest of the map.
