@@ -59,15 +59,41 @@ pub fn named_conductors(design: &Design, settled: Option<&[f64]>) -> Vec<Outline
             ..Outline::from_shape("", s, tol)
         })
     });
+    // As many digits as tell the fixed potentials apart: a pad 1 V above sides at 1 kV reads
+    // "1.001 kV", not "1 kV"; a floating conductor's settled potential takes as many.
+    let sides = [
+        design.sides.left,
+        design.sides.right,
+        design.sides.bottom,
+        design.sides.top,
+    ];
+    let known: Vec<f64> = design
+        .conductors
+        .iter()
+        .filter_map(|c| match c.drive {
+            Drive::Fixed(v) => Some(v),
+            Drive::Floating => None,
+        })
+        .chain(sides.iter().filter_map(|s| s.potential()))
+        .collect();
+    let digits = potential_digits(&known);
+    let volts = |v: f64| {
+        let s = axes::si_digits(v, digits);
+        if s.ends_with(|c: char| c.is_ascii_digit()) {
+            format!("{s} V")
+        } else {
+            format!("{s}V")
+        }
+    };
     design
         .conductors
         .iter()
         .enumerate()
         .map(|(k, c)| {
             let (name, edge) = match (c.drive, settled) {
-                (Drive::Fixed(v), _) => (format!("{}, {}", c.name, with_unit(v, "V")), Edge::Solid),
+                (Drive::Fixed(v), _) => (format!("{}, {}", c.name, volts(v)), Edge::Solid),
                 (Drive::Floating, Some(v)) => (
-                    format!("{}, floating at {}", c.name, with_unit(v[k], "V")),
+                    format!("{}, floating at {}", c.name, volts(v[k])),
                     Edge::Dashed,
                 ),
                 (Drive::Floating, None) => (format!("{}, floating", c.name), Edge::Dashed),
@@ -79,6 +105,25 @@ pub fn named_conductors(design: &Design, settled: Option<&[f64]>) -> Vec<Outline
         })
         .chain(pieces)
         .collect()
+}
+
+/// Significant digits (3 to 12) that write the distinct potentials of `v` distinctly: enough
+/// for their smallest difference against the largest of them.
+fn potential_digits(v: &[f64]) -> usize {
+    let top = v.iter().fold(0.0f64, |a, x| a.max(x.abs()));
+    let mut step = f64::INFINITY;
+    for (i, a) in v.iter().enumerate() {
+        for b in &v[i + 1..] {
+            let d = (a - b).abs();
+            if d > 0.0 {
+                step = step.min(d);
+            }
+        }
+    }
+    if top.is_nan() || top <= 0.0 || !step.is_finite() {
+        return 3;
+    }
+    ((top / step).log10().ceil() as usize + 1).clamp(3, 12)
 }
 
 /// The names of a design's axes: x, y in the plane, r, z in axisymmetric mode.
@@ -525,6 +570,16 @@ mod tests {
         assert_eq!(before[1].edge, Edge::Dashed);
         let after = named_conductors(&d, Some(&[5e4, 34112.766]));
         assert_eq!(after[1].name, "foil, floating at 34.1 kV");
+        // A potential a volt above sides at 1 kV keeps the digits that tell it apart.
+        let s = fieldgrid_solver::design::Side::Fixed(1e3);
+        d.sides.left = s;
+        d.sides.right = s;
+        d.sides.bottom = s;
+        d.sides.top = s;
+        d.conductors[0].drive = Drive::Fixed(1001.0);
+        let offset = named_conductors(&d, Some(&[1001.0, 1000.4812]));
+        assert_eq!(offset[0].name, "rod, 1.001 kV");
+        assert_eq!(offset[1].name, "foil, floating at 1.0005 kV");
     }
 
     #[test]

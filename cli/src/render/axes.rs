@@ -158,18 +158,26 @@ pub fn prefix(exp3: i32) -> &'static str {
 
 /// `v` written with its own SI prefix and up to 3 significant digits: "250 k", "1.5 M", "3 m".
 pub fn si(v: f64) -> String {
+    si_digits(v, 3)
+}
+
+/// `v` with an SI prefix to `digits` significant digits (at least 3), trailing zeros
+/// dropped: `si_digits(1001.0, 5)` is "1.001 k".
+pub fn si_digits(v: f64, digits: usize) -> String {
     if v == 0.0 {
         return "0".to_string();
     }
     let e = prefix_exponent(v.abs());
     let m = v / 10f64.powi(e);
-    let dec = if m.abs() >= 100.0 {
-        0
-    } else if m.abs() >= 10.0 {
-        1
-    } else {
-        2
-    };
+    let extra = digits.max(3) - 3;
+    let dec = extra
+        + if m.abs() >= 100.0 {
+            0
+        } else if m.abs() >= 10.0 {
+            1
+        } else {
+            2
+        };
     let mut s = fixed(m, dec);
     if s.contains('.') {
         while s.ends_with('0') {

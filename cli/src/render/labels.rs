@@ -220,26 +220,29 @@ fn place(
         let y = y.min(hi[1] - bh / 2.0).max(lo[1] + bh / 2.0);
         [x - bw / 2.0, y - bh / 2.0, x + bw / 2.0, y + bh / 2.0]
     };
+    // (centre, inside): a box beside the shape stays off its bounds even where sliding it
+    // into the plot would move it there.
     let mut near = Vec::new();
     let fits = t.has_inside && pb[2] - pb[0] >= bw + 4.0 && pb[3] - pb[1] >= bh + 4.0;
     if fits && t.inside_first {
-        near.push((pb[0] + 3.0 + bw / 2.0, pb[1] + 3.0 + bh / 2.0));
+        near.push((pb[0] + 3.0 + bw / 2.0, pb[1] + 3.0 + bh / 2.0, true));
     }
     if fits {
-        near.push((cx, cy));
+        near.push((cx, cy, true));
     }
     // Above and below, from the middle towards the ends (a long, thin body may be covered
     // in its middle), then right and left.
     for f in [0.5, 0.25, 0.75, 0.1, 0.9] {
         let x = pb[0] + f * (pb[2] - pb[0]);
-        near.push((x, pb[1] - 3.0 - bh / 2.0));
-        near.push((x, pb[3] + 3.0 + bh / 2.0));
+        near.push((x, pb[1] - 3.0 - bh / 2.0, false));
+        near.push((x, pb[3] + 3.0 + bh / 2.0, false));
     }
-    near.push((pb[2] + 4.0 + bw / 2.0, cy));
-    near.push((pb[0] - 4.0 - bw / 2.0, cy));
-    for (x, y) in near {
+    near.push((pb[2] + 4.0 + bw / 2.0, cy, false));
+    near.push((pb[0] - 4.0 - bw / 2.0, cy, false));
+    let off_shape = |b: [f32; 4]| b[2] < pb[0] || b[0] > pb[2] || b[3] < pb[1] || b[1] > pb[3];
+    for (x, y, inside) in near {
         let b = boxed(x, y);
-        if ok(b) {
+        if ok(b) && (inside || off_shape(b)) {
             return Some((b, None));
         }
     }
@@ -277,7 +280,7 @@ fn place(
                     cy
                 };
                 let b = boxed(x, y);
-                if !ok(b) {
+                if !ok(b) || !off_shape(b) {
                     continue;
                 }
                 let centre = [(b[0] + b[2]) / 2.0, (b[1] + b[3]) / 2.0];

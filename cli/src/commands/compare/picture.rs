@@ -68,7 +68,7 @@ pub(super) fn change_picture(
         })
         .collect();
     let input = MapInput {
-        title: "Change in field magnitude, NEW minus BASE (colours saturate on the largest 1 % of the area)",
+        title: "Change in field magnitude, NEW minus BASE (colours saturate on 1 % of the area)",
         quantity: "change of |E|",
         unit: "V/m",
         length_unit: unit,
