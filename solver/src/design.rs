@@ -3,8 +3,14 @@
 //! A [`Design`] is produced by a reader (the command-line crate parses TOML into it) and is
 //! checked by [`validate`] for the geometric rules of the contract: shapes inside the domain,
 //! conductors not touching or overlapping each other (the pieces of one conductor may),
-//! polygons simple, materials physical. Errors name the item and
-//! the key so the reader can point at the file span.
+//! polygons simple, materials physical. Errors ([`DesignError`]) name the item and the key so
+//! the reader can point at the file span, and carry the rule broken as data.
+
+mod error;
+
+pub use error::{
+    Boundary, DesignError, Edge, Fault, Item, Meeting, OutsideDomain, ShapeError, ShapeFault,
+};
 
 /// Planar cross-section or body of revolution.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Default)]
@@ -265,87 +271,6 @@ impl Default for Domain {
             x: [0.0, 1.0],
             y: [0.0, 1.0],
             cell: 0.01,
-        }
-    }
-}
-
-/// Which item of a design an error is about, so a reader can point at its span.
-#[derive(Clone, Copy, Debug, PartialEq, Eq)]
-#[non_exhaustive]
-pub enum Item {
-    /// The design as a whole (top-level keys such as `mode`).
-    Top,
-    /// The `[grid]` table.
-    Grid,
-    /// The `[sides]` table.
-    Sides,
-    /// The `[background]` table.
-    Background,
-    /// Conductor i (0-based, in the order of `Design::conductors`); its first piece.
-    Conductor(usize),
-    /// Piece p >= 1 of conductor i (`joined[p - 1]`).
-    ConductorPiece(usize, usize),
-    /// `[[dielectric]]` number i.
-    Dielectric(usize),
-    /// `[[charge]]` number i.
-    Charge(usize),
-    /// `[[probe]]` number i.
-    Probe(usize),
-}
-
-/// A design that breaks a rule of the contract.
-#[derive(Clone, Debug, PartialEq, thiserror::Error)]
-#[error("{message}")]
-#[non_exhaustive]
-pub struct DesignError {
-    /// The offending item.
-    pub item: Item,
-    /// The offending key within the item (for example `"polygon"`, `"permittivity"`).
-    pub key: &'static str,
-    /// What is wrong, in a sentence for the user (lengths in metres).
-    pub message: String,
-    /// For a shape outside the domain: its extents and the domain's, so that a reader can
-    /// state them in the design file's unit (the message names the fault only).
-    pub outside: Option<Box<OutsideDomain>>,
-}
-
-/// A shape that does not lie inside the domain.
-#[derive(Clone, Copy, Debug, PartialEq)]
-pub struct OutsideDomain {
-    /// The shape's extent, m: [[x0, x1], [y0, y1]].
-    pub shape: [[f64; 2]; 2],
-    /// The domain's extent, m: [[x0, x1], [y0, y1]].
-    pub domain: [[f64; 2]; 2],
-    /// Axisymmetric mode: only the part at r >= 0 counts.
-    pub axisymmetric: bool,
-}
-
-impl OutsideDomain {
-    /// True when the offending shape is a single point (a probe or a concentrated charge).
-    pub fn is_point(&self) -> bool {
-        self.shape[0][0] == self.shape[0][1] && self.shape[1][0] == self.shape[1][1]
-    }
-
-    /// The error's message for library users: what lies outside, without the extents (those
-    /// are this value's data, for a reader to write in its own units).
-    pub(crate) fn summary(&self) -> &'static str {
-        match (self.is_point(), self.axisymmetric) {
-            (true, false) => "the point does not lie inside the domain",
-            (true, true) => "the point does not lie inside the domain (only r >= 0 counts)",
-            (false, false) => "the shape does not lie inside the domain",
-            (false, true) => "the shape does not lie inside the domain (only r >= 0 counts)",
-        }
-    }
-}
-
-impl DesignError {
-    /// A new error about `key` of `item`.
-    pub fn new(item: Item, key: &'static str, message: impl Into<String>) -> Self {
-        DesignError {
-            item,
-            key,
-            message: message.into(),
-            outside: None,
         }
     }
 }

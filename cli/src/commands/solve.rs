@@ -345,7 +345,7 @@ pub fn study_failure(src: &crate::design_file::DesignSource, e: StudyError) -> F
     let err = match &e {
         StudyError::Operator(_) => src.error_at(Item::Sides, "", e.to_string()),
         StudyError::Grid(_) => src.error_at(Item::Grid, "cell", e.to_string()),
-        StudyError::Design(d) => src.error_at(d.item, d.key, d.message.clone()),
+        StudyError::Design(d) => src.design_error(d),
         _ => src.error_at(Item::Top, "", e.to_string()),
     };
     Failure::from(err)

@@ -3,14 +3,15 @@
 //!
 //! Invariants: an error points at the key when the file writes it (in the item's table or one
 //! level down in its shape table), else at the item's header, else at the start of the file;
-//! extents in messages are restated in the file's length unit.
+//! the words are [`wording`]'s, lengths in the file's unit.
 
-use fieldgrid_solver::design::{DesignError, Item, OutsideDomain};
+use fieldgrid_solver::design::{Design, DesignError, Item};
 
 use super::spans::InputError;
 use super::spans::{get, Kind, Node};
 use super::unit::LengthUnit;
 use super::values::{join, table_span};
+use super::wording;
 
 /// The table node of `item` in `tree`, and its key path.
 pub(super) fn item_node(tree: &Node, item: Item) -> Option<(&Node, String)> {
@@ -87,42 +88,16 @@ pub(super) fn locate(
     InputError::at(text, file, &table_span(node), &join(&path, key), message)
 }
 
-/// The sentence for a shape outside the domain, every length written by `len` followed by
-/// `unit`.
-fn outside_domain(o: &OutsideDomain, len: impl Fn(f64) -> String, unit: &str) -> String {
-    let [[sx0, sx1], [sy0, sy1]] = o.shape.map(|r| r.map(&len));
-    let [[dx0, dx1], [dy0, dy1]] = o.domain.map(|r| r.map(&len));
-    let what = if o.axisymmetric {
-        "the domain (only r >= 0 counts; r is x)"
-    } else {
-        "the domain"
-    };
-    let place = if o.is_point() {
-        format!("the point ({sx0} {unit}, {sy0} {unit})")
-    } else {
-        format!("the shape ({sx0}..{sx1} {unit} by {sy0}..{sy1} {unit})")
-    };
-    format!("{place} does not lie inside {what} ({dx0}..{dx1} {unit} by {dy0}..{dy1} {unit})")
-}
-
+/// The error `e` of the library's validation of `design`, worded (lengths in `unit`) and
+/// placed at its key.
 pub(super) fn design_error(
     text: &str,
     file: &str,
     tree: &Node,
     e: &DesignError,
+    design: &Design,
     unit: LengthUnit,
 ) -> InputError {
-    let message = match &e.outside {
-        // Extents restated in the file's unit, as the user wrote them.
-        Some(o) => {
-            let len = |v: f64| {
-                // Twelve digits: 0.012 / 0.001 reads 12, not 12.000000000000002.
-                let r: f64 = format!("{:.11e}", v / unit.scale()).parse().unwrap_or(v);
-                format!("{r}")
-            };
-            outside_domain(o, len, unit.name())
-        }
-        None => e.message.clone(),
-    };
+    let message = wording::describe(e, design, unit);
     locate(text, file, tree, e.item, e.key, message)
 }

@@ -16,8 +16,8 @@
 //! (conductors, dielectrics, charges, probes, the background), `shapes` an item's shape (SVG
 //! outlines included), `side_corners` which corners `round` rounds when none are chosen, `pictures` the
 //! `[pictures]` table,
-//! `locate` places the library's validation errors at their keys, `spans` keeps the parsed
-//! tree with positions, `unit` the file's length unit.
+//! `locate` places the library's validation errors at their keys, `wording` words them,
+//! `spans` keeps the parsed tree with positions, `unit` the file's length unit.
 
 pub mod expr;
 mod items;
@@ -30,8 +30,9 @@ mod spans;
 pub mod svg;
 mod unit;
 mod values;
+mod wording;
 
-use fieldgrid_solver::design::{self, Design, Item, Mode};
+use fieldgrid_solver::design::{self, Design, DesignError, Item, Mode};
 
 use locate::{design_error, locate};
 pub use shapes::MAX_SVG_BYTES;
@@ -97,6 +98,19 @@ impl DesignSource {
             message.into(),
         )
     }
+
+    /// A design-rule error of the library about this design (from a study, say), worded and
+    /// placed at its key as the reader places its own.
+    pub fn design_error(&self, e: &DesignError) -> InputError {
+        design_error(
+            &self.text,
+            &self.file,
+            &self.tree,
+            e,
+            &self.design,
+            self.unit,
+        )
+    }
 }
 
 /// Hex of the 64-bit FNV-1a hash of `text`.
@@ -149,7 +163,7 @@ pub fn read_design(
     let zoom = r.picture_zoom(&tree, &design.domain)?;
     let parameters = std::mem::take(&mut r.params);
     if let Err(e) = design::validate(&design) {
-        return Err(design_error(text, file, &tree, &e, unit));
+        return Err(design_error(text, file, &tree, &e, &design, unit));
     }
     Ok(DesignSource {
         design,

@@ -422,8 +422,10 @@ fn a_shape_outside_the_domain_is_described_in_the_files_unit() {
         ..Design::default()
     };
     let e = design::validate(&d).unwrap_err();
-    assert_eq!(e.message, "the shape does not lie inside the domain");
-    let out = e.outside.unwrap();
+    assert_eq!(e.code(), "outside-domain");
+    let design::Fault::Outside(out) = e.fault else {
+        panic!("{e}");
+    };
     assert_eq!(out.shape, [[0.5, 1.5], [0.0, 0.5]]);
     assert_eq!(out.domain, [[0.0, 1.0], [0.0, 1.0]]);
 }

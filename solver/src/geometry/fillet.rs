@@ -5,12 +5,40 @@
 //! from the vertex along each edge, so an edge holds the fillets at both its ends only when
 //! the two distances add up to no more than its length. Vertices where the outline goes
 //! straight on (turn below 1e-12 rad) are left as they are.
+//!
+//! Errors are [`FilletError`] values whose indices count in the loop as given (vertex k, edge
+//! k from vertex k to k + 1); the caller, which knows the loop's place in the shape and
+//! whether it reversed it, restates them in the user's order.
 
 use super::piece::{push_arc, Piece};
 use crate::design::Point;
 
 /// Turns below this (rad) count as straight on.
 const STRAIGHT: f64 = 1e-12;
+
+/// Why a loop cannot take its fillets.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub(crate) enum FilletError {
+    /// Edge k has zero length (or is not a number).
+    ZeroEdge {
+        /// The edge, 0-based.
+        edge: usize,
+    },
+    /// The loop folds straight back on itself at vertex k, which is to be rounded.
+    FoldsBack {
+        /// The vertex, 0-based.
+        vertex: usize,
+    },
+    /// The fillets at both ends of edge k need more than its length.
+    TooLarge {
+        /// The edge, 0-based.
+        edge: usize,
+        /// Its length, m.
+        length: f64,
+        /// What its fillets take of it, m.
+        needed: f64,
+    },
+}
 
 /// The loop through `v` (closed implicitly) as segments, dropping zero-length edges.
 pub(crate) fn plain_loop(v: &[Point]) -> Vec<Piece> {
@@ -25,9 +53,9 @@ pub(crate) fn plain_loop(v: &[Point]) -> Vec<Piece> {
 }
 
 /// The loop through `v` (closed implicitly, no zero-length edges) with the corners `pick`
-/// selects (one flag per vertex) rounded with radius `r` > 0; the others stay sharp. The
-/// message of an error names the edge that cannot hold its fillets.
-pub(crate) fn rounded_loop(v: &[Point], r: f64, pick: &[bool]) -> Result<Vec<Piece>, String> {
+/// selects (one flag per vertex) rounded with radius `r` > 0; the others stay sharp. An error
+/// names the edge or vertex at fault.
+pub(crate) fn rounded_loop(v: &[Point], r: f64, pick: &[bool]) -> Result<Vec<Piece>, FilletError> {
     let n = v.len();
     let edge = |k: usize| {
         let (a, b) = (v[k], v[(k + 1) % n]);
@@ -36,8 +64,8 @@ pub(crate) fn rounded_loop(v: &[Point], r: f64, pick: &[bool]) -> Result<Vec<Pie
         (len, [d[0] / len, d[1] / len])
     };
     let edges: Vec<(f64, Point)> = (0..n).map(edge).collect();
-    if edges.iter().any(|e| e.0.is_nan() || e.0 <= 0.0) {
-        return Err("a polygon edge has zero length".into());
+    if let Some(edge) = edges.iter().position(|e| e.0.is_nan() || e.0 <= 0.0) {
+        return Err(FilletError::ZeroEdge { edge });
     }
     // Per vertex k: tangent distance, tangent points and arc (centre, ccw).
     struct Corner {
@@ -66,10 +94,7 @@ pub(crate) fn rounded_loop(v: &[Point], r: f64, pick: &[bool]) -> Result<Vec<Pie
             continue;
         }
         if turn > std::f64::consts::PI - STRAIGHT {
-            return Err(format!(
-                "the outline folds back on itself at vertex {}",
-                k + 1
-            ));
+            return Err(FilletError::FoldsBack { vertex: k });
         }
         let t = r * (0.5 * turn).tan();
         let t1 = [p[0] - d1[0] * t, p[1] - d1[1] * t];
@@ -87,13 +112,14 @@ pub(crate) fn rounded_loop(v: &[Point], r: f64, pick: &[bool]) -> Result<Vec<Pie
     }
     // Each edge must hold the tangent lengths of both its ends.
     for k in 0..n {
-        let need = corners[k].t + corners[(k + 1) % n].t;
-        let len = edges[k].0;
-        if need > len * (1.0 + 1e-12) {
-            return Err(format!(
-                "round = {r} is too large for edge {} of length {len} (its corners need {need})",
-                k + 1
-            ));
+        let needed = corners[k].t + corners[(k + 1) % n].t;
+        let length = edges[k].0;
+        if needed > length * (1.0 + 1e-12) {
+            return Err(FilletError::TooLarge {
+                edge: k,
+                length,
+                needed,
+            });
         }
     }
     // Where two fillets meet on an edge, both use the same point.
@@ -159,8 +185,28 @@ mod tests {
     #[test]
     fn radius_too_large_names_the_edge() {
         let v = vec![[0.0, 0.0], [1.0, 0.0], [1.0, 5.0], [0.0, 5.0]];
-        let e = rounded_loop(&v, 0.6, &[true; 4]).unwrap_err();
-        assert!(e.contains("edge 1"), "{e}");
+        // Edge 0 (1 long) needs 0.6 at each end; edge 1 (5 long) holds its fillets.
+        match rounded_loop(&v, 0.6, &[true; 4]).unwrap_err() {
+            FilletError::TooLarge {
+                edge,
+                length,
+                needed,
+            } => {
+                assert_eq!((edge, length), (0, 1.0));
+                assert!((needed - 1.2).abs() < 1e-12, "{needed}");
+            }
+            e => panic!("{e:?}"),
+        }
+    }
+
+    #[test]
+    fn a_spike_to_be_rounded_names_its_vertex() {
+        // At vertex 1 the outline turns straight back along edge 0.
+        let v = vec![[0.0, 0.0], [3.0, 0.0], [2.0, 0.0], [2.0, 2.0]];
+        assert_eq!(
+            rounded_loop(&v, 0.1, &[true; 4]).unwrap_err(),
+            FilletError::FoldsBack { vertex: 1 }
+        );
     }
 
     #[test]

@@ -29,5 +29,5 @@ mod validate;
 pub use corners::{corners_off_sides, on_side, outline_polylines, sharp_corners};
 pub(crate) use corners::{unfolds_flat, unrounded_vertices};
 pub(crate) use intersect::meet;
-pub use outline::{outline, BBox, Outline, Piece, ShapeError};
+pub use outline::{outline, BBox, Outline, Piece};
 pub use validate::validate_design;

@@ -6,10 +6,10 @@
 //! Crossing rules: a line x = c is crossed by a non-vertical piece spanning `[x_min, x_max]`
 //! when `x_min < c <= x_max` (the half-open rule, equal to crossing the line just left of c).
 
-use crate::design::{Point, Shape};
+use crate::design::{Boundary, Edge, Point, Shape, ShapeError, ShapeFault};
 
 use super::crossings::{hits, HIT_A};
-use super::fillet;
+use super::fillet::{self, FilletError};
 use super::piece::{circle_loop, sub};
 pub use super::piece::{BBox, Piece};
 
@@ -21,28 +21,6 @@ pub struct Outline {
     pub loops: Vec<Vec<Piece>>,
     /// True for a polyline: the path is open and nothing is filled.
     pub open: bool,
-}
-
-/// A shape that cannot be turned into an outline (for example a fillet radius too large for
-/// an edge). `key` names the shape key at fault.
-#[derive(Clone, Debug, PartialEq, thiserror::Error)]
-#[error("{message}")]
-#[non_exhaustive]
-pub struct ShapeError {
-    /// The shape key at fault: `"rect"`, `"circle"`, `"ring"`, `"polygon"`, `"holes"`,
-    /// `"round"` or `"polyline"`.
-    pub key: &'static str,
-    /// What is wrong.
-    pub message: String,
-}
-
-impl ShapeError {
-    pub(crate) fn new(key: &'static str, message: impl Into<String>) -> Self {
-        ShapeError {
-            key,
-            message: message.into(),
-        }
-    }
 }
 
 /// The design key of a shape kind.
@@ -69,28 +47,63 @@ pub(crate) fn signed_area2(v: &[Point]) -> f64 {
 }
 
 /// A vertex loop oriented counter-clockwise (`ccw`) or clockwise, the corners `pick` selects
-/// (one flag per vertex of `v`) filleted with radius `round` (0: sharp).
+/// (one flag per vertex of `v`) filleted with radius `round` (0: sharp). `boundary` and `key`
+/// name the loop in errors, whose indices count in `v`'s order as given.
 fn polygon_loop(
     v: &[Point],
     round: f64,
     pick: &[bool],
     ccw: bool,
+    boundary: Boundary,
     key: &'static str,
 ) -> Result<Vec<Piece>, ShapeError> {
+    let n = v.len();
     let mut v = v.to_vec();
     let mut pick = pick.to_vec();
-    if (signed_area2(&v) > 0.0) != ccw {
+    let reversed = (signed_area2(&v) > 0.0) != ccw;
+    if reversed {
         v.reverse();
         pick.reverse();
     }
     if round > 0.0 {
-        fillet::rounded_loop(&v, round, &pick).map_err(|m| ShapeError::new("round", m))
+        // Vertex k of the reversed loop is vertex n-1-k as given; its edge k (from vertex
+        // n-1-k back to n-2-k) is edge n-2-k as given.
+        let vertex = |k: usize| if reversed { n - 1 - k } else { k };
+        let edge = |k: usize| Edge {
+            boundary,
+            index: if reversed { (2 * n - 2 - k) % n } else { k },
+        };
+        fillet::rounded_loop(&v, round, &pick).map_err(|e| {
+            let fault = match e {
+                FilletError::ZeroEdge { edge: k } => ShapeFault::ZeroEdge(edge(k)),
+                FilletError::FoldsBack { vertex: k } => ShapeFault::FoldsBack {
+                    boundary,
+                    vertex: vertex(k),
+                },
+                FilletError::TooLarge {
+                    edge: k,
+                    length,
+                    needed,
+                } => ShapeFault::RoundTooLarge {
+                    round,
+                    edge: edge(k),
+                    length,
+                    needed,
+                },
+            };
+            ShapeError::new("round", fault)
+        })
     } else {
         let l = fillet::plain_loop(&v);
         if l.len() < 3 {
             return Err(ShapeError::new(
                 key,
-                "a polygon needs at least 3 distinct vertices",
+                ShapeFault::TooFewVertices {
+                    boundary,
+                    count: l.len(),
+                    needed: 3,
+                    distinct: true,
+                },
             ));
         }
         Ok(l)
@@ -123,18 +136,28 @@ pub fn outline(shape: &Shape) -> Result<Outline, ShapeError> {
             if !(x[1] > x[0] && y[1] > y[0]) {
                 return Err(ShapeError::new(
                     "rect",
-                    "a rectangle needs x0 < x1 and y0 < y1",
+                    ShapeFault::EmptyRect { x: *x, y: *y },
                 ));
             }
             let v = [[x[0], y[0]], [x[1], y[0]], [x[1], y[1]], [x[0], y[1]]];
             Ok(Outline {
-                loops: vec![polygon_loop(&v, *round, &[true; 4], true, "rect")?],
+                loops: vec![polygon_loop(
+                    &v,
+                    *round,
+                    &[true; 4],
+                    true,
+                    Boundary::Outer,
+                    "rect",
+                )?],
                 open: false,
             })
         }
         Shape::Circle { center, radius } => {
             if radius.is_nan() || *radius <= 0.0 {
-                return Err(ShapeError::new("circle", "the radius must be positive"));
+                return Err(ShapeError::new(
+                    "circle",
+                    ShapeFault::RadiusNotPositive { radius: *radius },
+                ));
             }
             Ok(Outline {
                 loops: vec![circle_loop(*center, *radius, true)],
@@ -146,8 +169,20 @@ pub fn outline(shape: &Shape) -> Result<Outline, ShapeError> {
             inner,
             outer,
         } => {
-            if !(*inner >= 0.0 && inner < outer) {
-                return Err(ShapeError::new("ring", "a ring needs 0 <= inner < outer"));
+            if inner.is_nan() || *inner < 0.0 {
+                return Err(ShapeError::new(
+                    "ring",
+                    ShapeFault::RingInnerNegative { inner: *inner },
+                ));
+            }
+            if outer.is_nan() || inner >= outer {
+                return Err(ShapeError::new(
+                    "ring",
+                    ShapeFault::RingInnerNotSmaller {
+                        inner: *inner,
+                        outer: *outer,
+                    },
+                ));
             }
             let mut loops = vec![circle_loop(*center, *outer, true)];
             if *inner > 0.0 {
@@ -164,7 +199,12 @@ pub fn outline(shape: &Shape) -> Result<Outline, ShapeError> {
             if outer.len() < 3 {
                 return Err(ShapeError::new(
                     "polygon",
-                    "a polygon needs at least 3 vertices",
+                    ShapeFault::TooFewVertices {
+                        boundary: Boundary::Outer,
+                        count: outer.len(),
+                        needed: 3,
+                        distinct: false,
+                    },
                 ));
             }
             let total = outer.len() + holes.iter().map(Vec::len).sum::<usize>();
@@ -174,16 +214,32 @@ pub fn outline(shape: &Shape) -> Result<Outline, ShapeError> {
                 *round,
                 &pick[..outer.len()],
                 true,
+                Boundary::Outer,
                 "polygon",
             )?];
             let mut at = outer.len();
-            for h in holes {
+            for (k, h) in holes.iter().enumerate() {
                 if h.len() < 3 {
-                    return Err(ShapeError::new("holes", "a hole needs at least 3 vertices"));
+                    return Err(ShapeError::new(
+                        "holes",
+                        ShapeFault::TooFewVertices {
+                            boundary: Boundary::Hole(k),
+                            count: h.len(),
+                            needed: 3,
+                            distinct: false,
+                        },
+                    ));
                 }
                 let p = &pick[at..at + h.len()];
                 at += h.len();
-                loops.push(polygon_loop(h, *round, p, false, "holes")?);
+                loops.push(polygon_loop(
+                    h,
+                    *round,
+                    p,
+                    false,
+                    Boundary::Hole(k),
+                    "holes",
+                )?);
             }
             Ok(Outline { loops, open: false })
         }
@@ -196,7 +252,12 @@ pub fn outline(shape: &Shape) -> Result<Outline, ShapeError> {
             if path.is_empty() {
                 return Err(ShapeError::new(
                     "polyline",
-                    "a polyline needs at least 2 distinct points",
+                    ShapeFault::TooFewVertices {
+                        boundary: Boundary::Polyline,
+                        count: pts.len().min(1),
+                        needed: 2,
+                        distinct: true,
+                    },
                 ));
             }
             Ok(Outline {

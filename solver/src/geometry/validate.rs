@@ -2,7 +2,8 @@
 //!
 //! Each error names the item and the top-level key of that item at fault (a shape error
 //! names the shape's key, such as `"polygon"`, or `"holes"` and `"round"`), so the reader can
-//! point at the span. Checks run in file order and stop at the first failure.
+//! point at the span, and carries the rule broken as a [`Fault`] with its data (the reader
+//! words it). Checks run in file order and stop at the first failure.
 //!
 //! Tolerances: a shape may stick out of the domain by 1e-9 of the domain's larger side
 //! (rounding of user numbers and unit conversion); pieces closer than 1e-12 of the domain's
@@ -11,7 +12,9 @@
 mod shapes;
 
 use super::outline::{shape_key, Outline};
-use crate::design::{Charge, Design, DesignError, Drive, Item, Mode, Shape, Side};
+use crate::design::{
+    Charge, Design, DesignError, Drive, Fault, Item, Mode, OutsideDomain, Shape, Side,
+};
 use shapes::{checked_outline, err, in_domain, overlap, positive, Ctx};
 
 /// Largest coordinate of a domain, m.
@@ -27,18 +30,12 @@ pub const MIN_PERMITTIVITY: f64 = 1.0;
 /// the operator's weights overflow).
 pub const MAX_PERMITTIVITY: f64 = 1e12;
 
-/// Why a positive relative permittivity is refused, if it is.
-fn permittivity_out_of_range(eps: f64) -> Option<String> {
-    (!(MIN_PERMITTIVITY..=MAX_PERMITTIVITY).contains(&eps)).then(|| {
-        format!(
-            "the relative permittivity must lie between {MIN_PERMITTIVITY} (vacuum; no \
-             material's static permittivity is smaller) and {MAX_PERMITTIVITY:e}, got {}",
-            if (1e-4..1e6).contains(&eps.abs()) {
-                format!("{eps}")
-            } else {
-                format!("{eps:e}")
-            }
-        )
+/// The fault of a positive relative permittivity outside the accepted range, if it is.
+fn permittivity_out_of_range(eps: f64) -> Option<Fault> {
+    (!(MIN_PERMITTIVITY..=MAX_PERMITTIVITY).contains(&eps)).then_some(Fault::PermittivityRange {
+        value: eps,
+        min: MIN_PERMITTIVITY,
+        max: MAX_PERMITTIVITY,
     })
 }
 
@@ -55,26 +52,14 @@ fn piece_item(i: usize, p: usize) -> Item {
 pub fn validate_design(d: &Design) -> Result<(), DesignError> {
     let axisymmetric = d.mode == Mode::Axisymmetric;
     let dom = &d.domain;
-    if !(dom.x[0].is_finite() && dom.x[1].is_finite() && dom.x[1] > dom.x[0]) {
-        return Err(err(
-            Item::Grid,
-            "x",
-            "the domain needs x = [x0, x1] with finite x0 < x1",
-        ));
-    }
-    if !(dom.y[0].is_finite() && dom.y[1].is_finite() && dom.y[1] > dom.y[0]) {
-        return Err(err(
-            Item::Grid,
-            "y",
-            "the domain needs y = [y0, y1] with finite y0 < y1",
-        ));
+    for (key, range) in [("x", dom.x), ("y", dom.y)] {
+        if !(range[0].is_finite() && range[1].is_finite() && range[1] > range[0]) {
+            return Err(err(Item::Grid, key, Fault::DomainExtent { range }));
+        }
     }
     if !positive(dom.cell) {
-        return Err(err(
-            Item::Grid,
-            "cell",
-            format!("the cell size must be a positive number, got {}", dom.cell),
-        ));
+        let cell = dom.cell;
+        return Err(err(Item::Grid, "cell", Fault::CellNotPositive { cell }));
     }
     // Lengths far beyond any design: their squares and products (areas of revolution,
     // energies) would leave the range of double precision. Shapes lie inside the domain,
@@ -82,38 +67,25 @@ pub fn validate_design(d: &Design) -> Result<(), DesignError> {
     for (key, r) in [("x", dom.x), ("y", dom.y)] {
         let (reach, size) = (r[0].abs().max(r[1].abs()), r[1] - r[0]);
         if !(reach <= MAX_LENGTH && size >= MIN_LENGTH) {
-            return Err(err(
-                Item::Grid,
-                key,
-                format!(
-                    "the domain spans [{:e}, {:e}] m: fieldgrid computes with domains between \
-                     {MIN_LENGTH:e} m and {MAX_LENGTH:e} m",
-                    r[0], r[1]
-                ),
-            ));
+            let fault = Fault::DomainScale {
+                range: r,
+                min: MIN_LENGTH,
+                max: MAX_LENGTH,
+            };
+            return Err(err(Item::Grid, key, fault));
         }
     }
     if axisymmetric && dom.x[0] != 0.0 {
-        return Err(err(
-            Item::Grid,
-            "x",
-            "in axisymmetric mode x is the radius and must start at 0",
-        ));
+        let x0 = dom.x[0];
+        return Err(err(Item::Grid, "x", Fault::AxisNotAtZero { x0 }));
     }
     if let Some(depth) = d.depth {
         if axisymmetric {
-            return Err(err(
-                Item::Top,
-                "depth",
-                "depth applies to planar designs only",
-            ));
+            return Err(err(Item::Top, "depth", Fault::DepthAxisymmetric));
         }
         if !positive(depth) {
-            return Err(err(
-                Item::Top,
-                "depth",
-                format!("depth must be a positive number, got {depth}"),
-            ));
+            let fault = Fault::NotPositive { value: depth };
+            return Err(err(Item::Top, "depth", fault));
         }
     }
     let sides = [
@@ -125,45 +97,30 @@ pub fn validate_design(d: &Design) -> Result<(), DesignError> {
     for (k, (name, s)) in sides.iter().enumerate() {
         match s {
             Side::Fixed(v) if !v.is_finite() => {
-                return Err(err(
-                    Item::Sides,
-                    name,
-                    format!("the potential must be a finite number, got {v}"),
-                ));
+                return Err(err(Item::Sides, name, Fault::NotFinite { value: *v }));
             }
             Side::Axis if !(axisymmetric && k == 0) => {
-                return Err(err(
-                    Item::Sides,
-                    name,
-                    "only the left side of an axisymmetric design is the axis",
-                ));
+                return Err(err(Item::Sides, name, Fault::AxisOffLeft));
             }
             _ if axisymmetric && k == 0 && *s != Side::Axis => {
-                return Err(err(
-                    Item::Sides,
-                    name,
-                    "in axisymmetric mode the left side is the axis and takes no condition",
-                ));
+                return Err(err(Item::Sides, name, Fault::LeftIsAxis));
             }
             _ => {}
         }
     }
-    if !positive(d.background.permittivity) {
-        return Err(err(
-            Item::Background,
-            "permittivity",
-            "the relative permittivity must be a positive number",
-        ));
+    let bg = d.background;
+    if !positive(bg.permittivity) {
+        let fault = Fault::NotPositive {
+            value: bg.permittivity,
+        };
+        return Err(err(Item::Background, "permittivity", fault));
     }
-    if let Some(m) = permittivity_out_of_range(d.background.permittivity) {
-        return Err(err(Item::Background, "permittivity", m));
+    if let Some(f) = permittivity_out_of_range(bg.permittivity) {
+        return Err(err(Item::Background, "permittivity", f));
     }
-    if d.background.strength.is_some_and(|s| !positive(s)) {
-        return Err(err(
-            Item::Background,
-            "strength",
-            "the strength must be a positive number (V/m)",
-        ));
+    if let Some(value) = bg.strength.filter(|s| !positive(*s)) {
+        let fault = Fault::NotPositive { value };
+        return Err(err(Item::Background, "strength", fault));
     }
     let size = (dom.x[1] - dom.x[0]).max(dom.y[1] - dom.y[0]);
     let scale = size
@@ -184,19 +141,14 @@ pub fn validate_design(d: &Design) -> Result<(), DesignError> {
     let mut outlines: Vec<(usize, Outline)> = Vec::new();
     for (i, c) in d.conductors.iter().enumerate() {
         if d.conductors[..i].iter().any(|o| o.name == c.name) {
-            return Err(err(
-                Item::Conductor(i),
-                "name",
-                format!("a conductor named `{}` already exists", c.name),
-            ));
+            let name = c.name.clone();
+            let fault = Fault::DuplicateConductor { name };
+            return Err(err(Item::Conductor(i), "name", fault));
         }
         if let Drive::Fixed(v) = c.drive {
             if !v.is_finite() {
-                return Err(err(
-                    Item::Conductor(i),
-                    "potential",
-                    format!("the potential must be a finite number, got {v}"),
-                ));
+                let fault = Fault::NotFinite { value: v };
+                return Err(err(Item::Conductor(i), "potential", fault));
             }
         }
         let mine = outlines.len();
@@ -205,17 +157,12 @@ pub fn validate_design(d: &Design) -> Result<(), DesignError> {
             let o = checked_outline(shape, &ctx, item)?;
             for (j, prev) in &outlines[..mine] {
                 if let Some(how) = overlap(prev, &o, &ctx) {
-                    return Err(err(
-                        item,
-                        shape_key(shape),
-                        format!(
-                            "conductor `{}` {how} conductor `{}`: two conductors must not touch \
-                             or overlap; if they are one piece of metal (a pour and its via \
-                             fence, say), give both the same `name` and potential so they form \
-                             one conductor, and if they are separate, leave a gap between them",
-                            c.name, d.conductors[*j].name
-                        ),
-                    ));
+                    let fault = Fault::ConductorsMeet {
+                        conductor: c.name.clone(),
+                        other: d.conductors[*j].name.clone(),
+                        how,
+                    };
+                    return Err(err(item, shape_key(shape), fault));
                 }
             }
             outlines.push((i, o));
@@ -224,31 +171,19 @@ pub fn validate_design(d: &Design) -> Result<(), DesignError> {
     for (i, e) in d.dielectrics.iter().enumerate() {
         let item = Item::Dielectric(i);
         if !positive(e.permittivity) {
-            return Err(err(
-                item,
-                "permittivity",
-                format!(
-                    "the relative permittivity must be a positive number, got {}",
-                    e.permittivity
-                ),
-            ));
+            let fault = Fault::NotPositive {
+                value: e.permittivity,
+            };
+            return Err(err(item, "permittivity", fault));
         }
-        if let Some(m) = permittivity_out_of_range(e.permittivity) {
-            return Err(err(item, "permittivity", m));
+        if let Some(f) = permittivity_out_of_range(e.permittivity) {
+            return Err(err(item, "permittivity", f));
         }
-        if e.strength.is_some_and(|s| !positive(s)) {
-            return Err(err(
-                item,
-                "strength",
-                "the strength must be a positive number (V/m)",
-            ));
+        if let Some(value) = e.strength.filter(|s| !positive(*s)) {
+            return Err(err(item, "strength", Fault::NotPositive { value }));
         }
         if matches!(e.shape, Shape::Polyline(_)) {
-            return Err(err(
-                item,
-                "polyline",
-                "a polyline has no area: only conductors may be polylines",
-            ));
+            return Err(err(item, "polyline", Fault::PolylineArea));
         }
         checked_outline(&e.shape, &ctx, item)?;
     }
@@ -257,53 +192,45 @@ pub fn validate_design(d: &Design) -> Result<(), DesignError> {
         match c {
             Charge::Region { density, shape, .. } => {
                 if !density.is_finite() {
-                    return Err(err(
-                        item,
-                        "density",
-                        format!("the density must be a finite number, got {density}"),
-                    ));
+                    let fault = Fault::NotFinite { value: *density };
+                    return Err(err(item, "density", fault));
                 }
                 if matches!(shape, Shape::Polyline(_)) {
-                    return Err(err(
-                        item,
-                        "polyline",
-                        "a polyline has no area: only conductors may be polylines",
-                    ));
+                    return Err(err(item, "polyline", Fault::PolylineArea));
                 }
                 checked_outline(shape, &ctx, item)?;
             }
             Charge::Concentrated { at, amount, .. } => {
                 if !amount.is_finite() {
-                    return Err(err(
-                        item,
-                        "amount",
-                        format!("the amount must be a finite number, got {amount}"),
-                    ));
+                    let fault = Fault::NotFinite { value: *amount };
+                    return Err(err(item, "amount", fault));
                 }
                 if !in_domain(*at, &ctx) {
-                    return Err(err(item, "at", "the charge must lie inside the domain"));
+                    return Err(err(item, "at", Fault::Outside(outside_point(*at, &ctx))));
                 }
                 if axisymmetric && at[0] != 0.0 {
-                    return Err(err(item, "at", "in axisymmetric mode a concentrated charge is a point charge and must lie on the axis (x = 0)"));
+                    let fault = Fault::PointChargeOffAxis { x: at[0] };
+                    return Err(err(item, "at", fault));
                 }
             }
         }
     }
     for (i, p) in d.probes.iter().enumerate() {
         if !in_domain(p.at, &ctx) {
-            let out = crate::design::OutsideDomain {
-                shape: [[p.at[0], p.at[0]], [p.at[1], p.at[1]]],
-                domain: [ctx.x, ctx.y],
-                axisymmetric: ctx.axisymmetric,
-            };
-            return Err(DesignError {
-                message: out.summary().to_string(),
-                outside: Some(Box::new(out)),
-                ..err(Item::Probe(i), "at", "")
-            });
+            let fault = Fault::Outside(outside_point(p.at, &ctx));
+            return Err(err(Item::Probe(i), "at", fault));
         }
     }
     Ok(())
+}
+
+/// A point outside the domain as the fault's data.
+fn outside_point(at: crate::design::Point, ctx: &Ctx) -> OutsideDomain {
+    OutsideDomain {
+        shape: [[at[0], at[0]], [at[1], at[1]]],
+        domain: [ctx.x, ctx.y],
+        axisymmetric: ctx.axisymmetric,
+    }
 }
 
 #[cfg(test)]

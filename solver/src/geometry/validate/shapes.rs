@@ -7,7 +7,9 @@
 //! pieces closer than `Ctx::tol` count as touching when an arc is involved; a shape may stick
 //! out of the domain by `Ctx::tol_domain` at most.
 
-use crate::design::{DesignError, Item, OutsideDomain, Point, Shape};
+use crate::design::{
+    Boundary, DesignError, Edge, Fault, Item, Meeting, OutsideDomain, Point, Shape, ShapeFault,
+};
 use crate::geometry::fillet::plain_loop;
 use crate::geometry::intersect::{first_meeting, tag, Tagged};
 use crate::geometry::outline::{outline, shape_key, signed_area2, Outline};
@@ -23,7 +25,8 @@ pub(super) struct Ctx {
     pub(super) tol: f64,
 }
 
-pub(super) type Fail = (&'static str, String);
+/// A shape rule broken: the shape key at fault and the rule.
+pub(super) type Fail = (&'static str, ShapeFault);
 
 pub(super) fn finite_points<'a>(mut pts: impl Iterator<Item = &'a Point>) -> bool {
     pts.all(|p| p[0].is_finite() && p[1].is_finite())
@@ -77,19 +80,26 @@ pub(super) fn check_simple(outer: &[Point], holes: &[Vec<Point>], tol: f64) -> R
         } else {
             (q, p)
         };
-        let name = |t: &Tagged| {
-            if t.lp == 0 {
-                format!("edge {} of the polygon", t.idx + 1)
+        let edge = |t: &Tagged| Edge {
+            boundary: if t.lp == 0 {
+                Boundary::Outer
             } else {
-                format!("edge {} of hole {}", t.idx + 1, t.lp)
-            }
+                Boundary::Hole(t.lp - 1)
+            },
+            index: t.idx,
         };
         let key = if p.lp == 0 && q.lp == 0 {
             "polygon"
         } else {
             "holes"
         };
-        return Err((key, format!("{} crosses or touches {}", name(&p), name(&q))));
+        return Err((
+            key,
+            ShapeFault::EdgesMeet {
+                first: edge(&p),
+                second: edge(&q),
+            },
+        ));
     }
     // With no crossings, one vertex tells where a whole hole lies.
     let outer_only = Outline {
@@ -98,7 +108,7 @@ pub(super) fn check_simple(outer: &[Point], holes: &[Vec<Point>], tol: f64) -> R
     };
     for (h, v) in holes.iter().enumerate() {
         if !outer_only.contains(v[0]) {
-            return Err(("holes", format!("hole {} is not inside the polygon", h + 1)));
+            return Err(("holes", ShapeFault::HoleOutside { hole: h }));
         }
         for (g, w) in holes.iter().enumerate() {
             let other = Outline {
@@ -106,10 +116,7 @@ pub(super) fn check_simple(outer: &[Point], holes: &[Vec<Point>], tol: f64) -> R
                 open: false,
             };
             if g != h && other.contains(v[0]) {
-                return Err((
-                    "holes",
-                    format!("hole {} lies inside hole {}", h + 1, g + 1),
-                ));
+                return Err(("holes", ShapeFault::HoleInHole { hole: h, other: g }));
             }
             let _ = w;
         }
@@ -121,37 +128,33 @@ pub(super) fn check_simple(outer: &[Point], holes: &[Vec<Point>], tol: f64) -> R
 pub(super) fn check_shape(shape: &Shape, ctx: &Ctx) -> Result<Outline, Fail> {
     let key = shape_key(shape);
     if !all_finite(shape) {
-        return Err((key, "every number of the shape must be finite".into()));
+        return Err((key, ShapeFault::NotFinite));
     }
     match shape {
         Shape::Rect { x, y, round } => {
             if x[1] <= x[0] || y[1] <= y[0] {
-                return Err((
-                    "rect",
-                    "a rectangle needs x = [x0, x1] with x0 < x1 and y = [y0, y1] with y0 < y1"
-                        .into(),
-                ));
+                return Err(("rect", ShapeFault::EmptyRect { x: *x, y: *y }));
             }
             if *round < 0.0 {
-                return Err(("round", "round must not be negative".into()));
+                return Err(("round", ShapeFault::NegativeRound { round: *round }));
             }
         }
         Shape::Circle { radius, .. } => {
             if *radius <= 0.0 {
-                return Err((
-                    "circle",
-                    format!("the radius must be positive, got {radius}"),
-                ));
+                return Err(("circle", ShapeFault::RadiusNotPositive { radius: *radius }));
             }
         }
         Shape::Ring { inner, outer, .. } => {
             if *inner < 0.0 {
-                return Err(("ring", format!("inner must not be negative, got {inner}")));
+                return Err(("ring", ShapeFault::RingInnerNegative { inner: *inner }));
             }
             if inner >= outer {
                 return Err((
                     "ring",
-                    format!("inner ({inner}) must be smaller than outer ({outer})"),
+                    ShapeFault::RingInnerNotSmaller {
+                        inner: *inner,
+                        outer: *outer,
+                    },
                 ));
             }
         }
@@ -165,86 +168,78 @@ pub(super) fn check_shape(shape: &Shape, ctx: &Ctx) -> Result<Outline, Fail> {
             if let Some(k) = corners.iter().flatten().find(|&&k| k >= total) {
                 return Err((
                     "round_corners",
-                    format!("vertex {k} does not exist: the polygon has {total} vertices"),
+                    ShapeFault::NoSuchVertex {
+                        vertex: *k,
+                        vertices: total,
+                    },
                 ));
             }
+            let too_few = |boundary, count, needed| ShapeFault::TooFewVertices {
+                boundary,
+                count,
+                needed,
+                distinct: false,
+            };
             if outer.len() < 3 {
-                return Err((
-                    "polygon",
-                    format!("a polygon needs at least 3 vertices, got {}", outer.len()),
-                ));
+                return Err(("polygon", too_few(Boundary::Outer, outer.len(), 3)));
             }
             if let Some(k) = has_zero_edge(outer, true) {
-                return Err((
-                    "polygon",
-                    format!(
-                        "edge {} of the polygon has zero length (repeated vertex)",
-                        k + 1
-                    ),
-                ));
+                let edge = Edge {
+                    boundary: Boundary::Outer,
+                    index: k,
+                };
+                return Err(("polygon", ShapeFault::ZeroEdge(edge)));
             }
             for (h, v) in holes.iter().enumerate() {
                 if v.len() < 3 {
-                    return Err((
-                        "holes",
-                        format!("hole {} needs at least 3 vertices, got {}", h + 1, v.len()),
-                    ));
+                    return Err(("holes", too_few(Boundary::Hole(h), v.len(), 3)));
                 }
                 if let Some(k) = has_zero_edge(v, true) {
-                    return Err((
-                        "holes",
-                        format!(
-                            "edge {} of hole {} has zero length (repeated vertex)",
-                            k + 1,
-                            h + 1
-                        ),
-                    ));
+                    let edge = Edge {
+                        boundary: Boundary::Hole(h),
+                        index: k,
+                    };
+                    return Err(("holes", ShapeFault::ZeroEdge(edge)));
                 }
             }
             if *round < 0.0 {
-                return Err(("round", "round must not be negative".into()));
+                return Err(("round", ShapeFault::NegativeRound { round: *round }));
             }
             if signed_area2(outer) == 0.0 {
-                return Err((
-                    "polygon",
-                    "the polygon has no area (its vertices lie on one line)".into(),
-                ));
+                let boundary = Boundary::Outer;
+                return Err(("polygon", ShapeFault::NoArea { boundary }));
             }
             if let Some(h) = holes.iter().position(|v| signed_area2(v) == 0.0) {
-                return Err((
-                    "holes",
-                    format!("hole {} has no area (its vertices lie on one line)", h + 1),
-                ));
+                let boundary = Boundary::Hole(h);
+                return Err(("holes", ShapeFault::NoArea { boundary }));
             }
             check_simple(outer, holes, ctx.tol)?;
         }
         Shape::Polyline(p) => {
             if p.len() < 2 {
-                return Err((
-                    "polyline",
-                    format!("a polyline needs at least 2 points, got {}", p.len()),
-                ));
+                let fault = ShapeFault::TooFewVertices {
+                    boundary: Boundary::Polyline,
+                    count: p.len(),
+                    needed: 2,
+                    distinct: false,
+                };
+                return Err(("polyline", fault));
             }
             if let Some(k) = has_zero_edge(p, false) {
-                return Err((
-                    "polyline",
-                    format!(
-                        "segment {} of the polyline has zero length (repeated point)",
-                        k + 1
-                    ),
-                ));
+                let edge = Edge {
+                    boundary: Boundary::Polyline,
+                    index: k,
+                };
+                return Err(("polyline", ShapeFault::ZeroEdge(edge)));
             }
         }
     }
-    let o = outline(shape).map_err(|e| (e.key, e.message))?;
+    let o = outline(shape).map_err(|e| (e.key, e.fault))?;
     if let Shape::Polygon { round, .. } = shape {
         if *round > 0.0 {
             let items = tag(&o, 0);
             if first_meeting(&items, ctx.tol, |_, _| true, |_| true).is_some() {
-                return Err((
-                    "round",
-                    format!("with round = {round} the rounded outline crosses or touches itself"),
-                ));
+                return Err(("round", ShapeFault::RoundedOutlineMeets { round: *round }));
             }
         }
     }
@@ -277,16 +272,10 @@ pub(super) fn checked_outline(
     ctx: &Ctx,
     item: Item,
 ) -> Result<Outline, DesignError> {
-    let o = check_shape(shape, ctx).map_err(|(k, m)| err(item, k, m))?;
+    let o = check_shape(shape, ctx).map_err(|(k, f)| err(item, k, Fault::Shape(f)))?;
     match outside_domain(&o, ctx) {
         None => Ok(o),
-        Some(out) => {
-            let message = out.summary();
-            Err(DesignError {
-                outside: Some(Box::new(out)),
-                ..err(item, shape_key(shape), message)
-            })
-        }
+        Some(out) => Err(err(item, shape_key(shape), Fault::Outside(out))),
     }
 }
 
@@ -306,7 +295,7 @@ pub(super) fn probe_point(o: &Outline, axisymmetric: bool) -> Point {
 }
 
 /// Why two conductors may not both stand, if they touch or one holds the other.
-pub(super) fn overlap(a: &Outline, b: &Outline, ctx: &Ctx) -> Option<&'static str> {
+pub(super) fn overlap(a: &Outline, b: &Outline, ctx: &Ctx) -> Option<Meeting> {
     if !a.bbox().meets(&b.bbox(), ctx.tol) {
         return None;
     }
@@ -315,17 +304,17 @@ pub(super) fn overlap(a: &Outline, b: &Outline, ctx: &Ctx) -> Option<&'static st
     let tol = ctx.tol;
     let keep = |p: Point| !ctx.axisymmetric || p[0] >= -tol;
     if first_meeting(&items, tol, |p, q| p.tag != q.tag, keep).is_some() {
-        return Some("touches or overlaps");
+        return Some(Meeting::Touch);
     }
     if a.contains(probe_point(b, ctx.axisymmetric)) || b.contains(probe_point(a, ctx.axisymmetric))
     {
-        return Some("lies inside or around");
+        return Some(Meeting::Inside);
     }
     None
 }
 
-pub(super) fn err(item: Item, key: &'static str, message: impl Into<String>) -> DesignError {
-    DesignError::new(item, key, message)
+pub(super) fn err(item: Item, key: &'static str, fault: Fault) -> DesignError {
+    DesignError::new(item, key, fault)
 }
 
 pub(super) fn positive(v: f64) -> bool {

@@ -40,7 +40,7 @@ fn poly(v: &[[f64; 2]]) -> Shape {
 #[track_caller]
 fn fails(d: &Design, item: Item, key: &str) {
     match validate_design(d) {
-        Err(e) => assert_eq!((e.item, e.key), (item, key), "{}", e.message),
+        Err(e) => assert_eq!((e.item, e.key), (item, key), "{e}"),
         Ok(()) => panic!("expected an error on {item:?} {key}"),
     }
 }
@@ -634,3 +634,5 @@ fn axisymmetric_overlap_only_counts_for_r_positive() {
     d.domain.x = [-3.0, 10.0];
     fails(&d, Item::Conductor(1), "polygon");
 }
+
+mod faults;
