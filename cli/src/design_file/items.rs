@@ -15,7 +15,7 @@ use std::collections::HashMap;
 
 use fieldgrid_solver::design::{Background, Charge, Conductor, Dielectric, Drive, Mode, Probe};
 
-use super::shapes::{Owner, SHAPE_KEYS};
+use super::shapes::{item_keys, Owner, SHAPE_KEYS};
 use super::spans::{get, Entry, InputError, Node};
 use super::values::{join, table_span, Reader, Res};
 
@@ -74,24 +74,7 @@ impl Reader<'_> {
 
     pub(super) fn conductor(&self, node: &Node) -> Res<Conductor> {
         let p = "conductor";
-        let t = self.table(
-            node,
-            p,
-            &[
-                "name",
-                "potential",
-                "floating",
-                "rect",
-                "circle",
-                "ring",
-                "polygon",
-                "polyline",
-                "svg",
-                "holes",
-                "round",
-                "round_corners",
-            ],
-        )?;
+        let t = self.table(node, p, &item_keys(&["name", "potential", "floating"]))?;
         let name = self.name(t, node, p)?;
         if name.contains(',') {
             let e = get(t, "name").expect("name was read");
@@ -164,24 +147,7 @@ impl Reader<'_> {
 
     pub(super) fn dielectric(&self, node: &Node) -> Res<Dielectric> {
         let p = "dielectric";
-        let t = self.table(
-            node,
-            p,
-            &[
-                "name",
-                "permittivity",
-                "strength",
-                "rect",
-                "circle",
-                "ring",
-                "polygon",
-                "polyline",
-                "svg",
-                "holes",
-                "round",
-                "round_corners",
-            ],
-        )?;
+        let t = self.table(node, p, &item_keys(&["name", "permittivity", "strength"]))?;
         let name = self.name(t, node, p)?;
         if name == "background" {
             let e = get(t, "name").expect("name was read");
@@ -205,25 +171,7 @@ impl Reader<'_> {
 
     pub(super) fn charge(&self, node: &Node) -> Res<Charge> {
         let p = "charge";
-        let t = self.table(
-            node,
-            p,
-            &[
-                "name",
-                "density",
-                "at",
-                "amount",
-                "rect",
-                "circle",
-                "ring",
-                "polygon",
-                "polyline",
-                "svg",
-                "holes",
-                "round",
-                "round_corners",
-            ],
-        )?;
+        let t = self.table(node, p, &item_keys(&["name", "density", "at", "amount"]))?;
         let name = self.name(t, node, p)?;
         let concentrated = t.iter().find(|e| e.key == "at" || e.key == "amount");
         let region = t

@@ -42,7 +42,16 @@ pub(super) fn read_svg_file(path: &std::path::Path) -> std::io::Result<String> {
     Ok(text)
 }
 
+/// The keys naming an item's shape, exactly one of which an item gives.
 pub(super) const SHAPE_KEYS: &[&str] = &["rect", "circle", "ring", "polygon", "polyline", "svg"];
+
+/// The keys beside a shape key in an item's table.
+pub(super) const BESIDE_SHAPE: [&str; 3] = ["holes", "round", "round_corners"];
+
+/// The keys of an item's table: `own` (name, potential, ...), then the shape's keys.
+pub(super) fn item_keys<'k>(own: &[&'k str]) -> Vec<&'k str> {
+    [own, SHAPE_KEYS, &BESIDE_SHAPE].concat()
+}
 
 /// Which kind of item a shape belongs to (polylines are for conductors only).
 #[derive(Clone, Copy, PartialEq)]
@@ -84,7 +93,7 @@ impl Reader<'_> {
             }
         };
         let key = join(path, &e.key);
-        for extra in ["holes", "round", "round_corners"] {
+        for extra in BESIDE_SHAPE {
             if let Some(x) = get(t, extra) {
                 if e.key != "polygon" {
                     let hint = if extra != "holes" && e.key == "rect" {
