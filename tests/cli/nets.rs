@@ -18,10 +18,7 @@ fn pour_design(ground: &str) -> String {
     format!(
         r#"
 unit = "mm"
-[grid]
-x = [0.0, 10.0]
-y = [0.0, 6.0]
-cell = 0.1
+{grid}
 lattice = "uniform"
 [sides]
 top = "open"
@@ -30,7 +27,8 @@ name = "trace"
 potential = 1.0
 rect = {{ x = [4.0, 6.0], y = [2.0, 2.2] }}
 {ground}
-"#
+"#,
+        grid = fieldgrid_tests::designs::grid_table([0.0, 10.0], [0.0, 6.0], 0.1)
     )
 }
 

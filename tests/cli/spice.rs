@@ -63,14 +63,16 @@ fn read_back(text: &str) -> (Vec<String>, Vec<Vec<f64>>) {
     (ports, m)
 }
 
-const THREE: &str = r#"
-unit = "mm"
-depth = 25.0
-[grid]
-x = [0.0, 8.0]
-y = [0.0, 4.0]
-cell = 0.1
-[sides]
+/// Three conductors and a floating shield on a board, 25 mm deep.
+fn three() -> String {
+    format!(
+        "\nunit = \"mm\"\ndepth = 25.0\n{}\n{THREE_BODIES}",
+        fieldgrid_tests::designs::grid_table([0.0, 8.0], [0.0, 4.0], 0.1)
+    )
+}
+
+/// The sides and bodies of [`three`].
+const THREE_BODIES: &str = r#"[sides]
 left = "symmetry"
 right = "ground"
 [[dielectric]]
@@ -112,7 +114,7 @@ fn solve_with_circuit(name: &str, file: &str, text: &str) -> (PathBuf, serde_jso
 
 #[test]
 fn exported_subcircuit_reproduces_the_maxwell_matrix() {
-    let (out, summary) = solve_with_circuit("three", "three.toml", THREE);
+    let (out, summary) = solve_with_circuit("three", "three.toml", &three());
     let names: Vec<String> = summary["capacitance"]["names"]
         .as_array()
         .unwrap()
@@ -162,7 +164,7 @@ fn exported_subcircuit_reproduces_the_maxwell_matrix() {
 #[test]
 fn planar_export_without_depth_is_skipped_or_refused() {
     let dir = scratch(SCRATCH, "nodepth");
-    let design = write(&dir, "nodepth.toml", &THREE.replace("depth = 25.0\n", ""));
+    let design = write(&dir, "nodepth.toml", &three().replace("depth = 25.0\n", ""));
     let out = dir.join("out");
     expect_for(
         run(&["solve", &design, "--out", s(&out), "--quiet"]),

@@ -10,16 +10,15 @@ use fieldgrid_tests::cli::{expect_for, run, s, scratch, write};
 const SCRATCH: &str = "fieldgrid-sweep";
 
 /// Two strips over a ground plane; the gap between them and the width of the second vary.
-const STRIPS: &str = r#"
-unit = "mm"
-[parameters]
-gap = 0.5
-w = 1.0
-[grid]
-x = [0.0, 6.0]
-y = [0.0, 3.0]
-cell = 0.1
-[sides]
+fn strips() -> String {
+    format!(
+        "\nunit = \"mm\"\n[parameters]\ngap = 0.5\nw = 1.0\n{}\n{STRIPS_BODIES}",
+        fieldgrid_tests::designs::grid_table([0.0, 6.0], [0.0, 3.0], 0.1)
+    )
+}
+
+/// The sides and bodies of [`strips`].
+const STRIPS_BODIES: &str = r#"[sides]
 left = "symmetry"
 right = "symmetry"
 [[conductor]]
@@ -63,7 +62,7 @@ fn rows(dir: &Path) -> (Vec<String>, Vec<Vec<String>>) {
 #[test]
 fn sharded_sweep_merges_into_the_unsharded_table_row_for_row() {
     let dir = scratch(SCRATCH, "shards");
-    let design = write(&dir, "strips.toml", STRIPS);
+    let design = write(&dir, "strips.toml", &strips());
 
     let whole = dir.join("whole");
     expect_for(sweep(&design, &whole, &[]), 0, "unsharded sweep");
@@ -143,7 +142,7 @@ fn sharded_sweep_merges_into_the_unsharded_table_row_for_row() {
     let other_design = write(
         &dir,
         "other.toml",
-        &STRIPS.replace("cell = 0.1", "cell = 0.12"),
+        &strips().replace("cell = 0.1", "cell = 0.12"),
     );
     let other = dir.join("other");
     expect_for(
@@ -161,7 +160,7 @@ fn sharded_sweep_merges_into_the_unsharded_table_row_for_row() {
 #[test]
 fn sweep_resumes_and_refuses_another_sweep_in_its_directory() {
     let dir = scratch(SCRATCH, "resume");
-    let design = write(&dir, "strips.toml", STRIPS);
+    let design = write(&dir, "strips.toml", &strips());
     let out = dir.join("out");
     expect_for(sweep(&design, &out, &["--shard", "1/2"]), 0, "first run");
     // Mark a finished row; a re-run with the same arguments must keep it (skip the point).
@@ -219,7 +218,7 @@ fn sweep_resumes_and_refuses_another_sweep_in_its_directory() {
 #[test]
 fn sweep_refuses_bad_arguments_before_solving() {
     let dir = scratch(SCRATCH, "bad");
-    let design = write(&dir, "strips.toml", STRIPS);
+    let design = write(&dir, "strips.toml", &strips());
     let out = dir.join("out");
     let o = s(&out);
     for (args, what) in [

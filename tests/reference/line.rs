@@ -146,10 +146,7 @@ fn microstrip_in(u: f64, eps_r: f64, cell: f64, room: f64) -> String {
     format!(
         r#"
 unit = "mm"
-[grid]
-x = [0.0, {x1}]
-y = [0.0, {y1}]
-cell = {cell}
+{grid}
 [sides]
 left = "symmetry"
 right = "open"
@@ -164,8 +161,8 @@ name = "strip"
 potential = 1.0
 polyline = [[0.0, 1.0], [{hw}, 1.0]]
 "#,
+        grid = fieldgrid_tests::designs::grid_table([0.0, hw + room], [0.0, 1.0 + room], cell),
         x1 = hw + room,
-        y1 = 1.0 + room
     )
 }
 

@@ -137,12 +137,10 @@ fn line_charge_in_grounded_cylinder_matches_coulomb_field_and_potential() {
     // Field of a line charge E = lambda / (2 pi eps0 r) and potential
     // phi = lambda / (2 pi eps0) ln(b / r) inside a grounded cylinder of radius b
     // (Griffiths 2017, sec. 2.3, example of the infinite line charge).
-    let text = r#"
-unit = "mm"
-[grid]
-x = [-5.2, 5.2]
-y = [-5.2, 5.2]
-cell = 0.1
+    let text = format!(
+        "\nunit = \"mm\"\n{}{}",
+        designs::grid_table([-5.2, 5.2], [-5.2, 5.2], 0.1),
+        r#"
 [[conductor]]
 name = "shell"
 potential = 0.0
@@ -154,8 +152,9 @@ amount = 1.0e-9
 [[probe]]
 name = "p"
 at = [2.5, 0.0]
-"#;
-    let s = solve(&design(text));
+"#
+    );
+    let s = solve(&design(&text));
     let (lambda, b, r): (f64, f64, f64) = (1.0e-9, 5e-3, 2.5e-3);
     let k = lambda / (2.0 * PI * EPS0);
     let p = &s.probes[0];

@@ -477,10 +477,7 @@ fn coated_plate(top: f64, lattice: &str) -> String {
     format!(
         r#"
 unit = "mm"
-[grid]
-x = [0.0, 2.0]
-y = [0.0, 1.0]
-cell = 0.1
+{grid}
 lattice = "{lattice}"
 [sides]
 left = "symmetry"
@@ -496,7 +493,8 @@ name = "plate"
 potential = 1.0
 rect = {{ x = [0.0, 2.0], y = [0.0, {top}] }}
 "#,
-        top + 0.01
+        top + 0.01,
+        grid = fieldgrid_tests::designs::grid_table([0.0, 2.0], [0.0, 1.0], 0.1)
     )
 }
 

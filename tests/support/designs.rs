@@ -19,6 +19,15 @@ macro_rules! mirror_box_4x2_mm {
     };
 }
 
+/// The `[grid]` table of a design: the domain `x` by `y` and the cell size, in the design's
+/// unit, without a line break at its end (it stands on a line of its own in a design's text).
+pub fn grid_table(x: [f64; 2], y: [f64; 2], cell: f64) -> String {
+    format!(
+        "[grid]\nx = [{:?}, {:?}]\ny = [{:?}, {:?}]\ncell = {cell:?}",
+        x[0], x[1], y[0], y[1]
+    )
+}
+
 /// Two plates 0.2 mm thick spanning the whole width of a 4 mm box between mirror sides, the
 /// lower grounded and the upper at 1 V, `g` mm apart (a parameter, 0.5 mm): the field between
 /// them is uniform, so their coupling per metre is exactly -eps0 W / g (W = 4 mm).
@@ -106,10 +115,7 @@ pub fn plates_at_100_v(lower_top: f64, upper_bottom: f64, cell: f64) -> String {
     format!(
         r#"
 unit = "mm"
-[grid]
-x = [0.0, 4.0]
-y = [0.0, 3.0]
-cell = {cell:?}
+{grid}
 [sides]
 left = "symmetry"
 right = "symmetry"
@@ -123,7 +129,8 @@ rect = {{ x = [0.0, 4.0], y = [0.0, {lower_top:?}] }}
 name = "upper"
 potential = 100.0
 rect = {{ x = [0.0, 4.0], y = [{upper_bottom:?}, 3.0] }}
-"#
+"#,
+        grid = grid_table([0.0, 4.0], [0.0, 3.0], cell)
     )
 }
 
@@ -133,10 +140,7 @@ pub fn coax(cell: f64) -> String {
     format!(
         r#"
 unit = "mm"
-[grid]
-x = [-2.8, 2.8]
-y = [-2.8, 2.8]
-cell = {cell}
+{grid}
 [[conductor]]
 name = "inner"
 potential = 1.0
@@ -145,7 +149,8 @@ circle = {{ center = [0.0, 0.0], radius = 1.0 }}
 name = "outer"
 potential = 0.0
 ring = {{ center = [0.0, 0.0], inner = 2.5, outer = 2.8 }}
-"#
+"#,
+        grid = grid_table([-2.8, 2.8], [-2.8, 2.8], cell)
     )
 }
 
@@ -157,16 +162,14 @@ pub fn axisymmetric_in_open_space(reach: f64, cell: f64, body: &str) -> String {
         r#"
 unit = "mm"
 mode = "axisymmetric"
-[grid]
-x = [0.0, {reach}]
-y = [-{reach}, {reach}]
-cell = {cell}
+{grid}
 [sides]
 right = "open"
 bottom = "open"
 top = "open"
 {body}
-"#
+"#,
+        grid = grid_table([0.0, reach], [-reach, reach], cell)
     )
 }
 

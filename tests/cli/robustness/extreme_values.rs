@@ -42,10 +42,7 @@ fn offset_box(side: &str, pad: &str) -> String {
     format!(
         r#"
 unit = "mm"
-[grid]
-x = [0.0, 10.0]
-y = [0.0, 5.0]
-cell = 0.1
+{grid}
 [sides]
 left = {side}
 right = {side}
@@ -59,7 +56,8 @@ rect = {{ x = [4.0, 6.0], y = [2.0, 3.0] }}
 name = "plate"
 floating = true
 rect = {{ x = [7.0, 8.0], y = [1.0, 4.0] }}
-"#
+"#,
+        grid = fieldgrid_tests::designs::grid_table([0.0, 10.0], [0.0, 5.0], 0.1)
     )
 }
 
