@@ -18,7 +18,13 @@
 //!   over its extent.
 //!
 //! Between two node lines the nodes are placed at equal steps of `∫ dt / h`, the count
-//! rounded up, so no cell is larger than the target there. [`refined`] splits every such
+//! rounded up, so no cell is larger than the target there; a translated design gets its
+//! lines translated (to rounding: a count within rounding of a whole number is that number).
+//! Each axis keeps within a budget: at most `line_budget` base cells per cell of
+//! a uniform lattice of the coarsest spacing; a design whose features ask for more (many
+//! singular points, fillets and thin gaps closer together than the cones need to grow to the
+//! coarsest spacing, where the count no longer falls with a larger `cell`) has the cones of
+//! that axis grow faster, by the first of a ladder of steeper growths that fits. [`refined`] splits every such
 //! step into `2^k` equal steps of the same integral: the graded family. Every other line of
 //! a member is the member below, so the coarser lattices of an error estimate hold every
 //! node line; away from singular points a member is the one below bisected, and next to a
@@ -34,10 +40,12 @@
 //!
 //! Invariants of [`refined`] (and [`lines`], its member 0): each list is strictly
 //! increasing, starts and ends on the domain sides and holds every node line above; no cell
-//! exceeds the coarsest spacing over `2^k`; outside the radical zones the ratio of
-//! neighbouring cells is at most `growth * (min_cells + 1) / min_cells` (the growth of the
-//! target size times the rounding of a cell count up); the cells next to a graded point are
-//! at most `growth` times its target size. Pure functions of the design, lengths in metres.
+//! exceeds the coarsest spacing over `2^k` (to 1e-11); on an axis within its budget, outside
+//! the radical zones the ratio of neighbouring cells is at most
+//! `growth * (min_cells + 1) / min_cells` (the growth of the target size times the rounding
+//! of a cell count up), and the cells next to a graded point are at most `growth` times its
+//! target size (an axis over it: the same with its steeper growth). Pure functions of the
+//! design, lengths in metres.
 
 use crate::design::{Design, Point};
 use crate::geometry::{outline, sharp_corners, BBox, Outline, Piece};
@@ -65,6 +73,11 @@ pub struct Params {
     pub min_cells: usize,
     /// Fewest cells per radius along a circular arc, >= 1.
     pub cells_per_radius: usize,
+    /// Most cells along an axis of the base lines ([`lines`]) per cell of a uniform lattice
+    /// of the coarsest spacing there, > 0: beyond it the cones grow faster (a steeper
+    /// `growth`), so a design with many features close together stays within a size its
+    /// `cell` sets.
+    pub line_budget: f64,
 }
 
 impl Default for Params {
@@ -77,6 +90,7 @@ impl Default for Params {
             thin_end_grading: 0.4,
             min_cells: 4,
             cells_per_radius: 8,
+            line_budget: 32.0,
         }
     }
 }
@@ -96,7 +110,8 @@ impl Params {
         self
     }
 
-    /// Largest ratio of neighbouring cells that [`lines`] can produce with these settings.
+    /// Largest ratio of neighbouring cells that [`lines`] can produce with these settings on
+    /// an axis within its budget.
     pub fn max_ratio(&self) -> f64 {
         self.growth * (self.min_cells as f64 + 1.0) / self.min_cells as f64
     }
@@ -220,7 +235,8 @@ pub fn refined(
             && params.thin_end_grading > 0.0
             && params.thin_end_grading <= 1.0
             && params.min_cells >= 1
-            && params.cells_per_radius >= 1,
+            && params.cells_per_radius >= 1
+            && params.line_budget > 0.0,
         "grading parameters out of range: {params:?}"
     );
     let (mut ax, mut ay) = (Axis::default(), Axis::default());
@@ -289,9 +305,14 @@ pub fn refined(
         }
     }
     let split = 1usize << bisections;
+    // The budget counts the lines of the base (member 0), so every member of a family takes
+    // the same slope and the members nest.
+    let budget = |len: f64| params.line_budget * (len / coarsest).ceil().max(1.0);
+    let sx = slope_within(&ax, coarsest, params, budget(lx));
+    let sy = slope_within(&ay, coarsest, params, budget(ly));
     Ok(Lines {
-        x: graded_axis(&ax, coarsest, params, split),
-        y: graded_axis(&ay, coarsest, params, split),
+        x: graded_axis(&ax, coarsest, params, sx, split),
+        y: graded_axis(&ay, coarsest, params, sy, split),
     })
 }
 
@@ -417,26 +438,59 @@ impl Feature {
     }
 }
 
-/// The nodes of one axis: its node lines, and between each neighbouring pair nodes at
-/// equal steps of `∫ dt / h` (the number of cells rounded up, times `split`).
-fn graded_axis(axis: &Axis, coarsest: f64, params: &Params, split: usize) -> Vec<f64> {
-    let slope = params.growth.ln();
-    let min_cells = params.min_cells as f64;
-    let mut features = axis.features.clone();
-    for w in axis.lines.windows(2) {
-        features.push(Feature {
-            lo: w[0],
-            hi: w[1],
-            size: (w[1] - w[0]) / min_cells,
-            radical: None,
-        });
+/// Counts of `∫ dt / h` this close (relative) above a whole number are that number: the
+/// integral of a translated axis differs from the original's by rounding only,
+/// and must not round up to one cell more.
+const WHOLE: f64 = 1.0e-11;
+
+/// Cells for the integral `s` of `1 / h` over one stretch between node lines: `s` rounded
+/// up, at least 1.
+fn count(s: f64) -> f64 {
+    (s * (1.0 - WHOLE)).ceil().max(1.0)
+}
+
+/// The slope of the cones (the log of their growth per unit length over size) that keeps the
+/// axis within `budget` cells: the grading's own when it does, else the first of a ladder
+/// of steeper slopes (each `2^(1/4)` times the one before, up to 16 times) that does, or
+/// the steepest.
+fn slope_within(axis: &Axis, coarsest: f64, params: &Params, budget: f64) -> f64 {
+    let base = params.growth.ln();
+    let mut table = Vec::new();
+    let mut slope = base;
+    for step in 0..=STEEPER {
+        slope = base * (step as f64 / 4.0).exp2();
+        let cells: f64 = stretches(axis, coarsest, params, slope)
+            .map(|(a, b, near)| count(integral(a, b, &near, slope, coarsest, &mut table)))
+            .sum();
+        if cells <= budget {
+            break;
+        }
     }
-    let mut out = vec![axis.lines[0]];
-    let mut table: Vec<(f64, f64)> = Vec::new();
-    for w in axis.lines.windows(2) {
+    slope
+}
+
+/// Steps of the ladder of [`slope_within`] above the grading's own slope.
+const STEEPER: usize = 16;
+
+/// Each stretch between neighbouring node lines, with the cones that can reach below the
+/// cap inside it (the features of the axis and the `min_cells` limit of every stretch).
+fn stretches<'a>(
+    axis: &'a Axis,
+    coarsest: f64,
+    params: &Params,
+    slope: f64,
+) -> impl Iterator<Item = (f64, f64, Vec<Feature>)> + 'a {
+    let min_cells = params.min_cells as f64;
+    let gaps = axis.lines.windows(2).map(move |w| Feature {
+        lo: w[0],
+        hi: w[1],
+        size: (w[1] - w[0]) / min_cells,
+        radical: None,
+    });
+    let features: Vec<Feature> = axis.features.iter().copied().chain(gaps).collect();
+    axis.lines.windows(2).map(move |w| {
         let (a, b) = (w[0], w[1]);
-        // Only the cones that can reach below the cap inside [a, b] matter.
-        let near: Vec<Feature> = features
+        let near = features
             .iter()
             .filter(|f| {
                 let dist = (f.lo - b).max(a - f.hi).max(0.0);
@@ -444,20 +498,43 @@ fn graded_axis(axis: &Axis, coarsest: f64, params: &Params, split: usize) -> Vec
             })
             .copied()
             .collect();
-        // s(t) = ∫_a^t dt / h by the trapezoid rule on steps of h/16: the piecewise-linear
-        // map has slope dt/ds the harmonic mean of two target sizes, never above either.
-        table.clear();
-        let (mut t, mut s) = (a, 0.0);
-        let mut h = target(a, &near, slope, coarsest);
+        (a, b, near)
+    })
+}
+
+/// `s(t) = ∫_a^t dt / h` over `[a, b]` into `table` as `(t, s)` pairs, returning `s(b)`:
+/// the trapezoid rule on steps of h/16 from `a`, so the piecewise-linear map has slope
+/// dt/ds the harmonic mean of two target sizes, never above either.
+fn integral(
+    a: f64,
+    b: f64,
+    near: &[Feature],
+    slope: f64,
+    coarsest: f64,
+    table: &mut Vec<(f64, f64)>,
+) -> f64 {
+    table.clear();
+    let (mut t, mut s) = (a, 0.0);
+    let mut h = target(a, near, slope, coarsest);
+    table.push((t, s));
+    while t < b {
+        let t1 = (t + h / 16.0).min(b);
+        let h1 = target(t1, near, slope, coarsest);
+        s += 0.5 * (t1 - t) * (1.0 / h + 1.0 / h1);
+        (t, h) = (t1, h1);
         table.push((t, s));
-        while t < b {
-            let t1 = (t + h / 16.0).min(b);
-            let h1 = target(t1, &near, slope, coarsest);
-            s += 0.5 * (t1 - t) * (1.0 / h + 1.0 / h1);
-            (t, h) = (t1, h1);
-            table.push((t, s));
-        }
-        let n = s.ceil().max(1.0) * split as f64;
+    }
+    s
+}
+
+/// The nodes of one axis: its node lines, and between each neighbouring pair nodes at
+/// equal steps of `∫ dt / h` (the number of cells rounded up, times `split`).
+fn graded_axis(axis: &Axis, coarsest: f64, params: &Params, slope: f64, split: usize) -> Vec<f64> {
+    let mut out = vec![axis.lines[0]];
+    let mut table: Vec<(f64, f64)> = Vec::new();
+    for (a, b, near) in stretches(axis, coarsest, params, slope) {
+        let s = integral(a, b, &near, slope, coarsest, &mut table);
+        let n = count(s) * split as f64;
         let mut k = 0;
         for i in 1..n as usize {
             let si = s * i as f64 / n;

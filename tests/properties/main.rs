@@ -2,7 +2,8 @@
 //! electrostatics must keep, checked on randomly drawn small designs.
 //!
 //! - Capacitance does not change when the whole design (domain included) is translated, or
-//!   rotated by 90 degrees (the five-point lattice maps onto itself).
+//!   rotated by 90 degrees (the five-point lattice maps onto itself), on the uniform lattice
+//!   and on the graded one (whose lines move with the design).
 //! - The order of a polygon's vertices (direction, starting vertex) does not matter.
 //! - A design mirror-symmetric about a line gives a mirror-symmetric potential.
 //! - Results are linear in the sources: every potential and charge scaled by s scales
@@ -19,7 +20,8 @@
 //!   plus one cell per snapped node.
 //!
 //! Every runner has a fixed seed and no failure file, so runs are reproducible; case counts
-//! are small because each case solves (small lattices, about 33 x 25 nodes). The random
+//! are small because each case solves (small lattices, about 33 x 25 nodes uniform, about
+//! 130 x 130 graded). The random
 //! designs come from [`scenes`]; this file holds the runner and the comparisons the
 //! properties share.
 
@@ -28,7 +30,7 @@ mod linearity;
 mod raster_area;
 mod scenes;
 
-use fieldgrid_solver::design::Design;
+use fieldgrid_solver::design::{Design, Lattice};
 use fieldgrid_solver::solvers::{Method, Params};
 use fieldgrid_solver::study::{self, Solution, StudyParams};
 use proptest::prelude::*;
@@ -47,15 +49,22 @@ fn runner(cases: u32, seed: u8) -> TestRunner {
     )
 }
 
-fn params() -> StudyParams {
+fn params(lattice: Lattice) -> StudyParams {
+    // The graded lattice's smallest cells (nanometres at the thin ends) leave the residual
+    // stagnating near 4e-11 of the start: 1e-10 there, still far below the checks' 1e-8.
+    let tol = match lattice {
+        Lattice::Graded => 1e-10,
+        _ => 1e-12,
+    };
     StudyParams::default()
         .with_method(Method::Multigrid)
-        .with_solver(Params::default().with_tol(1e-12))
+        .with_solver(Params::default().with_tol(tol))
         .with_error_estimate(false)
 }
 
 fn solve(d: &Design) -> Result<Solution, TestCaseError> {
-    let s = study::run(d, &params()).map_err(|e| TestCaseError::fail(format!("study: {e}")))?;
+    let s = study::run(d, &params(d.lattice))
+        .map_err(|e| TestCaseError::fail(format!("study: {e}")))?;
     prop_assert!(s.solve.converged, "not converged: {:?}", s.solve);
     Ok(s)
 }
