@@ -457,7 +457,11 @@ fn slope_within(axis: &Axis, coarsest: f64, params: &Params, budget: f64) -> f64
     let base = params.growth.ln();
     let mut table = Vec::new();
     let mut slope = base;
-    for step in 0..=STEEPER {
+    // Every stretch takes at least `min_cells` whatever the slope: past the budget already,
+    // the ladder would end on its steepest step.
+    let fewest = (axis.lines.len() - 1) as f64 * params.min_cells as f64;
+    let first = if fewest > budget { STEEPER } else { 0 };
+    for step in first..=STEEPER {
         slope = base * (step as f64 / 4.0).exp2();
         let cells: f64 = stretches(axis, coarsest, params, slope)
             .map(|(a, b, near)| count(integral(a, b, &near, slope, coarsest, &mut table)))
