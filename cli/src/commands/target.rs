@@ -21,9 +21,10 @@
 //! `worst_margin` target is met from above (the point kept has a margin at least the wanted
 //! one whenever a point solved has);
 //! each solve starts from the previous one's solutions when its lattice has the same node
-//! counts (`warm_starts` counts them), else from zero (each point plans its own grid, whose
-//! size may change with the parameter); either way it stops at the same relative residual; exit 0 when every target was met, 3 when the search stopped first or a solve
-//! did not converge (the files then hold the best point and say so).
+//! lines (`warm_starts` counts them), else from zero (each point plans its own grid, whose
+//! lines may move with the parameter); either way it stops at the same relative residual;
+//! exit 0 when every target was met, 3 when the search stopped first or a solve did not
+//! converge (the files then hold the best point and say so).
 
 use super::evaluate::{self, Evaluation, Setup, Solved};
 use super::study_params;

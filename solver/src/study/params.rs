@@ -96,21 +96,25 @@ pub enum StudyError {
 }
 
 /// The solutions of a study's solves on its lattice, to start the solves of a nearby
-/// design's study from: one per conductor at 1 V (every other at 0 V) and the sides and
-/// free charge's. Any starting guess converges to the same tolerance (the solvers stop on the
-/// residual relative to the right-hand side), so a guess changes the iteration count only.
+/// design's study on the same lattice from: one per conductor at 1 V (every other at 0 V)
+/// and the sides and free charge's. Any starting guess converges to the same tolerance (the
+/// solvers stop on the residual relative to the right-hand side). Only the same node lines
+/// take them: on a graded lattice whose lines moved with a parameter, node (i, j)'s old
+/// value belongs to another point, and a solve started from it stopped at that tolerance
+/// with a line's eps_eff 3e-4 off the cold solve's (the residual of the radically graded
+/// cells hides smooth errors).
 #[derive(Clone, Debug, PartialEq)]
 pub struct WarmStart {
-    pub(super) nx: usize,
-    pub(super) ny: usize,
+    pub(super) xs: Vec<f64>,
+    pub(super) ys: Vec<f64>,
     pub(super) unit: Vec<Vec<f64>>,
     pub(super) background: Option<Vec<f64>>,
 }
 
 impl WarmStart {
-    /// True when these solves fit a lattice of `grid`'s node counts with `conductors`
+    /// True when these solves were made on `grid`'s node lines with `conductors`
     /// conductors.
     pub fn fits(&self, grid: &Grid, conductors: usize) -> bool {
-        self.nx == grid.nx && self.ny == grid.ny && self.unit.len() == conductors
+        self.xs == grid.xs() && self.ys == grid.ys() && self.unit.len() == conductors
     }
 }

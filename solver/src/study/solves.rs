@@ -80,8 +80,8 @@ pub(super) fn solve_on(
     let mut kept: Vec<(usize, Vec<f64>)> = Vec::new();
     let warm = params.warm_start.as_deref().filter(|w| w.fits(grid, nc));
     let mut keep = WarmStart {
-        nx: grid.nx,
-        ny: grid.ny,
+        xs: grid.xs().to_vec(),
+        ys: grid.ys().to_vec(),
         unit: Vec::new(),
         background: None,
     };

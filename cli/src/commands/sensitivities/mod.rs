@@ -21,7 +21,7 @@
 //! shard's samples are solved, as a part of a sweep ([`super::monte_carlo_run::shard`]).
 //!
 //! Every solve around the nominal design (paired, Monte Carlo, corner) starts from the
-//! nominal solves when its lattice has their node counts (a line study's two studies each
+//! nominal solves when its lattice has their node lines (a line study's two studies each
 //! from its own), else from zero; summary.json `perturbed_solves` counts the studies, those
 //! started so and their iterations.
 //!
@@ -384,7 +384,7 @@ pub fn steps(setup: &Setup, names: &[String], values: &[f64]) -> Result<Vec<f64>
 
 /// Runs the paired solves (and the Monte Carlo points) around the nominal design `src`
 /// whose quantities are `nominal`, each started from the nominal solves `start` when its
-/// lattice has their node counts.
+/// lattice has their node lines.
 pub fn analyse(
     setup: &Setup,
     src: &DesignSource,
