@@ -41,15 +41,9 @@ pub fn params(src: &DesignSource, opts: &SolveOptions, rel: f64) -> accuracy::Pa
         .unwrap_or_else(crate::commands::default_memory_limit_mib);
     let text_mib =
         src.text_bytes() as f64 * crate::commands::BYTES_PER_TEXT_BYTE / (1024.0 * 1024.0);
-    let mut p = accuracy::Params::default()
+    accuracy::Params::default()
         .with_target(rel)
-        .with_max_memory_mib(limit - text_mib);
-    // Forces are estimated and reported but not refined for: the force on a conductor with
-    // sharp edges, from the stress at its surface, converges far more slowly than its
-    // charge (on the sensor pad demo it moved by 8 % between graded lattices whose
-    // capacitance moved by 1e-4), so a target on it would spend the memory limit.
-    p.quantities.forces = false;
-    p
+        .with_max_memory_mib(limit - text_mib)
 }
 
 fn stop_name(stop: &Stop) -> &'static str {
@@ -197,7 +191,7 @@ pub fn report(info: &Info) -> String {
     if !free.is_empty() {
         let _ = writeln!(
             s,
-            "  estimated, not refined for: {} (forces converge slowly at sharp edges)",
+            "  estimated, not refined for: {} (forces on conductors touching a dielectric, another body or a side converge slowly)",
             free.join(", ")
         );
     }

@@ -15,6 +15,7 @@
 pub mod accuracy;
 pub mod circuit;
 pub mod design;
+pub mod forces;
 pub mod geometry;
 pub mod grading;
 pub mod grid;

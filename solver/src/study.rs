@@ -14,6 +14,7 @@
 //! never reported as converged.
 
 use crate::design::{Design, Drive, Mode};
+use crate::forces::{self, ForceMethod};
 use crate::grid::{Grid, GridError};
 use crate::operator::{Operator, SideId};
 use crate::plan::Plan;
@@ -54,6 +55,8 @@ pub struct ConductorResult {
     pub force: [f64; 2],
     /// Estimated discretisation error of each force component, same units, when requested.
     pub force_error: Option<[f64; 2]>,
+    /// How the force was integrated.
+    pub force_method: ForceMethod,
 }
 
 /// The Maxwell capacitance matrix of the fixed-potential conductors.
@@ -358,11 +361,17 @@ fn operating_point(
     let error_model = estimate.map(|(m, _)| m);
     // The coarse force counts only when its own path sees the conductor's field: a layer
     // that the coarse lattice does not resolve gives a coarse force unrelated to the fine one.
-    let force_error = |k: usize, f: [f64; 2]| -> Option<[f64; 2]> {
+    let path_error = |k: usize, f: [f64; 2]| -> Option<[f64; 2]> {
         let (m, cf) = estimate?;
         let c = post::force_on_path(cf, design, k);
         (c.seen(m.coarse_charges[k]) >= post::RESOLVED_FORCE_SHARE)
             .then(|| [m.estimate(f[0], c.force[0]), m.estimate(f[1], c.force[1])])
+    };
+    // A volume force is compared with the same weight's integral on the coarse lattice.
+    let volume_error = |k: usize, w: &forces::Weight, f: [f64; 2]| -> Option<[f64; 2]> {
+        let (m, cf) = estimate?;
+        let c = forces::weighted_force(cf, design, k, w)?;
+        Some([m.estimate(f[0], c[0]), m.estimate(f[1], c[1])])
     };
     let values = core.op.target_values(&core.potentials, true);
     let charges = core
@@ -382,14 +391,21 @@ fn operating_point(
                     seen,
                 });
             }
+            let volume = forces::weight(field, design, k)
+                .and_then(|w| Some((forces::weighted_force(field, design, k, &w)?, w)));
+            let (force, force_error, force_method) = match volume {
+                Some((f, w)) => (f, volume_error(k, &w, f), ForceMethod::Volume),
+                None => (path.force, path_error(k, path.force), ForceMethod::Path),
+            };
             ConductorResult {
                 name: c.name.clone(),
                 potential: core.potentials[k],
                 floating: c.drive == Drive::Floating,
                 charge: charges[k],
                 charge_error: error_model.map(|m| m.estimate(charges[k], m.coarse_charges[k])),
-                force: path.force,
-                force_error: force_error(k, path.force),
+                force,
+                force_error,
+                force_method,
             }
         })
         .collect::<Vec<_>>();

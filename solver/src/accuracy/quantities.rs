@@ -13,6 +13,7 @@
 //!
 //! Invariant: every error is finite and >= 0, or infinite when unknown; never NaN.
 
+use crate::forces::ForceMethod;
 use crate::line_study::LineStudy;
 use crate::study::Solution;
 use std::fmt;
@@ -178,7 +179,10 @@ pub fn of_study(sol: &Solution, which: Quantities) -> Vec<Estimate> {
             );
             // Forces are superpositions of the same solves as the charges.
             est.solver = f * worst_relative_asymmetry(&c.matrix);
-            est.held = which.forces;
+            // A force integrated on a path at its conductor's surface (the conductor touches
+            // a dielectric, another body or a side) meets the singular field of its corners
+            // and junctions and converges too slowly to be refined for: listed, not held.
+            est.held = which.forces && k.force_method == ForceMethod::Volume;
             out.push(est);
         }
     }
