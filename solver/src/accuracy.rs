@@ -41,7 +41,7 @@ use crate::line_study::{self, LineStudy, LineStudyError};
 use crate::plan::{self, Plan};
 use crate::study::{self, Solution, StudyError, StudyParams};
 use crate::warning::{AccuracyLimit, Warning};
-pub use quantities::{Estimate, Quantities, Quantity};
+pub use quantities::{Estimate, NotHeld, Quantities, Quantity};
 
 /// The accuracy asked for and the limits of the search. Start from `Params::default()`.
 #[derive(Clone, Debug, PartialEq)]
@@ -180,6 +180,25 @@ impl Info {
             target: self.target,
             limit,
         })
+    }
+
+    /// Every warning of the loop: the target not met ([`Info::warning`]), and each force of
+    /// a kind the target covers that is estimated but not held, with the reason.
+    pub fn warnings(&self) -> Vec<Warning> {
+        let not_held = self
+            .estimates
+            .iter()
+            .filter_map(|e| match (&e.quantity, e.not_held) {
+                (Quantity::Force { conductor }, Some(NotHeld::Force(reason))) => {
+                    Some(Warning::ForceNotHeld {
+                        conductor: conductor.clone(),
+                        reason,
+                        relative: e.relative(),
+                    })
+                }
+                _ => None,
+            });
+        self.warning().into_iter().chain(not_held).collect()
     }
 
     /// The quantity the target covers farthest beyond it, if any is.

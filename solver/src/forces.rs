@@ -20,7 +20,7 @@
 //! Invariants: a force is given only when every node within `outer` of the box, outside the
 //! conductor, is a free node of the conductor's material with no free charge, not on a side
 //! (the axis of an axisymmetric design excepted), and every node of the band has no cut link;
-//! else `None` and the caller integrates over a path at the surface. Planar: N/m; axisymmetric:
+//! else the reason ([`NoBand`]) and the caller integrates over a path at the surface. Planar: N/m; axisymmetric:
 //! N along the axis only.
 
 use crate::design::{Design, Mode, Shape, Side};
@@ -36,9 +36,24 @@ pub enum ForceMethod {
     /// as the capacitance does.
     Volume,
     /// The stress on the lattice path one node layer outside the conductor
-    /// ([`crate::post::force_on_path`]): the conductor touches a dielectric interface, another
-    /// body or a side, and the path meets the singular field at its corners and junctions.
-    Path,
+    /// ([`crate::post::force_on_path`]), for the reason given: the path meets the singular
+    /// field at the conductor's corners and junctions and converges slowly.
+    Path(NoBand),
+}
+
+/// Why a conductor's force cannot be weighted over a band around it.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[non_exhaustive]
+pub enum NoBand {
+    /// The conductor touches more than one material (it lies on a dielectric interface):
+    /// the stress has a divergence (the force on the dielectric) inside any band.
+    Interface,
+    /// Another body, a side or free charge touches the conductor, or it has no free node
+    /// beside it: there is no gap for a band.
+    NoGap,
+    /// The gap to the nearest obstacle is too narrow for a band of [`BAND_CELLS`] cells
+    /// clear of the cut cells.
+    Narrow,
 }
 
 /// The weight of a conductor's volume force.
@@ -55,7 +70,7 @@ const INNER: f64 = 0.2;
 /// Share of the gap where it reaches 0.
 const OUTER: f64 = 0.8;
 /// Fewest cells across the band.
-const BAND_CELLS: f64 = 4.0;
+pub const BAND_CELLS: f64 = 4.0;
 
 /// Distance from q to the segment a-b, with the unit vector from the segment to q.
 fn to_segment(q: [f64; 2], a: [f64; 2], b: [f64; 2]) -> (f64, [f64; 2]) {
@@ -218,20 +233,20 @@ fn obstacles<'a>(
     }
 }
 
-/// The weight of conductor k's volume force on this lattice (the design's own), or `None`
-/// when the conductor does not stand in one material clear of every other body by enough
-/// cells for a band.
-pub fn weight(field: &FieldEval, design: &Design, k: usize) -> Option<Weight> {
-    let c = design.conductors.get(k)?;
+/// The weight of conductor k's volume force on this lattice (the design's own), or why the
+/// conductor does not stand in one material clear of every other body by enough cells for a
+/// band.
+pub fn weight(field: &FieldEval, design: &Design, k: usize) -> Result<Weight, NoBand> {
+    let c = design.conductors.get(k).ok_or(NoBand::NoGap)?;
     let op = field.op;
     let mut material = None;
     for l in op.links.iter().filter(|l| l.target as usize == k) {
         let m = field.raster.material[l.node as usize];
         if *material.get_or_insert(m) != m {
-            return None;
+            return Err(NoBand::Interface);
         }
     }
-    let material = material?;
+    let material = material.ok_or(NoBand::NoGap)?;
     let mut w = Weight {
         shapes: c.shapes().cloned().collect(),
         inner: 0.0,
@@ -247,7 +262,7 @@ pub fn weight(field: &FieldEval, design: &Design, k: usize) -> Option<Weight> {
         }
     }
     if !gap.is_finite() || gap <= 0.0 {
-        return None;
+        return Err(NoBand::NoGap);
     }
     w.inner = INNER * gap;
     w.outer = OUTER * gap;
@@ -260,14 +275,14 @@ pub fn weight(field: &FieldEval, design: &Design, k: usize) -> Option<Weight> {
         if d <= gap {
             let h = g.dual_x(i).1 - g.dual_x(i).0;
             if h.max(g.dual_len_y(j)) * BAND_CELLS > band {
-                return None;
+                return Err(NoBand::Narrow);
             }
         }
         if d > w.inner && d < w.outer && !op.links_of(p).is_empty() {
-            return None;
+            return Err(NoBand::Narrow);
         }
     }
-    Some(w)
+    Ok(w)
 }
 
 /// The force on conductor k from the stress weighted by `w` over this lattice's nodes, or

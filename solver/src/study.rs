@@ -14,7 +14,7 @@
 //! never reported as converged.
 
 use crate::design::{Design, Drive, Mode};
-use crate::forces::{self, ForceMethod};
+use crate::forces::{self, ForceMethod, NoBand};
 use crate::grid::{Grid, GridError};
 use crate::operator::{Operator, SideId};
 use crate::plan::Plan;
@@ -391,11 +391,17 @@ fn operating_point(
                     seen,
                 });
             }
-            let volume = forces::weight(field, design, k)
-                .and_then(|w| Some((forces::weighted_force(field, design, k, &w)?, w)));
+            let volume = forces::weight(field, design, k).and_then(|w| {
+                let f = forces::weighted_force(field, design, k, &w).ok_or(NoBand::Narrow)?;
+                Ok((f, w))
+            });
             let (force, force_error, force_method) = match volume {
-                Some((f, w)) => (f, volume_error(k, &w, f), ForceMethod::Volume),
-                None => (path.force, path_error(k, path.force), ForceMethod::Path),
+                Ok((f, w)) => (f, volume_error(k, &w, f), ForceMethod::Volume),
+                Err(why) => (
+                    path.force,
+                    path_error(k, path.force),
+                    ForceMethod::Path(why),
+                ),
             };
             ConductorResult {
                 name: c.name.clone(),

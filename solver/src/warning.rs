@@ -8,6 +8,7 @@
 //! Invariant: the library produces these values and never the sentences themselves in its
 //! results; the text exists only through `Display`.
 
+use crate::forces::NoBand;
 use crate::solvers::StopReason;
 use std::fmt;
 
@@ -106,6 +107,17 @@ pub enum Warning {
         /// Estimated error over magnitude, to one (the larger of the components').
         ratio: f64,
     },
+    /// An accuracy was asked for, and a conductor's force is estimated and reported but not
+    /// refined for: it is integrated on the path at its surface, which meets the singular
+    /// field of the corners and junctions there, for the reason given.
+    ForceNotHeld {
+        /// The conductor.
+        conductor: String,
+        /// Why no band around the conductor carries its force.
+        reason: NoBand,
+        /// The force's estimated relative error on the last grid (infinite when unknown).
+        relative: f64,
+    },
 }
 
 /// What stopped a refinement before the accuracy asked for was reached.
@@ -143,6 +155,7 @@ impl Warning {
             Warning::AccuracyNotMet { .. } => "accuracy-not-met",
             Warning::ForceUnresolved { .. } => "force-unresolved",
             Warning::ForceUncertain { .. } => "force-uncertain",
+            Warning::ForceNotHeld { .. } => "force-not-held",
         }
     }
 }
@@ -251,6 +264,30 @@ impl fmt::Display for Warning {
                  its magnitude: its direction is not known (refine the cell)",
                 100.0 * ratio
             ),
+            Warning::ForceNotHeld {
+                conductor,
+                reason,
+                relative,
+            } => {
+                write!(
+                    f,
+                    "the force on {conductor} is not held to the accuracy target (estimated \
+                     error {relative:.1e} relative): "
+                )?;
+                f.write_str(match reason {
+                    NoBand::Interface => "the conductor touches more than one material",
+                    NoBand::NoGap => "another body, a side or free charge touches the conductor",
+                    NoBand::Narrow => {
+                        "the gap to the nearest other body, side or material is too narrow for \
+                         a band of cells around the conductor"
+                    }
+                })?;
+                f.write_str(
+                    ", so the force is taken on a path at its surface, which meets the singular \
+                     field of its corners and junctions and does not settle as the grid is \
+                     refined",
+                )
+            }
         }
     }
 }
@@ -360,6 +397,11 @@ mod tests {
             Warning::ForceUncertain {
                 conductor: "a".into(),
                 ratio: 2.0,
+            },
+            Warning::ForceNotHeld {
+                conductor: "a".into(),
+                reason: NoBand::Interface,
+                relative: 0.04,
             },
         ];
         let mut codes: Vec<&str> = all.iter().map(Warning::code).collect();

@@ -163,7 +163,7 @@ pub fn study_accurate(
         AccuracyError::Line(e) => line_failure(src, signals, e),
         e => super::solve::accuracy_failure(src, e),
     })?;
-    ls.warnings.extend(info.warning());
+    ls.warnings.extend(info.warnings());
     let seconds = start.elapsed().as_secs_f64();
     let mut summary = line_summary(src, &ls, signals, seconds);
     summary.accuracy = Some(crate::accuracy::summary(&info));

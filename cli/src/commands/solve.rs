@@ -207,7 +207,7 @@ pub fn solve_accurate(
         fieldgrid_solver::accuracy::solve(&src.design, params, &acc)
     })?
     .map_err(|e| accuracy_failure(src, e))?;
-    sol.warnings.extend(info.warning());
+    sol.warnings.extend(info.warnings());
     let seconds = start.elapsed().as_secs_f64();
     let mut summary = Summary::from_solution(&sol, src.design.depth, seconds, &src.text_hash);
     summary.parameters = crate::summary::parameters(src);

@@ -13,7 +13,7 @@
 //!
 //! Invariant: every error is finite and >= 0, or infinite when unknown; never NaN.
 
-use crate::forces::ForceMethod;
+use crate::forces::{ForceMethod, NoBand};
 use crate::line_study::LineStudy;
 use crate::study::Solution;
 use std::fmt;
@@ -78,6 +78,19 @@ pub struct Estimate {
     /// True when the target covers this quantity (its kind is asked for and it is not
     /// singular).
     pub held: bool,
+    /// Why a quantity of a kind the target covers is nonetheless not held (none for a
+    /// singular point, which is flagged as such, or a kind not asked for).
+    pub not_held: Option<NotHeld>,
+}
+
+/// Why a quantity whose kind the target covers is estimated but not refined for.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[non_exhaustive]
+pub enum NotHeld {
+    /// A force integrated on the path at its conductor's surface, for the reason given: it
+    /// meets the singular field of the corners and junctions there and does not settle at
+    /// the rate the target's refinements assume.
+    Force(NoBand),
 }
 
 impl Estimate {
@@ -92,6 +105,7 @@ impl Estimate {
             truncation: 0.0,
             singular: false,
             held: true,
+            not_held: None,
         }
     }
 
@@ -183,6 +197,10 @@ pub fn of_study(sol: &Solution, which: Quantities) -> Vec<Estimate> {
             // a dielectric, another body or a side) meets the singular field of its corners
             // and junctions and converges too slowly to be refined for: listed, not held.
             est.held = which.forces && k.force_method == ForceMethod::Volume;
+            est.not_held = match k.force_method {
+                ForceMethod::Path(why) if which.forces => Some(NotHeld::Force(why)),
+                _ => None,
+            };
             out.push(est);
         }
     }

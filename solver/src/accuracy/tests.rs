@@ -1,5 +1,6 @@
 use super::*;
 use crate::design::{Conductor, Drive, Shape, Side};
+use crate::forces::{ForceMethod, NoBand};
 
 /// A 2 mm x 1 mm bar at 1 V in a 10 mm grounded box, beside a grounded 1 mm square.
 fn bars() -> Design {
@@ -106,6 +107,67 @@ fn the_memory_limit_stops_the_loop_with_the_short_quantity() {
     assert!(sol.solve.converged);
     let w = info.warning().unwrap();
     assert_eq!(w.code(), "accuracy-not-met");
+}
+
+#[test]
+fn a_force_on_a_conductor_touching_a_dielectric_is_not_held_and_warned_with_the_reason() {
+    // Bar a lies on a dielectric slab: its force comes from the path at its surface, which
+    // meets the junction of metal, slab and air; the loop lists it and warns, never holds it.
+    let mut d = bars();
+    d.dielectrics.push(crate::design::Dielectric {
+        name: "slab".into(),
+        permittivity: 4.0,
+        strength: None,
+        shape: Shape::Rect {
+            x: [2e-3, 6e-3],
+            y: [3e-3, 4e-3],
+            round: 0.0,
+        },
+    });
+    let mut p = Params::default().with_target(2e-2);
+    p.quantities.hotspots = false;
+    let (sol, info) = solve(&d, &StudyParams::default(), &p).unwrap();
+    assert_eq!(
+        sol.conductors[0].force_method,
+        ForceMethod::Path(NoBand::Interface)
+    );
+    let force = |name: &str| {
+        info.estimates
+            .iter()
+            .find(|e| {
+                e.quantity
+                    == Quantity::Force {
+                        conductor: name.into(),
+                    }
+            })
+            .unwrap()
+    };
+    assert!(!force("a").held);
+    assert_eq!(force("a").not_held, Some(NotHeld::Force(NoBand::Interface)));
+    let warned: Vec<Warning> = info
+        .warnings()
+        .into_iter()
+        .filter(|w| w.code() == "force-not-held")
+        .collect();
+    assert!(
+        warned.iter().any(|w| matches!(w, Warning::ForceNotHeld {
+            conductor,
+            reason: NoBand::Interface,
+            ..
+        } if conductor == "a")),
+        "{warned:?}"
+    );
+    // One warning for each force listed but not held, none for the held ones.
+    let unheld = info
+        .estimates
+        .iter()
+        .filter(|e| e.not_held.is_some())
+        .count();
+    assert_eq!(warned.len(), unheld);
+    assert!(info
+        .estimates
+        .iter()
+        .all(|e| !(e.held && e.not_held.is_some())));
 }
 
 #[test]
