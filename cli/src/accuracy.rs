@@ -66,6 +66,7 @@ pub fn summary(info: &Info) -> Value {
         .map(|r| {
             json!({
                 "bisections": r.bisections,
+                "refinement": r.refinement,
                 "nx": r.nx,
                 "ny": r.ny,
                 "min_cell": r.min_cell,
@@ -102,7 +103,7 @@ pub fn summary(info: &Info) -> Value {
         "rounds": info.rounds.len(),
         "grid": last.map(|r| json!({
             "nx": r.nx, "ny": r.ny, "min_cell": r.min_cell, "max_cell": r.max_cell,
-            "bisections": r.bisections,
+            "bisections": r.bisections, "refinement": r.refinement,
         })),
         "history": rounds,
         "quantities": quantities,

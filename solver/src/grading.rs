@@ -78,6 +78,10 @@ pub struct Params {
     /// `growth`), so a design with many features close together stays within a size its
     /// `cell` sets.
     pub line_budget: f64,
+    /// Cells per unit of `∫ dt / h` between two node lines before the split, > 0: 1 gives
+    /// the design's own family; above 1 every member is finer by about this factor along
+    /// both axes (the accuracy loop's steps smaller than a bisection).
+    pub density: f64,
 }
 
 impl Default for Params {
@@ -91,6 +95,7 @@ impl Default for Params {
             min_cells: 4,
             cells_per_radius: 8,
             line_budget: 32.0,
+            density: 1.0,
         }
     }
 }
@@ -236,7 +241,9 @@ pub fn refined(
             && params.thin_end_grading <= 1.0
             && params.min_cells >= 1
             && params.cells_per_radius >= 1
-            && params.line_budget > 0.0,
+            && params.line_budget > 0.0
+            && params.density.is_finite()
+            && params.density > 0.0,
         "grading parameters out of range: {params:?}"
     );
     let (mut ax, mut ay) = (Axis::default(), Axis::default());
@@ -538,7 +545,7 @@ fn graded_axis(axis: &Axis, coarsest: f64, params: &Params, slope: f64, split: u
     let mut table: Vec<(f64, f64)> = Vec::new();
     for (a, b, near) in stretches(axis, coarsest, params, slope) {
         let s = integral(a, b, &near, slope, coarsest, &mut table);
-        let n = count(s) * split as f64;
+        let n = count(s * params.density) * split as f64;
         let mut k = 0;
         for i in 1..n as usize {
             let si = s * i as f64 / n;

@@ -71,10 +71,9 @@ fn a_tighter_target_takes_a_finer_lattice() {
     };
     assert!(nodes(&tight) > nodes(&loose));
     assert!(tight.rounds.len() >= 2);
-    assert!(tight
-        .rounds
-        .windows(2)
-        .all(|w| w[1].bisections >= w[0].bisections));
+    assert!(tight.rounds.windows(2).all(|w| {
+        w[1].bisections >= w[0].bisections && w[1].refinement >= w[0].refinement * MIN_STEP
+    }));
 }
 
 #[test]
@@ -234,4 +233,47 @@ fn the_solver_tolerance_follows_the_target_within_bounds() {
     assert!((solver_tolerance(1e-8, 1e-4) - 1e-9).abs() < 1e-24);
     assert_eq!(solver_tolerance(1e-8, 1e-12), MIN_TOL);
     assert_eq!(solver_tolerance(1e-12, 1e-3), 1e-12);
+}
+
+#[test]
+fn a_refinement_splits_into_whole_bisections_and_a_density_below_two() {
+    assert_eq!(split_refinement(1.0), (BISECTIONS, 1.0));
+    assert_eq!(split_refinement(2.0), (BISECTIONS + 1, 1.0));
+    let (k, d) = split_refinement(2.74);
+    assert_eq!(k, BISECTIONS + 1);
+    assert!((d - 1.37).abs() < 1e-12);
+    for r in [1.1, 1.999_999_999_999, 3.5, 7.99, 8.0, 100.0] {
+        let (k, d) = split_refinement(r);
+        assert!((1.0..2.0).contains(&d), "{r}: {d}");
+        assert!((((k - BISECTIONS) as f64).exp2() * d / r - 1.0).abs() < 1e-12);
+    }
+}
+
+#[test]
+fn a_denser_member_lies_between_the_bisections_around_it() {
+    let mut d = bars();
+    d.lattice = Lattice::Graded;
+    let member = |density: f64, k: usize| {
+        let family = Family {
+            design: &d,
+            grading: grading::Params {
+                density,
+                ..grading::Params::default()
+            },
+            enlargements: 0,
+        };
+        family.member(k).unwrap().1
+    };
+    let (own, denser, next) = (
+        member(1.0, BISECTIONS),
+        member(1.5, BISECTIONS),
+        member(1.0, BISECTIONS + 1),
+    );
+    assert!(
+        own.nx < denser.nx && denser.nx < next.nx,
+        "{own:?} {denser:?}"
+    );
+    assert!(own.ny < denser.ny && denser.ny < next.ny);
+    // Every other line of the denser member is its coarser member: the estimate's family.
+    assert_eq!(denser.coarsened(), member(1.5, BISECTIONS - 1));
 }
