@@ -6,7 +6,8 @@
 //! `--timings`, then the `multigrid` benchmark's measurement on the same matrix (hierarchy
 //! setup and three solves, [`fieldgrid_benches::benchmark_problem`]), and, when a `fieldgrid` binary is
 //! given or found beside this one, the whole process from start to exit. It prints per stage
-//! the median wall and CPU seconds, and the ratios of the totals to setup + three solves.
+//! the median wall and CPU seconds, and the ratios of the totals to setup + three solves and
+//! to the three solves alone.
 //!
 //! `cargo bench -p fieldgrid-benches --bench pipeline -- [--sizes 1024,2048] [--repeats 3]
 //!  [--threads 2] [--binary PATH] [--error-estimate]`
@@ -152,12 +153,15 @@ fn main() {
             let mut stage: BTreeMap<String, (Vec<f64>, Vec<f64>)> = BTreeMap::new();
             let (mut total, mut total_cpu, mut ratio, mut ratio_cpu) =
                 (Vec::new(), Vec::new(), Vec::new(), Vec::new());
+            // Total over the three solves alone (without the hierarchy's setup).
+            let (mut over_solves, mut over_solves_cpu) = (Vec::new(), Vec::new());
             let (mut mg, mut mg_cpu, mut whole, mut whole_cpu) =
                 (Vec::new(), Vec::new(), Vec::new(), Vec::new());
-            let mut whole_ratio = Vec::new();
+            let (mut whole_ratio, mut whole_over_solves) = (Vec::new(), Vec::new());
             for _ in 0..args.repeats {
                 let (stages, tot) = in_process(&cmd);
                 let mut solver = (0.0, 0.0);
+                let mut solves = (0.0, 0.0);
                 for s in &stages {
                     if !order.contains(&s.name) {
                         order.push(s.name.clone());
@@ -169,6 +173,9 @@ fn main() {
                         solver.0 += s.seconds;
                         solver.1 += s.cpu.unwrap_or(f64::NAN);
                     }
+                    if s.name == "solves" {
+                        solves = (s.seconds, s.cpu.unwrap_or(f64::NAN));
+                    }
                 }
                 let listed: f64 = stages.iter().map(|s| s.seconds).sum();
                 let listed_cpu: f64 = stages.iter().map(|s| s.cpu.unwrap_or(f64::NAN)).sum();
@@ -179,6 +186,8 @@ fn main() {
                 total_cpu.push(tot.cpu.unwrap_or(f64::NAN));
                 ratio.push(tot.seconds / solver.0);
                 ratio_cpu.push(tot.cpu.unwrap_or(f64::NAN) / solver.1);
+                over_solves.push(tot.seconds / solves.0);
+                over_solves_cpu.push(tot.cpu.unwrap_or(f64::NAN) / solves.1);
                 let (w, c) = multigrid(n, threads);
                 mg.push(w);
                 mg_cpu.push(c);
@@ -194,14 +203,19 @@ fn main() {
                     whole.push(w);
                     whole_cpu.push(children_cpu_seconds() - c);
                     // Its own setup and solves, from the table --timings printed.
-                    let solver: f64 = String::from_utf8_lossy(&run.stderr)
-                        .lines()
-                        .filter_map(|l| {
-                            let f: Vec<&str> = l.split_whitespace().collect();
-                            (f.len() >= 2 && SOLVER_STAGES.contains(&f[0]))
-                                .then(|| f[1].parse::<f64>().ok())?
-                        })
-                        .sum();
+                    let stderr = String::from_utf8_lossy(&run.stderr);
+                    let stage = |names: &[&str]| -> f64 {
+                        stderr
+                            .lines()
+                            .filter_map(|l| {
+                                let f: Vec<&str> = l.split_whitespace().collect();
+                                (f.len() >= 2 && names.contains(&f[0]))
+                                    .then(|| f[1].parse::<f64>().ok())?
+                            })
+                            .sum()
+                    };
+                    let solver = stage(&SOLVER_STAGES);
+                    whole_over_solves.push(w / stage(&["solves"]));
                     whole_ratio.push(w / solver);
                 }
             }
@@ -239,6 +253,11 @@ fn main() {
                 median(ratio),
                 median(ratio_cpu)
             );
+            println!(
+                "  total / solves alone, same run:            wall {:.2}, cpu {:.2}",
+                median(over_solves),
+                median(over_solves_cpu)
+            );
             let (mg, mg_cpu) = (median(mg), median(mg_cpu));
             println!(
                 "  multigrid bench, setup + 3 solves:   {:>9.3} {:>9.2}   total / that: {:.2}",
@@ -250,13 +269,14 @@ fn main() {
                 let (w, c) = (median(whole), median(whole_cpu));
                 println!(
                     "  whole process ({}):  {:>9.3} {:>9.2}   / its own setup + solves: {:.2}, \
-                     / multigrid bench: {:.2}",
+                     / its own solves: {:.2}, / multigrid bench: {:.2}",
                     args.binary
                         .as_ref()
                         .map_or(String::new(), |b| b.display().to_string()),
                     w,
                     c,
                     median(whole_ratio),
+                    median(whole_over_solves),
                     w / mg
                 );
             }

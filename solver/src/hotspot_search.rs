@@ -2,7 +2,7 @@
 //! and the surface's readings (maxima along the outlines and every sample), ranked by margin
 //! or by field, the persistent maxima taken with a separation between them.
 //!
-//! The search ([`search`]) sweeps the lattice only as far as the hot spots need: the
+//! The search ([`search`]) ranks only as many lattice maxima as the hot spots need: the
 //! persistent lattice maxima come highest first ([`crate::peaks::persistent`]) and the search
 //! stops once nothing lower can rank before the last hot spot taken. It gives what ranking
 //! every reading gives ([`search_exhaustive`], the reference its tests compare with).
@@ -198,8 +198,8 @@ pub(crate) fn search_exhaustive(
     (peak.map(found), chosen.into_iter().map(found).collect())
 }
 
-/// The peak reading and the chosen hot spots, as [`search_exhaustive`] gives them, sweeping
-/// the lattice only as far as they need: the persistent lattice maxima come highest first
+/// The peak reading and the chosen hot spots, as [`search_exhaustive`] gives them, ranking
+/// only as many lattice maxima as they need: the persistent lattice maxima come highest first
 /// ([`crate::peaks::persistent`]), in batches; after each the readings so far are ranked and
 /// chosen, and the search ends when the last hot spot chosen ranks strictly before anything
 /// a lower maximum could give (by field: its value; by margin: the lowest strength over its

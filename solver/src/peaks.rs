@@ -12,20 +12,21 @@
 //! Computing persistent homology, Discrete Comput. Geom. 33 (2005) 249-274; the
 //! union-find sweep over sorted values is the zero-dimensional case, cited from memory).
 //!
-//! The sweep orders the nodes lazily: one counting pass places them in buckets of nearby
-//! values (the leading bits of the value's offset from the lowest, which order positive
-//! doubles), and a bucket is sorted only when the sweep reaches it. The counting runs in
-//! parts on every thread (integer counts, whatever the parting), and the buckets are filled
-//! in groups each owning its stretch of the order, every group taking its nodes by index. A caller that needs only
-//! the highest persistent peaks ([`persistent`]) sorts and joins only the nodes above the
-//! level where those peaks are decided: a peak of height m is known to reach persistence q
-//! once the sweep level is below m (1 - q). The work is linear in the nodes plus the sorting
-//! of the buckets swept.
+//! The regions are found without sorting the nodes. Every node points to its neighbour
+//! first in sweep order when that one comes before it (the steepest way up), and the
+//! pointers lead each node to one maximum: its basin. A node joins the region of its own
+//! maximum when the sweep reaches it (its way up was swept before it), so two regions meet
+//! exactly where two neighbours of different basins have both been swept: at the later of
+//! the two. The union-find sweep then runs over the maxima alone, joined along those basin
+//! borders in sweep order (the zero-dimensional persistence of a graph; the reduction to the
+//! maxima and the saddles between their basins is common practice). The pointers and the
+//! borders are found row by row on every thread, each from its own rows' values; the sort
+//! and the sweep cover only the maxima and the border pairs.
 //!
 //! Invariants: nodes are 8-connected; values that are not finite or not positive (conductor
 //! interiors, fixed nodes) are not part of the lattice; ties in value are broken by node index,
-//! lower first, so that the result does not depend on anything but the values (nor on how the
-//! sweep is bucketed).
+//! lower first ("sweep order"), so that the result depends on nothing but the values (not on
+//! the thread count nor the order in which border pairs are found).
 
 use rayon::prelude::*;
 use std::cmp::Ordering;
@@ -41,38 +42,9 @@ pub struct Peak {
 
 const NONE: u32 = u32::MAX;
 
-/// A maximum met by the sweep, in sweep order (highest first).
-#[derive(Clone, Copy, Debug)]
-struct Born {
-    node: u32,
-    /// Relative persistence once the region has ended; `None` while it lives. A region that
-    /// ends at its own height (a plateau's second node) is no peak: [`ENDED_FLAT`].
-    end: Option<f64>,
-}
-
-/// Persistence marker of a region that ended at its own height: not a peak.
+/// Persistence marker of a region that ended at its own height (a plateau's second node):
+/// not a peak.
 const ENDED_FLAT: f64 = -1.0;
-
-/// The union-find sweep from the highest value down.
-struct Sweep<'a> {
-    values: &'a [f64],
-    nx: usize,
-    ny: usize,
-    /// The lattice's nodes, bucket by bucket from the highest values down; within a bucket
-    /// by index until the sweep sorts it.
-    order: Vec<u32>,
-    /// Bucket r (the r-th highest) is `order[starts[r]..starts[r + 1]]`.
-    starts: Vec<u32>,
-    /// The bucket being swept; `order[..end]` is sorted, `next` the first node not joined.
-    bucket: usize,
-    end: usize,
-    next: usize,
-    /// `NONE` until the node has joined; a root is its own parent.
-    parent: Vec<u32>,
-    /// Index into `born` of the peak of each root's region (its highest node).
-    peak_of: Vec<u32>,
-    born: Vec<Born>,
-}
 
 /// Whether a value belongs to the lattice.
 fn on_lattice(v: f64) -> bool {
@@ -95,238 +67,184 @@ fn find(parent: &mut [u32], mut p: u32) -> u32 {
     p
 }
 
-impl<'a> Sweep<'a> {
-    fn new(values: &'a [f64], nx: usize, ny: usize) -> Sweep<'a> {
-        assert_eq!(values.len(), nx * ny, "one value per node");
-        assert!(
-            values.len() < NONE as usize,
-            "lattice too large for u32 indices"
-        );
-        // A positive finite double's bits order like its value; the leading `bits` of the
-        // span of bits the values cover pick the bucket (about one bucket per four nodes, at
-        // most 2^20), so that the buckets spread over the values present, not over every
-        // double.
-        let bits = (values.len() / 4).max(2).ilog2().clamp(4, 20);
-        let buckets = 1usize << bits;
-        let (lo, hi) = crate::parallel::chunks(values.len(), |range| {
-            values[range]
-                .iter()
-                .filter(|v| on_lattice(**v))
-                .fold((u64::MAX, 0u64), |(lo, hi), v| {
-                    (lo.min(v.to_bits()), hi.max(v.to_bits()))
-                })
-        })
-        .into_iter()
-        .fold((u64::MAX, 0u64), |(lo, hi), (a, b)| (lo.min(a), hi.max(b)));
-        let span = hi.saturating_sub(lo);
-        let shift = (u64::BITS - span.leading_zeros()).saturating_sub(bits);
-        let rank = |v: f64| buckets - 1 - ((v.to_bits() - lo) >> shift) as usize;
-        // Counted in parts, one per thread: the counts are integers, so how the nodes are
-        // parted cannot show in them.
-        let parts = rayon::current_num_threads().clamp(1, 8);
-        let per = values.len().div_ceil(parts).max(1);
-        let counts: Vec<Vec<u32>> = values
-            .par_chunks(per)
-            .map(|part| {
-                let mut c = vec![0u32; buckets];
-                for &v in part.iter().filter(|v| on_lattice(**v)) {
-                    c[rank(v)] += 1;
-                }
-                c
-            })
-            .collect();
-        let mut starts = vec![0u32; buckets + 1];
-        for r in 0..buckets {
-            starts[r + 1] = starts[r] + counts.iter().map(|c| c[r]).sum::<u32>();
-        }
-        // Filled in groups of whole buckets with about as many nodes each: a group owns its
-        // stretch of `order` and takes its nodes in index order, as one pass would.
-        let total = starts[buckets] as usize;
-        let mut cuts: Vec<usize> = (1..parts)
-            .map(|k| starts.partition_point(|&s| (s as usize) < k * total / parts))
-            .map(|r| r.min(buckets))
-            .collect();
-        cuts.insert(0, 0);
-        cuts.push(buckets);
-        cuts.dedup();
-        let mut order = vec![0u32; total];
-        let mut groups: Vec<(usize, usize, &mut [u32])> = Vec::new();
-        let mut rest = &mut order[..];
-        for w in cuts.windows(2) {
-            let len = (starts[w[1]] - starts[w[0]]) as usize;
-            let (group, tail) = rest.split_at_mut(len);
-            groups.push((w[0], w[1], group));
-            rest = tail;
-        }
-        groups.into_par_iter().for_each(|(r0, r1, group)| {
-            let base = starts[r0];
-            let mut fill: Vec<u32> = starts[r0..r1].iter().map(|s| s - base).collect();
-            for (p, &v) in values.iter().enumerate() {
-                if on_lattice(v) {
-                    let r = rank(v);
-                    if (r0..r1).contains(&r) {
-                        group[fill[r - r0] as usize] = p as u32;
-                        fill[r - r0] += 1;
+/// Per node: the neighbour first in sweep order when it comes before the node, the node
+/// itself at a maximum, `NONE` off the lattice. Row by row, each row from the values alone.
+fn ways_up(values: &[f64], nx: usize, ny: usize) -> Vec<u32> {
+    let mut up = vec![NONE; values.len()];
+    crate::parallel::for_each_row(&mut up, nx, |j, row| {
+        let rows = j.saturating_sub(1)..(j + 2).min(ny);
+        for (i, out) in row.iter_mut().enumerate() {
+            let p = i + j * nx;
+            if !on_lattice(values[p]) {
+                continue;
+            }
+            let mut best = p;
+            for qj in rows.clone() {
+                for qi in i.saturating_sub(1)..(i + 2).min(nx) {
+                    let q = qi + qj * nx;
+                    let v = values[q];
+                    // Before `best` in sweep order (the node itself is never before itself).
+                    if on_lattice(v) && (v > values[best] || (v == values[best] && q < best)) {
+                        best = q;
                     }
                 }
             }
-        });
-        Sweep {
-            values,
-            nx,
-            ny,
-            order,
-            starts,
-            bucket: 0,
-            end: 0,
-            next: 0,
-            parent: vec![NONE; values.len()],
-            peak_of: vec![NONE; values.len()],
-            born: Vec::new(),
+            *out = best as u32;
         }
-    }
+    });
+    up
+}
 
-    /// The next node of the sweep order without joining it, `None` at the end.
-    fn peek(&mut self) -> Option<u32> {
-        while self.next == self.end {
-            if self.bucket + 1 >= self.starts.len() {
-                return None;
-            }
-            let values = self.values;
-            let (a, b) = (
-                self.starts[self.bucket] as usize,
-                self.starts[self.bucket + 1] as usize,
-            );
-            self.order[a..b].sort_unstable_by(|&p, &q| order(values, p, q));
-            self.bucket += 1;
-            self.end = b;
-        }
-        Some(self.order[self.next])
+/// The maxima in sweep order and every node's basin, as the rank of its maximum in that
+/// order (`NONE` off the lattice).
+fn basins(values: &[f64], up: &[u32]) -> (Vec<u32>, Vec<u32>) {
+    let mut maxima: Vec<u32> = crate::parallel::chunks(values.len(), |range| {
+        range
+            .filter(|&p| up[p] == p as u32)
+            .map(|p| p as u32)
+            .collect::<Vec<u32>>()
+    })
+    .concat();
+    maxima.par_sort_unstable_by(|&a, &b| order(values, a, b));
+    let mut basin = vec![NONE; values.len()];
+    for (r, &m) in maxima.iter().enumerate() {
+        basin[m as usize] = r as u32;
     }
+    // Each way up is followed to the first node with a basin, which the whole way then takes.
+    let mut way: Vec<u32> = Vec::new();
+    for p in 0..values.len() {
+        if up[p] == NONE || basin[p] != NONE {
+            continue;
+        }
+        let mut q = p as u32;
+        while basin[q as usize] == NONE {
+            way.push(q);
+            q = up[q as usize];
+        }
+        let b = basin[q as usize];
+        for w in way.drain(..) {
+            basin[w as usize] = b;
+        }
+    }
+    (maxima, basin)
+}
 
-    /// Joins the next node; false at the end of the sweep.
-    fn step(&mut self) -> bool {
-        let Some(p) = self.peek() else {
-            return false;
-        };
-        self.next += 1;
-        let (nx, ny) = (self.nx, self.ny);
-        let (i, j) = (p as usize % nx, p as usize / nx);
-        let level = self.values[p as usize];
-        for dj in -1i64..=1 {
-            for di in -1i64..=1 {
-                let (qi, qj) = (i as i64 + di, j as i64 + dj);
-                if (di, dj) == (0, 0) || qi < 0 || qj < 0 || qi >= nx as i64 || qj >= ny as i64 {
-                    continue;
+/// A pair of neighbours in different basins: the later of the two in sweep order (where the
+/// basins' regions meet) and the two basins.
+#[derive(Clone, Copy)]
+struct Border {
+    at: u32,
+    a: u32,
+    b: u32,
+}
+
+/// Every neighbour pair whose basins differ, in sweep order of `at` (ties by basins).
+fn borders(values: &[f64], nx: usize, basin: &[u32]) -> Vec<Border> {
+    let n = values.len();
+    let mut out: Vec<Border> = crate::parallel::chunks(n, |range| {
+        let mut found = Vec::new();
+        for p in range {
+            let bp = basin[p];
+            if bp == NONE {
+                continue;
+            }
+            let i = p % nx;
+            // Each unordered pair once: east, and the three neighbours of the row above.
+            let ahead = [
+                (i + 1 < nx).then(|| p + 1),
+                (i > 0).then(|| p + nx - 1),
+                Some(p + nx),
+                (i + 1 < nx).then(|| p + nx + 1),
+            ];
+            for q in ahead.into_iter().flatten().filter(|&q| q < n) {
+                let bq = basin[q];
+                if bq != NONE && bq != bp {
+                    let at = if order(values, p as u32, q as u32) == Ordering::Less {
+                        q
+                    } else {
+                        p
+                    };
+                    found.push(Border {
+                        at: at as u32,
+                        a: bp.min(bq),
+                        b: bp.max(bq),
+                    });
                 }
-                let q = (qi as usize + qj as usize * nx) as u32;
-                if self.parent[q as usize] == NONE {
-                    continue;
-                }
-                let rq = find(&mut self.parent, q);
-                if self.parent[p as usize] == NONE {
-                    // p joins the first region it touches at once: it is no maximum.
-                    self.parent[p as usize] = rq;
-                    continue;
-                }
-                let rp = find(&mut self.parent, p);
-                if rp == rq {
-                    continue;
-                }
-                // The region whose peak came later in the sweep (the lower one) ends here.
-                let (bp, bq) = (self.peak_of[rp as usize], self.peak_of[rq as usize]);
-                let (keep, end, ended) = if bp < bq { (rp, rq, bq) } else { (rq, rp, bp) };
-                let m = self.values[self.born[ended as usize].node as usize];
-                self.born[ended as usize].end = Some(if m > level {
-                    (m - level) / m
-                } else {
-                    ENDED_FLAT
-                });
-                self.parent[end as usize] = keep;
             }
         }
-        if self.parent[p as usize] == NONE {
-            self.parent[p as usize] = p;
-            self.peak_of[p as usize] = self.born.len() as u32;
-            self.born.push(Born { node: p, end: None });
-        }
-        true
-    }
+        found
+    })
+    .concat();
+    out.par_sort_unstable_by(|x, y| {
+        order(values, x.at, y.at)
+            .then(x.a.cmp(&y.a))
+            .then(x.b.cmp(&y.b))
+    });
+    out
 }
 
 /// Every local maximum of `values` on an `nx` x `ny` lattice with its relative persistence,
 /// highest value first.
 pub fn peaks(values: &[f64], nx: usize, ny: usize) -> Vec<Peak> {
-    let mut s = Sweep::new(values, nx, ny);
-    while s.step() {}
-    s.born
+    assert_eq!(values.len(), nx * ny, "one value per node");
+    assert!(
+        values.len() < NONE as usize,
+        "lattice too large for u32 indices"
+    );
+    let up = ways_up(values, nx, ny);
+    let (maxima, basin) = basins(values, &up);
+    drop(up);
+    let borders = borders(values, nx, &basin);
+    drop(basin);
+    // The sweep over the maxima (rank = age, lower older); a root is the oldest of its region.
+    let mut parent: Vec<u32> = (0..maxima.len() as u32).collect();
+    let mut end: Vec<Option<f64>> = vec![None; maxima.len()];
+    for e in borders {
+        let (ra, rb) = (find(&mut parent, e.a), find(&mut parent, e.b));
+        if ra == rb {
+            continue;
+        }
+        let (keep, ended) = (ra.min(rb), ra.max(rb));
+        let m = values[maxima[ended as usize] as usize];
+        let level = values[e.at as usize];
+        end[ended as usize] = Some(if m > level {
+            (m - level) / m
+        } else {
+            ENDED_FLAT
+        });
+        parent[ended as usize] = keep;
+    }
+    maxima
         .iter()
-        .filter(|b| b.end != Some(ENDED_FLAT))
-        .map(|b| Peak {
-            node: b.node as usize,
-            persistence: b.end.unwrap_or(1.0),
+        .zip(end)
+        .filter(|(_, e)| *e != Some(ENDED_FLAT))
+        .map(|(&m, e)| Peak {
+            node: m as usize,
+            persistence: e.unwrap_or(1.0),
         })
         .collect()
 }
 
 /// The nodes of the local maxima whose relative persistence reaches `min`, highest value
-/// first (the peaks of [`peaks`] with `persistence >= min`, in the same order). The sweep runs
-/// only as far as the peaks taken so far need.
-pub fn persistent(values: &[f64], nx: usize, ny: usize, min: f64) -> Persistent<'_> {
+/// first (the peaks of [`peaks`] with `persistence >= min`, in the same order).
+pub fn persistent(values: &[f64], nx: usize, ny: usize, min: f64) -> Persistent {
+    let mut all = peaks(values, nx, ny);
+    all.retain(|p| p.persistence >= min);
     Persistent {
-        sweep: Sweep::new(values, nx, ny),
-        min,
-        front: 0,
+        peaks: all.into_iter(),
     }
 }
 
 /// Iterator of [`persistent`].
-pub struct Persistent<'a> {
-    sweep: Sweep<'a>,
-    min: f64,
-    /// The first peak of `sweep.born` not yet given out or passed over.
-    front: usize,
+pub struct Persistent {
+    peaks: std::vec::IntoIter<Peak>,
 }
 
-impl Iterator for Persistent<'_> {
+impl Iterator for Persistent {
     type Item = usize;
 
     fn next(&mut self) -> Option<usize> {
-        loop {
-            let s = &mut self.sweep;
-            if self.front == s.born.len() {
-                // The next peak is not born yet.
-                if !s.step() {
-                    return None;
-                }
-                continue;
-            }
-            let b = s.born[self.front];
-            let m = s.values[b.node as usize];
-            let reached = match b.end {
-                Some(q) => Some(q != ENDED_FLAT && q >= self.min),
-                None => match s.peek() {
-                    None => Some(1.0 >= self.min),
-                    // Every later end lies at or below `level`, and the persistence only
-                    // grows as the level falls.
-                    Some(next) => {
-                        let level = s.values[next as usize];
-                        (m > level && (m - level) / m >= self.min).then_some(true)
-                    }
-                },
-            };
-            match reached {
-                Some(yes) => {
-                    self.front += 1;
-                    if yes {
-                        return Some(b.node as usize);
-                    }
-                }
-                None => {
-                    s.step();
-                }
-            }
-        }
+        self.peaks.next().map(|p| p.node)
     }
 }
 #[cfg(test)]
@@ -408,8 +326,7 @@ mod tests {
     }
 
     #[test]
-    fn the_lazy_persistent_sweep_gives_the_filtered_peaks_in_order() {
-        // 40 000 nodes: the sweep sorts them in many buckets.
+    fn the_persistent_peaks_are_the_filtered_peaks_in_order() {
         for seed in [1, 2, 3] {
             let v = rough(250, 160, seed);
             let all = peaks(&v, 250, 160);
@@ -430,7 +347,7 @@ mod tests {
     }
 
     /// The sweep over every node sorted at once, with a rank per node (the first form of this
-    /// module), kept as the reference the bucketed sweep must reproduce.
+    /// module), kept as the reference the sweep over the basins must reproduce.
     fn full_sort_peaks(values: &[f64], nx: usize, ny: usize) -> Vec<Peak> {
         let mut order: Vec<u32> = (0..values.len() as u32)
             .filter(|&p| values[p as usize].is_finite() && values[p as usize] > 0.0)
@@ -494,7 +411,7 @@ mod tests {
     }
 
     #[test]
-    fn bucketed_sweep_gives_the_peaks_of_a_full_sort() {
+    fn the_sweep_over_the_basins_gives_the_peaks_of_a_full_sort() {
         for seed in [4, 5, 6, 7] {
             let v = rough(250, 160, seed);
             assert_eq!(
@@ -502,13 +419,20 @@ mod tests {
                 full_sort_peaks(&v, 250, 160),
                 "seed {seed}"
             );
+            // Few distinct values: wide plateaus, ties along every border between basins.
+            let coarse: Vec<f64> = v.iter().map(|x| (x * 8.0).round() / 8.0).collect();
+            assert_eq!(
+                peaks(&coarse, 250, 160),
+                full_sort_peaks(&coarse, 250, 160),
+                "seed {seed}, coarse"
+            );
         }
         let v = rough(3, 2, 8);
         assert_eq!(peaks(&v, 3, 2), full_sort_peaks(&v, 3, 2));
     }
 
     #[test]
-    fn the_sweep_counted_and_filled_in_parts_does_not_depend_on_the_thread_count() {
+    fn the_peaks_do_not_depend_on_the_thread_count() {
         let v = rough(250, 160, 9);
         let want = full_sort_peaks(&v, 250, 160);
         for threads in [1, 2, 3, 5] {
