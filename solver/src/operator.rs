@@ -453,48 +453,17 @@ fn geometric_weight(faces: &Faces, axis: Axis, i: usize, j: usize, theta: f64, s
 
 /// Every connected region of unknowns must touch a fixed potential.
 fn check_reference(s: &Stencil5, links: &[Link], grid: &Grid) -> Result<(), OperatorError> {
-    let n = s.len();
-    let nx = s.nx;
-    let mut anchored = vec![false; n];
-    let mut stack: Vec<usize> = Vec::new();
-    for l in links {
-        let p = l.node as usize;
-        if !anchored[p] {
-            anchored[p] = true;
-            stack.push(p);
-        }
-    }
-    while let Some(p) = stack.pop() {
-        let mut visit = |q: usize, c: f64| {
-            if c > 0.0 && s.unknown[q] && !anchored[q] {
-                anchored[q] = true;
-                stack.push(q);
-            }
-        };
-        let (i, j) = (p % nx, p / nx);
-        if i + 1 < nx {
-            visit(p + 1, s.east[p]);
-        }
-        if i > 0 {
-            visit(p - 1, s.east[p - 1]);
-        }
-        if j + 1 < s.ny {
-            visit(p + nx, s.north[p]);
-        }
-        if j > 0 {
-            visit(p - nx, s.north[p - nx]);
-        }
-    }
-    match (0..n).find(|&p| s.unknown[p] && !anchored[p]) {
+    match anchored::first_unanchored(s, links.iter().map(|l| l.node as usize)) {
         Some(p) => Err(OperatorError::NoReference {
-            x: grid.x(p % nx),
-            y: grid.y(p / nx),
+            x: grid.x(p % s.nx),
+            y: grid.y(p / s.nx),
         }),
         None => Ok(()),
     }
 }
 
 mod interface;
+mod anchored;
 mod rows;
 #[cfg(test)]
 mod tests;
