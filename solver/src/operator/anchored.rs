@@ -182,6 +182,7 @@ mod tests {
             east,
             north,
             unknown,
+            cross: Vec::new(),
         };
         (s, anchors)
     }
