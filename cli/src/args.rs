@@ -61,7 +61,8 @@ pub struct SolveOptions {
     /// Linear solver.
     #[arg(long, value_enum, default_value_t = SolverChoice::Multigrid)]
     pub solver: SolverChoice,
-    /// Relative residual at which a solve stops.
+    /// Relative residual at which a solve stops; it also goes on until the sum of the
+    /// residual's magnitudes is within 1000 times this of the largest conductor charge.
     #[arg(long, default_value_t = 1e-8)]
     pub tol: f64,
     /// Worker threads (default: every core).

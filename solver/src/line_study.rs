@@ -33,7 +33,8 @@ pub struct LineStudy {
     pub vacuum: Solution,
     /// Line parameters of the signals (of the whole line when unfolded).
     pub line: LineParams,
-    /// Estimated discretisation errors of the scalar parameters, by the keys of
+    /// Estimated errors of the scalar parameters (the discretisation's plus the linear
+    /// solver's, from the asymmetry of the two studies' matrices), by the keys of
     /// [`line::scalars`] (empty without the error estimate).
     pub errors: Vec<(&'static str, f64)>,
     /// Symmetry sides the line was unfolded across (each doubles every signal conductor):
@@ -211,6 +212,17 @@ pub fn run_planned_from(
         }
         _ => Vec::new(),
     };
+    // The linear solver's part, from the asymmetry of either study's matrix.
+    let asym = study::worst_relative_asymmetry(&solution.capacitance.matrix)
+        .max(study::worst_relative_asymmetry(&vacuum.capacitance.matrix));
+    let values = line::scalars(&line);
+    let errors = errors
+        .into_iter()
+        .map(|(k, e)| {
+            let v = values.iter().find(|s| s.0 == k).map_or(0.0, |s| s.1);
+            (k, e + v.abs() * asym)
+        })
+        .collect();
     if line.pair.as_ref().is_some_and(|p| !p.symmetric) {
         warnings.push(Warning::AsymmetricPair);
     }

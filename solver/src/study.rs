@@ -33,7 +33,7 @@ mod reference;
 mod solves;
 
 use estimate::CoarseStudies;
-pub use estimate::ErrorModel;
+pub use estimate::{solver_errors, worst_relative_asymmetry, ErrorModel};
 pub use params::{StudyError, StudyParams, WarmStart};
 use solves::{solve_on, Core};
 use std::sync::Arc;
@@ -67,8 +67,11 @@ pub struct Capacitance {
     /// Entry (i, j): charge on i with j at 1 V and every other fixed conductor at 0 V
     /// (F/m planar, F axisymmetric).
     pub matrix: Vec<Vec<f64>>,
-    /// Estimated discretisation error of each entry, same units, when requested.
+    /// Estimated error of each entry, same units, when requested: the discretisation's (from
+    /// the error model) plus the linear solver's (`solver_error`).
     pub error_estimate: Option<Vec<Vec<f64>>>,
+    /// The linear solver's part of the error of each entry ([`solver_errors`]), same units.
+    pub solver_error: Vec<Vec<f64>>,
     /// How the estimate was made, when it was.
     pub error_model: Option<ErrorModel>,
 }
@@ -326,13 +329,20 @@ fn capacitance(
         .map(|c| c.name.clone())
         .collect();
     let error_model = coarse.error_model(design, grid, core, singular);
-    let error_estimate = error_model
-        .as_ref()
-        .map(|m| estimate::matrix_errors(m, &core.maxwell));
+    let solver_error = solver_errors(&core.maxwell);
+    let error_estimate = error_model.as_ref().map(|m| {
+        let mut e = estimate::matrix_errors(m, &core.maxwell);
+        e.iter_mut()
+            .flatten()
+            .zip(solver_error.iter().flatten())
+            .for_each(|(e, s)| *e += s);
+        e
+    });
     Capacitance {
         names,
         matrix: core.maxwell.clone(),
         error_estimate,
+        solver_error,
         error_model,
     }
 }

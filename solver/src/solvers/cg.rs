@@ -5,7 +5,8 @@
 //! `b - A x` at exit, not taken from the recurrence.
 
 use super::{
-    curvature_breakdown, krylov_outcome, Info, Method, Params, Progress, SolveError, StopReason,
+    charge::ChargeStop, curvature_breakdown, krylov_outcome, Info, Method, Params, Progress,
+    SolveError, StopReason,
 };
 use crate::parallel;
 use crate::stencil::Stencil5;
@@ -46,7 +47,8 @@ pub(crate) fn pcg(
     let mut ap = vec![0.0; n];
     let mut progress = Progress::new(rel0, params.tol, 200);
     let mut iterations = 0;
-    let mut reason = if rel0 <= params.tol {
+    let mut charge = ChargeStop::new(params.charge_scale.as_ref(), params.tol);
+    let mut reason = if rel0 <= params.tol && charge.may_stop(&r, x) {
         Some(StopReason::Converged)
     } else {
         None
@@ -57,7 +59,12 @@ pub(crate) fn pcg(
         let mut rz = parallel::dot(&r, &z);
         while reason.is_none() {
             if iterations >= max_iter {
-                reason = Some(StopReason::MaxIterations);
+                // Held by the charge test alone, the relative residual met: converged.
+                reason = Some(if progress.met() {
+                    StopReason::Converged
+                } else {
+                    StopReason::MaxIterations
+                });
                 break;
             }
             a.apply(&p, &mut ap);
@@ -79,8 +86,10 @@ pub(crate) fn pcg(
                 m(iterations, rel);
             }
             if let Some(stop) = progress.record(rel, 1) {
-                reason = Some(stop);
-                break;
+                if stop != StopReason::Converged || charge.may_stop(&r, x) {
+                    reason = Some(stop);
+                    break;
+                }
             }
             precond(&r, &mut z);
             let rz_new = parallel::dot(&r, &z);
@@ -92,7 +101,15 @@ pub(crate) fn pcg(
         }
     }
     let true_rel = a.residual(b, x, &mut r) / bnorm;
-    krylov_outcome(method, iterations, reason, true_rel, params.tol)
+    let charge_residual = charge.ratio(&r, x);
+    krylov_outcome(
+        method,
+        iterations,
+        reason,
+        true_rel,
+        charge_residual,
+        params.tol,
+    )
 }
 
 #[cfg(test)]

@@ -2,15 +2,18 @@
 //! multigrid-preconditioned CG. They know nothing of designs: a [`Stencil5`] and right-hand
 //! sides in, a solution and an [`Info`] (or a [`SolveError`] carrying one) out.
 //!
-//! Invariants: the relative residual is `||b - A x||_2 / ||b||_2` over the full lattice; every
+//! Invariants: the relative residual is `||b - A x||_2 / ||b||_2` over the full lattice (and a
+//! solve given a charge scale also meets the [`charge`] test on `||b - A x||_1`); every
 //! reduction goes through [`crate::parallel`], so results are bit-identical for any thread
 //! count; `x` holds the last iterate also when an error is returned.
 
 pub mod cg;
+pub mod charge;
 pub mod multigrid;
 pub mod sor;
 
 use crate::stencil::Stencil5;
+pub use charge::{ChargeScale, CHARGE_TOL_FACTOR};
 use std::sync::Arc;
 
 /// Which solver to use.
@@ -53,7 +56,8 @@ pub type Monitor = Arc<dyn Fn(usize, f64) + Send + Sync>;
 #[derive(Clone)]
 #[non_exhaustive]
 pub struct Params {
-    /// Stop when the relative residual falls to this value.
+    /// Stop when the relative residual falls to this value (and, with a `charge_scale`,
+    /// the charge test at `CHARGE_TOL_FACTOR` times it is met).
     pub tol: f64,
     /// Give up after this many iterations; `None`: the method's own limit, which grows with
     /// the lattice.
@@ -62,6 +66,10 @@ pub struct Params {
     pub omega: Option<f64>,
     /// Progress callback.
     pub monitor: Option<Monitor>,
+    /// The charge scale of an iterate, for solves whose results are charges: with it, a
+    /// solve that meets `tol` goes on until also `||b - A x||_1 <= CHARGE_TOL_FACTOR * tol *
+    /// scale(x)` (see [`charge`]).
+    pub charge_scale: Option<ChargeScale>,
 }
 
 impl Default for Params {
@@ -71,6 +79,7 @@ impl Default for Params {
             max_iter: None,
             omega: None,
             monitor: None,
+            charge_scale: None,
         }
     }
 }
@@ -81,6 +90,7 @@ impl std::fmt::Debug for Params {
             .field("tol", &self.tol)
             .field("max_iter", &self.max_iter)
             .field("omega", &self.omega)
+            .field("charge_scale", &self.charge_scale.is_some())
             .finish_non_exhaustive()
     }
 }
@@ -127,6 +137,9 @@ pub struct Info {
     pub relative_residual: f64,
     /// Why it stopped.
     pub reason: StopReason,
+    /// `||b - A x||_1` over the charge scale at exit, when the solve was given one: a bound
+    /// on the error of every charge read from it, relative to the largest.
+    pub charge_residual: Option<f64>,
 }
 
 impl Params {
@@ -162,6 +175,7 @@ impl Info {
             iterations: 0,
             relative_residual: 0.0,
             reason: StopReason::ZeroRhs,
+            charge_residual: None,
         }
     }
 
@@ -312,6 +326,11 @@ impl Progress {
         }
     }
 
+    /// True once the relative residual has reached the tolerance.
+    pub(crate) fn met(&self) -> bool {
+        self.best <= self.tol
+    }
+
     /// Records the relative residual `rel` reached after `steps` more iterations and says
     /// whether to stop: converged, non-finite, diverged (1e8 times the start) or stagnated.
     pub(crate) fn record(&mut self, rel: f64, steps: usize) -> Option<StopReason> {
@@ -351,13 +370,14 @@ pub(crate) fn curvature_breakdown(pap: f64) -> Option<StopReason> {
 }
 
 /// The outcome of a Krylov iteration that stopped for `reason` (none: the iteration limit)
-/// with the true relative residual `true_rel`: the recurrence can drift from the true
-/// residual, and only the true one may claim success.
+/// with the true relative residual `true_rel` and charge ratio `charge_residual`: the
+/// recurrence can drift from the true residual, and only the true one may claim success.
 pub(crate) fn krylov_outcome(
     method: Method,
     iterations: usize,
     reason: Option<StopReason>,
     true_rel: f64,
+    charge_residual: Option<f64>,
     tol: f64,
 ) -> Result<Info, SolveError> {
     let mut reason = reason.unwrap_or(StopReason::MaxIterations);
@@ -372,6 +392,7 @@ pub(crate) fn krylov_outcome(
         iterations,
         relative_residual: true_rel,
         reason,
+        charge_residual,
     }
     .into_result()
 }

@@ -6,7 +6,7 @@
 //! colour passes and updated one by one after them with their whole row, so every sweep is
 //! point SOR on the whole operator in one fixed order (convergent for SPD matrices).
 
-use super::{Info, Method, Params, Progress, SolveError, StopReason};
+use super::{charge::ChargeStop, Info, Method, Params, Progress, SolveError, StopReason};
 use crate::parallel;
 use crate::stencil::Stencil5;
 use rayon::prelude::*;
@@ -130,13 +130,19 @@ pub fn solve(a: &Stencil5, b: &[f64], x: &mut [f64], params: &Params) -> Result<
     let mut r = vec![0.0; a.len()];
     let rel0 = a.residual(b, x, &mut r) / bnorm;
     let mut progress = Progress::new(rel0, params.tol, 2000);
+    let mut charge = ChargeStop::new(params.charge_scale.as_ref(), params.tol);
     let (mut rel, mut iterations) = (rel0, 0);
     let reason = loop {
-        if rel <= params.tol {
+        if rel <= params.tol && charge.may_stop(&r, x) {
             break StopReason::Converged;
         }
         if iterations >= max_iter {
-            break StopReason::MaxIterations;
+            // Held by the charge test alone, the relative residual met: converged.
+            break if rel <= params.tol {
+                StopReason::Converged
+            } else {
+                StopReason::MaxIterations
+            };
         }
         let steps = check_every.min(max_iter - iterations);
         for _ in 0..steps {
@@ -147,8 +153,9 @@ pub fn solve(a: &Stencil5, b: &[f64], x: &mut [f64], params: &Params) -> Result<
         if let Some(m) = &params.monitor {
             m(iterations, rel);
         }
-        if let Some(stop) = progress.record(rel, steps) {
-            break stop;
+        match progress.record(rel, steps) {
+            Some(StopReason::Converged) | None => {}
+            Some(stop) => break stop,
         }
     };
     Info {
@@ -156,6 +163,7 @@ pub fn solve(a: &Stencil5, b: &[f64], x: &mut [f64], params: &Params) -> Result<
         iterations,
         relative_residual: rel,
         reason,
+        charge_residual: charge.ratio(&r, x),
     }
     .into_result()
 }

@@ -212,6 +212,45 @@ pub(super) fn matrix_errors(model: &ErrorModel, maxwell: &[Vec<f64>]) -> Vec<Vec
         .collect()
 }
 
+/// The linear solver's part of the error of every entry of a Maxwell matrix: the asymmetry
+/// `|C_ij - C_ji|` (an exact solve of the symmetric operator makes the matrix symmetric; each
+/// entry's error is a first-order function of the residual of its own solve, which the
+/// asymmetry samples); on the diagonal, the largest asymmetry of its row (the same solves
+/// make the whole row).
+pub fn solver_errors(maxwell: &[Vec<f64>]) -> Vec<Vec<f64>> {
+    let n = maxwell.len();
+    let asym = |i: usize, j: usize| (maxwell[i][j] - maxwell[j][i]).abs();
+    (0..n)
+        .map(|i| {
+            (0..n)
+                .map(|j| {
+                    if i != j {
+                        asym(i, j)
+                    } else {
+                        (0..n).map(|k| asym(i, k)).fold(0.0, f64::max)
+                    }
+                })
+                .collect()
+        })
+        .collect()
+}
+
+/// The largest asymmetry of a Maxwell matrix relative to the geometric mean of the two
+/// diagonal entries it joins: the linear solver's relative error of quantities made from
+/// the whole matrix (a line's parameters, forces).
+pub fn worst_relative_asymmetry(maxwell: &[Vec<f64>]) -> f64 {
+    let mut worst: f64 = 0.0;
+    for i in 0..maxwell.len() {
+        for j in 0..i {
+            let scale = (maxwell[i][i] * maxwell[j][j]).abs().sqrt();
+            if scale > 0.0 {
+                worst = worst.max((maxwell[i][j] - maxwell[j][i]).abs() / scale);
+            }
+        }
+    }
+    worst
+}
+
 /// A warning for every capacitance entry whose estimated error is above 1 % of it; a
 /// symmetric pair (i, j) and (j, i) is warned once, as (i, j) with i <= j in matrix order,
 /// with the larger of the two percentages.
@@ -247,6 +286,16 @@ pub(super) fn capacitance_warnings(
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn the_solver_error_is_the_asymmetry() {
+        let m = vec![vec![10.0, -2.0], vec![-2.002, 8.0]];
+        let e = solver_errors(&m);
+        assert!((e[0][1] - 0.002).abs() < 1e-12);
+        assert!((e[1][0] - 0.002).abs() < 1e-12);
+        assert!((e[1][1] - 0.002).abs() < 1e-12);
+        assert!((worst_relative_asymmetry(&m) - 0.002 / 80f64.sqrt()).abs() < 1e-12);
+    }
 
     fn model(graded_family: bool) -> ErrorModel {
         ErrorModel {

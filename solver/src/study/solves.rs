@@ -2,17 +2,21 @@
 //! conductor and one for the sides and the free charge, then the exact elimination of
 //! floating conductors (net charge zero) from that small dense system.
 //!
-//! Invariants: every charge is a reaction of the operator the solver saw; fixed nodes hold
-//! their own potentials in `phi`; `response[k][t]` is the charge on target t with conductor
-//! k at 1 V and everything else at 0 V.
+//! Invariants: every charge is a reaction of the operator the solver saw, and every solve
+//! is given the charge scale of its targets' reactions (so it meets the solvers' charge test
+//! as well as the relative residual); fixed nodes hold their own potentials in `phi`;
+//! `response[k][t]` is the charge on target t with conductor k at 1 V and everything else at
+//! 0 V.
 
 use super::params::{StudyError, StudyParams, WarmStart};
 use crate::design::{Design, Drive};
 use crate::grid::Grid;
+use crate::links::Link;
 use crate::operator::{self, Operator};
 use crate::raster::{self, Raster, NO_CONDUCTOR};
 use crate::solvers::{self, Info};
 use crate::stages::{Stage, StageMonitor, Tracker};
+use std::sync::Arc;
 
 /// Core results of the solves on one lattice.
 pub(super) struct Core {
@@ -53,6 +57,26 @@ impl Operator {
     }
 }
 
+/// The solver settings of one solve with target potentials `values`: the study's, with the
+/// charge scale of an iterate, the largest reaction over the targets in the units of the
+/// right-hand side (charge / eps0).
+fn with_charge_scale(
+    params: &solvers::Params,
+    links: &Arc<[Link]>,
+    values: &[f64],
+) -> solvers::Params {
+    let (links, values) = (Arc::clone(links), values.to_vec());
+    let mut p = params.clone();
+    p.charge_scale = Some(Arc::new(move |x: &[f64]| {
+        let mut q = vec![0.0; values.len()];
+        for l in links.iter() {
+            q[l.target as usize] += l.weight * (values[l.target as usize] - x[l.node as usize]);
+        }
+        q.iter().fold(0.0, |m: f64, v| m.max(v.abs()))
+    }));
+    p
+}
+
 /// Runs every solve of the study on one lattice, telling `monitor` of its stages.
 pub(super) fn solve_on(
     design: &Design,
@@ -67,6 +91,7 @@ pub(super) fn solve_on(
     let op = operator::assemble(design, &raster)?;
     stages.enter(Stage::SolverSetup);
     let prepared = solvers::prepare_with(params.method, &op.stencil, &params.multigrid);
+    let links: Arc<[Link]> = op.links.as_slice().into();
     stages.enter(Stage::Solves);
     let n = grid.len();
     let nc = design.conductors.len();
@@ -95,10 +120,8 @@ pub(super) fn solve_on(
         let values = op.target_values(&unit, false);
         let b = op.rhs(&values, false);
         let mut x = warm.map_or_else(|| vec![0.0; n], |w| w.unit[k].clone());
-        record(
-            prepared.solve(&op.stencil, &b, &mut x, &params.solver),
-            &mut infos,
-        );
+        let solver = with_charge_scale(&params.solver, &links, &values);
+        record(prepared.solve(&op.stencil, &b, &mut x, &solver), &mut infos);
         response[k] = op.reactions(&x, &values, false);
         if params.keep_warm_start {
             keep.unit.push(x.clone());
@@ -119,8 +142,9 @@ pub(super) fn solve_on(
         let mut x0 = warm
             .and_then(|w| w.background.clone())
             .unwrap_or_else(|| vec![0.0; n]);
+        let solver = with_charge_scale(&params.solver, &links, &values0);
         record(
-            prepared.solve(&op.stencil, &b0, &mut x0, &params.solver),
+            prepared.solve(&op.stencil, &b0, &mut x0, &solver),
             &mut infos,
         );
         if params.keep_warm_start {

@@ -17,7 +17,8 @@ use super::smoother::{wavefront, Stage};
 use super::transfer::{each, PARALLEL_MIN};
 use crate::parallel;
 use crate::solvers::{
-    curvature_breakdown, krylov_outcome, Info, Method, Params, Progress, SolveError, StopReason,
+    charge::ChargeStop, curvature_breakdown, krylov_outcome, Info, Method, Params, Progress,
+    SolveError, StopReason,
 };
 use crate::stencil::Stencil5;
 
@@ -171,7 +172,8 @@ pub(super) fn pcg(
     let mut partial = vec![0.0; a.ny];
     let mut progress = Progress::new(rel0, params.tol, 200);
     let mut iterations = 0usize;
-    let mut reason = if rel0 <= params.tol {
+    let mut charge = ChargeStop::new(params.charge_scale.as_ref(), params.tol);
+    let mut reason = if rel0 <= params.tol && charge.may_stop(&r, x) {
         Some(StopReason::Converged)
     } else {
         None
@@ -181,7 +183,12 @@ pub(super) fn pcg(
         let mut beta = 0.0;
         loop {
             if iterations >= max_iter {
-                reason = Some(StopReason::MaxIterations);
+                // Held by the charge test alone, the relative residual met: converged.
+                reason = Some(if progress.met() {
+                    StopReason::Converged
+                } else {
+                    StopReason::MaxIterations
+                });
                 break;
             }
             let pap = direction_and_apply(a, &mut zw, &mut p, beta, &mut partial);
@@ -196,8 +203,10 @@ pub(super) fn pcg(
                 m(iterations, rel);
             }
             if let Some(stop) = progress.record(rel, 1) {
-                reason = Some(stop);
-                break;
+                if stop != StopReason::Converged || charge.may_stop(&r, x) {
+                    reason = Some(stop);
+                    break;
+                }
             }
             let rz_new = vcycle(h, a, ws, &r, &mut zw, &mut partial);
             beta = rz_new / rz;
@@ -205,5 +214,13 @@ pub(super) fn pcg(
         }
     }
     let true_rel = a.residual(b, x, &mut r) / bnorm;
-    krylov_outcome(METHOD, iterations, reason, true_rel, params.tol)
+    let charge_residual = charge.ratio(&r, x);
+    krylov_outcome(
+        METHOD,
+        iterations,
+        reason,
+        true_rel,
+        charge_residual,
+        params.tol,
+    )
 }
