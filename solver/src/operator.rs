@@ -462,8 +462,8 @@ fn check_reference(s: &Stencil5, links: &[Link], grid: &Grid) -> Result<(), Oper
     }
 }
 
-mod interface;
 mod anchored;
+mod interface;
 mod rows;
 #[cfg(test)]
 mod tests;
