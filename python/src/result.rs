@@ -35,8 +35,12 @@ pub struct NativeResult {
     summary: Summary,
 }
 
-/// Picture options as `--picture-width` accepts them (400 to 8000 px).
-pub fn render_options(width: u32) -> PyResult<RenderOptions> {
+/// Picture options as `--picture-width` accepts them (400 to 8000 px), with the design's
+/// `[pictures] zoom` as the command takes it.
+pub fn render_options(
+    width: u32,
+    src: &fieldgrid_cli::design_file::DesignSource,
+) -> PyResult<RenderOptions> {
     if !(400..=8000).contains(&width) {
         return Err(PyValueError::new_err(format!(
             "picture_width {width}: must lie between 400 and 8000 px"
@@ -44,7 +48,7 @@ pub fn render_options(width: u32) -> PyResult<RenderOptions> {
     }
     Ok(RenderOptions {
         width,
-        ..RenderOptions::default()
+        zoom: src.zoom,
     })
 }
 
@@ -154,8 +158,8 @@ impl NativeResult {
         log_field: bool,
         picture_width: u32,
     ) -> PyResult<PathBuf> {
-        let pictures = render_options(picture_width)?;
         let src = &self.src;
+        let pictures = render_options(picture_width, src)?;
         let done = py.detach(|| -> Result<PathBuf, fieldgrid_cli::error::Failure> {
             let mut dir = OutDir::prepare(&out)?;
             match &self.kind {

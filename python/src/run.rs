@@ -204,7 +204,7 @@ pub fn check(
     grid_lines: bool,
 ) -> PyResult<String> {
     let src = Arc::clone(&design.src);
-    let render = crate::result::render_options(picture_width)?;
+    let render = crate::result::render_options(picture_width, &src)?;
     let report = py.detach(
         || -> Result<serde_json::Value, fieldgrid_cli::error::Failure> {
             let (plan, _, report) = fieldgrid_cli::commands::check::check(&src, None)?;
