@@ -451,15 +451,7 @@ mod tests {
     use super::*;
 
     fn plot() -> Plot {
-        Plot {
-            x0: 10,
-            y0: 10,
-            w: 400,
-            h: 300,
-            xr: [0.0, 40.0],
-            yr: [0.0, 30.0],
-            distorted: false,
-        }
+        Plot::for_tests()
     }
 
     fn square(name: &str, x: f64, y: f64, s: f64) -> Outline {

@@ -38,6 +38,20 @@ pub(super) struct Plot {
 }
 
 impl Plot {
+    /// A 400 x 300 px plot at (10, 10) showing 40 x 30 m, for the renderer's unit tests.
+    #[cfg(test)]
+    pub(super) fn for_tests() -> Plot {
+        Plot {
+            x0: 10,
+            y0: 10,
+            w: 400,
+            h: 300,
+            xr: [0.0, 40.0],
+            yr: [0.0, 30.0],
+            distorted: false,
+        }
+    }
+
     /// Image pixel coordinates of a point in metres.
     pub(super) fn px(&self, p: Point) -> P {
         [
