@@ -34,6 +34,8 @@ pub mod plan;
 pub mod post;
 pub mod raster;
 pub mod root;
+#[cfg(test)]
+mod seeded;
 pub mod sensitivity;
 pub mod solvers;
 pub mod stages;

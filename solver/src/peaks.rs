@@ -298,13 +298,7 @@ mod tests {
 
     /// A seeded pseudo-random lattice: smooth hills on a floor, ripples, plateaus and holes.
     fn rough(nx: usize, ny: usize, seed: u64) -> Vec<f64> {
-        let mut state = seed;
-        let mut rnd = move || {
-            state = state
-                .wrapping_mul(6364136223846793005)
-                .wrapping_add(1442695040888963407);
-            (state >> 11) as f64 / (1u64 << 53) as f64
-        };
+        let mut rnd = crate::seeded::uniform(seed);
         let hills: Vec<[f64; 3]> = (0..12)
             .map(|_| [rnd() * nx as f64, rnd() * ny as f64, 0.5 + rnd()])
             .collect();

@@ -1,17 +1,7 @@
 //! The lazy search gives the exhaustive search's peak and hot spots on seeded random readings.
 
 use super::*;
-
-/// A seeded generator of uniform numbers in [0, 1).
-fn uniform(seed: u64) -> impl FnMut() -> f64 {
-    let mut state = seed;
-    move || {
-        state = state
-            .wrapping_mul(6364136223846793005)
-            .wrapping_add(1442695040888963407);
-        (state >> 11) as f64 / (1u64 << 53) as f64
-    }
-}
+use crate::seeded::uniform;
 
 /// Readings of a random scene: node lines graded at random, smooth hills of field with a
 /// ripple, holes (conductors), values quantised so that equal values occur, three materials

@@ -158,13 +158,7 @@ mod tests {
 
     /// A seeded lattice: fixed nodes, missing and NaN couplings cut it into many regions.
     fn scene(nx: usize, ny: usize, seed: u64, cut: f64) -> (Stencil5, Vec<usize>) {
-        let mut state = seed;
-        let mut rnd = move || {
-            state = state
-                .wrapping_mul(6364136223846793005)
-                .wrapping_add(1442695040888963407);
-            (state >> 11) as f64 / (1u64 << 53) as f64
-        };
+        let mut rnd = crate::seeded::uniform(seed);
         let n = nx * ny;
         let unknown: Vec<bool> = (0..n).map(|_| rnd() > 0.1).collect();
         let mut coupling = |_| match rnd() {

@@ -6,6 +6,7 @@
 use super::cycle::{vcycle, Workspace};
 use super::*;
 use crate::parallel;
+use crate::seeded::noise;
 
 /// Boundary condition of one side of the box.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -25,21 +26,6 @@ pub(super) struct GradedBox {
     pub axisymmetric: bool,
     /// West, east, south, north.
     pub sides: [Side; 4],
-}
-
-/// Seeded pseudo-random numbers in [-1, 1) (64-bit linear congruential generator).
-fn noise(n: usize, seed: u64) -> Vec<f64> {
-    let mut s = seed
-        .wrapping_mul(6364136223846793005)
-        .wrapping_add(1442695040888963407);
-    (0..n)
-        .map(|_| {
-            s = s
-                .wrapping_mul(6364136223846793005)
-                .wrapping_add(1442695040888963407);
-            ((s >> 11) as f64 / (1u64 << 53) as f64) * 2.0 - 1.0
-        })
-        .collect()
 }
 
 impl GradedBox {

@@ -3,26 +3,12 @@
 use super::transfer::{prolong_coarse, prolong_fine, restrict_coarse, restrict_fine};
 use super::*;
 use crate::parallel;
+use crate::seeded::noise;
 use crate::solvers::testing::jump_problem;
 
 fn rel_residual(a: &Stencil5, b: &[f64], x: &[f64]) -> f64 {
     let mut r = vec![0.0; a.len()];
     a.residual(b, x, &mut r) / parallel::norm2(b)
-}
-
-/// Seeded pseudo-random numbers in [-1, 1) (64-bit linear congruential generator).
-fn noise(n: usize, seed: u64) -> Vec<f64> {
-    let mut s = seed
-        .wrapping_mul(6364136223846793005)
-        .wrapping_add(1442695040888963407);
-    (0..n)
-        .map(|_| {
-            s = s
-                .wrapping_mul(6364136223846793005)
-                .wrapping_add(1442695040888963407);
-            ((s >> 11) as f64 / (1u64 << 53) as f64) * 2.0 - 1.0
-        })
-        .collect()
 }
 
 /// What a hard test operator contains.
