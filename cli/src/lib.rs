@@ -19,6 +19,7 @@ pub mod summary;
 pub mod timings;
 pub mod vtk;
 pub mod warning;
+pub mod wording;
 
 use clap::Parser;
 use std::ffi::OsString;

@@ -346,7 +346,11 @@ impl Summary {
                 seconds,
                 converged: sol.solve.converged,
                 solves: sol.solve.solves,
-                failure: sol.solve.failure.as_ref().map(|f| f.to_string()),
+                failure: sol
+                    .solve
+                    .failure
+                    .as_ref()
+                    .map(crate::wording::warnings::solve_failure),
             },
             conductors: sol
                 .conductors
@@ -433,7 +437,7 @@ impl Summary {
     /// Adds a warning: its text to `warnings`, and its code beside the text to
     /// `warning_details`.
     pub fn warn(&mut self, w: &impl crate::warning::Coded) {
-        let message = w.to_string();
+        let message = w.text();
         self.warning_details.push(WarningSummary {
             code: w.code().to_string(),
             message: message.clone(),

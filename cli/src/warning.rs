@@ -1,21 +1,30 @@
-//! Warnings the tool reports: the library's typed warnings and the few the tool makes itself,
-//! each with a stable code beside its text (see `fieldgrid_solver::warning`).
+//! Warnings the tool reports: the library's typed warnings (worded by
+//! [`crate::wording::warnings`]) and the few the tool makes itself, each with a stable code
+//! beside its text (see `fieldgrid_solver::warning`).
 //!
 //! Invariant: codes are short lower-case words joined by `-`, never renamed or reused, and
 //! distinct from every library code.
 
+use crate::wording;
 use fieldgrid_solver::warning::Warning;
 use std::fmt;
 
-/// A warning with a stable code; its `Display` is the sentence.
-pub trait Coded: fmt::Display {
+/// A warning with a stable code and a sentence.
+pub trait Coded {
     /// The stable code of this kind of warning.
     fn code(&self) -> &'static str;
+
+    /// The sentence the report prints and summary.json holds.
+    fn text(&self) -> String;
 }
 
 impl Coded for Warning {
     fn code(&self) -> &'static str {
         Warning::code(self)
+    }
+
+    fn text(&self) -> String {
+        wording::warning(self)
     }
 }
 
@@ -47,7 +56,7 @@ pub fn report_lines(warnings: &[Warning]) -> Vec<String> {
                     })
                     .collect();
                 if entries.len() == 1 {
-                    lines.push(format!("warning [{}]: {w}", w.code()));
+                    lines.push(format!("warning [{}]: {}", w.code(), w.text()));
                 } else {
                     lines.push(format!(
                         "warning [{}]: estimated discretisation errors above 1 % in capacitance \
@@ -57,7 +66,7 @@ pub fn report_lines(warnings: &[Warning]) -> Vec<String> {
                     ));
                 }
             }
-            _ => lines.push(format!("warning [{}]: {w}", w.code())),
+            _ => lines.push(format!("warning [{}]: {}", w.code(), w.text())),
         }
     }
     lines
@@ -79,6 +88,10 @@ impl Coded for ToolWarning {
         match self {
             ToolWarning::SweepNotConverged { .. } => "sweep-not-converged",
         }
+    }
+
+    fn text(&self) -> String {
+        self.to_string()
     }
 }
 

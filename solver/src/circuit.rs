@@ -59,17 +59,35 @@ pub struct SolutionCircuit {
     pub unfolding: Unfolding,
 }
 
-/// Why a solution has no circuit.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, thiserror::Error)]
+/// Why a solution has no circuit. `Display` renders the code, for logs; the command line
+/// words it for users.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
 #[non_exhaustive]
 pub enum NoCircuit {
     /// A planar result is per metre of depth; the design gives no depth.
-    #[error("a planar result is per metre of depth and the design gives no depth")]
     NeedsDepth,
     /// No conductor has a fixed potential, so there is no matrix.
-    #[error("no conductor has a fixed potential")]
     NoConductors,
 }
+
+impl NoCircuit {
+    /// The stable code of this reason (lower case words joined by `-`, never renamed or
+    /// reused).
+    pub fn code(&self) -> &'static str {
+        match self {
+            NoCircuit::NeedsDepth => "needs-depth",
+            NoCircuit::NoConductors => "no-fixed-conductor",
+        }
+    }
+}
+
+impl std::fmt::Display for NoCircuit {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        write!(f, "{}: {self:?}", self.code())
+    }
+}
+
+impl std::error::Error for NoCircuit {}
 
 /// Whether a design of this mode and depth can have a circuit, before anything is solved.
 pub fn exportable(mode: Mode, depth: Option<f64>) -> Result<(), NoCircuit> {

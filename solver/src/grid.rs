@@ -217,18 +217,16 @@ pub struct Grid {
     y: Lines,
 }
 
-/// A lattice that cannot be fitted.
-#[derive(Clone, Copy, Debug, PartialEq, thiserror::Error)]
+/// A lattice that cannot be fitted. `Display` renders the code and the data, for logs; the
+/// command line words it for users.
+#[derive(Clone, Copy, Debug, PartialEq)]
 #[non_exhaustive]
 pub enum GridError {
-    /// The cell size is not a positive finite number.
-    #[error("cell size must be a positive number, got {0}")]
+    /// The cell size is not a positive finite number (the value given, m).
     Cell(f64),
     /// The domain has no positive, finite width and height.
-    #[error("the domain must have positive width and height")]
     Domain,
     /// More than 1e8 cells along an axis.
-    #[error("{x} x {y} cells is far too many")]
     TooManyCells {
         /// Cells along x.
         x: f64,
@@ -236,14 +234,32 @@ pub enum GridError {
         y: f64,
     },
     /// Grid lines that are not at least 3 finite, strictly increasing coordinates.
-    #[error(
-        "the grid lines along {axis} must be at least 3 finite, strictly increasing coordinates"
-    )]
     Lines {
         /// 'x' or 'y'.
         axis: char,
     },
 }
+
+impl GridError {
+    /// The stable code of this error (lower case words joined by `-`, never renamed or
+    /// reused).
+    pub fn code(&self) -> &'static str {
+        match self {
+            GridError::Cell(_) => "cell-size",
+            GridError::Domain => "empty-domain",
+            GridError::TooManyCells { .. } => "too-many-cells",
+            GridError::Lines { .. } => "grid-lines",
+        }
+    }
+}
+
+impl std::fmt::Display for GridError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        write!(f, "{}: {self:?}", self.code())
+    }
+}
+
+impl std::error::Error for GridError {}
 
 impl Grid {
     /// Fits a uniform grid to the domain with cells as close to `cell` as a whole number of

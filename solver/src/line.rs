@@ -21,17 +21,36 @@
 
 use crate::{EPS0, MU0};
 
-/// Matrices that cannot describe a line.
-#[derive(Clone, Debug, PartialEq, thiserror::Error)]
+/// Matrices that cannot describe a line. `Display` renders the code and the data, for logs;
+/// the command line words it for users.
+#[derive(Clone, Debug, PartialEq)]
 #[non_exhaustive]
 pub enum LineError {
     /// The two matrices differ in size, are empty or are not square.
-    #[error("capacitance matrices must be square, non-empty and of the same size")]
     Shape,
-    /// A matrix is not symmetric positive definite (a signal without capacitance to the rest).
-    #[error("the {0} capacitance matrix is not positive definite")]
+    /// A matrix is not symmetric positive definite (a signal without capacitance to the
+    /// rest): `"dielectric"` (C) or `"vacuum"` (C0).
     NotPositiveDefinite(&'static str),
 }
+
+impl LineError {
+    /// The stable code of this error (lower case words joined by `-`, never renamed or
+    /// reused).
+    pub fn code(&self) -> &'static str {
+        match self {
+            LineError::Shape => "matrix-shape",
+            LineError::NotPositiveDefinite(_) => "not-positive-definite",
+        }
+    }
+}
+
+impl std::fmt::Display for LineError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        write!(f, "{}: {self:?}", self.code())
+    }
+}
+
+impl std::error::Error for LineError {}
 
 /// Parameters of a pair of signal conductors.
 #[derive(Clone, Debug, PartialEq)]

@@ -64,26 +64,44 @@ impl LineStudy {
     }
 }
 
-/// Signals that cannot make a line.
-#[derive(Clone, Debug, PartialEq, thiserror::Error)]
+/// Signals that cannot make a line. `Display` renders the code and the data, for logs; the
+/// command line words it for users.
+#[derive(Clone, Debug, PartialEq)]
 #[non_exhaustive]
 pub enum SignalError {
     /// The design is axisymmetric: a line is a planar cross-section.
-    #[error("a line study needs a planar cross-section")]
     NotPlanar,
     /// No signal was named.
-    #[error("no signal conductor named")]
     NoSignal,
     /// No conductor has this name.
-    #[error("the design has no conductor named {0}")]
     Unknown(String),
     /// The conductor is floating; a signal needs a fixed potential.
-    #[error("the conductor {0} is floating; a signal needs a fixed potential")]
     Floating(String),
     /// The signal is named twice.
-    #[error("the signal {0} is named twice")]
     Repeated(String),
 }
+
+impl SignalError {
+    /// The stable code of this error (lower case words joined by `-`, never renamed or
+    /// reused).
+    pub fn code(&self) -> &'static str {
+        match self {
+            SignalError::NotPlanar => "line-not-planar",
+            SignalError::NoSignal => "no-signal",
+            SignalError::Unknown(_) => "unknown-signal",
+            SignalError::Floating(_) => "floating-signal",
+            SignalError::Repeated(_) => "repeated-signal",
+        }
+    }
+}
+
+impl std::fmt::Display for SignalError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        write!(f, "{}: {self:?}", self.code())
+    }
+}
+
+impl std::error::Error for SignalError {}
 
 /// A line study that could not run.
 #[derive(Debug, thiserror::Error)]

@@ -62,26 +62,44 @@ pub struct Info {
     pub converged: bool,
 }
 
-/// Why the iteration stopped without a result.
-#[derive(Debug, thiserror::Error)]
+/// Why the iteration stopped without a result. `Display` renders the code and the data, for
+/// logs; the command line words it for users.
+#[derive(Debug)]
 #[non_exhaustive]
 pub enum NewtonError<E> {
     /// The Jacobian is singular: a parameter moves no residual, or two move them alike.
-    #[error("the sensitivities are singular at the point {x:?}: the parameters cannot move the quantities independently")]
     Singular {
         /// Where.
         x: Vec<f64>,
     },
     /// f returned a NaN or an infinity.
-    #[error("a residual at {x:?} is not a finite number")]
     NonFinite {
         /// Where.
         x: Vec<f64>,
     },
     /// f itself failed.
-    #[error("the function failed")]
     Evaluation(E),
 }
+
+impl<E> NewtonError<E> {
+    /// The stable code of this error (lower case words joined by `-`, never renamed or
+    /// reused).
+    pub fn code(&self) -> &'static str {
+        match self {
+            NewtonError::Singular { .. } => "singular",
+            NewtonError::NonFinite { .. } => "not-finite",
+            NewtonError::Evaluation(_) => "evaluation-failed",
+        }
+    }
+}
+
+impl<E: std::fmt::Debug> std::fmt::Display for NewtonError<E> {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        write!(f, "{}: {self:?}", self.code())
+    }
+}
+
+impl<E: std::fmt::Debug> std::error::Error for NewtonError<E> {}
 
 fn norm(r: &[f64], tol: &[f64]) -> f64 {
     r.iter().zip(tol).map(|(r, t)| (r / t).powi(2)).sum()

@@ -40,13 +40,13 @@ use rayon::prelude::*;
 /// error in the surface position of at most `THETA_MIN * h`, keeping the weights bounded).
 pub const THETA_MIN: f64 = 0.01;
 
-/// A design that cannot be turned into a definite operator.
-#[derive(Clone, Debug, PartialEq, thiserror::Error)]
+/// A design that cannot be turned into a definite operator. `Display` renders the code and
+/// the data, for logs; the command line words it for users.
+#[derive(Clone, Debug, PartialEq)]
 #[non_exhaustive]
 pub enum OperatorError {
     /// A region of free space has no fixed potential anywhere on its boundary (for example
     /// every side a symmetry side and no conductor), so its potential is undetermined.
-    #[error("the region around ({x:.6e} m, {y:.6e} m) touches no fixed potential: ground a side or add a conductor")]
     NoReference {
         /// A point of the region, m.
         x: f64,
@@ -54,6 +54,24 @@ pub enum OperatorError {
         y: f64,
     },
 }
+
+impl OperatorError {
+    /// The stable code of this error (lower case words joined by `-`, never renamed or
+    /// reused).
+    pub fn code(&self) -> &'static str {
+        match self {
+            OperatorError::NoReference { .. } => "no-reference",
+        }
+    }
+}
+
+impl std::fmt::Display for OperatorError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        write!(f, "{}: {self:?}", self.code())
+    }
+}
+
+impl std::error::Error for OperatorError {}
 
 /// The assembled operator of one design on one lattice.
 #[derive(Clone, Debug)]

@@ -68,12 +68,12 @@ pub struct Info {
     pub evaluations: usize,
 }
 
-/// Why no root was found.
-#[derive(Debug, thiserror::Error)]
+/// Why no root was found. `Display` renders the code and the data, for logs; the command
+/// line words it for users.
+#[derive(Debug)]
 #[non_exhaustive]
 pub enum RootError<E> {
     /// f has the same sign at both ends: no root is bracketed.
-    #[error("f({a}) = {fa} and f({b}) = {fb} have the same sign: no root between them")]
     NotBracketed {
         /// One end.
         a: f64,
@@ -85,18 +85,36 @@ pub enum RootError<E> {
         fb: f64,
     },
     /// f returned NaN or an infinity.
-    #[error("f({x}) is not a finite number")]
     NonFinite {
         /// Where.
         x: f64,
     },
     /// The evaluation limit was reached first; the best point so far is given.
-    #[error("no root within {} evaluations; the best point is x = {}, f = {}", .0.evaluations, .0.x, .0.f)]
     MaxEvaluations(Info),
     /// f itself failed.
-    #[error("the function failed")]
     Evaluation(E),
 }
+
+impl<E> RootError<E> {
+    /// The stable code of this error (lower case words joined by `-`, never renamed or
+    /// reused).
+    pub fn code(&self) -> &'static str {
+        match self {
+            RootError::NotBracketed { .. } => "not-bracketed",
+            RootError::NonFinite { .. } => "not-finite",
+            RootError::MaxEvaluations(_) => "max-evaluations",
+            RootError::Evaluation(_) => "evaluation-failed",
+        }
+    }
+}
+
+impl<E: std::fmt::Debug> std::fmt::Display for RootError<E> {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        write!(f, "{}: {self:?}", self.code())
+    }
+}
+
+impl<E: std::fmt::Debug> std::error::Error for RootError<E> {}
 
 /// A root of `f` between `a` and `b`, given with their values `(a, f(a))`, `(b, f(b))`.
 pub fn brent<E>(

@@ -195,7 +195,11 @@ pub fn line_summary(
         .relative_residual
         .max(sol0.solve.relative_residual);
     if summary.solver.failure.is_none() {
-        summary.solver.failure = sol0.solve.failure.as_ref().map(|f| f.to_string());
+        summary.solver.failure = sol0
+            .solve
+            .failure
+            .as_ref()
+            .map(crate::wording::warnings::solve_failure);
     }
     summary.line = Some(line_json(signals, &ls.mirrored, lp, errors));
     summary
@@ -220,7 +224,12 @@ pub fn line_warnings(ls: &line_study::LineStudy, signals: &[String]) -> Vec<Warn
         .collect();
     for w in sol0.warnings.iter().filter(|w| reported(w)) {
         // The same sentence as the design's own study says nothing new.
-        if !sol.warnings.iter().any(|x| x.to_string() == w.to_string()) {
+        let said = crate::wording::warning(w);
+        if !sol
+            .warnings
+            .iter()
+            .any(|x| crate::wording::warning(x) == said)
+        {
             warnings.push(Warning::VacuumStudy(Box::new(w.clone())));
         }
     }
@@ -267,7 +276,11 @@ pub fn line_failure(
     match e {
         LineStudyError::Study(e) => study_failure(src, e),
         LineStudyError::Signals(e) => signal_failure(&src.design, signals, &e),
-        e => Failure::input(format!("--signal {}: {e}", signals.join(","))),
+        e => Failure::input(format!(
+            "--signal {}: {}",
+            signals.join(","),
+            crate::wording::line_study(&e)
+        )),
     }
 }
 
@@ -288,7 +301,11 @@ fn signal_failure(design: &Design, signals: &[String], e: &SignalError) -> Failu
             format!("--signal {s}: the conductor is floating; a signal needs a fixed potential")
         }
         SignalError::Repeated(s) => format!("--signal {s}: named twice"),
-        other => format!("--signal {}: {other}", signals.join(",")),
+        other => format!(
+            "--signal {}: {}",
+            signals.join(","),
+            crate::wording::signal(other)
+        ),
     };
     Failure::input(message)
 }

@@ -129,7 +129,8 @@ pub fn check_memory(
     max_mib: Option<f64>,
     extra: f64,
 ) -> Result<(Plan, f64), Failure> {
-    let plan = plan.map_err(|e| Failure::from(src.error_at(Item::Grid, "cell", e.to_string())))?;
+    let plan = plan
+        .map_err(|e| Failure::from(src.error_at(Item::Grid, "cell", crate::wording::grid(&e))))?;
     let text_mib = src.text_bytes() as f64 * BYTES_PER_TEXT_BYTE / (1024.0 * 1024.0);
     let mib = plan.memory_mib_with(extra) + text_mib;
     let limit = max_mib.unwrap_or_else(default_memory_limit_mib);

@@ -108,10 +108,13 @@ pub fn run_timed_with(
         }
         match &circuit {
             // Diagnoses of the netlist's values (whole-part farads) only from converged numbers.
-            Ok(net) if sol.solve.converged => net
-                .warnings
-                .iter()
-                .for_each(|w| println!("warning [{}]: capacitance.cir: {w}", w.code())),
+            Ok(net) if sol.solve.converged => net.warnings.iter().for_each(|w| {
+                println!(
+                    "warning [{}]: capacitance.cir: {}",
+                    w.code(),
+                    crate::wording::warning(w)
+                )
+            }),
             Ok(_) => {}
             Err(why) => println!("note: {}", crate::spice::no_export(*why)),
         }
@@ -224,7 +227,7 @@ pub fn accuracy_failure(
     use fieldgrid_solver::accuracy::AccuracyError;
     match e {
         AccuracyError::Study(e) => study_failure(src, e),
-        e => Failure::input(format!("{}: {e}", src.file)),
+        e => Failure::input(format!("{}: {}", src.file, crate::wording::accuracy(&e))),
     }
 }
 
@@ -343,10 +346,10 @@ pub const MARGIN_CAUTION: &str = "caution: margins are estimates from a discreti
 pub fn study_failure(src: &crate::design_file::DesignSource, e: StudyError) -> Failure {
     use fieldgrid_solver::design::Item;
     let err = match &e {
-        StudyError::Operator(_) => src.error_at(Item::Sides, "", e.to_string()),
-        StudyError::Grid(_) => src.error_at(Item::Grid, "cell", e.to_string()),
+        StudyError::Operator(_) => src.error_at(Item::Sides, "", crate::wording::study(&e)),
+        StudyError::Grid(_) => src.error_at(Item::Grid, "cell", crate::wording::study(&e)),
         StudyError::Design(d) => src.design_error(d),
-        _ => src.error_at(Item::Top, "", e.to_string()),
+        _ => src.error_at(Item::Top, "", crate::wording::study(&e)),
     };
     Failure::from(err)
 }

@@ -350,7 +350,12 @@ fn one_target(search: &mut Search, args: &TargetArgs) -> Result<(Report, bool), 
         Ok(i) => (i, true),
         Err(root::RootError::MaxEvaluations(i)) => (i, false),
         Err(root::RootError::Evaluation(f)) => return Err(f),
-        Err(e) => return Err(Failure::input(format!("--quantity {name}: {e}"))),
+        Err(e) => {
+            return Err(Failure::input(format!(
+                "--quantity {name}: {}",
+                crate::wording::root(&e)
+            )))
+        }
     };
     let ev = &search.best.as_ref().expect("solved").1;
     let q = ev.quantity(&name)?;
@@ -445,7 +450,11 @@ fn several_targets(search: &mut Search, args: &TargetArgs) -> Result<(Report, bo
     let info =
         newton::solve(|x| search.residuals(x, &tol), &problem, &params).map_err(|e| match e {
             newton::NewtonError::Evaluation(f) => f,
-            e => Failure::input(format!("targets {}: {e}", search.quantities.join(", "))),
+            e => Failure::input(format!(
+                "targets {}: {}",
+                search.quantities.join(", "),
+                crate::wording::newton(&e)
+            )),
         })?;
     let ev = &search.best.as_ref().expect("solved").1;
     let mut targets = Vec::new();

@@ -113,16 +113,24 @@ pub enum StopReason {
     NonFinite,
 }
 
+impl StopReason {
+    /// The stable code of this reason (lower case words joined by `-`, never renamed or
+    /// reused); the command line words it for users.
+    pub fn code(&self) -> &'static str {
+        match self {
+            StopReason::Converged => "converged",
+            StopReason::ZeroRhs => "zero-rhs",
+            StopReason::MaxIterations => "max-iterations",
+            StopReason::Stagnated => "stagnated",
+            StopReason::Diverged => "diverged",
+            StopReason::NonFinite => "non-finite",
+        }
+    }
+}
+
 impl std::fmt::Display for StopReason {
     fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        f.write_str(match self {
-            StopReason::Converged => "converged",
-            StopReason::ZeroRhs => "zero right-hand side",
-            StopReason::MaxIterations => "iteration limit reached",
-            StopReason::Stagnated => "residual stagnated",
-            StopReason::Diverged => "residual diverged",
-            StopReason::NonFinite => "non-finite values appeared",
-        })
+        f.write_str(self.code())
     }
 }
 
@@ -194,12 +202,13 @@ impl Info {
     }
 }
 
-/// A solve that did not reach the tolerance. `x` holds the last iterate.
+/// A solve that did not reach the tolerance. `x` holds the last iterate. `Display` renders
+/// the method, the reason's code and the numbers, for logs.
 #[derive(Clone, Debug, PartialEq, thiserror::Error)]
 #[non_exhaustive]
 pub enum SolveError {
     /// Stopped before converging; the info says why.
-    #[error("{} did not converge: {} after {} iterations (relative residual {:.3e})",
+    #[error("not-converged: {} {} after {} iterations, relative residual {:.3e}",
         .0.method, .0.reason, .0.iterations, .0.relative_residual)]
     NotConverged(Info),
 }
