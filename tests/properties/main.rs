@@ -3,7 +3,8 @@
 //!
 //! - Capacitance does not change when the whole design (domain included) is translated, or
 //!   rotated by 90 degrees (the five-point lattice maps onto itself), on the uniform lattice
-//!   and on the graded one (whose lines move with the design).
+//!   and on the graded one (whose lines move with a translated design; a turned design is
+//!   solved on the turned lines, which its own grading does not reproduce).
 //! - The order of a polygon's vertices (direction, starting vertex) does not matter.
 //! - A design mirror-symmetric about a line gives a mirror-symmetric potential.
 //! - Results are linear in the sources: every potential and charge scaled by s scales
