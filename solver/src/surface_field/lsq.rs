@@ -6,7 +6,7 @@
 //! column, written in place, and each reflection reads the rows twice: once for the
 //! reflector's length and the projections of every column on it together, once to apply it
 //! while summing the next column's norm; the number of columns is a constant of the code
-//! there (2 to 16), so that the running sums stay in registers. Each of these sums still runs over the rows in
+//! there (2 to 18), so that the running sums stay in registers. Each of these sums still runs over the rows in
 //! order from the same start as `Iterator::sum`, so the solution is, bit for bit, that of the
 //! plain form with one pass per sum (the reference the tests compare with).
 //!
@@ -14,7 +14,8 @@
 //! or when a column's remaining norm falls to 1e-11 of the largest coefficient (rank
 //! deficient); otherwise every returned value is finite.
 
-/// Calls `$f::<N>` for the columns' count `N` from `$k` on (2 to 16: every fit's), or its
+/// Calls `$f::<N>` for the columns' count `N` from `$k` on (2 to 18: every fit's, the
+/// right-hand side included, an interface fit of degree 3 having 17 coefficients), or its
 /// slice form beyond: with `N` known the sums stay in registers.
 macro_rules! dispatch {
     ($cols:expr, $f:ident($($arg:expr),*)) => {
@@ -34,6 +35,8 @@ macro_rules! dispatch {
             14 => $f::<14>($($arg),*),
             15 => $f::<15>($($arg),*),
             16 => $f::<16>($($arg),*),
+            17 => $f::<17>($($arg),*),
+            18 => $f::<18>($($arg),*),
             _ => $f::<0>($($arg),*),
         }
     };
@@ -297,8 +300,12 @@ mod tests {
         let mut state = 12345u64;
         let mut solved = 0;
         for case in 0..400 {
-            // 3 to 11 columns (every fit's), and 17 (the slice form).
-            let n = if case % 10 == 9 { 17 } else { 3 + case % 9 };
+            // 3 to 11 columns, 17 (an interface fit's), and 19 (the slice form).
+            let n = match case % 10 {
+                8 => 17,
+                9 => 19,
+                _ => 3 + case % 9,
+            };
             let m = n + (case * 7) % 300;
             let (mut rows, mut rhs) = (Vec::new(), Vec::new());
             let mut lsq = Lsq::new(n);
