@@ -27,7 +27,10 @@
 //! nodes beyond it. Before the rounds, a design with open sides
 //! is solved once more on a box with every open side moved out by the domain's extent
 //! ([`far_field`]), at the same lines inside; twice the change bounds the truncation error,
-//! and while it is above half the target the farther box becomes the design's box.
+//! and while it is above half the target the farther box becomes the design's box. The
+//! study on the design's own box is made with the first round's settings (the error
+//! estimate on), so that where the farther box is not needed it is the first round, not
+//! solved again.
 //!
 //! Invariants: the solver tolerance is never looser than the caller's; the result returned
 //! is always the last round's, solved with the error estimate; a quantity at a singular point
@@ -411,6 +414,9 @@ fn refine<T>(
     // The far field: move open sides out until the truncation is within its share.
     let mut truncation: Option<Vec<Estimate>> = None;
     let mut far = None;
+    // The study of the design's own box and lattice, run with the first round's settings: the
+    // first round is this study when the far field needs no farther box.
+    let mut first: Option<T> = None;
     if far_field::has_open_side(&design) {
         let quick = sp.cold().with_error_estimate(false);
         let k = BISECTIONS;
@@ -429,8 +435,11 @@ fn refine<T>(
             let mut near_est = match near.take() {
                 Some(e) => e,
                 None => {
-                    let p = (kind.plan)(near_grid, &quick);
-                    (kind.estimates)(&(kind.run)(&near_design, &p, &quick)?)
+                    let p = (kind.plan)(near_grid, &sp);
+                    let out = (kind.run)(&near_design, &p, &sp)?;
+                    let e = (kind.estimates)(&out);
+                    first = Some(out);
+                    e
                 }
             };
             let p = (kind.plan)(big_grid, &quick);
@@ -486,7 +495,11 @@ fn refine<T>(
         };
         let plan = (kind.plan)(grid, &sp);
         round.memory_mib = plan.memory_mib();
-        let out = (kind.run)(&member_design, &plan, &sp)?;
+        // The first round on the design's own box is the study the far field began with.
+        let out = match first.take() {
+            Some(out) if family.enlargements == 0 && refinement == 1.0 => out,
+            _ => (kind.run)(&member_design, &plan, &sp)?,
+        };
         let mut estimates = (kind.estimates)(&out);
         if let Some(t) = &truncation {
             quantities::carry_truncation(&mut estimates, t, within);
