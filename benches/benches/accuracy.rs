@@ -10,11 +10,12 @@
 //! capacitance entry; Z0 and eps_eff), each quantity's estimate / true error, and the median
 //! wall time and CPU seconds (user + system of the child process) over the repeats. When
 //! Python can import ngsolve (or `--python PATH` names an interpreter that can),
-//! `tests/reference/fem_reference.py --quick` (both designs, ~5e-5) is timed the same way;
-//! the repeats interleave every fieldgrid case with a run of the script, so that both see the
-//! same load, and the ratios of the medians are printed for every case under the target (the
-//! script computes both designs in one process: a demo's ratio is against the whole script).
-//! The load average is printed before and after.
+//! `tests/reference/fem_reference.py --quick` (both designs, ~5e-5) is timed the same way,
+//! on one thread too (NGSolve's own count set by the script, BLAS and OpenMP pools by
+//! environment variables); the repeats interleave every fieldgrid case with a run of the
+//! script, so that both see the same load, and the ratios of the medians are printed for
+//! every case under the target (the script computes both designs in one process: a demo's
+//! ratio is against the whole script). The load average is printed before and after.
 //!
 //! `cargo bench -p fieldgrid-benches --bench accuracy -- [--cells 0.4,0.2] [--repeats 3]
 //!  [--target 1e-3] [--binary PATH] [--python PATH]`
@@ -171,6 +172,9 @@ fn load() -> String {
         .unwrap_or_else(|_| "unknown".into())
 }
 
+/// The variables that hold the numerical libraries a Python process loads to one thread.
+const ONE_THREAD: [&str; 3] = ["OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS"];
+
 /// One fieldgrid case: what it runs and its timings.
 struct Case {
     demo: &'static str,
@@ -238,7 +242,11 @@ fn main() {
             case.wall.push(w);
             case.cpu.push(c);
             if has_fem {
+                // One thread, as fieldgrid: the script sets NGSolve's own count, and these
+                // keep the BLAS and OpenMP libraries it loads from starting pools of their own
+                // (OpenBLAS alone adds a thread per core at import).
                 let mut cmd = Command::new(&args.python);
+                cmd.envs(ONE_THREAD.map(|v| (v, "1")));
                 if let Some((w, c)) = timed(cmd.arg(&fem).arg("--quick")) {
                     fem_wall.push(w);
                     fem_cpu.push(c);
