@@ -20,13 +20,22 @@
 //! Invariants: a force is given only when every node within `outer` of the box, outside the
 //! conductor, is a free node of the conductor's material with no free charge, not on a side
 //! (the axis of an axisymmetric design excepted), and every node of the band has no cut link;
-//! else the reason ([`NoBand`]) and the caller integrates over a path at the surface. Planar: N/m; axisymmetric:
-//! N along the axis only.
+//! else the reason ([`NoBand`]) and the caller integrates over a path at the surface. Planar:
+//! N/m; axisymmetric: N along the axis only. The searches visit only the nodes within reach
+//! of the conductor's box (the gap search grows outward from it), and the band's terms are
+//! added in node order: the results are those of a loop over every node, bit for bit, for
+//! any thread count.
 
-use crate::design::{Design, Mode, Shape, Side};
+mod distance;
+#[cfg(test)]
+mod tests;
+
+use crate::design::{Design, Mode, Side};
+use crate::parallel;
 use crate::post::FieldEval;
 use crate::raster::NO_CONDUCTOR;
 use crate::EPS0;
+use distance::Shapes;
 
 /// How a conductor's force was integrated.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -59,7 +68,7 @@ pub enum NoBand {
 /// The weight of a conductor's volume force.
 #[derive(Clone, Debug, PartialEq)]
 pub struct Weight {
-    shapes: Vec<Shape>,
+    shapes: Shapes,
     inner: f64,
     outer: f64,
     material: u16,
@@ -71,106 +80,13 @@ const INNER: f64 = 0.2;
 const OUTER: f64 = 0.8;
 /// Fewest cells across the band.
 pub const BAND_CELLS: f64 = 4.0;
-
-/// Distance from q to the segment a-b, with the unit vector from the segment to q.
-fn to_segment(q: [f64; 2], a: [f64; 2], b: [f64; 2]) -> (f64, [f64; 2]) {
-    let (ux, uy) = (b[0] - a[0], b[1] - a[1]);
-    let l2 = ux * ux + uy * uy;
-    let t = if l2 > 0.0 {
-        (((q[0] - a[0]) * ux + (q[1] - a[1]) * uy) / l2).clamp(0.0, 1.0)
-    } else {
-        0.0
-    };
-    let (dx, dy) = (q[0] - a[0] - t * ux, q[1] - a[1] - t * uy);
-    let d = dx.hypot(dy);
-    (
-        d,
-        if d > 0.0 {
-            [dx / d, dy / d]
-        } else {
-            [0.0, 0.0]
-        },
-    )
-}
-
-/// Distance from q to a closed outline (0 inside), with its gradient.
-fn to_outline(q: [f64; 2], pts: &[[f64; 2]]) -> (f64, [f64; 2]) {
-    let mut best = (f64::INFINITY, [0.0, 0.0]);
-    let mut inside = false;
-    for (i, &a) in pts.iter().enumerate() {
-        let b = pts[(i + 1) % pts.len()];
-        let s = to_segment(q, a, b);
-        if s.0 < best.0 {
-            best = s;
-        }
-        if (a[1] > q[1]) != (b[1] > q[1])
-            && q[0] < a[0] + (q[1] - a[1]) / (b[1] - a[1]) * (b[0] - a[0])
-        {
-            inside = !inside;
-        }
-    }
-    if inside {
-        (0.0, [0.0, 0.0])
-    } else {
-        best
-    }
-}
-
-/// Distance from q to a shape as drawn (rounding ignored: it only takes metal away), 0 on
-/// and inside it, with its gradient.
-fn to_shape(q: [f64; 2], s: &Shape) -> (f64, [f64; 2]) {
-    let radial = |c: [f64; 2], d: f64, sign: f64| {
-        let (x, y) = (q[0] - c[0], q[1] - c[1]);
-        let r = x.hypot(y);
-        if d > 0.0 && r > 0.0 {
-            (d, [sign * x / r, sign * y / r])
-        } else {
-            (0.0, [0.0, 0.0])
-        }
-    };
-    match s {
-        Shape::Rect { x, y, .. } => {
-            to_outline(q, &[[x[0], y[0]], [x[1], y[0]], [x[1], y[1]], [x[0], y[1]]])
-        }
-        Shape::Circle { center: c, radius } => {
-            let r = (q[0] - c[0]).hypot(q[1] - c[1]);
-            radial(*c, r - radius, 1.0)
-        }
-        Shape::Ring {
-            center: c,
-            inner,
-            outer,
-        } => {
-            let r = (q[0] - c[0]).hypot(q[1] - c[1]);
-            if r < *inner {
-                radial(*c, inner - r, -1.0)
-            } else {
-                radial(*c, r - outer, 1.0)
-            }
-        }
-        Shape::Polygon { outer, .. } => to_outline(q, outer),
-        Shape::Polyline(p) => p.windows(2).map(|w| to_segment(q, w[0], w[1])).fold(
-            (f64::INFINITY, [0.0, 0.0]),
-            |a, b| if b.0 < a.0 { b } else { a },
-        ),
-    }
-}
+/// Lattice rows whose stress terms are gathered at a time (in parallel) before they are
+/// added in node order.
+const ROWS_AT_ONCE: usize = 64;
 
 impl Weight {
-    /// Distance from (x, y) to the conductor, m, with its gradient.
-    fn distance(&self, x: f64, y: f64) -> (f64, [f64; 2]) {
-        self.shapes
-            .iter()
-            .map(|s| to_shape([x, y], s))
-            .fold(
-                (f64::INFINITY, [0.0, 0.0]),
-                |a, b| if b.0 < a.0 { b } else { a },
-            )
-    }
-
-    /// The weight's gradient at (x, y), 1/m.
-    fn gradient(&self, x: f64, y: f64) -> [f64; 2] {
-        let (d, g) = self.distance(x, y);
+    /// The weight's gradient at distance `d` from the conductor, whose gradient is `g`, 1/m.
+    fn gradient(&self, d: f64, g: [f64; 2]) -> [f64; 2] {
         let w = self.outer - self.inner;
         let t = (d - self.inner) / w;
         if !(t > 0.0 && t < 1.0) {
@@ -185,10 +101,12 @@ impl Weight {
 /// another material, free charge, or a node on a side (the axis excepted).
 struct Obstacles<'a> {
     field: &'a FieldEval<'a>,
-    design: &'a Design,
     k: usize,
     material: u16,
-    charged: Vec<bool>,
+    /// The left side is the axis, which the stress may touch.
+    axis: bool,
+    /// Nodes holding free charge, ascending.
+    charged: Vec<u32>,
 }
 
 impl Obstacles<'_> {
@@ -201,34 +119,35 @@ impl Obstacles<'_> {
         if own {
             return false;
         }
-        let axis = self.design.mode == Mode::Axisymmetric && self.design.sides.left == Side::Axis;
         !op.stencil.unknown[p]
             || r.material[p] != self.material
-            || self.charged[p]
-            || (i == 0 && !axis)
+            || (i == 0 && !self.axis)
             || i + 1 == g.nx
             || j == 0
             || j + 1 == g.ny
+            || self.charged.binary_search(&(p as u32)).is_ok()
     }
 }
 
 fn obstacles<'a>(
     field: &'a FieldEval<'a>,
-    design: &'a Design,
+    design: &Design,
     k: usize,
     material: u16,
 ) -> Obstacles<'a> {
-    let mut charged = vec![false; field.op.grid.len()];
-    for &(p, s) in &field.op.source {
-        if s != 0.0 {
-            charged[p as usize] = true;
-        }
-    }
+    let mut charged: Vec<u32> = field
+        .op
+        .source
+        .iter()
+        .filter(|&&(_, s)| s != 0.0)
+        .map(|&(p, _)| p)
+        .collect();
+    charged.sort_unstable();
     Obstacles {
         field,
-        design,
         k,
         material,
+        axis: design.mode == Mode::Axisymmetric && design.sides.left == Side::Axis,
         charged,
     }
 }
@@ -247,20 +166,15 @@ pub fn weight(field: &FieldEval, design: &Design, k: usize) -> Result<Weight, No
         }
     }
     let material = material.ok_or(NoBand::NoGap)?;
+    let g = &op.grid;
     let mut w = Weight {
-        shapes: c.shapes().cloned().collect(),
+        shapes: Shapes::new(c.shapes(), g),
         inner: 0.0,
         outer: 0.0,
         material,
     };
     let obs = obstacles(field, design, k, material);
-    let g = &op.grid;
-    let mut gap = f64::INFINITY;
-    for p in 0..g.len() {
-        if obs.at(p) {
-            gap = gap.min(w.distance(g.x(p % g.nx), g.y(p / g.nx)).0);
-        }
-    }
+    let gap = w.shapes.nearest(g, |p| obs.at(p));
     if !gap.is_finite() || gap <= 0.0 {
         return Err(NoBand::NoGap);
     }
@@ -269,16 +183,36 @@ pub fn weight(field: &FieldEval, design: &Design, k: usize) -> Result<Weight, No
     // Enough cells across the band (the largest cell up to the obstacle counts), and nothing
     // but regular nodes in it.
     let band = w.outer - w.inner;
-    for p in 0..g.len() {
-        let (i, j) = (p % g.nx, p / g.nx);
-        let d = w.distance(g.x(i), g.y(j)).0;
-        if d <= gap {
-            let h = g.dual_x(i).1 - g.dual_x(i).0;
-            if h.max(g.dual_len_y(j)) * BAND_CELLS > band {
-                return Err(NoBand::Narrow);
-            }
+    let (rows, cols) = w.shapes.window(g, gap);
+    let wide_cols: Vec<usize> = cols
+        .clone()
+        .filter(|&i| (g.dual_x(i).1 - g.dual_x(i).0) * BAND_CELLS > band)
+        .collect();
+    let all_cols: Vec<usize> = cols.collect();
+    for j in rows {
+        let row = if g.dual_len_y(j) * BAND_CELLS > band {
+            &all_cols
+        } else {
+            &wide_cols
+        };
+        if row
+            .iter()
+            .any(|&i| w.shapes.distance(g.x(i), g.y(j)).0 <= gap)
+        {
+            return Err(NoBand::Narrow);
         }
-        if d > w.inner && d < w.outer && !op.links_of(p).is_empty() {
+    }
+    let mut linked = op.links.iter().map(|l| l.node as usize).peekable();
+    while let Some(p) = linked.next() {
+        while linked.peek() == Some(&p) {
+            linked.next();
+        }
+        let (x, y) = (g.x(p % g.nx), g.y(p / g.nx));
+        if w.shapes.beyond(x, y, w.outer) {
+            continue;
+        }
+        let d = w.shapes.distance(x, y).0;
+        if d > w.inner && d < w.outer {
             return Err(NoBand::Narrow);
         }
     }
@@ -287,6 +221,8 @@ pub fn weight(field: &FieldEval, design: &Design, k: usize) -> Result<Weight, No
 
 /// The force on conductor k from the stress weighted by `w` over this lattice's nodes, or
 /// `None` when an obstacle or a cut link lies within the weight's reach on this lattice.
+/// Only the nodes within `outer` of the conductor's box are visited; their terms are added
+/// in node order, so the sum does not depend on the thread count.
 pub fn weighted_force(
     field: &FieldEval,
     design: &Design,
@@ -298,38 +234,66 @@ pub fn weighted_force(
     let obs = obstacles(field, design, k, w.material);
     let eps = EPS0 * crate::material::of(design, w.material).permittivity;
     let axi = design.mode == Mode::Axisymmetric;
+    // The stress term of every node of row j with a weight gradient, in node order.
+    let (rows, cols) = w.shapes.window(g, w.outer);
+    let terms = |j: &usize| -> Option<Vec<[f64; 2]>> {
+        let j = *j;
+        let y = g.y(j);
+        let mut out = Vec::new();
+        // This row's links, walked along with the nodes.
+        let first = j * g.nx;
+        let links = &op.links[op.links.partition_point(|l| (l.node as usize) < first)..];
+        let mut link = links.iter().map(|l| l.node as usize).peekable();
+        for i in cols.clone() {
+            let p = i + first;
+            let x = g.x(i);
+            if w.shapes.beyond(x, y, w.outer) {
+                continue;
+            }
+            let (d, dg) = w.shapes.distance(x, y);
+            if d > w.outer {
+                continue;
+            }
+            if obs.at(p) {
+                return None;
+            }
+            let gt = w.gradient(d, dg);
+            if gt == [0.0, 0.0] {
+                continue;
+            }
+            while link.next_if(|&q| q < p).is_some() {}
+            if link.peek() == Some(&p) {
+                return None;
+            }
+            // As `field.at(p)`: a node with no link.
+            let e = if op.stencil.unknown[p] {
+                field.at_with(p, &[])
+            } else {
+                [f64::NAN; 2]
+            };
+            let e2 = e[0] * e[0] + e[1] * e[1];
+            let t = [
+                [eps * (e[0] * e[0] - 0.5 * e2), eps * e[0] * e[1]],
+                [eps * e[0] * e[1], eps * (e[1] * e[1] - 0.5 * e2)],
+            ];
+            let (a, b) = g.dual_x(i);
+            let vol = if axi {
+                std::f64::consts::PI * (b * b - a * a) * g.dual_len_y(j)
+            } else {
+                (b - a) * g.dual_len_y(j)
+            };
+            out.push(t.map(|ti| (ti[0] * gt[0] + ti[1] * gt[1]) * vol));
+        }
+        Some(out)
+    };
+    let rows: Vec<usize> = rows.collect();
     let mut f = [0.0f64; 2];
-    for p in 0..g.len() {
-        let (i, j) = (p % g.nx, p / g.nx);
-        let (x, y) = (g.x(i), g.y(j));
-        let d = w.distance(x, y).0;
-        if d > w.outer {
-            continue;
-        }
-        if obs.at(p) {
-            return None;
-        }
-        let gt = w.gradient(x, y);
-        if gt == [0.0, 0.0] {
-            continue;
-        }
-        if !op.links_of(p).is_empty() {
-            return None;
-        }
-        let e = field.at(p);
-        let e2 = e[0] * e[0] + e[1] * e[1];
-        let t = [
-            [eps * (e[0] * e[0] - 0.5 * e2), eps * e[0] * e[1]],
-            [eps * e[0] * e[1], eps * (e[1] * e[1] - 0.5 * e2)],
-        ];
-        let (a, b) = g.dual_x(i);
-        let vol = if axi {
-            std::f64::consts::PI * (b * b - a * a) * g.dual_len_y(j)
-        } else {
-            (b - a) * g.dual_len_y(j)
-        };
-        for (fi, ti) in f.iter_mut().zip(t) {
-            *fi -= (ti[0] * gt[0] + ti[1] * gt[1]) * vol;
+    for batch in rows.chunks(ROWS_AT_ONCE) {
+        for row in parallel::map(batch, terms) {
+            for term in row? {
+                f[0] -= term[0];
+                f[1] -= term[1];
+            }
         }
     }
     if axi {

@@ -160,7 +160,7 @@ impl<'a> FieldEval<'a> {
     }
 
     /// [`FieldEval::at`] at an unknown node p whose links are `links`.
-    fn at_with(&self, p: usize, links: &[crate::operator::Link]) -> [f64; 2] {
+    pub(crate) fn at_with(&self, p: usize, links: &[crate::operator::Link]) -> [f64; 2] {
         let g = &self.op.grid;
         let (i, j) = (p % g.nx, p / g.nx);
         let find = |d: Dir| links.iter().find(|l| l.dir == d);
