@@ -7,7 +7,8 @@
 //! setup and three solves, [`fieldgrid_benches::benchmark_problem`]), and, when a `fieldgrid` binary is
 //! given or found beside this one, the whole process from start to exit. It prints per stage
 //! the median wall and CPU seconds, and the ratios of the totals to setup + three solves and
-//! to the three solves alone.
+//! to the three solves alone. The process keeps freed memory for reuse as the command does
+//! ([`fieldgrid_cli::keep_freed_memory`]).
 //!
 //! `cargo bench -p fieldgrid-benches --bench pipeline -- [--sizes 1024,2048] [--repeats 3]
 //!  [--threads 2] [--binary PATH] [--error-estimate]`
@@ -141,6 +142,8 @@ fn multigrid(n: usize, threads: usize) -> (f64, f64) {
 }
 
 fn main() {
+    // As the command does, before any thread starts.
+    fieldgrid_cli::keep_freed_memory();
     let args = parse();
     let problem = Path::new(env!("CARGO_MANIFEST_DIR")).join("problem.toml");
     let scratch = std::env::temp_dir().join(format!("fieldgrid-pipeline-{}", std::process::id()));
