@@ -17,8 +17,9 @@ with the same relative paths, and run:
 
 Then every file either build wrote is compared: JSON files (summary.json, check.json, ...)
 must be equal after dropping timing keys (`seconds`) and the keys that only the newer build
-writes; every other file (CSV, PNG, .cir, .vti, ...) must be byte-identical; every exit code
-must be the same. A file only the newer build writes is listed as new. The table goes to
+writes; every PNG must hold the same pixels (decoded; its bytes may differ when the encoder's
+settings change, and the table gives both sizes); every other file (CSV, .cir, .vti, ...)
+must be byte-identical; every exit code must be the same. A file only the newer build writes is listed as new. The table goes to
 standard output; the exit code is 0 when nothing differs, 1 on a difference, 2 when a build
 or the set-up fails. This is how a refactor shows that the demos' results did not move.
 """
@@ -27,9 +28,11 @@ import argparse
 import json
 import os
 import shutil
+import struct
 import subprocess
 import sys
 import tempfile
+import zlib
 from pathlib import Path
 
 REPO = Path(__file__).resolve().parent.parent
@@ -172,6 +175,59 @@ def first_difference(a, b, path="$"):
     return None if a == b and type(a) is type(b) else f"{path}: {a!r} -> {b!r}"
 
 
+def png_pixels(path):
+    """(width, height, colour type, bit depth, rows of unfiltered bytes) of a PNG that is
+    not interlaced, decoded with zlib alone (PIL, when installed, gives the same rows
+    faster)."""
+    data = path.read_bytes()
+    if data[:8] != b"\x89PNG\r\n\x1a\n":
+        raise ValueError("not a PNG")
+    pos, idat, head = 8, [], None
+    while pos < len(data):
+        (n,), kind = struct.unpack(">I", data[pos:pos + 4]), data[pos + 4:pos + 8]
+        body = data[pos + 8:pos + 8 + n]
+        pos += 12 + n
+        if kind == b"IHDR":
+            head = struct.unpack(">IIBBBBB", body)
+        elif kind == b"IDAT":
+            idat.append(body)
+    w, h, depth, colour, _, _, interlace = head
+    if interlace:
+        raise ValueError("interlaced")
+    try:
+        from PIL import Image
+        with Image.open(path) as im:
+            raw = im.tobytes()
+        stride = len(raw) // h
+        return w, h, colour, depth, [raw[k * stride:(k + 1) * stride] for k in range(h)]
+    except ImportError:
+        pass
+    channels = {0: 1, 2: 3, 3: 1, 4: 2, 6: 4}[colour]
+    bpp = max(1, channels * depth // 8)
+    stride = (w * channels * depth + 7) // 8
+    raw = zlib.decompress(b"".join(idat))
+    rows, prev = [], bytearray(stride)
+    for k in range(h):
+        f, line = raw[k * (stride + 1)], bytearray(raw[k * (stride + 1) + 1:(k + 1) * (stride + 1)])
+        for i in range(stride):
+            a = line[i - bpp] if i >= bpp else 0
+            b, c = prev[i], prev[i - bpp] if i >= bpp else 0
+            if f == 1:
+                line[i] = (line[i] + a) & 255
+            elif f == 2:
+                line[i] = (line[i] + b) & 255
+            elif f == 3:
+                line[i] = (line[i] + (a + b) // 2) & 255
+            elif f == 4:
+                p = a + b - c
+                pa, pb, pc = abs(p - a), abs(p - b), abs(p - c)
+                pred = a if pa <= pb and pa <= pc else (b if pb <= pc else c)
+                line[i] = (line[i] + pred) & 255
+        rows.append(bytes(line))
+        prev = line
+    return w, h, colour, depth, rows
+
+
 def compare_file(old, new):
     """(equal, note) for one file both builds wrote."""
     if old.suffix == ".json":
@@ -183,8 +239,19 @@ def compare_file(old, new):
         d = first_difference(a, b)
         return d is None, d or "equal (JSON)"
     same = old.read_bytes() == new.read_bytes()
-    return same, "identical" if same else f"bytes differ ({old.stat().st_size} -> " \
-        f"{new.stat().st_size} B)"
+    sizes = f"{old.stat().st_size} -> {new.stat().st_size} B"
+    if not same and old.suffix == ".png":
+        try:
+            a, b = png_pixels(old), png_pixels(new)
+        except (ValueError, KeyError, TypeError, zlib.error, struct.error) as e:
+            return False, f"bytes differ ({sizes}), not decoded: {e}"
+        if a[:4] != b[:4]:
+            return False, f"picture {a[:4]} -> {b[:4]}"
+        for k, (x, y) in enumerate(zip(a[4], b[4])):
+            if x != y:
+                return False, f"pixels differ from row {k} ({sizes})"
+        return True, f"same pixels ({sizes})"
+    return same, "identical" if same else f"bytes differ ({sizes})"
 
 
 def files(root):
@@ -234,7 +301,10 @@ def main():
         for r in rows:
             print("  ".join(c.ljust(w) for c, w in zip(r, widths)) + "  " + r[3])
         compared = sum(1 for r in rows if r[1] != "exit code")
-        print(f"\n{len(old_codes)} runs, {compared} files: "
+        pngs = [rel for rel in of & nf if rel.suffix == ".png"]
+        size = lambda root: sum((root / rel).stat().st_size for rel in pngs)
+        print(f"\n{len(pngs)} pictures: {size(old_out)} B, now {size(new_out)} B")
+        print(f"{len(old_codes)} runs, {compared} files: "
               f"{'no difference' if bad == 0 else f'{bad} DIFFERENCES'}")
         return 1 if bad else 0
     finally:
