@@ -333,6 +333,19 @@ fn dielectric_cylinder_in_a_uniform_field_peak_outside_and_hot_spots_never_low_b
                 h.material,
                 h.magnitude
             );
+            // Within 3x of the error. Measured, estimate over error at 10 / 20 / 40 cells:
+            // outside (the poles) 1.68 / 1.23 / 1.12, inside 4.2 / 1.9 / 1.5. The inside's
+            // hot spot is the largest reading of a uniform field, so its error is the surface
+            // fit's (third order, `INTERFACE_FIT_BIAS`), and at 10 cells its two-grid
+            // difference compares with a lattice of five cells across the radius, where the
+            // inside reads 8 % high: that one estimate stays above 3x, on the safe side.
+            let ratio = est / (h.magnitude - want).abs();
+            let exempt = n == 10.0 && h.material == "rod";
+            assert!(
+                exempt || ratio <= 3.0,
+                "{} at {n} cells: estimate {est:e} over error {ratio:.2}",
+                h.material
+            );
         }
         assert!(seen > 0, "no hot spot on the surface: {:?}", s.hotspots);
         // Both sides all round within 0.5 % at 20 cells (of the inside field inside, of the
@@ -341,7 +354,7 @@ fn dielectric_cylinder_in_a_uniform_field_peak_outside_and_hot_spots_never_low_b
         // (`operator/interface.rs`): inside 0.67 / 0.11 / 0.041 % at 10 / 20 / 40 cells
         // across a (order 2.0), outside 0.18 / 0.067 / 0.047 % (order 0.9: the worst outside
         // sample moves round the surface between the grids), outside peak 0.19 / 0.058 /
-        // 0.016 % (order 1.8), its estimate 3 times its error. With the five-point operator's
+        // 0.016 % (order 1.8). With the five-point operator's
         // edge permittivities alone, where the field runs along the surface (theta near 90
         // degrees) both sides read 5.6 / 5.1 / 4.3 % high and samples inside up to 0.5 / 2.1 /
         // 3.2 % low, not converging: the node potentials beside an oblique interface were
@@ -364,53 +377,59 @@ fn dielectric_cylinder_in_a_uniform_field_peak_outside_and_hot_spots_never_low_b
     );
 }
 
-#[test]
-fn dielectric_cylinder_interface_fit_of_the_exact_potential_is_third_order() {
-    // The surface evaluation alone: the lattice of the dielectric cylinder above carrying the
-    // exact potential at every free node (Jackson 1999, sec. 4.4 with sec. 2.11, as above:
-    // inside E (1 - K) y, outside E y (1 - K a^2 / r^2), y from the centre along the field,
-    // K = (eps - 1) / (eps + 1), in the local field E of the plates and their images). The
-    // fit on each side of the interface then gives the field of the closed form on both
-    // sides, all round: what the solved potentials must approach for the interface field to
-    // converge.
-    let eps = 4.0;
+/// The surface evaluation alone: the lattice of the dielectric cylinder (permittivity `eps`,
+/// `n` cells across its radius) carrying the exact potential at every free node (Jackson
+/// 1999, sec. 4.4 with sec. 2.11, as below: inside E (1 - K) y, outside E y (1 - K a^2 / r^2),
+/// y from the centre along the field, K = (eps - 1) / (eps + 1), in the local field E of the
+/// plates and their images), read by the fit on each side of the interface. Returns the
+/// worst error inside and outside, relative to the inside field.
+fn exact_interface_fit_errors(n: f64, eps: f64) -> [f64; 2] {
     let k = (eps - 1.0) / (eps + 1.0);
     let e = planar_local_field(k);
     let inside = 2.0 * e / (eps + 1.0);
     let (a, c) = (A * 1e-3, [CENTRE[0] * 1e-3, CENTRE[1] * 1e-3]);
+    let d = design(&dielectric_cylinder(n, eps));
+    let s = solve(&d);
+    let g = &s.grid;
+    let mut exact = s.potential.clone();
+    for j in 1..g.ny - 1 {
+        for i in 0..g.nx {
+            let (x, y) = (g.x(i) - c[0], g.y(j) - c[1]);
+            let r2 = x * x + y * y;
+            exact[g.idx(i, j)] = if r2 <= a * a {
+                e * (1.0 - k) * y
+            } else {
+                e * y * (1.0 - k * a * a / r2)
+            };
+        }
+    }
+    let field = fieldgrid_solver::post::FieldEval::new(&s.operator, &s.raster, &exact, &[]);
+    let samples = fieldgrid_solver::surface::sample(&field, &d, &Default::default());
+    let mut worst = [0.0f64; 2];
+    for p in samples.iter().filter(|p| p.kind == SurfaceKind::Interface) {
+        let (x, y) = (p.x - c[0], p.y - c[1]);
+        let r = x.hypot(y);
+        // Tangential E continuous (inside's sin), normal D continuous.
+        let (st, ct) = (x / r, y / r);
+        let want = if p.material == 1 {
+            inside
+        } else {
+            inside * (st * st + eps * eps * ct * ct).sqrt()
+        };
+        let side = usize::from(p.material != 1);
+        worst[side] = worst[side].max((p.magnitude() - want).abs() / inside);
+    }
+    worst
+}
+
+#[test]
+fn dielectric_cylinder_interface_fit_of_the_exact_potential_is_third_order() {
+    // The fit on each side of the interface gives the field of the closed form on both sides,
+    // all round: what the solved potentials must approach for the interface field to
+    // converge.
     let mut errs = Vec::new();
     for n in [10.0, 20.0, 40.0] {
-        let d = design(&dielectric_cylinder(n, eps));
-        let s = solve(&d);
-        let g = &s.grid;
-        let mut exact = s.potential.clone();
-        for j in 1..g.ny - 1 {
-            for i in 0..g.nx {
-                let (x, y) = (g.x(i) - c[0], g.y(j) - c[1]);
-                let r2 = x * x + y * y;
-                exact[g.idx(i, j)] = if r2 <= a * a {
-                    e * (1.0 - k) * y
-                } else {
-                    e * y * (1.0 - k * a * a / r2)
-                };
-            }
-        }
-        let field = fieldgrid_solver::post::FieldEval::new(&s.operator, &s.raster, &exact, &[]);
-        let samples = fieldgrid_solver::surface::sample(&field, &d, &Default::default());
-        let mut worst = [0.0f64; 2];
-        for p in samples.iter().filter(|p| p.kind == SurfaceKind::Interface) {
-            let (x, y) = (p.x - c[0], p.y - c[1]);
-            let r = x.hypot(y);
-            // Tangential E continuous (inside's sin), normal D continuous.
-            let (st, ct) = (x / r, y / r);
-            let want = if p.material == 1 {
-                inside
-            } else {
-                inside * (st * st + eps * eps * ct * ct).sqrt()
-            };
-            let side = usize::from(p.material != 1);
-            worst[side] = worst[side].max((p.magnitude() - want).abs() / inside);
-        }
+        let worst = exact_interface_fit_errors(n, 4.0);
         eprintln!(
             "dielectric cylinder, exact potential, {n} cells across a: worst inside {:.3e}, \
              outside {:.3e} of the inside field",
@@ -425,6 +444,34 @@ fn dielectric_cylinder_interface_fit_of_the_exact_potential_is_third_order() {
     // on each side: 3.3 / 0.97 / 0.27 %, order 1.8, over the bound at 20 cells).
     let order = observed(&errs);
     assert!(order >= 2.5, "order {order:.2} from {errs:?}");
+}
+
+#[test]
+fn interface_fit_error_is_within_the_interface_fit_bias() {
+    // The bias the hot spots' estimates add for the interface fit,
+    // `INTERFACE_FIT_BIAS c (h kappa)^3` of the value (c the permittivity ratio), bounds the
+    // fit's error on the exact potential (Jackson 1999, as above) relative to the interface's
+    // peak field (eps times the inside field, outside at the poles), for ratios 2, 4 and 10
+    // from 10 cells across the radius. Measured: the worst error is 0.35-0.62, 1.1-1.4 and
+    // 2.3-2.6 (h kappa)^3 of the peak for c = 2, 4 and 10, against the bound's 1, 2 and 5;
+    // at 7 cells, 2.5 for c = 4 (not yet in the fit's asymptotic range).
+    use fieldgrid_solver::surface_results::INTERFACE_FIT_BIAS;
+    for eps in [2.0, 4.0, 10.0] {
+        for n in [10.0, 20.0, 40.0] {
+            let worst = exact_interface_fit_errors(n, eps);
+            let of_peak = worst[0].max(worst[1]) / eps;
+            let bound = INTERFACE_FIT_BIAS * eps / (n * n * n);
+            eprintln!(
+                "eps {eps}, {n} cells: worst {:.2} (h kappa)^3 of the peak, bound {:.2}",
+                of_peak * n * n * n,
+                bound * n * n * n
+            );
+            assert!(
+                of_peak <= bound,
+                "eps {eps}, {n} cells: {of_peak:e} > {bound:e}"
+            );
+        }
+    }
 }
 
 #[test]
