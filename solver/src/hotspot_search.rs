@@ -26,11 +26,17 @@ fn found(c: Reading) -> Found {
 }
 
 /// What the hot-spot search reads: |E| at the nodes (not finite or not positive where the
-/// lattice has no reading), their materials, the surface's readings, and each material's
-/// breakdown strength (index as in [`crate::raster::Raster::material`]).
+/// lattice has no reading), the landscape the lattice maxima and their persistence are read
+/// on, their materials, the surface's readings, and each material's breakdown strength
+/// (index as in [`crate::raster::Raster::material`]).
 pub(crate) struct Readings<'a> {
     pub grid: &'a Grid,
     pub magnitude: &'a [f64],
+    /// |E| as the maxima's persistence reads it: `magnitude` wherever that is a reading; at
+    /// nodes without one it may carry a value from elsewhere (the surface a node faces), so
+    /// that a node beside them is no maximum against it. Never below `magnitude` where both
+    /// are readings.
+    pub landscape: &'a [f64],
     pub material: &'a [u16],
     pub surface: &'a [Reading],
     pub strength: &'a [Option<f64>],
@@ -170,7 +176,7 @@ pub(crate) fn search_exhaustive(
 ) -> (Option<Found>, Vec<Found>) {
     let g = r.grid;
     let mut persistence = vec![0.0; g.len()];
-    for pk in crate::peaks::peaks(r.magnitude, g.nx, g.ny) {
+    for pk in crate::peaks::peaks(r.landscape, g.nx, g.ny) {
         persistence[pk.node] = pk.persistence;
     }
     let (mut cand, mut seqs) = (Vec::new(), Vec::new());
@@ -199,8 +205,9 @@ pub(crate) fn search_exhaustive(
 }
 
 /// The peak reading and the chosen hot spots, as [`search_exhaustive`] gives them, ranking
-/// only as many lattice maxima as they need: the persistent lattice maxima come highest first
-/// ([`crate::peaks::persistent`]), in batches; after each the readings so far are ranked and
+/// only as many lattice maxima as they need: the persistent maxima of the landscape come
+/// highest first ([`crate::peaks::persistent`]), in batches (those without a reading of their
+/// own give no hot spot); after each the readings so far are ranked and
 /// chosen, and the search ends when the last hot spot chosen ranks strictly before anything
 /// a lower maximum could give (by field: its value; by margin: the lowest strength over its
 /// value), since no later reading can then change the choice.
@@ -232,7 +239,7 @@ pub(crate) fn search(r: &Readings, params: &HotspotParams) -> (Option<Found>, Ve
         .flatten()
         .copied()
         .fold(f64::INFINITY, f64::min);
-    let mut maxima = crate::peaks::persistent(r.magnitude, g.nx, g.ny, min);
+    let mut maxima = crate::peaks::persistent(r.landscape, g.nx, g.ny, min);
     let (mut batch, mut lowest, mut done) = (4 * params.count.max(1), f64::INFINITY, false);
     loop {
         for _ in 0..batch {
@@ -240,7 +247,7 @@ pub(crate) fn search(r: &Readings, params: &HotspotParams) -> (Option<Found>, Ve
                 done = true;
                 break;
             };
-            lowest = r.magnitude[p];
+            lowest = r.landscape[p];
             if Some(p) != first_seq {
                 if let Some(c) = r.node(p, min) {
                     pool.push((p, c));

@@ -19,30 +19,10 @@ fn with_estimate(text: &str) -> Solution {
     s
 }
 
-/// An eccentric coaxial line: inner rod radius 1 mm at 100 V, shifted by `E` mm along x from
-/// the axis of a grounded tube of inner radius 2.5 mm; `n` cells across the rod's radius.
-const E: f64 = 0.5;
+/// The eccentric line of [`designs::eccentric_rod`], `n` cells across the rod's radius.
+const E: f64 = designs::ECCENTRIC_SHIFT;
 fn eccentric(n: f64) -> String {
-    format!(
-        r#"
-unit = "mm"
-[grid]
-x = [-2.8, 2.8]
-y = [-2.8, 2.8]
-cell = {}
-lattice = "uniform"
-[[conductor]]
-name = "rod"
-potential = 100.0
-circle = {{ center = [{}, -0.0291], radius = 1.0 }}
-[[conductor]]
-name = "tube"
-potential = 0.0
-ring = {{ center = [0.0137, -0.0291], inner = 2.5, outer = 2.75 }}
-"#,
-        1.0 / n,
-        0.0137 + E
-    )
+    designs::eccentric_rod(n)
 }
 
 #[test]

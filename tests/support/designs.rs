@@ -154,6 +154,35 @@ ring = {{ center = [0.0, 0.0], inner = 2.5, outer = 2.8 }}
     )
 }
 
+/// Shift of [`eccentric_rod`]'s rod from the tube's axis, mm.
+pub const ECCENTRIC_SHIFT: f64 = 0.5;
+
+/// An eccentric coaxial line: inner rod radius 1 mm at 100 V, shifted by [`ECCENTRIC_SHIFT`]
+/// mm along x from the axis of a grounded tube of inner radius 2.5 mm, centred at (0.0137,
+/// -0.0291) mm (off the node lines); `n` cells across the rod's radius, on a uniform lattice.
+pub fn eccentric_rod(n: f64) -> String {
+    format!(
+        r#"
+unit = "mm"
+[grid]
+x = [-2.8, 2.8]
+y = [-2.8, 2.8]
+cell = {}
+lattice = "uniform"
+[[conductor]]
+name = "rod"
+potential = 100.0
+circle = {{ center = [{}, -0.0291], radius = 1.0 }}
+[[conductor]]
+name = "tube"
+potential = 0.0
+ring = {{ center = [0.0137, -0.0291], inner = 2.5, outer = 2.75 }}
+"#,
+        1.0 / n,
+        0.0137 + ECCENTRIC_SHIFT
+    )
+}
+
 /// An axisymmetric design whose right, bottom and top sides are open, the box reaching
 /// `reach` mm from the axis and from z = 0, with square cells of about `cell` mm; `body` holds
 /// the conductors and materials.

@@ -4,11 +4,12 @@ use super::*;
 use crate::seeded::uniform;
 
 /// Readings of a random scene: node lines graded at random, smooth hills of field with a
-/// ripple, holes (conductors), values quantised so that equal values occur, three materials
+/// ripple, holes (conductors), nodes whose landscape value is not a reading, values quantised so that equal values occur, three materials
 /// in bands, and surface readings (some persistent) scattered over the domain.
 struct Scene {
     grid: Grid,
     magnitude: Vec<f64>,
+    landscape: Vec<f64>,
     material: Vec<u16>,
     surface: Vec<Reading>,
 }
@@ -30,6 +31,7 @@ fn scene(seed: u64, nx: usize, ny: usize, hills: usize) -> Scene {
         .map(|_| [rnd() * w, rnd() * h, 0.2 + rnd(), 2.0 + 10.0 * rnd()])
         .collect();
     let mut magnitude = Vec::with_capacity(grid.len());
+    let mut landscape = Vec::with_capacity(grid.len());
     let mut material = Vec::with_capacity(grid.len());
     for p in 0..grid.len() {
         let (x, y) = (grid.x(p % nx), grid.y(p / nx));
@@ -38,10 +40,16 @@ fn scene(seed: u64, nx: usize, ny: usize, hills: usize) -> Scene {
             .iter()
             .map(|c| c[2] * (-((x - c[0]).powi(2) + (y - c[1]).powi(2)) / c[3].powi(2)).exp())
             .sum();
-        magnitude.push(if r < 0.02 {
+        let value = ((0.05 + v + 0.01 * (3.0 * x).sin() * r) * 512.0).round() / 512.0;
+        // Holes, and nodes without a reading whose landscape carries a higher value (as
+        // nodes facing a sampled surface do).
+        magnitude.push(if r < 0.05 { f64::NAN } else { value });
+        landscape.push(if r < 0.02 {
             f64::NAN
+        } else if r < 0.05 {
+            1.1 * value
         } else {
-            ((0.05 + v + 0.01 * (3.0 * x).sin() * r) * 512.0).round() / 512.0
+            value
         });
         material.push(((3.0 * y / h) as u16).min(2));
     }
@@ -55,6 +63,7 @@ fn scene(seed: u64, nx: usize, ny: usize, hills: usize) -> Scene {
     Scene {
         grid,
         magnitude,
+        landscape,
         material,
         surface,
     }
@@ -90,6 +99,7 @@ fn lazy_search_gives_the_hot_spots_of_ranking_every_reading() {
                 let r = Readings {
                     grid: &s.grid,
                     magnitude: &s.magnitude,
+                    landscape: &s.landscape,
                     material: &s.material,
                     surface: &s.surface,
                     strength,
@@ -110,6 +120,7 @@ fn coarse_value_is_the_largest_reading_within_the_radius_in_the_material() {
     let r = Readings {
         grid: &s.grid,
         magnitude: &s.magnitude,
+        landscape: &s.landscape,
         material: &s.material,
         surface: &s.surface,
         strength: &[None; 3],
