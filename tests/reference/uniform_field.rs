@@ -646,3 +646,74 @@ polygon = [[0.0, 0.0], [10.0, 0.0], [10.0, 3.1], [0.0, 7.3]]
     assert!(worst < 1e-12, "residual {worst:e}");
     assert!(worst_five > 1e-4, "five-point residual {worst_five:e}");
 }
+
+#[test]
+fn conductors_in_a_uniform_field_peak_and_surface_charge_estimates_follow_the_error() {
+    // The conducting cylinder (peak 2 E, Jackson 1999, sec. 2.11) and sphere (peak 3 E,
+    // Jackson 1999, sec. 2.5), as in the tests above: the reported peak field's estimate and
+    // the peak surface charge's against their errors. Measured, estimate over error at 10 /
+    // 20 / 40 cells (peak field; peak surface charge):
+    // - cylinder: 1.54 / 3.54 / 2.08; 1.68 / 4.08 / 2.30. Both read high on every grid (the
+    //   planar surface fit reads high on a convex surface, `FIT_BIAS`), and at 20 cells the
+    //   fit's bias, 0.5 (h / a)^2 = 0.125 % of the value, is twice the whole error (0.064 %):
+    //   the lattice's error there offsets the fit's. Above 3x, on the safe side.
+    // - sphere: 56 / 8.2 / 0.92; 36 / 21 / 0.94. The error at the pole does not converge
+    //   (-0.036 / +0.020 / +0.042 %; see the sphere's test above), while the estimates fall
+    //   with the samples off the axis; at 40 cells the peak reads high by a little more than
+    //   its estimate. No two-grid estimate follows an error that does not converge: these
+    //   stay outside 3x, and only the safe side is asserted.
+    let with_estimate = fieldgrid_tests::params(Default::default()).with_error_estimate(true);
+    // (name, design at n cells across the radius, exact peak field)
+    type Case = (&'static str, fn(f64) -> String, f64);
+    let cases: [Case; 2] = [
+        (
+            "cylinder",
+            conducting_cylinder,
+            2.0 * planar_local_field(1.0),
+        ),
+        (
+            "sphere",
+            conducting_sphere,
+            3.0 * axisymmetric_local_field(),
+        ),
+    ];
+    for (what, case, peak) in cases {
+        for n in [10.0, 20.0, 40.0] {
+            let s = fieldgrid_solver::study::run(&design(&case(n)), &with_estimate)
+                .expect("study runs");
+            let p = s.peak_field.as_ref().unwrap();
+            let (err, est) = (p.magnitude - peak, p.error_estimate.unwrap());
+            let top = s
+                .surface_charge
+                .iter()
+                .max_by(|a, b| a.density.abs().total_cmp(&b.density.abs()))
+                .unwrap();
+            let sigma = EPS0 * peak;
+            let (serr, sest) = (top.density.abs() - sigma, top.error_estimate.unwrap());
+            eprintln!(
+                "{what}, {n} cells: peak error {:.3e}, estimate {:.3e} (ratio {:.2}); peak \
+                 surface charge error {:.3e}, estimate {:.3e} (ratio {:.2})",
+                err / peak,
+                est / peak,
+                est / err.abs(),
+                serr / sigma,
+                sest / sigma,
+                sest / serr.abs()
+            );
+            // Never low by more than the estimate, never below a third of the error.
+            assert!(err + est >= 0.0, "{what}, {n} cells: {err:e} + {est:e}");
+            assert!(serr + sest >= 0.0, "{what}, {n} cells: {serr:e} + {sest:e}");
+            assert!(
+                est >= err.abs() / 3.0 && sest >= serr.abs() / 3.0,
+                "{what}, {n} cells: {est:e} for {err:e}, {sest:e} for {serr:e}"
+            );
+            // Within 3x where the error converges and the fit's bias does not exceed it.
+            if what == "cylinder" && n != 20.0 {
+                assert!(
+                    est <= 3.0 * err.abs() && sest <= 3.0 * serr.abs(),
+                    "{what}, {n} cells: {est:e} for {err:e}, {sest:e} for {serr:e}"
+                );
+            }
+        }
+    }
+}
