@@ -807,8 +807,8 @@ fn sphere_surface_field_is_second_order_at_the_surface() {
 fn sphere_peak_field_and_surface_charge_estimates_follow_the_error() {
     // The spherical capacitor of the test above (Griffiths 2017, sec. 2.5.4): E(a) =
     // V b / (a (b - a)), sigma = eps0 E(a) all round the inner sphere. Measured, estimate over
-    // error at 10 / 20 / 40 cells: peak field 7.3 / 2.1 / 2.5, peak surface charge 2.8 / 2.5 /
-    // 2.1. At 10 cells the peak's estimate compares with the largest reading near it on the
+    // error at 10 / 20 / 40 cells: peak field 7.3 / 1.7 / 1.6, peak surface charge 2.8 / 2.1 /
+    // 1.2. At 10 cells the peak's estimate compares with the largest reading near it on the
     // lattice of five cells across the radius, which reads about 6 % high (three times the
     // estimate less the fit's bias, 3 (2.33 - 0.5) %, above the fine reading), where the
     // surface charge's compares with the value at the same place along the outline (2.8x):
