@@ -96,8 +96,32 @@ pub(super) fn draw_map(input: &MapInput, opts: &RenderOptions) -> (RgbImage, Plo
     let (xr, yr, pw, ph) = (plot.xr, plot.yr, plot.w, plot.h);
     let mut img = RgbImage::from_pixel(width as u32, height as u32, PAPER);
 
-    // Field colours.
-    let samples = sample::resample(grid, input.values, xr, yr, pw, ph);
+    // Field colours, up to the conductors' outlines.
+    let cl = conductor_layers(&img, &plot, input.conductors);
+    let mut samples = sample::resample(grid, input.values, xr, yr, pw, ph);
+    let on_conductor = |x: usize, y: usize| {
+        cl.fill.get(x, y) > 0.0 || cl.edge.get(x, y) > 0.0 || cl.thin.get(x, y) > 0.0
+    };
+    let (iw, ih) = (img.width() as i64, img.height() as i64);
+    sample::fill_band(
+        &mut samples,
+        grid,
+        input.values,
+        xr,
+        yr,
+        |node| {
+            // A node on an outline lies on its ink, within a pixel of the fill.
+            let p = plot.px(node);
+            let (cx, cy) = (p[0].floor() as i64, p[1].floor() as i64);
+            (-1..=1).any(|dy| {
+                (-1..=1).any(|dx| {
+                    let (x, y) = (cx + dx, cy + dy);
+                    x >= 0 && y >= 0 && x < iw && y < ih && on_conductor(x as usize, y as usize)
+                })
+            })
+        },
+        |lx, ly| cl.fill.get(plot.x0 as usize + lx, plot.y0 as usize + ly) > 0.0,
+    );
     for ly in 0..ph {
         for lx in 0..pw {
             let c = cs.color(samples.at(lx, ly));
@@ -114,10 +138,11 @@ pub(super) fn draw_map(input: &MapInput, opts: &RenderOptions) -> (RgbImage, Plo
     // labels give way to them.
     // Shapes may reach past the domain (a sphere centred on the axis): clip to the plot.
     let off_plot = |x: usize, y: usize| plot.local(x, y).is_none();
-    let cl = conductor_layers(&img, &plot, input.conductors);
     cl.fill.composite(&mut img, NO_VALUE, 1.0, off_plot);
     let masked = |x: usize, y: usize| match plot.local(x, y) {
-        Some((lx, ly)) => samples.at(lx, ly).is_nan() || cl.fill.get(x, y) > 0.0,
+        Some((lx, ly)) => {
+            samples.at(lx, ly).is_nan() || cl.fill.get(x, y) > 0.0 || cl.thin.get(x, y) > 0.0
+        }
         None => true,
     };
     let mut taken = mark_boxes(&plot, input.markers, input.pins);

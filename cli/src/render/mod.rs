@@ -19,6 +19,9 @@
 //!   only linearly with the node count (one pass for the value range).
 //! - A pixel without a value (NaN node values, e.g. inside conductors) is painted
 //!   [`colormap::NO_VALUE`], never a colour of the map; lines are not drawn over such pixels.
+//!   The band of such pixels round a drawn conductor (its nodes on and inside the outline
+//!   carry none) takes the values beside it, so the grey ends at the outline
+//!   ([`sample::fill_band`]); value-less regions that are not drawn conductors keep their size.
 //! - A name sits inside its own conductor or beside it (with a leader line when it had to
 //!   move away), never on another conductor, another label or off the plot; a name that finds
 //!   no such place is left out rather than drawn over something.

@@ -3,7 +3,8 @@
 //! Invariants: one sample per pixel of the plot area, taken at the pixel centre, row 0 at the
 //! top (largest y); bilinear between the four surrounding nodes, using only nodes that have a
 //! value and only when they carry at least half of the bilinear weight (so regions without a
-//! value keep their size); otherwise NaN. The four nodes come from the grid's coordinate
+//! value keep their size); otherwise NaN ([`fill_band`] then gives the band round a drawn
+//! conductor its neighbours' values). The four nodes come from the grid's coordinate
 //! lines, so a graded grid is interpolated within its cells as a uniform one is. Work is
 //! proportional to the pixel count plus the column and row counts (times the logarithm of
 //! the line counts on a graded grid).
@@ -89,6 +90,61 @@ fn bilinear(grid: &Grid, values: &[f64], (i, fx): (usize, f64), (j, fy): (usize,
         sum / wt
     } else {
         f64::NAN
+    }
+}
+
+/// Gives the value-less samples of `s` (taken by [`resample`] over `xr` by `yr`) that border
+/// a drawn conductor the value of their cell's nodes that have one: a pixel whose cell has a
+/// node with a value and whose value-less nodes all lie on drawn conductors (`drawn(node)`,
+/// node position in m) and which is not itself `covered` (plot-local pixel inside a drawn
+/// conductor). The nodes on and inside a conductor carry no value, so without this the
+/// conductor's grey would reach half a cell past its outline (a band along a face lying on a
+/// node line of a coarse graded lattice). Value-less regions that are not drawn conductors
+/// keep their size.
+pub fn fill_band(
+    s: &mut Samples,
+    grid: &Grid,
+    values: &[f64],
+    xr: [f64; 2],
+    yr: [f64; 2],
+    drawn: impl Fn([f64; 2]) -> bool,
+    covered: impl Fn(usize, usize) -> bool,
+) {
+    assert_eq!(values.len(), grid.len(), "one value per grid node");
+    let cols: Vec<(usize, f64)> = pixel_centres(s.w, xr[0], xr[1], false)
+        .map(|x| grid.locate_x(x))
+        .collect();
+    let rows: Vec<(usize, f64)> = pixel_centres(s.h, yr[0], yr[1], true)
+        .map(|y| grid.locate_y(y))
+        .collect();
+    let nx = grid.nx;
+    for (ly, &(j, fy)) in rows.iter().enumerate() {
+        for (lx, &(i, fx)) in cols.iter().enumerate() {
+            if !s.v[lx + ly * s.w].is_nan() || covered(lx, ly) {
+                continue;
+            }
+            let k = i + j * nx;
+            let corners = [
+                (k, (1.0 - fx) * (1.0 - fy)),
+                (k + 1, fx * (1.0 - fy)),
+                (k + nx, (1.0 - fx) * fy),
+                (k + 1 + nx, fx * fy),
+            ];
+            let (mut sum, mut wt) = (0.0, 0.0);
+            let mut band = true;
+            for (node, wgt) in corners {
+                let v = values[node];
+                if v.is_finite() {
+                    sum += v * wgt;
+                    wt += wgt;
+                } else if !drawn([grid.x(node % nx), grid.y(node / nx)]) {
+                    band = false;
+                }
+            }
+            if band && wt > 0.0 {
+                s.v[lx + ly * s.w] = sum / wt;
+            }
+        }
     }
 }
 
@@ -215,6 +271,33 @@ mod tests {
         assert!(s.v.iter().all(|v| v.is_nan() || *v == 1.0));
         let nan = s.v.iter().filter(|v| v.is_nan()).count();
         assert!(nan > 20 && nan < 200, "{nan}");
+    }
+
+    #[test]
+    fn the_band_round_a_drawn_conductor_takes_the_values_beside_it() {
+        // Nodes x <= 1 carry no value (a conductor whose face lies on the node line x = 1);
+        // the strict rule paints them half a cell past x = 1.
+        let g = grid(4, 3);
+        let vals: Vec<f64> = (0..g.len())
+            .map(|k| if k % 4 <= 1 { f64::NAN } else { (k % 4) as f64 })
+            .collect();
+        let (xr, yr) = ([0.0, 3.0], [0.0, 2.0]);
+        let strict = resample(&g, &vals, xr, yr, 30, 20);
+        // Pixel column 13 has its centre at x = 1.35: within half a cell of the face.
+        assert!(strict.at(13, 5).is_nan());
+        // Drawn conductor up to x = 1: the band outside it takes the value beside it.
+        let mut s = strict.clone();
+        fill_band(&mut s, &g, &vals, xr, yr, |p| p[0] <= 1.0, |lx, _| lx < 10);
+        assert_eq!(s.at(13, 5), 2.0);
+        assert!(s.at(9, 5).is_nan(), "inside the conductor: no value");
+        // Nothing drawn there: the value-less region keeps its size.
+        let mut s = strict.clone();
+        fill_band(&mut s, &g, &vals, xr, yr, |_| false, |_, _| false);
+        assert!(s
+            .v
+            .iter()
+            .zip(&strict.v)
+            .all(|(a, b)| a.to_bits() == b.to_bits()));
     }
 
     #[test]
