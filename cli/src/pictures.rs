@@ -142,6 +142,39 @@ pub const FIELD_PERCENTILE: f64 = 0.995;
 /// At most this many hot spots are marked on a picture (the rest are in `hotspots.csv`).
 pub const MARKED_HOTSPOTS: usize = 5;
 
+/// A hot spot is marked on a picture when its field reaches this share of the reference: the
+/// largest hot spot off the sharp corners in the window (the largest of all when every one is
+/// at a corner), whose value does not grow with refinement as a corner's does.
+pub const MARKED_SHARE: f64 = 0.5;
+
+/// Which of `spots` (hot spots in the picture's window, in their ranking) get a marker: those
+/// whose field reaches [`MARKED_SHARE`] of the reference, and every one with a margin below 1
+/// (the field there reaches the material's strength), the first [`MARKED_HOTSPOTS`] of them in
+/// ranking order. Minor maxima far below the peak (the field along a trace's face) stay in
+/// the table only.
+pub fn marked_hotspots(spots: &[&Hotspot]) -> Vec<usize> {
+    let largest = |smooth_only: bool| {
+        spots
+            .iter()
+            .filter(|h| !(smooth_only && h.singular))
+            .map(|h| h.magnitude)
+            .filter(|m| m.is_finite())
+            .fold(None, |a: Option<f64>, m| Some(a.map_or(m, |a| a.max(m))))
+    };
+    let Some(reference) = largest(true).or_else(|| largest(false)) else {
+        return Vec::new();
+    };
+    spots
+        .iter()
+        .enumerate()
+        .filter(|(_, h)| {
+            h.magnitude >= MARKED_SHARE * reference || h.margin.is_some_and(|m| m < 1.0)
+        })
+        .map(|(k, _)| k)
+        .take(MARKED_HOTSPOTS)
+        .collect()
+}
+
 /// Samples along the longer side of the even raster that colour-scale quantiles are read from.
 const AREA_SAMPLES: usize = 512;
 
@@ -223,7 +256,7 @@ struct Scene<'a> {
     markers: Vec<Marker>,
     unit: LengthUnit<'a>,
     axis_names: [&'static str; 2],
-    /// " (5 of 8 hot spots marked; all in hotspots.csv)" when not all are marked.
+    /// " (3 of 8 hot spots marked; all in hotspots.csv)" when not all are marked.
     marks_note: String,
 }
 
@@ -236,7 +269,7 @@ impl<'a> Scene<'a> {
         };
         let settled: Vec<f64> = sol.conductors.iter().map(|c| c.potential).collect();
         let (_, dielectrics) = outlines(design);
-        // Hot spots in the picture's window, in their ranking; the first few marked.
+        // Hot spots in the picture's window, in their ranking; those near the top marked.
         let (x, y) = opts.shown(design.domain.x, design.domain.y, unit);
         let inside = |h: &&Hotspot| (x[0]..=x[1]).contains(&h.x) && (y[0]..=y[1]).contains(&h.y);
         let shown: Vec<(usize, &Hotspot)> = sol
@@ -245,17 +278,19 @@ impl<'a> Scene<'a> {
             .enumerate()
             .filter(|(_, h)| inside(h))
             .collect();
-        let markers = shown
+        let spots: Vec<&Hotspot> = shown.iter().map(|s| s.1).collect();
+        let marked = marked_hotspots(&spots);
+        let markers = marked
             .iter()
-            .take(MARKED_HOTSPOTS)
-            .map(|(k, h)| Marker {
-                at: [h.x, h.y],
-                number: *k as u32 + 1,
+            .map(|&k| Marker {
+                at: [shown[k].1.x, shown[k].1.y],
+                number: shown[k].0 as u32 + 1,
             })
             .collect();
-        let marks_note = if shown.len() > MARKED_HOTSPOTS {
+        let marks_note = if shown.len() > marked.len() {
             format!(
-                " ({MARKED_HOTSPOTS} of {} hot spots marked; all in hotspots.csv)",
+                " ({} of {} hot spots marked; all in hotspots.csv)",
+                marked.len(),
                 shown.len()
             )
         } else {
@@ -580,6 +615,48 @@ mod tests {
         let offset = named_conductors(&d, Some(&[1001.0, 1000.4812]));
         assert_eq!(offset[0].name, "rod, 1.001 kV");
         assert_eq!(offset[1].name, "foil, floating at 1.0005 kV");
+    }
+
+    #[test]
+    fn minor_maxima_far_below_the_peak_get_no_marker() {
+        let spot = |magnitude: f64, singular: bool, margin: Option<f64>| Hotspot {
+            magnitude,
+            x: 0.0,
+            y: 0.0,
+            material: "background".into(),
+            strength: margin.map(|m| m * magnitude),
+            margin,
+            singular,
+            error_estimate: None,
+            under_resolved: false,
+        };
+        // The microstrip's list: a trace edge (singular), the field under the trace, the
+        // trace's end on its mirror plane, then maxima along the trace's faces far below.
+        let strip = [
+            spot(2.47e5, true, None),
+            spot(1623.0, false, None),
+            spot(1240.0, true, None),
+            spot(387.0, false, None),
+            spot(157.0, false, None),
+            spot(103.0, false, None),
+        ];
+        let refs: Vec<&Hotspot> = strip.iter().collect();
+        assert_eq!(marked_hotspots(&refs), vec![0, 1, 2]);
+        // Every one at a corner: measured against the largest; at most a few.
+        let corners: Vec<Hotspot> = (0..8)
+            .map(|k| spot(2e4 - 1e3 * f64::from(k), true, None))
+            .collect();
+        let refs: Vec<&Hotspot> = corners.iter().collect();
+        assert_eq!(marked_hotspots(&refs), vec![0, 1, 2, 3, 4]);
+        // A margin below 1 is marked however far below the reference its field is.
+        let tip = [
+            spot(9.9e6, false, Some(0.30)),
+            spot(3.8e6, false, Some(0.79)),
+            spot(2.2e6, false, Some(1.38)),
+        ];
+        let refs: Vec<&Hotspot> = tip.iter().collect();
+        assert_eq!(marked_hotspots(&refs), vec![0, 1]);
+        assert!(marked_hotspots(&[]).is_empty());
     }
 
     #[test]

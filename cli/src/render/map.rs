@@ -196,7 +196,7 @@ pub(super) fn draw_map(input: &MapInput, opts: &RenderOptions) -> (RgbImage, Plo
     cl.thin.composite(&mut img, INK, 1.0, off_plot);
     draw_pins(&mut img, &plot, input.pins);
     draw_names(&mut img, &names);
-    draw_markers(&mut img, &plot, input.markers, &mut taken);
+    draw_markers(&mut img, &plot, input.markers, &mut taken, &on_conductor);
 
     draw_axes(&mut img, &plot, &ax, input.length_unit, input.axis_names);
     let unit = cs.unit(input.unit);

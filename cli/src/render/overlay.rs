@@ -25,13 +25,35 @@ pub(super) fn contrast_ink(under: Rgb<u8>) -> Rgb<u8> {
     }
 }
 
-pub(super) fn draw_markers(img: &mut RgbImage, plot: &Plot, markers: &[Marker], taken: &mut Taken) {
+/// Radius of a hot-spot mark's ring, px; its centre stays open so that the conductor edge it
+/// marks shows through.
+pub(super) const MARK_RING: f64 = 5.5;
+
+/// Draws the numbered marks: an open ink ring on a paper halo (kept off conductors), the
+/// number in a box beside it.
+/// `ink(x, y)` tells the pixels of conductors (fill, outlines, thin copper): a number box
+/// takes the first of its four places clear of them, of `taken` and inside the plot, else the
+/// first clear of `taken`, else the upper right.
+pub(super) fn draw_markers(
+    img: &mut RgbImage,
+    plot: &Plot,
+    markers: &[Marker],
+    taken: &mut Taken,
+    ink: &dyn Fn(usize, usize) -> bool,
+) {
     let (w, h) = img.dimensions();
+    let mut halo = Layer::new(w, h);
     let mut ring = Layer::new(w, h);
-    let mut inner = Layer::new(w, h);
-    let mut dot = Layer::new(w, h);
     let mut labels = Vec::new();
     let st = Style::new(12.0, INK).bold();
+    let covers_ink = |b: [f32; 4]| {
+        let (x0, y0) = (
+            b[0].floor().max(0.0) as usize,
+            b[1].floor().max(0.0) as usize,
+        );
+        let (x1, y1) = (b[2].ceil().max(0.0) as usize, b[3].ceil().max(0.0) as usize);
+        (y0..=y1.min(h as usize - 1)).any(|y| (x0..=x1.min(w as usize - 1)).any(|x| ink(x, y)))
+    };
     for mk in markers {
         let p = plot.px(mk.at);
         let xs = plot.x0 as f64 - 0.5..=plot.right() as f64 + 0.5;
@@ -39,23 +61,33 @@ pub(super) fn draw_markers(img: &mut RgbImage, plot: &Plot, markers: &[Marker], 
         if !(xs.contains(&p[0]) && ys.contains(&p[1])) {
             continue;
         }
-        ring.disc(p, 7.0);
-        inner.disc(p, 5.0);
-        dot.disc(p, 1.3);
+        let circle: Vec<P> = (0..40)
+            .map(|s| {
+                let a = f64::from(s) * std::f64::consts::TAU / 40.0;
+                [p[0] + MARK_RING * a.cos(), p[1] + MARK_RING * a.sin()]
+            })
+            .collect();
+        halo.polyline(&circle, 4.0, true);
+        ring.polyline(&circle, 1.7, true);
         let s = mk.number.to_string();
         let m = text::measure(&s, st);
         let (bw, bh) = (m.width + 6.0, m.height() + 2.0);
         let (px, py) = (p[0] as f32, p[1] as f32);
-        let mut chosen = None;
-        for (dx, dy) in [(1.0, -1.0), (1.0, 1.0), (-1.0, -1.0), (-1.0, 1.0)] {
-            let cx = px + dx * (8.5 + bw / 2.0);
-            let cy = py + dy * (4.0 + bh / 2.0);
-            let b = [cx - bw / 2.0, cy - bh / 2.0, cx + bw / 2.0, cy + bh / 2.0];
-            if plot.holds(b) && taken.free(b) {
-                chosen = Some(b);
-                break;
-            }
-        }
+        let places: Vec<[f32; 4]> = [(1.0, -1.0), (1.0, 1.0), (-1.0, -1.0), (-1.0, 1.0)]
+            .iter()
+            .map(|(dx, dy)| {
+                let cx = px + dx * (MARK_RING as f32 + 3.0 + bw / 2.0);
+                let cy = py + dy * (MARK_RING as f32 - 1.0 + bh / 2.0);
+                [cx - bw / 2.0, cy - bh / 2.0, cx + bw / 2.0, cy + bh / 2.0]
+            })
+            .collect();
+        let fits = |b: &&[f32; 4]| plot.holds(**b) && taken.free(**b);
+        let chosen = places
+            .iter()
+            .filter(fits)
+            .find(|b| !covers_ink(**b))
+            .or_else(|| places.iter().find(fits))
+            .copied();
         let b = chosen.unwrap_or_else(|| {
             let cx = (px + 7.0 + bw / 2.0).min(plot.right() as f32 - bw / 2.0 - 1.0);
             let cy = (py - 5.0 - bh / 2.0).max(plot.y0 as f32 + bh / 2.0 + 1.0);
@@ -64,9 +96,9 @@ pub(super) fn draw_markers(img: &mut RgbImage, plot: &Plot, markers: &[Marker], 
         taken.0.push(b);
         labels.push((s, b));
     }
+    // The halo lightens the colours round the ring, never the conductor it marks.
+    halo.composite(img, PAPER, 0.85, ink);
     ring.composite(img, INK, 1.0, |_, _| false);
-    inner.composite(img, PAPER, 1.0, |_, _| false);
-    dot.composite(img, INK, 1.0, |_, _| false);
     for (s, b) in labels {
         boxed_label(img, &s, st, b, 0.9);
         rect_outline(
@@ -132,7 +164,7 @@ pub(super) fn mark_boxes(plot: &Plot, markers: &[Marker], pins: &[Pin]) -> Taken
     Taken(
         markers
             .iter()
-            .map(|mk| square(plot.px(mk.at), 7.5))
+            .map(|mk| square(plot.px(mk.at), MARK_RING as f32 + 2.0))
             .chain(
                 pins.iter()
                     .map(|p| square(plot.px(p.at), pin_radius(p.kind) + 0.5)),

@@ -216,7 +216,10 @@ pub(super) fn draw_preview(input: &PreviewInput, opts: &RenderOptions) -> (RgbIm
     ));
     draw_pins(&mut img, &plot, input.pins);
     draw_names(&mut img, &names);
-    draw_markers(&mut img, &plot, input.markers, &mut taken);
+    let ink = |x: usize, y: usize| {
+        cl.fill.get(x, y) > 0.0 || cl.edge.get(x, y) > 0.0 || cl.thin.get(x, y) > 0.0
+    };
+    draw_markers(&mut img, &plot, input.markers, &mut taken, &ink);
     draw_axes(&mut img, &plot, &ax, input.length_unit, input.axis_names);
 
     // Legend, top-aligned beside the plot; what does not fit is counted.

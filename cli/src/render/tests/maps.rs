@@ -34,11 +34,41 @@ fn map_has_its_size_colour_bar_outline_and_marker() {
     let out = px(&img, plot.px([11.0 * MM, 8.5 * MM]));
     assert!(sequential().rgb.contains(&out) || !neutral(out), "{out:?}");
 
-    // Hot spot: ink centre, white disc, ink ring.
+    // Hot spot: an ink ring with the map's colour left in its centre.
     let m = plot.px([6.5 * MM, 5.5 * MM]);
-    assert!(dark(px(&img, m)));
-    assert_eq!(px(&img, [m[0] + 3.5, m[1]]), PAPER);
-    assert!(dark(px(&img, [m[0] + 6.0, m[1]])));
+    let centre = px(&img, m);
+    assert!(!neutral(centre) && !dark(centre), "{centre:?}");
+    assert!(dark(px(&img, [m[0] + 5.5, m[1]])));
+}
+
+#[test]
+fn hot_spot_markers_leave_the_trace_they_sit_on_visible() {
+    // Marks on a thin trace (an open conductor) and at its end: the trace stays ink through
+    // and around every ring, and no number box covers it.
+    let s = scene();
+    let trace = Outline::polyline("", vec![[2.0 * MM, 8.0 * MM], [10.0 * MM, 8.0 * MM]]);
+    let markers: Vec<Marker> = [3.0, 3.4, 6.0, 10.0]
+        .iter()
+        .zip(1..)
+        .map(|(&x, number)| Marker {
+            at: [x * MM, 8.0 * MM],
+            number,
+        })
+        .collect();
+    let conductors = [trace];
+    let inp = MapInput {
+        conductors: &conductors,
+        markers: &markers,
+        ..input(&s)
+    };
+    let (img, plot) = draw_map(&inp, &RenderOptions::default());
+    keep("marks-on-a-trace", &img);
+    let a = plot.px([2.0 * MM, 8.0 * MM]);
+    let b = plot.px([10.0 * MM, 8.0 * MM]);
+    for x in (a[0].ceil() as i64 + 1)..(b[0].floor() as i64 - 1) {
+        let c = px(&img, [x as f64, a[1]]);
+        assert!(dark(c), "trace at x = {x} px covered: {c:?}");
+    }
 }
 
 #[test]
