@@ -389,8 +389,10 @@ pub fn field_maps(
             .iter()
             .map(|&m| fieldgrid_solver::material::of(design, m).permittivity)
             .collect();
+        // Field lines follow the whole solution, conductors' nodes at their potentials, so the
+        // field is interpolated right up to a conductor's surface.
         map.field_lines = Some(FieldLines {
-            potential: &potential,
+            potential: &sol.potential,
             count: 24,
             permittivity: Some(&eps),
         });

@@ -66,7 +66,35 @@ pub(super) fn draw_contours(
     placed
 }
 
-/// Traces and draws field lines with an arrowhead half-way along each.
+/// Distance of the field lines' seeds from a conductor's outline, px: clear of its ink.
+const SEED_OFFSET: f64 = 3.0;
+
+/// Closest two arrowheads on field lines may come, px. Lines crowd where the charge is dense
+/// (under a trace in a laminate): arrowheads side by side there would read as a zigzag band.
+const ARROW_SPACING: f64 = 36.0;
+
+/// Where along `line` (px, arc length of the arrowhead's middle) an arrowhead goes: the first
+/// of the middle and points stepping away from it towards both ends that is at least
+/// [`ARROW_SPACING`] from every arrowhead in `taken`; `None` on a line shorter than 40 px or
+/// with no such point (the line goes without one).
+pub(super) fn arrow_place(line: &[P], taken: &[P]) -> Option<f64> {
+    let len = length(line);
+    if len <= 40.0 {
+        return None;
+    }
+    [0.5, 0.4, 0.6, 0.3, 0.7, 0.2, 0.8]
+        .iter()
+        .map(|f| f * len)
+        .find(|&s| {
+            let p = point_at(line, s);
+            taken
+                .iter()
+                .all(|q| (p[0] - q[0]).hypot(p[1] - q[1]) >= ARROW_SPACING)
+        })
+}
+
+/// Traces and draws field lines with an arrowhead along each, clear of the others'
+/// ([`arrow_place`]).
 pub(super) fn draw_field_lines(
     img: &mut RgbImage,
     plot: &Plot,
@@ -134,33 +162,32 @@ pub(super) fn draw_field_lines(
         .iter()
         .flat_map(|c| c.lines.iter().map(|l| local(l)))
         .collect();
-    // Seeds sit just clear of the value-less band round a conductor on coarse grids.
-    let cell_px = (grid.max_dx() * k[0]).max(grid.max_dy() * k[1]);
-    let offset = (0.75 * cell_px + 1.0).max(2.5);
-    let seeds = fieldlines::seeds(&pot, &rings, &lines, fl.count, offset, &inside);
+    // Seeds sit just clear of the conductors' ink and fill.
+    let seeds = fieldlines::seeds(&pot, &rings, &lines, fl.count, SEED_OFFSET, &inside);
     let (w, h) = img.dimensions();
     let mut layer = Layer::new(w, h);
+    let mut arrows: Vec<P> = Vec::new();
     for seed in seeds {
         let line = fieldlines::trace(&pot, seed, &inside);
         let pts: Vec<P> = line.points.iter().map(|p| [p[0] + ox, p[1] + oy]).collect();
         layer.polyline(&pts, 0.9, false);
-        let len = length(&pts);
-        if len > 40.0 {
-            // Arrowhead pointing along E at the middle.
-            let tip = point_at(&pts, 0.5 * len + 4.0);
-            let back = point_at(&pts, 0.5 * len - 4.0);
-            let d = [tip[0] - back[0], tip[1] - back[1]];
-            let n = d[0].hypot(d[1]);
-            if n > 0.0 {
-                let u = [d[0] / n, d[1] / n];
-                for side in [1.0, -1.0] {
-                    let (c, s) = (0.45f64.cos(), side * 0.45f64.sin());
-                    let wing = [
-                        tip[0] - 7.0 * (u[0] * c - u[1] * s),
-                        tip[1] - 7.0 * (u[1] * c + u[0] * s),
-                    ];
-                    layer.segment(tip, wing, 1.2);
-                }
+        let Some(mid) = arrow_place(&pts, &arrows) else {
+            continue;
+        };
+        let tip = point_at(&pts, mid + 4.0);
+        let back = point_at(&pts, mid - 4.0);
+        arrows.push(point_at(&pts, mid));
+        let d = [tip[0] - back[0], tip[1] - back[1]];
+        let n = d[0].hypot(d[1]);
+        if n > 0.0 {
+            let u = [d[0] / n, d[1] / n];
+            for side in [1.0, -1.0] {
+                let (c, s) = (0.45f64.cos(), side * 0.45f64.sin());
+                let wing = [
+                    tip[0] - 7.0 * (u[0] * c - u[1] * s),
+                    tip[1] - 7.0 * (u[1] * c + u[0] * s),
+                ];
+                layer.segment(tip, wing, 1.2);
             }
         }
     }

@@ -137,3 +137,100 @@ fn field_lines_leave_the_positive_wire_and_cross_equipotentials() {
         }
     }
 }
+
+#[test]
+fn field_lines_start_at_the_conductor_on_a_graded_lattice() {
+    // A wire of radius 0.5 mm at (10, 5) mm over a grounded plane, on a lattice graded from
+    // 0.05 mm cells round the wire to 2 mm cells at the sides. The lines start at the wire's
+    // surface, not a large cell's width away from it.
+    let mut xs: Vec<f64> = (0..=4).map(|k| 2.0 * MM * f64::from(k)).collect();
+    xs.extend((1..80).map(|k| 8.0 * MM + 0.05 * MM * f64::from(k)));
+    xs.extend((0..=4).map(|k| 12.0 * MM + 2.0 * MM * f64::from(k)));
+    let mut ys: Vec<f64> = vec![0.0, 2.0 * MM];
+    ys.extend(
+        (0..=120)
+            .map(|k| 2.0 * MM + 0.05 * MM * f64::from(k))
+            .skip(1),
+    );
+    ys.extend([10.0 * MM]);
+    let g = Grid::from_lines(xs, ys).expect("lattice");
+    let (c, a) = ([10.0 * MM, 5.0 * MM], 0.5 * MM);
+    // Potential of a line charge over ground (method of images, common practice), held at
+    // its surface value inside the wire.
+    let whole: Vec<f64> = (0..g.len())
+        .map(|k| {
+            let (x, y) = (g.x(k % g.nx), g.y(k / g.nx));
+            let r = (x - c[0]).hypot(y - c[1]).max(a);
+            ((x - c[0]).hypot(y + c[1]) / r).ln()
+        })
+        .collect();
+    let shown: Vec<f64> = (0..g.len())
+        .map(|k| {
+            let (x, y) = (g.x(k % g.nx), g.y(k / g.nx));
+            if (x - c[0]).hypot(y - c[1]) <= a {
+                f64::NAN
+            } else {
+                whole[k]
+            }
+        })
+        .collect();
+    let tol = Outline::picture_tolerance([g.x0(), g.x1()], [g.y0(), g.y1()]);
+    let wire = [Outline::from_shape(
+        "",
+        &fieldgrid_solver::design::Shape::Circle {
+            center: c,
+            radius: a,
+        },
+        tol,
+    )];
+    let inp = MapInput {
+        conductors: &wire,
+        contours: ContourStyle::None,
+        field_lines: Some(FieldLines {
+            potential: &whole,
+            count: 16,
+            permittivity: None,
+        }),
+        ..MapInput::new(&g, &shown)
+    };
+    let (img, plot) = draw_map(&inp, &RenderOptions::default());
+    keep("graded-wire-lines", &img);
+    let bare = render_map(
+        &MapInput {
+            field_lines: None,
+            ..inp
+        },
+        &RenderOptions::default(),
+    );
+    let centre = plot.px(c);
+    let r_px = a * plot.w as f64 / (plot.xr[1] - plot.xr[0]);
+    let near = img
+        .enumerate_pixels()
+        .filter(|(x, y, p)| {
+            let r = (f64::from(*x) + 0.5 - centre[0]).hypot(f64::from(*y) + 0.5 - centre[1]);
+            r > r_px + 2.0 && r < r_px + 7.0 && *p != bare.get_pixel(*x, *y)
+        })
+        .count();
+    assert!(near > 16, "line ink next to the wire: {near} pixels");
+}
+
+#[test]
+fn arrowheads_on_crowded_field_lines_keep_apart() {
+    // Twenty parallel lines 8 px apart (the field under a trace in a laminate): arrowheads all
+    // at their middles would stand side by side and read as a zigzag band.
+    let mut taken: Vec<P> = Vec::new();
+    for k in 0..20 {
+        let x = 100.0 + 8.0 * f64::from(k);
+        let line: Vec<P> = (0..=100).map(|s| [x, f64::from(s) * 1.5]).collect();
+        if let Some(s) = super::super::lines::arrow_place(&line, &taken) {
+            taken.push([x, s]);
+        }
+    }
+    assert!(taken.len() >= 4, "{taken:?}");
+    for (i, p) in taken.iter().enumerate() {
+        for q in &taken[i + 1..] {
+            let d = (p[0] - q[0]).hypot(p[1] - q[1]);
+            assert!(d >= 30.0, "arrowheads {d} px apart: {p:?} {q:?}");
+        }
+    }
+}
