@@ -59,41 +59,19 @@ pub fn named_conductors(design: &Design, settled: Option<&[f64]>) -> Vec<Outline
             ..Outline::from_shape("", s, tol)
         })
     });
-    // As many digits as tell the fixed potentials apart: a pad 1 V above sides at 1 kV reads
-    // "1.001 kV", not "1 kV"; a floating conductor's settled potential takes as many.
-    let sides = [
-        design.sides.left,
-        design.sides.right,
-        design.sides.bottom,
-        design.sides.top,
-    ];
-    let known: Vec<f64> = design
-        .conductors
-        .iter()
-        .filter_map(|c| match c.drive {
-            Drive::Fixed(v) => Some(v),
-            Drive::Floating => None,
-        })
-        .chain(sides.iter().filter_map(|s| s.potential()))
-        .collect();
-    let digits = potential_digits(&known);
-    let volts = |v: f64| {
-        let s = axes::si_digits(v, digits);
-        if s.ends_with(|c: char| c.is_ascii_digit()) {
-            format!("{s} V")
-        } else {
-            format!("{s}V")
-        }
-    };
+    let volts = Volts::of(design);
     design
         .conductors
         .iter()
         .enumerate()
         .map(|(k, c)| {
             let (name, edge) = match (c.drive, settled) {
-                (Drive::Fixed(v), _) => (format!("{}, {}", c.name, volts(v)), Edge::Solid),
+                (Drive::Fixed(v), _) => (
+                    format!("{}, {}", c.name, volts.write(v, false)),
+                    Edge::Solid,
+                ),
                 (Drive::Floating, Some(v)) => (
-                    format!("{}, floating at {}", c.name, volts(v[k])),
+                    format!("{}, floating at {}", c.name, volts.write(v[k], true)),
                     Edge::Dashed,
                 ),
                 (Drive::Floating, None) => (format!("{}, floating", c.name), Edge::Dashed),
@@ -107,23 +85,58 @@ pub fn named_conductors(design: &Design, settled: Option<&[f64]>) -> Vec<Outline
         .collect()
 }
 
-/// Significant digits (3 to 12) that write the distinct potentials of `v` distinctly: enough
-/// for their smallest difference against the largest of them.
-fn potential_digits(v: &[f64]) -> usize {
-    let top = v.iter().fold(0.0f64, |a, x| a.max(x.abs()));
-    let mut step = f64::INFINITY;
-    for (i, a) in v.iter().enumerate() {
-        for b in &v[i + 1..] {
-            let d = (a - b).abs();
-            if d > 0.0 {
-                step = step.min(d);
+/// How a picture writes potentials: finely enough to tell the design's fixed potentials
+/// (conductors and sides) apart, in a form read at face value. A pad 0.9 V above sides at
+/// 1 kV reads "1000.9 V" beside "1000.0 V" (not "1.0009 kV"); potentials far apart keep three
+/// digits ("50 kV").
+struct Volts {
+    /// Largest magnitude among the fixed potentials, V.
+    top: f64,
+    /// Smallest difference between two of them, V (infinite when they do not differ).
+    step: f64,
+}
+
+impl Volts {
+    fn of(design: &Design) -> Volts {
+        let sides = [
+            design.sides.left,
+            design.sides.right,
+            design.sides.bottom,
+            design.sides.top,
+        ];
+        let known: Vec<f64> = design
+            .conductors
+            .iter()
+            .filter_map(|c| match c.drive {
+                Drive::Fixed(v) => Some(v),
+                Drive::Floating => None,
+            })
+            .chain(sides.iter().filter_map(|s| s.potential()))
+            .collect();
+        let top = known.iter().fold(0.0f64, |a, x| a.max(x.abs()));
+        let mut step = f64::INFINITY;
+        for (i, a) in known.iter().enumerate() {
+            for b in &known[i + 1..] {
+                let d = (a - b).abs();
+                if d > 0.0 {
+                    step = step.min(d);
+                }
             }
         }
+        Volts { top, step }
     }
-    if top.is_nan() || top <= 0.0 || !step.is_finite() {
-        return 3;
+
+    /// `v` with its unit; `finer` (a result such as a settled floating potential or a probe
+    /// reading, which may lie between the fixed ones) to a tenth of the step.
+    fn write(&self, v: f64, finer: bool) -> String {
+        let step = if finer { self.step / 10.0 } else { self.step };
+        let s = axes::si_step(v, step, self.top.max(v.abs()));
+        if s.ends_with(|c: char| c.is_ascii_digit()) {
+            format!("{s} V")
+        } else {
+            format!("{s}V")
+        }
     }
-    ((top / step).log10().ceil() as usize + 1).clamp(3, 12)
 }
 
 /// The names of a design's axes: x, y in the plane, r, z in axisymmetric mode.
@@ -373,9 +386,10 @@ pub fn field_maps(
                 }
             })
             .collect();
+        let volts = Volts::of(design);
         let pins = probe_pins(design, |k| {
             let v = sol.probes.get(k)?.potential;
-            v.is_finite().then(|| with_unit(v, "V"))
+            v.is_finite().then(|| volts.write(v, true))
         });
         let title = format!("Potential{}", scene.marks_note);
         let mut map = scene.map(&sol.grid, &potential, &title);
@@ -615,8 +629,11 @@ mod tests {
         d.sides.top = s;
         d.conductors[0].drive = Drive::Fixed(1001.0);
         let offset = named_conductors(&d, Some(&[1001.0, 1000.4812]));
-        assert_eq!(offset[0].name, "rod, 1.001 kV");
-        assert_eq!(offset[1].name, "foil, floating at 1.0005 kV");
+        assert_eq!(offset[0].name, "rod, 1001 V");
+        assert_eq!(offset[1].name, "foil, floating at 1000.5 V");
+        // Read at face value: 0.9 V above 1 kV is "1000.9 V", not "1.0009 kV".
+        d.conductors[0].drive = Drive::Fixed(1000.9);
+        assert_eq!(named_conductors(&d, None)[0].name, "rod, 1000.9 V");
     }
 
     #[test]

@@ -195,6 +195,25 @@ pub fn si_digits(v: f64, digits: usize) -> String {
     }
 }
 
+/// `v` written so that numbers `step` apart read apart, next to numbers up to `top` in size:
+/// with its own SI prefix to three digits when those tell such numbers apart (`top` within
+/// 100 steps), otherwise in the unit that writes `step` as a whole number or a decimal (at
+/// most one prefix below `top`'s), with the decimals `step` needs and no trailing zeros
+/// dropped, so that an offset reads at face value: `si_step(1000.9, 0.9, 1000.9)` is
+/// "1000.9", `si_step(1000.0, 0.9, 1000.9)` is "1000.0", `si_step(5e4, 5e4, 5e4)` is "50 k".
+pub fn si_step(v: f64, step: f64, top: f64) -> String {
+    if !(step.is_finite() && step > 0.0 && top.is_finite()) || top <= 100.0 * step {
+        return si(v);
+    }
+    let e = prefix_exponent(round_up(step)).max(prefix_exponent(top) - 3);
+    let scale = 10f64.powi(e);
+    let s = fixed(v / scale, decimals(step / scale));
+    match prefix(e) {
+        "" => s,
+        p => format!("{s} {p}"),
+    }
+}
+
 /// A number without a unit to three significant digits, trailing zeros dropped: 0.5, 20,
 /// 1000, 0.0012; mantissa and exponent beyond 1e-4 ..= 1e6 ("2.5e7").
 pub fn plain(v: f64) -> String {
@@ -234,6 +253,17 @@ mod tests {
         assert_eq!(plain(-1.25), "\u{2212}1.25");
         // The largest double takes the largest prefix (its slack overflows to infinity).
         assert_eq!(prefix_exponent(f64::MAX), 15);
+    }
+
+    #[test]
+    fn offsets_are_written_in_the_unit_of_their_step() {
+        assert_eq!(si_step(1000.9, 0.9, 1000.9), "1000.9");
+        assert_eq!(si_step(1000.0, 0.9, 1000.9), "1000.0");
+        assert_eq!(si_step(30_005.0, 5.0, 30_005.0), "30005");
+        assert_eq!(si_step(1.000_002e6, 2.0, 1.000_002e6), "1000.002 k");
+        assert_eq!(si_step(5e4, 5e4, 5e4), "50 k");
+        assert_eq!(si_step(34_112.766, 5e3, 5e4), "34.1 k");
+        assert_eq!(si_step(0.5, f64::INFINITY, 0.5), "500 m");
     }
 
     #[test]

@@ -90,7 +90,15 @@ impl ColorScale {
             0
         } else {
             // Rounded up to one digit first, so 0.999 V reads as volts, not 999 mV.
-            axes::prefix_exponent(axes::round_up(lo.abs().max(hi.abs())))
+            let top = axes::prefix_exponent(axes::round_up(lo.abs().max(hi.abs())));
+            let span = hi - lo;
+            if span > 0.0 && 100.0 * span < lo.abs().max(hi.abs()) {
+                // A range offset far from zero (1000.0 to 1000.9 V) is written in the unit of
+                // its span, "1000.4 V" rather than "1.0004 kV", at most one prefix below.
+                axes::prefix_exponent(axes::round_up(span)).max(top - 3)
+            } else {
+                top
+            }
         };
         ColorScale {
             lo,
@@ -266,9 +274,19 @@ pub(super) fn bar_label_style() -> Style {
 /// its grid and options only, never on its values.
 pub(super) const BAR_BLOCK: usize = BAR_GAP as usize + BAR_W as usize + 8 + 56 + 10 + 18 + 8;
 
-/// The colour bar's ticks for a bar `h` px tall.
+/// The colour bar's ticks for a bar `h` px tall: about one per 40 px, and more (down to one
+/// per 20 px) when that leaves fewer than two (a short bar over -0.49..0.49 V would show only
+/// its 0).
 pub(super) fn bar_ticks(cs: &ColorScale, h: usize) -> Vec<(f64, String)> {
-    cs.ticks((h / 40).clamp(2, 10))
+    let most = (h / 20).max(2);
+    let mut max = (h / 40).clamp(2, 10);
+    loop {
+        let t = cs.ticks(max);
+        if t.len() >= 2 || max >= most {
+            return t;
+        }
+        max += 1;
+    }
 }
 
 pub(super) fn draw_bar(

@@ -309,6 +309,49 @@ fn signed_values_use_the_diverging_map_centred_on_zero() {
 }
 
 #[test]
+fn a_short_diverging_bar_keeps_ticks_either_side_of_zero() {
+    // A pair driven at +-0.5 V whose nodes reach +-0.49 V: 500 mV steps leave only the 0.
+    let grid = Grid::regular([0.0, 0.0], [0.1 * MM, 0.1 * MM], [81, 9]);
+    let v: Vec<f64> = (0..grid.len())
+        .map(|k| -0.49 + 0.98 * (k % grid.nx) as f64 / 80.0)
+        .collect();
+    let inp = MapInput {
+        unit: "V",
+        ..MapInput::new(&grid, &v)
+    };
+    let cs = ColorScale::new(&inp);
+    let ticks = bar_ticks(&cs, 160);
+    assert!(ticks.iter().any(|t| t.0 < 0.0), "{ticks:?}");
+    assert!(ticks.iter().any(|t| t.0 > 0.0), "{ticks:?}");
+}
+
+#[test]
+fn potentials_offset_from_zero_are_labelled_at_face_value() {
+    // 1000.0 to 1000.9 V: labels "1000.4 V", not "1.0004 kV".
+    let grid = Grid::regular([0.0, 0.0], [0.1 * MM, 0.1 * MM], [81, 41]);
+    let v: Vec<f64> = (0..grid.len())
+        .map(|k| 1000.0 + 0.9 * (k % grid.nx) as f64 / 80.0)
+        .collect();
+    let inp = MapInput {
+        unit: "V",
+        quantity: "potential",
+        ..MapInput::new(&grid, &v)
+    };
+    let (img, _) = draw_map(&inp, &RenderOptions::default());
+    keep("offset", &img);
+    let cs = ColorScale::new(&inp);
+    assert_eq!(cs.unit("V"), "V");
+    let levels = cs.levels(ContourStyle::Auto, "V");
+    assert!(levels.iter().any(|l| l.1 == "1000.4 V"), "{levels:?}");
+    let ticks = bar_ticks(&cs, 400);
+    assert!(ticks.iter().any(|t| t.1 == "1000.4"), "{ticks:?}");
+    // A range from zero keeps its prefix.
+    let kv: Vec<f64> = v.iter().map(|x| (x - 1000.0) * 1e4).collect();
+    let cs = ColorScale::new(&MapInput { values: &kv, ..inp });
+    assert_eq!(cs.unit("V"), "kV");
+}
+
+#[test]
 fn log_scale_labels_decades_with_prefixes() {
     // |E| falling as 1/r from a line: 1e6 V/m at 0.1 mm down to about 1e3 V/m.
     let grid = Grid::regular([-50.0 * MM, -50.0 * MM], [0.5 * MM, 0.5 * MM], [201, 201]);

@@ -6,7 +6,7 @@ mod maps;
 mod shapes;
 
 use super::canvas::P;
-use super::color_scale::{ColorScale, BAR_GAP, BAR_W};
+use super::color_scale::{bar_ticks, ColorScale, BAR_GAP, BAR_W};
 use super::colormap::{diverging, sequential, LEN, NO_VALUE};
 use super::layout::{Plot, BOTTOM, TOP};
 use super::map::draw_map;
