@@ -10,6 +10,7 @@ pub mod commands;
 pub mod design_file;
 pub mod error;
 pub mod exit;
+pub mod hotspot_marks;
 pub mod outdir;
 pub mod pictures;
 pub mod progress;

@@ -1,6 +1,7 @@
 //! Which pictures a command draws, from a solution or a design, through [`crate::render`].
 
 use crate::design_file::DesignSource;
+use crate::hotspot_marks::marked_hotspots;
 use crate::render::{
     self, axes, sample, ContourStyle, Edge, FieldLines, LengthUnit, MapInput, Marker, Material,
     Outline, Palette, Pin, PinKind, PreviewInput, RenderOptions, Scale,
@@ -151,42 +152,6 @@ pub fn axis_names(design: &Design) -> [&'static str; 2] {
 /// (unless a hot spot off the sharp corners is higher): the few nodes at sharp corners, whose
 /// values are singular, saturate instead of washing out the rest of the map.
 pub const FIELD_PERCENTILE: f64 = 0.995;
-
-/// At most this many hot spots are marked on a picture (the rest are in `hotspots.csv`).
-pub const MARKED_HOTSPOTS: usize = 5;
-
-/// A hot spot is marked on a picture when its field reaches this share of the reference: the
-/// largest hot spot off the sharp corners in the window (the largest of all when every one is
-/// at a corner), whose value does not grow with refinement as a corner's does.
-pub const MARKED_SHARE: f64 = 0.5;
-
-/// Which of `spots` (hot spots in the picture's window, in their ranking) get a marker: those
-/// whose field reaches [`MARKED_SHARE`] of the reference, and every one with a margin below 1
-/// (the field there reaches the material's strength), the first [`MARKED_HOTSPOTS`] of them in
-/// ranking order. Minor maxima far below the peak (the field along a trace's face) stay in
-/// the table only.
-pub fn marked_hotspots(spots: &[&Hotspot]) -> Vec<usize> {
-    let largest = |smooth_only: bool| {
-        spots
-            .iter()
-            .filter(|h| !(smooth_only && h.singular))
-            .map(|h| h.magnitude)
-            .filter(|m| m.is_finite())
-            .fold(None, |a: Option<f64>, m| Some(a.map_or(m, |a| a.max(m))))
-    };
-    let Some(reference) = largest(true).or_else(|| largest(false)) else {
-        return Vec::new();
-    };
-    spots
-        .iter()
-        .enumerate()
-        .filter(|(_, h)| {
-            h.magnitude >= MARKED_SHARE * reference || h.margin.is_some_and(|m| m < 1.0)
-        })
-        .map(|(k, _)| k)
-        .take(MARKED_HOTSPOTS)
-        .collect()
-}
 
 /// Samples along the longer side of the even raster that colour-scale quantiles are read from.
 const AREA_SAMPLES: usize = 512;
@@ -634,48 +599,6 @@ mod tests {
         // Read at face value: 0.9 V above 1 kV is "1000.9 V", not "1.0009 kV".
         d.conductors[0].drive = Drive::Fixed(1000.9);
         assert_eq!(named_conductors(&d, None)[0].name, "rod, 1000.9 V");
-    }
-
-    #[test]
-    fn minor_maxima_far_below_the_peak_get_no_marker() {
-        let spot = |magnitude: f64, singular: bool, margin: Option<f64>| Hotspot {
-            magnitude,
-            x: 0.0,
-            y: 0.0,
-            material: "background".into(),
-            strength: margin.map(|m| m * magnitude),
-            margin,
-            singular,
-            error_estimate: None,
-            under_resolved: false,
-        };
-        // The microstrip's list: a trace edge (singular), the field under the trace, the
-        // trace's end on its mirror plane, then maxima along the trace's faces far below.
-        let strip = [
-            spot(2.47e5, true, None),
-            spot(1623.0, false, None),
-            spot(1240.0, true, None),
-            spot(387.0, false, None),
-            spot(157.0, false, None),
-            spot(103.0, false, None),
-        ];
-        let refs: Vec<&Hotspot> = strip.iter().collect();
-        assert_eq!(marked_hotspots(&refs), vec![0, 1, 2]);
-        // Every one at a corner: measured against the largest; at most a few.
-        let corners: Vec<Hotspot> = (0..8)
-            .map(|k| spot(2e4 - 1e3 * f64::from(k), true, None))
-            .collect();
-        let refs: Vec<&Hotspot> = corners.iter().collect();
-        assert_eq!(marked_hotspots(&refs), vec![0, 1, 2, 3, 4]);
-        // A margin below 1 is marked however far below the reference its field is.
-        let tip = [
-            spot(9.9e6, false, Some(0.30)),
-            spot(3.8e6, false, Some(0.79)),
-            spot(2.2e6, false, Some(1.38)),
-        ];
-        let refs: Vec<&Hotspot> = tip.iter().collect();
-        assert_eq!(marked_hotspots(&refs), vec![0, 1]);
-        assert!(marked_hotspots(&[]).is_empty());
     }
 
     #[test]
