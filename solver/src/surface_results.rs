@@ -667,7 +667,8 @@ pub fn finish(
 /// dielectric interface meets a conductor surface (a triple junction; found where the material
 /// in front of a conductor's outline changes between neighbouring samples) and the sharp
 /// corners of dielectric outlines where the two materials differ (one side of such a corner is
-/// re-entrant).
+/// re-entrant), but not a corner on a mirror plane or the axis that the unfolded outline does
+/// not have (a layer cut square by the plane).
 pub fn singular_points(design: &Design, samples: &[SurfaceSample]) -> Vec<Point> {
     let mut out = Vec::new();
     for w in samples.windows(2) {
@@ -680,7 +681,10 @@ pub fn singular_points(design: &Design, samples: &[SurfaceSample]) -> Vec<Point>
         }
     }
     for d in &design.dielectrics {
-        for c in crate::geometry::sharp_corners(&d.shape) {
+        for c in crate::geometry::sharp_corners(&d.shape)
+            .into_iter()
+            .filter(|&c| !crate::geometry::unfolds_flat(design, &d.shape, c))
+        {
             // The corner separates materials when interface samples lie next to it: within
             // two of their own stretches (local lengths on a graded grid, where the longest
             // stretch anywhere would reach far past the corner's fine cells).

@@ -101,11 +101,14 @@ pub fn on_side(domain: &Domain) -> impl Fn(&Point) -> Option<usize> {
 /// along that side and the other leaves it at 90 degrees or more through the metal, so the
 /// unfolded outline runs straight on (or turns inwards, where the field tends to zero). A
 /// stem cut square by a mirror plane is such a vertex; a wedge meeting the plane at less
-/// than 90 degrees is not (unfolded, it is a sharp corner of twice its angle).
+/// than 90 degrees is not (unfolded, it is a sharp corner of twice its angle). A thin
+/// conductor's (polyline's) end on a mirror plane or the axis, its last segment square to
+/// that side, is no edge either: unfolded, it is the middle of a straight strip (or a disc).
 pub(crate) fn unfolds_flat(design: &Design, shape: &Shape, q: Point) -> bool {
     let ring = match shape {
         Shape::Rect { x, y, .. } => vec![[x[0], y[0]], [x[1], y[0]], [x[1], y[1]], [x[0], y[1]]],
         Shape::Polygon { outer, .. } => outer.clone(),
+        Shape::Polyline(pts) => return polyline_end_unfolds_flat(design, pts, q),
         _ => return false,
     };
     let Some(k) = ring.iter().position(|p| *p == q) else {
@@ -130,6 +133,39 @@ pub(crate) fn unfolds_flat(design: &Design, shape: &Shape, q: Point) -> bool {
             && [(prev, next), (next, prev)].iter().any(|&(a, b)| {
                 let (u, v) = ([a[0] - q[0], a[1] - q[1]], [b[0] - q[0], b[1] - q[1]]);
                 on(a) && u[0] * v[0] + u[1] * v[1] <= 1e-12 * u[0].hypot(u[1]) * v[0].hypot(v[1])
+            })
+    })
+}
+
+/// Whether `q` is an end of the polyline `pts` on a mirror plane or the axis whose segment
+/// leaves that side square to it (see [`unfolds_flat`]).
+fn polyline_end_unfolds_flat(design: &Design, pts: &[Point], q: Point) -> bool {
+    let ends = [
+        (pts.first(), pts.iter().find(|&&p| p != q)),
+        (pts.last(), pts.iter().rev().find(|&&p| p != q)),
+    ];
+    let d = &design.domain;
+    let tol = 1e-9 * (d.x[1] - d.x[0]).abs().max((d.y[1] - d.y[0]).abs());
+    let s = &design.sides;
+    // Each side: its kind, the coordinate across it and where it lies.
+    let sides = [
+        (s.left, 0, d.x[0]),
+        (s.right, 0, d.x[1]),
+        (s.bottom, 1, d.y[0]),
+        (s.top, 1, d.y[1]),
+    ];
+    ends.iter().any(|&(end, other)| {
+        let (Some(&end), Some(&b)) = (end, other) else {
+            return false;
+        };
+        end == q
+            && sides.iter().any(|&(side, axis, at)| {
+                let (across, along) =
+                    ((b[axis] - q[axis]).abs(), (b[1 - axis] - q[1 - axis]).abs());
+                // Unfolded, the strip turns by twice the segment's angle off the normal.
+                matches!(side, Side::Symmetry | Side::Axis)
+                    && (q[axis] - at).abs() <= tol
+                    && 2.0 * along.atan2(across) <= STRAIGHT
             })
     })
 }
@@ -245,6 +281,36 @@ mod tests {
         assert_eq!(on_top(stem, Side::Ground).len(), 4);
         let wedge = vec![[0.4, 0.5], [0.9, 1.0], [0.4, 1.0]];
         assert_eq!(on_top(wedge, Side::Symmetry), vec![[0.4, 0.5], [0.9, 1.0]]);
+    }
+
+    #[test]
+    fn a_thin_conductors_end_on_a_mirror_plane_is_not_an_edge() {
+        // A half strip from the left side (x = 0) to x = 0.3 at y = 0.5: on a mirror plane
+        // its end there is the middle of the whole strip; on a wall, or leaving the plane
+        // aslant (unfolded, a kink), it stays a sharp corner.
+        let half_strip = |pts: Vec<Point>, left: Side| {
+            let mut d = Design {
+                conductors: vec![Conductor {
+                    name: "trace".into(),
+                    drive: Drive::Fixed(1.0),
+                    joined: Vec::new(),
+                    shape: Shape::Polyline(pts),
+                }],
+                ..Design::default()
+            };
+            d.domain.x = [0.0, 1.0];
+            d.domain.y = [0.0, 1.0];
+            d.sides.left = left;
+            crate::post::sharp_corners(&d)
+        };
+        let square = vec![[0.0, 0.5], [0.3, 0.5]];
+        assert_eq!(half_strip(square.clone(), Side::Symmetry), vec![[0.3, 0.5]]);
+        assert_eq!(half_strip(square.clone(), Side::Axis), vec![[0.3, 0.5]]);
+        let reversed: Vec<Point> = square.iter().rev().copied().collect();
+        assert_eq!(half_strip(reversed, Side::Symmetry), vec![[0.3, 0.5]]);
+        assert_eq!(half_strip(square, Side::Ground).len(), 2);
+        let aslant = vec![[0.0, 0.5], [0.3, 0.6]];
+        assert_eq!(half_strip(aslant, Side::Symmetry).len(), 2);
     }
 
     #[test]

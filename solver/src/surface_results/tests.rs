@@ -346,6 +346,51 @@ fn dielectric_corners_count_as_singular_only_with_interface_samples_within_their
 }
 
 #[test]
+fn a_layers_corner_on_a_mirror_plane_is_not_singular() {
+    use crate::design::{Dielectric, Side};
+    use crate::surface::SurfaceSample;
+    // A layer y 0..0.6 across the domain x 0..2, its top face sampled at the left side: on a
+    // mirror plane that corner is the middle of the unfolded layer's face; on a grounded
+    // wall it stays a corner of the layer.
+    let with_left = |left: Side| {
+        let mut d = Design {
+            dielectrics: vec![Dielectric {
+                name: "laminate".into(),
+                permittivity: 3.5,
+                strength: None,
+                shape: Shape::Rect {
+                    x: [0.0, 2.0],
+                    y: [0.0, 0.6],
+                    round: 0.0,
+                },
+            }],
+            ..Design::default()
+        };
+        d.domain.x = [0.0, 2.0];
+        d.domain.y = [0.0, 2.0];
+        d.sides.left = left;
+        d
+    };
+    let samples = [SurfaceSample {
+        x: 0.005,
+        y: 0.6,
+        normal: [0.0, 1.0],
+        kind: SurfaceKind::Interface,
+        curve: 0,
+        arc: 0.005,
+        whole_loop: false,
+        length: 0.01,
+        material: 1,
+        field: [0.0, 0.0],
+        curvature: 0.0,
+    }];
+    let mirrored = super::singular_points(&with_left(Side::Symmetry), &samples);
+    assert!(!mirrored.contains(&[0.0, 0.6]), "{mirrored:?}");
+    let walled = super::singular_points(&with_left(Side::Ground), &samples);
+    assert!(walled.contains(&[0.0, 0.6]), "{walled:?}");
+}
+
+#[test]
 fn coarse_value_is_the_parabola_through_the_nearest_samples_and_wraps_on_a_loop() {
     // A quadratic in the arc is reproduced exactly between and beyond the samples.
     let f = |a: f64| 1.0 + 2.0 * a - 0.5 * a * a;
