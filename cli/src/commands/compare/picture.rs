@@ -9,7 +9,7 @@ use crate::design_file::DesignSource;
 use fieldgrid_solver::study::Solution;
 
 /// The map of |E|(NEW) - |E|(BASE) on their common grid, NEW's conductors filled and
-/// named, and every BASE conductor that NEW lacks or has in another shape outlined dotted and
+/// named (those BASE lacks marked "(NEW only)"), and every BASE conductor that NEW lacks or has in another shape outlined dotted and
 /// named "(BASE)".
 pub(super) fn change_picture(
     (base, base_src): (&Solution, &DesignSource),
@@ -44,7 +44,8 @@ pub(super) fn change_picture(
     let top = crate::render::sample::rank(&mut mags, k).unwrap_or(0.0);
     let (_, dielectrics) = crate::pictures::outlines(&src.design);
     let settled: Vec<f64> = new.conductors.iter().map(|c| c.potential).collect();
-    let conductors = crate::pictures::named_conductors(&src.design, Some(&settled));
+    let mut conductors = crate::pictures::named_conductors(&src.design, Some(&settled));
+    mark_new_only(&mut conductors, &src.design, &base_src.design);
     let tol = Outline::picture_tolerance(src.design.domain.x, src.design.domain.y);
     let former: Vec<Outline> = base_src
         .design
@@ -82,4 +83,54 @@ pub(super) fn change_picture(
         ..MapInput::new(&new.grid, &diff)
     };
     render::render_map(&input, opts)
+}
+
+/// Marks the names of NEW's conductors that BASE has no conductor of that name for, so a
+/// filled conductor is not read as present in both. `named` is
+/// [`crate::pictures::named_conductors`] of `new`: its first outlines are NEW's conductors in
+/// order, the pieces joined to them (unnamed) follow.
+fn mark_new_only(
+    named: &mut [crate::render::Outline],
+    new: &fieldgrid_solver::design::Design,
+    base: &fieldgrid_solver::design::Design,
+) {
+    for (o, c) in named.iter_mut().zip(&new.conductors) {
+        if !base.conductors.iter().any(|b| b.name == c.name) {
+            o.name.push_str(" (NEW only)");
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use fieldgrid_solver::design::{Conductor, Design, Drive, Shape};
+
+    fn design(names: &[&str]) -> Design {
+        Design {
+            conductors: names
+                .iter()
+                .enumerate()
+                .map(|(k, n)| Conductor {
+                    name: (*n).into(),
+                    drive: Drive::Fixed(0.0),
+                    joined: Vec::new(),
+                    shape: Shape::Rect {
+                        x: [k as f64, k as f64 + 0.5],
+                        y: [0.0, 0.5],
+                        round: 0.0,
+                    },
+                })
+                .collect(),
+            ..Design::default()
+        }
+    }
+
+    #[test]
+    fn a_conductor_only_the_new_design_has_is_named_new_only_in_the_change_picture() {
+        let (base, new) = (design(&["pad", "guard"]), design(&["pad", "finger"]));
+        let mut named = crate::pictures::named_conductors(&new, None);
+        super::mark_new_only(&mut named, &new, &base);
+        let names: Vec<&str> = named.iter().map(|o| o.name.as_str()).collect();
+        assert_eq!(names, ["pad, 0 V", "finger, 0 V (NEW only)"]);
+    }
 }
