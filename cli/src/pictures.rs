@@ -480,7 +480,8 @@ pub fn margin_map(src: &DesignSource, sol: &Solution, opts: &RenderOptions) -> O
     Some(render::render_map(&map, opts))
 }
 
-/// The geometry preview of `check`, with the node lines of `grid` when given.
+/// The geometry preview of `check`, with the node lines of `grid` when given. With no window
+/// in `opts` it draws the whole domain and outlines the design's `[pictures] zoom` window.
 pub fn preview(src: &DesignSource, grid: Option<&Grid>, opts: &RenderOptions) -> RgbImage {
     let design = &src.design;
     let conductors = named_conductors(design, None);
@@ -506,6 +507,10 @@ pub fn preview(src: &DesignSource, grid: Option<&Grid>, opts: &RenderOptions) ->
     input.conductors = &conductors;
     input.pins = &pins;
     input.grid_lines = grid.map(|g| [g.xs(), g.ys()]);
+    // Drawn whole unless a window is asked for; the design's window is outlined instead.
+    if opts.zoom.is_none() {
+        input.window = src.zoom.map(|z| z.map(|v| v * src.unit.scale()));
+    }
     render::render_preview(&input, opts)
 }
 

@@ -85,6 +85,11 @@ fn solve(name: &str, text: &str, extra: &[&str]) -> PathBuf {
 
 /// Share of the pixels along the segment a..b (m) that are dark.
 fn dark_share(img: &RgbImage, f: &Frame, a: [f64; 2], b: [f64; 2]) -> f64 {
+    share(img, f, a, b, dark)
+}
+
+/// Share of the pixels along the segment a..b (m) that `is` picks.
+fn share(img: &RgbImage, f: &Frame, a: [f64; 2], b: [f64; 2], is: fn(Rgb<u8>) -> bool) -> f64 {
     let (p, q) = (f.pixel(a), f.pixel(b));
     let n = (q[0] - p[0]).hypot(q[1] - p[1]).ceil() as usize;
     let hits = (0..n)
@@ -92,7 +97,7 @@ fn dark_share(img: &RgbImage, f: &Frame, a: [f64; 2], b: [f64; 2]) -> f64 {
             let t = (k as f64 + 0.5) / n as f64;
             let x = p[0] + t * (q[0] - p[0]);
             let y = p[1] + t * (q[1] - p[1]);
-            dark(*img.get_pixel(x as u32, y as u32))
+            is(*img.get_pixel(x as u32, y as u32))
         })
         .count();
     hits as f64 / n as f64
@@ -248,6 +253,73 @@ fn probes_are_marked_and_floating_conductors_dashed() {
     );
     let p = [15.0 * MM, 5.0 * MM];
     assert!(dark(offset(&img, &fp, p, [-4.5, 0.0])), "preview probe");
+}
+
+#[test]
+fn check_preview_draws_the_whole_domain_and_outlines_the_designs_zoom_window() {
+    let dir = scratch(SCRATCH, "preview-window");
+    let design = write(
+        &dir,
+        "design.toml",
+        &format!("{ROD}[pictures]\nzoom = [2, 6, 3, 7]\n"),
+    );
+    let (whole, zoomed) = (dir.join("whole"), dir.join("zoomed"));
+    expect(run(&["check", &design, "--out", s(&whole), "--quiet"]), 0);
+    let zoom = ["--zoom", "2,6,3,7"];
+    expect(
+        run(&[
+            "check",
+            &design,
+            "--out",
+            s(&zoomed),
+            "--quiet",
+            zoom[0],
+            zoom[1],
+        ]),
+        0,
+    );
+    // The command's legend (background, conductor), so the command's frame.
+    let one = [fieldgrid_cli::render::Outline::default()];
+    let frame_of = |zoom: Option<[f64; 4]>| {
+        fieldgrid_cli::render::preview_frame(
+            &fieldgrid_cli::render::PreviewInput {
+                length_unit: LengthUnit {
+                    label: "mm",
+                    metres: MM,
+                },
+                conductors: &one,
+                ..fieldgrid_cli::render::PreviewInput::new([0.0, 20.0 * MM], [0.0, 10.0 * MM])
+            },
+            &RenderOptions {
+                zoom,
+                ..RenderOptions::default()
+            },
+        )
+    };
+    let window_ink = |c: Rgb<u8>| c == fieldgrid_cli::render::WINDOW_INK;
+    let img = load(whole.join("preview.png"));
+    let f = frame_of(None);
+    assert_eq!(
+        [img.width(), img.height()],
+        f.size,
+        "the whole domain's frame"
+    );
+    // The probe at 15 mm, outside the window, is drawn: the whole domain is.
+    assert!(dark(offset(&img, &f, [15.0 * MM, 5.0 * MM], [-4.5, 0.0])));
+    // The window's sides are dashed in the window's ink, clear of the rod at x 3..5, y 4..6.
+    for (a, b) in [
+        ([2.2, 3.0], [5.8, 3.0]),
+        ([6.0, 3.2], [6.0, 6.8]),
+        ([2.0, 3.2], [2.0, 3.8]),
+    ] {
+        let on = share(&img, &f, a.map(|v| v * MM), b.map(|v| v * MM), window_ink);
+        assert!((0.3..0.9).contains(&on), "window side {a:?}..{b:?}: {on}");
+    }
+    // Asked for explicitly, the preview draws the window alone, with no outline in it.
+    let img = load(zoomed.join("preview.png"));
+    let f = frame_of(Some([2.0, 6.0, 3.0, 7.0]));
+    assert_eq!([img.width(), img.height()], f.size, "the window's frame");
+    assert!(!img.pixels().any(|&c| window_ink(c)));
 }
 
 #[test]

@@ -80,7 +80,11 @@ pub fn run(args: &CheckArgs) -> Result<u8, Failure> {
             &src,
             &report,
             args.grid_lines.then_some(grid),
-            &args.pictures.render_options(&src),
+            // The whole design (its own zoom window outlined), unless --zoom asks otherwise.
+            &crate::render::RenderOptions {
+                zoom: args.pictures.zoom,
+                ..args.pictures.render_options(&src)
+            },
         )?;
         out.commit()?;
     }

@@ -57,7 +57,7 @@ use image::Rgb;
 pub use layout::Frame;
 pub use map::{map_frame, render_map, shown_values};
 pub use outline::{Edge, Outline};
-pub use preview::{preview_frame, render_preview, LEGEND_PITCH};
+pub use preview::{preview_frame, render_preview, LEGEND_PITCH, WINDOW_INK};
 
 /// Shortest plot side, px, before the aspect ratio gives way.
 pub const MIN_PLOT: usize = 160;
@@ -261,6 +261,9 @@ pub struct PreviewInput<'a> {
     pub pins: &'a [Pin],
     /// Node lines to draw over the materials: x of the columns and y of the rows, m.
     pub grid_lines: Option<[&'a [f64]; 2]>,
+    /// A window to outline (dashed) and label: [x0, x1, y0, y1], m, the part of the domain
+    /// the result pictures draw; cut to the domain, not drawn when it covers all of it.
+    pub window: Option<[f64; 4]>,
 }
 
 impl<'a> PreviewInput<'a> {
@@ -278,6 +281,7 @@ impl<'a> PreviewInput<'a> {
             markers: &[],
             pins: &[],
             grid_lines: None,
+            window: None,
         }
     }
 }

@@ -10,7 +10,7 @@ use image::{Rgb, RgbImage};
 
 use super::canvas::{self, fill_rect, rect_outline, P};
 use super::colormap::{self, NO_VALUE};
-use super::labels::{draw_names, place_names, place_pin_labels, Owners};
+use super::labels::{boxed_label, draw_names, place_names, place_pin_labels, Owners, Taken};
 use super::layout::{draw_axes, draw_title, ellipsize, layout, Frame, Layout, Plot};
 use super::overlay::{conductor_layers, draw_markers, draw_pins, mark_boxes, outline_dielectrics};
 use super::text::{self, HAlign, Style, VAlign};
@@ -113,6 +113,58 @@ pub(super) fn legend_style() -> Style {
     Style::new(12.0, INK)
 }
 
+/// Ink of the result pictures' window on the preview: a blue no material swatch takes.
+pub const WINDOW_INK: Rgb<u8> = Rgb([20, 80, 200]);
+
+/// What the dashed window on the preview is.
+const WINDOW_LABEL: &str = "window of the result pictures";
+
+/// Outlines the window `w` ([x0, x1, y0, y1], m) cut to the domain, dashed, and labels it
+/// just above its top left corner (just below, inside, when the plot's top is too near);
+/// nothing when it covers the whole domain.
+fn draw_window(
+    img: &mut RgbImage,
+    plot: &Plot,
+    input: &PreviewInput,
+    w: [f64; 4],
+    taken: &mut Taken,
+) {
+    let cut = |a: f64, b: f64, ends: [f64; 2]| [a.min(b).max(ends[0]), a.max(b).min(ends[1])];
+    let (x, y) = (cut(w[0], w[1], input.x), cut(w[2], w[3], input.y));
+    if x[1] <= x[0] || y[1] <= y[0] || (x == input.x && y == input.y) {
+        return;
+    }
+    let corners = [[x[0], y[0]], [x[1], y[0]], [x[1], y[1]], [x[0], y[1]]].map(|p| plot.px(p));
+    let mut layer = canvas::Layer::new(img.width(), img.height());
+    layer.dashed(&corners, 2.0, true, 10.0, 6.0);
+    layer.composite(img, WINDOW_INK, 1.0, |x, y| plot.local(x, y).is_none());
+    let st = Style::new(13.0, WINDOW_INK);
+    let [left, top] = corners[3].map(|v| v as f32);
+    let above = text::bounds(
+        WINDOW_LABEL,
+        st,
+        left + 2.0,
+        top - 4.0,
+        HAlign::Left,
+        VAlign::Bottom,
+    );
+    let b = if above[1] >= plot.y0 as f32 + 2.0 {
+        above
+    } else {
+        text::bounds(
+            WINDOW_LABEL,
+            st,
+            left + 6.0,
+            top + 6.0,
+            HAlign::Left,
+            VAlign::Top,
+        )
+    };
+    let b = [b[0] - 3.0, b[1] - 1.0, b[2] + 3.0, b[3] + 1.0];
+    boxed_label(img, WINDOW_LABEL, st, b, 0.85);
+    taken.0.push(b);
+}
+
 pub(super) fn swatch_rect(plot: &Plot, k: usize) -> [i64; 4] {
     [
         plot.right() + 22,
@@ -205,6 +257,9 @@ pub(super) fn draw_preview(input: &PreviewInput, opts: &RenderOptions) -> (RgbIm
     cl.edge.composite(&mut img, INK, 1.0, off_plot);
     cl.thin.composite(&mut img, INK, 1.0, off_plot);
     let mut taken = mark_boxes(&plot, input.markers, input.pins);
+    if let Some(w) = input.window {
+        draw_window(&mut img, &plot, input, w, &mut taken);
+    }
     let owners = Owners::new(&img, &plot, input.conductors);
     let mut names = place_names(&plot, input.conductors, &outlines, &[], &owners, &mut taken);
     names.extend(place_pin_labels(
