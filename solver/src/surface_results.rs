@@ -13,10 +13,9 @@
 //! its position and value are refined by the parabola through it and its neighbours (sub-cell
 //! along the outline). Like the lattice maxima ([`crate::peaks`]), a surface maximum counts
 //! when the field falls by the persistence share of its value on both ways along the curve to
-//! a higher sample. Lattice maxima at nodes next to a sampled conductor surface are left out:
-//! their value is the surface's, read less accurately; those nodes carry the surface's nearby
-//! field in the landscape the lattice maxima are read on, so that the nodes beyond them are
-//! no maxima against the surface either (one smooth peak, one hot spot).
+//! a higher sample. Nodes next to a sampled conductor surface carry the surface's field in the
+//! landscape lattice maxima are read on (their own reading is the surface's, less accurate):
+//! one smooth peak, one hot spot.
 //!
 //! Invariants: hot spots are ranked highest field first (ties by position); every hot spot is
 //! at least the separation from a higher one; a surface hot spot's material is that of the
@@ -181,10 +180,8 @@ fn coarse_near(pts: &[(f64, f64)], period: Option<f64>, arc: f64) -> Option<(f64
     }
     let [(x0, y0), (x1, y1), (x2, y2)] = [near[0], near[1], near[2]];
     let l = |xa: f64, xb: f64, xc: f64| (arc - xb) * (arc - xc) / ((xa - xb) * (xa - xc));
-    Some((
-        d,
-        y0 * l(x0, x1, x2) + y1 * l(x1, x0, x2) + y2 * l(x2, x0, x1),
-    ))
+    let value = y0 * l(x0, x1, x2) + y1 * l(x1, x0, x2) + y2 * l(x2, x0, x1);
+    Some((d, value))
 }
 
 /// A maximum of the field along a curve of samples, refined between samples.
@@ -685,9 +682,8 @@ pub fn singular_points(design: &Design, samples: &[SurfaceSample]) -> Vec<Point>
             .into_iter()
             .filter(|&c| !crate::geometry::unfolds_flat(design, &d.shape, c))
         {
-            // The corner separates materials when interface samples lie next to it: within
-            // two of their own stretches (local lengths on a graded grid, where the longest
-            // stretch anywhere would reach far past the corner's fine cells).
+            // The corner separates materials when interface samples lie within two of their
+            // own (local, graded) stretches of it.
             let near = samples.iter().any(|s| {
                 s.kind == SurfaceKind::Interface && (s.x - c[0]).hypot(s.y - c[1]) <= 2.0 * s.length
             });
