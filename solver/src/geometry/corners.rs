@@ -249,27 +249,34 @@ mod tests {
     use super::*;
     use crate::design::{Conductor, Drive};
 
+    /// One conductor at 1 V with `shape` in the domain [0, 1] x [0, 1].
+    fn in_unit_square(name: &str, shape: Shape) -> Design {
+        let mut d = Design {
+            conductors: vec![Conductor {
+                name: name.into(),
+                drive: Drive::Fixed(1.0),
+                joined: Vec::new(),
+                shape,
+            }],
+            ..Design::default()
+        };
+        d.domain.x = [0.0, 1.0];
+        d.domain.y = [0.0, 1.0];
+        d
+    }
+
     #[test]
     fn a_corner_on_a_mirror_plane_is_sharp_only_where_the_unfolded_part_has_one() {
         // Domain [0, 1] x [0, 1] with the top a mirror plane: a stem cut square by it and a
         // wedge meeting it at 45 degrees (unfolded, a 90 degree corner).
         let on_top = |outer: Vec<Point>, top: Side| {
-            let mut d = Design {
-                conductors: vec![Conductor {
-                    name: "c".into(),
-                    drive: Drive::Fixed(1.0),
-                    joined: Vec::new(),
-                    shape: Shape::Polygon {
-                        outer,
-                        holes: vec![],
-                        round: 0.0,
-                        corners: None,
-                    },
-                }],
-                ..Design::default()
+            let shape = Shape::Polygon {
+                outer,
+                holes: vec![],
+                round: 0.0,
+                corners: None,
             };
-            d.domain.x = [0.0, 1.0];
-            d.domain.y = [0.0, 1.0];
+            let mut d = in_unit_square("c", shape);
             d.sides.top = top;
             crate::post::sharp_corners(&d)
         };
@@ -289,17 +296,7 @@ mod tests {
         // its end there is the middle of the whole strip; on a wall, or leaving the plane
         // aslant (unfolded, a kink), it stays a sharp corner.
         let half_strip = |pts: Vec<Point>, left: Side| {
-            let mut d = Design {
-                conductors: vec![Conductor {
-                    name: "trace".into(),
-                    drive: Drive::Fixed(1.0),
-                    joined: Vec::new(),
-                    shape: Shape::Polyline(pts),
-                }],
-                ..Design::default()
-            };
-            d.domain.x = [0.0, 1.0];
-            d.domain.y = [0.0, 1.0];
+            let mut d = in_unit_square("trace", Shape::Polyline(pts));
             d.sides.left = left;
             crate::post::sharp_corners(&d)
         };
