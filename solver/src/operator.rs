@@ -236,8 +236,18 @@ impl Faces {
 
 /// Assembles the operator of `design` rasterised as `raster`.
 pub fn assemble(design: &Design, raster: &Raster) -> Result<Operator, OperatorError> {
+    assemble_by(design, raster, rows::Interior::Whole)
+}
+
+/// [`assemble`], with the interior nodes' couplings gathered as `interior` says (the
+/// operator is the same either way, bit for bit).
+fn assemble_by(
+    design: &Design,
+    raster: &Raster,
+    interior: rows::Interior,
+) -> Result<Operator, OperatorError> {
     let mut a = Assembly::new(design, raster);
-    a.couple_edges();
+    a.couple_edges(interior);
     a.fix_rows();
     if a.sides.contains(&Side::Open) {
         a.couple_open_sides();
@@ -259,6 +269,8 @@ struct Assembly<'a> {
     sides: [Side; 4],
     side_potential: [Option<f64>; 4],
     faces: Faces,
+    /// Relative permittivity of each material index of the raster.
+    eps: Vec<f64>,
     /// True for a node whose potential is solved for.
     unknown: Vec<bool>,
     diag: Vec<f64>,
@@ -292,6 +304,9 @@ impl<'a> Assembly<'a> {
                 grid: grid.clone(),
                 axisymmetric,
             },
+            eps: (0..=design.dielectrics.len())
+                .map(|m| material::of(design, m as u16).permittivity)
+                .collect(),
             unknown: vec![false; n],
             diag: vec![0.0; n],
             east: vec![0.0; n],

@@ -5,10 +5,15 @@
 //! in which a sweep of the edges in node order (x-edge before y-edge) reaches them, and the
 //! couplings between fixed targets are put back in that sweep's order. So the operator is
 //! bit-identical whatever the thread count, and equal to the one that sweep assembles.
+//!
+//! Most nodes are interior: an unknown whose four edges are uncut and whose four neighbours
+//! are unknowns. Their edge ends are whole free stretches (fraction 1, the lower node's
+//! permittivity), so they are weighed directly, with the same operations in the same order as
+//! [`Assembly::couple_end`] would (`x / (1.0 * d) == x / d` exactly), from widths taken
+//! once per column and row on planar lattices.
 
 use super::{geometric_weight, Assembly, THETA_MIN};
 use crate::links::{Dir, DirectCoupling, Link};
-use crate::material;
 use crate::raster::{Axis, CutEdge, HalfLink, NO_CONDUCTOR};
 use rayon::prelude::*;
 
@@ -45,6 +50,25 @@ impl<'r> Records<'r> {
     }
 }
 
+/// How [`Assembly::couple_edges`] treats interior nodes; the operator is the same either
+/// way, bit for bit.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub(super) enum Interior {
+    /// Weighed directly from the lattice's widths (the assembly's way).
+    Whole,
+    /// Edge end by edge end, like every other node (the reference the first must equal).
+    #[cfg_attr(not(test), allow(dead_code))]
+    ByEnds,
+}
+
+/// Planar widths the interior nodes' weights are made of, per column.
+struct Widths {
+    /// Cell widths `dx(i)`, m.
+    dx: Vec<f64>,
+    /// Control-volume widths along x of each column, m (`hi - lo` of `dual_x`).
+    span: Vec<f64>,
+}
+
 /// What one row of nodes adds besides its diagonal, east and north weights.
 #[derive(Default)]
 struct RowCouplings {
@@ -57,8 +81,18 @@ impl<'a> Assembly<'a> {
     /// its own nodes (in the order south, west, east, north, the order a sweep of the edges in
     /// node order adds them to a diagonal), and the couplings between fixed targets are put
     /// back in that sweep's order, so the operator is bit-identical whatever the thread count.
-    pub(super) fn couple_edges(&mut self) {
+    pub(super) fn couple_edges(&mut self, interior: Interior) {
         let nx = self.grid.nx;
+        let g = &self.grid;
+        let widths = (interior == Interior::Whole).then(|| Widths {
+            dx: (0..nx.saturating_sub(1)).map(|i| g.dx(i)).collect(),
+            span: (0..nx)
+                .map(|i| {
+                    let (lo, hi) = g.dual_x(i);
+                    hi - lo
+                })
+                .collect(),
+        });
         let mut diag = std::mem::take(&mut self.diag);
         let mut east = std::mem::take(&mut self.east);
         let mut north = std::mem::take(&mut self.north);
@@ -68,7 +102,7 @@ impl<'a> Assembly<'a> {
             .zip(east.par_chunks_mut(nx))
             .zip(north.par_chunks_mut(nx))
             .enumerate()
-            .map(|(j, ((d, e), n))| this.couple_row(j, d, e, n))
+            .map(|(j, ((d, e), n))| this.couple_row(j, widths.as_ref(), d, e, n))
             .collect();
         (self.diag, self.east, self.north) = (diag, east, north);
         let mut direct = Vec::new();
@@ -102,7 +136,7 @@ impl<'a> Assembly<'a> {
             None if raster.conductor[a] == NO_CONDUCTOR && raster.conductor[b] == NO_CONDUCTOR => {
                 let h = HalfLink {
                     theta: 1.0,
-                    eps: material::of(self.design, raster.material[a]).permittivity,
+                    eps: self.eps[raster.material[a] as usize],
                     ends_on: None,
                 };
                 (Some(h), Some(h), None)
@@ -112,10 +146,12 @@ impl<'a> Assembly<'a> {
     }
 
     /// The couplings of row `j`'s nodes: their diagonal, east and north weights written into
-    /// the row's slices, their links and the direct couplings they give.
+    /// the row's slices, their links and the direct couplings they give. With `widths`,
+    /// interior nodes are weighed directly.
     fn couple_row(
         &self,
         j: usize,
+        widths: Option<&Widths>,
         diag: &mut [f64],
         east: &mut [f64],
         north: &mut [f64],
@@ -127,11 +163,67 @@ impl<'a> Assembly<'a> {
             _ => self.cut_records(j - 1),
         };
         let mut out = RowCouplings::default();
-        // The upper end's half-link of the x-edge ending at the current node.
+        // The upper end's half-link of the x-edge ending at the current node, and whether
+        // that edge has a cut record.
         let mut west: Option<HalfLink> = None;
+        let mut west_cut = false;
+        let inner_row = widths.is_some() && j > 0 && j + 1 < ny;
+        // Planar: the row's control-volume height and the heights of the cells below and
+        // above it.
+        let (len_y, dy_lo, dy_hi) = match inner_row {
+            true => (
+                self.grid.dual_len_y(j),
+                self.grid.dy(j - 1),
+                self.grid.dy(j),
+            ),
+            false => (0.0, 0.0, 0.0),
+        };
+        let planar = !self.faces.axisymmetric;
         for i in 0..nx {
             let p = self.grid.idx(i, j);
             let at = (p, i, j);
+            if inner_row && i > 0 && i + 1 < nx && !west_cut {
+                let u = &self.unknown;
+                if u[p]
+                    && u[p - 1]
+                    && u[p + 1]
+                    && u[p - nx]
+                    && u[p + nx]
+                    && below.find(p - nx, Axis::Y).is_none()
+                    && here.find(p, Axis::X).is_none()
+                    && here.find(p, Axis::Y).is_none()
+                {
+                    let m = &self.raster.material;
+                    let (eps_s, eps_w) =
+                        (self.eps[m[p - nx] as usize], self.eps[m[p - 1] as usize]);
+                    let eps_p = self.eps[m[p] as usize];
+                    let [s, w, e, n] = match widths {
+                        Some(wd) if planar => [
+                            eps_s * (wd.span[i] / dy_lo),
+                            eps_w * (len_y / wd.dx[i - 1]),
+                            eps_p * (len_y / wd.dx[i]),
+                            eps_p * (wd.span[i] / dy_hi),
+                        ],
+                        _ => [
+                            eps_s * self.faces.wy(i, j, 1.0, -1.0),
+                            eps_w * self.faces.wx(i, j, 1.0, -1.0),
+                            eps_p * self.faces.wx(i, j, 1.0, 1.0),
+                            eps_p * self.faces.wy(i, j, 1.0, 1.0),
+                        ],
+                    };
+                    diag[i] += s;
+                    diag[i] += w;
+                    diag[i] += e;
+                    diag[i] += n;
+                    (east[i], north[i]) = (e, n);
+                    west = Some(HalfLink {
+                        theta: 1.0,
+                        eps: eps_p,
+                        ends_on: None,
+                    });
+                    continue;
+                }
+            }
             if j > 0 {
                 let a = p - nx;
                 if let (_, Some(h), _) = self.halves(a, p, below.find(a, Axis::Y)) {
@@ -158,9 +250,10 @@ impl<'a> Assembly<'a> {
                 (Axis::Y, (j + 1 < ny).then_some(p + nx), &mut north[i]),
             ] {
                 let Some(b) = b else { continue };
-                let (from_a, from_b, direct_link) = self.halves(p, b, here.find(p, axis));
+                let record = here.find(p, axis);
+                let (from_a, from_b, direct_link) = self.halves(p, b, record);
                 if axis == Axis::X {
-                    west = from_b;
+                    (west, west_cut) = (from_b, record.is_some());
                 }
                 if let Some(d) = direct_link {
                     let w = d.eps

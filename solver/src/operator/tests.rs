@@ -470,3 +470,95 @@ fn assembly_by_rows_is_bit_identical_for_any_thread_count() {
         assert_eq!(format!("{:?}", run(threads)), text, "{threads} threads");
     }
 }
+
+/// A seeded design in the unit square: three conductors (disc, rectangle or triangle, one in
+/// each third of the width, so they never overlap), a dielectric layer and an oblique
+/// dielectric triangle, sides drawn from every kind.
+fn random_design(seed: u64, mode: Mode) -> Design {
+    let mut u = crate::seeded::uniform(seed);
+    let mut shape = |x0: f64| {
+        let (cx, cy, r) = (x0 + 0.1 + 0.08 * u(), 0.2 + 0.6 * u(), 0.03 + 0.06 * u());
+        match (3.0 * u()) as usize {
+            0 => Shape::Circle {
+                center: [cx, cy],
+                radius: r,
+            },
+            1 => rect([cx - r, cx + r], [cy - 0.5 * r, cy + r]),
+            _ => Shape::Polygon {
+                outer: vec![[cx - r, cy - r], [cx + r, cy - 0.3 * r], [cx, cy + r]],
+                holes: Vec::new(),
+                round: 0.0,
+                corners: None,
+            },
+        }
+    };
+    let conductors = vec![
+        conductor("a", 1.0, shape(0.0)),
+        conductor("b", -0.5, shape(1.0 / 3.0)),
+        conductor("c", 0.0, shape(2.0 / 3.0)),
+    ];
+    let kinds = [Side::Ground, Side::Symmetry, Side::Open, Side::Fixed(0.25)];
+    let mut side = || kinds[(4.0 * u()) as usize];
+    let sides = Sides {
+        left: match mode {
+            Mode::Axisymmetric => Side::Axis,
+            Mode::Planar => side(),
+        },
+        right: side(),
+        bottom: Side::Ground,
+        top: side(),
+    };
+    let layer = 0.1 + 0.3 * u();
+    Design {
+        mode,
+        sides,
+        conductors,
+        dielectrics: vec![
+            dielectric(2.0 + 8.0 * u(), rect([0.0, 1.0], [0.0, layer])),
+            dielectric(
+                1.5 + 3.0 * u(),
+                Shape::Polygon {
+                    outer: vec![[0.02, 0.5], [0.98, 0.3 + 0.4 * u()], [0.5, 0.97]],
+                    holes: Vec::new(),
+                    round: 0.0,
+                    corners: None,
+                },
+            ),
+        ],
+        ..Design::default()
+    }
+}
+
+#[test]
+fn interior_nodes_weighed_directly_give_the_operator_of_every_edge_end() {
+    let mut rng = Rng(0x2c1b_3c6d_5a4f_0e13);
+    for seed in 0..12u64 {
+        let mode = [Mode::Planar, Mode::Axisymmetric][seed as usize % 2];
+        let d = random_design(seed, mode);
+        crate::design::validate(&d).expect("a valid design");
+        let grid = match seed % 3 {
+            0 => {
+                let lines = |n: usize| (0..=n).map(|k| k as f64 / n as f64).collect();
+                Grid::from_lines(lines(97), lines(83))
+            }
+            _ => Grid::from_lines(
+                random_lines(&mut rng, 0.0, 1.0, 89),
+                random_lines(&mut rng, 0.0, 1.0, 71),
+            ),
+        }
+        .unwrap();
+        let raster = rasterize(&d, &grid);
+        let whole = assemble_by(&d, &raster, rows::Interior::Whole).unwrap();
+        let by_ends = assemble_by(&d, &raster, rows::Interior::ByEnds).unwrap();
+        // Debug prints every f64 so that it reads back to the same bits.
+        assert_eq!(
+            format!("{whole:?}"),
+            format!("{by_ends:?}"),
+            "seed {seed} {mode:?}"
+        );
+        assert!(
+            whole.links.len() > 50
+                && whole.stencil.cross.is_empty() == (mode == Mode::Axisymmetric)
+        );
+    }
+}
