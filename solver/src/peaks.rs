@@ -20,8 +20,9 @@
 //! the two. The union-find sweep then runs over the maxima alone, joined along those basin
 //! borders in sweep order (the zero-dimensional persistence of a graph; the reduction to the
 //! maxima and the saddles between their basins is common practice). The pointers and the
-//! borders are found row by row on every thread, each from its own rows' values; the sort
-//! and the sweep cover only the maxima and the border pairs.
+//! borders are found row by row on every thread, each from its own rows' values, and the
+//! basins by chunks of nodes on every thread (a node's basin depends on the pointers alone);
+//! the sort and the sweep cover only the maxima and the border pairs.
 //!
 //! Invariants: nodes are 8-connected; values that are not finite or not positive (conductor
 //! interiors, fixed nodes) are not part of the lattice; ties in value are broken by node index,
@@ -30,6 +31,7 @@
 
 use rayon::prelude::*;
 use std::cmp::Ordering;
+use std::sync::atomic::{AtomicU32, Ordering::Relaxed};
 
 /// One peak: node index (i + j*nx) and its relative persistence in (0, 1].
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -106,27 +108,41 @@ fn basins(values: &[f64], up: &[u32]) -> (Vec<u32>, Vec<u32>) {
     })
     .concat();
     maxima.par_sort_unstable_by(|&a, &b| order(values, a, b));
-    let mut basin = vec![NONE; values.len()];
+    let basin: Vec<AtomicU32> = (0..values.len())
+        .into_par_iter()
+        .map(|_| AtomicU32::new(NONE))
+        .collect();
     for (r, &m) in maxima.iter().enumerate() {
-        basin[m as usize] = r as u32;
+        basin[m as usize].store(r as u32, Relaxed);
     }
     // Each way up is followed to the first node with a basin, which the whole way then takes.
-    let mut way: Vec<u32> = Vec::new();
-    for p in 0..values.len() {
-        if up[p] == NONE || basin[p] != NONE {
-            continue;
+    // The chunks run at once and may store the same node's basin twice, but a node's basin
+    // is that of its maximum, fixed by the ways up alone: every store writes the same value.
+    crate::parallel::chunks(values.len(), |range| {
+        let mut way: Vec<u32> = Vec::new();
+        for p in range {
+            if up[p] == NONE || basin[p].load(Relaxed) != NONE {
+                continue;
+            }
+            let mut q = p as u32;
+            let b = loop {
+                match basin[q as usize].load(Relaxed) {
+                    NONE => {
+                        way.push(q);
+                        q = up[q as usize];
+                    }
+                    b => break b,
+                }
+            };
+            for w in way.drain(..) {
+                basin[w as usize].store(b, Relaxed);
+            }
         }
-        let mut q = p as u32;
-        while basin[q as usize] == NONE {
-            way.push(q);
-            q = up[q as usize];
-        }
-        let b = basin[q as usize];
-        for w in way.drain(..) {
-            basin[w as usize] = b;
-        }
-    }
-    (maxima, basin)
+    });
+    (
+        maxima,
+        basin.into_iter().map(AtomicU32::into_inner).collect(),
+    )
 }
 
 /// A pair of neighbours in different basins: the later of the two in sweep order (where the
@@ -423,6 +439,48 @@ mod tests {
         }
         let v = rough(3, 2, 8);
         assert_eq!(peaks(&v, 3, 2), full_sort_peaks(&v, 3, 2));
+    }
+
+    /// The basins by one pass in node order (the first form), the reference of [`basins`].
+    fn basins_in_sequence(values: &[f64], up: &[u32]) -> Vec<u32> {
+        let (maxima, _) = basins(values, up);
+        let mut basin = vec![NONE; values.len()];
+        for (r, &m) in maxima.iter().enumerate() {
+            basin[m as usize] = r as u32;
+        }
+        for p in 0..values.len() {
+            let mut way = Vec::new();
+            let mut q = p as u32;
+            while up[p] != NONE && basin[q as usize] == NONE {
+                way.push(q);
+                q = up[q as usize];
+            }
+            for w in way {
+                basin[w as usize] = basin[q as usize];
+            }
+        }
+        basin
+    }
+
+    #[test]
+    fn basins_found_by_chunks_at_once_are_those_of_one_pass() {
+        for (seed, (nx, ny)) in [(11, (700, 300)), (12, (130, 900))] {
+            let v = rough(nx, ny, seed);
+            let up = ways_up(&v, nx, ny);
+            let want = basins_in_sequence(&v, &up);
+            assert!(want.iter().filter(|&&b| b != NONE).count() > nx * ny / 2);
+            for threads in [1, 2, 3] {
+                let pool = rayon::ThreadPoolBuilder::new()
+                    .num_threads(threads)
+                    .build()
+                    .unwrap();
+                assert_eq!(
+                    pool.install(|| basins(&v, &up)).1,
+                    want,
+                    "{threads} threads"
+                );
+            }
+        }
     }
 
     #[test]
