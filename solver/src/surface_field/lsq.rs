@@ -6,13 +6,18 @@
 //! column, written in place, and each reflection reads the rows twice: once for the
 //! reflector's length and the projections of every column on it together, once to apply it
 //! while summing the next column's norm; the number of columns is a constant of the code
-//! there (2 to 18), so that the running sums stay in registers. Each of these sums still runs over the rows in
-//! order from the same start as `Iterator::sum`, so the solution is, bit for bit, that of the
-//! plain form with one pass per sum (the reference the tests compare with).
+//! there (2 to 18), so that the running sums stay in registers. Each of these sums still runs
+//! over the rows in order from the same start as `Iterator::sum`, so the solution is, bit for
+//! bit, that of the plain form with one pass per sum (the reference the tests compare with).
+//! Each thread keeps its last fit's buffer for the next, so rows do not reallocate as they
+//! grow; where the processor has them the reflections run on 256-bit registers, the same
+//! multiplications and additions in the same order (no fused multiply-add), so the same bits.
 //!
 //! Invariants: `None` when there are fewer rows than columns, when every coefficient is zero,
 //! or when a column's remaining norm falls to 1e-11 of the largest coefficient (rank
 //! deficient); otherwise every returned value is finite.
+
+use std::cell::Cell;
 
 /// Calls `$f::<N>` for the columns' count `N` from `$k` on (2 to 18: every fit's, the
 /// right-hand side included, an interface fit of degree 3 having 17 coefficients), or its
@@ -42,6 +47,11 @@ macro_rules! dispatch {
     };
 }
 
+thread_local! {
+    /// The buffer of this thread's last fit, kept for its next.
+    static SPARE: Cell<Vec<f64>> = const { Cell::new(Vec::new()) };
+}
+
 /// A least-squares problem being assembled.
 pub(super) struct Lsq {
     cols: usize,
@@ -50,12 +60,19 @@ pub(super) struct Lsq {
     a: Vec<f64>,
 }
 
+impl Drop for Lsq {
+    fn drop(&mut self) {
+        let mut a = std::mem::take(&mut self.a);
+        a.clear();
+        SPARE.set(a);
+    }
+}
+
 impl Lsq {
     pub(super) fn new(cols: usize) -> Lsq {
-        Lsq {
-            cols,
-            a: Vec::new(),
-        }
+        let mut a = SPARE.take();
+        a.clear();
+        Lsq { cols, a }
     }
 
     /// Appends a row: `cols` coefficients and the value, each times `weight`.
@@ -79,74 +96,96 @@ impl Lsq {
     }
 
     /// The coefficients minimising the weighted residual; `None` when rank-deficient.
-    pub(super) fn solve(self) -> Option<Vec<f64>> {
-        let (n, mut a) = (self.cols, self.a);
-        let w = n + 1;
-        let m = a.len() / w;
-        if m < n {
-            return None;
+    pub(super) fn solve(mut self) -> Option<Vec<f64>> {
+        let n = self.cols;
+        #[cfg(target_arch = "x86_64")]
+        if std::arch::is_x86_feature_detected!("avx2") {
+            // SAFETY: the processor has the instructions `solve_avx2` is compiled for.
+            return unsafe { solve_avx2(n, &mut self.a) };
         }
-        // The largest |coefficient|: per column, then over the columns (a maximum does not
-        // depend on the order it is taken in).
-        let mut top = vec![0.0f64; n];
-        for row in a.chunks_exact(w) {
-            for (t, c) in top.iter_mut().zip(row) {
-                *t = t.max(c.abs());
-            }
-        }
-        let scale = top.iter().fold(0.0f64, |s, &t| s.max(t));
-        if scale == 0.0 {
-            return None;
-        }
-        // The value `Iterator::sum` starts from, so that the sums below are its sums.
-        let zero = std::iter::empty::<f64>().sum::<f64>();
-        let column_norm2 = |a: &[f64], k: usize| {
-            a[k * w..]
-                .chunks_exact(w)
-                .fold(zero, |acc, row| acc + row[k] * row[k])
-        };
-        let mut s = vec![0.0; w];
-        // Squared norm of column k from row k down.
-        let mut norm2 = column_norm2(&a, 0);
-        for k in 0..n {
-            let norm = norm2.sqrt();
-            if norm <= 1e-11 * scale {
-                return None;
-            }
-            let x0 = a[k * w + k];
-            let alpha = if x0 > 0.0 { -norm } else { norm };
-            // The reflector is column k from row k down with its first entry v0.
-            let v0 = x0 - alpha;
-            let s = &mut s[k..];
-            let vv = dispatch!(w - k, project(&a[k * w..], w, k, v0, zero, s));
-            if vv == 0.0 {
-                if k + 1 < n {
-                    norm2 = column_norm2(&a, k + 1);
-                }
-                continue;
-            }
-            for acc in s.iter_mut() {
-                *acc = *acc * 2.0 / vv;
-            }
-            let (first, rest) = a[k * w..].split_at_mut(w);
-            for (x, sc) in first[k..].iter_mut().zip(s.iter()) {
-                *x -= sc * v0;
-            }
-            norm2 = dispatch!(w - k, reflect(rest, w, k, s, k + 1 < n, zero));
-        }
-        let mut x = vec![0.0; n];
-        for k in (0..n).rev() {
-            let s: f64 = (k + 1..n).map(|c| a[k * w + c] * x[c]).sum();
-            x[k] = (a[k * w + n] - s) / a[k * w + k];
-        }
-        x.iter().all(|v| v.is_finite()).then_some(x)
+        solve_rows(n, &mut self.a)
     }
+}
+
+/// [`solve_rows`] on 256-bit registers: the same operations in the same order.
+///
+/// # Safety
+/// The processor must support AVX2.
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx2")]
+unsafe fn solve_avx2(n: usize, a: &mut [f64]) -> Option<Vec<f64>> {
+    solve_rows(n, a)
+}
+
+/// Solves the rows `a` (row-major, `n + 1` wide, the value last) in place; see [`Lsq::solve`].
+#[inline(always)]
+fn solve_rows(n: usize, a: &mut [f64]) -> Option<Vec<f64>> {
+    let w = n + 1;
+    let m = a.len() / w;
+    if m < n {
+        return None;
+    }
+    // The largest |coefficient|: per column, then over the columns (a maximum does not
+    // depend on the order it is taken in).
+    let mut top = vec![0.0f64; n];
+    for row in a.chunks_exact(w) {
+        for (t, c) in top.iter_mut().zip(row) {
+            *t = t.max(c.abs());
+        }
+    }
+    let scale = top.iter().fold(0.0f64, |s, &t| s.max(t));
+    if scale == 0.0 {
+        return None;
+    }
+    // The value `Iterator::sum` starts from, so that the sums below are its sums.
+    let zero = std::iter::empty::<f64>().sum::<f64>();
+    let column_norm2 = |a: &[f64], k: usize| {
+        a[k * w..]
+            .chunks_exact(w)
+            .fold(zero, |acc, row| acc + row[k] * row[k])
+    };
+    let mut s = vec![0.0; w];
+    // Squared norm of column k from row k down.
+    let mut norm2 = column_norm2(a, 0);
+    for k in 0..n {
+        let norm = norm2.sqrt();
+        if norm <= 1e-11 * scale {
+            return None;
+        }
+        let x0 = a[k * w + k];
+        let alpha = if x0 > 0.0 { -norm } else { norm };
+        // The reflector is column k from row k down with its first entry v0.
+        let v0 = x0 - alpha;
+        let s = &mut s[k..];
+        let vv = dispatch!(w - k, project(&a[k * w..], w, k, v0, zero, s));
+        if vv == 0.0 {
+            if k + 1 < n {
+                norm2 = column_norm2(a, k + 1);
+            }
+            continue;
+        }
+        for acc in s.iter_mut() {
+            *acc = *acc * 2.0 / vv;
+        }
+        let (first, rest) = a[k * w..].split_at_mut(w);
+        for (x, sc) in first[k..].iter_mut().zip(s.iter()) {
+            *x -= sc * v0;
+        }
+        norm2 = dispatch!(w - k, reflect(rest, w, k, s, k + 1 < n, zero));
+    }
+    let mut x = vec![0.0; n];
+    for k in (0..n).rev() {
+        let s: f64 = (k + 1..n).map(|c| a[k * w + c] * x[c]).sum();
+        x[k] = (a[k * w + n] - s) / a[k * w + k];
+    }
+    x.iter().all(|v| v.is_finite()).then_some(x)
 }
 
 /// The reflector's squared length and, into `s`, the projections of columns `k..` of `rows`
 /// (row-major, `w` wide, the reflector's first row first) on it; the reflector is column
 /// `k` with its first entry replaced by `v0`. Every sum runs over the rows in order from
 /// `zero`. `N` is the number of columns from `k` on, or 0 for any.
+#[inline(always)]
 fn project<const N: usize>(
     rows: &[f64],
     w: usize,
@@ -189,6 +228,7 @@ fn project<const N: usize>(
 /// below the reflector's first, whose column `k` entry is the reflector there), and returns
 /// the squared norm of the reflected column `k + 1` over these rows when `next` (else
 /// `zero`), summed in order from `zero`. `N` as for [`project`].
+#[inline(always)]
 fn reflect<const N: usize>(
     rows: &mut [f64],
     w: usize,
@@ -296,7 +336,7 @@ mod tests {
     }
 
     #[test]
-    fn the_fused_reflections_give_the_plain_forms_bits_on_seeded_random_fits() {
+    fn the_fused_reflections_give_the_plain_forms_bits_on_seeded_random_fits_on_either_registers() {
         let mut state = 12345u64;
         let mut solved = 0;
         for case in 0..400 {
@@ -330,12 +370,16 @@ mod tests {
                 }
             }
             let want = reference(&rows, &rhs, n);
+            // The plain registers' path as well as the one `solve` takes on this processor.
+            let mut plain = lsq.a.clone();
             let got = lsq.solve();
             let bits = |x: &Option<Vec<f64>>| {
                 x.as_ref()
                     .map(|v| v.iter().map(|f| f.to_bits()).collect::<Vec<_>>())
             };
             assert_eq!(bits(&got), bits(&want), "case {case}: {n} x {m}");
+            let plain = solve_rows(n, &mut plain);
+            assert_eq!(bits(&plain), bits(&want), "case {case}: {n} x {m}, plain");
             solved += usize::from(got.is_some());
         }
         // Both kinds of outcome are exercised.
