@@ -10,6 +10,7 @@
 use crate::args::SolveOptions;
 use crate::design_file::DesignSource;
 use crate::error::Failure;
+use crate::wording;
 use fieldgrid_solver::accuracy::{self, Info, Stop};
 use fieldgrid_solver::design::Lattice;
 use serde_json::{json, Value};
@@ -82,7 +83,7 @@ pub fn summary(info: &Info) -> Value {
         .iter()
         .map(|e| {
             json!({
-                "quantity": e.quantity.to_string(),
+                "quantity": wording::quantity(&e.quantity),
                 "value": e.value,
                 "error_estimate": finite(e.error()),
                 "relative": finite(e.relative()),
@@ -110,7 +111,7 @@ pub fn summary(info: &Info) -> Value {
     });
     if let Some(s) = info.shortest() {
         v["short"] = json!({
-            "quantity": s.quantity.to_string(),
+            "quantity": wording::quantity(&s.quantity),
             "relative": finite(s.relative()),
             "times_target": finite(s.relative() / info.target),
         });
@@ -176,7 +177,7 @@ pub fn report(info: &Info) -> String {
         let _ = writeln!(
             s,
             "  largest estimated error: {} {:.1e} (relative; discretisation {:.1e}, solver {:.1e}, far field {:.1e})",
-            w.quantity,
+            wording::quantity(&w.quantity),
             w.relative(),
             w.discretisation / w.value.abs(),
             w.solver / w.value.abs(),
@@ -187,7 +188,7 @@ pub fn report(info: &Info) -> String {
         .estimates
         .iter()
         .filter(|e| !e.held && !e.singular)
-        .map(|e| format!("{} {:.1e}", e.quantity, e.relative()))
+        .map(|e| format!("{} {:.1e}", wording::quantity(&e.quantity), e.relative()))
         .collect();
     if !free.is_empty() {
         let _ = writeln!(

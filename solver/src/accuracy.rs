@@ -49,13 +49,19 @@ use crate::study::{self, Solution, StudyError, StudyParams};
 use crate::warning::{AccuracyLimit, Warning};
 pub use quantities::{Estimate, NotHeld, Quantities, Quantity};
 
+/// The memory a round may take by default, MiB: 4 GiB, what the command line allows a solve
+/// when it cannot read how much memory is available (otherwise it allows half of that, and
+/// sets the limit itself). A library user on a larger or smaller machine sets their own with
+/// [`Params::with_max_memory_mib`].
+pub const DEFAULT_MAX_MEMORY_MIB: f64 = 4096.0;
+
 /// The accuracy asked for and the limits of the search. Start from `Params::default()`.
 #[derive(Clone, Debug, PartialEq)]
 #[non_exhaustive]
 pub struct Params {
     /// Relative error every quantity must be known to, in (0, 1).
     pub target: f64,
-    /// Largest estimated memory of a round, MiB.
+    /// Largest estimated memory of a round, MiB ([`DEFAULT_MAX_MEMORY_MIB`] by default).
     pub max_memory_mib: f64,
     /// Most bisections of the base lattice (each multiplies the nodes by about 4).
     pub max_bisections: usize,
@@ -69,7 +75,7 @@ impl Default for Params {
     fn default() -> Self {
         Params {
             target: 1e-3,
-            max_memory_mib: f64::INFINITY,
+            max_memory_mib: DEFAULT_MAX_MEMORY_MIB,
             max_bisections: 9,
             quantities: Quantities::default(),
             grading: grading::Params::default(),
@@ -184,7 +190,7 @@ impl Info {
         };
         let short = self.shortest()?;
         Some(Warning::AccuracyNotMet {
-            quantity: short.quantity.to_string(),
+            quantity: short.quantity.clone(),
             relative: short.relative(),
             target: self.target,
             limit,
@@ -219,12 +225,13 @@ impl Info {
     }
 }
 
-/// A loop that could not run.
+/// A loop that could not run. `Display` renders the code and the data, for logs; the command
+/// line words it for users.
 #[derive(Debug, thiserror::Error)]
 #[non_exhaustive]
 pub enum AccuracyError {
-    /// The target is not a number in (0, 1).
-    #[error("the accuracy target must lie between 0 and 1, got {0}")]
+    /// The target is not a number in (0, 1) (the value given).
+    #[error("{TARGET_CODE}: Target({0:?})")]
     Target(f64),
     /// A study failed.
     #[error(transparent)]
@@ -232,6 +239,22 @@ pub enum AccuracyError {
     /// A line study failed.
     #[error(transparent)]
     Line(#[from] LineStudyError),
+}
+
+/// The code of [`AccuracyError::Target`].
+const TARGET_CODE: &str = "accuracy-target";
+
+impl AccuracyError {
+    /// The stable code of this error (lower case words joined by `-`, never renamed or
+    /// reused): the loop's own refusal of its target, or which kind of study failed (whose
+    /// error carries the details and its own code).
+    pub fn code(&self) -> &'static str {
+        match self {
+            AccuracyError::Target(_) => TARGET_CODE,
+            AccuracyError::Study(_) => "study",
+            AccuracyError::Line(_) => "line-study",
+        }
+    }
 }
 
 impl From<GridError> for AccuracyError {

@@ -8,6 +8,7 @@
 //! Invariant: the library builds no sentences here; `Display` is a plain rendering of the
 //! code and the data for logs, and the command line words each warning for its users.
 
+use crate::accuracy::Quantity;
 use crate::forces::NoBand;
 use crate::solvers::StopReason;
 use std::fmt;
@@ -80,8 +81,8 @@ pub enum Warning {
     },
     /// An accuracy was asked for and a limit stopped the refinement first.
     AccuracyNotMet {
-        /// The quantity farthest beyond the target, by its short name.
-        quantity: String,
+        /// The quantity farthest beyond the target.
+        quantity: Quantity,
         /// Its estimated relative error.
         relative: f64,
         /// The relative target.
@@ -218,7 +219,10 @@ mod tests {
             },
             Warning::AsymmetricPair,
             Warning::AccuracyNotMet {
-                quantity: "C[a,b]".into(),
+                quantity: Quantity::Capacitance {
+                    row: "a".into(),
+                    column: "b".into(),
+                },
                 relative: 2e-3,
                 target: 1e-3,
                 limit: AccuracyLimit::Refinements,

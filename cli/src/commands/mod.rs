@@ -173,7 +173,7 @@ pub fn default_memory_limit_mib() -> f64 {
                 .and_then(|l| l.split_whitespace().nth(1)?.parse::<f64>().ok())
         })
         .map(|kib| kib / 1024.0 / 2.0)
-        .unwrap_or(4096.0)
+        .unwrap_or(fieldgrid_solver::accuracy::DEFAULT_MAX_MEMORY_MIB)
 }
 
 /// Most threads `--threads` may ask for: four per processor available here (at least 16).

@@ -11,7 +11,7 @@
 
 pub mod warnings;
 
-use fieldgrid_solver::accuracy::AccuracyError;
+use fieldgrid_solver::accuracy::{AccuracyError, Quantity};
 use fieldgrid_solver::grid::GridError;
 use fieldgrid_solver::line::LineError;
 use fieldgrid_solver::line_study::{LineStudyError, SignalError};
@@ -94,6 +94,19 @@ pub fn line_study(e: &LineStudyError) -> String {
     }
 }
 
+/// A quantity's short name: `C[a,b]`, `F[a]`, `field at (x m, y m)`, or the line key (`Z0`
+/// for `z0`), as the report, summary.json and the warnings name it.
+pub fn quantity(q: &Quantity) -> String {
+    match q {
+        Quantity::Capacitance { row, column } => format!("C[{row},{column}]"),
+        Quantity::Force { conductor } => format!("F[{conductor}]"),
+        Quantity::Field { at, .. } => format!("field at ({:.4e} m, {:.4e} m)", at[0], at[1]),
+        Quantity::Line("z0") => "Z0".to_string(),
+        Quantity::Line(k) => k.to_string(),
+        other => format!("{other:?}"),
+    }
+}
+
 /// The sentence for an accuracy loop that could not run.
 pub fn accuracy(e: &AccuracyError) -> String {
     match e {
@@ -141,6 +154,26 @@ mod tests {
 
     #[test]
     fn sentences_carry_the_data() {
+        assert_eq!(
+            quantity(&Quantity::Field {
+                at: [1.5e-3, -2e-4],
+                material: "air".into()
+            }),
+            "field at (1.5000e-3 m, -2.0000e-4 m)"
+        );
+        assert_eq!(quantity(&Quantity::Line("z0")), "Z0");
+        assert_eq!(quantity(&Quantity::Line("eps_eff")), "eps_eff");
+        assert_eq!(
+            quantity(&Quantity::Capacitance {
+                row: "a".into(),
+                column: "b".into()
+            }),
+            "C[a,b]"
+        );
+        assert_eq!(
+            accuracy(&AccuracyError::Target(2.0)),
+            "the accuracy target must lie between 0 and 1, got 2"
+        );
         assert_eq!(
             grid(&GridError::TooManyCells { x: 2e8, y: 3.0 }),
             "200000000 x 3 cells is far too many"

@@ -122,8 +122,9 @@ impl fmt::Display for Sentence<'_> {
             } => {
                 write!(
                     f,
-                    "accuracy {target:e} not met: {quantity} is known to {relative:.1e} ({:.1} \
-                     times the target) when ",
+                    "accuracy {target:e} not met: {} is known to {relative:.1e} ({:.1} times \
+                     the target) when ",
+                    super::quantity(quantity),
                     relative / target
                 )?;
                 match limit {
@@ -217,6 +218,7 @@ impl fmt::Display for Failure<'_> {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use fieldgrid_solver::accuracy::Quantity;
 
     #[test]
     fn sentences_carry_the_numbers() {
@@ -228,6 +230,18 @@ mod tests {
         assert_eq!(
             warning(&w),
             "capacitance (pad, trace) has an estimated discretisation error of 2.3 %: refine the cell"
+        );
+        assert_eq!(
+            warning(&Warning::AccuracyNotMet {
+                quantity: Quantity::Force {
+                    conductor: "rod".into()
+                },
+                relative: 2.5e-3,
+                target: 1e-3,
+                limit: AccuracyLimit::Refinements,
+            }),
+            "accuracy 1e-3 not met: F[rod] is known to 2.5e-3 (2.5 times the target) when the \
+             grid is refined as far as allowed; the results are those of the last grid"
         );
         let v = Warning::VacuumStudy(Box::new(w.clone()));
         assert_eq!(

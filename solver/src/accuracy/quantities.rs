@@ -16,7 +16,6 @@
 use crate::forces::{ForceMethod, NoBand};
 use crate::line_study::LineStudy;
 use crate::study::{worst_relative_asymmetry, Solution};
-use std::fmt;
 
 /// One quantity of a result.
 #[derive(Clone, Debug, PartialEq)]
@@ -43,21 +42,6 @@ pub enum Quantity {
     },
     /// A scalar line parameter, by its key in [`crate::line::scalars`] ("z0", "eps_eff", ...).
     Line(&'static str),
-}
-
-impl fmt::Display for Quantity {
-    /// The quantity's short name: `C[a,b]`, `F[a]`, `field at (x m, y m)`, or the line key.
-    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        match self {
-            Quantity::Capacitance { row, column } => write!(f, "C[{row},{column}]"),
-            Quantity::Force { conductor } => write!(f, "F[{conductor}]"),
-            Quantity::Field { at, .. } => write!(f, "field at ({:.4e} m, {:.4e} m)", at[0], at[1]),
-            Quantity::Line(k) => match *k {
-                "z0" => write!(f, "Z0"),
-                k => write!(f, "{k}"),
-            },
-        }
-    }
 }
 
 /// A quantity's value and its estimated error, by source (absolute, in its units).

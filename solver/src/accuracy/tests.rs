@@ -106,6 +106,19 @@ fn the_memory_limit_stops_the_loop_with_the_short_quantity() {
     assert!(sol.solve.converged);
     let w = info.warning().unwrap();
     assert_eq!(w.code(), "accuracy-not-met");
+    // The warning carries the short quantity itself, typed.
+    match w {
+        Warning::AccuracyNotMet {
+            quantity,
+            relative,
+            limit: AccuracyLimit::Memory { .. },
+            ..
+        } => {
+            assert_eq!(quantity, short.quantity);
+            assert_eq!(relative, short.relative());
+        }
+        w => panic!("{w:?}"),
+    }
 }
 
 #[test]
@@ -188,14 +201,16 @@ fn the_family_starts_at_the_designs_own_graded_lattice() {
 #[test]
 fn a_target_outside_zero_to_one_is_refused() {
     for t in [0.0, -1e-3, 1.0, f64::NAN] {
-        assert!(matches!(
-            solve(
-                &bars(),
-                &StudyParams::default(),
-                &Params::default().with_target(t)
-            ),
-            Err(AccuracyError::Target(_))
-        ));
+        let e = solve(
+            &bars(),
+            &StudyParams::default(),
+            &Params::default().with_target(t),
+        )
+        .expect_err("refused");
+        assert!(matches!(e, AccuracyError::Target(v) if v.to_bits() == t.to_bits()));
+        // Data and a code, no sentence: the command line words it.
+        assert_eq!(e.code(), "accuracy-target");
+        assert_eq!(e.to_string(), format!("accuracy-target: Target({t:?})"));
     }
 }
 
