@@ -178,6 +178,7 @@ fn sphere_surface_field_and_peak_on_a_stretched_grid() {
 mod fit_bias {
     use super::super::*;
     use crate::design::Mode;
+    use crate::grid::Grid;
     use crate::raster::NO_CONDUCTOR;
     use crate::surface_field::{conductor_field, Across, FitParams, Frame, Lattice};
 
