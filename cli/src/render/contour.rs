@@ -1,5 +1,5 @@
-//! Equipotential (iso-value) lines at round levels, traced by the `contour` crate on the pixel
-//! samples.
+//! Equipotential (iso-value) lines at round levels, traced on the pixel samples by marching
+//! squares ([`super::marching`]).
 //!
 //! Invariants: levels lie strictly inside the value range (a level equal to an electrode's
 //! potential would only trace its outline); lines are returned in plot pixel coordinates
@@ -8,11 +8,11 @@
 //! from their neighbours before tracing so no spurious line rings them; the caller masks those
 //! pixels when drawing.
 
-use contour::ContourBuilder;
 use rayon::prelude::*;
 
 use super::axes::{multiples, nice_step};
 use super::canvas::P;
+use super::marching::Raster;
 use super::sample::Samples;
 
 /// Round levels strictly inside (lo, hi): 1-2-5 steps giving about `target` lines.
@@ -78,21 +78,15 @@ pub fn trace(s: &Samples, levels: &[f64]) -> Vec<Isoline> {
     let Some(filled) = fill_missing(s) else {
         return Vec::new();
     };
-    let builder = ContourBuilder::new(s.w, s.h, true);
+    let raster = Raster::new(&filled, s.w, s.h);
     let (w, h) = (s.w as f64, s.h as f64);
     // Levels are independent; collecting in order keeps the result deterministic.
     levels
         .par_iter()
         .map(|&level| {
-            let lines = builder
-                .lines(&filled, &[level])
-                .expect("sample count matches the raster");
             let mut pieces = Vec::new();
-            for line in lines {
-                for ls in &line.geometry().0 {
-                    let pts: Vec<P> = ls.0.iter().map(|c| [c.x, c.y]).collect();
-                    split_off_frame(&pts, w, h, &mut pieces);
-                }
+            for ring in raster.rings(level) {
+                split_off_frame(&ring, w, h, &mut pieces);
             }
             Isoline { level, pieces }
         })

@@ -44,6 +44,7 @@ mod labels;
 mod layout;
 mod lines;
 mod map;
+mod marching;
 pub mod outline;
 mod overlay;
 mod preview;
