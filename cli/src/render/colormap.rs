@@ -195,8 +195,11 @@ pub fn rgb8(c: Lab) -> Rgb<u8> {
 
 /// OKLab of an 8-bit sRGB colour.
 pub fn lab_of(c: Rgb<u8>) -> Lab {
-    let d = |v: u8| decode_srgb(v as f64 / 255.0);
-    lab_from_linear([d(c[0]), d(c[1]), d(c[2])])
+    // Each 8-bit level decoded once (ink over the maps asks for the colour underneath
+    // pixel by pixel).
+    static LINEAR: OnceLock<[f64; 256]> = OnceLock::new();
+    let lin = LINEAR.get_or_init(|| std::array::from_fn(|v| decode_srgb(v as f64 / 255.0)));
+    lab_from_linear([lin[c[0] as usize], lin[c[1] as usize], lin[c[2] as usize]])
 }
 
 fn in_gamut(c: Lab) -> bool {

@@ -9,6 +9,8 @@
 //! straight under it (chord at least [`STRAIGHT`] of the arc); a level gets at most two labels,
 //! the second at least half the plot's shorter side from the first. Lengths are image pixels.
 
+use rayon::prelude::*;
+
 use super::canvas::P;
 use super::labels::Taken;
 use super::layout::Plot;
@@ -35,15 +37,16 @@ impl Obstacles {
     pub(super) fn new(
         w: usize,
         h: usize,
-        blocked: impl Fn(usize, usize) -> bool,
+        blocked: impl Fn(usize, usize) -> bool + Sync,
         levels: &[Vec<Vec<P>>],
     ) -> Obstacles {
+        // Rows on their own, on any number of threads.
         let mut b = vec![false; w * h];
-        for y in 0..h {
-            for x in 0..w {
-                b[y * w + x] = blocked(x, y);
+        b.par_chunks_mut(w.max(1)).enumerate().for_each(|(y, row)| {
+            for (x, c) in row.iter_mut().enumerate() {
+                *c = blocked(x, y);
             }
-        }
+        });
         let mut line = vec![0u16; w * h];
         for (k, pieces) in levels.iter().enumerate() {
             let tag = (k + 1).min(u16::MAX as usize - 1) as u16;

@@ -60,24 +60,30 @@ impl<'a> Raster<'a> {
     pub fn new(v: &'a [f64], w: usize, h: usize) -> Raster<'a> {
         assert!(w >= 2 && h >= 2 && v.len() == w * h, "a w x h raster");
         let per_row = (w - 1).div_ceil(BLOCK);
-        let mut blocks = Vec::with_capacity(per_row * (h - 1));
-        for y in 0..h - 1 {
-            for b in 0..per_row {
-                let (x0, x1) = (b * BLOCK, ((b + 1) * BLOCK).min(w - 1));
-                let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
-                for row in [y, y + 1] {
-                    for &s in &v[row * w + x0..=row * w + x1] {
-                        if s.is_nan() {
-                            lo = f64::NEG_INFINITY;
-                        } else {
-                            lo = lo.min(s);
-                            hi = hi.max(s);
-                        }
+        // The extremes of each row's blocks (samples x0..=x1), then of each pair of rows.
+        let row_blocks = |row: &[f64]| -> Vec<[f64; 2]> {
+            (0..per_row)
+                .map(|b| {
+                    let (x0, x1) = (b * BLOCK, ((b + 1) * BLOCK).min(w - 1));
+                    let (mut lo, mut hi, mut nan) = (f64::INFINITY, f64::NEG_INFINITY, false);
+                    for &s in &row[x0..=x1] {
+                        nan |= s.is_nan();
+                        lo = if s < lo { s } else { lo };
+                        hi = if s > hi { s } else { hi };
                     }
-                }
-                blocks.push([lo, hi]);
-            }
-        }
+                    [if nan { f64::NEG_INFINITY } else { lo }, hi]
+                })
+                .collect()
+        };
+        let rows: Vec<Vec<[f64; 2]>> = v.chunks_exact(w).map(row_blocks).collect();
+        let blocks = rows
+            .windows(2)
+            .flat_map(|p| {
+                p[0].iter()
+                    .zip(&p[1])
+                    .map(|(a, b)| [a[0].min(b[0]), a[1].max(b[1])])
+            })
+            .collect();
         Raster {
             w,
             h,

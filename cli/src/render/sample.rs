@@ -10,6 +10,7 @@
 //! the line counts on a graded grid).
 
 use fieldgrid_solver::grid::Grid;
+use rayon::prelude::*;
 
 /// Samples of a field at pixel centres, row-major, row 0 at the top.
 #[derive(Clone, Debug, PartialEq)]
@@ -59,12 +60,15 @@ pub fn resample(
     let rows: Vec<(usize, f64)> = pixel_centres(h, yr[0], yr[1], true)
         .map(|y| grid.locate_y(y))
         .collect();
-    let mut v = Vec::with_capacity(w * h);
-    for &row in &rows {
-        for &col in &cols {
-            v.push(bilinear(grid, values, col, row));
-        }
-    }
+    // Rows on their own: the same samples on any number of threads.
+    let mut v = vec![0.0; w * h];
+    v.par_chunks_mut(w.max(1))
+        .zip(&rows)
+        .for_each(|(out, &row)| {
+            for (o, &col) in out.iter_mut().zip(&cols) {
+                *o = bilinear(grid, values, col, row);
+            }
+        });
     Samples { w, h, v }
 }
 
@@ -163,14 +167,25 @@ pub fn onto(from: &Grid, values: &[f64], to: &Grid) -> Vec<f64> {
 
 /// Smallest and largest finite value, or `None` when there is none.
 pub fn finite_range(values: &[f64]) -> Option<(f64, f64)> {
-    let mut lo = f64::INFINITY;
-    let mut hi = f64::NEG_INFINITY;
-    for &v in values {
-        if v.is_finite() {
-            lo = lo.min(v);
-            hi = hi.max(v);
+    let range = |vs: &[f64]| {
+        let mut lo = f64::INFINITY;
+        let mut hi = f64::NEG_INFINITY;
+        for &v in vs {
+            if v.is_finite() {
+                lo = lo.min(v);
+                hi = hi.max(v);
+            }
         }
-    }
+        (lo, hi)
+    };
+    // Chunks on their own, then joined in their order: the fold's result on any number of
+    // threads.
+    let parts: Vec<(f64, f64)> = values.par_chunks(1 << 16).map(range).collect();
+    let (lo, hi) = parts
+        .iter()
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), p| {
+            (lo.min(p.0), hi.max(p.1))
+        });
     (lo <= hi).then_some((lo, hi))
 }
 
