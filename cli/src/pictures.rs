@@ -12,6 +12,7 @@ use fieldgrid_solver::margin_map;
 use fieldgrid_solver::post::Hotspot;
 use fieldgrid_solver::study::Solution;
 use image::RgbImage;
+use rayon::prelude::*;
 
 /// Outline flattening tolerance: a fraction of the domain so outlines look smooth at any size.
 fn tolerance(design: &Design) -> f64 {
@@ -193,7 +194,7 @@ pub fn shown_field(sol: &Solution) -> Vec<f64> {
     let e = sol.field_magnitude();
     let g = &sol.grid;
     let (nx, ny) = (g.nx, g.ny);
-    let mut out = e.to_vec();
+    let mut out: Vec<f64> = e.par_iter().copied().collect();
     if nx < 3 || ny < 3 {
         return out;
     }
@@ -328,11 +329,38 @@ fn worst_pin(sol: &Solution, field: Option<String>) -> Option<Pin> {
     })
 }
 
+/// `potential.png`, `field.png` and, when [`margin_map`] draws one, `margin.png` of a
+/// solution, all drawn at the same time; the field they show ([`shown_field`]) is found once.
+pub fn solution_maps(
+    src: &DesignSource,
+    sol: &Solution,
+    log_field: bool,
+    opts: &RenderOptions,
+) -> (RgbImage, RgbImage, Option<RgbImage>) {
+    let shown = shown_field(sol);
+    let ((potential, field), margin) = rayon::join(
+        || maps_of(src, sol, &shown, log_field, opts),
+        || margin_map_of(src, sol, &shown, opts),
+    );
+    (potential, field, margin)
+}
+
 /// `potential.png` and `field.png` of a solution; `log_field` draws the field on a
 /// logarithmic scale. The two pictures are drawn at the same time (each on its own).
 pub fn field_maps(
     src: &DesignSource,
     sol: &Solution,
+    log_field: bool,
+    opts: &RenderOptions,
+) -> (RgbImage, RgbImage) {
+    maps_of(src, sol, &shown_field(sol), log_field, opts)
+}
+
+/// [`field_maps`] with the field shown, `shown` (see [`shown_field`]).
+fn maps_of(
+    src: &DesignSource,
+    sol: &Solution,
+    shown: &[f64],
     log_field: bool,
     opts: &RenderOptions,
 ) -> (RgbImage, RgbImage) {
@@ -365,7 +393,7 @@ pub fn field_maps(
         let eps: Vec<f64> = sol
             .raster
             .material
-            .iter()
+            .par_iter()
             .map(|&m| fieldgrid_solver::material::of(design, m).permittivity)
             .collect();
         // Field lines follow the whole solution, conductors' nodes at their potentials, so the
@@ -378,7 +406,7 @@ pub fn field_maps(
         render::render_map(&map, opts)
     };
     let field_map = || {
-        let magnitude = &shown_field(sol)[..];
+        let magnitude = shown;
         let windowed = render::shown_values(&sol.grid, magnitude, scene.unit, opts);
         let shown = windowed.as_deref().unwrap_or(magnitude);
         let peak = sample::finite_range(shown).map_or(0.0, |r| r.1);
@@ -442,8 +470,21 @@ pub const MARGIN_DECADES: i32 = 3;
 /// below the worst margin take the bottom colour under the bar's lower cap; the worst-margin
 /// point ringed. `None` when no material has a strength or the field is zero everywhere.
 pub fn margin_map(src: &DesignSource, sol: &Solution, opts: &RenderOptions) -> Option<RgbImage> {
+    if !margin_map::any_strength(&src.design) {
+        return None;
+    }
+    margin_map_of(src, sol, &shown_field(sol), opts)
+}
+
+/// [`margin_map`] with the field shown, `shown` (see [`shown_field`]).
+fn margin_map_of(
+    src: &DesignSource,
+    sol: &Solution,
+    shown: &[f64],
+    opts: &RenderOptions,
+) -> Option<RgbImage> {
     let design = &src.design;
-    let margins = margin_map::node_margins(design, &sol.raster.material, &shown_field(sol))?;
+    let margins = margin_map::node_margins(design, &sol.raster.material, shown)?;
     // The bar starts at the reported worst margin, so the picture and the report agree; a
     // node reading lower (beside a sharp corner, or a node field on a curved surface above the
     // surface's own evaluation) takes the bottom colour, and the bar's cap says so.

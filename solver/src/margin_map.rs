@@ -7,8 +7,16 @@
 //! These are node values: next to a sharp corner they read higher than the surface search's
 //! worst margin ([`crate::study::Solution::worst_margin`]), which is the number to report.
 
+use rayon::prelude::*;
+
 use crate::design::Design;
 use crate::material;
+
+/// Whether a material of `design` (the background or a dielectric) has a breakdown strength,
+/// so that [`node_margins`] finds margins.
+pub fn any_strength(design: &Design) -> bool {
+    design.background.strength.is_some() || design.dielectrics.iter().any(|d| d.strength.is_some())
+}
 
 /// Strength over |E| per node (dimensionless), or `None` when no material of `design` has
 /// a strength. `materials` is the raster's material index per node
@@ -17,14 +25,13 @@ use crate::material;
 /// Panics when the two differ in length (a programmer error).
 pub fn node_margins(design: &Design, materials: &[u16], magnitude: &[f64]) -> Option<Vec<f64>> {
     assert_eq!(materials.len(), magnitude.len(), "one field value per node");
-    let any = design.background.strength.is_some()
-        || design.dielectrics.iter().any(|d| d.strength.is_some());
-    if !any {
+    if !any_strength(design) {
         return None;
     }
+    // Each node on its own: the same values on any number of threads.
     Some(
         materials
-            .iter()
+            .par_iter()
             .zip(magnitude)
             .map(|(&m, &e)| match material::of(design, m).strength {
                 Some(s) if e.is_finite() => s / e,
@@ -59,5 +66,6 @@ mod tests {
         assert!(m[2].is_nan() && m[3].is_nan());
         d.background.strength = None;
         assert_eq!(node_margins(&d, &r, &[1.0; 4]), None);
+        assert!(!any_strength(&d));
     }
 }

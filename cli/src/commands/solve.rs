@@ -272,25 +272,27 @@ pub fn write_files(
         })?;
     }
     // The pictures drawn and encoded at the same time, on the threads the solve had.
-    let ((potential_png, field_png), margin_png) = timings.time("pictures", || {
+    let (potential_png, field_png, margin_png) = timings.time("pictures", || {
         with_threads(files.threads, || {
-            rayon::join(
-                || crate::pictures::field_maps(src, sol, files.log_field, &files.pictures),
-                || crate::pictures::margin_map(src, sol, &files.pictures),
-            )
+            crate::pictures::solution_maps(src, sol, files.log_field, &files.pictures)
         })
     })?;
     timings.time("png", || {
-        let (potential, field) = with_threads(files.threads, || {
+        let (potential, (field, margin)) = with_threads(files.threads, || {
             rayon::join(
                 || png_bytes("potential.png", &potential_png),
-                || png_bytes("field.png", &field_png),
+                || {
+                    rayon::join(
+                        || png_bytes("field.png", &field_png),
+                        || margin_png.as_ref().map(|m| png_bytes("margin.png", m)),
+                    )
+                },
             )
         })?;
         out.write("potential.png", &potential?)?;
         out.write("field.png", &field?)?;
-        match &margin_png {
-            Some(img) => out.write_png("margin.png", img).map(|_| ()),
+        match margin {
+            Some(bytes) => out.write("margin.png", &bytes?).map(|_| ()),
             None => Ok(()),
         }
     })?;
