@@ -30,6 +30,9 @@ pub(super) struct ColorScale {
     pub(super) under: bool,
     /// The values have no unit: numbers are written plainly, without SI prefixes.
     pub(super) plain: bool,
+    /// ln(lo) and ln(hi) - ln(lo), for a logarithmic scale (found once, not per pixel).
+    ln_lo: f64,
+    ln_span: f64,
 }
 
 impl ColorScale {
@@ -109,6 +112,8 @@ impl ColorScale {
             over,
             under,
             plain: input.unit.is_empty(),
+            ln_lo: lo.ln(),
+            ln_span: hi.ln() - lo.ln(),
         }
     }
 
@@ -149,7 +154,7 @@ impl ColorScale {
 
     pub(super) fn t(&self, v: f64) -> f64 {
         if self.log {
-            (v.max(self.lo).ln() - self.lo.ln()) / (self.hi.ln() - self.lo.ln())
+            (v.max(self.lo).ln() - self.ln_lo) / self.ln_span
         } else {
             (v - self.lo) / (self.hi - self.lo)
         }

@@ -9,8 +9,6 @@
 //! straight under it (chord at least [`STRAIGHT`] of the arc); a level gets at most two labels,
 //! the second at least half the plot's shorter side from the first. Lengths are image pixels.
 
-use rayon::prelude::*;
-
 use super::canvas::P;
 use super::labels::Taken;
 use super::layout::Plot;
@@ -22,31 +20,25 @@ pub(super) const SPACING: f32 = 6.0;
 /// Least ratio of chord to arc of the line under a label.
 pub(super) const STRAIGHT: f64 = 0.9;
 
-/// What a label may not cover, per image pixel: blocked pixels, and which level's line passes.
-pub(super) struct Obstacles {
+/// What a label may not cover, per image pixel: blocked pixels (asked of the caller's test
+/// only for the pixels of the boxes tried), and which level's line passes.
+pub(super) struct Obstacles<'a> {
     w: usize,
     h: usize,
-    blocked: Vec<bool>,
+    blocked: &'a dyn Fn(usize, usize) -> bool,
     /// 0: no line; k + 1: the line of level k; `u16::MAX`: lines of several levels.
     line: Vec<u16>,
 }
 
-impl Obstacles {
-    /// Obstacles of a `w` x `h` image: `blocked(x, y)` for each pixel, and the lines of each
-    /// level (`levels[k]` the pieces of level k, image pixel coordinates).
+impl<'a> Obstacles<'a> {
+    /// Obstacles of a `w` x `h` image: `blocked(x, y)` tells a pixel no label may cover, and
+    /// `levels[k]` holds the pieces of level k's line (image pixel coordinates).
     pub(super) fn new(
         w: usize,
         h: usize,
-        blocked: impl Fn(usize, usize) -> bool + Sync,
+        blocked: &'a dyn Fn(usize, usize) -> bool,
         levels: &[Vec<Vec<P>>],
-    ) -> Obstacles {
-        // Rows on their own, on any number of threads.
-        let mut b = vec![false; w * h];
-        b.par_chunks_mut(w.max(1)).enumerate().for_each(|(y, row)| {
-            for (x, c) in row.iter_mut().enumerate() {
-                *c = blocked(x, y);
-            }
-        });
+    ) -> Obstacles<'a> {
         let mut line = vec![0u16; w * h];
         for (k, pieces) in levels.iter().enumerate() {
             let tag = (k + 1).min(u16::MAX as usize - 1) as u16;
@@ -73,7 +65,7 @@ impl Obstacles {
         Obstacles {
             w,
             h,
-            blocked: b,
+            blocked,
             line,
         }
     }
@@ -89,7 +81,7 @@ impl Obstacles {
         (y0 as usize..y1 as usize).all(|y| {
             (x0 as usize..x1 as usize).all(|x| {
                 let i = y * self.w + x;
-                !self.blocked[i] && (self.line[i] == 0 || self.line[i] == tag)
+                (self.line[i] == 0 || self.line[i] == tag) && !(self.blocked)(x, y)
             })
         })
     }
@@ -217,7 +209,7 @@ mod tests {
             let (x, y) = (x as f32 + 0.5, y as f32 + 0.5);
             (bar[0]..bar[2]).contains(&x) && (bar[1]..bar[3]).contains(&y)
         };
-        let obstacles = Obstacles::new(420, 320, blocked, &levels);
+        let obstacles = Obstacles::new(420, 320, &blocked, &levels);
         let sizes = vec![(30.0, 14.0); levels.len()];
         let mut taken = Taken::default();
         let placed = place(&p, &levels, &sizes, &obstacles, &mut taken);
@@ -233,7 +225,7 @@ mod tests {
         let spaced: Vec<Vec<Vec<P>>> = (0..5)
             .map(|k| across(140.0 + 40.0 * f64::from(k)))
             .collect();
-        let obstacles = Obstacles::new(420, 320, |_, _| false, &spaced);
+        let obstacles = Obstacles::new(420, 320, &|_, _| false, &spaced);
         let mut taken = Taken::default();
         let placed = place(&p, &spaced, &sizes[..5], &obstacles, &mut taken);
         for k in 0..5 {
@@ -259,7 +251,7 @@ mod tests {
             })
             .collect();
         let levels = vec![vec![zig], across(250.0)];
-        let obstacles = Obstacles::new(420, 320, |_, _| false, &levels);
+        let obstacles = Obstacles::new(420, 320, &|_, _| false, &levels);
         // Everything along the straight line is taken but its right end.
         let mut taken = Taken(vec![[0.0, 230.0, 330.0, 270.0]]);
         let placed = place(&p, &levels, &[(30.0, 14.0); 2], &obstacles, &mut taken);

@@ -24,7 +24,7 @@ pub(super) fn draw_contours(
     samples: &sample::Samples,
     levels: &[(f64, String)],
     mask: &dyn Fn(usize, usize) -> bool,
-    blocked: &(dyn Fn(usize, usize) -> bool + Sync),
+    blocked: &dyn Fn(usize, usize) -> bool,
     taken: &mut Taken,
 ) -> Vec<(usize, [f32; 4])> {
     let values: Vec<f64> = levels.iter().map(|l| l.0).collect();
