@@ -46,12 +46,20 @@ pub fn rect_outline(img: &mut RgbImage, x0: i64, y0: i64, x1: i64, y1: i64, c: R
     fill_rect(img, x1 - 1, y0, x1, y1, c, 1.0);
 }
 
-/// Per-pixel coverage over an image-sized area, with the box that has been touched.
+/// Side of a [`Layer`]'s tiles, px.
+const TILE: usize = 64;
+
+/// Per-pixel coverage over an image-sized area, with the box that has been touched. Kept in
+/// tiles of [`TILE`] x [`TILE`] pixels made on the first touch, so a layer costs what its
+/// strokes cover, not the image's size.
 #[derive(Clone, Debug)]
 pub struct Layer {
     w: usize,
     h: usize,
-    cov: Vec<f32>,
+    /// Tiles per row of tiles.
+    across: usize,
+    /// Row-major tiles; `None` while untouched (coverage 0).
+    tiles: Vec<Option<Box<[f32; TILE * TILE]>>>,
     // Touched box [x0, x1) x [y0, y1); empty while x0 >= x1.
     bx: [usize; 4],
 }
@@ -60,17 +68,30 @@ impl Layer {
     /// An empty layer of `w` x `h` pixels.
     pub fn new(w: u32, h: u32) -> Layer {
         let (w, h) = (w as usize, h as usize);
+        let across = w.div_ceil(TILE);
         Layer {
             w,
             h,
-            cov: vec![0.0; w * h],
+            across,
+            tiles: vec![None; across * h.div_ceil(TILE)],
             bx: [w, 0, h, 0],
         }
     }
 
-    /// Coverage of pixel (x, y).
+    /// Coverage of pixel (x, y); (x, y) is read as the row-major index x + y w, which must
+    /// lie on the layer.
     pub fn get(&self, x: usize, y: usize) -> f32 {
-        self.cov[x + y * self.w]
+        let (x, y) = if x < self.w {
+            (x, y)
+        } else {
+            let k = x + y * self.w;
+            (k % self.w, k / self.w)
+        };
+        assert!(y < self.h, "pixel on the layer");
+        match &self.tiles[(y / TILE) * self.across + x / TILE] {
+            Some(t) => t[(y % TILE) * TILE + x % TILE],
+            None => 0.0,
+        }
     }
 
     #[inline]
@@ -79,7 +100,9 @@ impl Layer {
             return;
         }
         let (x, y) = (x as usize, y as usize);
-        let v = &mut self.cov[x + y * self.w];
+        let tile = self.tiles[(y / TILE) * self.across + x / TILE]
+            .get_or_insert_with(|| Box::new([0.0; TILE * TILE]));
+        let v = &mut tile[(y % TILE) * TILE + x % TILE];
         if c > *v {
             *v = c.min(1.0);
         }
@@ -224,7 +247,7 @@ impl Layer {
     ) {
         for y in self.bx[2]..self.bx[3] {
             for x in self.bx[0]..self.bx[1] {
-                let c = self.cov[x + y * self.w];
+                let c = self.get(x, y);
                 if c > 0.0 && !skip(x, y) {
                     let under = *img.get_pixel(x as u32, y as u32);
                     blend(img, x as i64, y as i64, ink(under), c * alpha);
@@ -310,6 +333,27 @@ mod tests {
             let best = (0..50).map(|x| steep.get(x, y)).fold(0.0, f32::max);
             assert!(best > 0.4, "gap at row {y}");
         }
+    }
+
+    #[test]
+    fn strokes_across_tile_edges_cover_as_within_one_tile() {
+        // The same strokes inside the first tile and moved across the corner of four tiles
+        // (coordinates in eighths of a pixel, so the move is exact).
+        let draw = |l: &mut Layer, d: f64| {
+            l.segment([4.0 + d, 6.125 + d], [40.5 + d, 30.875 + d], 1.3);
+            l.disc([20.25 + d, 12.0 + d], 4.5);
+        };
+        let (mut a, mut b) = (Layer::new(200, 150), Layer::new(200, 150));
+        draw(&mut a, 0.0);
+        draw(&mut b, 45.0);
+        for y in 0..150 - 45 {
+            for x in 0..200 - 45 {
+                assert_eq!(a.get(x, y), b.get(x + 45, y + 45), "({x}, {y})");
+            }
+        }
+        assert!((0..45).all(|k| b.get(k, k) == 0.0 && b.get(199, 149 - k) == 0.0));
+        // A column past the edge reads as the row-major index it names.
+        assert_eq!(b.get(200 + 70, 60), b.get(70, 61));
     }
 
     #[test]
