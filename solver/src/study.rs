@@ -28,6 +28,7 @@ use crate::warning::{NonFiniteIn, SolveFailure, Warning};
 use crate::EPS0;
 
 mod estimate;
+mod nested;
 mod params;
 mod reference;
 mod solves;
@@ -239,7 +240,9 @@ fn run_relative(
     }
     let coarse = CoarseStudies::run(design, &grid, params, corners.is_empty())?;
     stages.leave();
-    let mut core = solve_on(design, &grid, params, monitor)?;
+    let start = params.coarse_start.then(|| coarse.start()).flatten();
+    let mut core = solve_on(design, &grid, params, start.as_ref(), monitor)?;
+    drop(start);
     let warm_start = core.warm.take().map(Arc::new);
     let capacitance = capacitance(design, &grid, &core, &coarse, !corners.is_empty());
     let mut warnings = match &capacitance.error_estimate {

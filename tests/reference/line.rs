@@ -426,8 +426,10 @@ const SCRATCH: &str = "fieldgrid-line";
 fn impedance_command_writes_line_parameters_for_one_and_two_signals() {
     let dir = scratch(SCRATCH, "cmd");
     // On the default graded lattice (nanometre cells at the strip's ends): the homogeneous
-    // line's eps_eff is 2.2 to 2.2e-12. (It missed by more than 1e-9 while the linear solver
-    // stopped on the relative residual alone; the stop on the charges' error bound holds it.)
+    // line's eps_eff is 2.2 to 1e-7. (It missed by more than 1e-9 while the linear solver
+    // stopped on the relative residual alone; the stop on the charges' error bound holds
+    // it. Solved from zero it lands at 2e-12, the last iteration far below both tests;
+    // started from the coarser lattice's solves at 2.1e-8, which its estimate states.)
     let one = write(&dir, "strip.toml", &stripline(1.0, 2.2, 0.05));
     let out = dir.join("one");
     expect(
@@ -451,7 +453,8 @@ fn impedance_command_writes_line_parameters_for_one_and_two_signals() {
     for k in ["c", "l", "z0", "eps_eff", "error_estimate"] {
         assert!(!line[k].is_null(), "line.{k} missing: {line}");
     }
-    assert!((line["eps_eff"].as_f64().unwrap() - 2.2).abs() < 1e-9);
+    let eps_eff = line["eps_eff"].as_f64().unwrap();
+    assert!((eps_eff - 2.2).abs() < 1e-7, "eps_eff {eps_eff}");
 
     let two = write(&dir, "pair.toml", &coupled_stripline(0.5, 0.25, 1.0, 0.05));
     let out2 = dir.join("two");

@@ -11,6 +11,7 @@ mod forces;
 mod hotspots;
 mod line;
 mod manufactured;
+mod nested;
 mod open;
 mod planar;
 mod uniform_field;

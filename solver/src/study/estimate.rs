@@ -11,6 +11,7 @@
 //! errors of its two studies, and what is left converges at an order (and from a grid on)
 //! of its own.
 
+use super::nested::CoarseStart;
 use super::params::{StudyError, StudyParams};
 use super::solves::{solve_on, Core};
 use crate::design::{Design, Lattice};
@@ -117,33 +118,49 @@ pub(super) struct CoarseStudies {
 impl CoarseStudies {
     /// Runs the coarse studies of `design` around the fine lattice `grid`. `smooth`: the
     /// design has no sharp corner or thin conductor. The third lattice runs for smooth
-    /// designs and for every graded lattice.
+    /// designs and for every graded lattice, first, so that with
+    /// [`StudyParams::coarse_start`] each lattice starts from the one below it.
     pub(super) fn run(
         design: &Design,
         grid: &Grid,
         params: &StudyParams,
         smooth: bool,
     ) -> Result<CoarseStudies, StudyError> {
-        // The coarse lattices start cold and keep nothing for a later study.
-        let params = &params.cold();
-        let coarse_grid = grid.coarsened();
-        let coarser_grid = coarse_grid.coarsened();
-        let coarse = if params.error_estimate && grid.nx > 8 && grid.ny > 8 {
-            Some((
-                coarse_grid.clone(),
-                solve_on(design, &coarse_grid, params, None)?,
-            ))
-        } else {
-            None
+        // The coarse lattices start cold (or from each other) and keep their solves only as
+        // the next lattice's start: on graded lattices, so that a uniform one gives the
+        // results it gave before graded lattices existed, bit for bit.
+        let graded = design.lattice == Lattice::Graded;
+        let params = &StudyParams {
+            keep_warm_start: params.coarse_start && graded,
+            ..params.cold()
         };
-        let third = smooth || design.lattice == Lattice::Graded;
-        let coarser = if third && coarse.is_some() && coarse_grid.nx > 8 && coarse_grid.ny > 8 {
-            let core = solve_on(design, &coarser_grid, params, None)?;
+        if !(params.error_estimate && grid.nx > 8 && grid.ny > 8) {
+            return Ok(CoarseStudies {
+                coarse: None,
+                coarser: None,
+            });
+        }
+        let coarse_grid = grid.coarsened();
+        let third = smooth || graded;
+        let coarser = if third && coarse_grid.nx > 8 && coarse_grid.ny > 8 {
+            let coarser_grid = coarse_grid.coarsened();
+            let core = solve_on(design, &coarser_grid, params, None, None)?;
             Some((coarser_grid, core))
         } else {
             None
         };
-        Ok(CoarseStudies { coarse, coarser })
+        let start = coarser.as_ref().and_then(|(_, c)| start_from(c));
+        let core = solve_on(design, &coarse_grid, params, start.as_ref(), None)?;
+        Ok(CoarseStudies {
+            coarse: Some((coarse_grid, core)),
+            coarser,
+        })
+    }
+
+    /// The start of the solves on the fine lattice from the coarse study's, when it ran and
+    /// kept them.
+    pub(super) fn start(&self) -> Option<CoarseStart> {
+        self.coarse.as_ref().and_then(|(_, c)| start_from(c))
     }
 
     /// The study on the lattice twice as coarse, when it ran.
@@ -196,6 +213,13 @@ impl CoarseStudies {
             coarser,
         })
     }
+}
+
+/// The start of a finer lattice's solves from the study `core`, when it kept its solves.
+fn start_from(core: &Core) -> Option<CoarseStart> {
+    core.warm
+        .as_ref()
+        .map(|w| CoarseStart::of(&core.op, &core.raster, w))
 }
 
 /// The estimated error of every entry of the fine Maxwell matrix `maxwell`.

@@ -34,6 +34,11 @@ pub struct StudyParams {
     pub warm_start: Option<Arc<WarmStart>>,
     /// Keep the lattice's solves in [`Solution::warm_start`], to start a later study from.
     pub keep_warm_start: bool,
+    /// Start the solves on each graded lattice from the same study's solves on the lattice
+    /// twice as coarse, interpolated (nested iteration), when the error estimate solved that
+    /// lattice and no warm start fits; the solves stop on the same tests, a decade tighter.
+    /// Uniform lattices always start from zero.
+    pub coarse_start: bool,
 }
 
 impl Default for StudyParams {
@@ -47,6 +52,7 @@ impl Default for StudyParams {
             stages: None,
             warm_start: None,
             keep_warm_start: false,
+            coarse_start: true,
         }
     }
 }
@@ -71,6 +77,12 @@ impl StudyParams {
             keep_warm_start: false,
             ..self.clone()
         }
+    }
+
+    /// These settings with the coarse start ([`StudyParams::coarse_start`]) on or off.
+    pub fn with_coarse_start(mut self, on: bool) -> Self {
+        self.coarse_start = on;
+        self
     }
 
     /// These settings with the error estimate on or off.

@@ -8,6 +8,7 @@
 //! `response[k][t]` is the charge on target t with conductor k at 1 V and everything else at
 //! 0 V.
 
+use super::nested::CoarseStart;
 use super::params::{StudyError, StudyParams, WarmStart};
 use crate::design::{Design, Drive};
 use crate::grid::Grid;
@@ -77,11 +78,32 @@ fn with_charge_scale(
     p
 }
 
-/// Runs every solve of the study on one lattice, telling `monitor` of its stages.
+/// How much tighter a solve started from a coarser lattice stops: a cold start's last
+/// iteration cuts the residual about 60 times and so lands well below the tests, a nested
+/// start's lands anywhere under them; a decade tighter keeps nested results within the cold
+/// starts' solver error (measured on every demo, `tests/reference/nested.rs`) for about half
+/// an iteration.
+const NESTED_TIGHTENING: f64 = 0.1;
+
+/// The tightest relative residual a nested start is asked for (the double-precision floor
+/// the solvers reach on the demos), unless the caller asks for less.
+const NESTED_FLOOR: f64 = 1e-13;
+
+/// The solver settings of a solve started from a coarser lattice.
+fn nested_params(params: &solvers::Params) -> solvers::Params {
+    let mut p = params.clone();
+    p.tol = (p.tol * NESTED_TIGHTENING).max(p.tol.min(NESTED_FLOOR));
+    p
+}
+
+/// Runs every solve of the study on one lattice, telling `monitor` of its stages. Each solve
+/// starts from the study's warm start when it fits the lattice, else from `coarse` (the same
+/// study on a coarser lattice, [`CoarseStart`]) when given, else from zero.
 pub(super) fn solve_on(
     design: &Design,
     grid: &Grid,
     params: &StudyParams,
+    coarse: Option<&CoarseStart>,
     monitor: Option<&StageMonitor>,
 ) -> Result<Core, StudyError> {
     let mut stages = Tracker::new(monitor);
@@ -104,6 +126,11 @@ pub(super) fn solve_on(
     let mut response = vec![Vec::new(); nc];
     let mut kept: Vec<(usize, Vec<f64>)> = Vec::new();
     let warm = params.warm_start.as_deref().filter(|w| w.fits(grid, nc));
+    let coarse = coarse.filter(|c| warm.is_none() && c.fits(nc));
+    let solver_params = match coarse {
+        Some(_) => nested_params(&params.solver),
+        None => params.solver.clone(),
+    };
     let mut keep = WarmStart {
         xs: grid.xs().to_vec(),
         ys: grid.ys().to_vec(),
@@ -119,8 +146,12 @@ pub(super) fn solve_on(
         unit[k] = 1.0;
         let values = op.target_values(&unit, false);
         let b = op.rhs(&values, false);
-        let mut x = warm.map_or_else(|| vec![0.0; n], |w| w.unit[k].clone());
-        let solver = with_charge_scale(&params.solver, &links, &values);
+        let mut x = match (warm, coarse) {
+            (Some(w), _) => w.unit[k].clone(),
+            (None, Some(c)) => c.unit(k, &op),
+            (None, None) => vec![0.0; n],
+        };
+        let solver = with_charge_scale(&solver_params, &links, &values);
         record(prepared.solve(&op.stencil, &b, &mut x, &solver), &mut infos);
         response[k] = op.reactions(&x, &values, false);
         if params.keep_warm_start {
@@ -139,10 +170,13 @@ pub(super) fn solve_on(
     let values0 = op.target_values(&zero, true);
     let b0 = op.rhs(&values0, true);
     let background = if b0.iter().any(|&v| v != 0.0) {
-        let mut x0 = warm
-            .and_then(|w| w.background.clone())
-            .unwrap_or_else(|| vec![0.0; n]);
-        let solver = with_charge_scale(&params.solver, &links, &values0);
+        let mut x0 = match (warm, coarse) {
+            (Some(w), _) => w.background.clone(),
+            (None, Some(c)) => c.background(&op),
+            (None, None) => None,
+        }
+        .unwrap_or_else(|| vec![0.0; n]);
+        let solver = with_charge_scale(&solver_params, &links, &values0);
         record(
             prepared.solve(&op.stencil, &b0, &mut x0, &solver),
             &mut infos,

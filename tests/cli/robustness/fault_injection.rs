@@ -167,9 +167,10 @@ fn every_interruption_of_a_solve_leaves_the_old_or_the_new_complete_set() {
         "solve: {points} interruption points: {kept_old} kept the previous set, {got_new} \
          left the new set, {nothing} left no directory"
     );
-    // With the sweep's at least 70, at least 200 interruption points in all (134 and 72
-    // when this was written; the counts are enumerated, so they change only with the code).
-    assert!(points >= 130, "{points}");
+    // With the sweep's at least 70, at least 190 interruption points in all (134 and 72
+    // when this was written, 128 for the solve since its solves start from the coarser
+    // lattice's; the counts are enumerated, so they change only with the code).
+    assert!(points >= 120, "{points}");
     assert!(kept_old > 0 && got_new > 0 && nothing > 0);
 }
 
