@@ -301,6 +301,87 @@ mod fit_bias {
             }
         }
     }
+
+    /// The worst relative error, over centres 0 to 0.9 cells off a node along the axis, of the
+    /// fitted field at each polar angle `from_pole` (degrees) of a grounded sphere of radius 1
+    /// on the axis carrying the exact potential `-z (1 - 1 / R^3)` of a conducting sphere in
+    /// a unit uniform field (J. D. Jackson, Classical Electrodynamics, 3rd ed., 1999,
+    /// sec. 2.5, eq. 2.14; from memory): surface field `3 cos(theta)`, relative to its peak 3.
+    fn sphere_in_a_uniform_field_fit_errors(cells: f64, from_pole: &[f64]) -> Vec<f64> {
+        let h = 1.0 / cells;
+        let n = (2.0 * (1.0 + 8.0 * h) / h) as usize + 1;
+        let nx = n / 2 + 1;
+        let mut worst = vec![0.0f64; from_pole.len()];
+        for k in 0..10 {
+            let oy = -0.5 * h * (n - 1) as f64 + 0.1 * k as f64 * h;
+            let g = Grid::regular([0.0, oy], [h, h], [nx, n]);
+            let at = |p: usize| (g.x(p % nx), g.y(p / nx));
+            let big_r = |p: usize| at(p).0.hypot(at(p).1);
+            let phi: Vec<f64> = (0..g.len())
+                .map(|p| {
+                    let r = big_r(p);
+                    if r <= 1.0 {
+                        0.0
+                    } else {
+                        -at(p).1 * (1.0 - r.powi(-3))
+                    }
+                })
+                .collect();
+            let conductor: Vec<u16> = (0..g.len())
+                .map(|p| if big_r(p) <= 1.0 { 0 } else { NO_CONDUCTOR })
+                .collect();
+            let material = vec![0u16; g.len()];
+            let lat = Lattice {
+                grid: &g,
+                mode: Mode::Axisymmetric,
+                phi: &phi,
+                conductor: &conductor,
+                material: &material,
+            };
+            let across = Across::Conductor {
+                potential: 0.0,
+                material: 0,
+                eps: 1.0,
+                rho: 0.0,
+                surface_points: vec![],
+            };
+            for (w, deg) in worst.iter_mut().zip(from_pole) {
+                // The point (r, z) = (sin, cos) of the angle from the pole.
+                let (r, z) = deg.to_radians().sin_cos();
+                let frame = Frame {
+                    at: [r, z],
+                    normal: [r, z],
+                    curvature: 1.0,
+                };
+                let e = conductor_field(&lat, &frame, &across, &FitParams::default()).unwrap();
+                let err = (e[0].hypot(e[1]) - 3.0 * z) / 3.0;
+                *w = w.max(err.abs());
+            }
+        }
+        worst
+    }
+
+    #[test]
+    fn conductor_fit_bias_bounds_the_fit_error_on_a_sphere_in_a_uniform_field_off_the_axis() {
+        // A surface field varying along the surface about the axis: from 15 degrees off the
+        // pole, from 7 cells per radius up, the fit stays within its bias. Measured, worst
+        // over 15 to 70 degrees in units of the bias: 0.86 / 0.89 / 0.85 / 0.78 / 0.993 /
+        // 0.997 at 7 / 10 / 14 / 20 / 28 / 40 cells. Nearer the axis it does not: at the pole
+        // it reads 4.0 to 5.2 times the bias high from 10 to 40 cells, and 1 to 4 degrees off
+        // it up to 3 times (the cubic's model does not hold about the axis there; not
+        // asserted here).
+        let angles = [15.0, 25.0, 45.0, 70.0];
+        for cells in [7.0, 10.0, 14.0, 20.0, 28.0, 40.0] {
+            let bound = conductor_fit_bias(1.0 / cells);
+            let worst = sphere_in_a_uniform_field_fit_errors(cells, &angles);
+            for (deg, w) in angles.iter().zip(&worst) {
+                assert!(
+                    *w <= bound,
+                    "{cells} cells, {deg} degrees: {w:e} > {bound:e}"
+                );
+            }
+        }
+    }
 }
 
 #[test]
