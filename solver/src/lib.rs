@@ -32,6 +32,7 @@ pub mod parallel;
 pub mod peaks;
 pub mod plan;
 pub mod post;
+pub mod quantity;
 pub mod raster;
 pub mod root;
 #[cfg(test)]

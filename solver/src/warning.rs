@@ -8,8 +8,8 @@
 //! Invariant: the library builds no sentences here; `Display` is a plain rendering of the
 //! code and the data for logs, and the command line words each warning for its users.
 
-use crate::accuracy::Quantity;
 use crate::forces::NoBand;
+use crate::quantity::Quantity;
 use crate::solvers::StopReason;
 use std::fmt;
 

@@ -15,34 +15,8 @@
 
 use crate::forces::{ForceMethod, NoBand};
 use crate::line_study::LineStudy;
+pub use crate::quantity::Quantity;
 use crate::study::{worst_relative_asymmetry, Solution};
-
-/// One quantity of a result.
-#[derive(Clone, Debug, PartialEq)]
-#[non_exhaustive]
-pub enum Quantity {
-    /// Entry (row, column) of the Maxwell capacitance matrix.
-    Capacitance {
-        /// Row conductor.
-        row: String,
-        /// Column conductor.
-        column: String,
-    },
-    /// The force on a conductor (its magnitude; the axial component in axisymmetric mode).
-    Force {
-        /// The conductor.
-        conductor: String,
-    },
-    /// The field magnitude at a hot spot.
-    Field {
-        /// Position, m.
-        at: [f64; 2],
-        /// The material the field is in.
-        material: String,
-    },
-    /// A scalar line parameter, by its key in [`crate::line::scalars`] ("z0", "eps_eff", ...).
-    Line(&'static str),
-}
 
 /// A quantity's value and its estimated error, by source (absolute, in its units).
 #[derive(Clone, Debug, PartialEq)]
