@@ -116,16 +116,7 @@ pub(crate) fn unfolds_flat(design: &Design, shape: &Shape, q: Point) -> bool {
     };
     let n = ring.len();
     let (prev, next) = (ring[(k + n - 1) % n], ring[(k + 1) % n]);
-    let d = &design.domain;
-    let tol = 1e-9 * (d.x[1] - d.x[0]).abs().max((d.y[1] - d.y[0]).abs());
-    let s = &design.sides;
-    // Each side: its kind, the coordinate across it and where it lies.
-    let sides = [
-        (s.left, 0, d.x[0]),
-        (s.right, 0, d.x[1]),
-        (s.bottom, 1, d.y[0]),
-        (s.top, 1, d.y[1]),
-    ];
+    let (tol, sides) = sides_and_tolerance(design);
     sides.iter().any(|&(side, axis, at)| {
         let on = |p: Point| (p[axis] - at).abs() <= tol;
         matches!(side, Side::Symmetry | Side::Axis)
@@ -137,6 +128,21 @@ pub(crate) fn unfolds_flat(design: &Design, shape: &Shape, q: Point) -> bool {
     })
 }
 
+/// Each side of the domain as (its kind, the coordinate across it, where it lies), and the
+/// distance within which a point counts as on a side (1e-9 of the domain's larger extent, m).
+fn sides_and_tolerance(design: &Design) -> (f64, [(Side, usize, f64); 4]) {
+    let d = &design.domain;
+    let tol = 1e-9 * (d.x[1] - d.x[0]).abs().max((d.y[1] - d.y[0]).abs());
+    let s = &design.sides;
+    let sides = [
+        (s.left, 0, d.x[0]),
+        (s.right, 0, d.x[1]),
+        (s.bottom, 1, d.y[0]),
+        (s.top, 1, d.y[1]),
+    ];
+    (tol, sides)
+}
+
 /// Whether `q` is an end of the polyline `pts` on a mirror plane or the axis whose segment
 /// leaves that side square to it (see [`unfolds_flat`]).
 fn polyline_end_unfolds_flat(design: &Design, pts: &[Point], q: Point) -> bool {
@@ -144,16 +150,7 @@ fn polyline_end_unfolds_flat(design: &Design, pts: &[Point], q: Point) -> bool {
         (pts.first(), pts.iter().find(|&&p| p != q)),
         (pts.last(), pts.iter().rev().find(|&&p| p != q)),
     ];
-    let d = &design.domain;
-    let tol = 1e-9 * (d.x[1] - d.x[0]).abs().max((d.y[1] - d.y[0]).abs());
-    let s = &design.sides;
-    // Each side: its kind, the coordinate across it and where it lies.
-    let sides = [
-        (s.left, 0, d.x[0]),
-        (s.right, 0, d.x[1]),
-        (s.bottom, 1, d.y[0]),
-        (s.top, 1, d.y[1]),
-    ];
+    let (tol, sides) = sides_and_tolerance(design);
     ends.iter().any(|&(end, other)| {
         let (Some(&end), Some(&b)) = (end, other) else {
             return false;

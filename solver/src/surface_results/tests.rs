@@ -182,6 +182,59 @@ mod fit_bias {
     use crate::raster::NO_CONDUCTOR;
     use crate::surface_field::{conductor_field, Across, FitParams, Frame, Lattice};
 
+    /// The fitted field magnitude at each point of `points` on the unit circle (the unit
+    /// sphere on the axis in r-z), a grounded conductor inside it, the lattice carrying the
+    /// exact potential `exact(x, y)` outside it and 0 within.
+    fn unit_circle_fields(
+        g: &Grid,
+        mode: Mode,
+        exact: impl Fn(f64, f64) -> f64,
+        points: &[[f64; 2]],
+    ) -> Vec<f64> {
+        let nx = g.nx();
+        let at = |p: usize| (g.x(p % nx), g.y(p / nx));
+        let inside = |p: usize| at(p).0.hypot(at(p).1) <= 1.0;
+        let phi: Vec<f64> = (0..g.len())
+            .map(|p| {
+                if inside(p) {
+                    0.0
+                } else {
+                    exact(at(p).0, at(p).1)
+                }
+            })
+            .collect();
+        let conductor: Vec<u16> = (0..g.len())
+            .map(|p| if inside(p) { 0 } else { NO_CONDUCTOR })
+            .collect();
+        let material = vec![0u16; g.len()];
+        let lat = Lattice {
+            grid: g,
+            mode,
+            phi: &phi,
+            conductor: &conductor,
+            material: &material,
+        };
+        let across = Across::Conductor {
+            potential: 0.0,
+            material: 0,
+            eps: 1.0,
+            rho: 0.0,
+            surface_points: vec![],
+        };
+        points
+            .iter()
+            .map(|&at| {
+                let frame = Frame {
+                    at,
+                    normal: at,
+                    curvature: 1.0,
+                };
+                let e = conductor_field(&lat, &frame, &across, &FitParams::default()).unwrap();
+                e[0].hypot(e[1])
+            })
+            .collect()
+    }
+
     /// The relative error of the fitted field at twelve points of a circle of radius 1
     /// carrying `ln(rho)` outside (planar) or of a sphere on the axis carrying `1 - 1 / rho`
     /// (axisymmetric): field 1 at the surface, exact at every node; `cells` per radius, the
@@ -204,43 +257,20 @@ mod fit_bias {
             o + offset[0] * h
         };
         let g = Grid::regular([ox, oy], [h, h], [n, n]);
-        let rho = |p: usize| (g.x(p % n)).hypot(g.y(p / n));
-        let phi: Vec<f64> = (0..g.len())
-            .map(|p| match mode {
-                Mode::Planar => rho(p).ln().max(0.0),
-                Mode::Axisymmetric => (1.0 - 1.0 / rho(p)).max(0.0),
-            })
-            .collect();
-        let conductor: Vec<u16> = (0..g.len())
-            .map(|p| if rho(p) <= 1.0 { 0 } else { NO_CONDUCTOR })
-            .collect();
-        let material = vec![0u16; g.len()];
-        let lat = Lattice {
-            grid: &g,
-            mode,
-            phi: &phi,
-            conductor: &conductor,
-            material: &material,
+        let exact = |x: f64, y: f64| match mode {
+            Mode::Planar => x.hypot(y).ln(),
+            Mode::Axisymmetric => 1.0 - 1.0 / x.hypot(y),
         };
-        let across = Across::Conductor {
-            potential: 0.0,
-            material: 0,
-            eps: 1.0,
-            rho: 0.0,
-            surface_points: vec![],
-        };
-        angles
+        let points: Vec<[f64; 2]> = angles
             .iter()
             .map(|t| {
                 let (s, c) = t.sin_cos();
-                let frame = Frame {
-                    at: [c, s],
-                    normal: [c, s],
-                    curvature: 1.0,
-                };
-                let e = conductor_field(&lat, &frame, &across, &FitParams::default()).unwrap();
-                e[0].hypot(e[1]) - 1.0
+                [c, s]
             })
+            .collect();
+        unit_circle_fields(&g, mode, exact, &points)
+            .into_iter()
+            .map(|e| e - 1.0)
             .collect()
     }
 
@@ -315,46 +345,18 @@ mod fit_bias {
         for k in 0..10 {
             let oy = -0.5 * h * (n - 1) as f64 + 0.1 * k as f64 * h;
             let g = Grid::regular([0.0, oy], [h, h], [nx, n]);
-            let at = |p: usize| (g.x(p % nx), g.y(p / nx));
-            let big_r = |p: usize| at(p).0.hypot(at(p).1);
-            let phi: Vec<f64> = (0..g.len())
-                .map(|p| {
-                    let r = big_r(p);
-                    if r <= 1.0 {
-                        0.0
-                    } else {
-                        -at(p).1 * (1.0 - r.powi(-3))
-                    }
+            let exact = |x: f64, y: f64| -y * (1.0 - x.hypot(y).powi(-3));
+            // The point (r, z) = (sin, cos) of each angle from the pole.
+            let points: Vec<[f64; 2]> = from_pole
+                .iter()
+                .map(|deg| {
+                    let (r, z) = deg.to_radians().sin_cos();
+                    [r, z]
                 })
                 .collect();
-            let conductor: Vec<u16> = (0..g.len())
-                .map(|p| if big_r(p) <= 1.0 { 0 } else { NO_CONDUCTOR })
-                .collect();
-            let material = vec![0u16; g.len()];
-            let lat = Lattice {
-                grid: &g,
-                mode: Mode::Axisymmetric,
-                phi: &phi,
-                conductor: &conductor,
-                material: &material,
-            };
-            let across = Across::Conductor {
-                potential: 0.0,
-                material: 0,
-                eps: 1.0,
-                rho: 0.0,
-                surface_points: vec![],
-            };
-            for (w, deg) in worst.iter_mut().zip(from_pole) {
-                // The point (r, z) = (sin, cos) of the angle from the pole.
-                let (r, z) = deg.to_radians().sin_cos();
-                let frame = Frame {
-                    at: [r, z],
-                    normal: [r, z],
-                    curvature: 1.0,
-                };
-                let e = conductor_field(&lat, &frame, &across, &FitParams::default()).unwrap();
-                let err = (e[0].hypot(e[1]) - 3.0 * z) / 3.0;
+            let fields = unit_circle_fields(&g, Mode::Axisymmetric, exact, &points);
+            for ((w, e), p) in worst.iter_mut().zip(fields).zip(&points) {
+                let err = (e - 3.0 * p[1]) / 3.0;
                 *w = w.max(err.abs());
             }
         }
