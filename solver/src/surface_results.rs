@@ -34,7 +34,8 @@ mod estimate;
 use estimate::coarse_near;
 pub use estimate::{
     conductor_fit_bias, estimate_errors, estimate_points, finish, surface_charge_errors,
-    CoarseSurface, FIT_BIAS, FIT_BIAS_CUBIC, INTERFACE_FIT_BIAS, RESOLVED_RADIUS_CELLS,
+    CoarseSurface, AXIS_REACH_CELLS, FIT_BIAS, FIT_BIAS_CUBIC, INTERFACE_FIT_BIAS,
+    RESOLVED_RADIUS_CELLS,
 };
 
 /// Surface area a sample stands for: planar m^2 per metre of depth, axisymmetric m^2.

@@ -668,13 +668,11 @@ fn space_charge_and_coax_surface_charge_estimates_follow_the_error() {
             sest / sigma,
             sest / serr.abs()
         );
-        // Measured, estimate over error: 1.16 / 1.06 / 3.11 at 10 / 20 / 40 cells. At 40
-        // cells a quarter of the estimate is the surface fit's bias (`conductor_fit_bias`,
-        // 7 (h / a)^3 = 1.1e-4) and the error 1.4e-4: above 3x, on the safe side.
+        // Measured, estimate over error: 0.65 / 0.78 / 2.30 at 10 / 20 / 40 cells; at 10 and
+        // 20 the surface fit's bias bound (`conductor_fit_bias`) is the larger part, at 40
+        // the two-grid difference. Added together, as before, they were 3.11 times the error
+        // at 40 cells (the bias 1.1e-4 of an error of 1.4e-4).
         assert!(serr + sest >= 0.0 && sest >= serr.abs() / 3.0, "{n} cells");
-        assert!(
-            n == 40.0 || sest <= 3.0 * serr.abs(),
-            "{n} cells: {sest:e} for {serr:e}"
-        );
+        assert!(sest <= 3.0 * serr.abs(), "{n} cells: {sest:e} for {serr:e}");
     }
 }

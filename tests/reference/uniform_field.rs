@@ -506,10 +506,11 @@ fn surface_charge_error_estimates_follow_the_true_error() {
             top.1 / peak,
             top.2 / peak
         );
-        // Measured: rms ratio 1.00 / 2.72 at 10 / 20 cells; at the peak 1.5 / 3.6 times the
-        // error (the fit's model bias, (h / a)^2 / 2 of the value, dominates at 20 cells).
-        // Single samples carry the fit's irregular error, which no two-grid difference
-        // follows (at 10 cells 72 of 128 samples are covered, at 20 all).
+        // Measured: rms ratio 0.82 / 1.65 at 10 / 20 cells; at the peak 1.41 / 1.60 times
+        // the error (each sample's estimate the larger of its two-grid difference and the
+        // fit's bias bound; with the two added, 1.00 / 2.39 and 1.5 / 3.0). Single samples
+        // carry the fit's irregular error, which no two-grid difference follows (at 10 cells
+        // 68 of 128 samples are covered, at 20 cells 236 of 252).
         assert!(
             (1.0 / 3.0..=3.0).contains(&(rms_est / rms)),
             "{n} cells: rms estimate {rms_est:e}, rms error {rms:e}"
@@ -653,12 +654,12 @@ fn conductors_in_a_uniform_field_peak_and_surface_charge_estimates_follow_the_er
     // Jackson 1999, sec. 2.5), as in the tests above: the reported peak field's estimate and
     // the peak surface charge's against their errors. Measured, estimate over error at 10 /
     // 20 / 40 cells (peak field; peak surface charge):
-    // - cylinder: 1.54 / 2.95 / 1.17; 1.68 / 3.40 / 1.29. Both read high on every grid (the
-    //   planar surface fit reads high on a convex surface, `FIT_BIAS`), and at 20 cells the
-    //   fit's bias, min(0.5 (h / a)^2, 7 (h / a)^3) = 0.0875 % of the value
-    //   (`conductor_fit_bias`), is above the whole error of the peak surface charge
-    //   (0.056 %): the lattice's error there offsets the fit's. Its estimate stays above 3x,
-    //   on the safe side.
+    // - cylinder: 1.41 / 1.58 / 0.68; 1.54 / 1.83 / 0.75. Both read high on every grid (the
+    //   planar surface fit reads high on a convex surface, `FIT_BIAS`). The estimate is the
+    //   larger of the two-grid difference and the fit's bias bound, min(0.5 (h / a)^2, 7 (h /
+    //   a)^3) (`conductor_fit_bias`): both lattices carry the bias at their own h, so the
+    //   difference already holds it. Added to it, as before, the peak surface charge's
+    //   estimate at 20 cells was 3.40 times its error (difference 1.8x, bias 1.6x).
     // - sphere: 56 / 6.3 / 0.44; 36 / 19 / 0.46. The error at the pole does not converge
     //   (-0.036 / +0.020 / +0.042 %; see the sphere's test above), while the estimates fall
     //   with the samples off the axis; at 40 cells the peak reads high by about twice its
@@ -709,15 +710,11 @@ fn conductors_in_a_uniform_field_peak_and_surface_charge_estimates_follow_the_er
                 est >= err.abs() / 3.0 && sest >= serr.abs() / 3.0,
                 "{what}, {n} cells: {est:e} for {err:e}, {sest:e} for {serr:e}"
             );
-            // Within 3x where the error converges and the fit's bias does not exceed it.
+            // Within 3x where the error converges.
             if what == "cylinder" {
                 assert!(
-                    est <= 3.0 * err.abs(),
-                    "{what}, {n} cells: {est:e} for {err:e}"
-                );
-                assert!(
-                    n == 20.0 || sest <= 3.0 * serr.abs(),
-                    "{what}, {n} cells: {sest:e} for {serr:e}"
+                    est <= 3.0 * err.abs() && sest <= 3.0 * serr.abs(),
+                    "{what}, {n} cells: {est:e} for {err:e}, {sest:e} for {serr:e}"
                 );
             }
         }
