@@ -365,3 +365,29 @@ pub fn finish(
     spots.iter_mut().for_each(apply);
     rank(spots, any_strength(design));
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn the_fit_bias_is_a_floor_away_from_the_axis_and_added_next_to_it() {
+        let h = 1e-4;
+        for (lattice, bias) in [(3.0, 1.0), (1.0, 3.0), (0.0, 2.0), (2.0, 0.0)] {
+            let larger = f64::max(lattice, bias);
+            // In the plane, anywhere; about the axis, from AXIS_REACH_CELLS cells on.
+            assert_eq!(
+                with_conductor_bias(lattice, bias, Mode::Planar, 0.0, h),
+                larger
+            );
+            let far = AXIS_REACH_CELLS * h;
+            let r_z = with_conductor_bias(lattice, bias, Mode::Axisymmetric, far, h);
+            assert_eq!(r_z, larger);
+            // Next to the axis, both.
+            for r in [0.0, 0.5 * far, 0.999 * far] {
+                let near = with_conductor_bias(lattice, bias, Mode::Axisymmetric, r, h);
+                assert_eq!(near, lattice + bias, "r {r}");
+            }
+        }
+    }
+}
