@@ -10,7 +10,15 @@
 //! surface cuts the edge at a fraction `theta` from a free node, the distance becomes
 //! `theta * h`, h the edge's length, and the far value is the conductor's potential
 //! (the symmetric boundary treatment of Gibou, Fedkiw, Cheng & Kang, J. Comput. Phys. 176
-//! (2002) 205-227). Symmetry sides close their control volumes with no flux; the axis
+//! (2002) 205-227). Against the rows of Shortley and Weller (J. Appl. Phys. 9 (1938)
+//! 334-348, from memory), which divide each axis's differences by the half-widths reaching
+//! the surface, these rows weigh a cut axis's differences `(theta_lo + theta_hi) / 2` times:
+//! an O(1) truncation error at cut nodes. The node potentials still converge at second
+//! order, but beside a surface they carry an offset of order h^2 that depends on `theta`;
+//! where a surface runs along a lattice line (the poles of a sphere or cylinder), `theta`
+//! changes slowly along it and the surface field read from those nodes converges at about
+//! first order there (measured in `tests/reference/uniform_field.rs`, the sphere in a
+//! uniform field). Symmetry sides close their control volumes with no flux; the axis
 //! carries none either, because the face area there is zero. Open sides add the far-field
 //! (Robin) term of [`crate::open`] to the diagonal of their nodes, recorded as links to the
 //! side's target at 0 V. In planar cells an oblique dielectric interface cuts, the cell's
