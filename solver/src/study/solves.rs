@@ -137,6 +137,8 @@ pub(super) fn solve_on(
         unit: Vec::new(),
         background: None,
     };
+    // One set of the solver's work vectors for every solve on this lattice.
+    let mut scratch = solvers::Scratch::default();
     let record = |r: Result<Info, solvers::SolveError>, infos: &mut Vec<Info>| match r {
         Ok(i) => infos.push(i),
         Err(e) => infos.push(e.info().clone()),
@@ -152,7 +154,10 @@ pub(super) fn solve_on(
             (None, None) => vec![0.0; n],
         };
         let solver = with_charge_scale(&solver_params, &links, &values);
-        record(prepared.solve(&op.stencil, &b, &mut x, &solver), &mut infos);
+        record(
+            prepared.solve_in(&op.stencil, &b, &mut x, &solver, &mut scratch),
+            &mut infos,
+        );
         response[k] = op.reactions(&x, &values, false);
         if params.keep_warm_start {
             keep.unit.push(x.clone());
@@ -178,7 +183,7 @@ pub(super) fn solve_on(
         .unwrap_or_else(|| vec![0.0; n]);
         let solver = with_charge_scale(&solver_params, &links, &values0);
         record(
-            prepared.solve(&op.stencil, &b0, &mut x0, &solver),
+            prepared.solve_in(&op.stencil, &b0, &mut x0, &solver, &mut scratch),
             &mut infos,
         );
         if params.keep_warm_start {
@@ -190,7 +195,7 @@ pub(super) fn solve_on(
     } else {
         vec![0.0; op.n_targets()]
     };
-    drop(b0);
+    drop((b0, scratch, prepared));
     stages.enter(Stage::Superposition);
 
     // Conductor-to-conductor charge response: cfull[i][k] = charge on i with k at 1 V.

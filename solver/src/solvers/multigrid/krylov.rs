@@ -77,13 +77,45 @@ unsafe fn apply_row(a: &Stencil5, x: *const f64, y: *mut f64, j: usize) -> f64 {
     dot
 }
 
+/// CG's own vectors of one solve with a fine lattice: residual, preconditioned residual
+/// (whose storage then takes `A p`), search direction and per-row partial sums. They may hold
+/// anything on entry to [`pcg`]: it writes r, zw and the partial sums before reading them,
+/// and its first search direction does not read p, so one set serves any number of solves in
+/// turn with the same bits as fresh zeroed vectors.
+pub(super) struct Vectors {
+    pub(super) r: Vec<f64>,
+    pub(super) zw: Vec<f64>,
+    pub(super) p: Vec<f64>,
+    pub(super) partial: Vec<f64>,
+}
+
+impl Vectors {
+    /// Vectors for an nx x ny fine lattice.
+    pub(super) fn new(nx: usize, ny: usize) -> Vectors {
+        let n = nx * ny;
+        Vectors {
+            r: vec![0.0; n],
+            zw: vec![0.0; n],
+            p: vec![0.0; n],
+            partial: vec![0.0; ny],
+        }
+    }
+
+    /// True when they fit the lattice of `a`.
+    fn fits(&self, a: &Stencil5) -> bool {
+        self.r.len() == a.len() && self.partial.len() == a.ny
+    }
+}
+
 /// `p = z + beta p` and then `w = A p` (w shares its storage with z), returning `p . A p`;
-/// the five-point part fused with the update, the operator's correction added after it.
+/// the five-point part fused with the update, the operator's correction added after it. The
+/// first direction (`beta` None) is `z + 0.0`, the same bits as `z + 0 * p` with p zero, and
+/// reads nothing of p.
 fn direction_and_apply(
     a: &Stencil5,
     zw: &mut [f64],
     p: &mut [f64],
-    beta: f64,
+    beta: Option<f64>,
     partial: &mut [f64],
 ) -> f64 {
     let nx = a.nx;
@@ -93,8 +125,17 @@ fn direction_and_apply(
     // the stage-by-stage order, in which z is read before w overwrites it.
     let update = |j: usize| unsafe {
         let (z, p) = (zp.get(), pp.get());
-        for q in j * nx..(j + 1) * nx {
-            *p.add(q) = *z.add(q) + beta * *p.add(q);
+        match beta {
+            Some(beta) => {
+                for q in j * nx..(j + 1) * nx {
+                    *p.add(q) = *z.add(q) + beta * *p.add(q);
+                }
+            }
+            None => {
+                for q in j * nx..(j + 1) * nx {
+                    *p.add(q) = *z.add(q) + 0.0;
+                }
+            }
         }
     };
     let apply = |j: usize| unsafe {
@@ -144,7 +185,8 @@ fn step(
     parallel::sum(partial)
 }
 
-/// Solves `A x = b` by CG preconditioned with one V-cycle of `h` per iteration.
+/// Solves `A x = b` by CG preconditioned with one V-cycle of `h` per iteration, in the
+/// scratch `ws` and `v`.
 pub(super) fn pcg(
     h: &Hierarchy,
     a: &Stencil5,
@@ -152,6 +194,7 @@ pub(super) fn pcg(
     x: &mut [f64],
     params: &Params,
     ws: &mut Workspace,
+    v: &mut Vectors,
 ) -> Result<Info, SolveError> {
     const METHOD: Method = Method::Multigrid;
     let n = a.len();
@@ -159,28 +202,26 @@ pub(super) fn pcg(
         b.len() == n && x.len() == n,
         "vector length differs from the lattice"
     );
+    assert!(v.fits(a), "scratch made for another lattice");
     let bnorm = parallel::norm2(b);
     if bnorm == 0.0 {
         x.fill(0.0);
         return Ok(Info::zero_rhs(METHOD));
     }
     let max_iter = params.iteration_limit(20 * (a.nx + a.ny) + 1000);
-    let mut r = vec![0.0; n];
-    let rel0 = a.residual(b, x, &mut r) / bnorm;
-    let mut zw = vec![0.0; n];
-    let mut p = vec![0.0; n];
-    let mut partial = vec![0.0; a.ny];
+    let Vectors { r, zw, p, partial } = v;
+    let rel0 = a.residual(b, x, r) / bnorm;
     let mut progress = Progress::new(rel0, params.tol, 200);
     let mut iterations = 0usize;
     let mut charge = ChargeStop::new(params.charge_scale.as_ref(), params.tol);
-    let mut reason = if rel0 <= params.tol && charge.may_stop(&r, x) {
+    let mut reason = if rel0 <= params.tol && charge.may_stop(r, x) {
         Some(StopReason::Converged)
     } else {
         None
     };
     if reason.is_none() {
-        let mut rz = vcycle(h, a, ws, &r, &mut zw, &mut partial);
-        let mut beta = 0.0;
+        let mut rz = vcycle(h, a, ws, r, zw, partial);
+        let mut beta = None;
         loop {
             if iterations >= max_iter {
                 // Held by the charge test alone, the relative residual met: converged.
@@ -191,30 +232,30 @@ pub(super) fn pcg(
                 });
                 break;
             }
-            let pap = direction_and_apply(a, &mut zw, &mut p, beta, &mut partial);
+            let pap = direction_and_apply(a, zw, p, beta, partial);
             if let Some(stop) = curvature_breakdown(pap) {
                 reason = Some(stop);
                 break;
             }
             let alpha = rz / pap;
-            let rel = step(a, x, &mut r, &p, &zw, alpha, &mut partial).sqrt() / bnorm;
+            let rel = step(a, x, r, p, zw, alpha, partial).sqrt() / bnorm;
             iterations += 1;
             if let Some(m) = &params.monitor {
                 m(iterations, rel);
             }
             if let Some(stop) = progress.record(rel, 1) {
-                if stop != StopReason::Converged || charge.may_stop(&r, x) {
+                if stop != StopReason::Converged || charge.may_stop(r, x) {
                     reason = Some(stop);
                     break;
                 }
             }
-            let rz_new = vcycle(h, a, ws, &r, &mut zw, &mut partial);
-            beta = rz_new / rz;
+            let rz_new = vcycle(h, a, ws, r, zw, partial);
+            beta = Some(rz_new / rz);
             rz = rz_new;
         }
     }
-    let true_rel = a.residual(b, x, &mut r) / bnorm;
-    let charge_residual = charge.ratio(&r, x);
+    let true_rel = a.residual(b, x, r) / bnorm;
+    let charge_residual = charge.ratio(r, x);
     krylov_outcome(
         METHOD,
         iterations,

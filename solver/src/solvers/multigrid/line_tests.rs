@@ -339,6 +339,13 @@ fn line_preconditioner_is_symmetric_and_keeps_fixed_nodes_at_zero() {
 }
 
 #[test]
+fn a_reused_line_scratch_gives_the_bits_of_a_fresh_one() {
+    let (a, b) = cases(211, 1e3).swap_remove(0).1.assemble();
+    let h = hierarchy(&a, Smoother::Lines);
+    super::tests::assert_reused_scratch_gives_fresh_bits(&h, &a, &b, &free_noise(&a, 7));
+}
+
+#[test]
 fn line_cycle_is_bit_identical_for_any_thread_count() {
     // Large enough for the parallel paths (at least 2^14 nodes).
     let (a, _) = cases(211, 1e3).swap_remove(0).1.assemble();

@@ -87,20 +87,30 @@ impl Hierarchy {
         x: &mut [f64],
         params: &Params,
     ) -> Result<Info, SolveError> {
-        self.check(a);
-        let mut ws = Workspace::new(self);
-        self.solve_with(a, b, x, params, &mut ws)
+        self.solve_in(a, b, x, params, &mut self.scratch())
     }
 
-    fn solve_with(
+    /// Scratch vectors for [`Hierarchy::solve_in`].
+    pub fn scratch(&self) -> Scratch {
+        Scratch {
+            cycle: Workspace::new(self),
+            cg: krylov::Vectors::new(self.fine.0, self.fine.1),
+        }
+    }
+
+    /// [`Hierarchy::solve`] in the given scratch (made by this hierarchy's
+    /// [`Hierarchy::scratch`]): the same bits, without allocating and zeroing the scratch
+    /// again for every right-hand side.
+    pub fn solve_in(
         &self,
         a: &Stencil5,
         b: &[f64],
         x: &mut [f64],
         params: &Params,
-        ws: &mut Workspace,
+        scratch: &mut Scratch,
     ) -> Result<Info, SolveError> {
-        krylov::pcg(self, a, b, x, params, ws)
+        self.check(a);
+        krylov::pcg(self, a, b, x, params, &mut scratch.cycle, &mut scratch.cg)
     }
 
     /// Solves several right-hand sides with one hierarchy and one set of scratch vectors;
@@ -112,13 +122,26 @@ impl Hierarchy {
         xs: &mut [Vec<f64>],
         params: &Params,
     ) -> Vec<Result<Info, SolveError>> {
-        self.check(a);
         assert_eq!(bs.len(), xs.len(), "one starting guess per right-hand side");
-        let mut ws = Workspace::new(self);
+        let mut scratch = self.scratch();
         bs.iter()
             .zip(xs.iter_mut())
-            .map(|(b, x)| self.solve_with(a, b, x, params, &mut ws))
+            .map(|(b, x)| self.solve_in(a, b, x, params, &mut scratch))
             .collect()
+    }
+}
+
+/// The scratch vectors of a solve with one hierarchy: the V-cycle's on every level and CG's
+/// on the fine lattice (about 40 bytes per fine node). Any number of solves may run in it in
+/// turn; each overwrites what it reads, so its results do not depend on earlier ones.
+pub struct Scratch {
+    cycle: Workspace,
+    cg: krylov::Vectors,
+}
+
+impl std::fmt::Debug for Scratch {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.debug_struct("Scratch").finish_non_exhaustive()
     }
 }
 

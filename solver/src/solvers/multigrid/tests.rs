@@ -550,14 +550,7 @@ fn results_are_bit_identical_for_any_thread_count() {
             .install(|| {
                 let h = Hierarchy::new(&a);
                 let mut xs = vec![vec![0.0; a.len()]; 2];
-                let bs = vec![
-                    b.clone(),
-                    b.iter()
-                        .map(|v| 2.0 * v + 1e-4)
-                        .zip(&a.unknown)
-                        .map(|(v, &u)| if u { v } else { 0.0 })
-                        .collect(),
-                ];
+                let bs = vec![b.clone(), second_rhs(&a, &b)];
                 let infos: Vec<Info> = h
                     .solve_many(&a, &bs, &mut xs, &Params::default())
                     .into_iter()
@@ -576,6 +569,58 @@ fn results_are_bit_identical_for_any_thread_count() {
                 "{t} threads differ"
             );
         }
+    }
+}
+
+/// `b` doubled plus a constant at the unknowns: a second right-hand side of the same operator.
+fn second_rhs(a: &Stencil5, b: &[f64]) -> Vec<f64> {
+    b.iter()
+        .map(|v| 2.0 * v + 1e-4)
+        .zip(&a.unknown)
+        .map(|(v, &u)| if u { v } else { 0.0 })
+        .collect()
+}
+
+/// Solves `b2` in a scratch that solved `b1` before (its CG vectors then set to NaN) and in a
+/// fresh one, and asserts the same bits and the same infos.
+pub(super) fn assert_reused_scratch_gives_fresh_bits(
+    h: &Hierarchy,
+    a: &Stencil5,
+    b1: &[f64],
+    b2: &[f64],
+) {
+    let params = Params::default();
+    let mut used = h.scratch();
+    let mut x = vec![0.0; a.len()];
+    h.solve_in(a, b1, &mut x, &params, &mut used).unwrap();
+    let cg = &mut used.cg;
+    for v in [&mut cg.r, &mut cg.zw, &mut cg.p, &mut cg.partial] {
+        v.fill(f64::NAN);
+    }
+    let (mut again, mut fresh) = (vec![0.0; a.len()], vec![0.0; a.len()]);
+    let i_again = h.solve_in(a, b2, &mut again, &params, &mut used).unwrap();
+    let i_fresh = h.solve(a, b2, &mut fresh, &params).unwrap();
+    assert_eq!(i_again, i_fresh);
+    assert!(
+        again
+            .iter()
+            .zip(&fresh)
+            .all(|(u, v)| u.to_bits() == v.to_bits()),
+        "a reused scratch moved the solution"
+    );
+}
+
+#[test]
+fn a_reused_scratch_gives_the_bits_of_a_fresh_one() {
+    // Parallel passes and several levels; then a lattice solved directly (no coarse level).
+    for (hard, options) in [
+        (Hard::new(181, 170), Options::default()),
+        (Hard::new(65, 50), deep()),
+        (Hard::new(20, 17), Options::default()),
+    ] {
+        let (a, b) = hard_problem(hard);
+        let h = Hierarchy::with_options(&a, &options);
+        assert_reused_scratch_gives_fresh_bits(&h, &a, &b, &second_rhs(&a, &b));
     }
 }
 
