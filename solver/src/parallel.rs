@@ -56,6 +56,22 @@ pub fn chunks<U: Send>(n: usize, f: impl Fn(std::ops::Range<usize>) -> U + Sync)
         .collect()
 }
 
+/// A vector of `n` zeros written by every thread. Its pages are first touched by these
+/// writes, spread over the threads; a zeroed allocation that is read before it is written
+/// (a starting guess, an accumulator) maps the shared zero page first and faults again to
+/// copy it on the first write.
+pub fn zeros(n: usize) -> Vec<f64> {
+    let mut v = Vec::with_capacity(n);
+    v.par_extend(rayon::iter::repeat_n(0.0, n));
+    v
+}
+
+/// `acc[i] += w * x[i]` for every i, in parallel (each entry from its own inputs alone).
+pub fn add_scaled(acc: &mut [f64], w: f64, x: &[f64]) {
+    assert_eq!(acc.len(), x.len(), "vectors of one length");
+    acc.par_iter_mut().zip(x).for_each(|(a, x)| *a += w * x);
+}
+
 /// Dot product, deterministic.
 pub fn dot(a: &[f64], b: &[f64]) -> f64 {
     assert_eq!(a.len(), b.len());
@@ -103,5 +119,34 @@ mod tests {
         };
         assert_eq!(ranges(1), ranges(3));
         assert_eq!(ranges(2)[2], (2 * CHUNK, 2 * CHUNK + 5));
+    }
+
+    #[test]
+    fn zeros_and_scaled_sums_equal_the_serial_loops_bit_for_bit() {
+        let n = 3 * CHUNK + 11;
+        let x: Vec<f64> = (0..n).map(|i| ((i as f64) * 0.71).cos() * 3.0).collect();
+        let run = |t: usize| {
+            rayon::ThreadPoolBuilder::new()
+                .num_threads(t)
+                .build()
+                .unwrap()
+                .install(|| {
+                    let mut acc = zeros(n);
+                    assert!(acc.len() == n && acc.iter().all(|v| v.to_bits() == 0));
+                    add_scaled(&mut acc, -0.3, &x);
+                    add_scaled(&mut acc, 1.0, &x);
+                    acc
+                })
+        };
+        let mut serial = vec![0.0; n];
+        for w in [-0.3, 1.0] {
+            serial.iter_mut().zip(&x).for_each(|(a, x)| *a += w * x);
+        }
+        for t in [1, 2, 3] {
+            assert!(run(t)
+                .iter()
+                .zip(&serial)
+                .all(|(a, b)| a.to_bits() == b.to_bits()));
+        }
     }
 }

@@ -14,6 +14,7 @@ use crate::design::{Design, Drive};
 use crate::grid::Grid;
 use crate::links::Link;
 use crate::operator::{self, Operator};
+use crate::parallel;
 use crate::raster::{self, Raster, NO_CONDUCTOR};
 use crate::solvers::{self, Info};
 use crate::stages::{Stage, StageMonitor, Tracker};
@@ -122,7 +123,7 @@ pub(super) fn solve_on(
         .collect();
     let fixed: Vec<usize> = (0..nc).filter(|&k| !floating.contains(&k)).collect();
     let mut infos = Vec::new();
-    let mut phi = vec![0.0; n];
+    let mut phi = parallel::zeros(n);
     let mut response = vec![Vec::new(); nc];
     let mut kept: Vec<(usize, Vec<f64>)> = Vec::new();
     let warm = params.warm_start.as_deref().filter(|w| w.fits(grid, nc));
@@ -151,7 +152,7 @@ pub(super) fn solve_on(
         let mut x = match (warm, coarse) {
             (Some(w), _) => w.unit[k].clone(),
             (None, Some(c)) => c.unit(k, &op),
-            (None, None) => vec![0.0; n],
+            (None, None) => parallel::zeros(n),
         };
         let solver = with_charge_scale(&solver_params, &links, &values);
         record(
@@ -165,7 +166,7 @@ pub(super) fn solve_on(
         match design.conductors[k].drive {
             Drive::Fixed(v) => {
                 if v != 0.0 {
-                    phi.iter_mut().zip(&x).for_each(|(p, x)| *p += v * x);
+                    parallel::add_scaled(&mut phi, v, &x);
                 }
             }
             Drive::Floating => kept.push((k, x)),
@@ -180,7 +181,7 @@ pub(super) fn solve_on(
             (None, Some(c)) => c.background(&op),
             (None, None) => None,
         }
-        .unwrap_or_else(|| vec![0.0; n]);
+        .unwrap_or_else(|| parallel::zeros(n));
         let solver = with_charge_scale(&solver_params, &links, &values0);
         record(
             prepared.solve_in(&op.stencil, &b0, &mut x0, &solver, &mut scratch),
@@ -190,7 +191,8 @@ pub(super) fn solve_on(
             keep.background = Some(x0.clone());
         }
         let q = op.reactions(&x0, &values0, true);
-        phi.iter_mut().zip(&x0).for_each(|(p, x)| *p += x);
+        // 1.0 * x is x: the same bits as adding x.
+        parallel::add_scaled(&mut phi, 1.0, &x0);
         q
     } else {
         vec![0.0; op.n_targets()]
@@ -241,7 +243,7 @@ pub(super) fn solve_on(
         }
         for (k, x) in &kept {
             let v = potentials[*k];
-            phi.iter_mut().zip(x).for_each(|(p, x)| *p += v * x);
+            parallel::add_scaled(&mut phi, v, x);
         }
         // Reduced Maxwell matrix: C_SS - C_SF C_FF^-1 C_FS.
         maxwell = fixed
@@ -266,19 +268,22 @@ pub(super) fn solve_on(
     // Fixed nodes hold their own potentials.
     let side_values = op.target_values(&potentials, true);
     let (nx, ny) = (grid.nx, grid.ny);
-    for p in 0..n {
-        if op.stencil.unknown[p] {
-            continue;
+    parallel::for_each_row(&mut phi, nx, |j, row| {
+        for (i, v) in row.iter_mut().enumerate() {
+            let p = i + j * nx;
+            if op.stencil.unknown[p] {
+                continue;
+            }
+            let k = raster.conductor[p];
+            *v = if k != NO_CONDUCTOR {
+                potentials[k as usize]
+            } else {
+                let s = operator::fixed_side(&op.side_potential, nx, ny, i, j)
+                    .expect("a fixed free node lies on a fixed side");
+                side_values[op.side_target(s) as usize]
+            };
         }
-        let k = raster.conductor[p];
-        phi[p] = if k != NO_CONDUCTOR {
-            potentials[k as usize]
-        } else {
-            let s = operator::fixed_side(&op.side_potential, nx, ny, p % nx, p / nx)
-                .expect("a fixed free node lies on a fixed side");
-            side_values[op.side_target(s) as usize]
-        };
-    }
+    });
     stages.leave();
     Ok(Core {
         raster,
