@@ -7,7 +7,8 @@
 //! setup and three solves, [`fieldgrid_benches::benchmark_problem`]), and, when a `fieldgrid` binary is
 //! given or found beside this one, the whole process from start to exit. It prints per stage
 //! the median wall and CPU seconds, and the ratios of the totals to setup + three solves and
-//! to the three solves alone. The process keeps freed memory for reuse as the command does
+//! to the three solves alone, with the whole process's page faults and peak resident set. The
+//! process keeps freed memory for reuse as the command does
 //! ([`fieldgrid_cli::keep_freed_memory`]).
 //!
 //! `cargo bench -p fieldgrid-benches --bench pipeline -- [--sizes 1024,2048] [--repeats 3]
@@ -161,6 +162,7 @@ fn main() {
             let (mut mg, mut mg_cpu, mut whole, mut whole_cpu) =
                 (Vec::new(), Vec::new(), Vec::new(), Vec::new());
             let (mut whole_ratio, mut whole_over_solves) = (Vec::new(), Vec::new());
+            let (mut faults, mut peak_mib) = (Vec::new(), 0.0f64);
             for _ in 0..args.repeats {
                 let (stages, tot) = in_process(&cmd);
                 let mut solver = (0.0, 0.0);
@@ -218,6 +220,17 @@ fn main() {
                             .sum()
                     };
                     let solver = stage(&SOLVER_STAGES);
+                    // Its peak resident set and page faults, from the table's last line (the
+                    // parent's `getrusage` would count the memory this process held when it
+                    // started the child).
+                    if let Some((mib, f)) = stderr.lines().find_map(|l| {
+                        let f: Vec<&str> = l.split_whitespace().collect();
+                        (f.len() >= 5 && f[0] == "peak" && f[1] == "resident")
+                            .then(|| Some((f[2].parse::<f64>().ok()?, f[4].parse::<f64>().ok()?)))?
+                    }) {
+                        peak_mib = peak_mib.max(mib);
+                        faults.push(f);
+                    }
                     whole_over_solves.push(w / stage(&["solves"]));
                     whole_ratio.push(w / solver);
                 }
@@ -282,6 +295,14 @@ fn main() {
                     median(whole_over_solves),
                     w / mg
                 );
+                if !faults.is_empty() {
+                    println!(
+                        "  whole process memory: peak resident {:.0} MiB, {:.0} minor page \
+                         faults (median)",
+                        peak_mib,
+                        median(faults)
+                    );
+                }
             }
         }
     }

@@ -48,6 +48,30 @@ pub fn cpu_seconds() -> Option<f64> {
     Some((tick(11)? + tick(12)?) / 100.0)
 }
 
+/// The process's peak resident set, MiB (VmHWM of /proc/self/status: this program's own
+/// memory, not what a parent held before it started), and its minor page faults so far
+/// (field 10 of /proc/self/stat); `None` where those do not exist.
+pub fn memory() -> Option<(f64, u64)> {
+    let status = std::fs::read_to_string("/proc/self/status").ok()?;
+    let kib: f64 = status
+        .lines()
+        .find_map(|l| l.strip_prefix("VmHWM:"))?
+        .trim()
+        .trim_end_matches("kB")
+        .trim()
+        .parse()
+        .ok()?;
+    let stat = std::fs::read_to_string("/proc/self/stat").ok()?;
+    let faults = stat
+        .rsplit_once(')')?
+        .1
+        .split_whitespace()
+        .nth(7)?
+        .parse()
+        .ok()?;
+    Some((kib / 1024.0, faults))
+}
+
 fn since(t0: Option<f64>, t1: Option<f64>) -> Option<f64> {
     Some(t1? - t0?)
 }
@@ -114,8 +138,8 @@ impl Timings {
         }
     }
 
-    /// The table `--timings` prints: one line per stage, the rest of the run, the total, and
-    /// the total over the solver's setup and solves.
+    /// The table `--timings` prints: one line per stage, the rest of the run, the total, the
+    /// total over the solver's setup and solves, and the peak memory and page faults.
     pub fn table(&self) -> String {
         use std::fmt::Write;
         let stages = self.stages();
@@ -151,6 +175,12 @@ impl Timings {
                 }
             );
         }
+        if let Some((mib, faults)) = memory() {
+            let _ = writeln!(
+                out,
+                "  peak resident {mib:.0} MiB, {faults} minor page faults"
+            );
+        }
         out
     }
 }
@@ -173,5 +203,11 @@ mod tests {
         assert!(table.contains("\n  solver_setup "));
         assert!(table.contains("\n  pictures "));
         assert!(table.contains("\n  total "));
+        #[cfg(target_os = "linux")]
+        {
+            let (mib, faults) = memory().expect("Linux reports memory");
+            assert!(mib > 0.0 && faults > 0, "{mib} MiB, {faults} faults");
+            assert!(table.contains("\n  peak resident "));
+        }
     }
 }
