@@ -45,7 +45,11 @@ pub(crate) fn pcg(
     let mut z = vec![0.0; n];
     let mut p = vec![0.0; n];
     let mut ap = vec![0.0; n];
-    let mut progress = Progress::new(rel0, params.tol, 200);
+    // The residual's norm is not monotone in CG: on a strongly graded lattice (cells next to
+    // a junction 1e-6 of the largest) it stands still for hundreds of iterations while the
+    // error still falls, about as many as the lattice has lines; stagnation waits that long.
+    let window = (2 * (a.nx + a.ny)).max(200);
+    let mut progress = Progress::new(rel0, params.tol, window);
     let mut iterations = 0;
     let mut charge = ChargeStop::new(params.charge_scale.as_ref(), params.tol);
     let mut reason = if rel0 <= params.tol && charge.may_stop(&r, x) {
