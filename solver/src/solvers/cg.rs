@@ -51,8 +51,8 @@ pub(crate) fn pcg(
     let window = (2 * (a.nx + a.ny)).max(200);
     let mut progress = Progress::new(rel0, params.tol, window);
     let mut iterations = 0;
-    let mut charge = ChargeStop::new(params.charge_scale.as_ref(), params.tol);
-    let mut reason = if rel0 <= params.tol && charge.may_stop(&r, x) {
+    let mut charge = ChargeStop::new(params.charge_scale.as_ref(), params.tol, window);
+    let mut reason = if rel0 <= params.tol && charge.may_stop(&r, x, 0) {
         Some(StopReason::Converged)
     } else {
         None
@@ -90,7 +90,7 @@ pub(crate) fn pcg(
                 m(iterations, rel);
             }
             if let Some(stop) = progress.record(rel, 1) {
-                if stop != StopReason::Converged || charge.may_stop(&r, x) {
+                if stop != StopReason::Converged || charge.may_stop(&r, x, iterations) {
                     reason = Some(stop);
                     break;
                 }

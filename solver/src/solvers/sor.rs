@@ -129,11 +129,12 @@ pub fn solve(a: &Stencil5, b: &[f64], x: &mut [f64], params: &Params) -> Result<
     let check_every = 10;
     let mut r = vec![0.0; a.len()];
     let rel0 = a.residual(b, x, &mut r) / bnorm;
-    let mut progress = Progress::new(rel0, params.tol, 2000);
-    let mut charge = ChargeStop::new(params.charge_scale.as_ref(), params.tol);
+    let window = 2000;
+    let mut progress = Progress::new(rel0, params.tol, window);
+    let mut charge = ChargeStop::new(params.charge_scale.as_ref(), params.tol, window);
     let (mut rel, mut iterations) = (rel0, 0);
     let reason = loop {
-        if rel <= params.tol && charge.may_stop(&r, x) {
+        if rel <= params.tol && charge.may_stop(&r, x, iterations) {
             break StopReason::Converged;
         }
         if iterations >= max_iter {

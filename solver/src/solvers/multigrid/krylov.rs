@@ -213,8 +213,10 @@ pub(super) fn pcg(
     let rel0 = a.residual(b, x, r) / bnorm;
     let mut progress = Progress::new(rel0, params.tol, 200);
     let mut iterations = 0usize;
-    let mut charge = ChargeStop::new(params.charge_scale.as_ref(), params.tol);
-    let mut reason = if rel0 <= params.tol && charge.may_stop(r, x) {
+    // One iteration cuts the residual about tenfold: ten without halving the charge test's
+    // ratio are its rounding floor.
+    let mut charge = ChargeStop::new(params.charge_scale.as_ref(), params.tol, 10);
+    let mut reason = if rel0 <= params.tol && charge.may_stop(r, x, 0) {
         Some(StopReason::Converged)
     } else {
         None
@@ -244,7 +246,7 @@ pub(super) fn pcg(
                 m(iterations, rel);
             }
             if let Some(stop) = progress.record(rel, 1) {
-                if stop != StopReason::Converged || charge.may_stop(r, x) {
+                if stop != StopReason::Converged || charge.may_stop(r, x, iterations) {
                     reason = Some(stop);
                     break;
                 }
