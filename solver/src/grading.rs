@@ -481,10 +481,12 @@ fn nearest_other(lines: &[f64], t: f64) -> f64 {
     below.min(above)
 }
 
-/// The target size at `t`: the smallest cone, capped at `coarsest`.
-fn target(t: f64, features: &[Feature], slope: f64, coarsest: f64) -> f64 {
+/// The target size at `a + u`: the smallest cone, capped at `coarsest`. Distances are taken
+/// from `a`, so a point on `a` (or `b`) is exactly `u` (or `b - a - u`) away however large
+/// the coordinates: next to a graded point the size is a steep power of that distance.
+fn target(a: f64, u: f64, features: &[Feature], slope: f64, coarsest: f64) -> f64 {
     features.iter().fold(coarsest, |h, f| {
-        let dist = (f.lo - t).max(t - f.hi).max(0.0);
+        let dist = ((f.lo - a) - u).max(u - (f.hi - a)).max(0.0);
         h.min(f.at(dist, slope))
     })
 }
@@ -571,9 +573,12 @@ fn stretches<'a>(
     })
 }
 
-/// `s(t) = ∫_a^t dt / h` over `[a, b]` into `table` as `(t, s)` pairs, returning `s(b)`:
-/// the trapezoid rule on steps of h/16 from `a`, so the piecewise-linear map has slope
-/// dt/ds the harmonic mean of two target sizes, never above either.
+/// `s(t) = ∫_a^t dt / h` over `[a, b]` into `table` as `(t - a, s)` pairs, returning
+/// `s(b)`: the trapezoid rule on steps of h/16 from `a`, so the piecewise-linear map has
+/// slope dt/ds the harmonic mean of two target sizes, never above either. The steps add up
+/// from the stretch start, not in absolute coordinates, so that the many small steps next to
+/// a graded point do not gather the rounding of a large coordinate (a translated design
+/// gets its lines translated).
 fn integral(
     a: f64,
     b: f64,
@@ -583,15 +588,16 @@ fn integral(
     table: &mut Vec<(f64, f64)>,
 ) -> f64 {
     table.clear();
-    let (mut t, mut s) = (a, 0.0);
-    let mut h = target(a, near, slope, coarsest);
-    table.push((t, s));
-    while t < b {
-        let t1 = (t + h / 16.0).min(b);
-        let h1 = target(t1, near, slope, coarsest);
-        s += 0.5 * (t1 - t) * (1.0 / h + 1.0 / h1);
-        (t, h) = (t1, h1);
-        table.push((t, s));
+    let len = b - a;
+    let (mut u, mut s) = (0.0, 0.0);
+    let mut h = target(a, 0.0, near, slope, coarsest);
+    table.push((u, s));
+    while u < len {
+        let u1 = (u + h / 16.0).min(len);
+        let h1 = target(a, u1, near, slope, coarsest);
+        s += 0.5 * (u1 - u) * (1.0 / h + 1.0 / h1);
+        (u, h) = (u1, h1);
+        table.push((u, s));
     }
     s
 }
@@ -610,8 +616,8 @@ fn graded_axis(axis: &Axis, coarsest: f64, params: &Params, slope: f64, split: u
             while table[k + 1].1 < si {
                 k += 1;
             }
-            let ((t0, s0), (t1, s1)) = (table[k], table[k + 1]);
-            let ti = t0 + (t1 - t0) * (si - s0) / (s1 - s0);
+            let ((u0, s0), (u1, s1)) = (table[k], table[k + 1]);
+            let ti = a + (u0 + (u1 - u0) * (si - s0) / (s1 - s0));
             if ti > out[out.len() - 1] && ti < b {
                 out.push(ti);
             }
