@@ -246,13 +246,13 @@ const TARGET_CODE: &str = "accuracy-target";
 
 impl AccuracyError {
     /// The stable code of this error (lower case words joined by `-`, never renamed or
-    /// reused): the loop's own refusal of its target, or which kind of study failed (whose
-    /// error carries the details and its own code).
+    /// reused): the loop's own refusal of its target, or the failed study's own code (the
+    /// design's, the lattice's, the operator's, the signals' or the line's).
     pub fn code(&self) -> &'static str {
         match self {
             AccuracyError::Target(_) => TARGET_CODE,
-            AccuracyError::Study(_) => "study",
-            AccuracyError::Line(_) => "line-study",
+            AccuracyError::Study(e) => e.code(),
+            AccuracyError::Line(e) => e.code(),
         }
     }
 }

@@ -118,6 +118,17 @@ pub enum LineStudyError {
     Line(#[from] LineError),
 }
 
+impl LineStudyError {
+    /// The stable code of the error within (the signals', a study's or the line's).
+    pub fn code(&self) -> &'static str {
+        match self {
+            LineStudyError::Signals(e) => e.code(),
+            LineStudyError::Study(e) => e.code(),
+            LineStudyError::Line(e) => e.code(),
+        }
+    }
+}
+
 /// Checks that `signals` name distinct fixed-potential conductors of a planar design.
 pub fn check_signals(design: &Design, signals: &[String]) -> Result<(), SignalError> {
     if design.mode != Mode::Planar {

@@ -292,3 +292,15 @@ fn a_denser_member_lies_between_the_bisections_around_it() {
     // Every other line of the denser member is its coarser member: the estimate's family.
     assert_eq!(denser.coarsened(), member(1.5, BISECTIONS - 1));
 }
+
+#[test]
+fn a_failed_study_s_code_is_its_own_not_the_wrapper_s() {
+    use crate::line::LineError;
+    assert_eq!(AccuracyError::Target(2.0).code(), "accuracy-target");
+    assert_eq!(
+        AccuracyError::from(GridError::Domain).code(),
+        "empty-domain"
+    );
+    let line = AccuracyError::Line(LineStudyError::Line(LineError::Shape));
+    assert_eq!(line.code(), "matrix-shape");
+}

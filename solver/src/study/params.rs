@@ -107,6 +107,17 @@ pub enum StudyError {
     Operator(#[from] OperatorError),
 }
 
+impl StudyError {
+    /// The stable code of the error within (the design's, the lattice's or the operator's).
+    pub fn code(&self) -> &'static str {
+        match self {
+            StudyError::Design(e) => e.code(),
+            StudyError::Grid(e) => e.code(),
+            StudyError::Operator(e) => e.code(),
+        }
+    }
+}
+
 /// The solutions of a study's solves on its lattice, to start the solves of a nearby
 /// design's study on the same lattice from: one per conductor at 1 V (every other at 0 V)
 /// and the sides and free charge's. Any starting guess converges to the same tolerance (the
