@@ -807,9 +807,11 @@ fn sphere_surface_field_is_second_order_at_the_surface() {
 fn sphere_peak_field_and_surface_charge_estimates_follow_the_error() {
     // The spherical capacitor of the test above (Griffiths 2017, sec. 2.5.4): E(a) =
     // V b / (a (b - a)), sigma = eps0 E(a) all round the inner sphere. Measured, estimate over
-    // error at 10 / 20 / 40 cells: peak field 5.72 / 0.92 / 1.09, peak surface charge 1.45 /
-    // 1.05 / 0.75 (each the larger of the two-grid difference and the fit's bias bound, the
-    // peak far from the axis; with the two added: 7.3 / 1.7 / 1.6 and 2.8 / 2.1 / 1.2). At 10
+    // error at 10 / 20 / 40 cells: peak field 5.72 / 0.92 / 1.67, peak surface charge 1.45 /
+    // 1.05 / 1.59 (each the largest of the two-grid difference, the fit's bias bound and, at
+    // 40 cells, the cut rows' offset bound `row_offset_bound`, the peak far from the axis;
+    // without that bound 1.09 and 0.75 at 40 cells; with the difference and the bias added:
+    // 7.3 / 1.7 / 1.6 and 2.8 / 2.1 / 1.2). At 10
     // cells the peak's estimate compares with the lattice of five cells across the radius,
     // below the seven from which the fit's bias is bounded (`FIT_BIAS`): its samples on the
     // inner sphere read 2.6 to 6.1 % low, where the fine ones read 0.32 % high, and the

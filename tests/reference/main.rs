@@ -12,6 +12,7 @@ mod hotspots;
 mod line;
 mod manufactured;
 mod nested;
+mod off_row;
 mod open;
 mod planar;
 mod uniform_field;
