@@ -152,6 +152,21 @@ fn obstacles<'a>(
     }
 }
 
+/// The highest and lowest relative permittivity among the materials beside conductor k on
+/// this lattice (those of the free nodes linked to it); `None` when it has no free node beside
+/// it.
+pub fn permittivities_beside(field: &FieldEval, design: &Design, k: usize) -> Option<[f64; 2]> {
+    let mut out: Option<[f64; 2]> = None;
+    for l in field.op.links.iter().filter(|l| l.target as usize == k) {
+        let m = field.raster.material[l.node as usize];
+        let e = crate::material::of(design, m).permittivity;
+        let [hi, lo] = out.get_or_insert([e, e]);
+        *hi = hi.max(e);
+        *lo = lo.min(e);
+    }
+    out
+}
+
 /// The weight of conductor k's volume force on this lattice (the design's own), or why the
 /// conductor does not stand in one material clear of every other body by enough cells for a
 /// band.

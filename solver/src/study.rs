@@ -13,7 +13,7 @@
 //! results hold a NaN or an infinity (every solve converged, yet the numbers overflowed) is
 //! never reported as converged.
 
-use crate::design::{Design, Drive, Mode};
+use crate::design::{Design, Drive, Lattice, Mode};
 use crate::forces::{self, ForceMethod, NoBand};
 use crate::grid::{Grid, GridError};
 use crate::operator::{Operator, SideId};
@@ -374,11 +374,30 @@ fn operating_point(
     let error_model = estimate.map(|(m, _)| m);
     // The coarse force counts only when its own path sees the conductor's field: a layer
     // that the coarse lattice does not resolve gives a coarse force unrelated to the fine one.
-    let path_error = |k: usize, f: [f64; 2]| -> Option<[f64; 2]> {
+    // A conductor on an interface: the path passes its junctions, whose singular field sets
+    // the order (the junction's cells shrink 2^(1 / mu) per member of a graded family, with
+    // mu the grading's exponent there, and as the lattice's ratio on a uniform one).
+    let path_error = |k: usize, f: [f64; 2], why: NoBand| -> Option<[f64; 2]> {
         let (m, cf) = estimate?;
         let c = post::force_on_path(cf, design, k);
-        (c.seen(m.coarse_charges[k]) >= post::RESOLVED_FORCE_SHARE)
-            .then(|| [m.estimate(f[0], c.force[0]), m.estimate(f[1], c.force[1])])
+        if c.seen(m.coarse_charges[k]) < post::RESOLVED_FORCE_SHARE {
+            return None;
+        }
+        let eps =
+            forces::permittivities_beside(field, design, k).filter(|_| why == NoBand::Interface);
+        Some(match eps {
+            Some([hi, lo]) => {
+                let lambda = estimate::junction_exponent(hi, lo);
+                let shrink = if design.lattice == Lattice::Graded {
+                    2f64.powf(1.0 / crate::grading::Params::default().junction_grading)
+                } else {
+                    m.ratio
+                };
+                let e = |i: usize| m.estimate_at_junction(f[i], c.force[i], lambda, shrink);
+                [e(0), e(1)]
+            }
+            None => [m.estimate(f[0], c.force[0]), m.estimate(f[1], c.force[1])],
+        })
     };
     // A volume force is compared with the same weight's integral on the coarse lattice.
     let volume_error = |k: usize, w: &forces::Weight, f: [f64; 2]| -> Option<[f64; 2]> {
@@ -412,7 +431,7 @@ fn operating_point(
                 Ok((f, w)) => (f, volume_error(k, &w, f), ForceMethod::Volume),
                 Err(why) => (
                     path.force,
-                    path_error(k, path.force),
+                    path_error(k, path.force, why),
                     ForceMethod::Path(why),
                 ),
             };

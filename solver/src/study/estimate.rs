@@ -55,6 +55,19 @@ impl ErrorModel {
         (fine - coarse).abs() / (self.ratio.powf(self.order) - 1.0)
     }
 
+    /// Estimated error of a fine-lattice result integrated along a path that passes a
+    /// junction where the potential goes as `r^lambda`, `lambda` in (1/2, 1): the path's
+    /// stress there goes as `r^(2 lambda - 2)`, so its sum misses about `h^(2 lambda - 1)` of
+    /// the integral with `h` the cells at the junction, and the result converges no faster
+    /// than that, whatever the matrix shows. `shrink`: how many times smaller the junction's
+    /// cells are on the fine lattice than on the coarse one (> 1). Never below
+    /// [`ErrorModel::estimate`].
+    pub fn estimate_at_junction(&self, fine: f64, coarse: f64, lambda: f64, shrink: f64) -> f64 {
+        let q = 2.0 * lambda - 1.0;
+        let at_junction = (fine - coarse).abs() / (shrink.powf(q) - 1.0);
+        at_junction.max(self.estimate(fine, coarse))
+    }
+
     /// Estimated error of a fine-lattice quantity derived from the matrices, from its values
     /// on the coarse and (when solved) the four times coarser lattice.
     ///
@@ -79,6 +92,37 @@ impl ErrorModel {
             d1.abs().max(d2.abs())
         }
     }
+}
+
+/// The singular exponent `lambda` of the potential `r^lambda` at a right-angled conductor
+/// corner lying on a flat dielectric interface (the junction a rectilinear design makes where
+/// a conductor sits on a layer): the conductor's face along the interface borders the
+/// half-plane of relative permittivity `eps_half`, its other face the quadrant of
+/// `eps_quadrant`. Separation of variables in the two wedges (potential zero on both
+/// conductor faces, potential and normal flux continuous across the interface) gives the
+/// smallest root in (1/2, 1) of
+/// `eps_half sin(lambda pi / 2) cos(lambda pi) + eps_quadrant cos(lambda pi / 2) sin(lambda pi) = 0`
+/// (common practice; the method is that of J. Meixner, "The behavior of electromagnetic
+/// fields at edges", IEEE Trans. Antennas Propag. 20 (1972) 442-446, from memory). 2/3 in one
+/// medium; towards 1/2 as `eps_half / eps_quadrant` grows; above 2/3 when the half-plane holds
+/// the lower permittivity. Both permittivities > 0.
+pub fn junction_exponent(eps_half: f64, eps_quadrant: f64) -> f64 {
+    use std::f64::consts::PI;
+    let g = |l: f64| {
+        eps_half * (l * PI / 2.0).sin() * (l * PI).cos()
+            + eps_quadrant * (l * PI / 2.0).cos() * (l * PI).sin()
+    };
+    // g(1/2) > 0 and g(1) < 0: bisection to the first sign change (g has one root there).
+    let (mut a, mut b) = (0.5, 1.0);
+    for _ in 0..60 {
+        let m = 0.5 * (a + b);
+        if g(m) > 0.0 {
+            a = m;
+        } else {
+            b = m;
+        }
+    }
+    0.5 * (a + b)
 }
 
 /// The order observed from results on three lattices with spacings h, r h, r^2 h:
@@ -359,6 +403,38 @@ mod tests {
         let want = m.estimate(1.0, 1.4);
         assert_eq!(m.estimate_derived(1.0, 1.4, Some(0.2)), want);
         assert_eq!(model(true).estimate_derived(1.0, 1.4, None), want);
+    }
+
+    #[test]
+    fn the_junction_exponent_matches_its_limits() {
+        // One medium: the right-angled corner's 2/3, where the equation reduces to
+        // sin(3 lambda pi / 2) = 0.
+        assert!((junction_exponent(1.0, 1.0) - 2.0 / 3.0).abs() < 1e-12);
+        // Copper on FR-4 (4.4) with air beside it: 0.56 (grading.rs quotes it).
+        let l = junction_exponent(4.4, 1.0);
+        assert!((l - 0.5593).abs() < 1e-4, "{l}");
+        // A strong contrast tends to the thin edge's 1/2; the lower permittivity on the
+        // half-plane makes the corner milder than 2/3.
+        let l = junction_exponent(1000.0, 1.0);
+        assert!(l > 0.5 && l < 0.501, "{l}");
+        assert!(junction_exponent(1.0, 7.5) > 2.0 / 3.0);
+    }
+
+    #[test]
+    fn a_path_through_a_junction_converges_at_its_own_order() {
+        // Nitride (7.5) under the conductor, air beside: lambda about 0.5375, so the path's
+        // error falls as h^0.075; cells shrinking 2^1.5 per member give (2^1.5)^0.075 - 1,
+        // about 0.081: the fine value's error is about 12 times the last difference.
+        let m = model(true);
+        let l = junction_exponent(7.5, 1.0);
+        assert!((l - 0.5375).abs() < 1e-4, "{l}");
+        let e = m.estimate_at_junction(1.0, 1.001, l, 2f64.powf(1.5));
+        let want = 1e-3 / (2f64.powf(1.5).powf(2.0 * l - 1.0) - 1.0);
+        assert!((e - want).abs() < 1e-12 && e > 11e-3 && e < 13e-3, "{e}");
+        // Never below the matrix order's estimate: at one medium with the cells halving,
+        // h^(1/3) is slower than the model's 1.5, so the junction's estimate stands.
+        let e = m.estimate_at_junction(1.0, 1.001, 2.0 / 3.0, 2.0);
+        assert!(e >= m.estimate(1.0, 1.001));
     }
 
     #[test]
