@@ -337,14 +337,25 @@ pub fn solution_maps(
     log_field: bool,
     opts: &RenderOptions,
 ) -> (RgbImage, RgbImage, Option<RgbImage>) {
+    solution_maps_with(src, sol, log_field, opts, |_, img| img)
+}
+
+/// [`solution_maps`], each picture handed to `finish` with its file name as soon as it is
+/// drawn (on the thread that drew it, while the others are still being drawn).
+pub fn solution_maps_with<T: Send>(
+    src: &DesignSource,
+    sol: &Solution,
+    log_field: bool,
+    opts: &RenderOptions,
+    finish: impl Fn(&str, RgbImage) -> T + Sync,
+) -> (T, T, Option<T>) {
     let shown = shown_field(sol);
     let ((potential, field), margin) = rayon::join(
-        || maps_of(src, sol, &shown, log_field, opts),
-        || margin_map_of(src, sol, &shown, opts),
+        || maps_with(src, sol, &shown, log_field, opts, &finish),
+        || margin_map_of(src, sol, &shown, opts).map(|m| finish("margin.png", m)),
     );
     (potential, field, margin)
 }
-
 /// `potential.png` and `field.png` of a solution; `log_field` draws the field on a
 /// logarithmic scale. The two pictures are drawn at the same time (each on its own).
 pub fn field_maps(
@@ -353,17 +364,19 @@ pub fn field_maps(
     log_field: bool,
     opts: &RenderOptions,
 ) -> (RgbImage, RgbImage) {
-    maps_of(src, sol, &shown_field(sol), log_field, opts)
+    maps_with(src, sol, &shown_field(sol), log_field, opts, &|_, img| img)
 }
 
-/// [`field_maps`] with the field shown, `shown` (see [`shown_field`]).
-fn maps_of(
+/// [`field_maps`] with the field shown, `shown` (see [`shown_field`]), each picture handed to
+/// `finish` with its file name as soon as it is drawn.
+fn maps_with<T: Send>(
     src: &DesignSource,
     sol: &Solution,
     shown: &[f64],
     log_field: bool,
     opts: &RenderOptions,
-) -> (RgbImage, RgbImage) {
+    finish: &(impl Fn(&str, RgbImage) -> T + Sync),
+) -> (T, T) {
     let design = &src.design;
     let scene = Scene::new(src, sol, opts);
     let potential_map = || {
@@ -403,7 +416,7 @@ fn maps_of(
             count: 24,
             permittivity: Some(&eps),
         });
-        render::render_map(&map, opts)
+        finish("potential.png", render::render_map(&map, opts))
     };
     let field_map = || {
         let magnitude = shown;
@@ -456,7 +469,7 @@ fn maps_of(
         map.pins = &pins;
         map.contours = ContourStyle::None;
         map.scale = if log_field { Scale::Log } else { Scale::Linear };
-        render::render_map(&map, opts)
+        finish("field.png", render::render_map(&map, opts))
     };
     rayon::join(potential_map, field_map)
 }

@@ -445,17 +445,37 @@ pub fn force_on_path(field: &FieldEval, design: &Design, k: usize) -> PathForce 
     let (nx, ny) = (g.nx, g.ny);
     let n = g.len();
     let raster = field.raster;
-    let mut inside = vec![false; n];
-    for p in 0..n {
-        if raster.conductor[p] as usize == k && raster.conductor[p] != NO_CONDUCTOR {
-            inside[p] = true;
+    // The nodes inside the path (the conductor's and the free nodes linked to it) lie in the
+    // window `cols` x `rows`; the mask covers the window alone, and nodes are visited in node
+    // order within it, so the sums are those of a loop over the whole lattice.
+    let own = |p: usize| raster.conductor[p] as usize == k && raster.conductor[p] != NO_CONDUCTOR;
+    let linked = op.links.iter().filter(|l| l.target as usize == k);
+    let Some((cols, rows)) = path_window(g, n, &own, linked.clone().map(|l| l.node as usize))
+    else {
+        return PathForce {
+            force: [0.0; 2],
+            flux: 0.0,
+            abs_flux: 0.0,
+        };
+    };
+    let w = cols.end - cols.start;
+    let at = |p: usize| (p / nx - rows.start) * w + (p % nx - cols.start);
+    let mut mask = vec![false; w * (rows.end - rows.start)];
+    for j in rows.clone() {
+        for i in cols.clone() {
+            let p = i + j * nx;
+            if own(p) {
+                mask[at(p)] = true;
+            }
         }
     }
-    for l in &op.links {
-        if l.target as usize == k {
-            inside[l.node as usize] = true;
-        }
+    for p in linked.map(|l| l.node as usize) {
+        mask[at(p)] = true;
     }
+    let inside = |p: usize| {
+        let (i, j) = (p % nx, p / nx);
+        cols.contains(&i) && rows.contains(&j) && mask[at(p)]
+    };
     let axi = design.mode == Mode::Axisymmetric;
     let eps_of = |p: usize| crate::material::of(design, raster.material[p]).permittivity;
     let mut f = [0.0f64; 2];
@@ -470,10 +490,10 @@ pub fn force_on_path(field: &FieldEval, design: &Design, k: usize) -> PathForce 
             [0.0, 0.0]
         }
     };
-    for j in 0..ny {
-        for i in 0..nx {
+    for j in rows.clone() {
+        for i in cols.clone() {
             let p = i + j * nx;
-            if !inside[p] {
+            if !inside(p) {
                 continue;
             }
             let nbrs = [
@@ -483,7 +503,7 @@ pub fn force_on_path(field: &FieldEval, design: &Design, k: usize) -> PathForce 
                 (j > 0, p.wrapping_sub(nx), [0.0, -1.0]),
             ];
             for (ok, q, nrm) in nbrs {
-                if !ok || inside[q] {
+                if !ok || inside(q) {
                     continue;
                 }
                 if !op.stencil.unknown[q]
@@ -551,6 +571,43 @@ pub fn force_on_path(field: &FieldEval, design: &Design, k: usize) -> PathForce 
         flux,
         abs_flux,
     }
+}
+
+/// The columns and rows spanning every node for which `own` holds and every node of
+/// `linked`, `None` when there is none. The lattice (`n` nodes) is scanned in chunks on every
+/// thread; the bounds do not depend on how it is cut.
+fn path_window(
+    g: &crate::grid::Grid,
+    n: usize,
+    own: &(impl Fn(usize) -> bool + Sync),
+    linked: impl Iterator<Item = usize>,
+) -> Option<(std::ops::Range<usize>, std::ops::Range<usize>)> {
+    // (lowest node, highest node) of each chunk: rows from the nodes, columns per row.
+    type Span = Option<[usize; 4]>;
+    let widen = |s: Span, p: usize| -> Span {
+        let (i, j) = (p % g.nx, p / g.nx);
+        Some(match s {
+            None => [i, i, j, j],
+            Some([i0, i1, j0, j1]) => [i0.min(i), i1.max(i), j0.min(j), j1.max(j)],
+        })
+    };
+    let join = |a: Span, b: Span| -> Span {
+        match (a, b) {
+            (Some(a), Some(b)) => Some([
+                a[0].min(b[0]),
+                a[1].max(b[1]),
+                a[2].min(b[2]),
+                a[3].max(b[3]),
+            ]),
+            (a, None) => a,
+            (None, b) => b,
+        }
+    };
+    let scanned = crate::parallel::chunks(n, |range| range.filter(|&p| own(p)).fold(None, widen))
+        .into_iter()
+        .fold(None, join);
+    let [i0, i1, j0, j1] = linked.fold(scanned, widen)?;
+    Some((i0..i1 + 1, j0..j1 + 1))
 }
 
 #[cfg(test)]
@@ -667,6 +724,36 @@ mod tests {
             assert_eq!(three[p].to_bits(), want.to_bits(), "node {p}");
         }
         assert!(one.iter().filter(|m| m.is_finite()).count() > sol.grid.len() / 2);
+    }
+
+    #[test]
+    fn the_force_path_window_spans_every_node_of_the_conductor_and_of_its_links() {
+        // Scattered node sets on a 37 x 23 lattice (seeded), against the box of a plain scan.
+        let xs: Vec<f64> = (0..37).map(|i| i as f64).collect();
+        let ys: Vec<f64> = (0..23).map(|j| j as f64).collect();
+        let g = crate::grid::Grid::from_lines(xs, ys).unwrap();
+        let n = g.len();
+        let mut rng = crate::seeded::uniform(16);
+        for case in 0..200 {
+            let share = [0.0, 0.002, 0.02, 0.3][case % 4];
+            let own: Vec<bool> = (0..n).map(|_| rng() < share).collect();
+            let linked: Vec<usize> = (0..case % 3)
+                .map(|_| (rng() * n as f64) as usize % n)
+                .collect();
+            let nodes = (0..n).filter(|&p| own[p]).chain(linked.iter().copied());
+            let want = nodes.fold(None, |b: Option<[usize; 4]>, p| {
+                let (i, j) = (p % g.nx, p / g.nx);
+                Some(b.map_or([i, i, j, j], |b| {
+                    [b[0].min(i), b[1].max(i), b[2].min(j), b[3].max(j)]
+                }))
+            });
+            let got = path_window(&g, n, &|p| own[p], linked.iter().copied());
+            assert_eq!(
+                got,
+                want.map(|[i0, i1, j0, j1]| (i0..i1 + 1, j0..j1 + 1)),
+                "case {case}"
+            );
+        }
     }
 
     #[test]

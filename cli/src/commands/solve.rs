@@ -260,8 +260,27 @@ pub fn write_files(
     files: &Files,
     timings: &Timings,
 ) -> Result<Result<crate::spice::Netlist, NoCircuit>, Failure> {
+    // The summary and the tables encoded while the pictures are drawn, each picture encoded
+    // as soon as it is drawn, on the threads the solve had; the files are then written in
+    // the same sequence as ever (the interruption points count them).
+    let (results, (potential_png, field_png, margin_png)) = timings.time("pictures", || {
+        with_threads(files.threads, || {
+            rayon::join(
+                || result_files(sol, summary, &src.design),
+                || {
+                    crate::pictures::solution_maps_with(
+                        src,
+                        sol,
+                        files.log_field,
+                        &files.pictures,
+                        |name, img| png_bytes(name, &img),
+                    )
+                },
+            )
+        })
+    })?;
     timings.time("results", || {
-        write_results(out, sol, summary, &src.design, files.field_table)
+        write_result_files(out, sol, results?, files.field_table)
     })?;
     if files.vtk {
         timings.time("vtk", || {
@@ -271,27 +290,10 @@ pub fn write_files(
             out.write(name, &bytes)
         })?;
     }
-    // The pictures drawn and encoded at the same time, on the threads the solve had.
-    let (potential_png, field_png, margin_png) = timings.time("pictures", || {
-        with_threads(files.threads, || {
-            crate::pictures::solution_maps(src, sol, files.log_field, &files.pictures)
-        })
-    })?;
     timings.time("png", || {
-        let (potential, (field, margin)) = with_threads(files.threads, || {
-            rayon::join(
-                || png_bytes("potential.png", &potential_png),
-                || {
-                    rayon::join(
-                        || png_bytes("field.png", &field_png),
-                        || margin_png.as_ref().map(|m| png_bytes("margin.png", m)),
-                    )
-                },
-            )
-        })?;
-        out.write("potential.png", &potential?)?;
-        out.write("field.png", &field?)?;
-        match margin {
+        out.write("potential.png", &potential_png?)?;
+        out.write("field.png", &field_png?)?;
+        match margin_png {
             Some(bytes) => out.write("margin.png", &bytes?).map(|_| ()),
             None => Ok(()),
         }
@@ -364,6 +366,40 @@ pub fn write_results(
     design: &fieldgrid_solver::design::Design,
     field_table: bool,
 ) -> Result<(), Failure> {
+    write_result_files(out, sol, result_files(sol, summary, design)?, field_table)
+}
+
+/// The bytes of summary.json, capacitance.csv, hotspots.csv and surface_charge.csv.
+pub struct ResultFiles {
+    json: Vec<u8>,
+    capacitance: Vec<u8>,
+    hotspots: Vec<u8>,
+    surface: Vec<u8>,
+}
+
+/// Writes the result files (and field.csv with `field_table`), in that order.
+fn write_result_files(
+    out: &OutDir,
+    sol: &Solution,
+    files: ResultFiles,
+    field_table: bool,
+) -> Result<(), Failure> {
+    out.write("summary.json", &files.json)?;
+    out.write("capacitance.csv", &files.capacitance)?;
+    out.write("hotspots.csv", &files.hotspots)?;
+    out.write("surface_charge.csv", &files.surface)?;
+    if field_table {
+        out.write("field.csv", &field_table_bytes(sol))?;
+    }
+    Ok(())
+}
+
+/// Encodes the result files.
+fn result_files(
+    sol: &Solution,
+    summary: &Summary,
+    design: &fieldgrid_solver::design::Design,
+) -> Result<ResultFiles, Failure> {
     let json =
         serde_json::to_vec_pretty(summary).map_err(|e| Failure::io("encoding summary.json", e))?;
     // Capacitance matrix: one row per conductor, one column per conductor, plus errors.
@@ -440,14 +476,12 @@ pub fn write_results(
             ]
         }),
     );
-    out.write("summary.json", &json)?;
-    out.write("capacitance.csv", &capacitance)?;
-    out.write("hotspots.csv", &hotspots)?;
-    out.write("surface_charge.csv", &surface)?;
-    if field_table {
-        out.write("field.csv", &field_table_bytes(sol))?;
-    }
-    Ok(())
+    Ok(ResultFiles {
+        json,
+        capacitance,
+        hotspots,
+        surface,
+    })
 }
 
 /// The full-grid table: one row per node.

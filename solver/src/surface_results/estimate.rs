@@ -185,7 +185,10 @@ pub fn estimate_errors(
 ) {
     let cg = &coarse.op.grid;
     let radius = |at: Point| coarse_radius(cg, at);
-    let magnitude = lattice_magnitudes(coarse, coarse_samples);
+    let magnitude = lattice_magnitudes(
+        coarse,
+        &super::faces_sampled_surface(coarse, coarse_samples),
+    );
     let surface = surface_readings(coarse_samples);
     let read_order = model.observed_order.is_some() && !model.graded_family;
     let material = |name: &str| -> u16 {
