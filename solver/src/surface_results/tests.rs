@@ -621,3 +621,44 @@ fn coarse_side_and_interface_fits_only_near_the_points_give_the_estimates_every_
         assert_eq!(estimate(&some), want, "{points} points");
     }
 }
+
+/// Samples along a straight open curve at arcs 0.5, 1.5, ..., each one long, with `fields`
+/// normal to it (NaN where the fit is not determined).
+fn straight_run(fields: &[f64]) -> Vec<crate::surface::SurfaceSample> {
+    fields
+        .iter()
+        .enumerate()
+        .map(|(k, &f)| crate::surface::SurfaceSample {
+            x: 0.5 + k as f64,
+            y: 0.0,
+            normal: [0.0, 1.0],
+            kind: SurfaceKind::Conductor(0),
+            curve: 0,
+            arc: 0.5 + k as f64,
+            whole_loop: false,
+            length: 1.0,
+            material: 0,
+            field: [0.0, f],
+            curvature: 0.0,
+        })
+        .collect()
+}
+
+#[test]
+fn a_sample_without_a_fit_makes_no_maximum_beside_it() {
+    // A face whose field falls along it, with one sample's fit not determined: the only
+    // maximum is the face's first sample. Read as zero, the missing sample made its right
+    // neighbour (7) a maximum raised by the parabola through that zero to 7 + 0.125 * 7.
+    let maxima = super::curve_maxima(&straight_run(&[10.0, 9.0, 8.0, f64::NAN, 7.0, 6.0, 5.0]));
+    assert_eq!(maxima.len(), 1, "{maxima:?}");
+    assert_eq!((maxima[0].at, maxima[0].magnitude), ([0.5, 0.0], 10.0));
+    // A peak beside the missing sample is still found, refined with its finite neighbours.
+    let maxima = super::curve_maxima(&straight_run(&[1.0, 2.0, 3.0, f64::NAN, 4.0, 3.0, 1.0]));
+    let top = maxima
+        .iter()
+        .max_by(|a, b| a.magnitude.total_cmp(&b.magnitude))
+        .unwrap();
+    assert_eq!(top.at[1], 0.0);
+    assert!((4.0..4.2).contains(&top.magnitude), "{maxima:?}");
+    assert!(maxima.iter().all(|m| m.magnitude >= 3.9), "{maxima:?}");
+}
