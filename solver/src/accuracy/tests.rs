@@ -92,7 +92,9 @@ fn the_memory_limit_stops_the_loop_with_the_short_quantity() {
     let p = capacitance_only(1e-7).with_max_memory_mib(first.memory_mib() + 0.01);
     let (sol, info) = solve(&bars(), &StudyParams::default(), &p).unwrap();
     assert!(!info.met());
-    assert_eq!(info.rounds.len(), 1);
+    // The probe, then the rounds the limit allows: none beyond it.
+    assert!(info.rounds.len() >= 2, "{:?}", info.rounds);
+    assert!(info.rounds.iter().all(|r| r.memory_mib <= p.max_memory_mib));
     match info.stop {
         Stop::MemoryLimit {
             needed_mib,
@@ -253,6 +255,8 @@ fn the_solver_tolerance_follows_the_target_within_bounds() {
 #[test]
 fn a_refinement_splits_into_whole_bisections_and_a_density_below_two() {
     assert_eq!(split_refinement(1.0), (BISECTIONS, 1.0));
+    assert_eq!(split_refinement(PROBE), (BISECTIONS, PROBE));
+    assert_eq!(split_refinement(0.9), (BISECTIONS, 0.9));
     assert_eq!(split_refinement(2.0), (BISECTIONS + 1, 1.0));
     let (k, d) = split_refinement(2.74);
     assert_eq!(k, BISECTIONS + 1);
@@ -303,4 +307,17 @@ fn a_failed_study_s_code_is_its_own_not_the_wrapper_s() {
     );
     let line = AccuracyError::Line(LineStudyError::Line(LineError::Shape));
     assert_eq!(line.code(), "matrix-shape");
+}
+
+#[test]
+fn a_closed_design_starts_with_the_probe_which_is_never_the_result() {
+    // A loose target that the probe's own lattice already meets: the result is still a round
+    // predicted from it, accepted on its own estimate.
+    let (sol, info) = solve(&bars(), &StudyParams::default(), &capacitance_only(5e-2)).unwrap();
+    assert!(info.met(), "{info:?}");
+    assert!(info.rounds.len() >= 2, "{:?}", info.rounds);
+    assert_eq!(info.rounds[0].refinement, PROBE);
+    let last = info.rounds.last().unwrap();
+    assert!(last.refinement >= PROBE * MIN_STEP);
+    assert_eq!((last.nx, last.ny), (sol.grid.nx, sol.grid.ny));
 }
