@@ -16,8 +16,8 @@
 //! number of lines per axis only doubles: the error falls as the square of the cell, as the
 //! number of nodes to the power -1.
 //!
-//! A design with no open side starts with a probe: the design's own member with a quarter of
-//! its cells along each axis (a density of 1/4, about a sixteenth of the nodes), solved with
+//! A design with no open side starts with a probe: the design's own member with an eighth of
+//! its cells along each axis (a density of 1/8, about a fiftieth of the nodes), solved with
 //! the error estimate. Its worst estimate and the order observed from its three lattices
 //! predict the round that lands at about two thirds of the target; the probe itself is never
 //! the result, and a round it predicts is accepted only on its own estimate, like any other,
@@ -358,17 +358,21 @@ const MIN_STEP: f64 = 1.1;
 /// beyond it.
 const SAFETY: f64 = 1.4;
 
-/// The refinement of the probe, the first round of a design with no open side: a quarter of
-/// the cells of the design's own lattice along each axis (about a sixteenth of its nodes).
+/// The refinement of the probe, the first round of a design with no open side: an eighth of
+/// the cells of the design's own lattice along each axis (about a fiftieth of its nodes).
 /// Its estimate (and the order observed from its three lattices) predicts the round that
 /// lands at [`LANDING`] of the target; it is never the result. On the sensor pad at 1e-3 the
-/// design's own lattice lands at 0.52 of the target (387 045 nodes); after the probe (27 297
-/// nodes, 7.8 times the target at the observed order 1.92) the predicted round lands at 0.67
-/// with 316 953 (true worst error 6.3e-4 against the finite-element values). A probe with no
+/// design's own lattice lands at 0.52 of the target (387 045 nodes); after the probe (8 145
+/// nodes, 26 times the target at the observed order 1.91) the predicted round lands at 0.67
+/// with 289 449 (true worst error 6.4e-4 against the finite-element values); at 1e-4 at 0.70
+/// with 3 197 905 nodes (6.5e-5 true) where the design's own lattice and the round after it
+/// took 387 045 and 4 073 113. A quarter of the cells (27 297 nodes) predicted as well (0.67
+/// and 0.59) but cost more than it saved: its surfaces and hot spots are most of a probe's
+/// time. A probe with no
 /// estimate (a lattice too small to coarsen) is followed by the design's own lattice; the
 /// round after a probe is at most [`MAX_STEP`] times the design's own lattice, as the round
 /// after that lattice.
-const PROBE: f64 = 0.25;
+const PROBE: f64 = 0.125;
 
 /// The share of the target the round after the probe is predicted to land at: an error
 /// estimate that is honest within the ratios the reference cases show is then below the target
