@@ -41,18 +41,35 @@
 //! variables: 0.56 for copper on FR-4 with air beside it). The defaults are `mu` = 2/3 at
 //! corners in one medium (`corner_grading`: the right-angled corner's own exponent, the
 //! limit of the condition rather than inside it), 0.4 at thin ends (`thin_end_grading`,
-//! inside the thin plate's 1/2) and, at junctions, the corners' own 1/16 and 2/3. Measured
-//! on the sensor pad's copper corners (every one on an interface), members 1 to 3 solved to
-//! 1e-11 against the finite-element values: with these defaults the self capacitances'
-//! errors fall 3.71x to 3.83x per member (slope -0.95 against the node count); with
-//! `junction_grading` 1/2 3.94x to 3.99x (slope -0.995), with 0.4 3.99x and 4.00x but 1.18
-//! times the nodes for the same worst error, and with 1/4 and `junction_fraction` 1/2 3.99x
-//! and 4.00x for every entry (slope -1.0011 to -1.0015) at 0.65 times the nodes. It is not
-//! the default: with the junctions' cells floored at 1e-5 of their local feature size,
-//! multigrid-CG takes about 20 iterations on the sensor pad instead of 4 (0.75 against 0.53
-//! CPU s for the whole run, one thread), and results that equal designs must share (a
-//! design in mil and in mm, an axisymmetric design shifted along the axis) then differ by
-//! up to 9e-9 in a capacitance and about 1e-12 of the domain in a radial line. Since
+//! inside the thin plate's 1/2) and, at junctions, the corners' own 1/16 and 2/3.
+//!
+//! Measured on the sensor pad (every copper corner is a junction: FR-4 or the overlay on one
+//! side, air on the other), members 1 to 3 solved to 1e-11 against the finite-element
+//! values; `junction_grading` / `junction_fraction` / `junction_floor`: the least-squares
+//! slope of the worst entry's error against the node count, the nodes for a worst error of
+//! 1e-3 (log-log between members), multigrid-CG iterations of the design's own lattice
+//! (member 2) at the default 1e-8 and of member 3:
+//! - 2/3, 1/16, 0 (default): -0.992, 190 000 nodes, 6 and 9 iterations;
+//! - 0.55, 1/16, 0: -0.999, 193 000, 8 and 17; 1/2: -1.000 (-0.9999), 204 000, 13, 24;
+//!   0.45: -1.001, 209 000, 18, 31; 1/3: -1.001, 261 000, 31, 48; 1/4: -1.001, 340 000, 38, 57;
+//! - 1/2, 1/2, 1e-4: -0.978, 101 000, 6, 9; 1/2, 1/4, 1e-4: -0.997, 121 000, 6, 11;
+//!   0.4, 1/2, 1e-4: -0.999, 102 000, 6, 13; 0.4, 1/2, 1e-3: -0.996, 100 000, 6, 7;
+//!   0.35, 1/2, 1e-3: -0.9985, 107 000, 6, 14; 0.3, 1/2, 1e-3: -0.9996, 111 000, 8, 15;
+//! - 1/4, 1/2, 1e-3: -1.0003, 119 000, 11, 20; 1/4, 1/2, 1e-4: -1.0014, 123 000, 19, 34.
+//!
+//! A larger size at the junctions saves nodes (0.53 to 0.65 times the default's for the same
+//! worst error), an exponent below the singularity's 0.56 gives the full rate only with a
+//! steep fall (1/4), and that costs multigrid-CG iterations: the default stays until the
+//! multigrid carries such lattices. `junction_floor` (a distance over the local feature
+//! size below which the size stops falling) keeps the smallest cells well above the rounding
+//! of the coordinates: with 1/4 and no floor, the sensor pad's member 3 has cells of 1.2e-10 m
+//! (1/16) and, with 1/2, the solves of a randomly drawn axisymmetric scene stagnate at a relative residual of 5e-9; with a floor of
+//! 1e-5, a design in mil and in mm differ by 8.7e-9 in a capacitance (the fine solve started
+//! from the coarse one stops at 1e-8 on iterates that the lattices' rounding moves: 1.6e-10
+//! at a tolerance of 1e-10, 7.6e-13 at 1e-12, 2.5e-13 without the warm start, so the
+//! solver's and not the lattice's) and a radial line of the scene moves by 1.03e-12 of the
+//! domain under an axial shift (the local feature size reads the rounded axial distances);
+//! with 1e-4 or 1e-3 both agree within their tests' bounds. Since
 //! the radical zone holds a bounded number of cells of the unrefined lines, the number of
 //! lines per axis doubles per member, and the nodes grow four times.
 //!
@@ -92,6 +109,10 @@ pub struct Params {
     pub junction_fraction: f64,
     /// Radical grading exponent `mu` at those points, in (0, 1].
     pub junction_grading: f64,
+    /// Distance from a junction, over its local feature size, below which its target size
+    /// stops falling, in [0, 1): bounds the smallest cell next to it (0: only the
+    /// domain-wide floor of 1e-8 of the domain's extent).
+    pub junction_floor: f64,
     /// Fewest cells between two neighbouring node lines, >= 1.
     pub min_cells: usize,
     /// Fewest cells per radius along a circular arc, >= 1.
@@ -117,6 +138,7 @@ impl Default for Params {
             thin_end_grading: 0.4,
             junction_fraction: 1.0 / 16.0,
             junction_grading: 2.0 / 3.0,
+            junction_floor: 0.0,
             min_cells: 4,
             cells_per_radius: 8,
             line_budget: 32.0,
@@ -290,6 +312,8 @@ pub fn refined(
             && params.junction_fraction <= 1.0
             && params.junction_grading > 0.0
             && params.junction_grading <= 1.0
+            && params.junction_floor >= 0.0
+            && params.junction_floor < 1.0
             && params.min_cells >= 1
             && params.cells_per_radius >= 1
             && params.line_budget > 0.0
@@ -356,10 +380,15 @@ pub fn refined(
         }
         let lfs = nearest_other(&ax.lines, p[0]).min(nearest_other(&ay.lines, p[1]));
         let size = (fraction * lfs).max(floor);
+        let own = if kind == Kind::Junction {
+            params.junction_floor * lfs
+        } else {
+            0.0
+        };
         let radical = (mu < 1.0).then_some(Radical {
             reach: lfs,
             power: 1.0 - mu,
-            floor,
+            floor: floor.max(own),
         });
         for (axis, at) in [(&mut ax, p[0]), (&mut ay, p[1])] {
             // A point graded twice keeps the smaller size.

@@ -498,3 +498,40 @@ fn features_closer_than_the_cones_need_stay_within_the_line_budget() {
     wide.line_budget = 1e6;
     assert_eq!(l, lines(&one, 0.2, &wide).unwrap());
 }
+
+/// Regression (steep junction grading): without a floor of their own, the cells next to a
+/// junction graded with exponent 1/4 fall far below the floor here at member 3 (1.2e-10 m on
+/// the sensor pad's member 3, measured), whose widths then carry the rounding of 2e-2 m
+/// coordinates to about 3e-8 and leave the solves stagnating or their stops far apart; `junction_floor` stops the target size's fall at that fraction of the local
+/// feature size, so the cells there keep at least the floored size over the refinement.
+#[test]
+fn the_junction_floor_bounds_the_cells_next_to_a_junction() {
+    let d = pads();
+    let lfs = 35e-6;
+    let floored = Params {
+        junction_floor: 1e-3,
+        ..steep_junctions()
+    };
+    let p = floored;
+    // The target size at the floor: the cone's size at its reach, times the radical fall.
+    let at_reach = p.junction_fraction * lfs + p.growth.ln() * lfs;
+    let h_floor = at_reach * p.junction_floor.powf(1.0 - p.junction_grading);
+    for k in 0..=3 {
+        let split = (1usize << k) as f64;
+        let free = refined(&d, d.domain.cell, &steep_junctions(), k).unwrap();
+        let l = refined(&d, d.domain.cell, &floored, k).unwrap();
+        for (t, free, v) in [(&l.x, &free.x, 6e-3), (&l.y, &free.y, 1.6e-3)] {
+            let cell = cells_beside(t, v).into_iter().fold(f64::INFINITY, f64::min);
+            let unfloored = cells_beside(free, v)
+                .into_iter()
+                .fold(f64::INFINITY, f64::min);
+            // A step of the map holds at least half a unit of `∫ dt / h` (counts are rounded
+            // up from at least one), split `2^k` times.
+            let bound = (p.junction_floor * lfs).min(h_floor / (2.0 * split));
+            assert!(cell >= bound, "member {k}: {cell:e} < {bound:e}");
+            if k == 3 {
+                assert!(unfloored < bound, "the floor moved nothing: {unfloored:e}");
+            }
+        }
+    }
+}
