@@ -41,9 +41,7 @@
 //! variables: 0.56 for copper on FR-4 with air beside it). The defaults are `mu` = 2/3 at
 //! corners in one medium (`corner_grading`: the right-angled corner's own exponent, the
 //! limit of the condition rather than inside it), 0.4 at thin ends (`thin_end_grading`,
-//! inside the thin plate's 1/2) and 1/4 at junctions (`junction_grading`, well inside the
-//! interface corner's 0.56), with a size there of half the local feature size
-//! (`junction_fraction`) and a floor of 1e-3 of it (`junction_floor`), as measured below.
+//! inside the thin plate's 1/2) and, at junctions, the corners' own 1/16 and 2/3.
 //!
 //! Measured on the sensor pad (every copper corner is a junction: FR-4 or the overlay on one
 //! side, air on the other), members 1 to 3 solved to 1e-11 against the finite-element
@@ -51,21 +49,18 @@
 //! slope of the worst entry's error against the node count, the nodes for a worst error of
 //! 1e-3 (log-log between members), multigrid-CG iterations of the design's own lattice
 //! (member 2) at the default 1e-8 and of member 3:
-//! - 2/3, 1/16, 0 (the corners' own, the default before): -0.992, 190 000 nodes, 6 and 9
-//!   iterations;
+//! - 2/3, 1/16, 0 (default): -0.992, 190 000 nodes, 6 and 9 iterations;
 //! - 0.55, 1/16, 0: -0.999, 193 000, 8 and 17; 1/2: -1.000 (-0.9999), 204 000, 13, 24;
 //!   0.45: -1.001, 209 000, 18, 31; 1/3: -1.001, 261 000, 31, 48; 1/4: -1.001, 340 000, 38, 57;
 //! - 1/2, 1/2, 1e-4: -0.978, 101 000, 6, 9; 1/2, 1/4, 1e-4: -0.997, 121 000, 6, 11;
 //!   0.4, 1/2, 1e-4: -0.999, 102 000, 6, 13; 0.4, 1/2, 1e-3: -0.996, 100 000, 6, 7;
 //!   0.35, 1/2, 1e-3: -0.9985, 107 000, 6, 14; 0.3, 1/2, 1e-3: -0.9996, 111 000, 8, 15;
-//! - 1/4, 1/2, 1e-3 (default): -1.0003, 119 000, 11, 20; 1/4, 1/2, 1e-4: -1.0014, 123 000,
-//!   19, 34.
+//! - 1/4, 1/2, 1e-3: -1.0003, 119 000, 11, 20; 1/4, 1/2, 1e-4: -1.0014, 123 000, 19, 34.
 //!
 //! A larger size at the junctions saves nodes (0.53 to 0.65 times the default's for the same
 //! worst error), an exponent below the singularity's 0.56 gives the full rate only with a
-//! steep fall (1/4), and that costs multigrid-CG iterations: the default takes the full
-//! rate at 0.62 times the nodes for twice the iterations (the design's own lattice: 11
-//! against 6, 2.2 against 2.5 s of one thread, measured on a loaded machine). `junction_floor` (a distance over the local feature
+//! steep fall (1/4), and that costs multigrid-CG iterations: the default stays until the
+//! multigrid carries such lattices. `junction_floor` (a distance over the local feature
 //! size below which the size stops falling) keeps the smallest cells well above the rounding
 //! of the coordinates: with 1/4 and no floor, the sensor pad's member 3 has cells of 1.2e-10 m
 //! (1/16) and, with 1/2, the solves of a randomly drawn axisymmetric scene stagnate at a relative residual of 5e-9; with a floor of
@@ -141,9 +136,9 @@ impl Default for Params {
             thin_end_fraction: 1.0 / 128.0,
             corner_grading: 2.0 / 3.0,
             thin_end_grading: 0.4,
-            junction_fraction: 0.5,
-            junction_grading: 0.25,
-            junction_floor: 1e-3,
+            junction_fraction: 1.0 / 16.0,
+            junction_grading: 2.0 / 3.0,
+            junction_floor: 0.0,
             min_cells: 4,
             cells_per_radius: 8,
             line_budget: 32.0,
