@@ -500,10 +500,11 @@ fn features_closer_than_the_cones_need_stay_within_the_line_budget() {
 }
 
 /// Regression (steep junction grading): without a floor of their own, the cells next to a
-/// junction graded with exponent 1/4 fall far below the floor here at member 3 (1.2e-10 m on
-/// the sensor pad's member 3, measured), whose widths then carry the rounding of 2e-2 m
-/// coordinates to about 3e-8 and leave the solves stagnating or their stops far apart; `junction_floor` stops the target size's fall at that fraction of the local
-/// feature size, so the cells there keep at least the floored size over the refinement.
+/// junction graded with exponent 1/4 fall far below the floor here at member 3 (1.2e-10 m
+/// on the sensor pad's member 3, measured), whose widths then carry the rounding of 2e-2 m
+/// coordinates to about 3e-8 and leave the solves stagnating or their stops far apart;
+/// `junction_floor` stops the target size's fall at that fraction of the local feature
+/// size, so the cells there keep at least the floored size over the refinement.
 #[test]
 fn the_junction_floor_bounds_the_cells_next_to_a_junction() {
     let d = pads();
