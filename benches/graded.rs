@@ -154,6 +154,43 @@ pub fn graded_problem(case: Case, n: usize, ratio: f64) -> (Stencil5, Vec<f64>) 
     (a, b)
 }
 
+/// The sensor pad demo (`geometries/sensor_pad.toml`) on member `k` of its graded family
+/// (member 2 is the design's own lattice), through the design reader, grading, rasteriser
+/// and operator assembly; with `steep` graded at the copper/dielectric junctions with
+/// exponent 1/4 and size 1/2 of the local feature (`grading::Params::junction_grading`,
+/// `junction_fraction`) instead of the default. One right-hand side per conductor at 1 V.
+pub fn sensor_pad_problem(k: usize, steep: bool) -> crate::Problem {
+    use fieldgrid_solver::{accuracy, operator, raster};
+    let path =
+        std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("../geometries/sensor_pad.toml");
+    let text = std::fs::read_to_string(&path).expect("the sensor pad demo reads");
+    let src = fieldgrid_cli::design_file::read_design(&text, "sensor_pad.toml", &[])
+        .expect("the sensor pad demo is valid");
+    let mut d = src.design;
+    d.lattice = fieldgrid_solver::design::Lattice::Graded;
+    let mut p = accuracy::Params::default();
+    if steep {
+        p.grading.junction_grading = 0.25;
+        p.grading.junction_fraction = 0.5;
+    }
+    let grid = accuracy::lattice(&d, &p, k).expect("the graded lattice fits");
+    let raster = raster::rasterize(&d, &grid);
+    let op = operator::assemble(&d, &raster).expect("the sensor pad operator");
+    let nc = d.conductors.len();
+    let rhs = (0..nc)
+        .map(|c| {
+            let mut unit = vec![0.0; nc];
+            unit[c] = 1.0;
+            op.rhs(&op.target_values(&unit, false), false)
+        })
+        .collect();
+    crate::Problem {
+        stencil: op.stencil,
+        rhs,
+        names: d.conductors.iter().map(|c| c.name.clone()).collect(),
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

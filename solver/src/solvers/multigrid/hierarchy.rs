@@ -11,7 +11,7 @@
 
 use super::coarsest::BandCholesky;
 use super::galerkin;
-use super::interpolation::{coarse_len, LineWeights};
+use super::interpolation::{coarse_len, LineWeights, Rule};
 use super::level::{Level, Real};
 use super::relaxation::{Relaxation, Smoother};
 use crate::stencil::Stencil5;
@@ -90,8 +90,8 @@ impl Hierarchy {
         let relaxation = options.smoother.resolve(a);
         let (mut levels, mut line_levels) = (Vec::new(), Vec::new());
         let (weights, coarsest) = match relaxation {
-            Relaxation::Points => build(a, options, &mut levels),
-            Relaxation::Lines => build(a, options, &mut line_levels),
+            Relaxation::Points => build(a, options, Rule::Classic, &mut levels),
+            Relaxation::Lines => build(a, options, Rule::Lumped, &mut line_levels),
         };
         Hierarchy {
             fine: (a.nx, a.ny),
@@ -136,6 +136,7 @@ impl Hierarchy {
 fn build<R: Real>(
     a: &Stencil5,
     options: &Options,
+    rule: Rule,
     levels: &mut Vec<Level<R>>,
 ) -> (Vec<LineWeights>, BandCholesky) {
     let mut weights: Vec<LineWeights> = Vec::new();
@@ -147,12 +148,12 @@ fn build<R: Real>(
         }
         let (w, level) = match levels.last() {
             None => {
-                let w = LineWeights::new(a);
+                let w = LineWeights::new(a, rule);
                 let c = galerkin::coarse_operator(a, &w);
                 (w, c)
             }
             Some(l) => {
-                let w = LineWeights::new(l);
+                let w = LineWeights::new(l, rule);
                 let c = galerkin::coarse_operator(l, &w);
                 (w, c)
             }
