@@ -201,6 +201,7 @@ fn vcycle_lines(
     let nx = a.nx;
     let big = a.len() >= PARALLEL_MIN;
     let sweeps = h.options.line_sweeps.max(1);
+    let coarse_sweeps = h.options.coarse_line_sweeps.max(1);
     let levels = &h.line_levels;
     assert_eq!(ws.b[0].len(), levels[0].padded_len());
     assert_eq!(ws.lines.len(), levels.len() + 1);
@@ -227,7 +228,7 @@ fn vcycle_lines(
     let last = levels.len() - 1;
     for k in 0..last {
         let l = &levels[k];
-        for sweep in 0..sweeps {
+        for sweep in 0..coarse_sweeps {
             line_sweep(
                 l,
                 &ws.b[k],
@@ -257,7 +258,7 @@ fn vcycle_lines(
         let l = &levels[k];
         let (lo, hi) = ws.x.split_at_mut(k + 1);
         prolong_coarse(l, &h.weights[k + 1], &mut lo[k], &levels[k + 1], &hi[0]);
-        for _ in 0..sweeps {
+        for _ in 0..coarse_sweeps {
             line_sweep(l, &ws.b[k], &mut lo[k], &mut ws.lines[k + 1], true, false);
         }
     }

@@ -30,6 +30,9 @@ pub struct Options {
     /// Alternating line sweeps before and after the coarse correction on every level
     /// (lines).
     pub line_sweeps: usize,
+    /// Alternating line sweeps before and after the coarse correction on each coarse level
+    /// (lines).
+    pub coarse_line_sweeps: usize,
     /// Coarsening stops once a level has at most this many nodes; that level is solved
     /// directly.
     pub coarsest_nodes: usize,
@@ -42,6 +45,7 @@ impl Default for Options {
             fine_sweeps: 2,
             coarse_sweeps: 1,
             line_sweeps: 1,
+            coarse_line_sweeps: 2,
             coarsest_nodes: 1600,
         }
     }

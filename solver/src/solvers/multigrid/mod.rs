@@ -13,7 +13,8 @@
 //! of the free nodes draw 80 % or more of their diagonal from couplings along one axis
 //! (`relaxation`: in a homogeneous medium, cells stretched beyond 2 : 1), every level is
 //! smoothed instead by alternating zebra line Gauss–Seidel (x-lines even, odd, y-lines even,
-//! odd; reversed after the coarse correction), the coarse operators are kept in double
+//! odd; reversed after the coarse correction; one sweep each way on the fine level, two on
+//! coarse levels), the coarse operators are kept in double
 //! precision and the line points' weights use the lumped rule (`interpolation::Rule`), which
 //! keeps interpolating a constant exactly where couplings across a line exceed those along
 //! it by many decades (steep grading at a junction: cells stretched 10^5 : 1). Uniform lattices keep the point smoother and its results; [`Options::smoother`]
