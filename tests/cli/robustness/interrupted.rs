@@ -181,13 +181,14 @@ fn a_signal_during_a_sweep_leaves_a_valid_table_and_the_rerun_resumes() {
     let design = write(&dir, "sweep.toml", &text);
     let out = dir.join("out");
     let outs = out.to_str().unwrap().to_string();
-    // Point 0 (51 x 51 nodes) is quick, point 1 (201 x 201, SOR) takes seconds; the
-    // signal arrives once point 0 is in the table.
+    // Point 0 (51 x 51 nodes) is quick, point 1 (501 x 501, SOR) takes over a second; the
+    // signal arrives once point 0 is in the table. (At cell 0.005, 201 x 201 nodes, point 1
+    // took 0.28 s: on a loaded machine its row was written before the signal arrived.)
     let args = [
         "sweep",
         &design,
         "--vary",
-        "c=0.02:0.005:2",
+        "c=0.02:0.002:2",
         "--out",
         &outs,
         "--solver",
