@@ -177,13 +177,7 @@ pub fn sensor_pad_problem(k: usize, steep: bool) -> crate::Problem {
     let raster = raster::rasterize(&d, &grid);
     let op = operator::assemble(&d, &raster).expect("the sensor pad operator");
     let nc = d.conductors.len();
-    let rhs = (0..nc)
-        .map(|c| {
-            let mut unit = vec![0.0; nc];
-            unit[c] = 1.0;
-            op.rhs(&op.target_values(&unit, false), false)
-        })
-        .collect();
+    let rhs = crate::unit_excitations(&op, nc);
     crate::Problem {
         stencil: op.stencil,
         rhs,

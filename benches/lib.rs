@@ -49,13 +49,7 @@ pub fn benchmark_problem(n: usize) -> Problem {
     let raster = raster::rasterize(d, &grid);
     let op = operator::assemble(d, &raster).expect("benchmark operator");
     let nc = d.conductors.len();
-    let rhs = (0..nc)
-        .map(|k| {
-            let mut unit = vec![0.0; nc];
-            unit[k] = 1.0;
-            op.rhs(&op.target_values(&unit, false), false)
-        })
-        .collect();
+    let rhs = unit_excitations(&op, nc);
     let names = d.conductors.iter().map(|c| c.name.clone()).collect();
     Problem {
         stencil: op.stencil,
@@ -165,6 +159,18 @@ fn staircase(n: usize, conductors: &[Rect], eps: impl Fn(f64, f64) -> f64) -> Pr
         rhs,
         names: conductors.iter().map(|r| r.name.to_string()).collect(),
     }
+}
+
+/// The right-hand sides of the `nc` unit-potential excitations (conductor k at 1 V, the others
+/// and the fixed sides at 0 V), in conductor order.
+pub fn unit_excitations(op: &operator::Operator, nc: usize) -> Vec<Vec<f64>> {
+    (0..nc)
+        .map(|k| {
+            let mut unit = vec![0.0; nc];
+            unit[k] = 1.0;
+            op.rhs(&op.target_values(&unit, false), false)
+        })
+        .collect()
 }
 
 /// Writes the operator over its unknowns (CSR) and the right-hand sides restricted to the
