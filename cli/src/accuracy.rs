@@ -35,7 +35,8 @@ pub fn target(src: &mut DesignSource, opts: &SolveOptions) -> Result<Option<f64>
     Ok(Some(rel))
 }
 
-/// The library's settings for `rel` under the options' memory limit.
+/// The library's settings for `rel` under the options' memory limit, the solves held to
+/// `--tol` when given (else the loop's own tolerance, from `rel`).
 pub fn params(src: &DesignSource, opts: &SolveOptions, rel: f64) -> accuracy::Params {
     let limit = opts
         .max_memory
@@ -45,6 +46,7 @@ pub fn params(src: &DesignSource, opts: &SolveOptions, rel: f64) -> accuracy::Pa
     accuracy::Params::default()
         .with_target(rel)
         .with_max_memory_mib(limit - text_mib)
+        .with_solver_tol(opts.tol)
 }
 
 fn stop_name(stop: &Stop) -> &'static str {

@@ -62,9 +62,11 @@ pub struct SolveOptions {
     #[arg(long, value_enum, default_value_t = SolverChoice::Multigrid)]
     pub solver: SolverChoice,
     /// Relative residual at which a solve stops; it also goes on until the sum of the
-    /// residual's magnitudes is within 1000 times this of the largest conductor charge.
-    #[arg(long, default_value_t = 1e-8)]
-    pub tol: f64,
+    /// residual's magnitudes is within 1000 times this of the largest conductor charge
+    /// (default 1e-8; with --accuracy, 1e-4 of the accuracy, and never looser than this when
+    /// given).
+    #[arg(long)]
+    pub tol: Option<f64>,
     /// Worker threads (default: every core).
     #[arg(long)]
     pub threads: Option<usize>,
@@ -88,6 +90,16 @@ pub struct SolveOptions {
     /// and flagged when the memory limit stops it first. Wins over `accuracy` in [grid].
     #[arg(long, value_name = "REL")]
     pub accuracy: Option<f64>,
+}
+
+/// The relative residual of a solve when `--tol` is not given.
+pub const DEFAULT_TOL: f64 = 1e-8;
+
+impl SolveOptions {
+    /// The relative residual of a solve: `--tol`, else [`DEFAULT_TOL`].
+    pub fn tol_or_default(&self) -> f64 {
+        self.tol.unwrap_or(DEFAULT_TOL)
+    }
 }
 
 /// Parameter values given on the command line.

@@ -80,7 +80,7 @@ class _Options(NamedTuple):
     them (one dict, every key given)."""
 
     solver: str
-    tol: float
+    tol: Optional[float]
     threads: Optional[int]
     max_iterations: Optional[int]
     error_estimate: bool
@@ -92,7 +92,7 @@ def solve(
     design: DesignLike,
     *,
     solver: str = "multigrid",
-    tol: float = 1e-8,
+    tol: Optional[float] = None,
     threads: Optional[int] = None,
     max_iterations: Optional[int] = None,
     error_estimate: bool = True,
@@ -105,7 +105,8 @@ def solve(
     Args:
         design: a :class:`Design`, or the path of a design file.
         solver: ``"multigrid"`` (default), ``"cg"`` or ``"sor"`` (``--solver``).
-        tol: relative residual at which a linear solve stops (``--tol``).
+        tol: relative residual at which a linear solve stops (``--tol``; default 1e-8, and
+            with ``accuracy`` 1e-4 of it, never looser than ``tol`` when given).
         threads: worker threads (``--threads``; default every core). Results do not depend
             on it.
         max_iterations: stop a linear solve after this many iterations (``--max-iterations``).
@@ -140,7 +141,7 @@ def impedance(
     signals: Sequence[str] | str,
     *,
     solver: str = "multigrid",
-    tol: float = 1e-8,
+    tol: Optional[float] = None,
     threads: Optional[int] = None,
     max_iterations: Optional[int] = None,
     error_estimate: bool = True,

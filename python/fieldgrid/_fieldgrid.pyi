@@ -57,7 +57,7 @@ class NativeResult:
 
 class _Options(TypedDict):
     solver: str
-    tol: float
+    tol: Optional[float]
     threads: Optional[int]
     max_iterations: Optional[int]
     error_estimate: bool

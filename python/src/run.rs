@@ -26,7 +26,7 @@ use std::sync::{Arc, Mutex};
 #[pyo3(from_item_all)]
 pub struct Keywords {
     solver: String,
-    tol: f64,
+    tol: Option<f64>,
     threads: Option<usize>,
     max_iterations: Option<usize>,
     error_estimate: bool,

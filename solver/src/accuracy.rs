@@ -40,10 +40,11 @@
 //! estimate on), so that where the farther box is not needed it is the first round, not
 //! solved again.
 //!
-//! Invariants: the solver tolerance is never looser than the caller's; the result returned
-//! is always the last round's, solved with the error estimate; a quantity at a singular point
-//! is reported with its estimate but never refined for; the loop ends (bisections, memory
-//! and tolerance are all bounded).
+//! Invariants: the solver tolerance is tied to the target and never looser than one the
+//! caller fixes ([`Params::solver_tol`]); the result returned is always the last round's,
+//! solved with the error estimate; a quantity at a singular point is reported with its
+//! estimate but never refined for; the loop ends (bisections, memory and tolerance are all
+//! bounded).
 
 pub mod far_field;
 pub mod quantities;
@@ -77,6 +78,10 @@ pub struct Params {
     pub quantities: Quantities,
     /// The grading of the family.
     pub grading: grading::Params,
+    /// The relative residual the caller holds every solve to at most; `None` (the default):
+    /// the loop's own from the target alone ([`solver_tolerance`]), and the study's
+    /// `solver.tol` is not read.
+    pub solver_tol: Option<f64>,
 }
 
 impl Default for Params {
@@ -87,6 +92,7 @@ impl Default for Params {
             max_bisections: 9,
             quantities: Quantities::default(),
             grading: grading::Params::default(),
+            solver_tol: None,
         }
     }
 }
@@ -95,6 +101,13 @@ impl Params {
     /// These settings with the relative target `target`.
     pub fn with_target(mut self, target: f64) -> Self {
         self.target = target;
+        self
+    }
+
+    /// These settings with no solve looser than the relative residual `tol` (`None`: the
+    /// loop's own from the target).
+    pub fn with_solver_tol(mut self, tol: Option<f64>) -> Self {
+        self.solver_tol = tol;
         self
     }
 
@@ -326,12 +339,21 @@ pub fn lattice(design: &Design, params: &Params, k: usize) -> Result<Grid, GridE
     Ok(family.member(k)?.1)
 }
 
-/// The solver tolerance for a target: five decades below it (the capacitance of a small
-/// coupling beside large self capacitances carries a solver error well above the relative
-/// residual), never looser than the caller's and never below what double precision reaches.
-pub fn solver_tolerance(caller: f64, target: f64) -> f64 {
-    caller.min(target * 1e-5).max(MIN_TOL)
+/// The solver tolerance for a target: [`TOL_SHARE`] of it, never looser than the caller's
+/// (when one is fixed) and never below what double precision reaches.
+pub fn solver_tolerance(caller: Option<f64>, target: f64) -> f64 {
+    let own = target * TOL_SHARE;
+    caller.map_or(own, |c| c.min(own)).max(MIN_TOL)
 }
+
+/// The loop's relative residual as a share of the target: four decades below it. The
+/// capacitance of a small coupling beside large self capacitances carries a solver error
+/// well above the relative residual: on the sensor pad at 1e-3 (289 449 nodes, every entry
+/// against the same lattice solved to 1e-10) the worst entry's solver error was 2.8e-7 at a
+/// residual of 1e-7 (three multigrid-CG iterations from the nested start, 3e-4 of the
+/// target), 8.7e-9 at 1e-8 (four), but 1.4e-5 at 1e-6 (two; 1.4 % of the target, where
+/// the asymmetry of the matrix, the solver's estimate, read up to 160 times less).
+pub const TOL_SHARE: f64 = 1e-4;
 
 /// Tightest relative residual the loop asks for.
 const MIN_TOL: f64 = 1e-13;
@@ -363,22 +385,25 @@ const SAFETY: f64 = 1.4;
 /// Its estimate (and the order observed from its three lattices) predicts the round that
 /// lands at [`LANDING`] of the target; it is never the result. On the sensor pad at 1e-3 the
 /// design's own lattice lands at 0.52 of the target (387 045 nodes); after the probe (8 145
-/// nodes, 26 times the target at the observed order 1.91) the predicted round lands at 0.67
-/// with 289 449 (true worst error 6.4e-4 against the finite-element values); at 1e-4 at 0.70
-/// with 3 197 905 nodes (6.5e-5 true) where the design's own lattice and the round after it
-/// took 387 045 and 4 073 113. A quarter of the cells (27 297 nodes) predicted as well (0.67
-/// and 0.59) but cost more than it saved: its surfaces and hot spots are most of a probe's
-/// time. A probe with no
-/// estimate (a lattice too small to coarsen) is followed by the design's own lattice; the
-/// round after a probe is at most [`MAX_STEP`] times the design's own lattice, as the round
-/// after that lattice.
+/// nodes, 26 times the target at the observed order 1.91) a round sized for 0.65 landed at
+/// 0.67 with 289 449 (true worst error 6.4e-4 against the finite-element values), and at
+/// 1e-4 at 0.70 with 3 197 905 nodes (6.5e-5 true) where the design's own lattice and the
+/// round after it took 387 045 and 4 073 113. A quarter of the cells (27 297 nodes) predicted
+/// as well (0.67 and 0.59) but cost more than it saved: its surfaces and hot spots are most
+/// of a probe's time. A probe with no estimate (a lattice too small to coarsen) is followed
+/// by the design's own lattice; the round after a probe is at most [`MAX_STEP`] times the
+/// design's own lattice, as the round after that lattice.
 const PROBE: f64 = 0.125;
 
 /// The share of the target the round after the probe is predicted to land at: an error
 /// estimate that is honest within the ratios the reference cases show is then below the target
 /// with a margin, and a prediction that misses costs another round, never accuracy (the
-/// result is accepted on its own estimate only).
-const LANDING: f64 = 0.65;
+/// result is accepted on its own estimate only). On the sensor pad (solver tolerance 1e-4 of
+/// the target) the round lands at 0.69 of 1e-3 with 251 125 nodes (6.6e-4 true) and at 0.72
+/// of 1e-4 with 2 777 297 (6.7e-5 true); sized for 0.65 it took 289 449 and 3 197 905, 13 %
+/// more. Sized for 0.8 it landed at 0.90 of 1e-3 (241 241 nodes, 8.6e-4 true): too near
+/// the target for a prediction that missed by 13 %.
+const LANDING: f64 = 0.75;
 
 /// Smaller refinements tried, as fractions of the predicted one's logarithm, when the
 /// memory limit refuses it.
@@ -456,7 +481,7 @@ fn refine<T>(
     design.lattice = Lattice::Graded;
     let design = design;
     let mut sp = study.clone().with_error_estimate(true);
-    sp.solver.tol = solver_tolerance(study.solver.tol, target);
+    sp.solver.tol = solver_tolerance(params.solver_tol, target);
     let limit = params.max_memory_mib;
     let mut family = Family {
         design: &design,

@@ -216,10 +216,10 @@ pub fn with_threads<T: Send>(
 
 /// Study settings from the command line, with a progress display on a terminal.
 pub fn study_params(opts: &SolveOptions) -> Result<StudyParams, Failure> {
-    if !(opts.tol.is_finite() && opts.tol > 0.0 && opts.tol < 1.0) {
+    let tol = opts.tol_or_default();
+    if !(tol.is_finite() && tol > 0.0 && tol < 1.0) {
         return Err(Failure::input(format!(
-            "--tol must lie between 0 and 1, got {}",
-            opts.tol
+            "--tol must lie between 0 and 1, got {tol}"
         )));
     }
     if opts.max_iterations == Some(0) {
@@ -229,7 +229,7 @@ pub fn study_params(opts: &SolveOptions) -> Result<StudyParams, Failure> {
     }
     check_threads(opts.threads)?;
     let mut solver = Params::default();
-    solver.tol = opts.tol;
+    solver.tol = tol;
     solver.max_iter = opts.max_iterations;
     let mut params = StudyParams::default();
     params.method = opts.solver.into();

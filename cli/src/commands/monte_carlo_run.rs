@@ -112,7 +112,7 @@ pub fn shard(setup: &Setup, def: &Definition, shard: Shard, out: &Path) -> Resul
         solver: fieldgrid_solver::solvers::Method::from(setup.opts.solver)
             .name()
             .to_string(),
-        tol: setup.opts.tol,
+        tol: setup.opts.tol_or_default(),
         columns: columns(def, &quantities),
         shard: Some(shard),
         set: setup

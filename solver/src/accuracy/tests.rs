@@ -57,7 +57,7 @@ fn a_reachable_target_is_met_and_every_entry_is_within_it() {
         .iter()
         .any(|e| matches!(e.quantity, Quantity::Force { .. }) && !e.held));
     // The tolerance follows the target.
-    assert!(last.tol <= 2e-3 * 1e-5 * (1.0 + 1e-12));
+    assert!(last.tol <= 2e-3 * TOL_SHARE * (1.0 + 1e-12));
 }
 
 #[test]
@@ -246,10 +246,12 @@ fn singular_hot_spots_are_reported_and_not_refined_for() {
 
 #[test]
 fn the_solver_tolerance_follows_the_target_within_bounds() {
-    assert_eq!(solver_tolerance(1e-8, 1e-3), 1e-8);
-    assert!((solver_tolerance(1e-8, 1e-4) - 1e-9).abs() < 1e-24);
-    assert_eq!(solver_tolerance(1e-8, 1e-12), MIN_TOL);
-    assert_eq!(solver_tolerance(1e-12, 1e-3), 1e-12);
+    assert!((solver_tolerance(None, 1e-3) - 1e-7).abs() < 1e-22);
+    assert_eq!(solver_tolerance(Some(1e-8), 1e-3), 1e-8);
+    assert!((solver_tolerance(Some(1e-6), 1e-3) - 1e-7).abs() < 1e-22);
+    assert_eq!(solver_tolerance(Some(1e-8), 1e-12), MIN_TOL);
+    assert_eq!(solver_tolerance(None, 1e-12), MIN_TOL);
+    assert_eq!(solver_tolerance(Some(1e-12), 1e-3), 1e-12);
 }
 
 #[test]

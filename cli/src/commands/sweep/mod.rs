@@ -149,7 +149,7 @@ pub fn run(args: &SweepArgs) -> Result<u8, Failure> {
         vary: vary.clone(),
         points,
         solver: solver_name(args.opts.solver).to_string(),
-        tol: args.opts.tol,
+        tol: args.opts.tol_or_default(),
         columns: columns.clone(),
         shard,
         set: set
