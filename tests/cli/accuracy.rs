@@ -191,3 +191,42 @@ fn compare_and_sweep_take_the_accuracy() {
     assert_eq!(p0["accuracy"]["target"], 1e-2);
     assert_eq!(p0["accuracy"]["met"], true);
 }
+
+#[test]
+fn the_loops_solver_tolerance_follows_the_target_and_tol_caps_it() {
+    let dir = scratch(SCRATCH, "tol");
+    let file = write(&dir, "bars.toml", &bars(""));
+    let tols = |extra: &[&str], name: &str| -> Vec<f64> {
+        let out = dir.join(name);
+        let mut args = vec![
+            "solve",
+            &file,
+            "--out",
+            s(&out),
+            "--quiet",
+            "--accuracy",
+            "1e-2",
+        ];
+        args.extend_from_slice(extra);
+        expect(run(&args), 0);
+        let v = summary(&out);
+        acc(&v)["history"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|r| r["tol"].as_f64().unwrap())
+            .collect()
+    };
+    // Without --tol: 1e-4 of the target, looser than a plain solve's 1e-8.
+    let own = tols(&[], "own");
+    assert!(!own.is_empty());
+    assert!(own.iter().all(|&t| (t - 1e-6).abs() < 1e-18), "{own:?}");
+    // A --tol tighter than that holds every round to it; a looser one does not loosen it.
+    let tight = tols(&["--tol", "1e-9"], "tight");
+    assert!(tight.iter().all(|&t| t <= 1e-9), "{tight:?}");
+    let loose = tols(&["--tol", "1e-3"], "loose");
+    assert!(
+        loose.iter().all(|&t| t <= 1e-6 * (1.0 + 1e-12)),
+        "{loose:?}"
+    );
+}
