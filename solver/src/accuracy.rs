@@ -19,10 +19,10 @@
 //! A design with no open side starts with a probe: the design's own member with an eighth of
 //! its cells along each axis (a density of 1/8, about a fiftieth of the nodes), solved with
 //! the error estimate. Its worst estimate and the order observed from its three lattices
-//! predict the round that lands at about two thirds of the target; the probe itself is never
-//! the result, and a round it predicts is accepted only on its own estimate, like any other,
-//! so a wrong prediction costs a round, not accuracy. A design with an open side starts on
-//! its own lattice (the study its far field begins with).
+//! predict the round that lands at about three quarters of the target; the probe itself is
+//! never the result, and a round it predicts is accepted only on its own estimate, like any
+//! other, so a wrong prediction costs a round, not accuracy. A design with an open side
+//! starts on its own lattice (the study its far field begins with).
 //!
 //! Each round solves on one member and reads every quantity's estimated error
 //! ([`quantities`]): discretisation, linear solver and, where a side is open, truncation of
