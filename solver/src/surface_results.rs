@@ -33,9 +33,9 @@ mod estimate;
 #[cfg(test)]
 use estimate::coarse_near;
 pub use estimate::{
-    conductor_fit_bias, estimate_errors, estimate_points, finish, surface_charge_errors,
-    CoarseSurface, AXIS_REACH_CELLS, FIT_BIAS, FIT_BIAS_CUBIC, INTERFACE_FIT_BIAS,
-    RESOLVED_RADIUS_CELLS,
+    conductor_fit_bias, estimate_errors, estimate_points, fine_on_coarse_nodes, finish,
+    surface_charge_errors, CoarseSurface, AXIS_REACH_CELLS, FIT_BIAS, FIT_BIAS_CUBIC,
+    INTERFACE_FIT_BIAS, RESOLVED_RADIUS_CELLS,
 };
 
 /// Surface area a sample stands for: planar m^2 per metre of depth, axisymmetric m^2.

@@ -807,17 +807,18 @@ fn sphere_surface_field_is_second_order_at_the_surface() {
 fn sphere_peak_field_and_surface_charge_estimates_follow_the_error() {
     // The spherical capacitor of the test above (Griffiths 2017, sec. 2.5.4): E(a) =
     // V b / (a (b - a)), sigma = eps0 E(a) all round the inner sphere. Measured, estimate over
-    // error at 10 / 20 / 40 cells: peak field 5.72 / 0.92 / 1.67, peak surface charge 1.45 /
-    // 1.05 / 1.59 (each the largest of the two-grid difference, the fit's bias bound and, at
-    // 40 cells, the cut rows' offset bound `row_offset_bound`, the peak far from the axis;
-    // without that bound 1.09 and 0.75 at 40 cells; with the difference and the bias added:
-    // 7.3 / 1.7 / 1.6 and 2.8 / 2.1 / 1.2). At 10
-    // cells the peak's estimate compares with the lattice of five cells across the radius,
-    // below the seven from which the fit's bias is bounded (`FIT_BIAS`): its samples on the
-    // inner sphere read 2.6 to 6.1 % low, where the fine ones read 0.32 % high, and the
-    // largest coarse reading near the peak is 5.5 % below it (three times the estimate of
-    // 1.82 %). The surface charge's compares with the value at the same place along the
-    // outline. The peak's estimate stays above 3x at 10 cells, on the safe side.
+    // error at 10 / 20 / 40 cells: peak field 1.85 / 0.92 / 1.67, peak surface charge 1.45 /
+    // 1.05 / 1.59 (at 20 and 40 cells each the largest of the two-grid difference, the fit's
+    // bias bound and, at 40 cells, the cut rows' offset bound `row_offset_bound`, the peak far
+    // from the axis; without that bound 1.09 and 0.75 at 40 cells; with the difference and the
+    // bias added: 7.3 / 1.7 / 1.6 and 2.8 / 2.1 / 1.2). At 10 cells the peak's coarse lattice
+    // has five cells across the radius, below the seven from which the fit's bias is bounded
+    // (`FIT_BIAS`): its fit reads the inner sphere 2.6 to 6.1 % low where the fine one reads
+    // 0.32 % high, and the plain two-grid difference said 1.82 % (5.72 times the error). The
+    // estimate there is the coarse lattices' difference read through the coarse fit on both
+    // (the coarse potential and the fine one at the coarse nodes: the fit's bias cancels),
+    // extrapolated, plus the fine fit's bias bound (`FIT_RESOLVED_CELLS`). The surface
+    // charge's compares with the value at the same place along the outline.
     let (a, b) = (1e-3, 2e-3);
     let want = b / (a * (b - a));
     for n in [10.0, 20.0, 40.0] {
@@ -852,9 +853,6 @@ fn sphere_peak_field_and_surface_charge_estimates_follow_the_error() {
             "{n} cells: {est:e} for {err:e}, {sest:e} for {serr:e}"
         );
         assert!(sest <= 3.0 * serr.abs(), "{n} cells: {sest:e} for {serr:e}");
-        assert!(
-            n == 10.0 || est <= 3.0 * err.abs(),
-            "{n} cells: {est:e} for {err:e}"
-        );
+        assert!(est <= 3.0 * err.abs(), "{n} cells: {est:e} for {err:e}");
     }
 }

@@ -364,18 +364,21 @@ fn dielectric_cylinder_in_a_uniform_field_peak_outside_and_hot_spots_never_low_b
                 h.magnitude
             );
             // Within 3x of the error. Measured, estimate over error at 10 / 20 / 40 cells:
-            // outside (the poles) 1.68 / 1.23 / 1.12, inside 4.2 / 1.9 / 1.5. The inside's
-            // hot spot is the largest reading of a uniform field, so its error is the surface
-            // fit's (third order, `INTERFACE_FIT_BIAS`), and at 10 cells its two-grid
-            // difference compares with a lattice of five cells across the radius, below the
-            // ten from which the interface fit's bias is bounded: its inside samples near the
-            // hot spot read -0.5 to +8.3 % off the exact field (the fine one +0.67 %), and
-            // the largest of them sets the estimate. That one estimate stays above 3x, on the
-            // safe side.
+            // outside (the poles) 1.40 / 1.23 / 1.12, inside 1.34 / 2.60 / 1.91. The inside's
+            // hot spot is the largest reading of a uniform field, so its error is mostly the
+            // surface fit's (`INTERFACE_FIT_BIAS`, bounded relative to the interface's peak
+            // field, eps times the inside's). At 10 cells the coarse lattice has five cells
+            // across the radius, below the ten from which the interface fit's bias is bounded
+            // (`INTERFACE_FIT_RESOLVED_CELLS`): its inside samples near the hot spot read -0.5
+            // to +8.3 % off the exact field (the fine one +0.67 %), and the plain two-grid
+            // difference said 2.79 % (4.2 times the error); the estimate there is the coarse
+            // lattices' difference read through the coarse fit on both potentials (the fit's
+            // bias cancels) plus the fine fit's bias bound. With that bound relative to the
+            // inside's own field instead of the interface's peak, the inside's estimate was
+            // 0.45 times its error at 10 cells.
             let ratio = est / (h.magnitude - want).abs();
-            let exempt = n == 10.0 && h.material == "rod";
             assert!(
-                exempt || ratio <= 3.0,
+                (1.0 / 3.0..=3.0).contains(&ratio),
                 "{} at {n} cells: estimate {est:e} over error {ratio:.2}",
                 h.material
             );

@@ -16,6 +16,13 @@
 //! difference). That holds in the plane and about the axis away from it; within
 //! [`AXIS_REACH_CELLS`] cells of the axis, where the fit reads several times its bound and the
 //! lattice's error is first order, and for the interface fit's bias, the two are added.
+//! Where the coarse lattice is below the fit's resolution at a surface hot spot
+//! ([`FIT_RESOLVED_CELLS`], [`INTERFACE_FIT_RESOLVED_CELLS`]) and the fine one is not, the
+//! coarse fit's bias is out of its model's range and would dominate the difference: the
+//! coarse fit then reads both the coarse potential and the fine one at the coarse nodes
+//! ([`fine_on_coarse_nodes`]), so that its bias cancels in the difference (the fit is linear
+//! in the node potentials), and the fine fit's bias bound is added to the extrapolated
+//! lattices' difference.
 //!
 //! Invariants: a surface charge compares with the coarse value at the same place of the same
 //! curve (the parabola through the three coarse samples nearest along it); a peak or hot spot
@@ -175,12 +182,22 @@ pub fn estimate_points(
 /// non-singular hot spot on such a rounding takes the scheme's order 2 instead; the
 /// surface fit's bias, added by [`finish`], covers what the coarse lattice does not yet
 /// resolve.
+///
+/// `fine_read`: the coarse lattice's surface samples (sampled as `coarse_samples`) reading
+/// the fine potential at the coarse nodes ([`fine_on_coarse_nodes`]), when it could be read
+/// there. At a non-singular surface hot spot where the coarse lattice is below the fit's
+/// resolution and the fine one is not, the estimate is
+/// `|E_coarse - E_fine_read| / (ratio^order - 1)` at the nearest coarse sample of its
+/// material plus the fine conductor fit's bias bound: Richardson's extrapolation (L. F.
+/// Richardson, 1911) of the lattices' error alone, the fit's bias bounded apart (each error
+/// source estimated on its own; common practice).
 pub fn estimate_errors(
     peak: &mut Option<Hotspot>,
     spots: &mut [Hotspot],
     design: &Design,
     coarse: &FieldEval,
     coarse_samples: &[SurfaceSample],
+    fine_read: Option<&[SurfaceSample]>,
     model: &crate::study::ErrorModel,
 ) {
     let cg = &coarse.op.grid;
@@ -213,6 +230,29 @@ pub fn estimate_errors(
             model.order
         };
         let factor = model.ratio.powf(order) - 1.0;
+        let hc = cg.spacing_at(at);
+        let hf = hc / model.ratio;
+        let (mut kc, mut ki) = (0.0f64, 0.0f64);
+        for s in coarse_samples
+            .iter()
+            .filter(|s| (s.x - h.x).hypot(s.y - h.y) <= 2.0 * hc)
+        {
+            if s.kind == SurfaceKind::Interface {
+                ki = ki.max(s.curvature.abs());
+            } else {
+                kc = kc.max(s.curvature);
+            }
+        }
+        let below = |cells: f64, k: f64| cells * hc * k > 1.0 && cells * hf * k <= 1.0;
+        let unresolved_fit = !h.singular
+            && (below(FIT_RESOLVED_CELLS, kc) || below(INTERFACE_FIT_RESOLVED_CELLS, ki));
+        if let Some(d) = fine_read
+            .filter(|_| unresolved_fit)
+            .and_then(|f| lattice_difference(coarse_samples, f, at, m, radius(at)))
+        {
+            h.error_estimate = Some(d.abs() / factor + h.magnitude * conductor_fit_bias(hf * kc));
+            return;
+        }
         h.error_estimate = coarse_value(
             cg,
             &magnitude,
@@ -228,6 +268,65 @@ pub fn estimate_errors(
         apply(p);
     }
     spots.iter_mut().for_each(apply);
+}
+
+/// The fine lattice's potential read at the nodes of the coarse one (`coarse.phi`'s layout,
+/// its fixed nodes keeping their values), when every coarse grid line is a fine one (a graded
+/// lattice, or a uniform one with an even number of cells along each axis); `None` otherwise.
+/// The coarse lattice's surface fit reads it as it reads the coarse potential, so that the
+/// difference of the two readings is the lattices' difference with the coarse fit's bias
+/// taken out (the fit is linear in the node potentials, with the same boundary values).
+pub fn fine_on_coarse_nodes(fine: &FieldEval, coarse: &FieldEval) -> Option<Vec<f64>> {
+    let (fg, cg) = (&fine.op.grid, &coarse.op.grid);
+    let lines = |f: &[f64], c: &[f64]| -> Option<Vec<usize>> {
+        let tol = 1e-9 * (f[f.len() - 1] - f[0]).abs();
+        c.iter()
+            .map(|&v| {
+                let k = f.partition_point(|&w| w < v - tol);
+                (k < f.len() && (f[k] - v).abs() <= tol).then_some(k)
+            })
+            .collect()
+    };
+    let (ix, jy) = (lines(fg.xs(), cg.xs())?, lines(fg.ys(), cg.ys())?);
+    let mut out = coarse.phi.to_vec();
+    for (j, &fj) in jy.iter().enumerate() {
+        for (i, &fi) in ix.iter().enumerate() {
+            let p = cg.idx(i, j);
+            if coarse.op.stencil.unknown[p] {
+                out[p] = fine.phi[fg.idx(fi, fj)];
+            }
+        }
+    }
+    Some(out)
+}
+
+/// The coarse lattices' difference at a surface hot spot, seen through the coarse surface
+/// fit: at the coarse sample nearest `at` of the hot spot's material, with a field in both
+/// readings, `|E(coarse potential)| - |E(fine potential on the coarse nodes)|` (V/m); the
+/// samples are those of one sampling of the coarse lattice, so they pair by index. `None`
+/// when no such sample lies within `radius`.
+fn lattice_difference(
+    coarse: &[SurfaceSample],
+    fine_read: &[SurfaceSample],
+    at: Point,
+    material: u16,
+    radius: f64,
+) -> Option<f64> {
+    coarse
+        .iter()
+        .zip(fine_read)
+        .filter(|(c, f)| {
+            c.material == material && c.magnitude().is_finite() && f.magnitude().is_finite()
+        })
+        .map(|(c, f)| {
+            (
+                (c.x - at[0]).hypot(c.y - at[1]),
+                c.magnitude() - f.magnitude(),
+            )
+        })
+        .filter(|(d, _)| *d <= radius)
+        .min_by(|a, b| a.0.total_cmp(&b.0))
+        .map(|(_, d)| d)
 }
 
 /// A convex rounding whose radius spans fewer cells than this is not resolved: the fit around
@@ -261,6 +360,14 @@ pub fn conductor_fit_bias(h_kappa: f64) -> f64 {
     let hk = h_kappa.max(0.0);
     (FIT_BIAS * hk * hk).min(FIT_BIAS_CUBIC * hk * hk * hk)
 }
+
+/// The cells across a convex conductor's radius from which [`FIT_BIAS`] bounds the conductor
+/// fit's bias (below, the bias is out of its model's range and changes sign).
+pub const FIT_RESOLVED_CELLS: f64 = 7.0;
+
+/// The cells across a curved interface's radius from which [`INTERFACE_FIT_BIAS`] bounds the
+/// interface fit's bias.
+pub const INTERFACE_FIT_RESOLVED_CELLS: f64 = 10.0;
 
 /// How far the fit on either side of a curved dielectric interface may read off, relative to
 /// the value, in units of `c (h kappa)^3` (c the permittivity ratio across the interface, at
@@ -337,11 +444,14 @@ fn with_conductor_bias(lattice: f64, bias: f64, mode: Mode, r: f64, h: f64) -> f
     }
 }
 
-/// The fit's model bias at a point, relative to the value: ([`conductor_fit_bias`] with
-/// the largest convex curvature of the conductor and side samples within `2 h`,
-/// [`INTERFACE_FIT_BIAS`] `c (h kappa)^3` with the largest curvature and permittivity ratio
-/// of the interface samples there), h the local spacing.
-fn fit_bias(design: &Design, samples: &[SurfaceSample], at: Point, h: f64) -> (f64, f64, f64) {
+/// The fit's model bias at a point, h the local spacing: [`conductor_fit_bias`] with the
+/// largest convex curvature of the conductor and side samples within `2 h`, the cut rows'
+/// offset bound there (both relative to the value), [`INTERFACE_FIT_BIAS`] `c (h kappa)^3`
+/// with the largest curvature and permittivity ratio of the interface samples there,
+/// relative to the interface's peak field as the bound was measured, and that peak (V/m: the
+/// largest field on either side along the curves of those samples; on the side of the
+/// higher permittivity it is up to c times the value itself).
+fn fit_bias(design: &Design, samples: &[SurfaceSample], at: Point, h: f64) -> [f64; 4] {
     let near = || {
         samples
             .iter()
@@ -353,17 +463,26 @@ fn fit_bias(design: &Design, samples: &[SurfaceSample], at: Point, h: f64) -> (f
         .fold(0.0f64, f64::max);
     let eps = |m: u16| crate::material::of(design, m).permittivity;
     let (mut kappa_i, mut lo, mut hi) = (0.0f64, f64::INFINITY, 0.0f64);
+    let mut curves = Vec::new();
     for s in near().filter(|s| s.kind == SurfaceKind::Interface) {
         kappa_i = kappa_i.max(s.curvature.abs());
         lo = lo.min(eps(s.material));
         hi = hi.max(eps(s.material));
+        curves.push(s.curve);
     }
+    let peak = samples
+        .iter()
+        .filter(|s| s.kind == SurfaceKind::Interface && curves.contains(&s.curve))
+        .map(|s| s.magnitude())
+        .filter(|m| m.is_finite())
+        .fold(0.0f64, f64::max);
     let contrast = if lo > 0.0 && hi >= lo { hi / lo } else { 1.0 };
-    (
+    [
         conductor_fit_bias(h * kappa),
         row_offset_bound(near_axis(design.mode, at[0], h), h * kappa),
         INTERFACE_FIT_BIAS * contrast * (h * kappa_i).powi(3),
-    )
+        peak,
+    ]
 }
 
 /// Joins the fit's model bias ([`fit_bias`]) with the error estimate of the non-singular hot
@@ -389,11 +508,12 @@ pub fn finish(
             .map(|s| s.curvature)
             .fold(0.0f64, f64::max);
         if !hs.singular {
-            let (conductor, row, interface) = fit_bias(design, samples, [hs.x, hs.y], h);
+            let [conductor, row, interface, peak] = fit_bias(design, samples, [hs.x, hs.y], h);
             let joined = |e: f64| {
                 let m = hs.magnitude;
                 let lattice = e.max(m * row);
-                with_conductor_bias(lattice, m * conductor, design.mode, hs.x, h) + m * interface
+                with_conductor_bias(lattice, m * conductor, design.mode, hs.x, h)
+                    + m.max(peak) * interface
             };
             hs.error_estimate = hs.error_estimate.map(joined);
         }
