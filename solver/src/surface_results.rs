@@ -35,7 +35,7 @@ use estimate::coarse_near;
 pub use estimate::{
     conductor_fit_bias, estimate_errors, estimate_points, fine_on_coarse_nodes, finish,
     surface_charge_errors, CoarseSurface, AXIS_REACH_CELLS, FIT_BIAS, FIT_BIAS_CUBIC,
-    INTERFACE_FIT_BIAS, RESOLVED_RADIUS_CELLS,
+    FIT_RESOLVED_CELLS, INTERFACE_FIT_BIAS, INTERFACE_FIT_RESOLVED_CELLS, RESOLVED_RADIUS_CELLS,
 };
 
 /// Surface area a sample stands for: planar m^2 per metre of depth, axisymmetric m^2.

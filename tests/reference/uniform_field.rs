@@ -690,7 +690,7 @@ fn conductors_in_a_uniform_field_peak_and_surface_charge_estimates_follow_the_er
     // Jackson 1999, sec. 2.5), as in the tests above: the reported peak field's estimate and
     // the peak surface charge's against their errors. Measured, estimate over error at 10 /
     // 20 / 40 cells (peak field; peak surface charge):
-    // - cylinder: 1.41 / 1.58 / 1.68; 1.54 / 1.83 / 1.86 (at 40 cells the cut rows' offset
+    // - cylinder: 1.53 / 1.58 / 1.68; 1.54 / 1.83 / 1.86 (at 40 cells the cut rows' offset
     //   bound, 0.015 h / a, `row_offset_bound`; without it 0.68 and 0.75). Both read high on
     //   every grid (the planar surface fit reads high on a convex surface, `FIT_BIAS`). The
     //   estimate is the largest of the two-grid difference, the cut rows' offset bound and the
@@ -698,7 +698,9 @@ fn conductors_in_a_uniform_field_peak_and_surface_charge_estimates_follow_the_er
     //   a)^3) (`conductor_fit_bias`): both lattices carry the bias at their own h, so the
     //   difference already holds it. Added to it, as before, the peak surface charge's
     //   estimate at 20 cells was 3.40 times its error (difference 1.8x, bias 1.6x).
-    // - sphere: 56 / 17 / 3.2; 36 / 19 / 3.2. The error at the pole does not converge
+    // - sphere: 35 / 17 / 3.2; 36 / 19 / 3.2 (the peak 56 at 10 cells before the coarse
+    //   fit's bias was taken out of the difference where the coarse lattice is below the
+    //   fit's resolution, `FIT_RESOLVED_CELLS`). The error at the pole does not converge
     //   (-0.036 / +0.020 / +0.042 %; see the sphere's test above); next to the axis the
     //   estimate holds the cut rows' offset bound, 0.05 h / a (`row_offset_bound`), which a
     //   centre off its row needs (`off_row.rs`: the pole reads up to 0.19 % low at 20 cells

@@ -560,6 +560,57 @@ mod tests {
     }
 
     #[test]
+    fn the_fine_potential_on_the_coarse_nodes_is_read_only_where_every_coarse_line_is_fine() {
+        use crate::design::{Conductor, Domain, Drive, Shape};
+        use crate::study::{self, StudyParams};
+        // A rod in a box (domain edges grounded by default).
+        let design = Design {
+            domain: Domain {
+                x: [0.0, 4e-3],
+                y: [0.0, 4e-3],
+                cell: 0.2e-3,
+            },
+            conductors: vec![Conductor {
+                name: "rod".into(),
+                drive: Drive::Fixed(1.0),
+                joined: Vec::new(),
+                shape: Shape::Circle {
+                    center: [2.03e-3, 1.96e-3],
+                    radius: 1e-3,
+                },
+            }],
+            ..Design::default()
+        };
+        let params = StudyParams::default();
+        let solve = |cells: usize| {
+            let grid = Grid::regular([0.0; 2], [4e-3 / cells as f64; 2], [cells + 1; 2]);
+            let plan = study::plan(&design, &params).unwrap().with_grid(grid);
+            study::run_planned(&design, &plan, &params).unwrap()
+        };
+        for (fine_cells, shared) in [(20, true), (21, false)] {
+            let (fine, coarse) = (solve(fine_cells), solve(fine_cells.div_ceil(2)));
+            let (f, c) = (fine.field(), coarse.field());
+            let read = fine_on_coarse_nodes(&f, &c);
+            assert_eq!(read.is_some(), shared, "{fine_cells} cells");
+            let Some(read) = read else { continue };
+            let (fg, cg) = (&f.op.grid, &c.op.grid);
+            let mut free = 0;
+            for j in 0..cg.ny {
+                for i in 0..cg.nx {
+                    let p = cg.idx(i, j);
+                    if c.op.stencil.unknown[p] {
+                        free += 1;
+                        assert_eq!(read[p], f.phi[fg.idx(2 * i, 2 * j)]);
+                    } else {
+                        assert_eq!(read[p], c.phi[p]);
+                    }
+                }
+            }
+            assert!(free > 50, "{free} free nodes");
+        }
+    }
+
+    #[test]
     fn the_row_offset_bound_is_first_order_and_larger_next_to_the_axis() {
         for hk in [0.01, 0.1] {
             assert_eq!(row_offset_bound(false, hk), ROW_OFFSET * hk);
