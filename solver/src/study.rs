@@ -537,20 +537,20 @@ fn field_results(
         let coarse_surface = surface::without_thin_conductors(&all, design);
         // The fine potential read by the coarse lattice's surface fit, where the coarse
         // lattice is below the fit's resolution (see `surface_results::estimate`).
-        let fine_phi = surface_results::fine_on_coarse_nodes(field, cf);
-        let fine_read = fine_phi.as_ref().map(|phi| {
+        let fine_read = || {
+            let phi = surface_results::fine_on_coarse_nodes(field, cf)?;
             let n = design.conductors.len();
-            let f = post::FieldEval::new(cf.op, cf.raster, phi, &cf.values[..n]);
+            let f = post::FieldEval::new(cf.op, cf.raster, &phi, &cf.values[..n]);
             let read = surface::sample_near(&f, design, &SurfaceParams::default(), &points);
-            surface::without_thin_conductors(&read, design)
-        });
+            Some(surface::without_thin_conductors(&read, design))
+        };
         surface_results::estimate_errors(
             &mut peak_field,
             &mut hotspots,
             design,
             cf,
             &coarse_surface,
-            fine_read.as_deref(),
+            &fine_read,
             m,
         );
     }

@@ -184,8 +184,8 @@ pub fn estimate_points(
 /// resolve.
 ///
 /// `fine_read`: the coarse lattice's surface samples (sampled as `coarse_samples`) reading
-/// the fine potential at the coarse nodes ([`fine_on_coarse_nodes`]), when it could be read
-/// there. At a non-singular surface hot spot where the coarse lattice is below the fit's
+/// the fine potential at the coarse nodes ([`fine_on_coarse_nodes`]), when it can be read
+/// there; called once, and only when a hot spot needs it. At a non-singular surface hot spot where the coarse lattice is below the fit's
 /// resolution and the fine one is not, the estimate is
 /// `|E_coarse - E_fine_read| / (ratio^order - 1)` at the nearest coarse sample of its
 /// material plus the fine conductor fit's bias bound: Richardson's extrapolation (L. F.
@@ -197,9 +197,10 @@ pub fn estimate_errors(
     design: &Design,
     coarse: &FieldEval,
     coarse_samples: &[SurfaceSample],
-    fine_read: Option<&[SurfaceSample]>,
+    fine_read: &dyn Fn() -> Option<Vec<SurfaceSample>>,
     model: &crate::study::ErrorModel,
 ) {
+    let read = std::cell::OnceCell::new();
     let cg = &coarse.op.grid;
     let radius = |at: Point| coarse_radius(cg, at);
     let magnitude = lattice_magnitudes(
@@ -246,8 +247,9 @@ pub fn estimate_errors(
         let below = |cells: f64, k: f64| cells * hc * k > 1.0 && cells * hf * k <= 1.0;
         let unresolved_fit = !h.singular
             && (below(FIT_RESOLVED_CELLS, kc) || below(INTERFACE_FIT_RESOLVED_CELLS, ki));
-        if let Some(d) = fine_read
+        if let Some(d) = Some(&read)
             .filter(|_| unresolved_fit)
+            .and_then(|r| r.get_or_init(fine_read).as_deref())
             .and_then(|f| lattice_difference(coarse_samples, f, at, m, radius(at)))
         {
             h.error_estimate = Some(d.abs() / factor + h.magnitude * conductor_fit_bias(hf * kc));

@@ -610,7 +610,7 @@ fn coarse_side_and_interface_fits_only_near_the_points_give_the_estimates_every_
                 coarser: None,
                 graded_family: false,
             };
-            super::estimate_errors(&mut p, &mut h, &design, &field, samples, None, &model);
+            super::estimate_errors(&mut p, &mut h, &design, &field, samples, &|| None, &model);
             p.iter()
                 .chain(&h)
                 .map(|h| h.error_estimate.map(f64::to_bits))
