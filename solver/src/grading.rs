@@ -226,6 +226,27 @@ pub fn is_rectilinear(design: &Design) -> bool {
     })
 }
 
+/// The points where an outline of conductor `k` meets a dielectric's or a charge region's,
+/// as [`lines`] finds them to grade (empty for no such conductor): the junctions a force
+/// path round the conductor passes.
+pub fn junctions_of(design: &Design, k: usize) -> Vec<Point> {
+    let Some(c) = design.conductors.get(k) else {
+        return Vec::new();
+    };
+    let conductors: Vec<Outline> = c.shapes().filter_map(|s| outline(s).ok()).collect();
+    let dielectrics: Vec<Outline> = design
+        .dielectrics
+        .iter()
+        .map(|e| &e.shape)
+        .chain(design.charges.iter().filter_map(|c| match c {
+            crate::design::Charge::Region { shape, .. } => Some(shape),
+            _ => None,
+        }))
+        .filter_map(|s| outline(s).ok())
+        .collect();
+    junctions(&conductors, &dielectrics)
+}
+
 /// Most cells along one axis.
 const MAX_CELLS: f64 = 1.0e8;
 

@@ -34,7 +34,7 @@ mod reference;
 mod solves;
 
 use estimate::CoarseStudies;
-pub use estimate::{solver_errors, worst_relative_asymmetry, ErrorModel};
+pub use estimate::{junction_exponent, solver_errors, worst_relative_asymmetry, ErrorModel};
 pub use params::{StudyError, StudyParams, WarmStart};
 use solves::{solve_on, Core};
 use std::sync::Arc;
@@ -375,8 +375,9 @@ fn operating_point(
     // The coarse force counts only when its own path sees the conductor's field: a layer
     // that the coarse lattice does not resolve gives a coarse force unrelated to the fine one.
     // A conductor on an interface: the path passes its junctions, whose singular field sets
-    // the order (the junction's cells shrink 2^(1 / mu) per member of a graded family, with
-    // mu the grading's exponent there, and as the lattice's ratio on a uniform one).
+    // the order, with the cells beside them shrinking from the coarse lattice to the fine one
+    // as the two lattices show on a graded family (2^(1 / mu) per member while the grading
+    // falls radically there, 2 within its floor) and as the lattice's ratio on a uniform one.
     let path_error = |k: usize, f: [f64; 2], why: NoBand| -> Option<[f64; 2]> {
         let (m, cf) = estimate?;
         let c = post::force_on_path(cf, design, k);
@@ -389,7 +390,8 @@ fn operating_point(
             Some([hi, lo]) => {
                 let lambda = estimate::junction_exponent(hi, lo);
                 let shrink = if design.lattice == Lattice::Graded {
-                    2f64.powf(1.0 / crate::grading::Params::default().junction_grading)
+                    estimate::junction_shrink(design, k, &field.op.grid, &cf.op.grid)
+                        .unwrap_or(m.ratio)
                 } else {
                     m.ratio
                 };

@@ -60,11 +60,17 @@ impl ErrorModel {
     /// stress there goes as `r^(2 lambda - 2)`, so its sum misses about `h^(2 lambda - 1)` of
     /// the integral with `h` the cells at the junction, and the result converges no faster
     /// than that, whatever the matrix shows. `shrink`: how many times smaller the junction's
-    /// cells are on the fine lattice than on the coarse one (> 1). Never below
+    /// cells are on the fine lattice than on the coarse one (> 1; otherwise the difference
+    /// says nothing of the error, which is then unbounded). Never below
     /// [`ErrorModel::estimate`].
     pub fn estimate_at_junction(&self, fine: f64, coarse: f64, lambda: f64, shrink: f64) -> f64 {
         let q = 2.0 * lambda - 1.0;
-        let at_junction = (fine - coarse).abs() / (shrink.powf(q) - 1.0);
+        let fall = shrink.powf(q) - 1.0;
+        let at_junction = if fall > 0.0 {
+            (fine - coarse).abs() / fall
+        } else {
+            f64::INFINITY
+        };
         at_junction.max(self.estimate(fine, coarse))
     }
 
@@ -123,6 +129,48 @@ pub fn junction_exponent(eps_half: f64, eps_quadrant: f64) -> f64 {
         }
     }
     0.5 * (a + b)
+}
+
+/// The smallest cell beside the point `p` on `grid`, m: the larger of the two axes'
+/// smallest cells next to the node line nearest `p` (a junction of a graded lattice lies on
+/// a line of each axis, its smallest cells on both sides of it).
+fn cell_beside(grid: &Grid, p: [f64; 2]) -> f64 {
+    let axis = |lines: &[f64], t: f64| {
+        let i = match lines.binary_search_by(|x| x.total_cmp(&t)) {
+            Ok(i) => i,
+            Err(0) => 0,
+            Err(i) if i == lines.len() => i - 1,
+            Err(i) => {
+                if t - lines[i - 1] <= lines[i] - t {
+                    i - 1
+                } else {
+                    i
+                }
+            }
+        };
+        let below = (i > 0).then(|| lines[i] - lines[i - 1]);
+        let above = (i + 1 < lines.len()).then(|| lines[i + 1] - lines[i]);
+        below.into_iter().chain(above).fold(f64::INFINITY, f64::min)
+    };
+    axis(grid.xs(), p[0]).max(axis(grid.ys(), p[1]))
+}
+
+/// How many times smaller the cells beside conductor `k`'s junctions are on `fine` than on
+/// `coarse`, read from the two lattices: the smallest ratio over its junctions (the slowest
+/// to converge sets the order of a path that passes them all). On a graded family this is
+/// `2^(1 / mu)` while the junction's cells fall radically and 2 once they reach the
+/// junction's floor (`grading::Params::junction_floor`), where they are bisected. `None`
+/// when the conductor meets no interface the grading knows of.
+pub(super) fn junction_shrink(
+    design: &Design,
+    k: usize,
+    fine: &Grid,
+    coarse: &Grid,
+) -> Option<f64> {
+    crate::grading::junctions_of(design, k)
+        .into_iter()
+        .map(|p| cell_beside(coarse, p) / cell_beside(fine, p))
+        .reduce(f64::min)
 }
 
 /// The order observed from results on three lattices with spacings h, r h, r^2 h:
@@ -435,6 +483,28 @@ mod tests {
         // h^(1/3) is slower than the model's 1.5, so the junction's estimate stands.
         let e = m.estimate_at_junction(1.0, 1.001, 2.0 / 3.0, 2.0);
         assert!(e >= m.estimate(1.0, 1.001));
+    }
+
+    #[test]
+    fn the_junction_shrink_is_read_from_the_cells_beside_it() {
+        // A junction at (1, 1) on lines of both lattices: beside it the coarse lattice has
+        // cells of 0.5 (x) and 0.25 (y), the fine one 0.1 and 0.125; the larger axis' cell
+        // counts on each (0.5 against 0.125): a shrink of 4, whichever side the cells lie.
+        let coarse = Grid::from_lines(vec![0.0, 0.5, 1.0, 2.0], vec![0.0, 0.75, 1.0, 2.0]);
+        let fine = Grid::from_lines(
+            vec![0.0, 0.25, 0.5, 0.9, 1.0, 1.5, 2.0],
+            vec![0.0, 0.4, 0.75, 0.875, 1.0, 1.5, 2.0],
+        );
+        let (coarse, fine) = (coarse.unwrap(), fine.unwrap());
+        assert_eq!(cell_beside(&coarse, [1.0, 1.0]), 0.5);
+        assert_eq!(cell_beside(&fine, [1.0, 1.0]), 0.125);
+        // Off a line, the nearest line's cells; outside the domain, its side's.
+        assert_eq!(cell_beside(&fine, [0.97, 1.02]), 0.125);
+        assert_eq!(cell_beside(&fine, [-1.0, 3.0]), 0.5);
+        // A shrink of one (the cells did not fall) leaves the junction's error unbounded
+        // rather than the matrix order's estimate.
+        let e = model(true).estimate_at_junction(1.0, 1.001, 0.54, 1.0);
+        assert_eq!(e, f64::INFINITY);
     }
 
     #[test]
