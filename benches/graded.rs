@@ -158,7 +158,8 @@ pub fn graded_problem(case: Case, n: usize, ratio: f64) -> (Stencil5, Vec<f64>) 
 /// (member 2 is the design's own lattice), through the design reader, grading, rasteriser
 /// and operator assembly; with `steep` graded at the copper/dielectric junctions with
 /// exponent 1/4 and size 1/2 of the local feature (`grading::Params::junction_grading`,
-/// `junction_fraction`) instead of the default. One right-hand side per conductor at 1 V.
+/// `junction_fraction`) and no floor there (the default has the same exponent and size with
+/// a floor of 1e-3). One right-hand side per conductor at 1 V.
 pub fn sensor_pad_problem(k: usize, steep: bool) -> crate::Problem {
     use fieldgrid_solver::{accuracy, operator, raster};
     let path =
@@ -170,8 +171,11 @@ pub fn sensor_pad_problem(k: usize, steep: bool) -> crate::Problem {
     d.lattice = fieldgrid_solver::design::Lattice::Graded;
     let mut p = accuracy::Params::default();
     if steep {
+        // Without the junctions' floor (the default's 1e-3 of the local feature): cells to
+        // 1e-5 of it, the case the multigrid's line relaxation was tuned on.
         p.grading.junction_grading = 0.25;
         p.grading.junction_fraction = 0.5;
+        p.grading.junction_floor = 0.0;
     }
     let grid = accuracy::lattice(&d, &p, k).expect("the graded lattice fits");
     let raster = raster::rasterize(&d, &grid);

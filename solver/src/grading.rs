@@ -41,7 +41,9 @@
 //! variables: 0.56 for copper on FR-4 with air beside it). The defaults are `mu` = 2/3 at
 //! corners in one medium (`corner_grading`: the right-angled corner's own exponent, the
 //! limit of the condition rather than inside it), 0.4 at thin ends (`thin_end_grading`,
-//! inside the thin plate's 1/2) and, at junctions, the corners' own 1/16 and 2/3.
+//! inside the thin plate's 1/2) and 1/4 at junctions (`junction_grading`, well inside the
+//! interface corner's 0.56), with a size there of half the local feature size
+//! (`junction_fraction`) and a floor of 1e-3 of it (`junction_floor`), as measured below.
 //!
 //! Measured on the sensor pad (every copper corner is a junction: FR-4 or the overlay on one
 //! side, air on the other), members 1 to 3 solved to 1e-11 against the finite-element
@@ -49,29 +51,33 @@
 //! slope of the worst entry's error against the node count, the nodes for a worst error of
 //! 1e-3 (log-log between members), multigrid-CG iterations of the design's own lattice
 //! (member 2) at the default 1e-8 and of member 3:
-//! - 2/3, 1/16, 0 (default): -0.992, 190 000 nodes, 6 and 9 iterations;
+//! - 2/3, 1/16, 0 (the corners' own, the default before): -0.992, 190 000 nodes, 6 and 9
+//!   iterations;
 //! - 0.55, 1/16, 0: -0.999, 193 000, 8 and 17; 1/2: -1.000 (-0.9999), 204 000, 13, 24;
 //!   0.45: -1.001, 209 000, 18, 31; 1/3: -1.001, 261 000, 31, 48; 1/4: -1.001, 340 000, 38, 57;
 //! - 1/2, 1/2, 1e-4: -0.978, 101 000, 6, 9; 1/2, 1/4, 1e-4: -0.997, 121 000, 6, 11;
 //!   0.4, 1/2, 1e-4: -0.999, 102 000, 6, 13; 0.4, 1/2, 1e-3: -0.996, 100 000, 6, 7;
 //!   0.35, 1/2, 1e-3: -0.9985, 107 000, 6, 14; 0.3, 1/2, 1e-3: -0.9996, 111 000, 8, 15;
-//! - 1/4, 1/2, 1e-3: -1.0003, 119 000, 11, 20; 1/4, 1/2, 1e-4: -1.0014, 123 000, 19, 34.
+//! - 1/4, 1/2, 1e-3 (default): -1.0003, 119 000, 11, 20; 1/4, 1/2, 1e-4: -1.0014, 123 000,
+//!   19, 34.
 //!
-//! A larger size at the junctions saves nodes (0.53 to 0.65 times the default's for the
-//! same worst error), an exponent below the singularity's 0.56 gives the full rate only
-//! with a steep fall (1/4), and that costs multigrid-CG iterations. With 1/4, 1/2 and 1e-3
-//! as the default, the CLI tests, the invariance properties, the accuracy loop's and the
-//! demos' estimate tests held (the estimates 1.01 to 1.02 of the sensor pad's true errors)
-//! and the README's quoted figures moved (capacitances in their fifth digit, forces more);
-//! of the reference tests run, one broke: the force estimate of a conductor on an interface
-//! takes its junction cells to shrink `2^(1 / junction_grading)` per member (16 at 1/4),
-//! which the floor breaks (the cells there halve once inside it): the demo MEMS drive's
-//! force estimate, 1.26e-2 N/m, came out 8.4 times its distance to member 3 (1.5e-3 N/m;
-//! its test asks within 3 times), and with the junction's cells shrinking less than assumed
-//! it may as well be optimistic (the force there converges as about h^0.075). The default
-//! stays until that estimate reads the shrink of the junction's own cells and the multigrid
-//! carries such lattices. `junction_floor` (a distance over the local feature size below
-//! which the size stops falling) keeps the smallest cells well above the rounding of the
+//! (Iterations before the line relaxation's lumped weights and coarse sweeps; with them the
+//! default's members 1-3 take 4+4+4, 4+4+4 and 4+4+5 (a solve per conductor, 1e-8), as the
+//! former default's did: the `stretched` bench, `--case sensor-pad`.)
+//!
+//! A larger size at the junctions saves nodes (0.53 to 0.65 times the former default's for
+//! the same worst error), and an exponent below the singularity's 0.56 gives the full rate
+//! only with a steep fall (1/4), which cost multigrid-CG iterations before the line
+//! relaxation's coarse sweeps and no longer does. On the sensor pad the default reaches a
+//! worst error of 5.2e-4 at 226 941 nodes (0.51 CPU s, whole process, one thread) where the
+//! former one took 387 045 (0.75 s, same run), and `--accuracy 1e-3` costs 0.57 against
+//! 0.62 CPU s (1.02 to 1.04 times the finite-element script's against 1.12 to 1.16).
+//! The force estimate of a conductor on an interface reads how much the cells beside its
+//! junctions shrink between the two lattices (2^(1 / mu) while the grading falls radically
+//! there, 2 once the cells are inside the floor, where they are bisected) rather than
+//! assuming the former: the demo MEMS drive's estimate is 1.9 times its distance to the limit
+//! extrapolated from members 3 and 4 (tests/reference/forces.rs). `junction_floor` (a distance over the local feature size below which the
+//! size stops falling) keeps the smallest cells well above the rounding of the
 //! coordinates: with 1/4 and no floor, the sensor pad's member 3 has cells of 1.2e-10 m
 //! (1/16) and, with 1/2, the solves of a randomly drawn axisymmetric scene stagnate at a
 //! relative residual of 5e-9; with a floor of 1e-5, a design in mil and in mm differ by
@@ -147,9 +153,9 @@ impl Default for Params {
             thin_end_fraction: 1.0 / 128.0,
             corner_grading: 2.0 / 3.0,
             thin_end_grading: 0.4,
-            junction_fraction: 1.0 / 16.0,
-            junction_grading: 2.0 / 3.0,
-            junction_floor: 0.0,
+            junction_fraction: 0.5,
+            junction_grading: 0.25,
+            junction_floor: 1e-3,
             min_cells: 4,
             cells_per_radius: 8,
             line_budget: 32.0,
@@ -226,9 +232,8 @@ pub fn is_rectilinear(design: &Design) -> bool {
     })
 }
 
-/// The points where an outline of conductor `k` meets a dielectric's or a charge region's,
-/// as [`lines`] finds them to grade (empty for no such conductor): the junctions a force
-/// path round the conductor passes.
+/// The points where an outline of conductor `k` meets a dielectric's or a charge region's, as
+/// [`lines`] grades them: the junctions a force path round the conductor passes.
 pub fn junctions_of(design: &Design, k: usize) -> Vec<Point> {
     let Some(c) = design.conductors.get(k) else {
         return Vec::new();
