@@ -382,8 +382,8 @@ fn maps_with<T: Send>(
     let potential_map = || {
         let potential: Vec<f64> = sol
             .potential
-            .iter()
-            .zip(&sol.raster.conductor)
+            .par_iter()
+            .zip(sol.raster.conductor.par_iter())
             .map(|(&v, &c)| {
                 if c == fieldgrid_solver::raster::NO_CONDUCTOR {
                     v

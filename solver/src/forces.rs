@@ -111,10 +111,15 @@ struct Obstacles<'a> {
 
 impl Obstacles<'_> {
     fn at(&self, p: usize) -> bool {
+        let nx = self.field.op.grid.nx;
+        self.at_node(p, p % nx, p / nx)
+    }
+
+    /// [`Obstacles::at`] at node p = i + j nx.
+    fn at_node(&self, p: usize, i: usize, j: usize) -> bool {
         let op = self.field.op;
         let g = &op.grid;
         let r = self.field.raster;
-        let (i, j) = (p % g.nx, p / g.nx);
         let own = r.conductor[p] != NO_CONDUCTOR && r.conductor[p] as usize == self.k;
         if own {
             return false;
@@ -269,7 +274,7 @@ pub fn weighted_force(
             if d > w.outer {
                 continue;
             }
-            if obs.at(p) {
+            if obs.at_node(p, i, j) {
                 return None;
             }
             let gt = w.gradient(d, dg);
@@ -282,7 +287,7 @@ pub fn weighted_force(
             }
             // As `field.at(p)`: a node with no link.
             let e = if op.stencil.unknown[p] {
-                field.at_with(p, &[])
+                field.at_free(p, i, j)
             } else {
                 [f64::NAN; 2]
             };

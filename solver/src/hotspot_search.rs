@@ -45,8 +45,13 @@ pub(crate) struct Readings<'a> {
 impl Readings<'_> {
     /// The reading at node p with persistence q, when the lattice has one there.
     fn node(&self, p: usize, q: f64) -> Option<Reading> {
+        self.node_at(p, p % self.grid.nx, p / self.grid.nx, q)
+    }
+
+    /// [`Readings::node`] at node p = i + j nx.
+    fn node_at(&self, p: usize, i: usize, j: usize, q: f64) -> Option<Reading> {
         let (g, m) = (self.grid, self.magnitude[p]);
-        (m.is_finite() && m > 0.0).then(|| ([g.x(p % g.nx), g.y(p / g.nx)], m, self.material[p], q))
+        (m.is_finite() && m > 0.0).then(|| ([g.x(i), g.y(j)], m, self.material[p], q))
     }
 
     /// Rank key: margin (lowest first, materials without a strength after them by field)
@@ -118,11 +123,18 @@ impl Readings<'_> {
         // The nodes by fixed chunks in parallel; each chunk's two bests are taken in chunk
         // order by the same rules (the last highest, the first lowest in rank), so the result
         // is that of one pass in sequence; then the surface's readings.
+        let nx = self.grid.nx;
         let chunks = crate::parallel::chunks(self.magnitude.len(), |range| {
             let mut best: Best = (None, None);
+            // Node p's column and row, stepped along (no division per node).
+            let (mut i, mut j) = (range.start % nx, range.start / nx);
             for p in range {
-                if let Some(c) = self.node(p, 0.0) {
+                if let Some(c) = self.node_at(p, i, j, 0.0) {
                     take(&mut best, p, c);
+                }
+                i += 1;
+                if i == nx {
+                    (i, j) = (0, j + 1);
                 }
             }
             best

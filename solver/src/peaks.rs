@@ -77,17 +77,22 @@ fn ways_up(values: &[f64], nx: usize, ny: usize) -> Vec<u32> {
         let rows = j.saturating_sub(1)..(j + 2).min(ny);
         for (i, out) in row.iter_mut().enumerate() {
             let p = i + j * nx;
-            if !on_lattice(values[p]) {
+            let mut top = values[p];
+            if !on_lattice(top) {
                 continue;
             }
             let mut best = p;
+            let cols = i.saturating_sub(1)..(i + 2).min(nx);
             for qj in rows.clone() {
-                for qi in i.saturating_sub(1)..(i + 2).min(nx) {
-                    let q = qi + qj * nx;
-                    let v = values[q];
+                let line = &values[qj * nx..][..nx];
+                for qi in cols.clone() {
+                    let (q, v) = (qi + qj * nx, line[qi]);
                     // Before `best` in sweep order (the node itself is never before itself).
-                    if on_lattice(v) && (v > values[best] || (v == values[best] && q < best)) {
+                    // `top`, the value at `best`, is finite and positive: a value above it is
+                    // on the lattice unless infinite, one equal to it is.
+                    if (v > top && v < f64::INFINITY) || (v == top && q < best) {
                         best = q;
+                        top = v;
                     }
                 }
             }
@@ -159,12 +164,15 @@ fn borders(values: &[f64], nx: usize, basin: &[u32]) -> Vec<Border> {
     let n = values.len();
     let mut out: Vec<Border> = crate::parallel::chunks(n, |range| {
         let mut found = Vec::new();
+        // Node p's column, stepped along (no division per node).
+        let mut next = range.start % nx;
         for p in range {
+            let i = next;
+            next = if i + 1 == nx { 0 } else { i + 1 };
             let bp = basin[p];
             if bp == NONE {
                 continue;
             }
-            let i = p % nx;
             // Each unordered pair once: east, and the three neighbours of the row above.
             let ahead = [
                 (i + 1 < nx).then(|| p + 1),
@@ -460,6 +468,40 @@ mod tests {
             }
         }
         basin
+    }
+
+    #[test]
+    fn ways_up_are_the_first_neighbours_in_sweep_order_with_values_off_the_lattice() {
+        // Every neighbour (the node itself too) checked for the lattice and compared in sweep
+        // order, in plain form.
+        let plain = |v: &[f64], nx: usize, ny: usize| -> Vec<u32> {
+            (0..nx * ny)
+                .map(|p| {
+                    if !on_lattice(v[p]) {
+                        return NONE;
+                    }
+                    let (i, j) = (p % nx, p / nx);
+                    let mut best = p;
+                    for qj in j.saturating_sub(1)..(j + 2).min(ny) {
+                        for qi in i.saturating_sub(1)..(i + 2).min(nx) {
+                            let q = qi + qj * nx;
+                            if on_lattice(v[q]) && order(v, q as u32, best as u32).is_lt() {
+                                best = q;
+                            }
+                        }
+                    }
+                    best as u32
+                })
+                .collect()
+        };
+        for (seed, (nx, ny)) in [(21, (97, 61)), (22, (1, 40)), (23, (40, 1)), (24, (2, 2))] {
+            let mut v = rough(nx, ny, seed);
+            let odd = [f64::INFINITY, f64::NEG_INFINITY, 0.0, -1.0, f64::MAX];
+            for (k, x) in v.iter_mut().enumerate().filter(|(k, _)| k % 7 == 3) {
+                *x = odd[k % odd.len()];
+            }
+            assert_eq!(ways_up(&v, nx, ny), plain(&v, nx, ny), "{nx} x {ny}");
+        }
     }
 
     #[test]

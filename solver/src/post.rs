@@ -120,6 +120,31 @@ pub struct FieldEval<'a> {
     reference: f64,
     /// |E| at every node, computed once on first use.
     magnitude: std::sync::OnceLock<Vec<f64>>,
+    /// The derivative's weights of the lattice's interior columns and rows.
+    weights: Weights,
+}
+
+/// The weights of the three-point derivative ([`derivative`]) at every interior column and
+/// row of a lattice: a node off the lattice's sides with no link takes its field from them,
+/// the bits of [`FieldEval::at_with`] without its divisions.
+struct Weights {
+    /// Column i's at `x[i - 1]`, 0 < i < nx - 1.
+    x: Vec<[f64; 3]>,
+    /// Row j's at `y[j - 1]`, 0 < j < ny - 1.
+    y: Vec<[f64; 3]>,
+}
+
+impl Weights {
+    fn of(g: &crate::grid::Grid) -> Weights {
+        Weights {
+            x: (1..g.nx.saturating_sub(1))
+                .map(|i| weights(g.dx(i - 1), g.dx(i)))
+                .collect(),
+            y: (1..g.ny.saturating_sub(1))
+                .map(|j| weights(g.dy(j - 1), g.dy(j)))
+                .collect(),
+        }
+    }
 }
 
 impl<'a> FieldEval<'a> {
@@ -138,6 +163,7 @@ impl<'a> FieldEval<'a> {
             values: op.target_values(conductor_potentials, true),
             reference: 0.0,
             magnitude: std::sync::OnceLock::new(),
+            weights: Weights::of(&op.grid),
         }
     }
 
@@ -159,6 +185,24 @@ impl<'a> FieldEval<'a> {
             return [f64::NAN; 2];
         }
         self.at_with(p, self.op.links_of(p))
+    }
+
+    /// [`FieldEval::at`] at an unknown node p = i + j nx that has no link.
+    pub(crate) fn at_free(&self, p: usize, i: usize, j: usize) -> [f64; 2] {
+        let nx = self.op.grid.nx;
+        match (
+            self.weights.x.get(i.wrapping_sub(1)),
+            self.weights.y.get(j.wrapping_sub(1)),
+        ) {
+            (Some(&[a, b, c]), Some(&[d, e, f])) => {
+                let phi = self.phi;
+                [
+                    -(a * phi[p - 1] + b * phi[p] + c * phi[p + 1]),
+                    -(d * phi[p - nx] + e * phi[p] + f * phi[p + nx]),
+                ]
+            }
+            _ => self.at_with(p, &[]),
+        }
     }
 
     /// [`FieldEval::at`] at an unknown node p whose links are `links`.
@@ -214,7 +258,11 @@ impl<'a> FieldEval<'a> {
                         k += 1;
                     }
                     if unknown[p] {
-                        let [x, y] = self.at_with(p, &links[lo..k]);
+                        let [x, y] = if lo == k {
+                            self.at_free(p, i, j)
+                        } else {
+                            self.at_with(p, &links[lo..k])
+                        };
                         *m = x.hypot(y);
                     }
                 }
@@ -230,12 +278,18 @@ impl<'a> FieldEval<'a> {
     }
 }
 
+/// The weights of f(-a), f(0) and f(+b) in [`derivative`] with both sides present.
+fn weights(a: f64, b: f64) -> [f64; 3] {
+    [-b / (a * (a + b)), (b - a) / (a * b), a / (b * (a + b))]
+}
+
 /// Second-order derivative at 0 from values at -a (f_m), 0 (f0) and +b (f_p); one-sided
 /// (first order) when a side is missing, zero when both are (a no-flux boundary).
 fn derivative(minus: Option<(f64, f64)>, f0: f64, plus: Option<(f64, f64)>) -> f64 {
     match (minus, plus) {
         (Some((a, fm)), Some((b, fp))) => {
-            (-b / (a * (a + b))) * fm + ((b - a) / (a * b)) * f0 + (a / (b * (a + b))) * fp
+            let [wm, w0, wp] = weights(a, b);
+            wm * fm + w0 * f0 + wp * fp
         }
         // At a symmetry side or the axis the normal field vanishes.
         (None, Some(_)) | (Some(_), None) | (None, None) => 0.0,

@@ -7,6 +7,7 @@
 
 use fieldgrid_solver::design::Point;
 use image::RgbImage;
+use rayon::prelude::*;
 
 use super::canvas::{Layer, P};
 use super::contour_labels::{self, length, point_at, Obstacles};
@@ -101,7 +102,7 @@ pub(super) fn draw_field_lines(
     input: &MapInput,
     fl: &FieldLines,
     map_samples: &sample::Samples,
-    masked: &dyn Fn(usize, usize) -> bool,
+    masked: &(dyn Fn(usize, usize) -> bool + Sync),
 ) {
     let grid = input.grid;
     assert_eq!(
@@ -167,8 +168,12 @@ pub(super) fn draw_field_lines(
     let (w, h) = img.dimensions();
     let mut layer = Layer::new(w, h);
     let mut arrows: Vec<P> = Vec::new();
-    for seed in seeds {
-        let line = fieldlines::trace(&pot, seed, &inside);
+    // Each line traced on its own (on every thread), then drawn in the seeds' order.
+    let traced: Vec<fieldlines::FieldLine> = seeds
+        .par_iter()
+        .map(|&seed| fieldlines::trace(&pot, seed, &inside))
+        .collect();
+    for line in traced {
         let pts: Vec<P> = line.points.iter().map(|p| [p[0] + ox, p[1] + oy]).collect();
         layer.polyline(&pts, 0.9, false);
         let Some(mid) = arrow_place(&pts, &arrows) else {

@@ -74,22 +74,37 @@ where
         let o = offset(q, a, b);
         (o[0] * o[0] + o[1] * o[1], o)
     };
-    let least = segments
-        .clone()
-        .map(|s| sq(s).0)
-        .fold(f64::INFINITY, f64::min);
+    // The first few segments' offsets (a rectangle's four) are kept from the first pass for
+    // the second; more are computed again (the same bits either way).
+    let mut kept = [(0.0, [0.0; 2]); KEPT];
+    let (mut n, mut least) = (0, f64::INFINITY);
+    for (s2, o) in segments.clone().map(sq) {
+        least = least.min(s2);
+        if n < KEPT {
+            kept[n] = (s2, o);
+        }
+        n += 1;
+    }
     let cut = (least * (1.0 + TIE)).max(TINY_SQ);
     let mut best = (f64::INFINITY, [0.0, 0.0]);
-    for (s2, o) in segments.map(sq) {
+    let mut measure = |(s2, o): (f64, [f64; 2])| {
         if s2 <= cut || s2.is_nan() {
             let m = measured(o);
             if m.0 < best.0 {
                 best = m;
             }
         }
+    };
+    if n <= KEPT {
+        kept[..n].iter().copied().for_each(&mut measure);
+    } else {
+        segments.map(sq).for_each(&mut measure);
     }
     best
 }
+
+/// Segments whose offsets [`to_segments`] keeps between its two passes.
+const KEPT: usize = 4;
 
 /// Distance from q to a closed outline (0 inside), with its gradient.
 fn to_outline(q: [f64; 2], pts: &[[f64; 2]]) -> (f64, [f64; 2]) {

@@ -51,8 +51,6 @@ pub(super) fn first_unanchored(
 ) -> Option<usize> {
     let (nx, n) = (s.nx, s.len());
     assert!(n < u32::MAX as usize, "lattice too large for u32 indices");
-    let joined_east =
-        |p: usize| p % nx + 1 < nx && s.east[p] > 0.0 && s.unknown[p] && s.unknown[p + 1];
     let joined_north =
         |p: usize| p + nx < n && s.north[p] > 0.0 && s.unknown[p] && s.unknown[p + nx];
     let mut parent = vec![0u32; n];
@@ -64,12 +62,18 @@ pub(super) fn first_unanchored(
             for (k, v) in band.iter_mut().enumerate() {
                 *v = k as u32;
             }
-            for k in 0..band.len() {
-                if joined_east(base + k) {
-                    union(band, k, k + 1);
-                }
-                if k + nx < band.len() && joined_north(base + k) {
-                    union(band, k, k + nx);
+            // Row by row (no division per node), each node east then north, as one pass
+            // over the band's nodes in order.
+            for row in 0..band.len() / nx {
+                for i in 0..nx {
+                    let (k, p) = (row * nx + i, base + row * nx + i);
+                    let (u, up) = (s.unknown[p], k + nx < band.len());
+                    if u && i + 1 < nx && s.east[p] > 0.0 && s.unknown[p + 1] {
+                        union(band, k, k + 1);
+                    }
+                    if u && up && s.north[p] > 0.0 && s.unknown[p + nx] {
+                        union(band, k, k + nx);
+                    }
                 }
             }
             // Every node straight to its root, then in whole-lattice indices.
