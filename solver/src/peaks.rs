@@ -82,18 +82,32 @@ fn ways_up(values: &[f64], nx: usize, ny: usize) -> Vec<u32> {
                 continue;
             }
             let mut best = p;
+            // `top`, the value at `best`, is finite and positive: a value above it is on the
+            // lattice unless infinite, one equal to it is. The node itself is never before
+            // itself; the order of the comparisons does not matter (sweep order is total).
+            let mut take = |q: usize, v: f64| {
+                if (v > top && v < f64::INFINITY) || (v == top && q < best) {
+                    best = q;
+                    top = v;
+                }
+            };
+            if rows.len() == 3 && i > 0 && i + 1 < nx {
+                // Away from the lattice's sides: the eight neighbours at fixed offsets.
+                let around = &values[p - nx - 1..=p + nx + 1];
+                for (o, q) in [0, 1, 2, nx, nx + 2, 2 * nx, 2 * nx + 1, 2 * nx + 2]
+                    .into_iter()
+                    .map(|o| (o, p - nx - 1 + o))
+                {
+                    take(q, around[o]);
+                }
+                *out = best as u32;
+                continue;
+            }
             let cols = i.saturating_sub(1)..(i + 2).min(nx);
             for qj in rows.clone() {
                 let line = &values[qj * nx..][..nx];
                 for qi in cols.clone() {
-                    let (q, v) = (qi + qj * nx, line[qi]);
-                    // Before `best` in sweep order (the node itself is never before itself).
-                    // `top`, the value at `best`, is finite and positive: a value above it is
-                    // on the lattice unless infinite, one equal to it is.
-                    if (v > top && v < f64::INFINITY) || (v == top && q < best) {
-                        best = q;
-                        top = v;
-                    }
+                    take(qi + qj * nx, line[qi]);
                 }
             }
             *out = best as u32;
