@@ -217,11 +217,7 @@ pub fn is_rectilinear(design: &Design) -> bool {
         .conductors
         .iter()
         .flat_map(|c| c.shapes())
-        .chain(design.dielectrics.iter().map(|e| &e.shape))
-        .chain(design.charges.iter().filter_map(|c| match c {
-            crate::design::Charge::Region { shape, .. } => Some(shape),
-            _ => None,
-        }));
+        .chain(interface_shapes(design));
     shapes.into_iter().all(|s| {
         outline(s).is_ok_and(|o| {
             o.pieces().all(|p| match *p {
@@ -239,7 +235,16 @@ pub fn junctions_of(design: &Design, k: usize) -> Vec<Point> {
         return Vec::new();
     };
     let conductors: Vec<Outline> = c.shapes().filter_map(|s| outline(s).ok()).collect();
-    let dielectrics: Vec<Outline> = design
+    let dielectrics: Vec<Outline> = interface_shapes(design)
+        .filter_map(|s| outline(s).ok())
+        .collect();
+    junctions(&conductors, &dielectrics)
+}
+
+/// The shapes whose outlines are material interfaces: every dielectric's and every charge
+/// region's, in the design's order.
+fn interface_shapes(design: &Design) -> impl Iterator<Item = &crate::design::Shape> {
+    design
         .dielectrics
         .iter()
         .map(|e| &e.shape)
@@ -247,9 +252,6 @@ pub fn junctions_of(design: &Design, k: usize) -> Vec<Point> {
             crate::design::Charge::Region { shape, .. } => Some(shape),
             _ => None,
         }))
-        .filter_map(|s| outline(s).ok())
-        .collect();
-    junctions(&conductors, &dielectrics)
 }
 
 /// Most cells along one axis.
@@ -368,11 +370,7 @@ pub fn refined(
         .conductors
         .iter()
         .flat_map(|c| c.shapes().map(|s| (s, true)))
-        .chain(design.dielectrics.iter().map(|e| (&e.shape, false)))
-        .chain(design.charges.iter().filter_map(|c| match c {
-            crate::design::Charge::Region { shape, .. } => Some((shape, false)),
-            _ => None,
-        }));
+        .chain(interface_shapes(design).map(|s| (s, false)));
     for (shape, conductor) in shapes {
         let Ok(o) = outline(shape) else { continue };
         edges(&o, params, &mut ax, &mut ay);
