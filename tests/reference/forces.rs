@@ -332,7 +332,8 @@ fn a_force_through_a_junction_is_not_estimated_optimistically() {
     // electrode lies on the nitride, so its force is integrated on a path that passes the
     // junctions where its edges meet the nitride, (0, 0.5) um on the mirror plane and
     // (80, 0.5) um. The potential goes as r^lambda there (lambda = 0.5375, nitride 7.5 below,
-    // air beside), the stress along the path as r^(2 lambda - 2), and the path's force misses
+    // air beside: `study::junction_exponent`, separation of variables in the two wedges after
+    // J. Meixner's edge conditions, common practice), the stress along the path as r^(2 lambda - 2), and the path's force misses
     // about h^q of it, q = 2 lambda - 1 = 0.075, h the cells beside the junction: it
     // converges so slowly that its error is about 1 / (s^q - 1) times the last difference,
     // s the junction cells' shrink between the two lattices (18.7 for s = 2).
